@@ -1,0 +1,69 @@
+"""``python -m diag COMMAND ...``: a thin argparse layer over the library.
+
+Each command lives in ``diag/commands/<name>.py`` and provides ``register(subparsers)`` (adds its parser and sets
+``func``) and the handler.  Handlers return an exit status.  ``InputError`` becomes one line on stderr and status 2;
+nothing reaches the user as a traceback.
+"""
+from __future__ import annotations
+
+import argparse
+import importlib
+import logging
+import sys
+import warnings
+
+from diag.errors import InputError
+
+COMMANDS = ("ingest", "predict", "simulate", "analyze", "batch")
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports bad arguments on one line with status 2 (argparse's own default status is 2 too)."""
+
+    def error(self, message: str):  # pragma: no cover - exercised through main()
+        self.exit(2, f"diag: error: {message} (see 'python -m diag {self.prog.split()[-1]} --help')\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="diag", description="Why did the microwave hop fade, and what did each cause cost.")
+    parser.add_argument("-v", "--verbose", action="store_true", help="log progress and diagnostics to stderr")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMANDS:
+        try:
+            module = importlib.import_module(f"diag.commands.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"diag.commands.{name}":
+                continue  # command not built yet
+            raise
+        module.register(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    logging.basicConfig(level=logging.INFO if args.verbose else logging.WARNING,
+                        format="diag: %(message)s", stream=sys.stderr)
+    if not getattr(args, "func", None):
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("default")
+            warnings.formatwarning = lambda msg, cat, *a, **k: f"diag: warning: {msg}\n"
+            return int(args.func(args) or 0)
+    except InputError as exc:
+        print(f"diag: error: {exc.one_line()}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("diag: interrupted", file=sys.stderr)
+        return 130
+    except MemoryError:
+        print("diag: error: out of memory; split the input or use 'batch'", file=sys.stderr)
+        return 2
+    except Exception as exc:  # a bug: still one line, never a traceback
+        if args.verbose:
+            raise
+        text = " ".join(str(exc).split())[:300]
+        print(f"diag: internal error ({type(exc).__name__}): {text} (rerun with -v for details)", file=sys.stderr)
+        return 1
