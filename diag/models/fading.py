@@ -1,0 +1,253 @@
+"""Rayleigh and Rice envelope statistics in dB relative to the mean power; Rice K estimation; Rayleigh LCR/AFD.
+
+Conventions.  ``level_db`` is the received power relative to its mean, y = 10 log10(P / Omega); the power ratio
+is x = 10^(y/10).  ``k_factor`` is the linear Rice factor K = nu^2 / (2 sigma^2) (power of the steady component
+over the power of the scattered part); K = 0 is Rayleigh.  ``envelope`` samples are linear amplitudes in any unit
+(e.g. 10^(RSL_dBm/20)); use :func:`envelope_from_level_db` to convert.
+
+References
+----------
+[1] G. L. Stüber, "Principles of Mobile Communication", 2nd ed., Kluwer, 2001, §2.1-2.3 (Rice/Rayleigh envelope,
+    power pdf, level-crossing rate and average fade duration) [section numbers from memory].
+[2] T. S. Rappaport, "Wireless Communications: Principles and Practice", 2nd ed., Prentice Hall, 2002, §5.7.1,
+    eqs. (5.80) and (5.84) [equation numbers from memory]: N_R = sqrt(2 pi) f_m rho e^(-rho^2),
+    tau = (e^(rho^2) - 1) / (rho f_m sqrt(2 pi)).
+[3] A. Abdi, C. Tepedelenlioglu, M. Kaveh, G. Giannakis, "On the estimation of the K parameter for the Rice
+    fading distribution", IEEE Commun. Lett. 5(3):92-94, 2001 (moment estimator from mu2 and mu4).
+[4] L. J. Greenstein, D. G. Michelson, V. Erceg, "Moment-method estimation of the Ricean K-factor",
+    IEEE Commun. Lett. 3(6):175-176, 1999.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import optimize, special, stats
+
+from diag.models._util import ArrayLike, as_float_array, like_input
+
+__all__ = ["rayleigh_pdf_db", "rayleigh_cdf_db", "rayleigh_exceedance_db", "rice_pdf_db", "rice_cdf_db",
+           "rice_exceedance_db", "k_factor_db", "k_factor_linear", "envelope_from_level_db", "rice_k_moments",
+           "rice_k_mle", "RiceFit", "fit_rice", "rayleigh_level_crossing_rate_hz",
+           "rayleigh_average_fade_duration_s", "doppler_from_crossing_rate_hz"]
+
+_LN10_OVER_10 = math.log(10.0) / 10.0
+
+
+def k_factor_db(k_factor: ArrayLike) -> ArrayLike:
+    """Linear K to dB (K = 0 gives -inf)."""
+    with np.errstate(divide="ignore"):
+        return like_input(10.0 * np.log10(as_float_array(k_factor)), k_factor)
+
+
+def k_factor_linear(k_db: ArrayLike) -> ArrayLike:
+    """K in dB to linear."""
+    return like_input(10.0 ** (as_float_array(k_db) / 10.0), k_db)
+
+
+def envelope_from_level_db(level_db: ArrayLike) -> np.ndarray:
+    """Linear amplitude 10^(level/20) from levels in dB or dBm (e.g. RSL samples)."""
+    return 10.0 ** (as_float_array(level_db) / 20.0)
+
+
+def _power_ratio(level_db: ArrayLike) -> np.ndarray:
+    return 10.0 ** (as_float_array(level_db) / 10.0)
+
+
+def rayleigh_pdf_db(level_db: ArrayLike) -> ArrayLike:
+    """Density [1/dB] of the Rayleigh-faded power in dB relative to its mean.
+
+    Power x = P/Omega is exponential, f(x) = e^(-x) [1, §2.1]; in dB f_Y(y) = e^(-x) x ln10/10.
+    """
+    x = _power_ratio(level_db)
+    return like_input(np.exp(-x) * x * _LN10_OVER_10, level_db)  # f_X(x) |dx/dy|
+
+
+def rayleigh_cdf_db(level_db: ArrayLike) -> ArrayLike:
+    """P(power below level) = 1 - exp(-10^(y/10)) for Rayleigh fading [1, §2.1].
+
+    For deep fades this is about 10^(-F/10) at y = -F: ten decibels per decade of probability.
+    """
+    x = _power_ratio(level_db)
+    return like_input(-np.expm1(-x), level_db)
+
+
+def rayleigh_exceedance_db(level_db: ArrayLike) -> ArrayLike:
+    """P(power above level) = exp(-10^(y/10)) for Rayleigh fading [1, §2.1]."""
+    x = _power_ratio(level_db)
+    return like_input(np.exp(-x), level_db)
+
+
+def _k_array(k_factor: ArrayLike) -> np.ndarray:
+    k = as_float_array(k_factor)
+    if np.any(k < 0):
+        raise ValueError("k_factor must be >= 0 (linear ratio; use k_factor_linear for dB)")
+    return k
+
+
+def rice_pdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
+    """Density [1/dB] of the Rice-faded power in dB relative to its mean.
+
+    f(x) = (K+1) e^(-K-(K+1)x) I0(2 sqrt(K(K+1)x)) for x = P/Omega [1, §2.1.1]; f_Y(y) = f(x) x ln10/10.
+    Computed with the exponentially scaled I0 to stay finite for large K.
+    """
+    x = _power_ratio(level_db)
+    k = _k_array(k_factor)
+    z = 2.0 * np.sqrt(k * (k + 1.0) * x)
+    density_x = (k + 1.0) * np.exp(-k - (k + 1.0) * x + z) * special.i0e(z)  # Rice power pdf, I0 = i0e e^z
+    return like_input(density_x * x * _LN10_OVER_10, level_db, k_factor)
+
+
+def rice_cdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
+    """P(power below level) for Rice fading: 1 - Q1(sqrt(2K), sqrt(2(K+1)x)) [1, §2.1.1].
+
+    Evaluated as the non-central chi-square law of 2(K+1)x with 2 degrees of freedom and non-centrality 2K.
+    """
+    x = _power_ratio(level_db)
+    k = _k_array(k_factor)
+    x, k = np.broadcast_arrays(x, k)
+    cdf = np.where(k > 0, stats.ncx2.cdf(2.0 * (k + 1.0) * x, 2.0, 2.0 * np.where(k > 0, k, 1.0)), -np.expm1(-x))
+    return like_input(cdf, level_db, k_factor)
+
+
+def rice_exceedance_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
+    """P(power above level) for Rice fading: Q1(sqrt(2K), sqrt(2(K+1)x)) [1, §2.1.1]."""
+    x = _power_ratio(level_db)
+    k = _k_array(k_factor)
+    x, k = np.broadcast_arrays(x, k)
+    sf = np.where(k > 0, stats.ncx2.sf(2.0 * (k + 1.0) * x, 2.0, 2.0 * np.where(k > 0, k, 1.0)), np.exp(-x))
+    return like_input(sf, level_db, k_factor)
+
+
+def _clean_envelope(envelope: ArrayLike) -> np.ndarray:
+    r = as_float_array(envelope).ravel()
+    r = r[np.isfinite(r)]
+    if np.any(r < 0):
+        raise ValueError("envelope samples must be >= 0 (linear amplitude; see envelope_from_level_db)")
+    if r.size < 10:
+        raise ValueError(f"need at least 10 finite envelope samples to estimate K, got {r.size}")
+    return r
+
+
+def rice_k_moments(envelope: ArrayLike) -> float:
+    """Rice K (linear) from the second and fourth envelope moments.
+
+    K = sqrt(2 mu2^2 - mu4) / (mu2 - sqrt(2 mu2^2 - mu4)), mu_n = E[r^n] [3]; equivalently the power-domain form
+    of [4].  Returns 0 when 2 mu2^2 <= mu4 (fading at least as deep as Rayleigh) and inf for a constant envelope.
+    NaNs are ignored.
+    """
+    r = _clean_envelope(envelope)
+    scale = np.mean(r * r)
+    p = r * r / scale  # normalised power: K is scale-free
+    mu2 = 1.0
+    mu4 = float(np.mean(p * p))
+    d = 2.0 * mu2 * mu2 - mu4
+    if d <= 0:
+        return 0.0
+    s = math.sqrt(d)
+    if mu2 - s <= 1e-12:
+        return math.inf
+    return s / (mu2 - s)
+
+
+def _rice_nll(params: np.ndarray, r: np.ndarray) -> float:
+    k, log_omega = params
+    omega = math.exp(log_omega)
+    two_sigma2 = omega / (k + 1.0)  # 2 sigma^2 = Omega / (K+1)
+    nu = math.sqrt(k * omega / (k + 1.0))  # nu^2 = K Omega / (K+1)
+    z = 2.0 * r * nu / two_sigma2
+    # log f(r) = log(2r/(2 sigma^2)) - (r^2 + nu^2)/(2 sigma^2) + log I0(r nu / sigma^2); log r dropped (constant)
+    ll = math.log(2.0 / two_sigma2) - (r * r + nu * nu) / two_sigma2 + np.log(special.i0e(z)) + z
+    return -float(np.sum(ll))
+
+
+def rice_k_mle(envelope: ArrayLike) -> float:
+    """Rice K (linear) by maximum likelihood over (K, Omega) of the Rice envelope density [1, §2.1.1].
+
+    Numerical maximisation (L-BFGS-B, K in [0, 10^4]) started from the moment estimate.  NaNs are ignored.
+    """
+    return fit_rice(envelope, method="mle").k_factor
+
+
+@dataclass(frozen=True)
+class RiceFit:
+    """A Rice fit to envelope samples.
+
+    Attributes
+    ----------
+    k_factor : linear K (0 = Rayleigh)
+    k_factor_db : 10 log10 K [dB] (-inf for K = 0)
+    mean_power : Omega = E[r^2] of the fitted law, in the square of the envelope's unit
+    n_samples : finite samples used
+    method : "moments" or "mle"
+    """
+
+    k_factor: float
+    k_factor_db: float
+    mean_power: float
+    n_samples: int
+    method: str
+
+    def to_dict(self) -> dict:
+        return {"k_factor": self.k_factor, "k_factor_db": self.k_factor_db, "mean_power": self.mean_power,
+                "n_samples": self.n_samples, "method": self.method}
+
+
+def fit_rice(envelope: ArrayLike, method: str = "mle") -> RiceFit:
+    """Fit a Rice law to envelope samples by ``method`` "moments" ([3]) or "mle" (maximum likelihood)."""
+    r = _clean_envelope(envelope)
+    scale = float(np.mean(r * r))
+    if scale <= 0:
+        raise ValueError("envelope samples are all zero")
+    k0 = rice_k_moments(r)
+    if method == "moments":
+        k, omega = k0, scale
+    elif method == "mle":
+        rn = r / math.sqrt(scale)  # fit on unit mean power, rescale after
+        start = np.array([min(k0, 1e3) if math.isfinite(k0) else 1e3, 0.0])
+        best = None
+        for k_start in {float(start[0]), 1.0}:
+            res = optimize.minimize(_rice_nll, np.array([k_start, 0.0]), args=(rn,), method="L-BFGS-B",
+                                    bounds=[(0.0, 1e4), (-3.0, 3.0)])
+            if best is None or res.fun < best.fun:
+                best = res
+        k, omega = float(best.x[0]), scale * math.exp(float(best.x[1]))
+    else:
+        raise ValueError(f"method must be 'moments' or 'mle', not {method!r}")
+    k_db = 10.0 * math.log10(k) if k > 0 else -math.inf
+    return RiceFit(k_factor=float(k), k_factor_db=k_db, mean_power=float(omega), n_samples=int(r.size), method=method)
+
+
+def _rho(level_db: ArrayLike) -> np.ndarray:
+    return np.sqrt(_power_ratio(level_db))  # rho = R / R_rms
+
+
+def rayleigh_level_crossing_rate_hz(level_db: ArrayLike, doppler_hz: ArrayLike) -> ArrayLike:
+    """Rayleigh level-crossing rate (crossings per second in one direction) [Hz].
+
+    N_R = sqrt(2 pi) f_m rho e^(-rho^2), rho^2 = 10^(level/10) with the level relative to the mean power and f_m
+    the maximum Doppler (fading bandwidth) of a Clarke/Jakes spectrum [2, eq. (5.80)].
+    """
+    rho = _rho(level_db)
+    fm = as_float_array(doppler_hz)
+    rate = math.sqrt(2.0 * math.pi) * fm * rho * np.exp(-rho * rho)  # N_R
+    return like_input(rate, level_db, doppler_hz)
+
+
+def rayleigh_average_fade_duration_s(level_db: ArrayLike, doppler_hz: ArrayLike) -> ArrayLike:
+    """Rayleigh average fade duration below a level [s]: (e^(rho^2) - 1) / (rho f_m sqrt(2 pi)) [2, eq. (5.84)].
+
+    Equals P(below level) / N_R.
+    """
+    rho = _rho(level_db)
+    fm = as_float_array(doppler_hz)
+    duration = np.expm1(rho * rho) / (rho * fm * math.sqrt(2.0 * math.pi))  # tau
+    return like_input(duration, level_db, doppler_hz)
+
+
+def doppler_from_crossing_rate_hz(crossing_rate_hz: ArrayLike, level_db: ArrayLike) -> ArrayLike:
+    """Fading bandwidth f_m implied by an observed crossing rate at a level (inverse of the Rayleigh N_R) [Hz]."""
+    rho = _rho(level_db)
+    fm = as_float_array(crossing_rate_hz) / (math.sqrt(2.0 * math.pi) * rho * np.exp(-rho * rho))
+    return like_input(fm, crossing_rate_hz, level_db)
