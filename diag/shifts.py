@@ -9,12 +9,16 @@ swing it both ways around its mean (multipath), so the detector works on robust 
 2. at every block boundary the *clear-sky level* of the ``window_s`` before and after is compared.  The clear-sky
    level of a window is a trimmed median: the median of the samples no more than ``fade_trim_db`` below the
    window's upper quartile (fades are cut away, noise is not);
-3. boundaries where the difference exceeds ``min_step_db`` and is a local maximum within ``window_s`` are candidate
-   steps; a candidate is kept when the new level persists, i.e. the clear-sky level of the following
-   ``persist_s`` (or what remains of the record, at least one window) still differs from the previous one by more
-   than half the step;
-4. the step time is refined at full resolution within one block either side: with the levels before and after
-   fixed, the split that minimises the sum of absolute deviations is found with a cumulative sum (exact, O(n)).
+3. boundaries where the difference exceeds ``min_step_db`` and is a local maximum within ``window_s`` are
+   candidates.  They are tried largest first; the evidence windows are bounded only by steps already accepted.
+   A candidate is kept when (a) the new level persists over ``persist_s`` (or up to the next accepted step, at
+   least one window) by at least half the step, (b) it is flat (most blocks after it sit near the new level;
+   a long rain fade wanders), and (c) it is abrupt: the clear level of the ``abrupt_s`` just before and after
+   the refined time already differ by ``min_abrupt_fraction`` of the step (the slow end of a refractive fade
+   or a drift is not);
+4. the step time is refined at full resolution over the plateau where the two-window difference stays within
+   80 % of its peak: with the levels before and after fixed, the split that minimises the sum of absolute
+   deviations is found with a cumulative sum (exact, O(n)); samples faded below both levels are ignored.
 
 The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected
 steps have been removed, in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
@@ -64,36 +68,54 @@ def clear_level_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
     return float(np.median(kept))
 
 
+def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float) -> np.ndarray:
+    """Quantile q (linear interpolation, as numpy's default) of each row of a row-sorted matrix whose first
+    ``count`` entries are finite (NaN after them)."""
+    pos = q * np.maximum(count - 1, 0)
+    lo = np.floor(pos).astype(int)
+    hi = np.minimum(lo + 1, np.maximum(count - 1, 0))
+    rows = np.arange(sorted_rows.shape[0])
+    v_lo = sorted_rows[rows, np.minimum(lo, sorted_rows.shape[1] - 1)]
+    v_hi = sorted_rows[rows, np.minimum(hi, sorted_rows.shape[1] - 1)]
+    out = v_lo + (pos - lo) * (v_hi - v_lo)
+    return np.where(count > 0, out, np.nan)
+
+
+def _clear_rows(matrix: np.ndarray, *, fade_trim_db: float, min_count: int = 3) -> np.ndarray:
+    """:func:`clear_level_dbm` of every row of ``matrix`` at once (vectorised; NaN = no value)."""
+    srt = np.sort(matrix, axis=1)                   # NaN sort last
+    count = np.isfinite(matrix).sum(axis=1)
+    q75 = _row_quantile(srt, count, 0.75)
+    with np.errstate(invalid="ignore"):
+        kept = np.where(matrix >= (q75 - fade_trim_db)[:, None], matrix, np.nan)
+    srt2 = np.sort(kept, axis=1)
+    count2 = np.isfinite(kept).sum(axis=1)
+    med = _row_quantile(srt2, count2, 0.5)
+    med[count < min_count] = np.nan
+    return med
+
+
 def _block_levels(level: np.ndarray, block: int, *, fade_trim_db: float) -> np.ndarray:
     """Clear-sky level of consecutive blocks of ``block`` samples (NaN when under half the block is valid)."""
+    if block == 1:
+        return level.astype(float).copy()
     n_blocks = len(level) // block + (1 if len(level) % block else 0)
     padded = np.full(n_blocks * block, np.nan)
     padded[: len(level)] = level
-    blocks = padded.reshape(n_blocks, block)
-    valid = np.isfinite(blocks).sum(axis=1)
-    if block == 1:
-        return blocks[:, 0].copy()
-    q75 = np.nanquantile(np.where(valid[:, None] > 0, blocks, 0.0), 0.75, axis=1)
-    trimmed = np.where(blocks >= (q75 - fade_trim_db)[:, None], blocks, np.nan)
-    with np.errstate(all="ignore"):
-        import warnings
-
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)
-            med = np.nanmedian(trimmed, axis=1)
-    med[valid < max(1, block // 2)] = np.nan
-    return med
+    return _clear_rows(padded.reshape(n_blocks, block), fade_trim_db=fade_trim_db,
+                       min_count=max(1, block // 2))
 
 
 def _window_levels(blocks: np.ndarray, w: int, *, fade_trim_db: float) -> tuple[np.ndarray, np.ndarray]:
     """For each boundary i (between block i-1 and i): clear level of blocks [i-w, i) and [i, i+w)."""
     n = len(blocks)
+    padded = np.concatenate([np.full(w, np.nan), blocks, np.full(w, np.nan)])
+    windows = np.lib.stride_tricks.sliding_window_view(padded, w)   # windows[j] = padded[j:j+w]
+    levels = _clear_rows(np.ascontiguousarray(windows), fade_trim_db=fade_trim_db)
     before = np.full(n + 1, np.nan)
     after = np.full(n + 1, np.nan)
-    for i in range(1, n):
-        lo, hi = max(0, i - w), min(n, i + w)
-        before[i] = clear_level_dbm(blocks[lo:i], fade_trim_db=fade_trim_db)
-        after[i] = clear_level_dbm(blocks[i:hi], fade_trim_db=fade_trim_db)
+    before[1:n] = levels[1:n]            # blocks[i-w:i] = padded[i:i+w]
+    after[1:n] = levels[w + 1: w + n]    # blocks[i:i+w] = padded[i+w:i+2w]
     return before, after
 
 
@@ -105,23 +127,24 @@ def _flat_fraction(blocks: np.ndarray, level: float, step_db: float) -> float:
     return float(np.mean(np.abs(x - level) <= max(1.0, step_db / 4.0)))
 
 
-def _refine(level: np.ndarray, centre: int, half: int, before: float, after: float) -> int:
-    """Index of the first sample at the new level: minimise sum|x - before| (left) + sum|x - after| (right)."""
-    lo, hi = max(1, centre - half), min(len(level) - 1, centre + half)
-    if hi <= lo:
-        return centre
-    x = level[lo - 1: hi]
-    ok = np.isfinite(x)
-    # cost(k) = sum_{i<k} |x_i - before| + sum_{i>=k} |x_i - after|; differences via cumulative sums
+def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *, fade_trim_db: float) -> int:
+    """Index in [lo, hi] of the first sample at the new level: minimise sum|x - before| (left of the split) +
+    sum|x - after| (right), with samples faded below both levels left out (they carry no information)."""
+    lo, hi = max(0, lo), min(len(level), hi)
+    if hi - lo < 2:
+        return lo
+    x = level[lo:hi]
+    ok = np.isfinite(x) & (x >= min(before, after) - fade_trim_db)
+    # cost(k) - cost(lo) = sum_{lo<=i<k} (|x_i - before| - |x_i - after|): cumulative sum, argmin is the split
     gain = np.where(ok, np.abs(x - before) - np.abs(x - after), 0.0)
-    cost = np.concatenate([[0.0], np.cumsum(gain)])  # cost relative to "all at the new level", split at k
-    k = int(np.argmin(cost))
-    return lo - 1 + k
+    cost = np.concatenate([[0.0], np.cumsum(gain)])
+    return lo + int(np.argmin(cost))
 
 
 def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
                  window_s: float = 7200.0, persist_s: float = 6 * 3600.0,
-                 fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6) -> list[Step]:
+                 fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6, abrupt_s: float = 600.0,
+                 min_abrupt_fraction: float = 0.6) -> list[Step]:
     """Persistent steps of the clear-sky level of one channel.
 
     Parameters
@@ -142,6 +165,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     min_flat_fraction : float
         Share of the blocks after the step that must sit within max(1 dB, step/4) of the new level (a long rain
         fade wanders; a step is flat).
+    abrupt_s, min_abrupt_fraction : float
+        Abruptness check: the clear level over ``abrupt_s`` before and after the refined time must differ by at
+        least this fraction of the step (rejects the slow end of a refractive fade and drifts).
 
     Returns
     -------
@@ -171,36 +197,55 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
             continue
         taken[i] = True
         candidates.append(int(i))
-    candidates.sort()
-    steps: list[Step] = []
-    for j, i in enumerate(candidates):
-        nxt = candidates[j + 1] if j + 1 < len(candidates) else n
-        prev = candidates[j - 1] if j > 0 else 0
-        lo = max(prev, i - p)
-        hi = min(nxt, i + p)
+    # accept the largest candidates first; windows are bounded only by steps already accepted, so a rejected
+    # candidate (the start of a long fade) never shortens the evidence of a real step next to it
+    accepted: list[int] = []   # boundaries (block index) of accepted steps
+    found: dict[int, Step] = {}
+    for i in candidates:       # already in order of decreasing |diff|
+        prev = max([a for a in accepted if a < i], default=0)
+        nxt = min([a for a in accepted if a > i], default=n)
+        lo, hi = max(prev, i - p), min(nxt, i + p)
         old = clear_level_dbm(blocks[lo:i], fade_trim_db=fade_trim_db)
         new = clear_level_dbm(blocks[i:hi], fade_trim_db=fade_trim_db)
         if not (math.isfinite(old) and math.isfinite(new)):
             continue
         if abs(new - old) < max(min_step_db, abs(diff[i]) / 2):
             continue  # not persistent: a long fade, not a step
-        if (hi - i) < w:
+        if (hi - i) < w or (i - lo) < w:
             continue
         if _flat_fraction(blocks[i:hi], new, abs(new - old)) < min_flat_fraction:
             continue  # the 'new level' wanders (a long rain fade), not a step
-        # refine at full resolution within +- one block plus a little
-        centre = i * block
-        k = _refine(values, centre, block + max(1, block // 2), before[i], after[i])
-        k = min(max(k, 0), len(values) - 1)
-        # size from the full-resolution samples around the refined time (windows clipped at the neighbours)
+        # refine at full resolution over the plateau of |diff| around i (the two windows see the same step
+        # anywhere on it), widened by one block either side
+        thr = 0.8 * mag[i]
+        a = i
+        while a - 1 > prev and mag[a - 1] >= thr:
+            a -= 1
+        b = i
+        while b + 1 < nxt and mag[b + 1] >= thr:
+            b += 1
+        span_lo = max(prev * block, (a - 1) * block)
+        span_hi = min(nxt * block, (b + 1) * block, len(values))
+        k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
+        # abruptness: the clear level just before and just after must already differ by most of the step
+        m = max(3, int(round(abrupt_s / interval_s)))
+        near_old = clear_level_dbm(values[max(prev * block, k - m):k], fade_trim_db=fade_trim_db)
+        near_new = clear_level_dbm(values[k:min(nxt * block, k + m)], fade_trim_db=fade_trim_db)
+        if not (math.isfinite(near_old) and math.isfinite(near_new)):
+            continue
+        if abs(near_new - near_old) < min_abrupt_fraction * abs(new - old) or \
+                np.sign(near_new - near_old) != np.sign(new - old):
+            continue  # a slow change (the end of a refractive fade, a drift), not a step
         lo_s = max(prev * block, k - p * block)
         hi_s = min(nxt * block, k + p * block)
         old_s = clear_level_dbm(values[lo_s:k], fade_trim_db=fade_trim_db)
         new_s = clear_level_dbm(values[k:hi_s], fade_trim_db=fade_trim_db)
         if not (math.isfinite(old_s) and math.isfinite(new_s)):
             old_s, new_s = old, new
-        steps.append(Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
-                          after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s)))
+        accepted.append(i)
+        found[i] = Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
+                        after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s))
+    steps = [found[i] for i in sorted(found)]
     return steps
 
 
