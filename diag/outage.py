@@ -1,0 +1,556 @@
+"""Outage accounting of one hop: below-threshold time, G.826 unavailable time and SES, by cause, with bounds.
+
+``account_link(result)`` reads ``result.series`` (one ``ChannelSeries`` per channel on a regular grid), the hop's
+receiver threshold and availability objective, and returns a ``diag.results.OutageResult``.
+
+Counting rules (see README section "outage"):
+
+* A second is **below threshold** when the receive level is strictly below ``link.threshold_dbm`` or the radio
+  reported loss of signal (status "signal_lost").  Statuses "missing" and "no_data" are **no data**: excluded from
+  the observed time, reported apart, never outage.
+* A below-threshold second is taken as a **severely errored second** (SES).  This is a level-based estimate: the
+  radio's own counters (when logged) are shown beside it.
+* **Unavailable time** follows ITU-T G.826 / G.828 Annex A (``diag.models.g826``): it starts at the first of ten
+  consecutive SES (those ten count as unavailable) and ends at the first of ten consecutive non-SES seconds (those
+  count as available).  A data gap restarts the rule.  **SES in available time** are the SES outside it.
+* **Availability** = 100 (1 - unavailable / observed) over the observed time only.
+* **Link level**: a second is SES if any traffic channel of the hop is (both polarisations of a dual-polarised hop,
+  or both directions); it is observed if any channel has data.  The 10-second rule is then applied to that combined
+  mask.  By the rule's monotonicity this is never less than the union of the per-direction unavailable times that
+  G.826 Annex A prescribes for a bidirectional path (it can be a few seconds more when short SES bursts on the two
+  channels interleave).
+* **Cause**: each below-threshold second takes the cause of the fade event covering it (``frame["cause"]``).  An
+  unavailable second that is not itself covered by an event takes the dominant cause of its unavailable period;
+  "unknown" where there is none.  Every second has exactly one cause, so the per-cause rows add up exactly.
+
+Bounds (logs coarser than one second, and interval min/avg/max statistics) are described in ``_sample_masks`` and
+``_stats_masks``; the exact columns are then NaN and the ``*_lo`` / ``*_hi`` fields carry the bounds.
+"""
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from diag import schema
+from diag.models import g826
+from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult, OutageResult
+
+log = logging.getLogger(__name__)
+
+CAUSES = list(schema.CAUSES)
+_UNKNOWN = CAUSES.index(schema.UNKNOWN)
+_COUNTERS = (schema.ES, schema.SES, schema.UAS)
+_ROUNDING_DB = 0.05   # exported levels are usually printed to 0.1 dB: half a step of slack in the stats bounds
+
+METHOD_EXACT = "exact: 1-s samples, each second counted (G.826 10-s rule on the per-second mask)"
+METHOD_SAMPLES = ("bounds from {dt:g}-s samples, assuming the level crosses the threshold at most once between two "
+                  "samples (fades shorter than the sampling interval between two good samples are not seen): "
+                  "lower = only the sampled seconds, upper = the whole interval up to the next good sample; "
+                  "unavailable time from the G.826 rule on both masks (the rule is monotone)")
+METHOD_STATS = ("bounds from {dt:g}-s min/avg/max statistics: an interval whose max is below threshold is below "
+                "for all of it; one whose min is at or above threshold is clear; otherwise between 1 s and "
+                "interval - 1 s, narrowed by the interval average (valid whether the radio averages dBm or mW); "
+                "unavailable time: lower = fully-below intervals, upper = every interval that may hold a "
+                "below-threshold second, except clusters that cannot hold ten")
+
+
+@dataclass
+class _Masks:
+    """Per-second arrays of one channel (or the whole link) over the link period."""
+
+    observed: np.ndarray      # bool: the second has data
+    lo: np.ndarray            # bool: lower-bound below-threshold seconds (counts are right, placement may not be)
+    hi: np.ndarray            # bool: upper-bound below-threshold seconds
+    certain: np.ndarray       # bool: seconds certainly below threshold (subset of the truth)
+    possible: np.ndarray      # bool: seconds that may be below threshold (superset of the truth)
+    cause: np.ndarray         # int8: cause index (CAUSES) of the event covering the second, _UNKNOWN when none
+    exact: bool
+    method: str
+    interval_s: float
+    kind: str
+
+
+def _empty(n: int) -> np.ndarray:
+    return np.zeros(n, dtype=bool)
+
+
+def _cause_codes(frame: pd.DataFrame) -> np.ndarray:
+    if "cause" not in frame.columns:
+        return np.full(len(frame), _UNKNOWN, dtype=np.int8)
+    cause = frame["cause"].astype(object).where(frame["cause"].notna(), "")
+    lookup = {name: i for i, name in enumerate(CAUSES)}
+    return np.fromiter((lookup.get(str(c), _UNKNOWN) for c in cause), dtype=np.int8, count=len(cause))
+
+
+def _offsets(frame: pd.DataFrame, t0: pd.Timestamp) -> np.ndarray:
+    delta = (frame.index - t0) / pd.Timedelta(seconds=1)
+    return np.round(np.asarray(delta, dtype=float)).astype(np.int64)
+
+
+def _status(frame: pd.DataFrame) -> np.ndarray:
+    if "status" not in frame.columns:
+        return np.where(frame["rsl_dbm"].notna(), schema.OK, GRID_NO_DATA).astype(object)
+    return frame["status"].astype(object).fillna(GRID_NO_DATA).to_numpy()
+
+
+def _fill(target: np.ndarray, starts, lengths, values=None) -> None:
+    """Set target[start:start + length] for every (start, length): True, or the matching entry of ``values``."""
+    n = target.size
+    starts = np.asarray(starts, dtype=np.int64)
+    s = np.clip(starts, 0, n)
+    e = np.clip(starts + np.asarray(lengths, dtype=np.int64), 0, n)
+    lens = np.maximum(e - s, 0)
+    total = int(lens.sum())
+    if total == 0:
+        return
+    pos = np.repeat(s, lens) + np.arange(total) - np.repeat(np.cumsum(lens) - lens, lens)
+    target[pos] = True if values is None else np.repeat(np.asarray(values), lens)
+
+
+def _exact_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float) -> _Masks:
+    """1-s (or finer) samples: every second is known.  Finer samples: a second is below threshold when at least
+    30 % of its observed samples are (by analogy with the G.826 SES definition, >= 30 % errored blocks)."""
+    frame = series.frame
+    off = _offsets(frame, t0)
+    status = _status(frame)
+    rsl = frame["rsl_dbm"].to_numpy(dtype=float)
+    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
+    below = (status == schema.SIGNAL_LOST) | ((status == schema.OK) & (rsl < threshold_dbm))
+    codes = _cause_codes(frame)
+    inside = (off >= 0) & (off < n)
+    obs_s, below_s = _empty(n), _empty(n)
+    cause_s = np.full(n, _UNKNOWN, dtype=np.int8)
+    if series.interval_s < 1.0 - 1e-9:
+        count_obs = np.bincount(off[inside & observed], minlength=n)[:n]
+        count_below = np.bincount(off[inside & below], minlength=n)[:n]
+        obs_s = count_obs > 0
+        below_s = obs_s & (count_below >= 0.3 * np.maximum(count_obs, 1))
+        sel = inside & below & (codes != _UNKNOWN)
+        cause_s[off[sel]] = codes[sel]
+    else:
+        obs_s[off[inside & observed]] = True
+        below_s[off[inside & below]] = True
+        cause_s[off[inside]] = codes[inside]
+    return _Masks(obs_s, below_s, below_s.copy(), below_s.copy(), below_s.copy(), cause_s, True, METHOD_EXACT,
+                  float(series.interval_s), series.kind)
+
+
+def _sample_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float) -> _Masks:
+    """Instantaneous samples every dt > 1 s.  Assumption A: at most one threshold crossing between two samples.
+
+    Segment [t_i, t_i + dt) after an observed sample:
+      both ends below -> all dt seconds below (lower and upper);  both clear -> none;
+      below then clear -> lower 1 s (the sample), upper dt s;  clear then below -> lower 0, upper dt - 1 s;
+      next sample unobserved -> the sample's own second (lower) or the held value for the segment (upper).
+    Under A the lower and upper masks are themselves possible histories, so by the monotonicity of the G.826 rule
+    the unavailable time of the truth lies between theirs.
+    """
+    frame = series.frame
+    dt = int(round(series.interval_s))
+    off = _offsets(frame, t0)
+    status = _status(frame)
+    rsl = frame["rsl_dbm"].to_numpy(dtype=float)
+    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
+    below = (status == schema.SIGNAL_LOST) | ((status == schema.OK) & (rsl < threshold_dbm))
+    nxt_obs = np.append(observed[1:], False) & (np.append(off[1:], -1) == off + dt)
+    nxt_below = np.append(below[1:], False)
+    codes = _cause_codes(frame)
+    obs_s, lo, hi = _empty(n), _empty(n), _empty(n)
+    cause_s = np.full(n, _UNKNOWN, dtype=np.int8)
+    o = observed
+    _fill(obs_s, off[o], np.full(o.sum(), dt))
+    _fill(cause_s, off[o], np.full(o.sum(), dt), codes[o])
+    both = o & below & nxt_obs & nxt_below
+    down_up = o & below & nxt_obs & ~nxt_below
+    up_down = o & ~below & nxt_obs & nxt_below
+    held = o & below & ~nxt_obs
+    _fill(lo, off[both], np.full(both.sum(), dt))
+    _fill(lo, off[down_up | held], np.ones((down_up | held).sum(), dtype=np.int64))
+    _fill(hi, off[both | down_up | held], np.full((both | down_up | held).sum(), dt))
+    _fill(hi, off[up_down] + 1, np.full(up_down.sum(), dt - 1))
+    # cause of the upper-bound seconds before a later below sample: that sample's cause
+    codes_next = np.append(codes[1:], _UNKNOWN).astype(np.int8)
+    _fill(cause_s, off[up_down] + 1, np.full(up_down.sum(), dt - 1), codes_next[up_down])
+    return _Masks(obs_s, lo, hi, lo.copy(), hi.copy(), cause_s, False, METHOD_SAMPLES.format(dt=dt),
+                  float(series.interval_s), series.kind)
+
+
+def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, seconds: int,
+                          *, rounding_db: float = _ROUNDING_DB) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper bounds on the number of below-threshold seconds in intervals of ``seconds`` 1-s values
+    summarised by their min, average and max [dBm] (NaN = not reported; -inf min = signal lost).
+
+    min >= T: 0.  max < T: all.  Otherwise at least 1 and at most seconds - 1, and, with the average a:
+    below values lie in [min, T) and the others in [T, max], so
+      k >= n (T - a) / (T - min)   and   k <= n (max - a) / (max - T)        (mean-value bounds)
+    computed both for an average of dBm values and for an average of mW (the export rarely says which); the
+    looser of the two is kept so the bounds hold either way.  ``rounding_db`` widens the inputs for print rounding.
+    """
+    mn = np.asarray(min_dbm, dtype=float)
+    av = np.asarray(avg_dbm, dtype=float)
+    mx = np.asarray(max_dbm, dtype=float)
+    T = float(threshold_dbm)
+    n = float(seconds)
+    mn_l = np.where(np.isnan(mn), -np.inf, mn - rounding_db)
+    mx_h = np.where(np.isnan(mx), np.inf, mx + rounding_db)
+    all_below = mx_h < T
+    none_below = mn_l >= T
+    lo = np.where(all_below, n, 0.0)
+    hi = np.where(none_below, 0.0, n)
+    partial = ~all_below & ~none_below
+    has_avg = np.isfinite(av)
+    a_hi = av + rounding_db   # the largest the true average can be
+    a_lo = av - rounding_db
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # dB-average domain
+        k_lo_db = n * (T - a_hi) / (T - mn_l)
+        k_hi_db = n * (mx_h - a_lo) / (mx_h - T)
+        # mW-average domain (power 10^(x/10); a signal-lost second has power >= 0)
+        p = lambda x: np.power(10.0, x / 10.0)  # noqa: E731
+        k_lo_mw = n * (p(T) - p(a_hi)) / (p(T) - p(mn_l))
+        k_hi_mw = n * (p(mx_h) - p(a_lo)) / (p(mx_h) - p(T))
+    k_lo = np.fmin(k_lo_db, k_lo_mw)
+    k_hi = np.fmax(k_hi_db, k_hi_mw)
+    k_lo = np.where(has_avg & np.isfinite(k_lo), np.ceil(k_lo - 1e-9), 0.0)
+    k_hi = np.where(has_avg & np.isfinite(k_hi) & (mx_h < np.inf), np.floor(k_hi + 1e-9), n)
+    # an average below threshold implies at least one value below it (in either domain)
+    k_lo = np.where(has_avg & (a_hi < T), np.maximum(k_lo, 1.0), k_lo)
+    partial_lo = np.where(np.isfinite(mn), 1.0, 0.0)          # the min second itself was below
+    partial_hi = np.where(np.isfinite(mx), n - 1.0, n)         # the max second itself was clear
+    lo_p = np.clip(np.maximum(k_lo, partial_lo), 0.0, partial_hi)
+    hi_p = np.clip(np.minimum(k_hi, partial_hi), lo_p, n)
+    lo = np.where(partial, lo_p, lo)
+    hi = np.where(partial, hi_p, hi)
+    return lo.astype(np.int64), hi.astype(np.int64)
+
+
+def _stats_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float,
+                 rotation: dict[int, int]) -> _Masks:
+    """Interval min/avg/max statistics: per-interval bounds from ``stats_interval_bounds``.
+
+    Placement inside an interval is unknown, so the lower/upper masks put the counted seconds at the start of the
+    interval (lower; channels overlap, giving the link a valid lower bound) or one after the other across channels
+    (upper, via ``rotation``; the link count is then min(n, sum), a valid upper bound).  For unavailable time only
+    ``certain`` (fully-below intervals) and ``possible`` (intervals that may hold a below second) are used.
+    """
+    frame = series.frame
+    dt = int(round(series.interval_s))
+    off = _offsets(frame, t0)
+    status = _status(frame)
+    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
+    lost = status == schema.SIGNAL_LOST
+    mn = frame["rsl_min_dbm"].to_numpy(dtype=float) if "rsl_min_dbm" in frame else np.full(len(frame), np.nan)
+    mx = frame["rsl_max_dbm"].to_numpy(dtype=float) if "rsl_max_dbm" in frame else np.full(len(frame), np.nan)
+    av = frame["rsl_dbm"].to_numpy(dtype=float)
+    mn = np.where(lost & np.isnan(mn), -np.inf, mn)
+    mx = np.where(lost & np.isnan(mx), -np.inf, mx)     # lost for the whole interval when no max survives
+    k_lo, k_hi = stats_interval_bounds(mn, av, mx, threshold_dbm, dt)
+    codes = _cause_codes(frame)
+    obs_s, lo, hi, certain, possible = _empty(n), _empty(n), _empty(n), _empty(n), _empty(n)
+    cause_s = np.full(n, _UNKNOWN, dtype=np.int8)
+    o = observed
+    _fill(obs_s, off[o], np.full(o.sum(), dt))
+    _fill(cause_s, off[o], np.full(o.sum(), dt), codes[o])
+    _fill(lo, off[o], k_lo[o])
+    full = o & (k_lo >= dt)
+    _fill(certain, off[full], np.full(full.sum(), dt))
+    maybe = o & (k_hi > 0)
+    _fill(possible, off[maybe], np.full(maybe.sum(), dt))
+    # upper mask: k_hi seconds starting at the rotation offset of this interval (wrapping inside the interval)
+    idx = np.flatnonzero(maybe)
+    rot = np.array([rotation.get(int(off[i]), 0) for i in idx], dtype=np.int64) % max(dt, 1)
+    first = np.minimum(k_hi[idx], dt - rot)
+    _fill(hi, off[idx] + rot, first)
+    _fill(hi, off[idx], k_hi[idx] - first)
+    for i, r in zip(idx, rot):
+        rotation[int(off[i])] = int(r + k_hi[i])
+    return _Masks(obs_s, lo, hi, certain, possible, cause_s, False, METHOD_STATS.format(dt=dt),
+                  float(series.interval_s), series.kind)
+
+
+def _channel_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float,
+                   rotation: dict[int, int]) -> _Masks:
+    if series.kind == "stats":
+        return _stats_masks(series, t0, n, threshold_dbm, rotation)
+    if series.interval_s <= 1.0 + 1e-9:
+        return _exact_masks(series, t0, n, threshold_dbm)
+    return _sample_masks(series, t0, n, threshold_dbm)
+
+
+def _combine(masks: list[_Masks]) -> _Masks:
+    """Link level: a second is below threshold if any channel is, observed if any channel is."""
+    first = masks[0]
+    out = _Masks(first.observed.copy(), first.lo.copy(), first.hi.copy(), first.certain.copy(),
+                 first.possible.copy(), first.cause.copy(), all(m.exact for m in masks),
+                 "; ".join(dict.fromkeys(m.method for m in masks)), max(m.interval_s for m in masks),
+                 "stats" if any(m.kind == "stats" for m in masks) else "sample")
+    for m in masks[1:]:
+        # cause: a second below on this channel but not yet below at link level takes this channel's cause;
+        # an unknown cause is replaced by a known one from another channel covering the same second
+        take = (m.hi & ~out.hi) | ((out.cause == _UNKNOWN) & (m.cause != _UNKNOWN))
+        out.cause[take] = m.cause[take]
+        for name in ("observed", "lo", "hi", "certain", "possible"):
+            np.logical_or(getattr(out, name), getattr(m, name), out=getattr(out, name))
+    return out
+
+
+def _clusters(possible: np.ndarray, observed: np.ndarray, consecutive_s: int) -> np.ndarray:
+    """Cluster id per second: runs of possible-SES seconds not separated by >= 10 clear observed seconds or a gap;
+    -1 for separator seconds."""
+    code = np.where(observed, possible.astype(np.int8), np.int8(-1))
+    n = code.size
+    if n == 0:
+        return np.zeros(0, dtype=np.int64)
+    change = np.flatnonzero(code[1:] != code[:-1]) + 1
+    starts = np.concatenate(([0], change))
+    lengths = np.diff(np.concatenate((starts, [n])))
+    values = code[starts]
+    separator = (values == -1) | ((values == 0) & (lengths >= consecutive_s))
+    run_id = np.cumsum(separator)
+    run_id = np.where(separator, -1, run_id)
+    return np.repeat(run_id, lengths)
+
+
+def _unavailable(m: _Masks, consecutive_s: int) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper unavailable masks (equal for exact data)."""
+    u_lo = g826.unavailable_mask(m.certain, m.observed, consecutive_s=consecutive_s)
+    if m.exact:
+        return u_lo, u_lo
+    u_hi = g826.unavailable_mask(m.possible, m.observed, consecutive_s=consecutive_s)
+    # a cluster that cannot hold `consecutive_s` below-threshold seconds cannot start unavailable time
+    cid = _clusters(m.possible, m.observed, consecutive_s)
+    if u_hi.any():
+        valid = cid >= 0
+        counts = np.bincount(cid[valid], weights=m.hi[valid].astype(float), minlength=int(cid.max()) + 1)
+        small = np.zeros(cid.size, dtype=bool)
+        small[valid] = counts[cid[valid]] < consecutive_s
+        u_hi &= ~small
+    return u_lo, u_hi
+
+
+def _unavailable_causes(unav: np.ndarray, cause: np.ndarray) -> np.ndarray:
+    """Cause per unavailable second: the covering event's; otherwise the dominant cause of its period."""
+    out = cause.copy()
+    periods = g826.unavailable_periods(unav)
+    for start, end in periods:
+        seg = out[start:end]
+        unknown = seg == _UNKNOWN
+        if unknown.any() and not unknown.all():
+            counts = np.bincount(seg[~unknown], minlength=len(CAUSES))
+            seg[unknown] = int(np.argmax(counts))
+    return out
+
+
+def _by_cause(mask: np.ndarray, cause: np.ndarray) -> np.ndarray:
+    return np.bincount(cause[mask].astype(np.int64), minlength=len(CAUSES)).astype(np.int64)
+
+
+def _figures(m: _Masks, consecutive_s: int) -> dict:
+    """All counts of one mask set, with per-cause arrays for below / unavailable (lo and hi)."""
+    u_lo, u_hi = _unavailable(m, consecutive_s)
+    obs = m.observed
+    below_lo = int(np.count_nonzero(m.lo & obs))
+    below_hi = int(np.count_nonzero(m.hi & obs))
+    unav_lo = int(np.count_nonzero(u_lo))
+    unav_hi = int(np.count_nonzero(u_hi))
+    if m.exact:
+        ses_av_lo = ses_av_hi = g826.available_count(m.lo, u_lo, obs)
+    else:
+        ses_in_u_max = min(int(np.count_nonzero(u_hi & m.possible)), below_hi)
+        ses_av_lo = max(0, below_lo - ses_in_u_max)
+        ses_av_hi = max(ses_av_lo, below_hi - int(np.count_nonzero(m.certain & u_lo)))
+    cause_u_lo = _unavailable_causes(u_lo, m.cause)
+    cause_u_hi = cause_u_lo if u_hi is u_lo else _unavailable_causes(u_hi, m.cause)
+    return {
+        "observed_s": int(np.count_nonzero(obs)),
+        "below_lo": below_lo, "below_hi": below_hi,
+        "unav_lo": unav_lo, "unav_hi": unav_hi,
+        "ses_av_lo": int(ses_av_lo), "ses_av_hi": int(ses_av_hi),
+        "cause_below_lo": _by_cause(m.lo & obs, m.cause), "cause_below_hi": _by_cause(m.hi & obs, m.cause),
+        "cause_unav_lo": _by_cause(u_lo, cause_u_lo), "cause_unav_hi": _by_cause(u_hi, cause_u_hi),
+        "unavailable_periods": int(len(g826.unavailable_periods(u_lo))),
+        "exact": m.exact, "method": m.method,
+    }
+
+
+def _iso(ts: pd.Timestamp) -> str:
+    return ts.tz_convert("UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _meets(avail_lo: float, avail_hi: float, objective_pct: float | None) -> str:
+    if objective_pct is None or not math.isfinite(avail_lo) or not math.isfinite(avail_hi):
+        return ""
+    if avail_lo >= objective_pct:
+        return "yes"
+    if avail_hi < objective_pct:
+        return "no"
+    return "undetermined"
+
+
+def _row(link_id: str, t0: pd.Timestamp, t1: pd.Timestamp, n: int, f: dict, objective_pct: float | None) -> dict:
+    exact = f["exact"]
+    obs = f["observed_s"]
+    av_lo = g826.availability_percent(f["unav_hi"], obs)
+    av_hi = g826.availability_percent(f["unav_lo"], obs)
+    nan = float("nan")
+    row = {
+        "link_id": link_id, "period_start_utc": _iso(t0), "period_end_utc": _iso(t1),
+        "observed_s": obs, "no_data_s": n - obs,
+        "below_threshold_s": f["below_lo"] if exact else nan,
+        "unavailable_s": f["unav_lo"] if exact else nan,
+        "ses_available_s": f["ses_av_lo"] if exact else nan,
+        "availability_pct": av_hi if exact else nan,
+        "objective_pct": objective_pct if objective_pct is not None else nan,
+        "meets_objective": _meets(av_lo, av_hi, objective_pct),
+        "exact": exact,
+        "below_threshold_s_lo": f["below_lo"], "below_threshold_s_hi": f["below_hi"],
+        "unavailable_s_lo": f["unav_lo"], "unavailable_s_hi": f["unav_hi"],
+        "ses_available_s_lo": f["ses_av_lo"], "ses_available_s_hi": f["ses_av_hi"],
+        "availability_pct_lo": av_lo, "availability_pct_hi": av_hi,
+        "unavailable_periods": f["unavailable_periods"],
+        "method": f["method"],
+    }
+    return row
+
+
+def _annual(row: dict, objective_pct: float | None) -> dict:
+    """The observed outage put on a yearly scale, two ways, both with their caveat."""
+    obs = row["observed_s"]
+    out: dict = {}
+    for tag in ("lo", "hi"):
+        unav = row[f"unavailable_s_{tag}"]
+        out[f"unavailable_min_per_year_linear_{tag}"] = g826.scale_to_year_s(unav, obs) / 60.0
+        pct = 100.0 * unav / obs if obs > 0 else float("nan")
+        annual_pct = g826.annual_from_worst_month_percent(pct) if obs > 0 else float("nan")
+        out[f"unavailable_min_per_year_if_worst_month_{tag}"] = annual_pct / 100.0 * g826.SECONDS_PER_YEAR / 60.0
+    out["objective_min_per_year"] = (g826.objective_minutes_per_year(objective_pct)
+                                     if objective_pct is not None else float("nan"))
+    out["observed_days"] = obs / 86400.0
+    return out
+
+
+def _counters(series: ChannelSeries, f: dict) -> dict | None:
+    """The radio's own ES/SES/UAS counters (frame columns es_count/ses_count/uas_count) beside our estimate."""
+    frame = series.frame
+    present = [c for c in _COUNTERS if c in frame.columns and frame[c].notna().any()]
+    if not present:
+        return None
+    out: dict = {"logged": present}
+    for c in present:
+        out[f"radio_{c}"] = float(np.nansum(frame[c].to_numpy(dtype=float)))
+    pairs = {schema.UAS: ("unav_lo", "unav_hi"), schema.SES: ("ses_av_lo", "ses_av_hi")}
+    for c, (lo_key, hi_key) in pairs.items():
+        if c not in present:
+            continue
+        radio = out[f"radio_{c}"]
+        lo, hi = f[lo_key], f[hi_key]
+        out[f"level_based_{c}_lo"] = lo
+        out[f"level_based_{c}_hi"] = hi
+        out[f"{c}_difference_s"] = radio - (lo + hi) / 2.0 if f["exact"] else float("nan")
+        out[f"{c}_within_bounds"] = bool(lo - 0.5 <= radio <= hi + 0.5)
+    if schema.ES in present:
+        out["level_based_es_note"] = "ES is not estimated from levels (errors above threshold are not visible)"
+    return out
+
+
+def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S) -> OutageResult:
+    """Outage accounting of one hop over the analysed period (see the module docstring for the rules).
+
+    Returns an ``OutageResult`` whose ``summary`` has ``schema.OUTAGE_SUMMARY_COLUMNS`` first, then the bounds
+    (``*_lo``/``*_hi``), ``exact``, ``method``, the yearly scaling and the radio counters; ``by_cause`` has one row
+    per cause in ``schema.CAUSES`` (they add up to the summary); ``per_channel`` one row per channel.
+    """
+    link = result.link
+    threshold = float(link.threshold_dbm)
+    objective = link.objective_pct
+    notes: list[str] = []
+    series = [s for s in result.series.values() if s is not None and len(s.frame) > 0 and "rsl_dbm" in s.frame]
+    by_cause_cols = schema.OUTAGE_BY_CAUSE_COLUMNS + ["below_threshold_s_lo", "below_threshold_s_hi",
+                                                      "unavailable_s_lo", "unavailable_s_hi"]
+    if not series:
+        nan = float("nan")
+        summary = {c: nan for c in schema.OUTAGE_SUMMARY_COLUMNS}
+        summary.update(link_id=link.link_id, period_start_utc="", period_end_utc="", observed_s=0, no_data_s=0,
+                       objective_pct=objective if objective is not None else nan, meets_objective="",
+                       exact=False, method="no receive-level data")
+        notes.append("No receive-level data for this hop: nothing to account.")
+        return OutageResult(summary, pd.DataFrame(columns=by_cause_cols), pd.DataFrame(), notes)
+
+    t0 = min(s.frame.index[0] for s in series).floor("s")
+    t1 = max(s.frame.index[-1] + pd.Timedelta(seconds=float(s.interval_s)) for s in series).ceil("s")
+    n = int(round((t1 - t0) / pd.Timedelta(seconds=1)))
+    rotation: dict[int, int] = {}
+    masks = [_channel_masks(s, t0, n, threshold, rotation) for s in series]
+
+    per_channel_rows = []
+    counters: dict[str, dict] = {}
+    for s, m in zip(series, masks):
+        fc = _figures(m, consecutive_s)
+        row = _row(link.link_id, t0, t1, n, fc, objective)
+        row = {"channel": s.channel, **row, "interval_s": m.interval_s, "kind": m.kind}
+        found = _counters(s, fc)
+        if found:
+            counters[s.channel] = found
+            row.update({f"counter_{k}": v for k, v in found.items() if k != "logged"})
+        per_channel_rows.append(row)
+    link_masks = _combine(masks)
+    f = _figures(link_masks, consecutive_s)
+    summary = _row(link.link_id, t0, t1, n, f, objective)
+    summary["channels"] = [s.channel for s in series]
+    summary["threshold_dbm"] = threshold
+    summary.update(_annual(summary, objective))
+    summary["radio_counters"] = counters
+
+    events = result.events if isinstance(result.events, pd.DataFrame) else pd.DataFrame()
+    event_counts = (events["cause"].astype(str).value_counts() if "cause" in events.columns and len(events)
+                    else pd.Series(dtype="int64"))
+    exact = f["exact"]
+    nan = float("nan")
+    by_cause = pd.DataFrame({
+        "link_id": [link.link_id] * len(CAUSES),
+        "cause": CAUSES,
+        "events": [int(event_counts.get(c, 0)) for c in CAUSES],
+        "below_threshold_s": f["cause_below_lo"] if exact else [nan] * len(CAUSES),
+        "unavailable_s": f["cause_unav_lo"] if exact else [nan] * len(CAUSES),
+        "below_threshold_s_lo": f["cause_below_lo"], "below_threshold_s_hi": f["cause_below_hi"],
+        "unavailable_s_lo": f["cause_unav_lo"], "unavailable_s_hi": f["cause_unav_hi"],
+    }, columns=by_cause_cols)
+    ranked = by_cause.sort_values(["unavailable_s_hi", "below_threshold_s_hi"], ascending=False, kind="stable")
+    top = ranked.iloc[0]
+    summary["dominant_cause"] = (str(top["cause"]) if top["unavailable_s_hi"] > 0 or top["below_threshold_s_hi"] > 0
+                                 else "")
+
+    # --- notes: method and caveats (plain words, shown in the report) ---
+    notes.append("Counting: a second below the receiver threshold ({:g} dBm) or with loss of signal is taken as a "
+                 "severely errored second; unavailable time follows the ITU-T G.826/G.828 ten-second rule; "
+                 "data gaps are excluded and never counted as outage.".format(threshold))
+    if len(series) > 1:
+        notes.append("Hop level: a second counts as severely errored if any channel ({}) is; the ten-second rule "
+                     "is applied to that combined record.".format(", ".join(s.channel for s in series)))
+    if not exact:
+        notes.append("Coarse data: outage is given as a lower and an upper bound, not one number. Method: "
+                     + f["method"] + ".")
+    if objective is None:
+        notes.append("No availability objective (objective_pct) in the links table: the comparison with an "
+                     "objective is skipped.")
+    else:
+        notes.append(f"Objective {objective:g} % allows {summary['objective_min_per_year']:.2f} min of "
+                     "unavailability per 365-day year. The measured availability covers only "
+                     f"{summary['observed_days']:.1f} days of observed time.")
+    notes.append("A week is not a year: the yearly figures scale the observed outage linearly (as if every week "
+                 "were like this one) and, alternatively, treat the observed period as the worst month and convert "
+                 "with ITU-R P.841 (global Q1 = 2.85, beta = 0.13; parameters from open-source implementations, "
+                 "not checked against the Recommendation). Rain and multipath are seasonal; only a year or more "
+                 "of data supports an annual figure.")
+    if not counters:
+        notes.append("The log carries no ES/SES/UAS counters from the radio: the level-based figures could not be "
+                     "cross-checked.")
+    else:
+        notes.append("The radio's own counters are shown beside the level-based estimate; they count bit errors, so "
+                     "they also see interference and equipment errors above the threshold.")
+    per_channel = pd.DataFrame(per_channel_rows)
+    return OutageResult(summary=summary, by_cause=by_cause, per_channel=per_channel, notes=notes)
