@@ -1,0 +1,569 @@
+"""Many hops at once on a Dask cluster: read, group by hop, analyse each hop in its own task, rank the network.
+
+``run(inputs, links, out_dir=...)`` is the whole job.  It starts a local Dask cluster (``workers`` processes with one
+thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"``), then
+
+1. submits one *read* task per input file; each task parses its file (``diag.ingest.read_log``), gives every row its
+   hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links table's only
+   row) and keeps the table on the worker, split by hop.  The driver receives only the list of hops in each file
+   and the reader's row accounting.
+2. submits one *hop* task per hop; it gathers that hop's rows from the files that hold them (worker to worker),
+   runs ``diag.pipeline.analyze_link`` and renders the hop's outputs (``diag.report.write_outputs``) into bytes.
+   The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
+   ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
+3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
+   error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
+   holding every hop (the per-hop files concatenated in links-table order).
+
+A Parquet store written by ``ingest --out`` (``diag.store``) may be given instead of log files: then each hop task
+reads only its own hop's partition from the store, and nothing passes through the driver at all.
+
+A hop that cannot be analysed (a file that cannot be read, no row in the links table, no data, an analysis error)
+becomes a ``LinkResult`` with ``error`` set and a row in the ranking; it never stops the other hops.
+"""
+from __future__ import annotations
+
+import logging
+import math
+import os
+import re
+import shutil
+import tempfile
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from diag import schema
+from diag.errors import InputError
+from diag.links import Link, match_link
+from diag.results import LinkResult
+
+log = logging.getLogger(__name__)
+
+AnalyzeFn = Callable[..., LinkResult]          # analyze(table, link, *, config=None, ingest=None) -> LinkResult
+WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> list[Path]
+ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
+ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
+
+RANKING_COLUMNS = ["rank", "link_id", "outage_min", "below_threshold_min", "availability_pct", "objective_pct",
+                   "meets_objective", "main_cause", "main_cause_min", "events", "observed_h", "no_data_h",
+                   "folder", "error"]
+COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
+_SORT = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
+_RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
+
+
+# --- results ----------------------------------------------------------------------------------------------------
+@dataclass
+class BatchResult:
+    """What a network run produced.
+
+    ``results``  one slim ``LinkResult`` per hop (``series`` emptied), in links-table order, then hops found only in
+                 the data; a failed hop has ``error`` set.
+    ``ranking``  the network table (``RANKING_COLUMNS``), worst hop first.
+    ``files``    every file written.
+    ``reads``    per input file: ``{"file", "hops", "rows", "error", "report"}``.
+    """
+
+    results: list[LinkResult]
+    ranking: pd.DataFrame
+    files: list[Path] = field(default_factory=list)
+    reads: list[dict] = field(default_factory=list)
+
+
+@dataclass
+class _FilePiece:
+    """One parsed file, kept on the worker that read it: its rows split by hop."""
+
+    name: str
+    tables: dict[str, pd.DataFrame]
+    report: dict
+    error: str | None = None
+    hop_of_error: str | None = None
+
+
+@dataclass
+class _HopOutcome:
+    result: LinkResult
+    files: dict[str, bytes]
+
+
+# --- small helpers ----------------------------------------------------------------------------------------------
+def safe_name(link_id: str) -> str:
+    """A folder name for a hop id that is safe on every common file system (letters, digits, ``._-``)."""
+    name = re.sub(r"[^A-Za-z0-9._-]+", "_", str(link_id)).strip("._ ") or "hop"
+    if name.split(".")[0].upper() in _RESERVED:
+        name = "_" + name
+    return name[:100]
+
+
+def _folder_names(link_ids: Iterable[str]) -> dict[str, str]:
+    """Distinct sanitised folder names (``-2``, ``-3`` ... on collisions, case-insensitively)."""
+    used: set[str] = set()
+    out: dict[str, str] = {}
+    for link_id in link_ids:
+        base = safe_name(link_id)
+        name, k = base, 2
+        while name.lower() in used:
+            name, k = f"{base}-{k}", k + 1
+        used.add(name.lower())
+        out[link_id] = name
+    return out
+
+
+def _one_line(exc: BaseException) -> str:
+    if isinstance(exc, InputError):
+        return exc.one_line()
+    text = " ".join(str(exc).split())[:300]
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
+def _is_store(path: Path) -> bool:
+    if not path.is_dir():
+        return False
+    try:
+        from diag import store
+    except ImportError:
+        return False
+    check = getattr(store, "is_store", None)
+    return bool(check(path)) if check else False
+
+
+def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
+    """Split the inputs into log files and Parquet stores.  A folder gives its files (not recursive, hidden files
+    skipped) unless it is a store.  Raises ``InputError`` for a path that does not exist or an empty input."""
+    files: list[Path] = []
+    stores: list[Path] = []
+    for raw in inputs:
+        path = Path(raw)
+        if _is_store(path):
+            stores.append(path)
+        elif path.is_dir():
+            found = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
+            if not found:
+                raise InputError("folder holds no files", path=str(path))
+            files.extend(found)
+        elif path.is_file():
+            files.append(path)
+        else:
+            raise InputError("no such file or folder", path=str(path))
+    if not files and not stores:
+        raise InputError("no input files given")
+    return files, stores
+
+
+def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
+    from diag.ingest import read_log
+
+    result = read_log(path, tz=tz, mapping=mapping)
+    report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
+    return result.table, report
+
+
+def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
+    """A file holding one hop whose id is not in the links table (e.g. the reader's default id) takes the hop the
+    file belongs to (``match_link``: a link id in the file name, else the table's only row).  Anything else keeps
+    its id; a hop with no row in the links table fails later with that message."""
+    known = {link.link_id for link in links}
+    ids = [str(x) for x in pd.unique(table[schema.LINK])]
+    if len(ids) != 1 or ids[0] in known:  # a file naming several hops keeps its ids
+        return table
+    try:
+        hop = match_link(links, None, file_name=file_name).link_id
+    except InputError:
+        return table
+    table = table.copy()
+    table[schema.LINK] = hop
+    return table
+
+
+def _sorted(table: pd.DataFrame) -> pd.DataFrame:
+    return table.sort_values(_SORT, kind="mergesort").reset_index(drop=True)
+
+
+def hop_table(tables: Iterable[pd.DataFrame]) -> pd.DataFrame:
+    """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes."""
+    parts = [t for t in tables if t is not None and len(t)]
+    if not parts:
+        return schema.empty_table()
+    return _sorted(pd.concat(parts, ignore_index=True))
+
+
+# --- worker tasks -----------------------------------------------------------------------------------------------
+def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None) -> _FilePiece:
+    name = Path(path).name
+    try:
+        table, report = (reader or _default_reader)(path, tz=tz, mapping=mapping)
+        table = _assign_hops(table, links, name)
+        tables = {str(k): _sorted(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
+        return _FilePiece(name=name, tables=tables, report=report)
+    except Exception as exc:  # one bad file must never stop the run
+        try:
+            hop = match_link(links, None, file_name=name).link_id
+        except InputError:
+            hop = None
+        return _FilePiece(name=name, tables={}, report={}, error=_one_line(exc), hop_of_error=hop)
+
+
+def _file_meta(piece: _FilePiece) -> dict:
+    return {"file": piece.name, "hops": {k: len(v) for k, v in piece.tables.items()},
+            "rows": int(sum(len(v) for v in piece.tables.values())), "error": piece.error,
+            "hop_of_error": piece.hop_of_error, "report": piece.report}
+
+
+def failed_result(link: Link, error: str) -> LinkResult:
+    """The ``LinkResult`` of a hop that could not be analysed."""
+    return LinkResult(link=link, series={}, events=pd.DataFrame(columns=schema.EVENT_COLUMNS), error=error)
+
+
+def _placeholder_link(link_id: str) -> Link:
+    nan = math.nan
+    return Link(link_id=link_id, frequency_ghz=nan, length_km=nan, polarization="", threshold_dbm=nan)
+
+
+def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
+    if writer is None:
+        from diag.report import write_outputs as writer
+    with tempfile.TemporaryDirectory(prefix="diag-hop-") as tmp:
+        writer([result], Path(tmp))
+        return {str(p.relative_to(tmp)).replace(os.sep, "/"): p.read_bytes()
+                for p in sorted(Path(tmp).rglob("*")) if p.is_file()}
+
+
+def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | None, config,
+              analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
+    """Analyse one hop on a worker and render its outputs; never raises."""
+    if link is None:
+        return _HopOutcome(failed_result(_placeholder_link(link_id), f"hop {link_id!r} has no row in the links "
+                                         "table; add one"), {})
+    bad = [p for p in pieces if p.error]
+    if bad:
+        return _HopOutcome(failed_result(link, "; ".join(f"{p.name}: {p.error}" for p in bad)), {})
+    try:
+        if store_path is not None:
+            from diag.store import read_store
+
+            table = _sorted(read_store(store_path, link_id=link_id))
+            ingest = {"store": store_path}
+        else:
+            table = hop_table(p.tables.get(link_id) for p in pieces)
+            ingest = {"files": {p.name: p.report for p in pieces}}
+        if table.empty:
+            return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
+        if analyze is None:
+            from diag.pipeline import analyze_link as analyze
+        result = analyze(table, link, config=config, ingest=ingest)
+        del table
+    except Exception as exc:
+        return _HopOutcome(failed_result(link, _one_line(exc)), {})
+    files: dict[str, bytes] = {}
+    if result.error is None:
+        try:
+            files = _render(result, writer)
+        except Exception as exc:
+            result.error = f"writing outputs: {_one_line(exc)}"
+    if not keep_series:
+        result = replace(result, series={})
+    return _HopOutcome(result, files)
+
+
+# --- network table and page -------------------------------------------------------------------------------------
+def _num(summary: dict, key: str) -> float:
+    try:
+        value = float(summary.get(key))
+    except (TypeError, ValueError):
+        return math.nan
+    return value
+
+
+def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | None = None) -> pd.DataFrame:
+    """The network table: one row per hop, ranked by outage minutes (unavailable time, ITU-T G.826 sense), then
+    by minutes below threshold; failed hops last, with their error and no rank."""
+    rows = []
+    for res in results:
+        link_id = res.link.link_id
+        row = {"link_id": link_id, "folder": (folders or {}).get(link_id, ""), "error": res.error or ""}
+        if res.error is None and res.outage is not None:
+            s = res.outage.summary or {}
+            by = res.outage.by_cause if res.outage.by_cause is not None else pd.DataFrame()
+            main, main_s = "", 0.0
+            if len(by) and "cause" in by:
+                key = by["unavailable_s"].astype(float) + 1e-6 * by["below_threshold_s"].astype(float)
+                top = by.loc[key.idxmax()]
+                if float(top["below_threshold_s"]) > 0 or float(top["unavailable_s"]) > 0:
+                    main, main_s = str(top["cause"]), float(top["unavailable_s"])
+            meets = s.get("meets_objective")
+            row.update(outage_min=_num(s, "unavailable_s") / 60, below_threshold_min=_num(s, "below_threshold_s") / 60,
+                       availability_pct=_num(s, "availability_pct"), objective_pct=_num(s, "objective_pct"),
+                       meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
+                       else bool(meets),
+                       main_cause=main, main_cause_min=main_s / 60, events=int(len(res.events)),
+                       observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
+        elif res.error is None:
+            row["error"] = "analysis returned no outage accounting"
+        rows.append(row)
+    table = pd.DataFrame(rows, columns=[c for c in RANKING_COLUMNS if c != "rank"])
+    ok = table["error"] == ""
+    good = table[ok].sort_values(["outage_min", "below_threshold_min", "link_id"], ascending=[False, False, True],
+                                 kind="mergesort", na_position="last")
+    good.insert(0, "rank", np.arange(1, len(good) + 1))
+    bad = table[~ok].sort_values("link_id", kind="mergesort")
+    bad.insert(0, "rank", pd.NA)
+    out = pd.concat([good, bad], ignore_index=True) if len(bad) else good.reset_index(drop=True)
+    out["rank"] = out["rank"].astype("Int64")
+    return out[RANKING_COLUMNS]
+
+
+def _spreadsheet_safe(table: pd.DataFrame) -> pd.DataFrame:
+    """Text cells that a spreadsheet would run as a formula (=, +, -, @, tab, CR first) get a leading apostrophe
+    (OWASP "CSV injection" advice)."""
+    out = table.copy()
+    for col in ("link_id", "folder", "main_cause", "error"):
+        out[col] = out[col].map(lambda v: "'" + v if isinstance(v, str) and v[:1] in ("=", "+", "-", "@", "\t", "\r")
+                                else v)
+    return out
+
+
+_FALLBACK_COLOURS = {"rain": "#2f6db5", "multipath": "#d9822b", "refractive": "#6a9f3b", "level_shift": "#8e5ea2",
+                     "signal_loss": "#c23b3b", "unknown": "#8c8c8c"}
+
+
+def _cause_colours() -> dict[str, str]:
+    try:
+        from diag.report import style
+    except ImportError:
+        return dict(_FALLBACK_COLOURS)
+    for name in ("CAUSE_COLOURS", "CAUSE_COLORS", "CAUSE_PALETTE"):
+        palette = getattr(style, name, None)
+        if isinstance(palette, dict):
+            return {**_FALLBACK_COLOURS, **palette}
+    return dict(_FALLBACK_COLOURS)
+
+
+def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
+    """One A4-landscape PDF page: outage minutes by cause for the worst hops, the ranking, and failed hops."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    from matplotlib.backends.backend_pdf import PdfPages
+    from matplotlib.figure import Figure
+
+    colours = _cause_colours()
+    ok = ranking[ranking["error"] == ""].head(top)
+    failed = ranking[ranking["error"] != ""]
+    by_id = {r.link.link_id: r for r in results}
+    fig = Figure(figsize=(11.69, 8.27))
+    fig.text(0.04, 0.955, "Network outage ranking", fontsize=16, weight="bold")
+    fig.text(0.04, 0.925, f"{len(ranking)} hops: {int((ranking['error'] == '').sum())} analysed, {len(failed)} "
+             "could not be analysed.  Outage = unavailable time (ITU-T G.826 sense), by cause.", fontsize=9)
+    ax = fig.add_axes((0.17, 0.42, 0.50, 0.47))
+    labels = list(ok["link_id"])[::-1]
+    left = np.zeros(len(labels))
+    for cause in schema.CAUSES:
+        minutes = []
+        for link_id in labels:
+            res = by_id.get(link_id)
+            by = res.outage.by_cause if res is not None and res.outage is not None else None
+            value = 0.0
+            if by is not None and len(by):
+                value = float(by.loc[by["cause"] == cause, "unavailable_s"].astype(float).sum()) / 60
+            minutes.append(value)
+        minutes = np.asarray(minutes)
+        if labels and minutes.sum() > 0:
+            ax.barh(labels, minutes, left=left, color=colours.get(cause, "#888888"), label=cause)
+            left += minutes
+    ax.set_xlabel("outage [min]")
+    ax.set_title(f"Worst {len(labels)} hops", fontsize=10, loc="left")
+    ax.tick_params(axis="y", labelsize=7)
+    if left.sum() > 0:
+        ax.legend(fontsize=7, loc="lower right")
+    else:
+        ax.text(0.5, 0.5, "no outage on any analysed hop", transform=ax.transAxes, ha="center", fontsize=9)
+    lines = ["rank  hop                       outage min  avail. %   objective  main cause"]
+    for row in ok.itertuples():
+        avail = "" if pd.isna(row.availability_pct) else f"{row.availability_pct:.4f}"
+        met = {True: "met", False: "NOT met"}.get(row.meets_objective, "-")
+        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:24]:<24}  {row.outage_min:>10.1f}  {avail:>9}  "
+                     f"{met:>9}  {row.main_cause}")
+    fig.text(0.70, 0.89, "\n".join(lines[:top + 1]), fontsize=6.2, family="monospace", va="top")
+    if len(failed):
+        text = ["Hops not analysed (fix and rerun):"] + [f"  {str(r.link_id)[:24]}: {str(r.error)[:150]}"
+                                                      for r in failed.head(12).itertuples()]
+        if len(failed) > 12:
+            text.append(f"  ... and {len(failed) - 12} more (network_ranking.csv)")
+        fig.text(0.04, 0.33, "\n".join(text), fontsize=7, family="monospace", va="top", color="#a02020")
+    fig.text(0.04, 0.03, "Per-hop reports: hops/<hop>/report.pdf.  Advice that involves work on towers or near "
+             "radiating antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
+    path = Path(path)
+    with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
+        pdf.savefig(fig)
+    return path
+
+
+# --- the run ----------------------------------------------------------------------------------------------------
+def _open_client(workers: int | None, scheduler: str | None, connect_timeout_s: float = 10.0):
+    from distributed import Client, LocalCluster
+
+    if scheduler:
+        try:
+            return Client(scheduler, timeout=f"{connect_timeout_s}s"), None
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"cannot reach the Dask scheduler at {scheduler}: {_one_line(exc)}") from None
+    n = int(workers or os.cpu_count() or 1)
+    if n < 1:
+        raise InputError(f"--workers must be at least 1, not {n}")
+    cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=":0",
+                           silence_logs=logging.ERROR)
+    return Client(cluster), cluster
+
+
+def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
+    """Concatenate the per-hop CSV files into network-wide ones (header once, hops in ``order``)."""
+    written = []
+    for name in COMBINED_FILES:
+        parts = [out_dir / "hops" / folders[h] / name for h in order if (out_dir / "hops" / folders[h] / name).exists()]
+        if not parts:
+            continue
+        target = out_dir / name
+        with target.open("wb") as dst:
+            for i, part in enumerate(parts):
+                with part.open("rb") as src:
+                    header = src.readline()
+                    if i == 0:
+                        dst.write(header)
+                    shutil.copyfileobj(src, dst)
+        written.append(target)
+    return written
+
+
+def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str | os.PathLike | None = None,
+        workers: int | None = None, scheduler: str | None = None, client=None, tz=None, mapping=None, config=None,
+        analyze: AnalyzeFn | None = None, writer: WriterFn | None = None, reader: ReaderFn | None = None,
+        progress: ProgressFn | None = None, keep_series: bool = False,
+        connect_timeout_s: float = 10.0) -> BatchResult:
+    """Analyse every hop found in ``inputs`` (files, folders, Parquet stores) in parallel on Dask.
+
+    Parameters
+    ----------
+    inputs : paths of log files, folders of log files, or stores written by ``ingest --out``.
+    links : the links table (``diag.links.read_links_table``).
+    out_dir : where to write ``hops/<hop>/...`` and the network files; ``None`` writes nothing.
+    workers : local cluster size (processes, one thread each); default: the number of CPUs.
+    scheduler : address of an existing Dask scheduler (``tcp://host:port``); its workers must import ``diag`` and see
+        the input paths.  ``client`` : an existing ``distributed.Client`` (wins over both).
+    analyze, writer, reader : replace ``diag.pipeline.analyze_link``, ``diag.report.write_outputs`` and the reader
+        (tests and benchmarks); they must be importable by the workers (module-level functions).
+    progress : ``progress(stage, done, total, message)``; stage ``"read"`` per file, ``"analyse"`` per hop.
+    keep_series : keep each hop's per-sample ``series`` in the returned results (memory grows with the network).
+    connect_timeout_s : how long to try reaching ``scheduler``.
+    """
+    files, stores = expand_inputs(inputs)
+    if not links:
+        raise InputError("the links table holds no links")
+    by_id = {link.link_id: link for link in links}
+    own = client is None
+    cluster = None
+    if own:
+        client, cluster = _open_client(workers, scheduler, connect_timeout_s)
+    try:
+        return _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader,
+                    progress, keep_series)
+    finally:
+        if own:
+            client.close()
+            if cluster is not None:
+                cluster.close()
+
+
+def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,
+         keep_series) -> BatchResult:
+    from distributed import as_completed
+
+    def tell(stage, done, total, message):
+        log.info("%s %d/%d %s", stage, done, total, message)
+        if progress is not None:
+            progress(stage, done, total, message)
+
+    # 1. read every file on the workers; the driver sees only which hops each file holds
+    pieces = [client.submit(_read_task, str(p), links, tz, mapping, reader, key=f"read-{i}-{p.name}", pure=False)
+              for i, p in enumerate(files)]
+    metas = [client.submit(_file_meta, f, pure=False) for f in pieces]
+    index = {m.key: i for i, m in enumerate(metas)}
+    reads: list[dict | None] = [None] * len(files)
+    for done, fut in enumerate(as_completed(metas), start=1):
+        meta = fut.result()
+        reads[index[fut.key]] = meta
+        tell("read", done, len(files), meta["file"] + (f" (error: {meta['error']})" if meta["error"] else ""))
+    del metas
+
+    hop_files: dict[str, list[int]] = {}
+    for i, meta in enumerate(reads):
+        hops = list(meta["hops"]) if not meta["error"] else ([meta["hop_of_error"]] if meta["hop_of_error"] else [])
+        for hop in hops:
+            hop_files.setdefault(hop, []).append(i)
+    store_hops: dict[str, str] = {}
+    for store_path in stores:
+        from diag.store import list_links
+
+        for hop in list_links(store_path):
+            if hop in hop_files or hop in store_hops:
+                raise InputError(f"hop {hop!r} appears in more than one input; give it once", path=str(store_path))
+            store_hops[hop] = str(store_path)
+    order = [link.link_id for link in links] + sorted((set(hop_files) | set(store_hops)) - set(by_id))
+    folders = _folder_names(order)
+
+    # 2. one task per hop; results stream back and are written as they arrive
+    hop_futures = {}
+    for hop in order:
+        if hop not in hop_files and hop not in store_hops:
+            continue
+        deps = [pieces[i] for i in hop_files.get(hop, [])]
+        hop_futures[client.submit(_hop_task, hop, by_id.get(hop), deps, store_hops.get(hop), config, analyze,
+                                  writer, keep_series, key=f"hop-{safe_name(hop)}-{len(hop_futures)}",
+                                  pure=False)] = hop
+    del pieces  # each file's table is released by the cluster as soon as its last hop task has finished
+    results: dict[str, LinkResult] = {}
+    written: list[Path] = []
+    out = Path(out_dir) if out_dir is not None else None
+    unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]
+    total = len(hop_futures)
+    for done, fut in enumerate(as_completed(list(hop_futures)), start=1):
+        hop = hop_futures.pop(fut)
+        try:
+            outcome: _HopOutcome = fut.result()
+        except Exception as exc:  # a worker died or the task could not run: that hop fails, the rest go on
+            outcome = _HopOutcome(failed_result(by_id.get(hop) or _placeholder_link(hop), _one_line(exc)), {})
+        fut.release()
+        results[hop] = outcome.result
+        if out is not None and outcome.files:
+            folder = out / "hops" / folders[hop]
+            for rel, data in outcome.files.items():
+                target = folder / rel
+                target.parent.mkdir(parents=True, exist_ok=True)
+                target.write_bytes(data)
+                written.append(target)
+        tell("analyse", done, total, hop + (f" (error: {outcome.result.error})" if outcome.result.error else ""))
+    for hop in order:  # hops in the links table that no input mentions
+        if hop not in results:
+            results[hop] = failed_result(by_id[hop], "no data for this hop in the inputs")
+    ordered = [results[h] for h in order]
+    for meta in unmatched:
+        ordered.append(failed_result(_placeholder_link(f"file:{meta['file']}"),
+                                     f"{meta['file']}: {meta['error']} (no hop matches this file name)"))
+        folders[f"file:{meta['file']}"] = ""
+    ranking = network_ranking(ordered, folders)
+    if out is not None:
+        out.mkdir(parents=True, exist_ok=True)
+        written += _write_combined(out, order, folders)
+        target = out / "network_ranking.csv"
+        _spreadsheet_safe(ranking).to_csv(target, index=False, float_format="%.6g")
+        written.append(target)
+        written.append(write_network_page(ordered, ranking, out / "network_report.pdf"))
+    return BatchResult(results=ordered, ranking=ranking, files=written, reads=[m for m in reads if m])
+
+
+__all__ = ["BatchResult", "RANKING_COLUMNS", "expand_inputs", "failed_result", "hop_table", "network_ranking",
+           "run", "safe_name", "write_network_page"]
