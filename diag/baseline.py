@@ -1,0 +1,315 @@
+"""Clear-sky reference level and attenuation, per channel, on a regular time grid.
+
+Stage order: normalised table -> :func:`channel_grids` (one regular grid per channel, with the normalised status
+and "no_data" where no row exists) -> :func:`add_reference` (reference level, attenuation).
+
+Method (common practice for receive-level logs; the robust-window idea follows the rolling-statistics wet/dry
+detectors of Schleiss & Berne, IEEE GRSL 7:611-615, 2010):
+
+1. *Path level*.  The receive level with logged transmit-power changes removed,
+   ``RSL - (TSL - median TSL)`` (automatic transmit power control raises TSL during a fade; the path loss is
+   what we want), see :func:`diag.shifts.path_level_dbm`.
+2. *Steps*.  Persistent abrupt steps of the clear-sky level (a knocked antenna, a slipped feed) are found by
+   :func:`diag.shifts.detect_steps`; the record is cut into segments at the steps, so the reference follows the
+   new level right after a step and fades on top of a shifted level are measured against that level.
+3. *Reference*.  Within each segment, the path level is summarised per block (``block_s``, default 15 min) by
+   its median (blocks under half covered are ignored); the reference at each block is the upper quantile
+   ``reference_quantile`` (default 0.75) of the block medians in a centred window of ``reference_window_h``
+   (default 24 h).  Fades only ever lower block medians, so the upper quantile ignores them as long as they
+   cover less than about three quarters of the window; gaps simply drop out.  The block values are then
+   interpolated linearly to every grid point of the segment.
+4. *Attenuation* = reference - path level [dB], positive in a fade.  For 15-min statistics the average gives
+   ``attenuation_db`` and the interval minimum gives ``attenuation_peak_db`` (deepest point in the interval).
+
+Level-shift *events* (a segment whose reference sits more than ``step_min_db`` below the best segment) are
+produced by :func:`level_shift_spans`; the events module turns them into events with cause ``level_shift``.
+"""
+from __future__ import annotations
+
+import logging
+import math
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from diag import schema as S
+from diag.results import GRID_NO_DATA, ChannelSeries
+
+log = logging.getLogger(__name__)
+
+__all__ = ["AnalysisConfig", "channel_grids", "add_reference", "level_shift_spans", "LevelSpan"]
+
+
+@dataclass(frozen=True)
+class AnalysisConfig:
+    """Tunable settings of the analysis (defaults suit 1-s and 15-min logs of 6-80 GHz hops).
+
+    Fade segmentation (hysteresis): an event starts where the attenuation reaches ``fade_start_db`` and extends
+    both ways while it stays at or above ``fade_end_db``; events closer than ``min_separation_s`` are merged;
+    events shorter than ``min_duration_s`` are dropped unless they hold a below-threshold or signal-lost sample.
+    """
+
+    fade_start_db: float = 3.0
+    fade_end_db: float = 1.5
+    min_duration_s: float = 3.0
+    min_separation_s: float = 60.0
+    block_s: float = 900.0
+    reference_window_h: float = 24.0
+    reference_quantile: float = 0.75
+    min_block_coverage: float = 0.5
+    step_min_db: float = 2.0
+    context_s: float = 300.0          # window before/after an event for upfades
+    rain_plausible_max_mmh: float = 200.0   # path-average rain rate above this is not rain (common practice)
+    merge_gap_s: float = 0.0          # cross-channel grouping tolerance (0 = overlap only)
+
+
+@dataclass(frozen=True)
+class LevelSpan:
+    """A stretch of the record whose clear-sky level sits ``size_db`` below the best level of the channel."""
+
+    channel: str
+    start: pd.Timestamp
+    end: pd.Timestamp          # exclusive
+    size_db: float             # positive: how far below the best segment
+    step_db: float             # size of the step that opened the span (negative = level dropped)
+    start_index: int
+    end_index: int             # exclusive
+
+
+# ------------------------------------------------------------------------------------------------- grids
+def _grid_step_ns(times_ns: np.ndarray, interval_s: float) -> int:
+    if interval_s > 0:
+        return int(round(interval_s * 1e9))
+    if times_ns.size < 2:
+        return int(1e9)
+    diffs = np.diff(np.unique(times_ns))
+    step = float(np.median(diffs)) if diffs.size else 1e9
+    if step >= 1e9:
+        step = round(step / 1e9) * 1e9
+    return max(int(step), 1)
+
+
+def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
+    """Values on the grid (mean of rows falling on the same grid point), NaN where none."""
+    pos = np.rint((times_ns - t0) / step).astype(np.int64)
+    keep = (pos >= 0) & (pos < n)
+    pos, values = pos[keep], values[keep]
+    out = np.full(n, np.nan)
+    finite = np.isfinite(values)
+    if finite.all():
+        if np.unique(pos).size == pos.size:
+            out[pos] = values
+            return out
+    sums = np.bincount(pos[finite], weights=values[finite], minlength=n)
+    counts = np.bincount(pos[finite], minlength=n)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = sums / counts
+    return np.where(counts > 0, mean, np.nan)
+
+
+_STATUS_RANK = {S.OK: 0, S.MISSING: 1, S.SIGNAL_LOST: 2}
+_STATUS_NAMES = np.array([S.OK, S.MISSING, S.SIGNAL_LOST, GRID_NO_DATA], dtype=object)
+
+
+def _place_status(times_ns: np.ndarray, status: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
+    """Status code per grid point: 0 ok, 1 missing, 2 signal_lost, 3 no data (an ok row wins a collision)."""
+    pos = np.rint((times_ns - t0) / step).astype(np.int64)
+    keep = (pos >= 0) & (pos < n)
+    codes = np.full(status.shape, 1, dtype=np.int8)
+    codes[status == S.OK] = 0
+    codes[status == S.SIGNAL_LOST] = 2
+    out = np.full(n, 3, dtype=np.int8)
+    np.minimum.at(out, pos[keep], codes[keep])
+    return out
+
+
+def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
+    """One ``ChannelSeries`` per channel of ONE link (RSL, status, and TSL/XPD/XPL when logged).
+
+    A channel with instantaneous samples gives kind "sample"; one with interval min/avg/max gives kind "stats"
+    (when both exist the samples are used).  The grid runs from the channel's first to its last RSL row with the
+    sampling step (the median spacing for samples, ``interval_s`` for statistics).
+    """
+    if table.empty:
+        return {}
+    link_id = str(table[S.LINK].iloc[0])
+    out: dict[str, ChannelSeries] = {}
+    groups = {key: frame for key, frame in table.groupby([S.CHANNEL, S.QUANTITY, S.STAT], sort=False)}
+    channels = sorted({key[0] for key in groups if key[1] == S.RSL})
+    tsl_channels = sorted({key[0] for key in groups if key[1] == S.TSL})
+    mains = {}
+    for channel in channels:
+        if (channel, S.RSL, S.SAMPLE) in groups:
+            kind = "sample"
+            main = groups[(channel, S.RSL, S.SAMPLE)]
+            interval_s = 0.0
+        else:
+            kind = "stats"
+            main = groups.get((channel, S.RSL, S.AVG))
+            if main is None:
+                main = groups.get((channel, S.RSL, S.MIN), groups.get((channel, S.RSL, S.MAX)))
+            interval_s = float(main[S.INTERVAL].median())
+        t_ns = main[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
+        mains[channel] = (kind, main, t_ns, _grid_step_ns(t_ns, interval_s))
+    # channels with the same kind and step share one grid (so H and V, or both directions, line up)
+    spans: dict = {}
+    for kind, _, t_ns, step in mains.values():
+        lo, hi = spans.get((kind, step), (int(t_ns.min()), int(t_ns.max())))
+        spans[(kind, step)] = (min(lo, int(t_ns.min())), max(hi, int(t_ns.max())))
+    for channel, (kind, main, t_ns, step) in mains.items():
+        lo, hi = spans[(kind, step)]
+        t0 = lo + ((int(t_ns.min()) - lo) % step)  # keep the channel's own phase on the shared span
+        n = int(round((hi - t0) / step)) + 1
+        index = pd.DatetimeIndex(t0 + step * np.arange(n, dtype=np.int64), tz="UTC", name=S.TIME)
+        status = _place_status(t_ns, main[S.STATUS].to_numpy(dtype=object), t0, step, n)
+        cols: dict[str, np.ndarray] = {"rsl_dbm": _place(t_ns, main[S.VALUE].to_numpy(dtype=float), t0, step, n)}
+        if kind == "stats":
+            for stat, name in ((S.MIN, "rsl_min_dbm"), (S.MAX, "rsl_max_dbm")):
+                frame = groups.get((channel, S.RSL, stat))
+                if frame is not None:
+                    ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
+                    cols[name] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
+                    if stat == S.MIN:  # a signal-lost minimum marks the interval as reaching the floor
+                        st = _place_status(ts, frame[S.STATUS].to_numpy(dtype=object), t0, step, n)
+                        status = np.where((st == 2) & (status == 0), 2, status)
+                else:
+                    cols[name] = cols["rsl_dbm"].copy()
+        cols["rsl_dbm"] = np.where(status == 0, cols["rsl_dbm"], np.nan)
+        # transmit level for this channel (or the link's only TSL channel)
+        tsl_channel = channel if channel in tsl_channels else (tsl_channels[0] if len(tsl_channels) == 1 else None)
+        extra = {S.TSL: tsl_channel, S.XPD: channel, S.XPL: channel}
+        for quantity, source in extra.items():
+            if source is None:
+                continue
+            frame = groups.get((source, quantity, S.SAMPLE if kind == "sample" else S.AVG))
+            if frame is None:
+                frame = groups.get((source, quantity, S.SAMPLE))
+            if frame is None:
+                continue
+            ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
+            cols[quantity] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
+        for quantity in (S.ES, S.SES, S.UAS):  # the radio's own error counters, for the outage cross-check
+            counter = [f for (ch, q, _), f in groups.items() if ch == channel and q == quantity]
+            if not counter and len(channels) == 1:
+                counter = [f for (_, q, _), f in groups.items() if q == quantity]
+            if counter:
+                ts = counter[0][S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
+                cols[quantity] = _place(ts, counter[0][S.VALUE].to_numpy(dtype=float), t0, step, n)
+        frame = pd.DataFrame(cols, index=index)
+        frame["status"] = pd.array(_STATUS_NAMES[status], dtype="str")
+        out[channel] = ChannelSeries(link_id=link_id, channel=channel, interval_s=step / 1e9, kind=kind,
+                                     frame=frame)
+    return out
+
+
+# ------------------------------------------------------------------------------------------------- reference
+def path_level(frame: pd.DataFrame) -> np.ndarray:
+    """RSL (interval average for statistics) with logged TSL changes removed; NaN unless status is ok."""
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    if S.TSL in frame.columns:
+        tsl = frame[S.TSL].astype(float)
+        if tsl.notna().any():
+            filled = tsl.ffill().bfill().to_numpy(dtype=float)
+            level = level - (filled - float(np.nanmedian(filled)))
+    return level
+
+
+def _block_medians(values: np.ndarray, block: int, min_coverage: float) -> np.ndarray:
+    if block <= 1:
+        return values.copy()
+    n_blocks = -(-len(values) // block)
+    padded = np.full(n_blocks * block, np.nan)
+    padded[: len(values)] = values
+    blocks = padded.reshape(n_blocks, block)
+    valid = np.isfinite(blocks).sum(axis=1)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        med = np.nanmedian(blocks, axis=1)
+    med[valid < max(1, int(min_coverage * block))] = np.nan
+    return med
+
+
+def _segment_reference(values: np.ndarray, block: int, config: AnalysisConfig, interval_s: float) -> np.ndarray:
+    """Reference for one segment (see module docstring, step 3)."""
+    n = len(values)
+    med = _block_medians(values, block, config.min_block_coverage)
+    if not np.isfinite(med).any():
+        # too sparse for blocks: fall back to the upper quantile of what there is
+        finite = values[np.isfinite(values)]
+        level = float(np.quantile(finite, config.reference_quantile)) if finite.size else math.nan
+        return np.full(n, level)
+    window = max(1, int(round(config.reference_window_h * 3600.0 / (block * interval_s))))
+    ref_blocks = (pd.Series(med).rolling(window, center=True, min_periods=1)
+                  .quantile(config.reference_quantile).to_numpy())
+    ok = np.isfinite(ref_blocks)
+    centres = (np.arange(len(med)) * block + (block - 1) / 2.0)
+    return np.interp(np.arange(n, dtype=float), centres[ok], ref_blocks[ok])
+
+
+def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -> list:
+    """Add ``reference_dbm`` and ``attenuation_db`` (and ``attenuation_peak_db`` for statistics) to the frame.
+
+    Returns the steps (:class:`diag.shifts.Step`) at which the reference was cut.
+    """
+    from diag import shifts
+
+    config = config or AnalysisConfig()
+    frame = series.frame
+    level = path_level(frame)
+    interval_s = series.interval_s
+    steps = []
+    if np.isfinite(level).sum() > 10:
+        try:
+            steps = shifts.detect_steps(pd.Series(level, index=frame.index), interval_s,
+                                        min_step_db=config.step_min_db)
+        except ValueError as exc:  # too short a record for the windows
+            log.info("no step detection on %s: %s", series.channel, exc)
+            steps = []
+    cuts = [0] + sorted(int(frame.index.searchsorted(step.time_utc)) for step in steps) + [len(frame)]
+    block = max(1, int(round(config.block_s / interval_s)))
+    reference = np.full(len(frame), np.nan)
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        if b > a:
+            reference[a:b] = _segment_reference(level[a:b], block, config, interval_s)
+    frame["reference_dbm"] = reference
+    frame["attenuation_db"] = reference - level
+    if series.kind == "stats" and "rsl_min_dbm" in frame.columns:
+        low = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        offset = level - frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)  # ATPC correction, if any
+        offset = np.where(np.isfinite(offset), offset, 0.0)
+        frame["attenuation_peak_db"] = reference - (low + offset)
+        high = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        frame["attenuation_low_db"] = reference - (high + offset)
+    series.steps = steps  # kept for the level-shift events
+    return steps
+
+
+def level_shift_spans(series: ChannelSeries, config: AnalysisConfig | None = None) -> list[LevelSpan]:
+    """Segments (between detected steps) whose reference sits at least ``step_min_db`` below the best segment."""
+    config = config or AnalysisConfig()
+    steps = getattr(series, "steps", None) or []
+    if not steps:
+        return []
+    frame = series.frame
+    cuts = [0] + sorted(int(frame.index.searchsorted(s.time_utc)) for s in steps) + [len(frame)]
+    reference = frame["reference_dbm"].to_numpy(dtype=float)
+    levels = []
+    for a, b in zip(cuts[:-1], cuts[1:]):
+        chunk = reference[a:b]
+        levels.append(float(np.nanmedian(chunk)) if b > a and np.isfinite(chunk).any() else math.nan)
+    best = np.nanmax(levels) if np.isfinite(levels).any() else math.nan
+    spans: list[LevelSpan] = []
+    for k, (a, b) in enumerate(zip(cuts[:-1], cuts[1:])):
+        if b <= a or not math.isfinite(levels[k]):
+            continue
+        drop = best - levels[k]
+        if drop < config.step_min_db:
+            continue
+        # the step that opened it: the one at its start (or, for the first segment, the one closing it)
+        opening = steps[k - 1] if k > 0 else steps[0]
+        end = frame.index[b] if b < len(frame) else frame.index[-1] + pd.Timedelta(seconds=series.interval_s)
+        spans.append(LevelSpan(channel=series.channel, start=frame.index[a], end=end, size_db=float(drop),
+                               step_db=float(opening.size_db), start_index=a, end_index=b))
+    return spans

@@ -1,0 +1,242 @@
+"""Cause of each fade event, with a confidence and a one-line evidence string that quotes the numbers.
+
+Physics-based rules (no trained model).  The features come from :mod:`diag.events`; the physics behind each test
+is in the shared reference sheet, section 8 (rain vs multipath), with sources there.  The rules run in this order
+and the first that fires wins:
+
+1. **level_shift** - a span of the record whose clear-sky level sits at least ``step_min_db`` below the best
+   level, opened by an abrupt persistent step (:func:`diag.shifts.detect_steps`).  Confidence grows with the step.
+2. **signal_loss** - at least half of the event at the receiver floor, and the level in the 30 s before the first
+   floor sample was within 6 dB of the reference: the signal vanished abruptly from near clear-sky level, which
+   no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last seconds).
+3. **multipath** - fast fading: the fluctuation about the 1-min running mean (``fast_std_db``) or the 1-s
+   difference spread (``variability_db``, in excess of the log's own clear-air noise) is large compared with the
+   fade, or the level rises above the clear-sky reference inside/around the event (upfades: P.530 §2.3.3;
+   rain and refractive fades never enhance the level), or the event is shorter than two minutes (rain cells and
+   refractive fades last many minutes: Vigants 1971, deep multipath fades last seconds).  On a dual-polarised hop a
+   low H/V correlation (< 0.8) also points to multipath (rain and refraction fade both polarisations together).
+4. **rain or refractive** - a smooth fade.  Evidence for rain, in order of weight:
+   a. V/H attenuation ratio (dual-polarised hops): rain follows ITU-R P.838-3 (A_V/A_H = gamma_V/gamma_H < 1 above
+      ~8 GHz); refractive fading is polarisation-independent (ratio ~ 1).  Decided when the P.838 ratio differs
+      from 1 by more than 0.05.
+   b. the path-average rain rate implied by P.838-3 for the peak fade: above ``rain_plausible_max_mmh`` (or a
+      12-h-long fade) the fade cannot be rain;
+   c. shape: rain fades follow convective cells (a peaked profile: under ~35 % of the event above half its peak,
+      a fast onset), refractive fades are broad and slow (sin^2-like: ~50 % above half peak, onset < 0.01 dB/s);
+   d. a rain gauge, when given: rain at the gauge within 15 min confirms (confidence up), a dry gauge lowers the
+      confidence and is said in the evidence (a gauge is a point and can miss a cell).
+5. **unknown** - no usable feature (e.g. all samples missing).
+
+15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
+short-term variability (multipath widens the spread while the average stays near the reference; rain lowers
+the average and minimum together), and every confidence multiplied by 0.7 (the verdict rests on three numbers per
+15 minutes).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from diag import schema as S
+from diag.baseline import AnalysisConfig
+from diag.links import Link
+
+__all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
+
+STATS_CONFIDENCE_FACTOR = 0.7
+
+
+def _f(value) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return math.nan
+    return v
+
+
+def _fmt_duration(seconds: float) -> str:
+    if seconds < 120:
+        return f"{seconds:.0f}-s"
+    if seconds < 3 * 3600:
+        return f"{seconds / 60:.0f}-min"
+    return f"{seconds / 3600:.1f}-h"
+
+
+def _clip(x: float) -> float:
+    return float(min(0.99, max(0.05, x)))
+
+
+def _level_shift(row) -> tuple[str, float, str]:
+    size = _f(row["peak_fade_db"])
+    step = _f(row["step_db"])
+    conf = _clip(0.6 + 0.06 * size)
+    return (S.LEVEL_SHIFT, conf,
+            f"clear-sky level {size:.1f} dB below its best for {_fmt_duration(_f(row['duration_s']))} "
+            f"after an abrupt persistent step of {step:+.1f} dB at {row['start_utc']:%Y-%m-%d %H:%M} UTC")
+
+
+def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, str]:
+    if row["event_kind"] == "level_shift":
+        return _level_shift(row)
+    stats = row["kind"] == "stats"
+    dur = _f(row["duration_s"])
+    peak = _f(row["peak_fade_db_finite"])
+    peak_rep = _f(row["peak_fade_db"])
+    floor_frac = _f(row["floor_fraction"])
+    pre_floor = _f(row["pre_floor_fade_db"])
+    shape = _fmt_duration(dur)
+    # 2. signal loss ------------------------------------------------------------------------------------------
+    if floor_frac >= 0.5 and (not math.isfinite(pre_floor) or pre_floor < 6.0):
+        before = f"{pre_floor:.1f} dB" if math.isfinite(pre_floor) else "no sample"
+        return (S.SIGNAL_LOSS, 0.9 if math.isfinite(pre_floor) else 0.7,
+                f"{shape} drop to the receiver floor ({floor_frac:.0%} of the event at the floor) with fade "
+                f"{before} in the 30 s before: abrupt, not a propagation fade")
+    if not math.isfinite(peak) and floor_frac <= 0:
+        return S.UNKNOWN, 0.1, f"{shape} event without valid samples"
+    # 3. multipath ---------------------------------------------------------------------------------------------
+    upfade = max(_f(row["upfade_within_db"]), _f(row["upfade_before_db"]), _f(row["upfade_after_db"]))
+    corr = _f(row["partner_corr"])
+    mean_fade = max(_f(row["mean_fade_db"]), 0.5)
+    if stats:
+        spread = _f(row["spread_db"])
+        ratio = _f(row["avg_to_min_ratio"])
+        mp_score = 0.0
+        reasons = []
+        if math.isfinite(spread) and spread >= 6.0 and (not math.isfinite(ratio) or ratio < 0.5):
+            mp_score += 1.0
+            reasons.append(f"min-max spread {spread:.1f} dB per 15 min with the average only "
+                           f"{ratio:.0%} of the minimum's fade")
+        if upfade >= 2.0:
+            mp_score += 0.5
+            reasons.append(f"maxima {upfade:.1f} dB above the reference")
+        if mp_score >= 1.0:
+            return (S.MULTIPATH, _clip(0.8 * STATS_CONFIDENCE_FACTOR),
+                    f"{shape} fading, peak {peak_rep:.1f} dB, " + ", ".join(reasons) + " (15-min statistics)")
+    else:
+        noise = _f(row["noise_diff_db"])
+        var = _f(row["variability_db"])
+        var_excess = math.sqrt(max(var ** 2 - (noise ** 2 if math.isfinite(noise) else 0.0), 0.0)) \
+            if math.isfinite(var) else math.nan
+        fast = _f(row["fast_std_db"])
+        reasons = []
+        score = 0.0
+        if math.isfinite(fast) and fast >= max(0.6, 0.15 * mean_fade):
+            score += 1.0
+            reasons.append(f"fast fluctuation {fast:.1f} dB rms about the 1-min mean")
+        if math.isfinite(var_excess) and var_excess >= 0.5:
+            score += 0.6
+            reasons.append(f"1-s variability {var:.2f} dB")
+        if upfade >= 2.0:
+            score += 0.8
+            reasons.append(f"upfades to {upfade:.1f} dB above the reference")
+        if dur < 120.0:
+            score += 1.0
+            reasons.append("too short for rain or refraction")
+        if math.isfinite(corr) and corr < 0.8:
+            score += 0.5
+            reasons.append(f"H/V correlation {corr:.2f}")
+        if score >= 1.0:
+            return (S.MULTIPATH, _clip(0.55 + 0.15 * score),
+                    f"{shape} fast fading, peak {peak_rep:.1f} dB, " + ", ".join(reasons))
+    # 4. rain vs refractive ----------------------------------------------------------------------------------
+    vh = _f(row["v_over_h_ratio"])
+    expected = _f(row["expected_v_over_h"])
+    rate = _f(row["rain_rate_mmh"])
+    half = _f(row["half_peak_fraction"])
+    slope = _f(row["slope_in_db_s"])
+    gauge = _f(row["gauge_rain_mmh"])
+    rain_pts, refr_pts = 0.0, 0.0
+    notes = []
+    if math.isfinite(vh) and math.isfinite(expected) and abs(1.0 - expected) > 0.05:
+        mid = (1.0 + expected) / 2.0
+        if vh < mid:
+            rain_pts += 2.0
+            notes.append(f"V/H attenuation ratio {vh:.2f} as P.838 predicts ({expected:.2f}) at "
+                         f"{link.frequency_ghz:g} GHz")
+        else:
+            refr_pts += 2.0
+            notes.append(f"V/H attenuation ratio {vh:.2f}, not the {expected:.2f} rain gives at "
+                         f"{link.frequency_ghz:g} GHz")
+    plausible = math.isfinite(rate) and 0 < rate <= config.rain_plausible_max_mmh
+    if math.isfinite(rate) and not plausible:
+        refr_pts += 2.0
+        notes.append(f"would need {rate:.0f} mm/h over the whole path")
+    if dur > 12 * 3600:
+        refr_pts += 1.0
+        notes.append("longer than rain lasts")
+    if math.isfinite(half):
+        if half < 0.35:
+            rain_pts += 1.0
+            notes.append(f"peaked profile ({half:.0%} of the time above half the peak)")
+        elif half > 0.42:
+            refr_pts += 1.0
+            notes.append(f"broad profile ({half:.0%} of the time above half the peak)")
+    if math.isfinite(slope):
+        if slope < 0.004:
+            refr_pts += 0.5
+            notes.append(f"slow onset {slope * 60:.2f} dB/min")
+        elif slope > 0.01:
+            rain_pts += 0.5
+            notes.append(f"onset {slope * 60:.1f} dB/min")
+    if math.isfinite(gauge):
+        if gauge >= 0.5:
+            rain_pts += 1.5
+            notes.append(f"gauge {gauge:.1f} mm/h")
+        else:
+            refr_pts += 0.5
+            notes.append("gauge dry")
+    total = rain_pts + refr_pts
+    if rain_pts >= refr_pts:
+        cause = S.RAIN
+        conf = 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 1.0)
+        implied = f", implied {rate:.0f} mm/h" if plausible else ""
+        text = f"smooth {shape} fade, peak {peak_rep:.1f} dB" + implied
+    else:
+        cause = S.REFRACTIVE
+        conf = 0.5 + 0.45 * (refr_pts - rain_pts) / max(total, 1.0)
+        text = f"smooth {shape} fade, peak {peak_rep:.1f} dB"
+    if total == 0:
+        conf = 0.35
+    if stats:
+        conf *= STATS_CONFIDENCE_FACTOR
+        notes.append("15-min statistics")
+    if notes:
+        text += ", " + ", ".join(notes)
+    return cause, _clip(conf), text
+
+
+def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None) -> pd.DataFrame:
+    """Fill ``cause``, ``confidence`` and ``evidence`` of an event table from :func:`diag.events.find_events`."""
+    config = config or AnalysisConfig()
+    if events.empty:
+        return events
+    out = events.copy()
+    verdicts = [_classify_row(row, link, config) for row in out.to_dict("records")]
+    out["cause"] = pd.array([v[0] for v in verdicts], dtype="str")
+    out["confidence"] = np.round([v[1] for v in verdicts], 2)
+    out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
+    _harmonise_groups(out)
+    return out
+
+
+def _harmonise_groups(events: pd.DataFrame) -> None:
+    """Within a group (one physical event on several channels) propagation causes agree: the verdict with the
+    highest confidence wins for rain/refractive/multipath; signal_loss and level_shift stay per channel."""
+    prop = {S.RAIN, S.REFRACTIVE, S.MULTIPATH}
+    for _, idx in events.groupby("group_id").groups.items():
+        if len(idx) < 2:
+            continue
+        sub = events.loc[idx]
+        mask = sub["cause"].isin(prop)
+        if mask.sum() < 2 or sub.loc[mask, "cause"].nunique() == 1:
+            continue
+        best = sub.loc[mask, "confidence"].idxmax()
+        cause = events.at[best, "cause"]
+        for i in sub.index[mask]:
+            if events.at[i, "cause"] != cause:
+                events.at[i, "cause"] = cause
+                events.at[i, "confidence"] = round(float(events.at[i, "confidence"]) * 0.8, 2)
+                events.at[i, "evidence"] = (f"{events.at[i, 'evidence']}; called {cause} with the other "
+                                            f"channel ({events.at[best, 'channel']})")

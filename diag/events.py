@@ -1,0 +1,351 @@
+"""Fade events: segmentation with hysteresis, per channel, grouped across the channels of a hop, with features.
+
+Segmentation (per channel, on ``attenuation_db`` for 1-s samples, on ``attenuation_peak_db`` = reference minus
+interval minimum for 15-min statistics):
+
+- a grid point is *in a fade* while the attenuation is at least ``fade_end_db`` (or the receiver is at its floor,
+  status "signal_lost"); a run of such points is an event when it reaches ``fade_start_db`` somewhere (hysteresis:
+  start at 3 dB, end below 1.5 dB by default);
+- events closer than ``min_separation_s`` are merged (the bursts of one multipath episode, a gap of a few polls
+  inside a rain fade);
+- events shorter than ``min_duration_s`` are dropped unless they hold a below-threshold or floor sample (so every
+  second below threshold is inside some event);
+- events of different channels that overlap in time share a ``group_id`` (one physical event seen on H and V).
+
+Level-shift spans from :func:`diag.baseline.level_shift_spans` become events of their own (they may last days and
+contain shorter fades; the per-sample cause is that of the innermost event, see :func:`paint_series`).
+
+Per-event features (units in the column names): start/end, duration, peak and mean fade, slope in and out
+[dB/s], short-term variability (std of the sample-to-sample differences; for 1-s logs the std of 1-s
+differences), roughness (std of the attenuation about its 5-min running mean, relative to the peak), upfades
+(level above the reference) within and within ``context_s`` before/after, hour of the peak (UTC), fraction of
+samples at the receiver floor, the fade just before the first floor sample, seconds below threshold, the
+partner channel's correlation and V/H (or direction) attenuation ratio, the rain rate implied by ITU-R P.838-3
+for the peak and mean fade under uniform rain over the path, and whether that rate is plausible.  For 15-min
+statistics: the median min-max spread within an interval and the ratio of the average fade to the minimum fade.
+"""
+from __future__ import annotations
+
+import math
+import re
+
+import numpy as np
+import pandas as pd
+
+from diag import schema as S
+from diag.baseline import AnalysisConfig, LevelSpan
+from diag.links import Link
+from diag.models import p838
+from diag.results import ChannelSeries
+
+__all__ = ["segment", "find_events", "paint_series", "channel_polarization", "FEATURE_COLUMNS"]
+
+FEATURE_COLUMNS = [
+    "event_kind", "group_id", "kind", "interval_s", "start_index", "end_index", "partner_channel",
+    "peak_fade_db_finite", "mean_fade_db", "time_to_peak_s", "slope_in_db_s", "slope_out_db_s", "variability_db",
+    "roughness", "upfade_within_db", "upfade_before_db", "upfade_after_db", "hour_utc", "floor_fraction",
+    "pre_floor_fade_db", "below_threshold_s", "valid_fraction", "partner_corr", "partner_ratio", "v_over_h_ratio",
+    "expected_v_over_h", "rain_rate_mmh", "rain_rate_mean_mmh", "rain_plausible", "spread_db", "avg_to_min_ratio",
+    "step_db", "gauge_rain_mmh", "fast_std_db", "half_peak_fraction", "noise_diff_db",
+]
+
+
+def channel_polarization(channel: str, link: Link | None = None) -> str | None:
+    """"H" or "V" when the channel name says so (a token H/V/horizontal/vertical), else the link's single pol."""
+    tokens = [t for t in re.split(r"[^A-Za-z]+", str(channel).lower()) if t]
+    if any(t in ("h", "horizontal", "hor", "hh") for t in tokens):
+        return "H"
+    if any(t in ("v", "vertical", "ver", "vv") for t in tokens):
+        return "V"
+    if link is not None and link.polarization in ("H", "V"):
+        return link.polarization
+    return None
+
+
+def _partners(channels: list[str], link: Link | None) -> dict[str, str]:
+    """H<->V pairs of the same path, else the two channels of a two-channel hop (two directions)."""
+    out: dict[str, str] = {}
+    pols = {ch: channel_polarization(ch) for ch in channels}
+    rest = {ch: re.sub(r"(?i)\b(h|v|horizontal|vertical)\b", "", ch).strip(" _-") for ch in channels}
+    for a in channels:
+        for b in channels:
+            if a != b and pols[a] and pols[b] and pols[a] != pols[b] and rest[a] == rest[b]:
+                out[a] = b
+    if not out and len(channels) == 2:
+        out[channels[0]], out[channels[1]] = channels[1], channels[0]
+    return out
+
+
+def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, interval_s: float,
+            config: AnalysisConfig) -> tuple[np.ndarray, np.ndarray]:
+    """Fade events of one channel as index ranges ``[start, end)`` (see module docstring)."""
+    att = np.asarray(attenuation_db, dtype=float)
+    with np.errstate(invalid="ignore"):
+        ext = (att >= config.fade_end_db) | floor
+        core = (att >= config.fade_start_db) | floor
+    edges = np.diff(np.concatenate([[0], ext.astype(np.int8), [0]]))
+    starts = np.flatnonzero(edges == 1)
+    ends = np.flatnonzero(edges == -1)
+    if starts.size == 0:
+        return starts, ends
+    core_count = np.concatenate([[0], np.cumsum(core)])
+    keep = core_count[ends] - core_count[starts] > 0
+    starts, ends = starts[keep], ends[keep]
+    if starts.size > 1:
+        sep = max(1, int(math.ceil(config.min_separation_s / interval_s)))
+        new = np.concatenate([[True], (starts[1:] - ends[:-1]) >= sep])
+        last = np.concatenate([new[1:], [True]])
+        starts, ends = starts[new], ends[last]
+    if starts.size:
+        bad = np.concatenate([[0], np.cumsum(below | floor)])
+        long_enough = (ends - starts) * interval_s >= config.min_duration_s
+        keep = long_enough | ((bad[ends] - bad[starts]) > 0)
+        starts, ends = starts[keep], ends[keep]
+    return starts, ends
+
+
+def _rain_rates(att_db: float, length_km: float, frequency_ghz: float, pol: str | None) -> float:
+    if not (math.isfinite(att_db) and att_db > 0):
+        return 0.0
+    tilt = 90.0 if pol == "V" else 0.0
+    return float(p838.rain_rate_from_attenuation_mmh(att_db, length_km, frequency_ghz, tilt))
+
+
+def _expected_v_over_h(rate_mmh: float, frequency_ghz: float) -> float:
+    """A_V / A_H for uniform rain of ``rate_mmh`` by ITU-R P.838-3 eq. (1) (NaN for no rain)."""
+    if not (math.isfinite(rate_mmh) and rate_mmh > 0):
+        return math.nan
+    gh = float(p838.specific_attenuation_db_per_km(rate_mmh, frequency_ghz, 0.0))
+    gv = float(p838.specific_attenuation_db_per_km(rate_mmh, frequency_ghz, 90.0))
+    return gv / gh if gh > 0 else math.nan
+
+
+def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
+    if width <= 1 or x.size < 3:
+        return x
+    filled = np.where(np.isfinite(x), x, 0.0)
+    weight = np.isfinite(x).astype(float)
+    kernel = np.ones(min(width, x.size))
+    num = np.convolve(filled, kernel, mode="same")
+    den = np.convolve(weight, kernel, mode="same")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(den > 0, num / den, np.nan)
+
+
+def _noise_diff(att: np.ndarray, floor: np.ndarray, config: AnalysisConfig) -> float:
+    """Std of sample-to-sample differences in clear air (|attenuation| < fade_end_db): the noise of the log."""
+    d = np.diff(att)
+    with np.errstate(invalid="ignore"):
+        quiet = (np.abs(att[1:]) < config.fade_end_db) & (np.abs(att[:-1]) < config.fade_end_db)
+    d = d[quiet & np.isfinite(d)]
+    if d.size < 10:
+        return math.nan
+    if d.size > 200_000:
+        d = d[:: d.size // 200_000 + 1]
+    return float(np.std(d))
+
+
+def _nanmax(x: np.ndarray, default: float = math.nan) -> float:
+    x = x[np.isfinite(x)]
+    return float(x.max()) if x.size else default
+
+
+def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, partner: ChannelSeries | None,
+                    gauge: pd.DataFrame | None) -> list[dict]:
+    frame = series.frame
+    step = series.interval_s
+    stats = series.kind == "stats"
+    status = frame["status"].to_numpy(dtype=object)
+    floor = status == S.SIGNAL_LOST
+    att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
+    seg_att = frame["attenuation_peak_db"].to_numpy(dtype=float, na_value=np.nan) if stats else att
+    level_low = frame["rsl_min_dbm" if stats else "rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    with np.errstate(invalid="ignore"):
+        below = (level_low < link.threshold_dbm) | floor
+    starts, ends = segment(seg_att, floor, below, step, config)
+    if starts.size == 0:
+        return []
+    pol = channel_polarization(series.channel, link)
+    p_att = None
+    if partner is not None and len(partner.frame) == len(frame):
+        p_att = partner.frame["attenuation_peak_db" if stats else "attenuation_db"].to_numpy(
+            dtype=float, na_value=np.nan)
+    p_pol = channel_polarization(partner.channel, link) if partner is not None else None
+    ctx = max(1, int(round(config.context_s / step)))
+    smooth = _running_mean(att, max(1, int(round(300.0 / step))))
+    smooth60 = _running_mean(att, max(1, int(round(60.0 / step))))
+    noise_diff = _noise_diff(att, floor, config)
+    index = frame.index
+    hours = index.hour.to_numpy()
+    if stats:
+        spread_all = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
+                      - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
+    rows = []
+    for a, b in zip(starts.tolist(), ends.tolist()):
+        seg = seg_att[a:b]
+        n = b - a
+        fl = floor[a:b]
+        finite = np.isfinite(seg)
+        peak = _nanmax(seg)
+        ipeak = a + int(np.nanargmax(seg)) if finite.any() else a
+        mean_fade = float(np.nanmean(seg)) if finite.any() else math.nan
+        # slopes: from the start to the first point at 80 % of the peak, from the last such point to the end
+        if finite.any() and peak > 0:
+            hi_idx = np.flatnonzero(seg >= 0.8 * peak)
+            i_in, i_out = a + int(hi_idx[0]), a + int(hi_idx[-1])
+            first = seg[np.flatnonzero(finite)[0]]
+            last = seg[np.flatnonzero(finite)[-1]]
+            slope_in = (seg_att[i_in] - first) / max((i_in - a) * step, step)
+            slope_out = (seg_att[i_out] - last) / max((b - 1 - i_out) * step, step)
+        else:
+            slope_in = slope_out = math.nan
+        diffs = np.diff(att[a:b]) if not stats else np.diff(seg)
+        diffs = diffs[np.isfinite(diffs)]
+        variability = float(np.std(diffs)) if diffs.size > 1 else math.nan
+        resid = att[a:b] - smooth[a:b]
+        resid = resid[np.isfinite(resid)]
+        roughness = float(np.std(resid) / peak) if resid.size > 1 and peak > 0 else math.nan
+        fast = att[a:b] - smooth60[a:b]
+        fast = fast[np.isfinite(fast)]
+        fast_std = float(np.std(fast)) if fast.size > 1 and not stats else math.nan
+        half = float(np.mean(seg[finite] >= 0.5 * peak)) if finite.any() and peak > 0 else math.nan
+        up_in = _nanmax(-att[a:b], 0.0)
+        up_before = _nanmax(-att[max(0, a - ctx):a], 0.0)
+        up_after = _nanmax(-att[b:b + ctx], 0.0)
+        floor_frac = float(fl.mean())
+        pre_floor = math.nan
+        if fl.any():  # deepest fade in the 30 s before the first floor sample (NaN: no valid sample there)
+            first_floor = a + int(np.argmax(fl))
+            pre_floor = _nanmax(att[max(0, first_floor - max(1, int(round(30.0 / step)))):first_floor])
+        peak_reported = peak
+        if fl.any():
+            ref = frame["reference_dbm"].to_numpy(dtype=float)[a:b]
+            lower_bound = float(np.nanmax(ref) - link.threshold_dbm) if np.isfinite(ref).any() else math.nan
+            peak_reported = max(peak if math.isfinite(peak) else -math.inf, lower_bound)
+        rate = _rain_rates(peak, link.length_km, link.frequency_ghz, pol)
+        rate_mean = _rain_rates(mean_fade, link.length_km, link.frequency_ghz, pol)
+        corr = ratio = vh = math.nan
+        if p_att is not None:
+            pa = p_att[a:b]
+            ok = np.isfinite(seg) & np.isfinite(pa)
+            if ok.sum() >= 3 and np.std(seg[ok]) > 0 and np.std(pa[ok]) > 0:
+                corr = float(np.corrcoef(seg[ok], pa[ok])[0, 1])
+            deep = ok & (seg >= max(config.fade_start_db, 0.5 * peak))
+            if deep.sum() >= 1 and seg[deep].sum() > 0:
+                ratio = float(pa[deep].sum() / seg[deep].sum())
+                if pol == "H" and p_pol == "V":
+                    vh = ratio
+                elif pol == "V" and p_pol == "H" and ratio > 0:
+                    vh = 1.0 / ratio
+        rate_h = rate if pol != "V" else _rain_rates(peak / vh if vh and math.isfinite(vh) and vh > 0 else peak,
+                                                     link.length_km, link.frequency_ghz, "H")
+        gauge_rate = math.nan
+        if gauge is not None and len(gauge):
+            from diag.gauge import gauge_rain_over
+
+            got = gauge_rain_over(gauge, index[a] - pd.Timedelta(minutes=15),
+                                  index[b - 1] + pd.Timedelta(minutes=15))
+            if got["peak_mmh"] is not None and got["coverage"] >= 0.5:
+                gauge_rate = float(got["peak_mmh"])
+        end_time = index[b - 1] + pd.Timedelta(seconds=step)
+        rows.append({
+            "link_id": link.link_id, "channel": series.channel, "start_utc": index[a], "end_utc": end_time,
+            "duration_s": float(n * step), "peak_fade_db": float(peak_reported) if math.isfinite(peak_reported)
+            else math.nan,
+            "event_kind": "fade", "kind": series.kind, "interval_s": float(step), "start_index": a, "end_index": b,
+            "partner_channel": partner.channel if partner is not None else "",
+            "peak_fade_db_finite": peak, "mean_fade_db": mean_fade, "time_to_peak_s": float((ipeak - a) * step),
+            "slope_in_db_s": float(slope_in), "slope_out_db_s": float(slope_out), "variability_db": variability,
+            "roughness": roughness, "upfade_within_db": up_in, "upfade_before_db": up_before,
+            "upfade_after_db": up_after, "hour_utc": int(hours[ipeak]), "floor_fraction": floor_frac,
+            "pre_floor_fade_db": pre_floor, "below_threshold_s": float(below[a:b].sum() * step),
+            "valid_fraction": float((finite | fl).mean()), "partner_corr": corr, "partner_ratio": ratio,
+            "v_over_h_ratio": vh, "expected_v_over_h": _expected_v_over_h(rate_h, link.frequency_ghz),
+            "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean,
+            "rain_plausible": bool(0 < rate <= config.rain_plausible_max_mmh),
+            "spread_db": float(np.nanmedian(spread_all[a:b])) if stats and np.isfinite(spread_all[a:b]).any()
+            else math.nan,
+            "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if stats and peak > 0 else math.nan,
+            "step_db": math.nan, "gauge_rain_mmh": gauge_rate, "fast_std_db": fast_std,
+            "half_peak_fraction": half, "noise_diff_db": noise_diff,
+        })
+    return rows
+
+
+def _span_row(span: LevelSpan, series: ChannelSeries, link: Link) -> dict:
+    row = {name: math.nan for name in FEATURE_COLUMNS}
+    row.update({
+        "link_id": link.link_id, "channel": span.channel, "start_utc": span.start, "end_utc": span.end,
+        "duration_s": float((span.end - span.start).total_seconds()), "peak_fade_db": float(span.size_db),
+        "event_kind": "level_shift", "kind": series.kind, "interval_s": float(series.interval_s),
+        "start_index": span.start_index, "end_index": span.end_index, "partner_channel": "",
+        "peak_fade_db_finite": float(span.size_db), "step_db": float(span.step_db), "rain_plausible": False,
+        "hour_utc": int(span.start.hour), "below_threshold_s": 0.0, "floor_fraction": 0.0,
+    })
+    return row
+
+
+def find_events(series: dict[str, ChannelSeries], link: Link, *, config: AnalysisConfig | None = None,
+                spans: list[LevelSpan] | None = None, gauge: pd.DataFrame | None = None) -> pd.DataFrame:
+    """All fade events of one hop (EVENT_COLUMNS first, then FEATURE_COLUMNS; cause columns still empty)."""
+    config = config or AnalysisConfig()
+    partners = _partners(list(series), link)
+    rows: list[dict] = []
+    for name, item in series.items():
+        partner = series.get(partners.get(name, ""))
+        rows.extend(_channel_events(item, link, config, partner, gauge))
+    by_channel = {name: item for name, item in series.items()}
+    for span in spans or []:
+        rows.append(_span_row(span, by_channel[span.channel], link))
+    columns = S.EVENT_COLUMNS + FEATURE_COLUMNS
+    if not rows:
+        empty = pd.DataFrame({c: pd.Series([], dtype=float) for c in columns})
+        for c in ("link_id", "channel", "cause", "evidence", "event_kind", "kind", "partner_channel"):
+            empty[c] = pd.Series([], dtype="str")
+        for c in ("start_utc", "end_utc"):
+            empty[c] = pd.Series([], dtype="datetime64[ns, UTC]")
+        return empty[columns]
+    events = pd.DataFrame(rows)
+    events["cause"] = ""
+    events["confidence"] = math.nan
+    events["evidence"] = ""
+    events = events.sort_values(["start_utc", "channel"], kind="stable", ignore_index=True)
+    # groups: fades of different channels overlapping in time (level-shift spans stay on their own)
+    group = np.full(len(events), -1, dtype=np.int64)
+    fade = (events["event_kind"] == "fade").to_numpy()
+    starts = events["start_utc"].to_numpy()
+    ends = events["end_utc"].to_numpy()
+    gap = np.timedelta64(int(config.merge_gap_s * 1e9), "ns")
+    current, current_end = -1, None
+    for i in np.flatnonzero(fade):
+        if current_end is None or starts[i] > current_end + gap:
+            current += 1
+            current_end = ends[i]
+        else:
+            current_end = max(current_end, ends[i])
+        group[i] = current
+    for i in np.flatnonzero(~fade):
+        current += 1
+        group[i] = current
+    events["group_id"] = group
+    return events[columns]
+
+
+def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None:
+    """Add ``event_id`` (row of ``events``, -1 none) and ``cause`` to each channel frame.
+
+    Longer events are painted first, so the innermost (shortest) event covering a point wins.
+    """
+    for name, item in series.items():
+        n = len(item.frame)
+        event_id = np.full(n, -1, dtype=np.int64)
+        if len(events):
+            mine = events[events["channel"] == name]
+            order = mine.sort_values("duration_s", ascending=False, kind="stable")
+            for row_id, a, b in zip(order.index.to_numpy(), order["start_index"].to_numpy(),
+                                    order["end_index"].to_numpy()):
+                event_id[int(a):int(b)] = row_id
+        causes = np.concatenate([events["cause"].to_numpy(dtype=object), np.array([""], dtype=object)]) \
+            if len(events) else np.array([""], dtype=object)
+        item.frame["event_id"] = event_id
+        item.frame["cause"] = pd.array(causes[event_id], dtype="str")

@@ -1,0 +1,222 @@
+"""The order of the analysis stages for one hop, and the entry points the command line, dashboard and batch call.
+
+``analyze_link(table, link)``     normalised rows of ONE hop -> :class:`diag.results.LinkResult`
+``analyze_tables(table, links)``  normalised rows of several hops -> one result per hop found in the table
+``analyze_files(sources, links=)`` log files (paths, folders, or ``(name, bytes)`` pairs) -> one result per hop
+
+Stages for one hop: regular grid per channel and clear-sky reference (:mod:`diag.baseline`, with the level steps
+of :mod:`diag.shifts`) -> fade events and features (:mod:`diag.events`) -> causes (:mod:`diag.classify`) ->
+per-sample cause on the grid -> fading statistics (:mod:`diag.stats`), cross-polar results (:mod:`diag.crosspol`),
+level changes (:mod:`diag.shifts`), outage (:mod:`diag.outage`), then the ranked findings (:mod:`diag.findings`),
+which read all of these.
+"""
+from __future__ import annotations
+
+import importlib
+import logging
+import os
+from collections.abc import Callable, Iterable, Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from diag import schema as S
+from diag.baseline import AnalysisConfig, add_reference, channel_grids, level_shift_spans
+from diag.classify import classify_events
+from diag.errors import InputError
+from diag.events import find_events, paint_series
+from diag.links import Link, match_link
+from diag.results import LinkResult
+
+log = logging.getLogger(__name__)
+
+__all__ = ["AnalysisConfig", "analyze_link", "analyze_tables", "analyze_files", "expand_sources"]
+
+Progress = Callable[[int, int, str], None]
+
+
+def _skipped_for_link(link: Link) -> list[str]:
+    """Checks that need an optional link field the description lacks."""
+    needs = {
+        "nominal_dbm": "expected clear-sky level vs measured reference (no nominal_dbm)",
+        "objective_pct": "availability against its objective (no objective_pct)",
+        "xpd_required_db": "clear-sky XPD against the required value (no xpd_required_db)",
+    }
+    return [text for name, text in needs.items() if getattr(link, name) is None]
+
+
+def _load_gauge(gauge):
+    if gauge is None or isinstance(gauge, pd.DataFrame):
+        return gauge
+    from diag.gauge import read_gauge
+
+    if isinstance(gauge, tuple):
+        name, data = gauge
+        return read_gauge(data, name=name)
+    return read_gauge(gauge)
+
+
+def _call(module: str, function: str, result: LinkResult):
+    """Call ``diag.<module>.<function>(result)``; a failure is logged and named in ``result.skipped``."""
+    try:
+        mod = importlib.import_module(f"diag.{module}")
+    except ModuleNotFoundError as exc:
+        if exc.name != f"diag.{module}":
+            raise
+        result.skipped.append(f"{module}: not available in this installation")
+        return None
+    try:
+        return getattr(mod, function)(result)
+    except InputError:
+        raise
+    except Exception as exc:  # one analysis step must not sink the hop: say it was skipped, log the details
+        log.warning("%s.%s failed on %s: %s", module, function, result.link.link_id, exc, exc_info=True)
+        result.skipped.append(f"{module}: failed ({type(exc).__name__}: {' '.join(str(exc).split())[:120]})")
+        return None
+
+
+def _merge_skipped(result: LinkResult, part) -> None:
+    if isinstance(part, dict):
+        for text in part.get("skipped", []) or []:
+            if text not in result.skipped:
+                result.skipped.append(str(text))
+
+
+def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None, gauge=None,
+                 ingest: dict | None = None) -> LinkResult:
+    """Analyse the normalised rows of ONE hop (see the module docstring for the stages).
+
+    ``gauge``: a rain-gauge table from :func:`diag.gauge.read_gauge`, or a path / ``(name, bytes)`` to read.
+    Raises ``InputError`` when the rows hold no receive level.
+    """
+    config = config or AnalysisConfig()
+    gauge_table = _load_gauge(gauge)
+    if S.LINK in table.columns and table[S.LINK].nunique() > 1:
+        table = table[table[S.LINK] == link.link_id]
+    series = channel_grids(table)
+    if not series:
+        raise InputError(f"hop {link.link_id}: the log holds no receive level ({S.RSL}) rows")
+    spans = []
+    for item in series.values():
+        add_reference(item, config)
+        spans.extend(level_shift_spans(item, config))
+    events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
+    events = classify_events(events, link, config=config)
+    paint_series(series, events)
+    result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
+    result.skipped = _skipped_for_link(link)
+    if gauge_table is not None and len(events):
+        from diag import gauge as gauge_mod
+
+        checked = gauge_mod.check_rain_verdicts(events, gauge_table)
+        result.events = pd.concat([events, checked], axis=1)
+    elif gauge_table is None:
+        result.skipped.append("rain-gauge check of the rain verdicts (no gauge file given)")
+    result.statistics = _call("stats", "link_statistics", result) or {}
+    _merge_skipped(result, result.statistics)
+    result.cross_polar = _call("crosspol", "cross_polar", result) or {}
+    _merge_skipped(result, result.cross_polar)
+    result.level_changes = _call("shifts", "level_changes", result) or {}
+    _merge_skipped(result, result.level_changes)
+    result.outage = _call("outage", "account_link", result)
+    result.findings = _call("findings", "rank_findings", result) or []
+    return result
+
+
+def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: AnalysisConfig | None = None,
+                   gauge=None, progress: Progress | None = None) -> list[LinkResult]:
+    """Analyse every hop of a normalised table; rows are matched to ``links`` by ``link_id`` (a table with one
+    link id and a links table of one row match each other whatever the id)."""
+    gauge_table = _load_gauge(gauge)
+    ids = list(pd.unique(table[S.LINK])) if len(table) else []
+    if not ids:
+        raise InputError("no rows to analyse")
+    jobs = []
+    for link_id in ids:
+        link = match_link(list(links), str(link_id))
+        part = table[table[S.LINK] == link_id]
+        if link_id != link.link_id:
+            part = part.assign(**{S.LINK: link.link_id})
+        jobs.append((link, part))
+    results = []
+    for done, (link, part) in enumerate(jobs):
+        if progress:
+            progress(done, len(jobs), f"analysing {link.link_id}")
+        results.append(analyze_link(part, link, config=config, gauge=gauge_table))
+    if progress:
+        progress(len(jobs), len(jobs), "analysis done")
+    return results
+
+
+def expand_sources(sources: Iterable) -> list:
+    """Paths (folders expand to their files, non-recursive, hidden files skipped) and ``(name, bytes)`` pairs."""
+    out: list = []
+    for source in sources:
+        if isinstance(source, tuple):
+            out.append(source)
+            continue
+        path = Path(os.fspath(source))
+        if path.is_dir():
+            files = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
+            if not files:
+                raise InputError("folder holds no files", path=str(path))
+            out.extend(files)
+        elif path.exists():
+            out.append(path)
+        else:
+            raise InputError("no such file or folder", path=str(path))
+    if not out:
+        raise InputError("no input files given")
+    return out
+
+
+def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = None, mapping=None,
+                  config: AnalysisConfig | None = None, gauge=None,
+                  progress: Progress | None = None) -> list[LinkResult]:
+    """Read log files (paths, folders or ``(name, bytes)`` pairs), match each to its hop, analyse every hop.
+
+    A log's rows are matched to ``links`` by the link id they carry, else by the file name containing a link id,
+    else to the table's only row (:func:`diag.links.match_link`).  ``progress(done, total, message)`` is called
+    after each file read and each hop analysed.
+    """
+    from diag.ingest import read_log
+
+    items = expand_sources(sources)
+    gauge_table = _load_gauge(gauge)
+    links = list(links)
+    pieces: dict[str, list[pd.DataFrame]] = {}
+    reports: dict[str, list[dict]] = {}
+    total = len(items)
+    for done, item in enumerate(items):
+        if isinstance(item, tuple):
+            name, data = item
+        else:
+            name, data = str(item), item
+        if progress:
+            progress(done, total, f"reading {Path(name).name}")
+        read = read_log(data, name=name, tz=tz, mapping=mapping)
+        table = read.table
+        report = read.report.to_dict() if hasattr(read.report, "to_dict") else dict(read.report or {})
+        if table.empty:
+            raise InputError("no usable rows in the log", path=name)
+        for link_id, part in table.groupby(S.LINK, sort=False):
+            carried = None if link_id in ("", S.DEFAULT_LINK_ID) else str(link_id)
+            link = match_link(links, carried, file_name=name)
+            if link_id != link.link_id:
+                part = part.assign(**{S.LINK: link.link_id})
+            pieces.setdefault(link.link_id, []).append(part)
+            reports.setdefault(link.link_id, []).append(report)
+    by_id = {link.link_id: link for link in links}
+    results = []
+    hop_ids = [link.link_id for link in links if link.link_id in pieces]
+    for done, link_id in enumerate(hop_ids):
+        if progress:
+            progress(done, len(hop_ids), f"analysing {link_id}")
+        parts = pieces[link_id]
+        table = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
+        table = table.sort_values([S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable", ignore_index=True)
+        results.append(analyze_link(table, by_id[link_id], config=config, gauge=gauge_table,
+                                    ingest={"files": reports[link_id]}))
+    if progress:
+        progress(len(hop_ids), len(hop_ids), "analysis done")
+    return results
