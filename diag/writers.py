@@ -1,0 +1,319 @@
+"""Log writers: the shapes of receive-level exports that ``diag.ingest.read_log`` understands.
+
+Each writer takes normalised rows (:mod:`diag.schema`; usually ``SimResult.table``) and writes one CSV file
+(gzip-compressed when the path ends in ``.gz``; the gzip header carries no time stamp so the same table gives the
+same bytes).  Values are written as the radio would: a ``signal_lost`` value as the receiver floor reading, a
+``missing`` value as an empty cell.  File defects (``SimResult.file_defects``: duplicated rows, adjacent rows
+swapped) are applied by the sample writers so that the reader's accounting can be checked exactly.
+
+=====================  ==============================================================================================
+shape                  layout
+=====================  ==============================================================================================
+``wide_iso``           ``time_utc,RSL H (dBm),RSL V (dBm),...``; ISO 8601 UTC stamps with ``Z``; one hop per file
+``semicolon_local``    ``Local time;Rx level H [dBm];...``; ``;`` separated, decimal comma, day-first local time in an
+                       IANA zone (read it back with ``tz=``)
+``epoch``              ``unix_time,RxLevel-H,...``: epoch seconds
+``long``               ``time_utc,link_id,channel,quantity,value``: one value per row, several hops in one file
+``stats``              ``period_start_utc,link_id,channel,RSL min (dBm),RSL avg (dBm),RSL max (dBm),...``: interval
+                       min/avg/max statistics (e.g. 15 minutes, from :func:`diag.simulate.aggregate_statistics`)
+=====================  ==============================================================================================
+"""
+from __future__ import annotations
+
+import gzip
+import io
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterable, Mapping
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from diag import schema
+from diag.errors import InputError
+
+__all__ = ["SHAPES", "WriteInfo", "write_log", "write_wide_iso", "write_semicolon_local", "write_epoch",
+           "write_long", "write_stats", "SHAPE_SUFFIX"]
+
+SHAPES = ("wide_iso", "semicolon_local", "epoch", "long", "stats")
+SHAPE_SUFFIX = {"wide_iso": "wide", "semicolon_local": "local", "epoch": "epoch", "long": "long",
+                "stats": "15min"}
+
+_LABEL = {  # quantity -> (wide_iso name, semicolon name, epoch name, unit)
+    schema.RSL: ("RSL", "Rx level", "RxLevel", "dBm"),
+    schema.TSL: ("TSL", "Tx level", "TxLevel", "dBm"),
+    schema.XPD: ("XPD", "XPD", "XPD", "dB"),
+    schema.XPL: ("XPL", "Xpol level", "XpolLevel", "dBm"),
+}
+_LONG_NAME = {schema.RSL: "RSL", schema.TSL: "TSL", schema.XPD: "XPD", schema.XPL: "XPL"}
+
+
+@dataclass(frozen=True)
+class WriteInfo:
+    """What a writer wrote: data lines (header excluded), how many of them are repeats and how many adjacent pairs
+    were swapped, and the number of value cells."""
+
+    path: Path
+    shape: str
+    rows: int
+    duplicate_rows: int
+    swapped_pairs: int
+    values: int
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# helpers
+
+def _format_values(values: np.ndarray, status: np.ndarray, floor_dbm: float | None, *, decimal: str = ".",
+                   floor_applies: bool = True) -> pa.Array:
+    """Cells as text: numbers in their shortest form, the floor reading for signal_lost, "" for missing."""
+    out = np.where(status == schema.OK, values, np.nan)
+    if floor_applies and floor_dbm is not None:
+        out = np.where(status == schema.SIGNAL_LOST, floor_dbm, out)
+    out = np.round(out, 4)
+    text = pc.cast(pa.array(out, from_pandas=True), pa.string())
+    text = pc.if_else(pc.is_null(text), "", text)
+    if decimal != ".":
+        text = pc.replace_substring(text, ".", decimal)
+    return text
+
+
+def _time_text(times_ns: np.ndarray, fmt: str, tz: str = "UTC") -> pa.Array:
+    arr = pa.array(np.asarray(times_ns, dtype="datetime64[ns]").astype("datetime64[s]"), type=pa.timestamp("s"))
+    arr = pc.assume_timezone(arr, "UTC").cast(pa.timestamp("s", tz=tz))
+    return pc.strftime(arr, format=fmt)
+
+
+def _row_order(times_ns: np.ndarray, defects: Mapping | None) -> tuple[np.ndarray, int, int]:
+    """Row order for sorted unique ``times_ns`` with the defects applied: (index array, duplicates, swaps)."""
+    order = np.arange(len(times_ns))
+    if not defects or len(times_ns) == 0:
+        return order, 0, 0
+    n = len(times_ns)
+    swaps = np.asarray(defects.get("swap_times", []), dtype="datetime64[ns]").view(np.int64)
+    pos = np.searchsorted(times_ns, swaps)
+    pos = np.unique(pos[(pos < n - 1) & (times_ns[np.minimum(pos, n - 1)] == swaps)])
+    pos = pos[np.concatenate([[True], np.diff(pos) > 1])] if len(pos) else pos   # disjoint pairs only
+    order[pos], order[pos + 1] = order[pos + 1], order[pos].copy()
+    dups = np.asarray(defects.get("duplicate_times", []), dtype="datetime64[ns]").view(np.int64)
+    hit = np.searchsorted(times_ns, dups)
+    hit = np.unique(hit[(hit < n) & (times_ns[np.minimum(hit, n - 1)] == dups)])
+    repeat = np.ones(n, dtype=np.int64)
+    repeat[hit] += 1
+    order = np.repeat(order, repeat[order])
+    return order, int(len(hit)), int(len(pos))
+
+
+def _pivot(table: pd.DataFrame, keys: list[str], signal: list[str]) -> tuple[pd.DataFrame, list[tuple]]:
+    """Wide frame indexed by ``keys`` (time first) with one (value, status) column pair per (channel, quantity[,
+    stat]); the signal columns in a stable order."""
+    frame = table[keys + signal + [schema.VALUE, schema.STATUS]].copy()
+    frame[schema.STATUS] = frame[schema.STATUS].astype(object)
+    wide = frame.pivot(index=keys, columns=signal, values=[schema.VALUE, schema.STATUS])
+    columns = sorted({col[1:] for col in wide.columns}, key=_signal_sort_key)
+    return wide, columns
+
+
+_QUANTITY_ORDER = {schema.RSL: 0, schema.TSL: 1, schema.XPD: 2, schema.XPL: 3}
+_STAT_ORDER = {schema.SAMPLE: 0, schema.MIN: 1, schema.AVG: 2, schema.MAX: 3}
+
+
+def _signal_sort_key(col: tuple) -> tuple:
+    if len(col) == 3:
+        channel, quantity, stat = col
+        return (_QUANTITY_ORDER.get(quantity, 9), channel, _STAT_ORDER.get(stat, 9))
+    if len(col) == 2 and col[0] in _QUANTITY_ORDER:   # (quantity, stat)
+        return (_QUANTITY_ORDER.get(col[0], 9), _STAT_ORDER.get(col[1], 9))
+    channel, quantity = col
+    return (_QUANTITY_ORDER.get(quantity, 9), channel)
+
+
+def _check(table: pd.DataFrame, *, samples: bool) -> None:
+    missing = [c for c in schema.COLUMNS if c not in table.columns]
+    if missing:
+        raise InputError(f"writer: table lacks column(s) {', '.join(missing)}")
+    stats = set(table[schema.STAT].unique())
+    if samples and stats - {schema.SAMPLE}:
+        raise InputError("writer: this shape writes samples; use the 'stats' shape for interval statistics")
+    if not samples and schema.SAMPLE in stats:
+        raise InputError("writer: the 'stats' shape needs min/avg/max rows (diag.simulate.aggregate_statistics)")
+
+
+def _write_lines(path: Path, header: str, columns: list[pa.Array], sep: str, order: np.ndarray) -> None:
+    if columns:
+        joined = pc.binary_join_element_wise(*columns, sep)
+        lines = joined.take(pa.array(order)).to_pylist() if len(order) else []
+    else:
+        lines = []
+    text = header + "\n" + ("\n".join(lines) + "\n" if lines else "")
+    data = text.encode("utf-8")
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    if path.suffix == ".gz":
+        buffer = io.BytesIO()
+        with gzip.GzipFile(filename="", mode="wb", fileobj=buffer, mtime=0, compresslevel=9) as handle:
+            handle.write(data)
+        data = buffer.getvalue()
+    path.write_bytes(data)
+
+
+def _one_link(table: pd.DataFrame) -> str:
+    links = table[schema.LINK].unique()
+    if len(links) > 1:
+        raise InputError("writer: this shape holds one hop per file; use the 'long' or 'stats' shape for several")
+    return str(links[0]) if len(links) else ""
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# shapes
+
+def _write_wide(table, path, *, shape, defects, floor_dbm, time_header, time_fmt, tz, sep, decimal,
+                name_of) -> WriteInfo:
+    _check(table, samples=True)
+    _one_link(table)
+    wide, columns = _pivot(table, [schema.TIME], [schema.CHANNEL, schema.QUANTITY])
+    times_ns = wide.index.to_numpy(dtype="datetime64[ns]").view(np.int64) if len(wide) else np.array([], np.int64)
+    order, dups, swaps = _row_order(times_ns, defects)
+    if time_fmt == "epoch":
+        time_col = pa.array((times_ns // 1_000_000_000).astype(str))
+    else:
+        time_col = _time_text(times_ns, time_fmt, tz)
+    cells, names = [time_col], [time_header]
+    for channel, quantity in columns:
+        values = wide[(schema.VALUE, channel, quantity)].to_numpy(dtype=float)
+        status = wide[(schema.STATUS, channel, quantity)].to_numpy(dtype=object)
+        status = np.where(pd.isna(status), schema.MISSING, status)
+        cells.append(_format_values(values, status, floor_dbm, decimal=decimal,
+                                    floor_applies=quantity in (schema.RSL, schema.XPL)))
+        names.append(name_of(channel, quantity))
+    _write_lines(path, sep.join(names), cells, sep, order)
+    return WriteInfo(Path(path), shape, len(order), dups, swaps, len(order) * len(columns))
+
+
+def write_wide_iso(table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None,
+                   floor_dbm: float | None = -99.0) -> WriteInfo:
+    """One hop, one row per time, one column per channel and quantity; ISO 8601 UTC stamps with ``Z``."""
+    return _write_wide(table, path, shape="wide_iso", defects=defects, floor_dbm=floor_dbm, time_header="time_utc",
+                       time_fmt="%Y-%m-%dT%H:%M:%SZ", tz="UTC", sep=",", decimal=".",
+                       name_of=lambda ch, q: f"{_LABEL[q][0]} {ch} ({_LABEL[q][3]})")
+
+
+def write_semicolon_local(table: pd.DataFrame, path: str | Path, *, tz: str, defects: Mapping | None = None,
+                          floor_dbm: float | None = -99.0) -> WriteInfo:
+    """One hop; ``;`` separated, decimal comma, day-first local time (``dd.mm.yyyy HH:MM:SS``) in IANA zone ``tz``.
+
+    A local clock repeats an hour when summer time ends: stamps in that hour are ambiguous and a reader must
+    count them rather than guess (see the reader's ``dst_ambiguous`` reason)."""
+    return _write_wide(table, path, shape="semicolon_local", defects=defects, floor_dbm=floor_dbm,
+                       time_header="Local time", time_fmt="%d.%m.%Y %H:%M:%S", tz=tz, sep=";", decimal=",",
+                       name_of=lambda ch, q: f"{_LABEL[q][1]} {ch} [{_LABEL[q][3]}]")
+
+
+def write_epoch(table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None,
+                floor_dbm: float | None = -99.0) -> WriteInfo:
+    """One hop; the time as integer seconds since 1970-01-01 UTC."""
+    return _write_wide(table, path, shape="epoch", defects=defects, floor_dbm=floor_dbm, time_header="unix_time",
+                       time_fmt="epoch", tz="UTC", sep=",", decimal=".",
+                       name_of=lambda ch, q: f"{_LABEL[q][2]}-{ch}")
+
+
+def write_long(tables: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, *,
+               defects: Mapping[str, Mapping] | None = None, floors_dbm: Mapping[str, float] | None = None
+               ) -> WriteInfo:
+    """Several hops in one file, one value per row: ``time_utc,link_id,channel,quantity,value``.
+
+    ``defects`` and ``floors_dbm`` are keyed by link id.  A duplicated poll repeats every value row of that time."""
+    table = tables if isinstance(tables, pd.DataFrame) else pd.concat(list(tables), ignore_index=True)
+    _check(table, samples=True)
+    pieces_lines: list[pa.Array] = []
+    total_rows = dups_total = swaps_total = 0
+    for link_id in sorted(table[schema.LINK].unique()):
+        part = table[table[schema.LINK] == link_id]
+        frame = part.sort_values([schema.TIME, schema.CHANNEL, schema.QUANTITY], kind="stable")
+        times_ns = frame[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
+        unique_times, first = np.unique(times_ns, return_index=True)
+        order_t, dups, swaps = _row_order(unique_times, (defects or {}).get(link_id))
+        counts = np.diff(np.append(first, len(times_ns)))
+        # expand the per-time order to the value rows of each time
+        starts, sizes = first[order_t], counts[order_t]
+        rows = np.repeat(starts, sizes) + _ramp(sizes)
+        floor = (floors_dbm or {}).get(link_id, -99.0)
+        quantity = frame[schema.QUANTITY].to_numpy(dtype=object)
+        status = frame[schema.STATUS].to_numpy(dtype=object)
+        values = _format_values(frame[schema.VALUE].to_numpy(dtype=float), status, floor,
+                                floor_applies=True)
+        # the floor reading only for levels
+        is_level = np.isin(quantity, [schema.RSL, schema.XPL])
+        values = pc.if_else(pa.array((status == schema.SIGNAL_LOST) & ~is_level), "", values)
+        names = pa.array([_LONG_NAME.get(q, q) for q in quantity])
+        line = pc.binary_join_element_wise(
+            _time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"), pa.array(frame[schema.LINK].to_numpy(dtype=object)),
+            pa.array(frame[schema.CHANNEL].to_numpy(dtype=object)), names, values, ",")
+        pieces_lines.append(line.take(pa.array(rows)))
+        total_rows += len(rows)
+        dups_total += len(rows) - len(times_ns)
+        swaps_total += swaps
+    column = pa.concat_arrays(pieces_lines) if pieces_lines else pa.array([], pa.string())
+    _write_lines(path, "time_utc,link_id,channel,quantity,value", [column], ",", np.arange(len(column)))
+    return WriteInfo(Path(path), "long", total_rows, dups_total, swaps_total, total_rows)
+
+
+def _ramp(sizes: np.ndarray) -> np.ndarray:
+    """0..size-1 for each size, concatenated."""
+    if len(sizes) == 0:
+        return np.array([], dtype=np.int64)
+    ends = np.cumsum(sizes)
+    return np.arange(ends[-1]) - np.repeat(ends - sizes, sizes)
+
+
+def write_stats(table: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, *,
+                floors_dbm: Mapping[str, float] | None = None) -> WriteInfo:
+    """Interval statistics of one or several hops: one row per interval start, hop and channel, with
+    ``<quantity> min/avg/max (<unit>)`` columns.  ``floors_dbm`` (by link id) is written for signal_lost cells."""
+    table = table if isinstance(table, pd.DataFrame) else pd.concat(list(table), ignore_index=True)
+    _check(table, samples=False)
+    wide, columns = _pivot(table, [schema.TIME, schema.LINK, schema.CHANNEL], [schema.QUANTITY, schema.STAT])
+    index = wide.index.to_frame(index=False)
+    order = np.lexsort((index[schema.CHANNEL].to_numpy(dtype=str), index[schema.LINK].to_numpy(dtype=str),
+                        index[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)))
+    times_ns = index[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
+    floor = np.array([(floors_dbm or {}).get(link, -99.0) for link in index[schema.LINK]], dtype=float)
+    cells = [_time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"), pa.array(index[schema.LINK].to_numpy(dtype=object)),
+             pa.array(index[schema.CHANNEL].to_numpy(dtype=object))]
+    names = ["period_start_utc", "link_id", "channel"]
+    n_values = 0
+    for quantity, stat in columns:
+        values = wide[(schema.VALUE, quantity, stat)].to_numpy(dtype=float)
+        status = wide[(schema.STATUS, quantity, stat)].to_numpy(dtype=object)
+        present = ~pd.isna(status)
+        status = np.where(present, status, schema.MISSING)
+        n_values += int(present.sum())
+        applies = quantity in (schema.RSL, schema.XPL)
+        out = np.where(status == schema.OK, values, np.where((status == schema.SIGNAL_LOST) & applies, floor, np.nan))
+        cells.append(_format_values(out, np.where(np.isnan(out), schema.MISSING, schema.OK), None))
+        names.append(f"{_LABEL[quantity][0]} {stat} ({_LABEL[quantity][3]})")
+    _write_lines(path, ",".join(names), cells, ",", order)
+    return WriteInfo(Path(path), "stats", len(order), 0, 0, n_values)
+
+
+def write_log(table: pd.DataFrame, path: str | Path, shape: str, *, tz: str | None = None,
+              defects: Mapping | None = None, floor_dbm: float | None = -99.0) -> WriteInfo:
+    """Write ``table`` (one hop) in ``shape`` (see ``SHAPES``)."""
+    if shape == "wide_iso":
+        return write_wide_iso(table, path, defects=defects, floor_dbm=floor_dbm)
+    if shape == "semicolon_local":
+        if not tz:
+            raise InputError("writer: the semicolon_local shape needs a time zone (tz=...)")
+        return write_semicolon_local(table, path, tz=tz, defects=defects, floor_dbm=floor_dbm)
+    if shape == "epoch":
+        return write_epoch(table, path, defects=defects, floor_dbm=floor_dbm)
+    if shape == "long":
+        link = _one_link(table)
+        return write_long(table, path, defects={link: defects} if defects else None,
+                          floors_dbm={link: floor_dbm} if floor_dbm is not None else None)
+    if shape == "stats":
+        link = _one_link(table)
+        return write_stats(table, path, floors_dbm={link: floor_dbm} if floor_dbm is not None else None)
+    raise InputError(f"writer: unknown shape {shape!r}; use one of {', '.join(SHAPES)}")
