@@ -1,0 +1,1108 @@
+"""Open receive-level logs and turn them into the normalised long table (``diag.schema``).
+
+``read_log(source, *, name=None, tz=None, mapping=None, link_id=None) -> ReadResult``
+``read_logs(sources, *, tz=None, mapping=None, link_id=None) -> ReadResult``
+
+``source`` is a path (a CSV/text file, ``.csv.gz`` or any gzip'd text, a ``.parquet`` file written by
+``diag ingest --out``, a store folder written by ``diag.store.write_store``, or a folder whose files -- not
+sub-folders -- are read) or ``bytes`` (a dashboard upload; pass ``name=``).  This is the only module that opens log
+files.  It finds the encoding (UTF-8 with or without BOM, UTF-16 with BOM, else Latin-1), the separator (``,`` ``;``
+tab ``|``), the decimal mark, the header line after any preamble, and streams the rows through pyarrow's CSV reader
+in blocks; ``diag.normalise`` recognises the columns and parses times and values vectorised.
+
+The row and value accounting rule is in ``diag.normalise``'s docstring: every data row is kept or counted under one
+named reason, ``rows_read == rows_kept + sum(rejected.values())``; every value of a kept row is one table row.
+
+``mapping`` overrides detection (a dict, or the path of a TOML file with the same keys)::
+
+    [file]     separator = ";"   decimal = ","   encoding = "latin-1"   header_line = 5   (1-based)
+    [time]     columns = ["Datum", "Uhrzeit"]   format = "%d.%m.%Y %H:%M:%S" | "iso" | "epoch_s" | "epoch_ms"
+               zone = "Europe/Vienna"   marks = "start" | "end"
+    [link]     column = "Hop"   or   id = "HOP-7"
+    [channel]  column = "Pol"
+    [signals."Level A"]  quantity = "rsl"   channel = "A"   stat = "min"   interval_s = 900
+    [floor]    dbm = -99   (or "none" to switch floor detection off)
+    interval_s = 900        (statistics interval when the names do not say it)
+"""
+from __future__ import annotations
+
+import codecs
+import csv
+import dataclasses
+import gzip
+import io
+import logging
+import math
+import re
+import statistics
+import tomllib
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Iterable
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute  # noqa: F401  (pa.compute)
+import pyarrow.csv as pacsv
+
+from diag import normalise as N
+from diag import schema as S
+from diag import store
+from diag.errors import DataWarning, InputError
+
+log = logging.getLogger(__name__)
+
+SAMPLE_BYTES = 256 * 1024
+BLOCK_BYTES = 8 * 1024 * 1024
+SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
+SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
+LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
+ROW_REASONS = ("malformed_row", "bad_time", "dst_nonexistent", "dst_ambiguous", "unknown_quantity",
+               "duplicate", "conflicting_duplicate")
+MAX_LISTED = 200   # gaps / conflicts listed in the report (counts are always complete)
+
+QUANTITY_ALIASES = {"rsl": S.RSL, "rx": S.RSL, "tsl": S.TSL, "tx": S.TSL, "xpd": S.XPD, "xpl": S.XPL,
+                    "es": S.ES, "ses": S.SES, "uas": S.UAS}
+for _q in S.QUANTITIES:
+    QUANTITY_ALIASES[_q] = _q
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# result types
+
+@dataclass
+class IngestReport:
+    """What the reader found and did (JSON-able through ``to_dict``)."""
+
+    file: str = ""
+    files: list[dict] = field(default_factory=list)       # per-file reports (read_logs / folders)
+    encoding: str | None = None
+    separator: str | None = None
+    decimal: str | None = None
+    header_line: int | None = None                        # 1-based line of the column names
+    layout: str | None = None                             # "wide", "long", "long-named", "parquet", "several"
+    columns: dict[str, str] = field(default_factory=dict)  # column -> detected role
+    ignored_columns: list[str] = field(default_factory=list)
+    time: dict = field(default_factory=dict)              # columns, format, zone, marks
+    guesses: list[str] = field(default_factory=list)      # what was guessed and how to override it
+    links: list[str] = field(default_factory=list)
+    link_source: str | None = None                        # "column", "argument", "mapping", "file_name", "default"
+    channels: list[str] = field(default_factory=list)
+    quantities: list[str] = field(default_factory=list)
+    kind: str | None = None                               # "sample", "stats" or "mixed"
+    interval_s: float | None = None                       # typical row step
+    start_utc: str | None = None
+    end_utc: str | None = None
+    rows_read: int = 0
+    rows_kept: int = 0
+    rejected: dict[str, int] = field(default_factory=dict)
+    duplicates: int = 0
+    conflicting_duplicates: int = 0
+    conflicts: list[dict] = field(default_factory=list)    # first few conflicting rows
+    out_of_order_rows: int = 0
+    values: dict = field(default_factory=dict)             # read, ok, signal_lost, missing, reasons
+    floors: dict = field(default_factory=dict)             # quantity -> {dbm, how}
+    gap_count: int = 0
+    gap_seconds: float = 0.0
+    gaps: list[dict] = field(default_factory=list)         # {link_id, start_utc, end_utc, seconds}
+    overlap_values_dropped: int = 0                        # read_logs: same value in two files
+    warnings: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        return _jsonable(dataclasses.asdict(self))
+
+
+@dataclass
+class ReadResult:
+    table: pd.DataFrame
+    report: IngestReport
+
+
+def _jsonable(x: Any) -> Any:
+    if isinstance(x, dict):
+        return {str(k): _jsonable(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_jsonable(v) for v in x]
+    if isinstance(x, (np.integer,)):
+        return int(x)
+    if isinstance(x, (np.floating, float)):
+        v = float(x)
+        return v if math.isfinite(v) else None
+    return x
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# mapping
+
+def load_mapping(mapping: dict | str | Path | None) -> dict:
+    """A mapping dict from a dict or a TOML file (keys as in the module docstring)."""
+    if mapping is None:
+        return {}
+    if isinstance(mapping, dict):
+        return mapping
+    path = Path(mapping)
+    try:
+        with open(path, "rb") as fh:
+            data = tomllib.load(fh)
+    except OSError as exc:
+        raise InputError(f"cannot read mapping file ({exc.strerror})", path=str(path)) from exc
+    except tomllib.TOMLDecodeError as exc:
+        m = re.search(r"line (\d+)", str(exc))
+        raise InputError(f"mapping file is not valid TOML ({exc})", path=str(path),
+                         line=int(m.group(1)) if m else None) from exc
+    return data
+
+
+def _section(mapping: dict, key: str) -> dict:
+    v = mapping.get(key) or {}
+    if not isinstance(v, dict):
+        raise InputError(f"mapping: [{key}] must be a table of keys")
+    return v
+
+
+def quantity_name(text: str) -> str:
+    q = QUANTITY_ALIASES.get(str(text).strip().lower())
+    if q is None:
+        info = N.recognise_name(str(text))
+        q = info.quantity
+    if q is None:
+        raise InputError(f"unknown quantity '{text}' (use one of {', '.join(sorted(QUANTITY_ALIASES))})")
+    return q
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# opening
+
+@dataclass
+class _Source:
+    label: str              # for messages
+    stem: str               # file name without suffixes (default link id)
+    path: Path | None
+    data: bytes | None
+    gz: bool = False
+
+
+def _stem(name: str) -> str:
+    base = Path(name).name
+    for suf in (".gz", ".csv", ".txt", ".tsv", ".log", ".dat", ".psv", ".parquet"):
+        if base.lower().endswith(suf):
+            base = base[: -len(suf)]
+    return base or S.DEFAULT_LINK_ID
+
+
+def _head(src: _Source, n: int) -> bytes:
+    if src.data is not None:
+        if src.gz:
+            try:
+                with gzip.GzipFile(fileobj=io.BytesIO(src.data)) as fh:
+                    return _read_upto(fh, n)
+            except (OSError, EOFError) as exc:
+                raise InputError("damaged gzip data", path=src.label) from exc
+        return src.data[:n]
+    try:
+        if src.gz:
+            with gzip.open(src.path, "rb") as fh:
+                return _read_upto(fh, n)
+        with open(src.path, "rb") as fh:
+            return fh.read(n)
+    except (OSError, EOFError) as exc:
+        raise InputError(f"cannot read ({getattr(exc, 'strerror', None) or exc})", path=src.label) from exc
+
+
+def _read_upto(fh, n: int) -> bytes:
+    out = b""
+    try:
+        while len(out) < n:
+            chunk = fh.read(n - len(out))
+            if not chunk:
+                break
+            out += chunk
+    except EOFError:
+        pass  # truncated gzip: take what decompressed
+    return out
+
+
+def _stream(src: _Source):
+    if src.data is not None:
+        raw = pa.BufferReader(src.data)
+        return pa.CompressedInputStream(raw, "gzip") if src.gz else raw
+    return pa.input_stream(str(src.path), compression="gzip" if src.gz else None)
+
+
+def _decode(head: bytes, complete: bool, label: str) -> tuple[str, str]:
+    """(text, encoding) of the first bytes."""
+    if not head.strip():
+        raise InputError("empty file (no data)", path=label)
+    if head.startswith(codecs.BOM_UTF8):
+        return _decode_with(head[3:], "utf-8", complete, label), "utf-8-sig"
+    for bom, enc in ((codecs.BOM_UTF16_LE, "utf-16-le"), (codecs.BOM_UTF16_BE, "utf-16-be")):
+        if head.startswith(bom):
+            return _decode_with(head[2:], enc, complete, label), "utf-16"
+    if b"\x00" in head[:4096]:
+        raise InputError("not a text log (binary data)", path=label)
+    ctrl = sum(1 for b in head[:4096] if b < 9 or 13 < b < 32)
+    if ctrl > max(4, len(head[:4096]) // 50):
+        raise InputError("not a text log (binary data)", path=label)
+    try:
+        return _decode_with(head, "utf-8", complete, label), "utf-8"
+    except UnicodeDecodeError:
+        return head.decode("latin-1"), "latin-1"
+
+
+def _decode_with(data: bytes, enc: str, complete: bool, label: str) -> str:
+    dec = codecs.getincrementaldecoder(enc)()
+    text = dec.decode(data, final=complete)
+    if "\x00" in text:
+        raise InputError("not a text log (binary data)", path=label)
+    return text
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# sniffing
+
+@dataclass
+class _Dialect:
+    separator: str
+    decimal: str
+    header_index: int          # 0-based physical line
+    names: list[str]
+    extra_trailing: bool = False
+
+
+def _split(lines: list[str], sep: str) -> list[list[str]]:
+    out = []
+    for ln in lines:
+        try:
+            out.append(next(csv.reader([ln], delimiter=sep, quotechar='"')))
+        except (csv.Error, StopIteration):
+            out.append([ln])
+    return out
+
+
+def _header_score(fields: list[str]) -> int:
+    score = 0
+    for f in fields:
+        f = f.strip()
+        if not f or re.fullmatch(r"[-+\d.,:/ TZ]+", f):
+            continue
+        if N.name_role(f) is not None:
+            score += 2
+        else:
+            info = N.recognise_name(f)
+            if info.quantity is not None:
+                score += 1 if info.guessed else 2
+    return score
+
+
+_NUMERICISH = re.compile(r"^[-+]?[\d.,:/ TZ+-]+$")
+
+
+def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
+    lines = text.splitlines()
+    if not complete and len(lines) > 1:
+        lines = lines[:-1]           # the last line may be cut off
+    fsec = _section(mapping, "file")
+    nonempty = [i for i, ln in enumerate(lines) if ln.strip()]
+    if not nonempty:
+        raise InputError("empty file (no data)", path=label)
+    tail = nonempty[-40:]
+    candidates = []
+    seps = [fsec["separator"]] if fsec.get("separator") else list(SEPARATORS)
+    seps = ["\t" if s in ("tab", "\\t") else s for s in seps]
+    for sep in seps:
+        split = _split([lines[i] for i in nonempty], sep)
+        counts = [len(r) for r in split]
+        tail_counts = counts[-len(tail):]
+        k = statistics.mode(tail_counts)
+        consistency = tail_counts.count(k) / len(tail_counts)
+        if k < 2 and not fsec.get("separator"):
+            continue
+        # header: the line with k (or k-1 with a trailing empty data field) fields that names the most columns
+        best_i, best_score = None, -1
+        trailing = all(r[-1].strip() == "" for r, c in zip(split[-len(tail):], tail_counts) if c == k) and k > 2
+        for j, (r, c) in enumerate(zip(split, counts)):
+            if c == k or (trailing and c == k - 1):
+                sc = _header_score(r)
+                if sc > best_score:
+                    best_i, best_score = j, sc
+        candidates.append((best_score > 0, consistency >= 0.8, best_score, consistency, k,
+                           -SEPARATORS.index(sep) if sep in SEPARATORS else 0, sep, best_i, split))
+    if not candidates:
+        raise InputError("no column separator found (expected , ; tab or |)", path=label)
+    candidates.sort(reverse=True)
+    _, _, score, consistency, k, _, sep, best_i, split = candidates[0]
+    header_j = best_i
+    if fsec.get("header_line"):
+        hl = int(fsec["header_line"]) - 1
+        if hl < 0 or hl >= len(lines):
+            raise InputError(f"mapping header_line {hl + 1} is beyond the file", path=label)
+        header_index = hl
+        names = _split([lines[hl]], sep)[0]
+    else:
+        if header_j is None or score <= 0:
+            # no recognisable name: the first line of the last consistent block that is not all numbers
+            header_j = None
+            for j in range(len(split) - 1, -1, -1):
+                if len(split[j]) != k:
+                    break
+                if not all(_NUMERICISH.match(f.strip() or "0") for f in split[j]):
+                    header_j = j
+            if header_j is None:
+                raise InputError("no header line with column names found", path=label,
+                                 line=nonempty[0] + 1)
+        header_index = nonempty[header_j]
+        names = split[header_j]
+    names = [n.strip().strip('"').strip() for n in names]
+    extra = False
+    data_rows = [r for r in split[header_j + 1:]] if header_j is not None else []
+    if data_rows and len(names) == k - 1 and all(r[-1].strip() == "" for r in data_rows if len(r) == k):
+        names.append("")
+        extra = True
+    seen: dict[str, int] = {}
+    clean = []
+    for i, n in enumerate(names):
+        n = n or f"column_{i + 1}"
+        if n in seen:
+            seen[n] += 1
+            n = f"{n} ({seen[n]})"
+        else:
+            seen[n] = 1
+        clean.append(n)
+    decimal = fsec.get("decimal") or _decimal(data_rows, sep)
+    return _Dialect(sep, decimal, header_index, clean, extra)
+
+
+def _decimal(rows: list[list[str]], sep: str) -> str:
+    comma = dot = 0
+    for r in rows[:400]:
+        for f in r:
+            f = f.strip()
+            if re.fullmatch(r"[-+]?\d+,\d+", f):
+                comma += 1
+            elif re.fullmatch(r"[-+]?\d+\.\d+", f):
+                dot += 1
+    return "," if comma > dot else "."
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# plan: what each column is
+
+@dataclass
+class _ValueCol:
+    name: str
+    quantity: str | None        # None: from the quantity-name column (long-named layout)
+    stat: str
+    interval_s: float | None
+    channel: str | None
+
+
+@dataclass
+class _Plan:
+    time: N.TimeSpec
+    link_col: str | None
+    channel_col: str | None
+    qname_col: str | None
+    values: list[_ValueCol]
+    layout: str
+    roles: dict[str, str]
+    ignored: list[str]
+    guesses: list[str]
+    warnings: list[str]
+
+
+def _sample(batch: pa.RecordBatch, name: str, n: int = 2000) -> list[str]:
+    col = batch.column(batch.schema.get_field_index(name)).slice(0, n)
+    return [v for v in col.to_pylist() if v is not None]
+
+
+def _plan(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str | None, label: str,
+          header_line: int) -> _Plan:
+    tsec, lsec, csec = _section(mapping, "time"), _section(mapping, "link"), _section(mapping, "channel")
+    signals = _section(mapping, "signals")
+    roles: dict[str, str] = {}
+    guesses: list[str] = []
+    warn: list[str] = []
+
+    def need(col: str, what: str) -> str:
+        if col not in names:
+            raise InputError(f"mapping names {what} column '{col}', which is not in the header "
+                             f"({', '.join(names)})", path=label, line=header_line)
+        return col
+
+    link_col = need(lsec["column"], "link") if lsec.get("column") else None
+    channel_col = need(csec["column"], "channel") if csec.get("column") else None
+    qname_col = None
+    by_role = {n: N.name_role(n) for n in names}
+    if link_col is None and not lsec.get("id"):
+        link_col = next((n for n in names if by_role[n] == "link"), None)
+    if channel_col is None:
+        channel_col = next((n for n in names if by_role[n] == "channel" and n != link_col), None)
+
+    # --- time
+    tcols = tsec.get("columns") or tsec.get("column")
+    if isinstance(tcols, str):
+        tcols = [tcols]
+    marks_end = str(tsec.get("marks", "")).lower() == "end"
+    zone = N.check_tz(tsec.get("zone") or tz, label)
+    spec = None
+    if tcols:
+        for c in tcols:
+            need(c, "time")
+        spec = _time_spec([_sample(batch, c) for c in tcols], tuple(tcols), tsec.get("format"), zone, label,
+                          header_line)
+    else:
+        taken = {link_col, channel_col}
+        timeish = [n for n in names if by_role[n] == "time" and n not in taken]
+        full, dates, clocks, epochs = [], [], [], []
+        for n in timeish:
+            vals = _sample(batch, n, 400)
+            if N.epoch_kind(vals):
+                epochs.append(n)
+            elif N.detect_datetime_format(vals):
+                full.append(n)
+            elif N.detect_date_format(vals):
+                dates.append(n)
+            elif N.detect_clock_format(vals):
+                clocks.append(n)
+        if full:
+            def pref(n: str) -> tuple:
+                w = set(N._words(n))
+                return (0 if w & {"utc", "gmt", "z"} else 1, 0 if w & {"start", "begin"} else 1,
+                        names.index(n))
+            full.sort(key=pref)
+            cols = (full[0],)
+            if len(full) > 1:
+                guesses.append(f"several time columns ({', '.join(full)}); used '{full[0]}' "
+                               f"(override with --time-col or [time] columns)")
+            spec = _time_spec([_sample(batch, full[0])], cols, None, zone, label, header_line)
+        elif dates and clocks:
+            spec = _time_spec([_sample(batch, dates[0]), _sample(batch, clocks[0])], (dates[0], clocks[0]),
+                              None, zone, label, header_line)
+        elif epochs:
+            spec = _time_spec([_sample(batch, epochs[0])], (epochs[0],), None, zone, label, header_line)
+        else:
+            # any other column whose content is a date and time
+            for n in names:
+                if n in taken or N.recognise_name(n).quantity and not N.recognise_name(n).guessed:
+                    continue
+                vals = _sample(batch, n, 400)
+                if vals and N.detect_datetime_format(vals):
+                    spec = _time_spec([vals], (n,), None, zone, label, header_line)
+                    guesses.append(f"time column guessed from its content: '{n}' (override with --time-col)")
+                    break
+        if spec is None:
+            raise InputError(f"no time column recognised in the header ({', '.join(names[:12])}); name it with "
+                             f"--time-col (or [time] columns in a mapping file)", path=label, line=header_line)
+        if any(set(N._words(c)) & {"end"} for c in spec.columns) and "marks" not in tsec:
+            marks_end = True
+            guesses.append(f"time column '{spec.columns[0]}' read as the END of each interval (override with "
+                           f"--time-marks start)")
+    spec = dataclasses.replace(spec, marks_end=marks_end)
+    if spec.guess:
+        guesses.append(spec.guess)
+    for c in spec.columns:
+        roles[c] = "time"
+    if link_col:
+        roles[link_col] = "link"
+    if channel_col:
+        roles[channel_col] = "channel"
+
+    # --- signals
+    values: list[_ValueCol] = []
+    if signals:
+        for col, spec_s in signals.items():
+            need(col, "signal")
+            if isinstance(spec_s, str):
+                spec_s = {"quantity": spec_s}
+            q = quantity_name(spec_s.get("quantity", "rsl"))
+            stat = str(spec_s.get("stat", S.SAMPLE)).lower()
+            stat = {"mean": S.AVG, "average": S.AVG}.get(stat, stat)
+            if stat not in S.STATS:
+                raise InputError(f"mapping: stat '{stat}' for column '{col}' is not one of {S.STATS}")
+            iv = spec_s.get("interval_s")
+            values.append(_ValueCol(col, q, stat, float(iv) if iv else None, spec_s.get("channel")))
+            roles[col] = f"{q}/{stat}"
+    else:
+        for n in names:
+            if n in roles:
+                continue
+            info = N.recognise_name(n)
+            if info.quantity is None or by_role[n] in ("time", "link", "channel", "qname"):
+                continue
+            if info.guessed:
+                vals = _sample(batch, n, 200)
+                if not _mostly_numeric(vals):
+                    continue
+                guesses.append(f"column '{n}' taken as {info.quantity} from its unit/name (override with "
+                               f"--signal-col '{n}=QUANTITY[:CHANNEL[:STAT]]')")
+            values.append(_ValueCol(n, info.quantity, info.stat, info.interval_s, info.channel))
+            roles[n] = f"{info.quantity}/{info.stat}"
+        if not values:
+            qn = next((n for n in names if by_role[n] == "qname" and n not in roles), None)
+            vc = next((n for n in names if by_role[n] == "value" and n not in roles), None)
+            if qn and vc:
+                qname_col = qn
+                values.append(_ValueCol(vc, None, S.SAMPLE, None, None))
+                roles[qn], roles[vc] = "quantity name", "value"
+            elif vc and _mostly_numeric(_sample(batch, vc, 200)):
+                values.append(_ValueCol(vc, S.RSL, S.SAMPLE, None, None))
+                roles[vc] = f"{S.RSL}/{S.SAMPLE}"
+                guesses.append(f"column '{vc}' taken as receive level (override with --signal-col)")
+    if not values:
+        raise InputError(f"no signal column recognised in the header ({', '.join(names[:12])}); expected names "
+                         f"such as RSL, Rx level, receive level (dBm); name it with --signal-col",
+                         path=label, line=header_line)
+    # unique (quantity, stat, channel) per wide column
+    seen: dict[tuple, int] = {}
+    for v in values:
+        key = (v.quantity, v.stat, v.channel)
+        if key in seen and v.quantity is not None:
+            v.channel = f"{v.channel or N.DEFAULT_CHANNEL}:{v.name}"
+            warn.append(f"two columns measure the same thing ({v.quantity} {v.stat}); '{v.name}' kept as channel "
+                        f"'{v.channel}'")
+        seen[key] = 1
+    ignored = [n for n in names if n not in roles and n != ""]
+    layout = "long-named" if qname_col else ("long" if channel_col or link_col else "wide")
+    return _Plan(spec, link_col, channel_col, qname_col, values, layout, roles, ignored, guesses, warn)
+
+
+def _mostly_numeric(vals: list[str]) -> bool:
+    vals = [v.strip() for v in vals if v and v.strip()]
+    if not vals:
+        return False
+    good = sum(1 for v in vals if re.fullmatch(r"[-+]?\d+([.,]\d*)?([eE][-+]?\d+)?", v))
+    return good >= 0.5 * len(vals)
+
+
+def _time_spec(samples: list[list[str]], cols: tuple, fmt: str | None, zone: str | None, label: str,
+               header_line: int) -> N.TimeSpec:
+    if len(cols) > 2:
+        raise InputError("at most two time columns (date and time of day)", path=label)
+    if fmt:
+        f = str(fmt).strip()
+        if f.lower() in ("epoch_s", "epoch_ms"):
+            return N.TimeSpec(cols, f.lower(), tz=zone)
+        if f.lower() in ("iso", "iso8601"):
+            return N.TimeSpec(cols, "iso", has_offset=N.iso_has_offset(samples[0]), tz=zone)
+        return N.TimeSpec(cols, "format", fmt=f, tz=zone)
+    if len(cols) == 2:
+        d = N.detect_date_format(samples[0])
+        c = N.detect_clock_format(samples[1])
+        if d is None or c is None:
+            raise InputError(f"cannot read the date/time columns {cols} (give --time-format)", path=label,
+                             line=header_line)
+        return N.TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone)
+    ek = N.epoch_kind(samples[0])
+    if ek:
+        return N.TimeSpec(cols, ek, tz=zone)
+    found = N.detect_datetime_format(samples[0])
+    if found is None:
+        first = samples[0][0] if samples[0] else ""
+        raise InputError(f"cannot read the time column '{cols[0]}' (first value '{first[:40]}'); give "
+                         f"--time-format", path=label, line=header_line + 1)
+    kind, f, guess = found
+    if kind == "iso":
+        return N.TimeSpec(cols, "iso", has_offset=N.iso_has_offset(samples[0]), tz=zone)
+    return N.TimeSpec(cols, "format", fmt=f, tz=zone, guess=guess)
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# reading one CSV-like source
+
+
+@dataclass
+class _Rows:
+    """Kept rows of one chunk (time-parsed)."""
+
+    ns: np.ndarray
+    key: np.ndarray          # int32 global key id
+    rownum: np.ndarray       # int64 data-row number in the file
+    values: np.ndarray       # (n, m) float64
+    reasons: np.ndarray      # (n, m) int8
+
+
+class _Keys:
+    """Global ids for (link, channel, quantity-name) tuples seen in the rows."""
+
+    def __init__(self):
+        self.ids: dict[tuple, int] = {}
+        self.tuples: list[tuple] = []
+
+    def encode(self, cols: list[pa.Array | None], n: int) -> np.ndarray:
+        if all(c is None for c in cols):
+            return np.full(n, self._id(("", "", "")), dtype=np.int32)
+        combo = np.zeros(n, dtype=np.int64)
+        dicts = []
+        for c in cols:
+            if c is None:
+                dicts.append(([""], 1))
+                continue
+            enc = pa.compute.dictionary_encode(pa.compute.utf8_trim_whitespace(pa.compute.fill_null(c, "")))
+            words = enc.dictionary.to_pylist()
+            idx = enc.indices.to_numpy(zero_copy_only=False).astype(np.int64)
+            combo = combo * len(words) + idx
+            dicts.append((words, len(words)))
+        uniq, inv = np.unique(combo, return_inverse=True)
+        mapped = np.empty(len(uniq), dtype=np.int32)
+        for i, u in enumerate(uniq):
+            parts = []
+            rest = int(u)
+            for words, base in reversed(dicts):
+                parts.append(words[rest % base])
+                rest //= base
+            mapped[i] = self._id(tuple(reversed(parts)))
+        return mapped[inv]
+
+    def _id(self, t: tuple) -> int:
+        if t not in self.ids:
+            self.ids[t] = len(self.tuples)
+            self.tuples.append(t)
+        return self.ids[t]
+
+
+def _read_csv(src: _Source, *, tz: str | None, mapping: dict, link_id: str | None) -> ReadResult:
+    head = _head(src, SAMPLE_BYTES)
+    complete = len(head) < SAMPLE_BYTES
+    fsec = _section(mapping, "file")
+    if fsec.get("encoding"):
+        enc = str(fsec["encoding"])
+        try:
+            text = head.decode(enc, errors="replace")
+        except LookupError as exc:
+            raise InputError(f"unknown encoding '{enc}'", path=src.label) from exc
+    else:
+        text, enc = _decode(head, complete, src.label)
+    dialect = _sniff(text, complete, src.label, mapping)
+    try:
+        return _read_rows(src, enc, dialect, tz=tz, mapping=mapping, link_id=link_id)
+    except _RetryLatin1:
+        return _read_rows(src, "latin-1", dialect, tz=tz, mapping=mapping, link_id=link_id)
+
+
+class _RetryLatin1(Exception):
+    pass
+
+
+def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_id) -> ReadResult:
+    header_line = dialect.header_index + 1
+    names = dialect.names
+    bad_rows: list[int | None] = []
+
+    def on_invalid(row) -> str:
+        bad_rows.append(row.number)
+        return "skip"
+
+    pa_enc = {"utf-8-sig": "utf8", "utf-8": "utf8"}.get(enc, enc)
+    read_opts = pacsv.ReadOptions(column_names=names, skip_rows=dialect.header_index + 1, encoding=pa_enc,
+                                  block_size=BLOCK_BYTES)
+    parse_opts = pacsv.ParseOptions(delimiter=dialect.separator, quote_char='"', double_quote=True,
+                                    newlines_in_values=False, ignore_empty_lines=True,
+                                    invalid_row_handler=on_invalid)
+    conv_opts = pacsv.ConvertOptions(column_types={n: pa.string() for n in names}, strings_can_be_null=False,
+                                     quoted_strings_can_be_null=False, null_values=[])
+    report = IngestReport(file=src.label, encoding=enc, separator=dialect.separator, decimal=dialect.decimal,
+                          header_line=header_line)
+    keys = _Keys()
+    chunks: list[_Rows] = []
+    rejected = dict.fromkeys(ROW_REASONS, 0)
+    first_bad_time: tuple[int, str] | None = None
+    plan: _Plan | None = None
+    rows_seen = 0
+    lsec = _section(mapping, "link")
+    try:
+        reader = pacsv.open_csv(_stream(src), read_options=read_opts, parse_options=parse_opts,
+                                convert_options=conv_opts)
+        for batch in reader:
+            n = batch.num_rows
+            if n == 0:
+                continue
+            if plan is None:
+                plan = _plan(batch, names, mapping, tz, src.label, header_line)
+            cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
+            ns, tcode = N.parse_times(cols, plan.time)
+            for code, reason in ((1, "bad_time"), (2, "dst_nonexistent"), (3, "dst_ambiguous")):
+                rejected[reason] += int((tcode == code).sum())
+            if first_bad_time is None and (tcode == 1).any():
+                i = int(np.flatnonzero(tcode == 1)[0])
+                first_bad_time = (rows_seen + i, " | ".join(str(c[i].as_py())[:30] for c in cols))
+            keep = tcode == 0
+            idx = pa.array(np.flatnonzero(keep))
+            kb = batch.take(idx) if not keep.all() else batch
+            m = kb.num_rows
+            getcol = lambda c: kb.column(kb.schema.get_field_index(c)) if c else None  # noqa: E731
+            key = keys.encode([getcol(plan.link_col), getcol(plan.channel_col), getcol(plan.qname_col)], m)
+            vals = np.empty((m, len(plan.values)), dtype=np.float64)
+            reas = np.empty((m, len(plan.values)), dtype=np.int8)
+            for j, vc in enumerate(plan.values):
+                vals[:, j], reas[:, j] = N.parse_values(getcol(vc.name), dialect.decimal)
+            rownum = rows_seen + np.flatnonzero(keep).astype(np.int64)
+            chunks.append(_Rows(ns[keep], key, rownum, vals, reas))
+            rows_seen += n
+    except pa.ArrowInvalid as exc:
+        msg = " ".join(str(exc).split())
+        if "UTF8" in msg.upper() and pa_enc == "utf8":
+            raise _RetryLatin1() from exc
+        raise InputError(f"cannot parse as a delimited text log ({msg[:160]})", path=src.label) from exc
+    except (pa.ArrowException, OSError, EOFError) as exc:
+        msg = " ".join(str(exc).split())
+        raise InputError(f"cannot read ({msg[:160]})", path=src.label) from exc
+    rejected["malformed_row"] = len(bad_rows)
+    rows_read = rows_seen + len(bad_rows)
+    if plan is None:
+        if bad_rows:
+            raise InputError(f"no row matches the header's {len(names)} columns", path=src.label,
+                             line=header_line)
+        raise InputError("no data rows after the header", path=src.label, line=header_line)
+    report.rows_read = rows_read
+    report.layout = plan.layout
+    report.columns = plan.roles
+    report.ignored_columns = plan.ignored
+    report.guesses = list(plan.guesses)
+    report.warnings = list(plan.warnings)
+    report.time = {"columns": list(plan.time.columns), "format": plan.time.fmt or plan.time.kind,
+                   "zone": plan.time.tz or ("offset in the stamps" if plan.time.has_offset else "UTC"),
+                   "marks": "end" if plan.time.marks_end else "start"}
+    if rows_seen and rejected["bad_time"] == rows_seen:
+        line, val = first_bad_time
+        raise InputError(f"no row has a readable time in {list(plan.time.columns)} (first value '{val}'); give "
+                         f"--time-format", path=src.label, line=header_line + 1 + line)
+    # default link id
+    if plan.link_col:
+        report.link_source = "column"
+        default_link = link_id or lsec.get("id") or src.stem
+    elif link_id or lsec.get("id"):
+        report.link_source = "argument" if link_id else "mapping"
+        default_link = str(link_id or lsec.get("id"))
+    else:
+        report.link_source = "file_name" if src.stem != S.DEFAULT_LINK_ID else "default"
+        default_link = src.stem
+        if report.link_source == "file_name":
+            report.guesses.append(f"link id taken from the file name: '{default_link}' (override with --link-id)")
+    table = _finish(chunks, keys, plan, report, rejected, default_link, mapping, header_line)
+    report.rejected = {k: v for k, v in rejected.items() if v}
+    report.rows_kept = rows_read - sum(report.rejected.values())
+    _summarise(table, report)
+    if bad_rows:
+        report.warnings.append(f"{len(bad_rows)} rows with the wrong number of fields were skipped "
+                               f"(counted as malformed_row)")
+    if rejected["dst_nonexistent"] or rejected["dst_ambiguous"]:
+        report.warnings.append(f"local times at daylight-saving changes not converted: "
+                               f"{rejected['dst_nonexistent']} non-existent, {rejected['dst_ambiguous']} ambiguous "
+                               f"(counted, not guessed)")
+    return ReadResult(table, report)
+
+
+def _finish(chunks: list[_Rows], keys: _Keys, plan: _Plan, report: IngestReport, rejected: dict,
+            default_link: str, mapping: dict, header_line: int) -> pd.DataFrame:
+    m = len(plan.values)
+    if not chunks or sum(len(c.ns) for c in chunks) == 0:
+        report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
+        return S.empty_table()
+    ns = np.concatenate([c.ns for c in chunks])
+    key = np.concatenate([c.key for c in chunks])
+    rownum = np.concatenate([c.rownum for c in chunks])
+    vals = np.concatenate([c.values for c in chunks])
+    reas = np.concatenate([c.reasons for c in chunks])
+    chunks.clear()
+    # quantity-name layout: rows whose name is not a known quantity are rejected
+    kinfo = []
+    for t in keys.tuples:
+        qn = t[2]
+        info = N.recognise_name(qn) if plan.qname_col else None
+        kinfo.append(info)
+    if plan.qname_col:
+        unknown = np.array([i is None or i.quantity is None for i in kinfo], dtype=bool)
+        bad = unknown[key]
+        rejected["unknown_quantity"] += int(bad.sum())
+        if bad.any():
+            names = sorted({keys.tuples[k][2] for k in np.unique(key[bad])})[:10]
+            report.warnings.append(f"rows with unrecognised quantity names skipped: {names} (map them with "
+                                   f"[signals] in a mapping file)")
+            ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
+    # out-of-order rows (file order, per key)
+    fo = np.argsort(key, kind="stable")
+    same = key[fo][1:] == key[fo][:-1]
+    report.out_of_order_rows = int((same & (np.diff(ns[fo]) < 0)).sum())
+    if report.out_of_order_rows:
+        report.warnings.append(f"{report.out_of_order_rows} rows were out of time order (sorted)")
+    # sort by key then time (stable: file order among equal stamps)
+    order = np.lexsort((ns, key))
+    ns, key, rownum, vals, reas = ns[order], key[order], rownum[order], vals[order], reas[order]
+    dup = np.zeros(len(ns), dtype=bool)
+    dup[1:] = (key[1:] == key[:-1]) & (ns[1:] == ns[:-1])
+    if dup.any():
+        first = np.flatnonzero(~dup)
+        grp = np.maximum.accumulate(np.where(~dup, np.arange(len(ns)), 0))
+        v0, r0 = vals[grp], reas[grp]
+        eq = ((vals == v0) | (np.isnan(vals) & np.isnan(v0))) & (reas == r0)
+        exact = dup & eq.all(axis=1)
+        conflict = dup & ~exact
+        report.duplicates = int(exact.sum())
+        report.conflicting_duplicates = int(conflict.sum())
+        rejected["duplicate"] += report.duplicates
+        rejected["conflicting_duplicate"] += report.conflicting_duplicates
+        for i in np.flatnonzero(conflict)[:20]:
+            g = grp[i]
+            report.conflicts.append({
+                "time_utc": pd.Timestamp(int(ns[i]), tz="UTC").isoformat(),
+                "key": "/".join(x for x in keys.tuples[key[i]] if x) or default_link,
+                "kept_line": int(header_line + 1 + rownum[g]), "dropped_line": int(header_line + 1 + rownum[i]),
+                "kept": [None if np.isnan(x) else float(x) for x in vals[g]],
+                "dropped": [None if np.isnan(x) else float(x) for x in vals[i]]})
+        if report.conflicting_duplicates:
+            report.warnings.append(f"{report.conflicting_duplicates} rows repeat a time with other values; the first "
+                                   f"row in file order was kept (see conflicts)")
+        del first
+        keepm = ~dup
+        ns, key, rownum, vals, reas = ns[keepm], key[keepm], rownum[keepm], vals[keepm], reas[keepm]
+    # group boundaries
+    bounds = np.flatnonzero(np.diff(key)) + 1
+    starts = np.concatenate(([0], bounds))
+    ends = np.concatenate((bounds, [len(key)]))
+    # per column quantity (fixed) or per key (quantity-name layout)
+    fsec_floor = _section(mapping, "floor")
+    iv_default = mapping.get("interval_s")
+    series = []   # (link, channel, quantity, stat, interval|None, ns, values, reasons)
+    for s, e in zip(starts, ends):
+        t = keys.tuples[key[s]]
+        link = t[0] or default_link
+        for j, vc in enumerate(plan.values):
+            if vc.quantity is None:
+                info = kinfo[key[s]]
+                q, st, iv, ch = info.quantity, info.stat, info.interval_s, info.channel
+            else:
+                q, st, iv, ch = vc.quantity, vc.stat, vc.interval_s, vc.channel
+            channel = t[1] or (ch if ch else None) or N.DEFAULT_CHANNEL
+            if t[1] and ch and vc.quantity is not None and len(plan.values) > 1 and \
+                    sum(1 for v in plan.values if v.quantity == q and v.stat == st) > 1:
+                channel = f"{t[1]}-{ch}"
+            series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
+                           ns[s:e], vals[s:e, j].copy(), reas[s:e, j].copy()])
+    # physical range
+    for sr in series:
+        lo, hi = N.RANGES.get(sr[2], (-np.inf, np.inf))
+        v, r = sr[6], sr[7]
+        out = (r == N.R_NONE) & ((v < lo) | (v > hi))
+        r[out] = N.R_RANGE
+        v[out] = np.nan
+    # receiver floor per level quantity
+    floor_cfg = fsec_floor.get("dbm")
+    for q in (S.RSL, S.XPL):
+        group = [sr for sr in series if sr[2] == q]
+        if not group:
+            continue
+        if isinstance(floor_cfg, str) and floor_cfg.lower() == "none":
+            continue
+        if floor_cfg is not None and not isinstance(floor_cfg, str):
+            fl, how = float(floor_cfg), "given in the mapping"
+            mask_fn = lambda v: v <= fl + 1e-6  # noqa: E731
+        else:
+            fl, how = N.detect_floor([sr[6] for sr in group], [])
+            if fl is None:
+                continue
+            mask_fn = lambda v: np.abs(v - fl) < 1e-6  # noqa: E731
+            report.guesses.append(f"{q}: readings at {fl:g} dBm taken as the receiver floor (signal lost): {how}; "
+                                  f"override with --floor-dbm VALUE or --floor-dbm none")
+        n_floor = 0
+        for sr in group:
+            at = (sr[7] == N.R_NONE) & mask_fn(sr[6])
+            sr[7][at] = N.R_FLOOR
+            sr[6][at] = np.nan
+            n_floor += int(at.sum())
+        report.floors[q] = {"dbm": fl, "how": how, "values": n_floor}
+    # intervals and end-marked stamps
+    parts = []
+    stats_kind = False
+    for link, channel, q, st, iv, t, v, r in series:
+        step = _step(t)
+        if st != S.SAMPLE or q in N.COUNTERS:
+            if iv is None:
+                iv = step if step else 0.0
+                if st != S.SAMPLE and iv:
+                    msg = (f"statistics interval taken from the row step: {iv:g} s (override with --interval-s)")
+                    if msg not in report.guesses:
+                        report.guesses.append(msg)
+            stats_kind = stats_kind or st != S.SAMPLE
+        else:
+            iv = 0.0
+        if plan.time.marks_end:
+            shift = iv if iv else (step or 0.0)
+            t = t - np.int64(round(shift * 1e9))
+        parts.append((link, channel, q, st, float(iv), t, v, r))
+    # value accounting
+    all_r = np.concatenate([p[7] for p in parts]) if parts else np.zeros(0, np.int8)
+    status = N.status_of(all_r)
+    reasons = {N.REASON_NAMES[c]: int((all_r == c).sum()) for c in N.REASON_NAMES if (all_r == c).any()}
+    report.values = {"read": int(all_r.size), "ok": int((status == N._OK).sum()),
+                     "signal_lost": int((status == N._LOST).sum()), "missing": int((status == N._MISSING).sum()),
+                     "reasons": reasons}
+    table = N.build_table([(p[0], p[1], p[2], p[3], p[4], p[5], p[6], N.status_of(p[7])) for p in parts])
+    return table
+
+
+def _step(ns: np.ndarray) -> float | None:
+    if len(ns) < 2:
+        return None
+    d = np.diff(np.unique(ns))
+    d = d[d > 0]
+    if not d.size:
+        return None
+    return float(np.median(d)) / 1e9
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# summary of a table (shared by CSV, Parquet and concatenated reads)
+
+def _iso(ns: int) -> str:
+    return pd.Timestamp(int(ns), tz="UTC").isoformat().replace("+00:00", "Z")
+
+
+def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
+    report.links = sorted(table[S.LINK].unique().tolist()) if len(table) else []
+    report.channels = sorted(table[S.CHANNEL].unique().tolist()) if len(table) else []
+    report.quantities = sorted(table[S.QUANTITY].unique().tolist()) if len(table) else []
+    if not len(table):
+        report.kind = None
+        return
+    levels = table[S.QUANTITY].isin([S.RSL, S.XPL, S.TSL, S.XPD])
+    stats = table.loc[levels if levels.any() else slice(None), S.STAT].unique().tolist()
+    report.kind = "stats" if S.SAMPLE not in stats else ("sample" if len(stats) == 1 else "mixed")
+    ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
+    report.start_utc, report.end_utc = _iso(ns.min()), _iso(ns.max())
+    gaps = []
+    steps = []
+    links = table[S.LINK].to_numpy(dtype=object) if len(report.links) > 1 else None
+    for lk in report.links:
+        t = np.unique(ns if links is None else ns[links == lk])
+        if len(t) < 2:
+            continue
+        d = np.diff(t)
+        step = float(np.median(d))
+        steps.append(step)
+        big = np.flatnonzero(d > 1.5 * step)
+        for i in big:
+            start = int(t[i] + step)
+            gaps.append((lk, start, int(t[i + 1]), (int(t[i + 1]) - start) / 1e9))
+    report.interval_s = float(np.median(steps)) / 1e9 if steps else None
+    report.gap_count = len(gaps)
+    report.gap_seconds = float(sum(g[3] for g in gaps))
+    report.gaps = [{"link_id": g[0], "start_utc": _iso(g[1]), "end_utc": _iso(g[2]), "seconds": g[3]}
+                   for g in gaps[:MAX_LISTED]]
+    if len(gaps) > MAX_LISTED:
+        report.warnings.append(f"{len(gaps)} gaps; the first {MAX_LISTED} are listed")
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# public API
+
+def _classify(source, name: str | None) -> _Source:
+    if isinstance(source, (bytes, bytearray, memoryview)):
+        data = bytes(source)
+        label = name or "upload"
+        return _Source(label, _stem(label), None, data, gz=data[:2] == b"\x1f\x8b")
+    path = Path(source)
+    label = name or str(path)
+    if not path.exists():
+        raise InputError("file not found", path=label)
+    if path.is_dir():
+        return _Source(label, _stem(path.name), path, None)
+    try:
+        with open(path, "rb") as fh:
+            magic = fh.read(4)
+    except OSError as exc:
+        raise InputError(f"cannot read ({exc.strerror})", path=label) from exc
+    return _Source(label, _stem(path.name), path, None, gz=magic[:2] == b"\x1f\x8b")
+
+
+def _folder_files(path: Path) -> list[Path]:
+    files = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith((".", "_", "~"))
+                   and "".join(p.suffixes[-1:]).lower() in LOG_SUFFIXES)
+    return files
+
+
+def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | None = None,
+             mapping: dict | str | Path | None = None, link_id: str | None = None) -> ReadResult:
+    """Read one log (file, bytes, .csv.gz, .parquet, store folder, or a folder of logs) into the normalised table."""
+    mapping = load_mapping(mapping)
+    tz = N.check_tz(tz, name)
+    src = _classify(source, name)
+    if src.path is not None and src.path.is_dir():
+        if store.is_store(src.path):
+            return _from_table(store.read_store(src.path), src.label, "parquet")
+        files = _folder_files(src.path)
+        if not files:
+            raise InputError("folder holds no log files", path=src.label)
+        return read_logs(files, tz=tz, mapping=mapping, link_id=link_id)
+    head = src.data[:4] if src.data is not None else open(src.path, "rb").read(4)
+    if head == b"PAR1":
+        if src.data is not None:
+            tab = store._to_frame(__import__("pyarrow.parquet").parquet.read_table(pa.BufferReader(src.data)))
+        else:
+            tab = store.read_parquet(src.path)
+        return _from_table(tab, src.label, "parquet")
+    result = _read_csv(src, tz=tz, mapping=mapping, link_id=link_id)
+    for w in result.report.warnings:
+        warnings.warn(f"{src.label}: {w}", DataWarning, stacklevel=2)
+    return result
+
+
+def _from_table(table: pd.DataFrame, label: str, layout: str) -> ReadResult:
+    rep = IngestReport(file=label, layout=layout, rows_read=len(table), rows_kept=len(table))
+    st = table[S.STATUS].value_counts().to_dict() if len(table) else {}
+    rep.values = {"read": len(table), "ok": int(st.get(S.OK, 0)), "signal_lost": int(st.get(S.SIGNAL_LOST, 0)),
+                  "missing": int(st.get(S.MISSING, 0)), "reasons": {}}
+    _summarise(table, rep)
+    return ReadResult(table, rep)
+
+
+def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str | Path | None = None,
+              link_id: str | None = None) -> ReadResult:
+    """Read several logs (paths, or (name, bytes) pairs) into one table; the report keeps each file's report.
+
+    A value that appears in two files (same link, channel, quantity, stat and time) is kept once; those dropped
+    are counted in ``overlap_values_dropped`` (the row accounting of each file is unchanged)."""
+    mapping = load_mapping(mapping)
+    results = []
+    for s in sources:
+        if isinstance(s, tuple):
+            results.append(read_log(s[1], name=s[0], tz=tz, mapping=mapping, link_id=link_id))
+        else:
+            results.append(read_log(s, tz=tz, mapping=mapping, link_id=link_id))
+    if not results:
+        raise InputError("no input files given")
+    if len(results) == 1:
+        return results[0]
+    tables = [r.table for r in results if len(r.table)]
+    table = pd.concat(tables, ignore_index=True) if tables else S.empty_table()
+    rep = IngestReport(file=", ".join(r.report.file for r in results), layout="several")
+    rep.files = [r.report.to_dict() for r in results]
+    rep.rows_read = sum(r.report.rows_read for r in results)
+    rep.rows_kept = sum(r.report.rows_kept for r in results)
+    for r in results:
+        for k, v in r.report.rejected.items():
+            rep.rejected[k] = rep.rejected.get(k, 0) + v
+        rep.duplicates += r.report.duplicates
+        rep.conflicting_duplicates += r.report.conflicting_duplicates
+        rep.out_of_order_rows += r.report.out_of_order_rows
+        rep.guesses += [f"{r.report.file}: {g}" for g in r.report.guesses]
+        rep.warnings += [f"{r.report.file}: {w}" for w in r.report.warnings]
+    if len(table):
+        table = table.sort_values([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable")
+        keycols = [S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME]
+        dup = table.duplicated(subset=keycols, keep="first").to_numpy()
+        if dup.any():
+            rep.overlap_values_dropped = int(dup.sum())
+            rep.warnings.append(f"{rep.overlap_values_dropped} values appear in more than one file; kept once")
+            table = table[~dup]
+        table = table.reset_index(drop=True)
+    st = table[S.STATUS].value_counts().to_dict() if len(table) else {}
+    rep.values = {"read": sum(r.report.values.get("read", 0) for r in results), "ok": int(st.get(S.OK, 0)),
+                  "signal_lost": int(st.get(S.SIGNAL_LOST, 0)), "missing": int(st.get(S.MISSING, 0)),
+                  "reasons": {}}
+    for r in results:
+        for k, v in r.report.values.get("reasons", {}).items():
+            rep.values["reasons"][k] = rep.values["reasons"].get(k, 0) + v
+    _summarise(table, rep)
+    return ReadResult(table, rep)

@@ -1,0 +1,551 @@
+"""Column recognition and normalisation: raw string columns -> the long table of ``diag.schema``.
+
+``diag.ingest`` opens files and hands string columns (pyarrow arrays, one chunk at a time) to this module.  This
+module decides what each column means, parses times and values vectorised, and assembles the sorted long table.
+
+Column roles come from the header names (and units) plus a look at the values:
+
+- time: one column holding date and time (ISO 8601 with ``Z``/offset or without, day-first or month-first text,
+  month names, AM/PM), separate date and time columns, or epoch seconds/milliseconds.  Stamps without an offset
+  are UTC unless a time zone (IANA name) is given.  A local time that does not exist (spring-forward gap) or is
+  ambiguous (autumn overlap) is never guessed: the row is counted under ``dst_nonexistent`` / ``dst_ambiguous``.
+- link id and channel columns (long layout), or a quantity-name column with a value column (fully long layout).
+- signal columns recognised from their names and units: receive level (RSL, Rx level, receive level, ... dBm),
+  transmit level (TSL, Tx power), XPD, cross-polar level, ES/SES/UAS counters; ``min``/``avg``/``max`` in the
+  name makes an interval statistic, ``15min``/``900s``/``1h`` in the name gives its interval.  What is left of a
+  signal column's name after the recognised words (e.g. ``H`` in ``RSL H (dBm)``) is its channel (wide layout).
+
+Accounting rule (rows and values):
+
+- A *row* is one data line of the file.  Every row is either kept or rejected under exactly one reason:
+  ``malformed_row`` (wrong number of fields), ``bad_time`` (time not readable), ``dst_nonexistent``,
+  ``dst_ambiguous``, ``duplicate`` (an exact repeat of an earlier row with the same time and keys: dropped),
+  ``conflicting_duplicate`` (same time and keys as an earlier row but other values: the first row in file order is
+  kept, the later one is counted here and reported).  ``rows_read == rows_kept + sum(rejected.values())``.
+- A *value* is one signal cell of a kept row.  Every value of a kept row becomes exactly one row of the table,
+  with status ``ok``, ``signal_lost`` (receiver floor plateau, or a marker such as ``LOS``) or ``missing``
+  (blank, a marker such as ``N/A``/``---``, text that is not a number, or a number outside the physical range of
+  its quantity).  Bad cells never reject their row; they are counted in ``values.reasons``, so
+  ``values.read == values.ok + values.signal_lost + values.missing == len(table)``, and the reasons add up to
+  ``signal_lost + missing``.
+- Counters (ES/SES/UAS) are ``stat == "sample"`` with ``interval_s`` = the interval they count over (the row
+  step); statistics columns carry their interval; instantaneous samples have ``interval_s == 0``.
+"""
+from __future__ import annotations
+
+import datetime as _dt
+import math
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from diag import schema as S
+from diag.errors import InputError
+
+DEFAULT_CHANNEL = "main"
+
+# value status codes used internally (int8), in the order of schema.STATUSES
+_OK, _LOST, _MISSING = 0, 1, 2
+# value reason codes (int8)
+R_NONE, R_BLANK, R_MARK_MISSING, R_NON_NUMERIC, R_RANGE, R_MARK_LOST, R_FLOOR = range(7)
+REASON_NAMES = {R_BLANK: "blank", R_MARK_MISSING: "missing_marker", R_NON_NUMERIC: "non_numeric",
+                R_RANGE: "out_of_range", R_MARK_LOST: "signal_lost_marker", R_FLOOR: "receiver_floor"}
+
+LOST_MARKERS = ("LOS", "LOF", "LOSS", "SIGNAL LOST", "NO SIGNAL", "NOSIGNAL", "-INF", "LOSS OF SIGNAL", "DOWN")
+MISSING_MARKERS = ("N/A", "NA", "NAN", "#N/A", "---", "--", "-", "NULL", "NONE", "?", "ERR", "ERROR", "INVALID",
+                   "*", "NIL", "N.A.", "#VALUE!", "TIMEOUT")
+# common receiver-floor readings (common practice: radios report a fixed floor value when the receiver has lost
+# the signal); used together with the plateau test below
+KNOWN_FLOORS_DBM = (-99.0, -99.9, -100.0, -103.0, -110.0, -120.0, -127.0, -128.0)
+FLOOR_MAX_DBM = -85.0   # a plateau above this level is not taken as a receiver floor (common practice)
+
+# plausible ranges; outside -> missing (out_of_range).  Common practice, generous on purpose.
+RANGES = {S.RSL: (-160.0, 30.0), S.XPL: (-160.0, 30.0), S.TSL: (-40.0, 50.0), S.XPD: (-20.0, 100.0),
+          S.ES: (0.0, 1e7), S.SES: (0.0, 1e7), S.UAS: (0.0, 1e7)}
+COUNTERS = (S.ES, S.SES, S.UAS)
+
+# ---------------------------------------------------------------------------------------------------------------
+# column names
+
+_UNIT_RE = re.compile(r"\b(dbm|dbmw|db|dbuv|dbµv)\b", re.I)
+_INTERVAL_RE = re.compile(r"\b(\d+(?:\.\d+)?)\s*(s|sec|secs|seconds?|m|mins?|minutes?|h|hr|hrs|hours?)\b", re.I)
+_INTERVAL_UNIT_S = {"s": 1, "sec": 1, "secs": 1, "second": 1, "seconds": 1, "m": 60, "min": 60, "mins": 60,
+                    "minute": 60, "minutes": 60, "h": 3600, "hr": 3600, "hrs": 3600, "hour": 3600,
+                    "hours": 3600}
+_TOKEN_RE = re.compile(r"[A-Z]+(?![a-z])|[A-Z]?[a-z]+|\d+")
+
+# phrases (token tuples, lower case) -> quantity; longest phrase wins; order breaks ties
+_QUANTITY_PHRASES: list[tuple[tuple[str, ...], str]] = []
+
+
+def _add(quantity: str, *phrases: str) -> None:
+    for p in phrases:
+        _QUANTITY_PHRASES.append((tuple(p.split()), quantity))
+
+
+_add(S.XPL, "xpl", "xpol level", "x pol level", "xpol rsl", "x pol rsl", "xpol rx level", "cross pol level",
+     "cross polar level", "cross polarisation level", "cross polarization level", "cross pol rsl",
+     "cross polar rsl", "cross pol rx level", "xpol rxlevel")
+_add(S.XPD, "xpd", "cross pol discrimination", "cross polar discrimination", "xpol discrimination",
+     "cross polarisation discrimination", "cross polarization discrimination")
+_add(S.SES, "ses", "severely errored seconds", "severely errored second", "sev errored seconds")
+_add(S.UAS, "uas", "unavailable seconds", "unavailable second", "unavail seconds")
+_add(S.ES, "es", "errored seconds", "errored second")
+_add(S.TSL, "tsl", "tx level", "txlevel", "tx lvl", "txlvl", "tx power", "txpower", "ptx", "transmit level",
+     "transmitted level", "transmit power", "transmitted power", "output power", "tx", "tx pwr", "sendepegel")
+_add(S.RSL, "rsl", "rxl", "rx level", "rxlevel", "rx lvl", "rxlvl", "rx power", "rxpower", "prx", "rssi",
+     "receive level", "received level", "receive signal level", "received signal level", "receive power",
+     "received power", "rx", "rx signal level", "input level", "rcv level", "rx pwr", "empfangspegel",
+     "niveau recu", "rx signal", "receive lvl")
+_MAX_PHRASE = max(len(p) for p, _ in _QUANTITY_PHRASES)
+_PHRASE_MAP = {p: q for p, q in reversed(_QUANTITY_PHRASES)}  # earlier entries win
+
+_STAT_WORDS = {"min": S.MIN, "minimum": S.MIN, "lowest": S.MIN, "max": S.MAX, "maximum": S.MAX,
+               "highest": S.MAX, "avg": S.AVG, "average": S.AVG, "mean": S.AVG, "av": S.AVG}
+_FILLER_WORDS = {"value", "val", "level", "lvl", "current", "cur", "inst", "instant", "reading", "signal", "in",
+                 "the", "of", "per", "interval", "period"}
+_TIME_WORDS = {"time", "timestamp", "datetime", "date", "utc", "gmt", "local", "zeit", "uhrzeit", "datum",
+               "epoch", "unix", "ts", "stamp", "start", "begin", "end", "period", "interval", "heure", "hora",
+               "fecha", "day", "clock", "sample", "measured", "at", "logged", "log", "s", "ms", "sec", "z",
+               "lt", "tz", "hour", "zeitstempel", "horodatage"}
+_LINK_WORDS = {"link", "hop", "linkid", "path", "connection", "linkname", "hopid"}
+_LINK_PHRASE_OK = {"id", "name", "no", "nr", "number", "label", "code"}
+_CHANNEL_WORDS = {"channel", "ch", "pol", "polarization", "polarisation", "polarity", "direction", "dir", "port",
+                  "carrier", "branch", "chan", "polar"}
+_QNAME_WORDS = {"parameter", "param", "quantity", "metric", "measurement", "counter", "kpi", "variable",
+                "measure", "type", "name"}
+_VALUE_WORDS = {"value", "val", "reading", "wert", "valeur", "measurement", "result"}
+
+
+@dataclass(frozen=True)
+class NameInfo:
+    """What a column name says."""
+
+    quantity: str | None = None
+    stat: str = S.SAMPLE
+    interval_s: float | None = None
+    unit: str | None = None
+    channel: str | None = None   # leftover text (wide layout channel)
+    guessed: bool = False        # quantity only inferred from a unit or a vague word
+
+
+def _tokens(name: str):
+    """Tokens of a name with spans: camelCase and letter/digit boundaries split, punctuation dropped."""
+    return [(m.group(0), m.start(), m.end()) for m in _TOKEN_RE.finditer(name)]
+
+
+def recognise_name(name: str) -> NameInfo:
+    """Parse a signal column name such as ``RSL H (dBm)``, ``RxLevel_V``, ``RSL_min_15min`` or ``XPD [dB]``."""
+    text = re.sub(r"[^0-9A-Za-z]", " ", str(name))  # same length: spans stay valid
+    interval = None
+    m = _INTERVAL_RE.search(text)
+    if m:
+        interval = float(m.group(1)) * _INTERVAL_UNIT_S[m.group(2).lower()]
+        text = text[:m.start()] + " " * (m.end() - m.start()) + text[m.end():]
+    unit = None
+    for u in _UNIT_RE.finditer(text):
+        unit = u.group(1).lower().replace("µ", "u")
+    text = _UNIT_RE.sub(lambda x: " " * len(x.group(0)), text)
+    toks = _tokens(text)
+    low = [t[0].lower() for t in toks]
+    used = [False] * len(toks)
+    quantity = None
+    i = 0
+    while i < len(low):
+        hit = None
+        for n in range(min(_MAX_PHRASE, len(low) - i), 0, -1):
+            q = _PHRASE_MAP.get(tuple(low[i:i + n]))
+            if q is not None:
+                hit = (n, q)
+                break
+        if hit and quantity is None:
+            n, quantity = hit
+            for k in range(i, i + n):
+                used[k] = True
+            i += n
+            continue
+        i += 1
+    stat = S.SAMPLE
+    for k, w in enumerate(low):
+        if not used[k] and w in _STAT_WORDS:
+            stat = _STAT_WORDS[w]
+            used[k] = True
+    guessed = False
+    if quantity is None:
+        vague = {"level", "lvl", "signal", "pegel", "niveau", "power"}
+        if unit == "dbm" or any(w in vague for w in low):
+            if unit in (None, "dbm"):
+                quantity, guessed = S.RSL, True
+        elif unit == "db" and any(w in {"xpol", "cross"} for w in low):
+            quantity, guessed = S.XPD, True
+    for k, w in enumerate(low):
+        if not used[k] and w in _FILLER_WORDS:
+            used[k] = True
+    left = [toks[k] for k in range(len(toks)) if not used[k]]
+    channel = None
+    if left:
+        start, end = left[0][1], left[-1][2]
+        piece = str(name)[start:end]
+        contiguous = all(not used[k] for k in range(len(toks)) if start <= toks[k][1] < end)
+        channel = piece.strip(" _-.:/") if contiguous else " ".join(t[0] for t in left)
+        channel = channel or None
+    return NameInfo(quantity, stat, interval, unit, channel, guessed)
+
+
+def _words(name: str) -> list[str]:
+    return [t[0].lower() for t in _tokens(re.sub(r"[^0-9A-Za-z]", " ", str(name)))]
+
+
+def name_role(name: str) -> str | None:
+    """'time', 'link', 'channel', 'qname' or 'value' when the name alone says so (signal names excluded)."""
+    w = _words(name)
+    if not w:
+        return None
+    ws = set(w)
+    if ws & _LINK_WORDS and ws <= (_LINK_WORDS | _LINK_PHRASE_OK):
+        return "link"
+    if ws & _CHANNEL_WORDS and ws <= (_CHANNEL_WORDS | {"id", "name", "no", "nr"}):
+        return "channel"
+    if ws <= _TIME_WORDS and ws & {"time", "timestamp", "datetime", "date", "zeit", "uhrzeit", "datum",
+                                   "epoch", "unix", "ts", "stamp", "heure", "hora", "fecha", "clock", "utc",
+                                   "gmt", "start", "begin", "end", "period", "day", "hour",
+                                   "zeitstempel", "horodatage"}:
+        return "time"
+    if ws <= _QNAME_WORDS | {"id"} and ws & _QNAME_WORDS - {"measurement"}:
+        return "qname"
+    if ws <= _VALUE_WORDS:
+        return "value"
+    return None
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# time formats
+
+_ISO_RE = re.compile(r"^\d{4}-\d{2}-\d{2}([T ]\d{1,2}:\d{2}(:\d{2}([.,]\d+)?)?)?\s*(Z|z|UTC|[+-]\d{2}(:?\d{2})?)?$")
+_ISO_OFFSET_RE = re.compile(r"(Z|z|UTC|[+-]\d{2}(:?\d{2})?)$")
+_DATES = ["%d/%m/%Y", "%m/%d/%Y", "%d.%m.%Y", "%d-%m-%Y", "%m-%d-%Y", "%Y/%m/%d", "%Y.%m.%d", "%Y-%m-%d",
+          "%d/%m/%y", "%m/%d/%y", "%d.%m.%y", "%d-%b-%Y", "%d %b %Y", "%b %d %Y", "%d-%b-%y", "%d/%b/%Y",
+          "%Y%m%d", "%b %d, %Y"]
+_TIMES = ["%H:%M:%S.%f", "%H:%M:%S", "%H:%M", "%I:%M:%S %p", "%I:%M %p", "%H%M%S", "%H.%M.%S"]
+_SEPS = [" ", "T", ", ", "-"]
+
+
+def _try_formats(values: list[str], formats: list[str], min_frac: float = 0.8) -> list[str]:
+    """Formats that read at least ``min_frac`` of the values (a few damaged stamps do not hide the format)."""
+    ok = []
+    need = max(1, math.ceil(min_frac * len(values)))
+    for fmt in formats:
+        good = bad = 0
+        for v in values:
+            try:
+                _dt.datetime.strptime(v, fmt)
+                good += 1
+            except ValueError:
+                bad += 1
+                if len(values) - bad < need:
+                    break
+        if good >= need:
+            ok.append(fmt)
+    return ok
+
+
+@dataclass(frozen=True)
+class TimeSpec:
+    """How to read the time of a row."""
+
+    columns: tuple[str, ...]        # one column, or (date column, time column)
+    kind: str                       # "iso", "format", "epoch_s", "epoch_ms"
+    fmt: str | None = None          # strftime format for kind == "format"
+    has_offset: bool = False        # ISO stamps carry Z / an offset
+    tz: str | None = None           # IANA zone for stamps without offset (None = UTC)
+    marks_end: bool = False         # stamp marks the END of the interval (shifted to the start)
+    guess: str | None = None        # what was guessed, with how to override
+
+
+def _sample_strings(values, limit: int = 400) -> list[str]:
+    out = []
+    for v in values:
+        if v is None:
+            continue
+        s = str(v).strip()
+        if s:
+            out.append(s)
+        if len(out) >= limit:
+            break
+    return out
+
+
+def _median_step(values: list[str], fmt: str) -> float:
+    ts = []
+    for v in values:
+        try:
+            ts.append(_dt.datetime.strptime(v, fmt).timestamp() if False else
+                      _dt.datetime.strptime(v, fmt).replace(tzinfo=_dt.timezone.utc).timestamp())
+        except ValueError:
+            pass
+    d = np.abs(np.diff(np.asarray(ts, dtype=float)))
+    d = d[d > 0]
+    return float(np.median(d)) if d.size else math.inf
+
+
+def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | None] | None:
+    """Format of date-and-time strings: ("iso", None, guess) or ("format", fmt, guess), or None."""
+    vals = _sample_strings(values)
+    if not vals:
+        return None
+    if sum(1 for v in vals if _ISO_RE.match(v)) >= 0.8 * len(vals):
+        return ("iso", None, None)
+    probe = vals[:60]
+    cands = [d + s + t for d in _DATES for s in _SEPS for t in _TIMES]
+    ok = _try_formats(probe[:5], cands)
+    ok = _try_formats(probe, ok)
+    if not ok:
+        return None
+    if len(ok) == 1:
+        return ("format", ok[0], None)
+    # several readings: confirm against the full sample, then prefer the one giving the smallest time step
+    ok = _try_formats(vals, ok) or ok
+    if len(ok) == 1:
+        return ("format", ok[0], None)
+    steps = {fmt: _median_step(vals, fmt) for fmt in ok}
+    best = min(ok, key=lambda f: (steps[f], 0 if "%d" in f.split("%m")[0] else 1))
+    others = [f for f in ok if f != best]
+    tied = [f for f in others if steps[f] == steps[best]]
+    guess = None
+    if tied or len(vals) < 3:
+        guess = (f"time format guessed as '{best}' (also readable as {', '.join(repr(f) for f in others)}); "
+                 f"override with --time-format or [time] format in the mapping file")
+    return ("format", best, guess)
+
+
+def detect_date_format(values: list[str]) -> str | None:
+    vals = _sample_strings(values, 60)
+    if not vals:
+        return None
+    ok = _try_formats(vals, _DATES)
+    if not ok:
+        return None
+    if len(ok) > 1:
+        steps = {f: _median_step(vals, f) for f in ok}
+        ok.sort(key=lambda f: (steps[f], 0 if "%d" in f.split("%m")[0] else 1))
+    return ok[0]
+
+
+def detect_clock_format(values: list[str]) -> str | None:
+    vals = _sample_strings(values, 60)
+    if not vals:
+        return None
+    ok = _try_formats(vals, _TIMES)
+    return ok[0] if ok else None
+
+
+def epoch_kind(values: list[str]) -> str | None:
+    """'epoch_s' or 'epoch_ms' when the strings are numbers in a plausible epoch range (1973-2100)."""
+    vals = _sample_strings(values, 200)
+    if not vals:
+        return None
+    try:
+        x = np.array([float(v) for v in vals])
+    except ValueError:
+        return None
+    if not np.all(np.isfinite(x)):
+        return None
+    if np.all((x > 1e8) & (x < 4.2e9)):
+        return "epoch_s"
+    if np.all((x > 1e11) & (x < 4.2e12)):
+        return "epoch_ms"
+    return None
+
+
+TIME_REASONS = ("bad_time", "dst_nonexistent", "dst_ambiguous")
+
+
+def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.ndarray]:
+    """Vectorised: (int64 ns since epoch UTC, int8 code 0 ok / 1 bad_time / 2 dst_nonexistent / 3 dst_ambiguous)."""
+    n = len(cols[0])
+    if spec.kind in ("epoch_s", "epoch_ms"):
+        s = pc.utf8_trim_whitespace(cols[0])
+        good = pc.fill_null(pc.match_substring_regex(s, r"^[+-]?\d+(\.\d*)?([eE][+-]?\d+)?$"), False)
+        num = pc.cast(pc.if_else(good, s, pa.scalar(None, pa.string())), pa.float64()).to_numpy(zero_copy_only=False)
+        scale = 1e9 if spec.kind == "epoch_s" else 1e6
+        lo, hi = (1e8, 4.2e9) if spec.kind == "epoch_s" else (1e11, 4.2e12)
+        ok = np.isfinite(num) & (num > lo) & (num < hi)
+        ns = np.zeros(n, dtype=np.int64)
+        ns[ok] = np.round(num[ok] * scale).astype(np.int64)
+        code = np.where(ok, 0, 1).astype(np.int8)
+        return ns, code
+    if len(cols) == 2:
+        text = pc.binary_join_element_wise(pc.utf8_trim_whitespace(cols[0]), pc.utf8_trim_whitespace(cols[1]),
+                                           " ")
+    else:
+        text = pc.utf8_trim_whitespace(cols[0])
+    ser = pd.Series(pd.array(text, dtype="str"), copy=False)
+    if spec.kind == "iso":
+        ser = ser.str.replace(",", ".", regex=False) if pc.any(pc.match_substring(text, ",")).as_py() else ser
+        if spec.has_offset:
+            t = pd.to_datetime(ser.str.replace(r"\s*UTC$", "Z", regex=True), format="ISO8601", utc=True,
+                               errors="coerce")
+            # rows without offset in an offset column: read as UTC by to_datetime(utc=True)
+            return _finish_utc(t, n)
+        t = pd.to_datetime(ser, format="ISO8601", errors="coerce")
+    else:
+        t = pd.to_datetime(ser, format=spec.fmt, errors="coerce")
+    if getattr(t.dt, "tz", None) is not None:
+        return _finish_utc(t.dt.tz_convert("UTC"), n)
+    if spec.tz:
+        return _localise(t, spec.tz)
+    return _finish_utc(t.dt.tz_localize("UTC"), n)
+
+
+def _finish_utc(t: pd.Series, n: int) -> tuple[np.ndarray, np.ndarray]:
+    t = t.astype("datetime64[ns, UTC]")
+    bad = t.isna().to_numpy()
+    ns = t.to_numpy(dtype="datetime64[ns]", na_value=np.datetime64("NaT")).view(np.int64).copy()
+    ns[bad] = 0
+    return ns, bad.astype(np.int8)
+
+
+def _localise(t: pd.Series, tz: str) -> tuple[np.ndarray, np.ndarray]:
+    t = t.astype("datetime64[ns]")
+    bad = t.isna().to_numpy()
+    loc = t.dt.tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
+    nat = loc.isna().to_numpy() & ~bad
+    code = bad.astype(np.int8)
+    if nat.any():
+        # which of the failures are in the spring-forward gap: those that stay NaT even when ambiguity is resolved
+        sub = t[nat]
+        gap = sub.dt.tz_localize(tz, ambiguous=np.ones(len(sub), dtype=bool), nonexistent="NaT").isna().to_numpy()
+        idx = np.flatnonzero(nat)
+        code[idx[gap]] = 2
+        code[idx[~gap]] = 3
+    ns, _ = _finish_utc(loc.dt.tz_convert("UTC"), len(t))
+    return ns, code
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# values
+
+def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
+    """Vectorised: (float64 values, int8 reason code) for one string column (R_NONE when the number is fine)."""
+    s = pc.utf8_trim_whitespace(pc.fill_null(col, ""))
+    s = pc.utf8_trim(s, '"\'')
+    if decimal == ",":
+        s = pc.replace_substring(s, ",", ".")
+    up = pc.utf8_upper(s)
+    blank = pc.equal(pc.utf8_length(s), 0)
+    lost = pc.is_in(up, value_set=pa.array(LOST_MARKERS))
+    miss = pc.is_in(up, value_set=pa.array(MISSING_MARKERS))
+    numeric = pc.match_substring_regex(s, r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d{1,3})?$")
+    num = pc.cast(pc.if_else(numeric, s, pa.scalar(None, pa.string())), pa.float64())
+    values = num.to_numpy(zero_copy_only=False).astype(np.float64, copy=True)
+    reason = np.full(len(values), R_NON_NUMERIC, dtype=np.int8)
+    reason[numeric.to_numpy(zero_copy_only=False)] = R_NONE
+    reason[miss.to_numpy(zero_copy_only=False)] = R_MARK_MISSING
+    reason[lost.to_numpy(zero_copy_only=False)] = R_MARK_LOST
+    reason[blank.to_numpy(zero_copy_only=False)] = R_BLANK
+    values[reason != R_NONE] = np.nan
+    bad = ~np.isfinite(values) & (reason == R_NONE)
+    reason[bad] = R_NON_NUMERIC
+    values[bad] = np.nan
+    return values, reason
+
+
+def status_of(reason: np.ndarray) -> np.ndarray:
+    st = np.full(reason.shape, _MISSING, dtype=np.int8)
+    st[reason == R_NONE] = _OK
+    st[(reason == R_MARK_LOST) | (reason == R_FLOOR)] = _LOST
+    return st
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# assembly
+
+@dataclass
+class Series:
+    """One (link, channel, quantity, stat) series gathered over all chunks."""
+
+    link_id: str
+    channel: str
+    quantity: str
+    stat: str
+    interval_s: float | None
+    times: list = field(default_factory=list)
+    values: list = field(default_factory=list)
+    reasons: list = field(default_factory=list)
+
+
+def _as_str_series(codes: np.ndarray, categories: list[str]) -> pd.Series:
+    arr = pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), pa.array(categories, pa.string()))
+    return pd.Series(pd.array(arr.cast(pa.string()), dtype="str"), copy=False)
+
+
+def build_table(parts: list[tuple[str, str, str, str, float, np.ndarray, np.ndarray, np.ndarray]]) -> pd.DataFrame:
+    """Assemble the long table from sorted parts (link, channel, quantity, stat, interval, ns, values, status)."""
+    if not parts:
+        return S.empty_table()
+    parts = sorted(parts, key=lambda p: (p[0], p[1], p[2], p[3]))
+    lens = np.array([len(p[5]) for p in parts])
+    total = int(lens.sum())
+    if total == 0:
+        return S.empty_table()
+    cols = {}
+    ns = np.concatenate([p[5] for p in parts])
+    cols[S.TIME] = pd.Series(pd.DatetimeIndex(ns.view("datetime64[ns]")).tz_localize("UTC"), copy=False)
+    for k, name in enumerate([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT], start=0):
+        cats = sorted({p[k] for p in parts})
+        idx = {c: i for i, c in enumerate(cats)}
+        codes = np.repeat(np.array([idx[p[k]] for p in parts], dtype=np.int32), lens)
+        cols[name] = _as_str_series(codes, cats)
+    cols[S.INTERVAL] = pd.Series(np.repeat(np.array([float(p[4]) for p in parts]), lens), dtype="float64")
+    cols[S.VALUE] = pd.Series(np.concatenate([p[6] for p in parts]), dtype="float64")
+    st = np.concatenate([p[7] for p in parts])
+    cols[S.STATUS] = _as_str_series(st.astype(np.int32), list(S.STATUSES))
+    table = pd.DataFrame(cols, columns=S.COLUMNS)
+    return table.reset_index(drop=True)
+
+
+def detect_floor(series_values: list[np.ndarray], series_order: list[np.ndarray]) -> tuple[float | None, str]:
+    """Receiver floor of one level quantity: the minimum reading when it sits at or below FLOOR_MAX_DBM and is
+    either a known floor value or held for at least 3 consecutive rows (a plateau at the minimum; common practice).
+    Returns (floor_dbm or None, how)."""
+    mins = [np.nanmin(v) for v in series_values if np.isfinite(v).any()]
+    if not mins:
+        return None, ""
+    m = float(min(mins))
+    if m > FLOOR_MAX_DBM:
+        return None, ""
+    count = 0
+    longest = 0
+    for v in series_values:
+        at = np.isclose(v, m, atol=1e-6)
+        count += int(at.sum())
+        if at.any():
+            # longest run of consecutive rows at the minimum
+            d = np.diff(np.concatenate(([0], at.astype(np.int8), [0])))
+            starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+            longest = max(longest, int((ends - starts).max()))
+    known = any(abs(m - f) < 1e-6 for f in KNOWN_FLOORS_DBM)
+    if known:
+        return m, f"minimum {m:g} dBm is a common receiver-floor reading ({count} values)"
+    if longest >= 3:
+        return m, f"minimum {m:g} dBm held for {longest} consecutive rows (plateau at the floor; {count} values)"
+    return None, ""
+
+
+def iso_has_offset(values: list[str]) -> bool:
+    vals = _sample_strings(values, 200)
+    return bool(vals) and sum(1 for v in vals if _ISO_OFFSET_RE.search(v) and len(v) > 10) > len(vals) // 2
+
+
+def check_tz(tz: str | None, where: str | None = None) -> str | None:
+    if tz is None or tz == "":
+        return None
+    try:
+        pd.Timestamp("2020-01-01").tz_localize(tz)
+    except Exception as exc:  # zoneinfo / pytz raise several kinds
+        raise InputError(f"unknown time zone '{tz}' (use an IANA name such as Europe/Vienna)", path=where) from exc
+    return tz

@@ -1,0 +1,144 @@
+"""Normalised tables on disk as Parquet: one file, or a store folder partitioned by link and UTC day.
+
+Store layout (our own)::
+
+    STORE/_diag_store.json                              marker: format name, version, columns
+    STORE/link=<link id, %-escaped>/day=YYYY-MM-DD/part.parquet
+
+Each part holds the rows of one link and one UTC day plus a hidden ``_row`` column (the row's position in the
+table that was written), so ``read_store`` gives back exactly the table that ``write_store`` got: same columns,
+dtypes (``diag.schema.empty_table()``) and row order.  ``diag.ingest.read_log`` reads both the single file and the
+store folder, so ``analyze`` and ``batch`` can skip CSV parsing.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+from urllib.parse import quote, unquote
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from diag import schema as S
+from diag.errors import InputError
+
+MARKER = "_diag_store.json"
+FORMAT = "diag-normalised-store"
+_ROW = "_row"
+
+
+def _to_arrow(table: pd.DataFrame, with_row: bool) -> pa.Table:
+    missing = [c for c in S.COLUMNS if c not in table.columns]
+    if missing:
+        raise InputError(f"table lacks the normalised columns {missing}")
+    arrays = {
+        S.TIME: pa.array(table[S.TIME].astype("datetime64[ns, UTC]").to_numpy(dtype="datetime64[ns]"),
+                         pa.timestamp("ns", tz="UTC")),
+    }
+    for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
+        arrays[c] = pa.array(table[c].astype("str").to_numpy(dtype=object, na_value=None), pa.string())
+    for c in (S.INTERVAL, S.VALUE):
+        arrays[c] = pa.array(table[c].to_numpy(dtype="float64"), pa.float64())
+    if with_row:
+        arrays[_ROW] = pa.array(np.arange(len(table), dtype=np.int64))
+    return pa.table(arrays)
+
+
+def _to_frame(tab: pa.Table) -> pd.DataFrame:
+    """Arrow -> pandas with exactly the dtypes of ``schema.empty_table()``."""
+    if tab.num_rows == 0:
+        return S.empty_table()
+    missing = [c for c in S.COLUMNS if c not in tab.column_names]
+    if missing:
+        raise InputError(f"Parquet file lacks the normalised columns {missing}; write it with 'diag ingest --out'")
+    cols = {}
+    t = tab.column(S.TIME)
+    if not pa.types.is_timestamp(t.type):
+        raise InputError(f"Parquet column {S.TIME} is not a timestamp")
+    t = t.cast(pa.timestamp("ns", tz="UTC")) if t.type.tz else t.cast(pa.timestamp("ns")).cast(
+        pa.timestamp("ns", tz="UTC"))
+    cols[S.TIME] = pd.Series(t.to_pandas(), copy=False).astype("datetime64[ns, UTC]")
+    for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
+        cols[c] = pd.Series(pd.array(tab.column(c).cast(pa.string()), dtype="str"), copy=False)
+    for c in (S.INTERVAL, S.VALUE):
+        cols[c] = pd.Series(tab.column(c).cast(pa.float64()).to_numpy(), dtype="float64")
+    return pd.DataFrame(cols, columns=S.COLUMNS).reset_index(drop=True)
+
+
+def write_parquet(table: pd.DataFrame, path: str | Path) -> Path:
+    """One Parquet file holding the normalised table."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    pq.write_table(_to_arrow(table, with_row=False), path, compression="zstd")
+    return path
+
+
+def read_parquet(path: str | Path) -> pd.DataFrame:
+    try:
+        tab = pq.read_table(path)
+    except (OSError, pa.ArrowException) as exc:
+        raise InputError(f"not a readable Parquet file ({' '.join(str(exc).split())[:120]})", path=str(path)) from exc
+    return _to_frame(tab)
+
+
+def write_store(table: pd.DataFrame, directory: str | Path) -> Path:
+    """Write the table as a store folder partitioned by link id and UTC day (replaces an existing store)."""
+    directory = Path(directory)
+    if directory.exists():
+        if not (directory / MARKER).exists() and any(directory.iterdir()):
+            raise InputError("output folder exists and is not a diag store; choose another --out",
+                             path=str(directory))
+        shutil.rmtree(directory)
+    directory.mkdir(parents=True)
+    tab = _to_arrow(table, with_row=True)
+    if len(table):
+        link = table[S.LINK].astype("str").to_numpy(dtype=object)
+        day = table[S.TIME].dt.strftime("%Y-%m-%d").to_numpy(dtype=object)
+        keys = pd.DataFrame({"l": link, "d": day})
+        for (lk, dy), idx in keys.groupby(["l", "d"], sort=True).indices.items():
+            part = directory / f"link={quote(str(lk), safe='')}" / f"day={dy}"
+            part.mkdir(parents=True, exist_ok=True)
+            pq.write_table(tab.take(pa.array(np.sort(idx))), part / "part.parquet", compression="zstd")
+    (directory / MARKER).write_text(json.dumps({"format": FORMAT, "version": 1, "columns": S.COLUMNS,
+                                                "rows": int(len(table))}, indent=1))
+    return directory
+
+
+def is_store(directory: str | Path) -> bool:
+    return (Path(directory) / MARKER).is_file()
+
+
+def read_store(directory: str | Path) -> pd.DataFrame:
+    """Read a store folder back: exactly the table given to ``write_store`` (dtypes and row order)."""
+    directory = Path(directory)
+    if not is_store(directory):
+        raise InputError("not a diag store folder (no marker file)", path=str(directory))
+    try:
+        meta = json.loads((directory / MARKER).read_text())
+    except (OSError, ValueError) as exc:
+        raise InputError("store marker file is unreadable", path=str(directory / MARKER)) from exc
+    if meta.get("format") != FORMAT:
+        raise InputError("store marker names another format", path=str(directory / MARKER))
+    parts = sorted(directory.glob("link=*/day=*/part.parquet"))
+    if not parts:
+        return S.empty_table()
+    tabs = []
+    for p in parts:
+        try:
+            tabs.append(pq.read_table(p))
+        except (OSError, pa.ArrowException) as exc:
+            raise InputError("unreadable store part", path=str(p)) from exc
+    tab = pa.concat_tables(tabs, promote_options="default")
+    order = np.argsort(tab.column(_ROW).to_numpy(), kind="stable")
+    tab = tab.take(pa.array(order)).drop_columns([_ROW])
+    if meta.get("rows") is not None and int(meta["rows"]) != tab.num_rows:
+        raise InputError(f"store holds {tab.num_rows} rows, marker says {meta['rows']} (incomplete copy?)",
+                         path=str(directory))
+    return _to_frame(tab)
+
+
+def link_of_part(path: Path) -> str:
+    return unquote(path.parent.parent.name.split("=", 1)[1])
