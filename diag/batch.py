@@ -48,8 +48,8 @@ WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> lis
 ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
 ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
 
-RANKING_COLUMNS = ["rank", "link_id", "outage_min", "below_threshold_min", "availability_pct", "objective_pct",
-                   "meets_objective", "main_cause", "main_cause_min", "events", "observed_h", "no_data_h",
+RANKING_COLUMNS = ["rank", "link_id", "outage_min", "outage_min_lo", "outage_min_hi", "exact", "below_threshold_min",
+                   "availability_pct", "objective_pct", "meets_objective", "main_cause", "main_cause_min", "events", "observed_h", "no_data_h",
                    "folder", "error"]
 COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
 _SORT = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
@@ -122,25 +122,38 @@ def _one_line(exc: BaseException) -> str:
 
 
 def _is_store(path: Path) -> bool:
+    """A store folder whose hops can be read one by one (``diag.store.store_links`` / ``read_store(link_id=)``)."""
     if not path.is_dir():
         return False
     try:
         from diag import store
     except ImportError:
         return False
-    check = getattr(store, "is_store", None)
-    return bool(check(path)) if check else False
+    if not (hasattr(store, "is_store") and hasattr(store, "store_links")):
+        return False
+    return bool(store.is_store(path))
+
+
+def _is_any_store(path: Path) -> bool:
+    try:
+        from diag.store import is_store
+    except ImportError:
+        return False
+    return path.is_dir() and bool(is_store(path))
 
 
 def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
     """Split the inputs into log files and Parquet stores.  A folder gives its files (not recursive, hidden files
-    skipped) unless it is a store.  Raises ``InputError`` for a path that does not exist or an empty input."""
+    skipped) unless it is a store (read hop by hop when ``diag.store`` can, else as one input of ``read_log``).
+    Raises ``InputError`` for a path that does not exist or an empty input."""
     files: list[Path] = []
     stores: list[Path] = []
     for raw in inputs:
         path = Path(raw)
         if _is_store(path):
             stores.append(path)
+        elif _is_any_store(path):
+            files.append(path)
         elif path.is_dir():
             found = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
             if not found:
@@ -250,7 +263,7 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
             ingest = {"store": store_path}
         else:
             table = hop_table(p.tables.get(link_id) for p in pieces)
-            ingest = {"files": {p.name: p.report for p in pieces}}
+            ingest = {p.name: p.report for p in pieces}
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
@@ -271,36 +284,55 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
 
 
 # --- network table and page -------------------------------------------------------------------------------------
-def _num(summary: dict, key: str) -> float:
+def _num(mapping, key: str) -> float:
     try:
-        value = float(summary.get(key))
+        return float(mapping.get(key))
     except (TypeError, ValueError):
         return math.nan
-    return value
+
+
+def best_estimate(mapping, key: str) -> tuple[float, float, float]:
+    """(estimate, low, high) of an outage figure: the exact value when the accounting is exact, else the middle of
+    ``key_lo``/``key_hi`` (coarse logs and 15-min statistics give only bounds, see ``diag.outage``)."""
+    exact, lo, hi = _num(mapping, key), _num(mapping, f"{key}_lo"), _num(mapping, f"{key}_hi")
+    if math.isfinite(exact):
+        return exact, (lo if math.isfinite(lo) else exact), (hi if math.isfinite(hi) else exact)
+    if math.isfinite(lo) and math.isfinite(hi):
+        return (lo + hi) / 2, lo, hi
+    return math.nan, lo, hi
+
+
+def _cause_minutes(by_cause: pd.DataFrame | None, cause: str) -> float:
+    if by_cause is None or not len(by_cause) or "cause" not in by_cause:
+        return 0.0
+    rows = by_cause[by_cause["cause"] == cause]
+    total = sum(best_estimate(row, "unavailable_s")[0] for _, row in rows.iterrows())
+    return total / 60 if math.isfinite(total) else 0.0
 
 
 def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | None = None) -> pd.DataFrame:
-    """The network table: one row per hop, ranked by outage minutes (unavailable time, ITU-T G.826 sense), then
-    by minutes below threshold; failed hops last, with their error and no rank."""
+    """The network table: one row per hop, worst first by outage minutes (unavailable time in the ITU-T G.826
+    sense; exact for 1-s logs, the middle of the bounds for coarser logs, see ``best_estimate``), then by minutes
+    below threshold; hops that could not be analysed come last, with their error and no rank."""
     rows = []
     for res in results:
         link_id = res.link.link_id
         row = {"link_id": link_id, "folder": (folders or {}).get(link_id, ""), "error": res.error or ""}
         if res.error is None and res.outage is not None:
             s = res.outage.summary or {}
-            by = res.outage.by_cause if res.outage.by_cause is not None else pd.DataFrame()
-            main, main_s = "", 0.0
-            if len(by) and "cause" in by:
-                key = by["unavailable_s"].astype(float) + 1e-6 * by["below_threshold_s"].astype(float)
-                top = by.loc[key.idxmax()]
-                if float(top["below_threshold_s"]) > 0 or float(top["unavailable_s"]) > 0:
-                    main, main_s = str(top["cause"]), float(top["unavailable_s"])
+            by = res.outage.by_cause
+            minutes = {c: _cause_minutes(by, c) for c in schema.CAUSES}
+            main = max(minutes, key=minutes.get) if any(v > 0 for v in minutes.values()) else ""
+            outage, lo, hi = best_estimate(s, "unavailable_s")
+            below = best_estimate(s, "below_threshold_s")[0]
             meets = s.get("meets_objective")
-            row.update(outage_min=_num(s, "unavailable_s") / 60, below_threshold_min=_num(s, "below_threshold_s") / 60,
-                       availability_pct=_num(s, "availability_pct"), objective_pct=_num(s, "objective_pct"),
+            row.update(outage_min=outage / 60, outage_min_lo=lo / 60, outage_min_hi=hi / 60,
+                       exact=bool(math.isfinite(_num(s, "unavailable_s"))), below_threshold_min=below / 60,
+                       availability_pct=best_estimate(s, "availability_pct")[0],
+                       objective_pct=_num(s, "objective_pct"),
                        meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
-                       else bool(meets),
-                       main_cause=main, main_cause_min=main_s / 60, events=int(len(res.events)),
+                       else str(meets),
+                       main_cause=main, main_cause_min=minutes.get(main, 0.0), events=int(len(res.events)),
                        observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
         elif res.error is None:
             row["error"] = "analysis returned no outage accounting"
@@ -331,16 +363,16 @@ _FALLBACK_COLOURS = {"rain": "#2f6db5", "multipath": "#d9822b", "refractive": "#
                      "signal_loss": "#c23b3b", "unknown": "#8c8c8c"}
 
 
-def _cause_colours() -> dict[str, str]:
+def _cause_colours() -> tuple[dict[str, str], dict[str, str]]:
+    """Cause colours and labels from the report's palette (``diag.report.style``), with a fallback."""
     try:
         from diag.report import style
     except ImportError:
-        return dict(_FALLBACK_COLOURS)
-    for name in ("CAUSE_COLOURS", "CAUSE_COLORS", "CAUSE_PALETTE"):
-        palette = getattr(style, name, None)
-        if isinstance(palette, dict):
-            return {**_FALLBACK_COLOURS, **palette}
-    return dict(_FALLBACK_COLOURS)
+        return dict(_FALLBACK_COLOURS), {}
+    palette = getattr(style, "CAUSE_COLORS", None)
+    labels = getattr(style, "CAUSE_LABELS", None)
+    return ({**_FALLBACK_COLOURS, **(palette if isinstance(palette, dict) else {})},
+            dict(labels) if isinstance(labels, dict) else {})
 
 
 def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
@@ -351,7 +383,7 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     from matplotlib.backends.backend_pdf import PdfPages
     from matplotlib.figure import Figure
 
-    colours = _cause_colours()
+    colours, names = _cause_colours()
     ok = ranking[ranking["error"] == ""].head(top)
     failed = ranking[ranking["error"] != ""]
     by_id = {r.link.link_id: r for r in results}
@@ -363,17 +395,10 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     labels = list(ok["link_id"])[::-1]
     left = np.zeros(len(labels))
     for cause in schema.CAUSES:
-        minutes = []
-        for link_id in labels:
-            res = by_id.get(link_id)
-            by = res.outage.by_cause if res is not None and res.outage is not None else None
-            value = 0.0
-            if by is not None and len(by):
-                value = float(by.loc[by["cause"] == cause, "unavailable_s"].astype(float).sum()) / 60
-            minutes.append(value)
-        minutes = np.asarray(minutes)
+        minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
+                                             cause) for h in labels])
         if labels and minutes.sum() > 0:
-            ax.barh(labels, minutes, left=left, color=colours.get(cause, "#888888"), label=cause)
+            ax.barh(labels, minutes, left=left, color=colours.get(cause, "#888888"), label=names.get(cause, cause))
             left += minutes
     ax.set_xlabel("outage [min]")
     ax.set_title(f"Worst {len(labels)} hops", fontsize=10, loc="left")
@@ -385,9 +410,12 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     lines = ["rank  hop                       outage min  avail. %   objective  main cause"]
     for row in ok.itertuples():
         avail = "" if pd.isna(row.availability_pct) else f"{row.availability_pct:.4f}"
-        met = {True: "met", False: "NOT met"}.get(row.meets_objective, "-")
-        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:24]:<24}  {row.outage_min:>10.1f}  {avail:>9}  "
-                     f"{met:>9}  {row.main_cause}")
+        met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
+        approx = " " if row.exact else "~"
+        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:24]:<24}  {approx}{row.outage_min:>9.1f}  {avail:>9}  "
+                     f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
+    if not ok["exact"].all():
+        lines.append("~ from 15-min statistics / coarse logs: middle of the bounds (see network_ranking.csv)")
     fig.text(0.70, 0.89, "\n".join(lines[:top + 1]), fontsize=6.2, family="monospace", va="top")
     if len(failed):
         text = ["Hops not analysed (fix and rerun):"] + [f"  {str(r.link_id)[:24]}: {str(r.error)[:150]}"
@@ -505,27 +533,32 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         for hop in hops:
             hop_files.setdefault(hop, []).append(i)
     store_hops: dict[str, str] = {}
+    twice: dict[str, str] = {}
     for store_path in stores:
-        from diag.store import list_links
+        from diag.store import store_links
 
-        for hop in list_links(store_path):
+        for hop in store_links(store_path):
             if hop in hop_files or hop in store_hops:
-                raise InputError(f"hop {hop!r} appears in more than one input; give it once", path=str(store_path))
+                twice[hop] = f"hop {hop!r} is in store {store_path} and in another input; give its data once"
             store_hops[hop] = str(store_path)
     order = [link.link_id for link in links] + sorted((set(hop_files) | set(store_hops)) - set(by_id))
     folders = _folder_names(order)
 
     # 2. one task per hop; results stream back and are written as they arrive
     hop_futures = {}
+    results_early: dict[str, LinkResult] = {}
     for hop in order:
         if hop not in hop_files and hop not in store_hops:
+            continue
+        if hop in twice:
+            results_early[hop] = failed_result(by_id.get(hop) or _placeholder_link(hop), twice[hop])
             continue
         deps = [pieces[i] for i in hop_files.get(hop, [])]
         hop_futures[client.submit(_hop_task, hop, by_id.get(hop), deps, store_hops.get(hop), config, analyze,
                                   writer, keep_series, key=f"hop-{safe_name(hop)}-{len(hop_futures)}",
                                   pure=False)] = hop
     del pieces  # each file's table is released by the cluster as soon as its last hop task has finished
-    results: dict[str, LinkResult] = {}
+    results: dict[str, LinkResult] = dict(results_early)
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
     unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]

@@ -1,0 +1,68 @@
+"""``python -m diag batch INPUTS... --links LINKS --out DIR [--workers N] [--scheduler ADDRESS]``: a whole network.
+
+Thin wrapper over ``diag.batch.run``: parses the arguments, prints progress on stderr and a short ranking on stdout.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+
+from diag.errors import InputError
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "batch", help="analyse many hops in parallel on Dask and rank the network",
+        description="Analyse every hop in the inputs in parallel on a Dask cluster (a local one by default), write "
+                    "each hop's outputs to OUT/hops/<hop>/ and the network ranking to OUT/network_ranking.csv and "
+                    "OUT/network_report.pdf.  A hop that cannot be analysed is listed with its error.")
+    parser.add_argument("inputs", nargs="+", metavar="INPUT",
+                        help="log files, folders of log files (not recursive), or stores written by 'ingest --out'")
+    parser.add_argument("--links", required=True, metavar="LINKS", help="links table (CSV), one row per hop")
+    parser.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    parser.add_argument("--workers", type=int, default=None, metavar="N",
+                        help="local cluster size: N worker processes, one thread each (default: number of CPUs)")
+    parser.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                        help="use an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (its workers must have diag "
+                             "installed and see the input paths)")
+    parser.add_argument("--tz", default=None, metavar="ZONE",
+                        help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
+    parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    parser.set_defaults(func=main)
+
+
+def _progress(quiet: bool):
+    def show(stage: str, done: int, total: int, message: str) -> None:
+        if not quiet:
+            word = "read" if stage == "read" else "hop"
+            print(f"diag: {word} {done}/{total} {message}", file=sys.stderr, flush=True)
+    return show
+
+
+def main(args: argparse.Namespace) -> int:
+    from diag import batch
+    from diag.links import read_links_table
+
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers must be at least 1, not {args.workers}")
+    if args.workers is not None and args.scheduler:
+        raise InputError("give either --workers (a local cluster) or --scheduler (an existing one), not both")
+    if args.scheduler and "://" not in args.scheduler:
+        raise InputError(f"--scheduler must be an address like tcp://host:8786, not {args.scheduler!r}")
+    links = read_links_table(args.links)
+    result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,
+                       tz=args.tz, progress=_progress(args.quiet))
+    ranking = result.ranking
+    ok = ranking[ranking["error"] == ""]
+    failed = ranking[ranking["error"] != ""]
+    print(f"{len(ok)} hops analysed, {len(failed)} not; ranking: {args.out}/network_ranking.csv, "
+          f"page: {args.out}/network_report.pdf, per hop: {args.out}/hops/")
+    for row in ok.head(10).itertuples():
+        approx = "" if row.exact else "~"
+        print(f"{int(row.rank):>4}  {row.link_id}  outage {approx}{row.outage_min:.1f} min  "
+              f"main cause {row.main_cause or '-'}")
+    for row in failed.itertuples():
+        print(f"   -  {row.link_id}  NOT ANALYSED: {row.error}")
+    if not len(ok):
+        raise InputError(f"no hop could be analysed (see {args.out}/network_ranking.csv)")
+    return 0
