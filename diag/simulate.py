@@ -180,6 +180,8 @@ class Scenario:
     links: tuple
     description: str = ""
     tz: str = "UTC"        # local time zone of the invented place (used by the local-time writer)
+    outputs: Mapping = field(default_factory=dict)   # link_id -> {"log_shape": shape, "gzip": bool}
+    stats_interval_s: float = 900.0                  # interval of the min/avg/max statistics shape
 
     def link_list(self) -> list[Link]:
         return [spec.to_link() for spec in self.links]

@@ -35,6 +35,7 @@ from diag import schema
 from diag.errors import InputError
 
 __all__ = ["SHAPES", "WriteInfo", "write_log", "write_wide_iso", "write_semicolon_local", "write_epoch",
+           "write_links_table", "truth_segments", "write_truth", "write_scenario",
            "write_long", "write_stats", "SHAPE_SUFFIX"]
 
 SHAPES = ("wide_iso", "semicolon_local", "epoch", "long", "stats")
@@ -317,3 +318,133 @@ def write_log(table: pd.DataFrame, path: str | Path, shape: str, *, tz: str | No
         link = _one_link(table)
         return write_stats(table, path, floors_dbm={link: floor_dbm} if floor_dbm is not None else None)
     raise InputError(f"writer: unknown shape {shape!r}; use one of {', '.join(SHAPES)}")
+
+
+# ----------------------------------------------------------------------------------------------------------------
+# links table, ground truth and whole scenarios
+
+def _iso(values) -> list[str]:
+    stamps = pd.to_datetime(pd.Series(values), utc=True)
+    return [("" if pd.isna(v) else v.strftime("%Y-%m-%dT%H:%M:%SZ")) for v in stamps]
+
+
+def write_links_table(links, path: str | Path) -> Path:
+    """A links table CSV (``diag.links`` columns: required first, then every optional one; empty when unknown)."""
+    from diag.links import OPTIONAL, REQUIRED
+
+    rows = [",".join(REQUIRED + OPTIONAL)]
+    for link in links:
+        cells = []
+        for name in REQUIRED + OPTIONAL:
+            value = getattr(link, name)
+            cells.append("" if value is None else (f"{value:g}" if isinstance(value, float) else str(value)))
+        rows.append(",".join(cells))
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    return path
+
+
+def truth_segments(result) -> pd.DataFrame:
+    """Run-length segments of the per-sample true cause of one simulated hop (faded runs only).
+
+    Columns ``link_id, channel, start_utc, end_utc`` (end exclusive: start of the next sample), ``cause``,
+    ``samples``, ``peak_fade_db``."""
+    truth = result.truth_samples
+    dt = pd.Timedelta(seconds=result.spec.interval_s)
+    out = []
+    for channel, part in truth.groupby("channel", sort=True):
+        cause = part["cause"].to_numpy(dtype=object)
+        fade = part["total_fade_db"].to_numpy(dtype=float)
+        times = part["time_utc"].reset_index(drop=True)
+        change = np.flatnonzero(np.r_[True, cause[1:] != cause[:-1]])
+        ends = np.r_[change[1:], len(cause)]
+        for a, b in zip(change, ends):
+            if cause[a] == "":
+                continue
+            out.append({"link_id": result.spec.link_id, "channel": channel, "start_utc": times[a],
+                        "end_utc": times[b - 1] + dt, "cause": cause[a], "samples": int(b - a),
+                        "peak_fade_db": round(float(fade[a:b].max()), 2)})
+    return pd.DataFrame(out, columns=["link_id", "channel", "start_utc", "end_utc", "cause", "samples",
+                                      "peak_fade_db"])
+
+
+def write_truth(results, out_dir: str | Path, *, samples: bool = True) -> list[Path]:
+    """Ground truth beside the logs: ``truth_events.csv``, ``truth_labels.csv`` (run-length cause segments) and,
+    when ``samples``, ``truth_samples.parquet`` (every sample's contribution per cause)."""
+    out_dir = Path(out_dir)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    results = list(results.values()) if isinstance(results, Mapping) else list(results)
+    events = pd.concat([r.truth_events for r in results if not r.truth_events.empty] or
+                       [pd.DataFrame(columns=results[0].truth_events.columns if results else [])],
+                       ignore_index=True)
+    for column in ("start_utc", "end_utc", "shift_utc"):
+        if column in events:
+            events[column] = _iso(events[column])
+    for column in events.columns:
+        if events[column].dtype.kind == "f":
+            events[column] = events[column].round(3)
+    paths = [out_dir / "truth_events.csv", out_dir / "truth_labels.csv"]
+    events.to_csv(paths[0], index=False, lineterminator="\n")
+    labels = pd.concat([truth_segments(r) for r in results], ignore_index=True)
+    labels["start_utc"] = _iso(labels["start_utc"])
+    labels["end_utc"] = _iso(labels["end_utc"])
+    labels.to_csv(paths[1], index=False, lineterminator="\n")
+    if samples:
+        frames = []
+        for r in results:
+            frame = r.truth_samples.copy()
+            frame.insert(1, "link_id", r.spec.link_id)
+            frames.append(frame)
+        paths.append(out_dir / "truth_samples.parquet")
+        pd.concat(frames, ignore_index=True).to_parquet(paths[-1], index=False)
+    return paths
+
+
+def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[str] | None = None,
+                   truth_samples: bool = True) -> list[Path]:
+    """Everything for a simulated scenario under ``out_dir``: ``links.csv``, ``logs/`` and ``truth/``.
+
+    Without ``shapes`` each hop is written in its own ``log_shape`` (scenario file; default ``wide_iso``) straight
+    into ``logs/`` (statistics hops together in one ``<name>_<N>min.csv``, long-shape hops in ``<name>_long.csv``);
+    with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when there are several."""
+    from diag.simulate import aggregate_statistics
+
+    out_dir = Path(out_dir)
+    results = dict(results)
+    outputs = getattr(scenario, "outputs", {}) or {}
+    shape_list = list(shapes) if shapes is not None else None
+    if shape_list is not None:
+        unknown = [s for s in shape_list if s not in SHAPES]
+        if unknown:
+            raise InputError(f"unknown log shape(s) {', '.join(unknown)}; use {', '.join(SHAPES)} or all")
+    written = [write_links_table([r.link for r in results.values()], out_dir / "links.csv")]
+    plan: dict[str, list[str]] = {}
+    for link_id in results:
+        for shape in (shape_list or [outputs.get(link_id, {}).get("log_shape", "wide_iso")]):
+            plan.setdefault(shape, []).append(link_id)
+    interval = float(getattr(scenario, "stats_interval_s", 900.0))
+    tag = f"{int(interval // 60)}min" if interval % 60 == 0 else f"{interval:g}s"
+    for shape, ids in plan.items():
+        folder = out_dir / "logs" / shape if shape_list is not None and len(shape_list) > 1 else out_dir / "logs"
+        if shape == "stats":
+            stats = [aggregate_statistics(results[i].table, interval_s=interval,
+                                          floor_dbm=results[i].spec.floor_value_dbm) for i in ids]
+            info = write_stats(stats, folder / f"{scenario.name}_{tag}.csv",
+                               floors_dbm={i: results[i].spec.floor_value_dbm for i in ids})
+            written.append(info.path)
+        elif shape == "long":
+            info = write_long([results[i].table for i in ids], folder / f"{scenario.name}_long.csv",
+                              defects={i: results[i].file_defects for i in ids},
+                              floors_dbm={i: results[i].spec.floor_value_dbm for i in ids})
+            written.append(info.path)
+        else:
+            for i in ids:
+                r = results[i]
+                suffix = ".csv.gz" if outputs.get(i, {}).get("gzip", False) else ".csv"
+                name = f"{i}_{SHAPE_SUFFIX[shape]}{suffix}"
+                info = write_log(r.table, folder / name, shape, tz=scenario.tz, defects=r.file_defects,
+                                 floor_dbm=r.spec.floor_value_dbm)
+                written.append(info.path)
+    written += write_truth(results, out_dir / "truth", samples=truth_samples)
+    return written
