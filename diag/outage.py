@@ -53,9 +53,14 @@ METHOD_SAMPLES = ("bounds from {dt:g}-s samples, assuming the level crosses the 
                   "unavailable time from the G.826 rule on both masks (the rule is monotone)")
 METHOD_STATS = ("bounds from {dt:g}-s min/avg/max statistics: an interval whose max is below threshold is below "
                 "for all of it; one whose min is at or above threshold is clear; otherwise between 1 s and "
-                "interval - 1 s, narrowed by the interval average (valid whether the radio averages dBm or mW); "
+                "interval - 1 s, narrowed by the interval average ({avg}); "
                 "unavailable time: lower = fully-below intervals, upper = every interval that may hold a "
-                "below-threshold second, except clusters that cannot hold ten")
+                "below-threshold second, except clusters that cannot hold ten, and at most 10k + 9 s in an "
+                "interval with at most k below-threshold seconds")
+
+
+_AVG_TEXT = {"either": "valid whether the radio averages dBm or mW", "db": "the radio averages dBm values",
+             "mw": "the radio averages power in mW"}
 
 
 @dataclass
@@ -72,6 +77,7 @@ class _Masks:
     method: str
     interval_s: float
     kind: str
+    block: np.ndarray | None = None   # int64 statistics-interval number of each second (-1 outside), stats only
 
 
 def _empty(n: int) -> np.ndarray:
@@ -180,7 +186,8 @@ def _sample_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm
 
 
 def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, seconds: int,
-                          *, rounding_db: float = _ROUNDING_DB) -> tuple[np.ndarray, np.ndarray]:
+                          *, rounding_db: float = _ROUNDING_DB,
+                          average: str = "either") -> tuple[np.ndarray, np.ndarray]:
     """Lower and upper bounds on the number of below-threshold seconds in intervals of ``seconds`` 1-s values
     summarised by their min, average and max [dBm] (NaN = not reported; -inf min = signal lost).
 
@@ -188,8 +195,11 @@ def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, secon
     below values lie in [min, T) and the others in [T, max], so
       k >= n (T - a) / (T - min)   and   k <= n (max - a) / (max - T)        (mean-value bounds)
     computed both for an average of dBm values and for an average of mW (the export rarely says which); the
-    looser of the two is kept so the bounds hold either way.  ``rounding_db`` widens the inputs for print rounding.
+    looser of the two is kept so the bounds hold either way (``average="either"``); ``average="db"`` or ``"mw"``
+    uses only the one the radio is known to use.  ``rounding_db`` widens the inputs for print rounding.
     """
+    if average not in ("either", "db", "mw"):
+        raise ValueError("average must be 'either', 'db' or 'mw'")
     mn = np.asarray(min_dbm, dtype=float)
     av = np.asarray(avg_dbm, dtype=float)
     mx = np.asarray(max_dbm, dtype=float)
@@ -213,8 +223,12 @@ def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, secon
         p = lambda x: np.power(10.0, x / 10.0)  # noqa: E731
         k_lo_mw = n * (p(T) - p(a_hi)) / (p(T) - p(mn_l))
         k_hi_mw = n * (p(mx_h) - p(a_lo)) / (p(mx_h) - p(T))
-    k_lo = np.fmin(k_lo_db, k_lo_mw)
-    k_hi = np.fmax(k_hi_db, k_hi_mw)
+    if average == "db":
+        k_lo, k_hi = k_lo_db, k_hi_db
+    elif average == "mw":
+        k_lo, k_hi = k_lo_mw, k_hi_mw
+    else:
+        k_lo, k_hi = np.fmin(k_lo_db, k_lo_mw), np.fmax(k_hi_db, k_hi_mw)
     k_lo = np.where(has_avg & np.isfinite(k_lo), np.ceil(k_lo - 1e-9), 0.0)
     k_hi = np.where(has_avg & np.isfinite(k_hi) & (mx_h < np.inf), np.floor(k_hi + 1e-9), n)
     # an average below threshold implies at least one value below it (in either domain)
@@ -229,7 +243,7 @@ def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, secon
 
 
 def _stats_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float,
-                 rotation: dict[int, int]) -> _Masks:
+                 rotation: dict[int, int], average: str = "either") -> _Masks:
     """Interval min/avg/max statistics: per-interval bounds from ``stats_interval_bounds``.
 
     Placement inside an interval is unknown, so the lower/upper masks put the counted seconds at the start of the
@@ -248,7 +262,7 @@ def _stats_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm:
     av = frame["rsl_dbm"].to_numpy(dtype=float)
     mn = np.where(lost & np.isnan(mn), -np.inf, mn)
     mx = np.where(lost & np.isnan(mx), -np.inf, mx)     # lost for the whole interval when no max survives
-    k_lo, k_hi = stats_interval_bounds(mn, av, mx, threshold_dbm, dt)
+    k_lo, k_hi = stats_interval_bounds(mn, av, mx, threshold_dbm, dt, average=average)
     codes = _cause_codes(frame)
     obs_s, lo, hi, certain, possible = _empty(n), _empty(n), _empty(n), _empty(n), _empty(n)
     cause_s = np.full(n, _UNKNOWN, dtype=np.int8)
@@ -268,14 +282,16 @@ def _stats_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm:
     _fill(hi, off[idx], k_hi[idx] - first)
     for i, r in zip(idx, rot):
         rotation[int(off[i])] = int(r + k_hi[i])
-    return _Masks(obs_s, lo, hi, certain, possible, cause_s, False, METHOD_STATS.format(dt=dt),
-                  float(series.interval_s), series.kind)
+    block = np.full(n, -1, dtype=np.int64)
+    _fill(block, off, np.full(off.size, dt), (off // max(dt, 1)).astype(np.int64))
+    return _Masks(obs_s, lo, hi, certain, possible, cause_s, False, METHOD_STATS.format(dt=dt, avg=_AVG_TEXT[average]),
+                  float(series.interval_s), series.kind, block)
 
 
 def _channel_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm: float,
-                   rotation: dict[int, int]) -> _Masks:
+                   rotation: dict[int, int], stats_average: str) -> _Masks:
     if series.kind == "stats":
-        return _stats_masks(series, t0, n, threshold_dbm, rotation)
+        return _stats_masks(series, t0, n, threshold_dbm, rotation, stats_average)
     if series.interval_s <= 1.0 + 1e-9:
         return _exact_masks(series, t0, n, threshold_dbm)
     return _sample_masks(series, t0, n, threshold_dbm)
@@ -287,7 +303,8 @@ def _combine(masks: list[_Masks]) -> _Masks:
     out = _Masks(first.observed.copy(), first.lo.copy(), first.hi.copy(), first.certain.copy(),
                  first.possible.copy(), first.cause.copy(), all(m.exact for m in masks),
                  "; ".join(dict.fromkeys(m.method for m in masks)), max(m.interval_s for m in masks),
-                 "stats" if any(m.kind == "stats" for m in masks) else "sample")
+                 "stats" if any(m.kind == "stats" for m in masks) else "sample",
+                 next((m.block for m in masks if m.block is not None), None))
     for m in masks[1:]:
         # cause: a second below on this channel but not yet below at link level takes this channel's cause;
         # an unknown cause is replaced by a known one from another channel covering the same second
@@ -329,7 +346,28 @@ def _unavailable(m: _Masks, consecutive_s: int) -> tuple[np.ndarray, np.ndarray]
         small = np.zeros(cid.size, dtype=bool)
         small[valid] = counts[cid[valid]] < consecutive_s
         u_hi &= ~small
+    if m.block is not None and u_hi.any():
+        u_hi = _cap_per_block(u_hi, m.hi, m.block, consecutive_s)
     return u_lo, u_hi
+
+
+def _cap_per_block(u_hi: np.ndarray, hi: np.ndarray, block: np.ndarray, consecutive_s: int) -> np.ndarray:
+    """In a statistics interval holding at most k below-threshold seconds, at most k + (consecutive_s - 1)(k + 1)
+    seconds can be unavailable: the k SES themselves plus fewer than ``consecutive_s`` clear seconds in each of the
+    k + 1 clear stretches around them (a longer clear stretch ends unavailable time)."""
+    inside = block >= 0
+    ids = block[inside]
+    uniq, first = np.unique(ids, return_index=True)
+    pos = np.searchsorted(uniq, ids)
+    k = np.bincount(pos, weights=hi[inside].astype(float), minlength=uniq.size)
+    cap = k + (consecutive_s - 1) * (k + 1)
+    u_in = u_hi[inside]
+    csum = np.cumsum(u_in)
+    before = np.where(first > 0, csum[np.maximum(first - 1, 0)], 0)
+    rank = csum - before[pos]
+    trimmed = u_hi.copy()
+    trimmed[np.flatnonzero(inside)] = u_in & (rank <= cap[pos])
+    return trimmed
 
 
 def _unavailable_causes(unav: np.ndarray, cause: np.ndarray) -> np.ndarray:
@@ -457,12 +495,14 @@ def _counters(series: ChannelSeries, f: dict) -> dict | None:
     return out
 
 
-def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S) -> OutageResult:
+def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
+                 stats_average: str = "either") -> OutageResult:
     """Outage accounting of one hop over the analysed period (see the module docstring for the rules).
 
     Returns an ``OutageResult`` whose ``summary`` has ``schema.OUTAGE_SUMMARY_COLUMNS`` first, then the bounds
     (``*_lo``/``*_hi``), ``exact``, ``method``, the yearly scaling and the radio counters; ``by_cause`` has one row
     per cause in ``schema.CAUSES`` (they add up to the summary); ``per_channel`` one row per channel.
+    ``stats_average``: how the radio averages its interval statistics ("db", "mw", or "either" when unknown).
     """
     link = result.link
     threshold = float(link.threshold_dbm)
@@ -484,7 +524,7 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S)
     t1 = max(s.frame.index[-1] + pd.Timedelta(seconds=float(s.interval_s)) for s in series).ceil("s")
     n = int(round((t1 - t0) / pd.Timedelta(seconds=1)))
     rotation: dict[int, int] = {}
-    masks = [_channel_masks(s, t0, n, threshold, rotation) for s in series]
+    masks = [_channel_masks(s, t0, n, threshold, rotation, stats_average) for s in series]
 
     per_channel_rows = []
     counters: dict[str, dict] = {}
