@@ -155,7 +155,8 @@ def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list
         elif _is_any_store(path):
             files.append(path)
         elif path.is_dir():
-            found = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
+            found = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith((".", "_", "~"))
+                           and "".join(p.suffixes[-1:]).lower() in _log_suffixes())
             if not found:
                 raise InputError("folder holds no files", path=str(path))
             files.extend(found)
@@ -166,6 +167,16 @@ def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list
     if not files and not stores:
         raise InputError("no input files given")
     return files, stores
+
+
+def _log_suffixes() -> set[str]:
+    """The file endings the reader takes from a folder (``diag.ingest.LOG_SUFFIXES``), so ``batch`` and
+    ``analyze`` read the same files of a folder."""
+    try:
+        from diag.ingest import LOG_SUFFIXES
+    except ImportError:
+        return {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
+    return set(LOG_SUFFIXES)
 
 
 def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
@@ -197,12 +208,20 @@ def _sorted(table: pd.DataFrame) -> pd.DataFrame:
     return table.sort_values(_SORT, kind="mergesort").reset_index(drop=True)
 
 
-def hop_table(tables: Iterable[pd.DataFrame]) -> pd.DataFrame:
-    """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes."""
+def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
+    """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes, and the
+    number of values dropped because an earlier file already held them (same rule as ``diag.ingest.read_logs``:
+    same link, channel, quantity, stat and time -> the first file's value is kept)."""
     parts = [t for t in tables if t is not None and len(t)]
     if not parts:
-        return schema.empty_table()
-    return _sorted(pd.concat(parts, ignore_index=True))
+        return schema.empty_table(), 0
+    if len(parts) == 1:
+        return _sorted(parts[0]), 0
+    table = _sorted(pd.concat(parts, ignore_index=True))
+    dup = table.duplicated(subset=_SORT, keep="first").to_numpy()
+    if dup.any():
+        table = table[~dup].reset_index(drop=True)
+    return table, int(dup.sum())
 
 
 # --- worker tasks -----------------------------------------------------------------------------------------------
@@ -260,10 +279,11 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
             from diag.store import read_store
 
             table = _sorted(read_store(store_path, link_id=link_id))
-            ingest = {"store": store_path}
+            ingest = {"files": {Path(store_path).name: {"file": store_path, "layout": "store"}},
+                      "overlap_values_dropped": 0}
         else:
-            table = hop_table(p.tables.get(link_id) for p in pieces)
-            ingest = {p.name: p.report for p in pieces}
+            table, dropped = hop_table(p.tables.get(link_id) for p in pieces)
+            ingest = {"files": {p.name: p.report for p in pieces}, "overlap_values_dropped": dropped}
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:

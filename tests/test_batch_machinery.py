@@ -89,6 +89,7 @@ def network(tmp_path_factory):
     (logs / "Kestrel-03_c.csv").write_text("time_utc,value\nBROKEN\n")        # hop 03 has a broken file
     bad = _hop_rows("Kestrel-04", 99, 10)
     bad[schema.VALUE] = 5000.0                                                  # hop 04: the analysis fails
+    bad[schema.TIME] += pd.Timedelta(days=1)
     bad.to_csv(logs / "Kestrel-04_c.csv", index=False)
     _hop_rows("Stray-9", 7, 20).to_csv(logs / "stray.csv", index=False)       # a hop missing from the links table
     (logs / "mystery.csv").write_text("BROKEN\n")                              # a broken file matching no hop
@@ -112,14 +113,15 @@ def test_cluster_results_equal_serial_and_failures_stay_with_their_hop(network, 
     by_id = {r.link.link_id: r for r in res.results}
     for i in (0, 1, 2, 5):   # healthy hops: identical to the stand-in run serially on the same rows
         link = links[i]
-        serial = standin_analyze(batch.hop_table([tables[link.link_id]]), link)
+        serial = standin_analyze(batch.hop_table([tables[link.link_id]])[0], link)
         got = by_id[link.link_id]
         assert got.error is None
         assert got.statistics == serial.statistics
         assert got.outage.summary == serial.outage.summary
         pd.testing.assert_frame_equal(got.events.reset_index(drop=True), serial.events.reset_index(drop=True))
         assert got.series == {}                      # slim results: the per-sample series stay on the worker
-        assert set(got.ingest) == {f"{link.link_id}_a.csv", f"{link.link_id}_b.csv"}
+        assert got.ingest["overlap_values_dropped"] == 0
+        assert set(got.ingest["files"]) == {f"{link.link_id}_a.csv", f"{link.link_id}_b.csv"}
         assert (root / "out" / "hops" / link.link_id / "outage_summary.csv").exists()
     assert "Kestrel-03_c.csv" in by_id["Kestrel-03"].error and "unreadable export" in by_id["Kestrel-03"].error
     assert "failed on purpose" in by_id["Kestrel-04"].error
@@ -198,3 +200,14 @@ def test_ranking_csv_is_spreadsheet_safe(tmp_path):
     ranking = batch.network_ranking([batch.failed_result(link, "@boom")])
     safe = batch._spreadsheet_safe(ranking)
     assert safe.loc[0, "link_id"] == "'=HYPERLINK(1)" and safe.loc[0, "error"] == "'@boom"
+
+
+def test_values_in_two_files_are_kept_once_and_counted():
+    rows = _hop_rows("Kestrel-00", 1, 100)
+    first, second = rows.iloc[:150].copy(), rows.iloc[100:].copy()   # 50 values in both files
+    second[schema.VALUE] += 0.5                                     # the first file's value wins (as read_logs)
+    table, dropped = batch.hop_table([first, second])
+    assert dropped == 50 and len(table) == len(rows)
+    merged = table.set_index([schema.CHANNEL, schema.TIME])[schema.VALUE]
+    expected = rows.iloc[:150].set_index([schema.CHANNEL, schema.TIME])[schema.VALUE]
+    assert (merged.loc[expected.index] == expected).all()
