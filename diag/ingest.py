@@ -61,6 +61,8 @@ SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
 ROW_REASONS = ("malformed_row", "bad_time", "dst_nonexistent", "dst_ambiguous", "unknown_quantity",
                "duplicate", "conflicting_duplicate")
+SNIFF_LINES = 400           # lines looked at to find separator and header
+HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
 MAX_LISTED = 200   # gaps / conflicts listed in the report (counts are always complete)
 
 QUANTITY_ALIASES = {"rsl": S.RSL, "rx": S.RSL, "tsl": S.TSL, "tx": S.TSL, "xpd": S.XPD, "xpl": S.XPL,
@@ -304,7 +306,7 @@ def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
     if not complete and len(lines) > 1:
         lines = lines[:-1]           # the last line may be cut off
     fsec = _section(mapping, "file")
-    nonempty = [i for i, ln in enumerate(lines) if ln.strip()]
+    nonempty = [i for i, ln in enumerate(lines) if ln.strip()][:SNIFF_LINES]
     if not nonempty:
         raise InputError("empty file (no data)", path=label)
     tail = nonempty[-40:]
@@ -322,7 +324,7 @@ def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
         # header: the line with k (or k-1 with a trailing empty data field) fields that names the most columns
         best_i, best_score = None, -1
         trailing = all(r[-1].strip() == "" for r, c in zip(split[-len(tail):], tail_counts) if c == k) and k > 2
-        for j, (r, c) in enumerate(zip(split, counts)):
+        for j, (r, c) in enumerate(zip(split[:HEADER_SEARCH_LINES], counts)):
             if c == k or (trailing and c == k - 1):
                 sc = _header_score(r)
                 if sc > best_score:
@@ -644,7 +646,7 @@ class _Keys:
             idx = enc.indices.to_numpy(zero_copy_only=False).astype(np.int64)
             combo = combo * len(words) + idx
             dicts.append((words, len(words)))
-        uniq, inv = np.unique(combo, return_inverse=True)
+        inv, uniq = pd.factorize(combo, sort=False)
         mapped = np.empty(len(uniq), dtype=np.int32)
         for i, u in enumerate(uniq):
             parts = []
@@ -942,10 +944,21 @@ def _finish(chunks: list[_Rows], keys: _Keys, plan: _Plan, report: IngestReport,
     return table
 
 
+def _sorted_unique(a: np.ndarray) -> np.ndarray:
+    """np.unique for int64 stamps, without hashing (the arrays are mostly sorted already)."""
+    if len(a) == 0:
+        return a
+    s = a if bool(np.all(a[1:] >= a[:-1])) else np.sort(a, kind="stable")
+    keep = np.empty(len(s), dtype=bool)
+    keep[0] = True
+    np.not_equal(s[1:], s[:-1], out=keep[1:])
+    return s[keep]
+
+
 def _step(ns: np.ndarray) -> float | None:
     if len(ns) < 2:
         return None
-    d = np.diff(np.unique(ns))
+    d = np.diff(_sorted_unique(ns))
     d = d[d > 0]
     if not d.size:
         return None
@@ -975,7 +988,7 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
     steps = []
     links = table[S.LINK].to_numpy(dtype=object) if len(report.links) > 1 else None
     for lk in report.links:
-        t = np.unique(ns if links is None else ns[links == lk])
+        t = _sorted_unique(ns if links is None else ns[links == lk])
         if len(t) < 2:
             continue
         d = np.diff(t)

@@ -34,6 +34,7 @@ Accounting rule (rows and values):
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import math
 import re
 from dataclasses import dataclass, field
@@ -138,6 +139,7 @@ def _tokens(name: str):
     return [(m.group(0), m.start(), m.end()) for m in _TOKEN_RE.finditer(name)]
 
 
+@functools.lru_cache(maxsize=4096)
 def recognise_name(name: str) -> NameInfo:
     """Parse a signal column name such as ``RSL H (dBm)``, ``RxLevel_V``, ``RSL_min_15min`` or ``XPD [dB]``."""
     text = re.sub(r"[^0-9A-Za-z]", " ", str(name))  # same length: spans stay valid
@@ -200,6 +202,7 @@ def _words(name: str) -> list[str]:
     return [t[0].lower() for t in _tokens(re.sub(r"[^0-9A-Za-z]", " ", str(name)))]
 
 
+@functools.lru_cache(maxsize=4096)
 def name_role(name: str) -> str | None:
     """'time', 'link', 'channel', 'qname' or 'value' when the name alone says so (signal names excluded)."""
     w = _words(name)
@@ -292,6 +295,27 @@ def _median_step(values: list[str], fmt: str) -> float:
     return float(np.median(d)) if d.size else math.inf
 
 
+def _candidates(v: str) -> list[str]:
+    """Date-and-time formats worth trying on strings shaped like ``v`` (keeps strptime's format cache warm)."""
+    letters = bool(re.search(r"[A-Za-z]{3}", re.sub(r"\s*[AaPp][Mm]$", "", v).replace("T", " ")))
+    ampm = bool(re.search(r"[AaPp][Mm]$", v))
+    colons = v.count(":")
+    out = []
+    for d in _DATES:
+        if ("%b" in d) != letters:
+            continue
+        for sep in _SEPS:
+            if (sep == "T") != ("T" in v and not letters):
+                continue
+            for t in _TIMES:
+                if ("%p" in t) != ampm:
+                    continue
+                if t.count(":") != colons:
+                    continue
+                out.append(d + sep + t)
+    return out
+
+
 def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | None] | None:
     """Format of date-and-time strings: ("iso", None, guess) or ("format", fmt, guess), or None."""
     vals = _sample_strings(values)
@@ -300,7 +324,7 @@ def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | No
     if sum(1 for v in vals if _ISO_RE.match(v)) >= 0.8 * len(vals):
         return ("iso", None, None)
     probe = vals[:60]
-    cands = [d + s + t for d in _DATES for s in _SEPS for t in _TIMES]
+    cands = _candidates(vals[0])
     ok = _try_formats(probe[:5], cands)
     ok = _try_formats(probe, ok)
     if not ok:
@@ -383,12 +407,15 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
                                            " ")
     else:
         text = pc.utf8_trim_whitespace(cols[0])
+    if spec.kind == "iso":
+        if pc.any(pc.match_substring(text, ",")).as_py():
+            text = pc.replace_substring(text, ",", ".")
+        if spec.has_offset and pc.any(pc.match_substring(text, "UTC")).as_py():
+            text = pc.replace_substring_regex(text, r"\s*UTC$", "Z")
     ser = pd.Series(pd.array(text, dtype="str"), copy=False)
     if spec.kind == "iso":
-        ser = ser.str.replace(",", ".", regex=False) if pc.any(pc.match_substring(text, ",")).as_py() else ser
         if spec.has_offset:
-            t = pd.to_datetime(ser.str.replace(r"\s*UTC$", "Z", regex=True), format="ISO8601", utc=True,
-                               errors="coerce")
+            t = pd.to_datetime(ser, format="ISO8601", utc=True, errors="coerce")
             # rows without offset in an offset column: read as UTC by to_datetime(utc=True)
             return _finish_utc(t, n)
         t = pd.to_datetime(ser, format="ISO8601", errors="coerce")
