@@ -23,8 +23,8 @@ Effects (``Effect.kind``) and their physics:
                  rain; XPD degraded by the equiprobable rain relation XPD = U - V(f) log CPA (ITU-R P.530 §4).
                  ``profile = "constant"`` gives a constant rain rate (the P.838 check).
 ``multipath``    clear-air multipath: a Rician envelope, LOS part plus a Gaussian-spectrum complex scatter
-                 component whose rms spectral width is ``fade_rate_hz`` (so the Rayleigh level-crossing rate is
-                 sqrt(2 pi) f_m rho exp(-rho^2)); the K-factor falls from ``k_max`` to ``k_min`` (0 = Rayleigh)
+                 component with a Gaussian Doppler spectrum (rms width ``fade_rate_hz``/sqrt 2, so the Rayleigh crossing rate is
+                 sqrt(2 pi) f_m rho exp(-rho^2) with f_m = ``fade_rate_hz``); the K-factor falls from ``k_max`` to ``k_min`` (0 = Rayleigh)
                  in the middle of the activity window; upfades occur naturally; the scatter parts of different
                  channels are correlated by ``correlation`` (complex coefficient); XPD dips when the co-polar
                  signal fades (the leak fades independently).  ``repeat_days`` repeats the window nightly.
@@ -45,6 +45,7 @@ from __future__ import annotations
 import dataclasses
 import logging
 import math
+import warnings
 import zlib
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
@@ -55,7 +56,7 @@ import pandas as pd
 from diag import schema
 from diag.errors import InputError
 from diag.links import OPTIONAL, Link, make_link
-from diag.models import p838, xpol
+from diag.models import p530, p838, xpol
 
 log = logging.getLogger(__name__)
 
@@ -73,9 +74,6 @@ TRUTH_EVENT_COLUMNS = ["link_id", "channel", "start_utc", "end_utc", "cause", "k
                        "peak_rain_mmh", "k_min", "fade_rate_hz", "step_db", "tilt_deg", "db_per_week",
                        "shift_utc", "params"]
 
-# Rain XPD, ITU-R P.530 §4.1 equiprobable relation XPD = U - V(f) log10(CPA), U = U0 + 30 log10 f: U0 = 15 dB is
-# the value itur uses as its default (see /shared REFERENCES §3.3; "from memory" for the Rec's own wording).
-_RAIN_XPD_U0_DB = 15.0
 
 
 @dataclass(frozen=True)
@@ -290,17 +288,13 @@ def _wet_antenna_db(rate_mmh: np.ndarray, dt: float, wet_max_db: float, wetting_
 
 
 def _rain_xpd_db(copolar_attenuation_db: np.ndarray, frequency_ghz: float) -> np.ndarray:
-    """XPD in rain [dB] for a co-polar attenuation (ITU-R P.530 §4.1 equiprobable relation)."""
-    try:  # the MODELS implementation when present
-        from diag.models.p530 import rain_xpd_db  # type: ignore
-        with np.errstate(divide="ignore"):
-            return np.asarray(rain_xpd_db(copolar_attenuation_db, frequency_ghz), dtype=float)
-    except ImportError:
-        f = frequency_ghz
-        u = _RAIN_XPD_U0_DB + 30.0 * math.log10(f)                      # U = U0 + 30 log f
-        v = 12.8 * f ** 0.19 if f <= 20.0 else 22.6                       # V(f)
-        with np.errstate(divide="ignore"):
-            return u - v * np.log10(np.maximum(copolar_attenuation_db, 0.0))  # XPD = U - V log CPA
+    """XPD in rain [dB] for a co-polar attenuation (ITU-R P.530-17 §4.2 equiprobable relation, via
+    :func:`diag.models.p530.xpd_rain_db`); +inf where there is no rain (no rain leak).  Outside 8-35 GHz the
+    relation is extrapolated (the model's warning is silenced here: the simulator accepts it on purpose)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        xpd = np.asarray(p530.xpd_rain_db(copolar_attenuation_db, frequency_ghz), dtype=float)
+    return np.where(copolar_attenuation_db > 0.0, xpd, np.inf)
 
 
 # ----------------------------------------------------------------------------------------------------------------
@@ -506,7 +500,9 @@ def _multipath(rng, effect: Effect, dt: float, i0: int, i1: int, nch: int, out: 
     edge = max((1.0 - plateau) / 2.0, 1e-9)
     activity = np.sin(0.5 * np.pi * np.clip(np.minimum(s, 1.0 - s) / edge, 0.0, 1.0)) ** 2   # 0 -> 1 -> 0
     k = k_max + (k_min - k_max) * activity
-    bandwidth = rate_hz * dt                                # rms spectral width in cycles per sample
+    # fade_rate_hz is f_m of the Rayleigh crossing-rate formula N_R = sqrt(2 pi) f_m rho exp(-rho^2) (Rappaport
+    # 2nd ed. §5.7.1, from memory); for a Gaussian spectrum that formula holds with f_m = sqrt(2) x rms width
+    bandwidth = rate_hz / math.sqrt(2.0) * dt               # rms spectral width in cycles per sample
     if bandwidth > 0.35:
         log.warning("multipath fade rate %.3g Hz is near the sampling rate; fades are aliased", rate_hz)
     # scatter parts: a common part (correlation rho) plus independent parts per channel, and one leak per channel
