@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import logging
+import os
 import sys
 import warnings
 
@@ -55,6 +56,12 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as exc:
         print(f"diag: error: {exc.one_line()}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # output piped into `head` and closed: not an error of ours
+        try:
+            sys.stdout = open(os.devnull, "w")
+        except OSError:
+            pass
+        return 0
     except KeyboardInterrupt:
         print("diag: interrupted", file=sys.stderr)
         return 130
