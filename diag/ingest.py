@@ -94,7 +94,8 @@ class IngestReport:
     channels: list[str] = field(default_factory=list)
     quantities: list[str] = field(default_factory=list)
     kind: str | None = None                               # "sample", "stats" or "mixed"
-    interval_s: float | None = None                       # typical row step
+    interval_s: float | None = None                       # typical row step (shortest over the links)
+    link_intervals_s: dict[str, float] = field(default_factory=dict)
     start_utc: str | None = None
     end_utc: str | None = None
     rows_read: int = 0
@@ -468,7 +469,12 @@ def _plan(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str | None
                 dates.append(n)
             elif N.detect_clock_format(vals):
                 clocks.append(n)
-        if full:
+        if tsec.get("format") and timeish:
+            # a format given without naming the column: the first time-named column(s)
+            cols = tuple(timeish[:2]) if len(timeish) > 1 and dates and clocks else (timeish[0],)
+            spec = _time_spec([_sample(batch, c) for c in cols], cols, tsec.get("format"), zone, label,
+                              header_line)
+        elif full:
             def pref(n: str) -> tuple:
                 w = set(N._words(n))
                 return (0 if w & {"utc", "gmt", "z"} else 1, 0 if w & {"start", "begin"} else 1,
@@ -494,6 +500,10 @@ def _plan(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str | None
                     spec = _time_spec([vals], (n,), None, zone, label, header_line)
                     guesses.append(f"time column guessed from its content: '{n}' (override with --time-col)")
                     break
+        if spec is None and timeish:
+            first = next(iter(_sample(batch, timeish[0], 1)), "")
+            raise InputError(f"cannot read the time column '{timeish[0]}' (first value '{first[:40]}'); give "
+                             f"--time-format", path=label, line=header_line + 1)
         if spec is None:
             raise InputError(f"no time column recognised in the header ({', '.join(names[:12])}); name it with "
                              f"--time-col (or [time] columns in a mapping file)", path=label, line=header_line)
@@ -985,7 +995,7 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
     ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
     report.start_utc, report.end_utc = _iso(ns.min()), _iso(ns.max())
     gaps = []
-    steps = []
+    steps, stepped = [], []
     links = table[S.LINK].to_numpy(dtype=object) if len(report.links) > 1 else None
     for lk in report.links:
         t = _sorted_unique(ns if links is None else ns[links == lk])
@@ -994,11 +1004,14 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
         d = np.diff(t)
         step = float(np.median(d))
         steps.append(step)
+        stepped.append(lk)
         big = np.flatnonzero(d > 1.5 * step)
         for i in big:
             start = int(t[i] + step)
             gaps.append((lk, start, int(t[i + 1]), (int(t[i + 1]) - start) / 1e9))
-    report.interval_s = float(np.median(steps)) / 1e9 if steps else None
+    # typical row step: the links' common step, or the shortest when they differ (see link_intervals_s)
+    report.link_intervals_s = {lk: st / 1e9 for lk, st in zip(stepped, steps)}
+    report.interval_s = float(min(steps)) / 1e9 if steps else None
     report.gap_count = len(gaps)
     report.gap_seconds = float(sum(g[3] for g in gaps))
     report.gaps = [{"link_id": g[0], "start_utc": _iso(g[1]), "end_utc": _iso(g[2]), "seconds": g[3]}
@@ -1048,7 +1061,7 @@ def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | N
         if not files:
             raise InputError("folder holds no log files", path=src.label)
         return read_logs(files, tz=tz, mapping=mapping, link_id=link_id)
-    head = src.data[:4] if src.data is not None else open(src.path, "rb").read(4)
+    head = src.data[:4] if src.data is not None else _head(_Source(src.label, src.stem, src.path, None), 4)
     if head == b"PAR1":
         if src.data is not None:
             tab = store._to_frame(__import__("pyarrow.parquet").parquet.read_table(pa.BufferReader(src.data)))

@@ -237,7 +237,18 @@ _TIMES = ["%H:%M:%S.%f", "%H:%M:%S", "%H:%M", "%I:%M:%S %p", "%I:%M %p", "%H%M%S
 _SEPS = [" ", "T", ", ", "-"]
 
 
-def _try_formats(values: list[str], formats: list[str], min_frac: float = 0.8) -> list[str]:
+def _count_parsed(values: list[str], fmt: str) -> int:
+    n = 0
+    for v in values:
+        try:
+            _dt.datetime.strptime(v, fmt)
+            n += 1
+        except ValueError:
+            pass
+    return n
+
+
+def _try_formats(values: list[str], formats: list[str], min_frac: float = 0.5) -> list[str]:
     """Formats that read at least ``min_frac`` of the values (a few damaged stamps do not hide the format)."""
     ok = []
     need = max(1, math.ceil(min_frac * len(values)))
@@ -321,7 +332,7 @@ def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | No
     vals = _sample_strings(values)
     if not vals:
         return None
-    if sum(1 for v in vals if _ISO_RE.match(v)) >= 0.8 * len(vals):
+    if sum(1 for v in vals if _ISO_RE.match(v)) >= 0.5 * len(vals):
         return ("iso", None, None)
     probe = vals[:60]
     cands = _candidates(vals[0])
@@ -331,8 +342,10 @@ def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | No
         return None
     if len(ok) == 1:
         return ("format", ok[0], None)
-    # several readings: confirm against the full sample, then prefer the one giving the smallest time step
+    # several readings: keep those reading the most of the sample, then prefer the smallest time step
     ok = _try_formats(vals, ok) or ok
+    counts = {f: _count_parsed(vals, f) for f in ok}
+    ok = [f for f in ok if counts[f] == max(counts.values())]
     if len(ok) == 1:
         return ("format", ok[0], None)
     steps = {fmt: _median_step(vals, fmt) for fmt in ok}
