@@ -188,19 +188,23 @@ def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, 
 
 
 def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
-    """A file holding one hop whose id is not in the links table (e.g. the reader's default id) takes the hop the
-    file belongs to (``match_link``: a link id in the file name, else the table's only row).  Anything else keeps
-    its id; a hop with no row in the links table fails later with that message."""
-    known = {link.link_id for link in links}
+    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
+    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
+    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
     ids = [str(x) for x in pd.unique(table[schema.LINK])]
-    if len(ids) != 1 or ids[0] in known:  # a file naming several hops keeps its ids
-        return table
-    try:
-        hop = match_link(links, None, file_name=file_name).link_id
-    except InputError:
+    renames: dict[str, str] = {}
+    for link_id in ids:
+        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
+        try:
+            hop = match_link(links, carried, file_name=file_name).link_id
+        except InputError:
+            continue
+        if hop != link_id:
+            renames[link_id] = hop
+    if not renames:
         return table
     table = table.copy()
-    table[schema.LINK] = hop
+    table[schema.LINK] = table[schema.LINK].map(lambda v: renames.get(v, v)).astype("str")
     return table
 
 
@@ -229,6 +233,8 @@ def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | Non
     name = Path(path).name
     try:
         table, report = (reader or _default_reader)(path, tz=tz, mapping=mapping)
+        if table.empty:
+            raise InputError("no usable rows in the log", path=name)
         table = _assign_hops(table, links, name)
         tables = {str(k): _sorted(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
         return _FilePiece(name=name, tables=tables, report=report)
@@ -279,11 +285,10 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
             from diag.store import read_store
 
             table = _sorted(read_store(store_path, link_id=link_id))
-            ingest = {"files": {Path(store_path).name: {"file": store_path, "layout": "store"}},
-                      "overlap_values_dropped": 0}
+            ingest = {"files": [{"file": store_path, "layout": "store"}], "overlap_values_dropped": 0}
         else:
             table, dropped = hop_table(p.tables.get(link_id) for p in pieces)
-            ingest = {"files": {p.name: p.report for p in pieces}, "overlap_values_dropped": dropped}
+            ingest = {"files": [p.report for p in pieces], "overlap_values_dropped": dropped}
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:

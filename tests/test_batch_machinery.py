@@ -7,6 +7,7 @@ and progress reports.  (The real pipeline is exercised in tests/test_batch.py.)
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -26,7 +27,7 @@ def standin_reader(path, *, tz=None, mapping=None):
         raise InputError("unreadable export", path=str(path), line=3)
     table = pd.read_csv(path, dtype={schema.LINK: "str", schema.CHANNEL: "str"})
     table[schema.TIME] = pd.to_datetime(table[schema.TIME], utc=True)
-    return table, {"rows_read": len(table)}
+    return table, {"file": Path(path).name, "rows_read": len(table)}
 
 
 def standin_analyze(table, link, *, config=None, ingest=None):
@@ -121,7 +122,7 @@ def test_cluster_results_equal_serial_and_failures_stay_with_their_hop(network, 
         pd.testing.assert_frame_equal(got.events.reset_index(drop=True), serial.events.reset_index(drop=True))
         assert got.series == {}                      # slim results: the per-sample series stay on the worker
         assert got.ingest["overlap_values_dropped"] == 0
-        assert set(got.ingest["files"]) == {f"{link.link_id}_a.csv", f"{link.link_id}_b.csv"}
+        assert [f["file"] for f in got.ingest["files"]] == [f"{link.link_id}_a.csv", f"{link.link_id}_b.csv"]
         assert (root / "out" / "hops" / link.link_id / "outage_summary.csv").exists()
     assert "Kestrel-03_c.csv" in by_id["Kestrel-03"].error and "unreadable export" in by_id["Kestrel-03"].error
     assert "failed on purpose" in by_id["Kestrel-04"].error
