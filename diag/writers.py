@@ -272,7 +272,9 @@ def _ramp(sizes: np.ndarray) -> np.ndarray:
 def write_stats(table: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, *,
                 floors_dbm: Mapping[str, float] | None = None) -> WriteInfo:
     """Interval statistics of one or several hops: one row per interval start, hop and channel, with
-    ``<quantity> min/avg/max (<unit>)`` columns.  ``floors_dbm`` (by link id) is written for signal_lost cells."""
+    ``<quantity> min/avg/max (<unit>)`` columns.  ``floors_dbm`` (by link id) is written for signal_lost cells.
+    Hops that log different quantities leave blank cells for each other (read back as "missing"): give such hops
+    files of their own."""
     table = table if isinstance(table, pd.DataFrame) else pd.concat(list(table), ignore_index=True)
     _check(table, samples=False)
     wide, columns = _pivot(table, [schema.TIME, schema.LINK, schema.CHANNEL], [schema.QUANTITY, schema.STAT])
@@ -406,7 +408,7 @@ def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[s
     """Everything for a simulated scenario under ``out_dir``: ``links.csv``, ``logs/`` and ``truth/``.
 
     Without ``shapes`` each hop is written in its own ``log_shape`` (scenario file; default ``wide_iso``) straight
-    into ``logs/`` (statistics hops together in one ``<name>_<N>min.csv``, long-shape hops in ``<name>_long.csv``);
+    into ``logs/`` (statistics as ``<link>_<N>min.csv``, long-shape hops together in ``<name>_long.csv``);
     with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when there are several."""
     from diag.simulate import aggregate_statistics
 
@@ -428,11 +430,12 @@ def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[s
     for shape, ids in plan.items():
         folder = out_dir / "logs" / shape if shape_list is not None and len(shape_list) > 1 else out_dir / "logs"
         if shape == "stats":
-            stats = [aggregate_statistics(results[i].table, interval_s=interval,
-                                          floor_dbm=results[i].spec.floor_value_dbm) for i in ids]
-            info = write_stats(stats, folder / f"{scenario.name}_{tag}.csv",
-                               floors_dbm={i: results[i].spec.floor_value_dbm for i in ids})
-            written.append(info.path)
+            for i in ids:
+                stats = aggregate_statistics(results[i].table, interval_s=interval,
+                                             floor_dbm=results[i].spec.floor_value_dbm)
+                info = write_stats(stats, folder / f"{i}_{tag}.csv",
+                                   floors_dbm={i: results[i].spec.floor_value_dbm})
+                written.append(info.path)
         elif shape == "long":
             info = write_long([results[i].table for i in ids], folder / f"{scenario.name}_long.csv",
                               defects={i: results[i].file_defects for i in ids},
