@@ -14,7 +14,7 @@ Entry point :func:`cross_polar` (fills ``LinkResult.cross_polar``).
   antennas' intrinsic XPD is ``antenna_xpd_db`` (default 35 dB, a typical figure for dual-polarised
   point-to-point antennas: common practice, from memory), raised to the best clear-sky XPD seen in the record when
   that is higher (the antennas cannot be worse than what was measured).  The tilt for a perfect antenna (an upper
-  bound) and the range for 30-40 dB antennas are reported too.  Coherent leaks can add or cancel; the power sum is
+  bound) and the tilts for 30 and 40 dB antennas are reported too.  Coherent leaks can add or cancel; the power sum is
   an approximation.
 - *Co-polar loss of the tilt*: -20 log10 cos(tilt) (diag.models.xpol.copolar_loss_db).
 - *Rain*: XPD against co-polar attenuation (CPA) over samples classified rain with CPA >= ``min_cpa_db``, after
@@ -151,7 +151,8 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
         skipped.append(f"{series.channel}: clear-sky XPD: fewer than 10 clear-sky samples with an XPD")
         return {"skipped": "too few clear-sky XPD samples"}
     steps = detect_steps(clear_xpd, series.interval_s, min_step_db=1.5)
-    bounds = [clear_xpd.index[0]] + [s.time_utc for s in steps] + [clear_xpd.index[-1] + pd.Timedelta(1, "ns")]
+    end = clear_xpd.index[-1] + pd.Timedelta(seconds=float(series.interval_s))
+    bounds = [clear_xpd.index[0]] + [s.time_utc for s in steps] + [end]
     segments = []
     for a, b in zip(bounds[:-1], bounds[1:]):
         part = clear_xpd[(clear_xpd.index >= a) & (clear_xpd.index < b)].dropna()
@@ -168,14 +169,15 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
         tilt = tilt_from_measured_xpd_deg(x, ant)
         seg["tilt_deg"] = _r(tilt)
         seg["tilt_deg_perfect_antenna"] = _r(xpol.tilt_from_xpd_deg(x))
-        seg["tilt_deg_range"] = [_r(tilt_from_measured_xpd_deg(x, max(a, best))) for a in
-                                 sorted(ANTENNA_XPD_RANGE_DB, reverse=True)]
+        seg["tilt_deg_by_antenna_xpd_db"] = {f"{a:g}": _r(tilt_from_measured_xpd_deg(x, max(a, best)))
+                                             for a in ANTENNA_XPD_RANGE_DB}
         seg["copolar_loss_db"] = _r(xpol.copolar_loss_db(tilt))
         seg["clear_xpd_db"] = _r(x)
     current = segments[-1]
     out = {"clear_xpd_db": current["clear_xpd_db"], "tilt_deg": current["tilt_deg"],
            "tilt_deg_perfect_antenna": current["tilt_deg_perfect_antenna"],
-           "tilt_deg_range": current["tilt_deg_range"], "copolar_loss_db": current["copolar_loss_db"],
+           "tilt_deg_by_antenna_xpd_db": current["tilt_deg_by_antenna_xpd_db"],
+           "copolar_loss_db": current["copolar_loss_db"],
            "segments": segments, "xpd_steps": [s.to_dict() for s in steps],
            "antenna_xpd_db_used": _r(ant),
            "assumption": (f"antennas' own XPD {ant:.1f} dB ("

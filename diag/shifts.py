@@ -31,7 +31,6 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import stats as sps
 
 log = logging.getLogger(__name__)
 
@@ -271,11 +270,13 @@ def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = 2 * 86400.0,
     span_s = (series.index[-1] - series.index[0]).total_seconds()
     if span_s < min_span_s:
         return {"slope_db_per_week": None, "span_days": round(span_s / 86400.0, 3),
-                "skipped": f"record spans {span_s / 86400.0:.1f} d, under {min_span_s / 86400.0:.0f} d"}
+                "skipped": f"record spans {span_s / 86400.0:.2f} d, under {min_span_s / 86400.0:.2f} d"}
     hourly = series.groupby(series.index.floor("h")).agg(
         lambda v: clear_level_dbm(v.to_numpy(), fade_trim_db=fade_trim_db)).dropna()
     if len(hourly) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
+    from scipy import stats as sps   # imported here: scipy.stats is slow to import and only the trend needs it
+
     t_week = (hourly.index - hourly.index[0]).total_seconds().to_numpy() / WEEK_S
     slope, intercept, low, high = sps.theilslopes(hourly.to_numpy(), t_week, alpha=0.95)
     return {"slope_db_per_week": round(float(slope), 4), "low_db_per_week": round(float(low), 4),

@@ -41,6 +41,7 @@ log = logging.getLogger(__name__)
 DEFAULT_DEPTHS_DB = (3.0, 5.0, 10.0, 15.0, 20.0, 25.0, 30.0, 35.0, 40.0)
 LCR_LEVELS_DB = (-5.0, -10.0, -15.0, -20.0, -25.0, -30.0)
 RAIN_PERCENTAGES = (1.0, 0.1, 0.01, 0.001)
+MLE_MAX_SAMPLES = 5000   # the likelihood fit uses at most this many evenly spaced samples (speed)
 FADED_DB = 3.0   # a sample counts as faded above this attenuation (the same 3 dB used for truth labels)
 
 
@@ -71,10 +72,23 @@ class _Arrays:
                else np.full(n, np.nan))
         self.observed = (self.ok & np.isfinite(att)) | self.lost
         self.att = np.where(self.lost, np.inf, att)          # at the floor: deeper than any depth
-        self.cause = (frame["cause"].to_numpy(dtype=object) if "cause" in frame
-                      else np.full(n, "", dtype=object))
+        if "cause" in frame:
+            codes, names = pd.factorize(frame["cause"], use_na_sentinel=False)
+        else:
+            codes, names = np.zeros(n, dtype=np.int64), pd.Index([""])
+        self.cause_codes = np.asarray(codes)
+        self.cause_names = [str(x) if isinstance(x, str) else "" for x in names]
+        self.cause = np.asarray(self.cause_names, dtype=object)[self.cause_codes] if n else np.array([], object)
+        self.is_mp = self.is_cause(S.MULTIPATH)
+        self.is_rain = self.is_cause(S.RAIN)
+        self.is_none = self.is_cause("")
         self.level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
         self.hours = frame.index.hour.to_numpy() if isinstance(frame.index, pd.DatetimeIndex) else np.zeros(n, int)
+
+    def is_cause(self, cause: str) -> np.ndarray:
+        if cause not in self.cause_names:
+            return np.zeros(len(self.cause_codes), dtype=bool)
+        return self.cause_codes == self.cause_names.index(cause)
 
 
 # ------------------------------------------------------------------------------------------------- exceedance
@@ -145,8 +159,7 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
     if n_obs == 0:
         skipped.append(f"{series.channel}: exceedance: no observed samples")
         return out
-    is_mp = cause == S.MULTIPATH
-    is_rain = cause == S.RAIN
+    is_mp, is_rain = arrays.is_mp, arrays.is_rain
     out["all_percent"] = _round(exceedance_percent(att, observed, depths_db))
     out["multipath_percent"] = _round(exceedance_percent(att, observed, depths_db, select=is_mp))
     out["rain_percent"] = _round(exceedance_percent(att, observed, depths_db, select=is_rain))
@@ -175,7 +188,7 @@ def multipath_periods(arrays: _Arrays, interval_s: float, *, merge_s: float = 60
     """Index spans [a, b) of multipath activity: samples classified multipath, joined across quiet stretches
     shorter than ``merge_s`` and padded by ``pad_s`` (a multipath event only marks the faded part; the envelope
     statistics need the whole fading period around it).  Samples of other causes are masked later."""
-    idx = np.flatnonzero(arrays.cause == S.MULTIPATH)
+    idx = np.flatnonzero(arrays.is_mp)
     if idx.size == 0:
         return []
     gap = max(1, int(round(merge_s / interval_s)))
@@ -201,8 +214,13 @@ def _period_mask(arrays: _Arrays, periods) -> np.ndarray:
     mask = np.zeros(len(arrays.cause), dtype=bool)
     for a, b in periods:
         mask[a:b] = True
-    other = (arrays.cause != "") & (arrays.cause != S.MULTIPATH)
+    other = ~arrays.is_none & ~arrays.is_mp
     return mask & ~other
+
+
+def _thin(n: int, most: int) -> np.ndarray:
+    """Evenly spaced indices, at most ``most`` of ``n`` (neighbouring fading samples are correlated anyway)."""
+    return np.arange(n) if n <= most else np.linspace(0, n - 1, most).astype(int)
 
 
 def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, arrays=None) -> dict:
@@ -216,22 +234,22 @@ def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, ar
     rel = _relative_db(arrays, series.interval_s, local_mean_s)
     mask = _period_mask(arrays, periods)
     per_period = []
-    for a, b in periods[:20]:
+    for a, b in (periods[:20] if len(periods) > 1 else []):
         part = rel[a:b][mask[a:b] & np.isfinite(rel[a:b])]
         if part.size >= min_samples:
             env = fading.envelope_from_level_db(part)
             per_period.append({"start_utc": series.frame.index[a].isoformat(),
                                "end_utc": series.frame.index[b - 1].isoformat(), "samples": int(part.size),
-                               "k_moments": _round(fading.rice_k_moments(env)),
-                               "k_mle": _round(fading.fit_rice(env, method="mle").k_factor)})
+                               "k_moments": _round(fading.rice_k_moments(env))})
     use = mask & np.isfinite(rel)
     lost = int(np.count_nonzero(mask & arrays.lost))
     if use.sum() < min_samples:
         return {"skipped": f"fewer than {min_samples} multipath samples with a level"}
     env = fading.envelope_from_level_db(rel[use])
     k_mom = fading.rice_k_moments(env)
-    fit = fading.fit_rice(env, method="mle")
+    fit = fading.fit_rice(env[_thin(env.size, MLE_MAX_SAMPLES)], method="mle")
     out = {"samples": int(use.sum()), "periods": len(periods), "k_moments": _round(k_mom),
+           "mle_samples": int(min(env.size, MLE_MAX_SAMPLES)),
            "k_moments_db": _round(10 * math.log10(k_mom)) if 0 < k_mom < math.inf else None,
            "k_mle": _round(fit.k_factor), "k_mle_db": _round(fit.k_factor_db) if fit.k_factor > 0 else None,
            "per_period": per_period, "local_mean_s": local_mean_s,
@@ -298,7 +316,7 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
 def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     arrays = arrays or _Arrays(series)
     att, observed, cause = arrays.att, arrays.observed, arrays.cause
-    is_rain = (cause == S.RAIN) & observed
+    is_rain = arrays.is_rain & observed
     n_obs = int(observed.sum())
     out: dict = {"rain_samples": int(is_rain.sum()), "rain_s": _round(is_rain.sum() * series.interval_s, 8)}
     if is_rain.any():
@@ -359,14 +377,16 @@ def hourly_block(series, events: pd.DataFrame | None, arrays=None) -> dict:
     arrays = arrays or _Arrays(series)
     att, observed, hours = arrays.att, arrays.observed, arrays.hours
     faded = observed & (att > FADED_DB)
-    cause = np.where(arrays.cause == "", S.UNKNOWN, arrays.cause)
     out: dict = {"hour_utc": list(range(24)), "faded_s_by_cause": {}, "observed_s": []}
     obs_by_hour = np.bincount(hours[observed], minlength=24) * series.interval_s
     out["observed_s"] = _round(obs_by_hour, 8)
-    for c in S.CAUSES:
-        sel = faded & (cause == c)
-        if sel.any():
-            out["faded_s_by_cause"][c] = _round(np.bincount(hours[sel], minlength=24) * series.interval_s, 8)
+    k = len(arrays.cause_names)
+    table = np.bincount(arrays.cause_codes[faded] * 24 + hours[faded], minlength=24 * k).reshape(k, 24)
+    for code, name in enumerate(arrays.cause_names):
+        if table[code].any():
+            key = name or S.UNKNOWN            # faded but in no event: unknown
+            prev = np.asarray(out["faded_s_by_cause"].get(key, np.zeros(24)), dtype=float)
+            out["faded_s_by_cause"][key] = _round(prev + table[code] * series.interval_s, 8)
     if events is not None and len(events) and "channel" in events and "start_utc" in events:
         mine = events[events["channel"].astype(str) == series.channel]
         if len(mine):
