@@ -22,7 +22,9 @@ class _Parser(argparse.ArgumentParser):
     """argparse that reports bad arguments on one line with status 2 (argparse's own default status is 2 too)."""
 
     def error(self, message: str):  # pragma: no cover - exercised through main()
-        self.exit(2, f"diag: error: {message} (see 'python -m diag {self.prog.split()[-1]} --help')\n")
+        words = self.prog.split()
+        where = f"python -m diag {words[-1]} --help" if len(words) > 1 else "python -m diag --help"
+        self.exit(2, f"diag: error: {' '.join(message.split())} (see '{where}')\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -42,7 +44,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:  # --help (0) or bad arguments (2, message already printed)
+        return int(exc.code or 0)
     logging.basicConfig(level=logging.INFO if args.verbose else logging.WARNING,
                         format="diag: %(message)s", stream=sys.stderr)
     if not getattr(args, "func", None):
