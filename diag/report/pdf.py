@@ -1,0 +1,680 @@
+"""The management report: a PDF of three pages made with matplotlib (no other PDF stack).
+
+Page 1  headline table per hop (availability against objective, outage minutes, main cause), outage minutes by
+        cause per hop, key findings, caution.
+Page 2  timeline of each hop: receive level, threshold, fades shaded by cause (colour + hatch), data gaps.
+Page 3  fade-depth distribution against Rayleigh and the design prediction, findings with recommended actions,
+        data gaps, method notes, the safety caution.
+
+Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of the run in the text.
+"""
+from __future__ import annotations
+
+import io
+import math
+import textwrap
+from typing import Callable, Iterable, Sequence
+
+import numpy as np
+import pandas as pd
+
+from diag import schema
+from diag.report import style
+from diag.results import LinkResult
+
+PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
+MAX_TABLE_ROWS = 14
+MAX_TIMELINES = 5
+SAFETY_TEXT = ("Safety: some actions mean work on towers and near radiating antennas. Follow the local codes for work "
+               "at height and fall protection, respect the RF exposure limits (switch the transmitter off or stay "
+               "outside the exclusion zone) and leave such work to trained, licensed staff.")
+
+_SHORT = {schema.RAIN: "Rain", schema.MULTIPATH: "Multipath", schema.REFRACTIVE: "Refractive",
+          schema.LEVEL_SHIFT: "Level shift", schema.SIGNAL_LOSS: "Signal loss", schema.UNKNOWN: "Unknown"}
+
+__all__ = ["build_figures", "pdf_bytes", "write_pdf", "format_availability", "format_minutes", "SAFETY_TEXT"]
+
+
+# ------------------------------------------------------------------------------------------------ formatting
+def _finite(x) -> bool:
+    try:
+        return x is not None and math.isfinite(float(x))
+    except (TypeError, ValueError):
+        return False
+
+
+def _pct(value: float) -> str:
+    decimals = 4 if value >= 99.9 else 3 if value >= 99.0 else 2
+    return f"{value:.{decimals}f}"
+
+
+def format_availability(summary: dict | None) -> str:
+    """Availability as printed in the report: "99.9876 %" (exact) or "99.10 – 99.95 %" (bounds), "n/a" if none."""
+    if not summary:
+        return "n/a"
+    if summary.get("exact") and _finite(summary.get("availability_pct")):
+        return f"{_pct(float(summary['availability_pct']))} %"
+    lo, hi = summary.get("availability_pct_lo"), summary.get("availability_pct_hi")
+    if _finite(lo) and _finite(hi):
+        if abs(float(hi) - float(lo)) < 1e-12:
+            return f"{_pct(float(lo))} %"
+        return f"{_pct(float(lo))} – {_pct(float(hi))} %"
+    return "n/a"
+
+
+def _minutes(seconds: float) -> str:
+    m = float(seconds) / 60.0
+    if m == 0:
+        return "0"
+    if m < 10:
+        return f"{m:.1f}"
+    return f"{m:.0f}"
+
+
+def format_minutes(summary: dict | None, key: str = "unavailable_s") -> str:
+    """Minutes for a summary figure: "12.5 min" or "2.0 – 15 min" (bounds)."""
+    if not summary:
+        return "n/a"
+    if summary.get("exact") and _finite(summary.get(key)):
+        return f"{_minutes(summary[key])} min"
+    lo, hi = summary.get(f"{key}_lo"), summary.get(f"{key}_hi")
+    if _finite(lo) and _finite(hi):
+        if lo == hi:
+            return f"{_minutes(lo)} min"
+        return f"{_minutes(lo)} – {_minutes(hi)} min"
+    return "n/a"
+
+
+def _duration(seconds: float) -> str:
+    seconds = float(seconds)
+    if seconds < 120:
+        return f"{seconds:.0f} s"
+    if seconds < 7200:
+        return f"{seconds / 60:.0f} min"
+    return f"{seconds / 3600:.1f} h"
+
+
+def _verdict(summary: dict | None) -> str:
+    if not summary:
+        return "—"
+    return {"yes": "met", "no": "NOT met", "undetermined": "undetermined"}.get(summary.get("meets_objective", ""),
+                                                                             "no objective")
+
+
+def _wrap(text: str, width: int) -> str:
+    return "\n".join(textwrap.wrap(" ".join(str(text).split()), width=width)) or ""
+
+
+def _period(results: Sequence[LinkResult]) -> str:
+    starts, ends = [], []
+    for r in results:
+        if r.outage is not None and r.outage.summary.get("period_start_utc"):
+            starts.append(r.outage.summary["period_start_utc"])
+            ends.append(r.outage.summary["period_end_utc"])
+    if not starts:
+        return "period unknown"
+    fmt = lambda s: s.replace("T", " ")[:16]  # noqa: E731
+    return f"{fmt(min(starts))} to {fmt(max(ends))} UTC"
+
+
+# ------------------------------------------------------------------------------------------------ page 1
+def _headline_rows(results: Sequence[LinkResult]) -> list[list[str]]:
+    rows = []
+    for r in results[:MAX_TABLE_ROWS]:
+        link = r.link
+        s = r.outage.summary if r.outage is not None else None
+        objective = f"{link.objective_pct:g} %" if link.objective_pct is not None else "none given"
+        if r.error or s is None:
+            rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", "not analysed",
+                         objective, "—", "—", "—", "—", "—"])
+            continue
+        obs, nod = s.get("observed_s", 0) or 0, s.get("no_data_s", 0) or 0
+        nodata = f"{_duration(nod)} ({100 * nod / (obs + nod):.1f} %)" if obs + nod > 0 else "—"
+        main = s.get("dominant_cause") or ""
+        rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", format_availability(s),
+                     objective, _verdict(s), format_minutes(s, "unavailable_s"),
+                     format_minutes(s, "below_threshold_s"), _SHORT.get(main, main) if main else "none",
+                     nodata])
+    return rows
+
+
+def _overview_sentence(results: Sequence[LinkResult]) -> str:
+    """One or two plain sentences: how many hops missed the objective, total outage and its main causes."""
+    judged = [r for r in results if r.outage is not None]
+    missed = [r for r in judged if r.outage.summary.get("meets_objective") == "no"]
+    unsure = [r for r in judged if r.outage.summary.get("meets_objective") == "undetermined"]
+    with_objective = [r for r in judged if r.outage.summary.get("meets_objective") in ("yes", "no", "undetermined")]
+    parts = []
+    if with_objective:
+        parts.append(f"{len(missed)} of {len(with_objective)} hop(s) missed their availability objective"
+                     + (f" and {len(unsure)} cannot be judged from the coarse data" if unsure else "") + ".")
+    totals = {c: [0.0, 0.0] for c in style.CAUSE_ORDER}
+    for r in judged:
+        bc = r.outage.by_cause
+        if bc is None or bc.empty:
+            continue
+        for _, row in bc.iterrows():
+            if row["cause"] in totals:
+                totals[row["cause"]][0] += float(row["unavailable_s_lo"])
+                totals[row["cause"]][1] += float(row["unavailable_s_hi"])
+    lo = sum(v[0] for v in totals.values())
+    hi = sum(v[1] for v in totals.values())
+    if hi <= 0:
+        parts.append("No hop had unavailable time in the period.")
+    else:
+        total = f"{_minutes(lo)} min" if lo == hi else f"between {_minutes(lo)} and {_minutes(hi)} min"
+        ranked = sorted(((v[1], c) for c, v in totals.items() if v[1] > 0), reverse=True)[:2]
+        causes = " and ".join(f"{style.cause_label(c).lower()} ({_minutes(v)} min"
+                              + ("" if totals[c][0] == totals[c][1] else " at most") + ")" for v, c in ranked)
+        parts.append(f"Total outage {total}, mostly {causes}.")
+    return " ".join(parts)
+
+
+def _page_summary(fig, results: Sequence[LinkResult]) -> None:
+    fig.text(0.06, 0.965, "Microwave hop outage report", fontsize=17, weight="bold", color=style.INK, va="top")
+    fig.text(0.06, 0.937, f"Period: {_period(results)}   ·   {len(results)} hop(s)", fontsize=9, color=style.INK,
+             va="top")
+    fig.text(0.06, 0.912, _wrap(_overview_sentence(results), 88), fontsize=10, color=style.INK, va="top",
+             weight="bold", linespacing=1.3)
+
+    rows = _headline_rows(results)
+    n_rows = max(len(rows), 1)
+    row_h = 0.024 if n_rows <= 8 else 0.019
+    table_h = row_h * (n_rows + 1.6)
+    top = 0.855
+    fig.text(0.06, top, "Headline per hop", fontsize=11, weight="bold", va="top")
+    ax = fig.add_axes([0.05, top - 0.02 - table_h, 0.90, table_h])
+    ax.axis("off")
+    header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Verdict",
+              "Outage\n(unavailable)", "Below\nthreshold", "Main cause", "No data"]
+    table = ax.table(cellText=rows or [["—"] * len(header)], colLabels=header, bbox=[0, 0, 1, 1],
+                     cellLoc="center", colLoc="center",
+                     colWidths=[0.13, 0.13, 0.16, 0.08, 0.09, 0.1, 0.1, 0.1, 0.11])
+    table.auto_set_font_size(False)
+    table.set_fontsize(7.3 if n_rows <= 8 else 6.3)
+    for (row, col), cell in table.get_celld().items():
+        cell.set_edgecolor(style.GRID)
+        if row == 0:
+            cell.set_text_props(weight="bold")
+            cell.set_facecolor("#EFEFEF")
+        elif col == 4:
+            text = cell.get_text().get_text()
+            if text == "NOT met":
+                cell.set_text_props(weight="bold", color=style.BAD_TEXT)
+            elif text == "met":
+                cell.set_text_props(color=style.OK_TEXT)
+    y = top - 0.03 - table_h
+    note = ("Availability is counted over the time with data (ITU-T G.826 ten-second rule). A range a – b is given "
+            "where the log is too coarse for an exact count (15-min statistics, sparse samples): the true value lies "
+            "between the two figures.")
+    if len(results) > MAX_TABLE_ROWS:
+        note = f"{len(results) - MAX_TABLE_ROWS} more hop(s) in outage_summary.csv. " + note
+    fig.text(0.06, y, _wrap(note, 135), fontsize=6.8, va="top", style="italic")
+
+    bar_top = y - 0.085
+    bar_h = min(0.26, max(0.12, 0.035 * len(rows) + 0.06))
+    _bar_by_cause(fig.add_axes([0.2, bar_top - bar_h, 0.74, bar_h]), results)
+    key_bottom = _key_points(fig, results, top=bar_top - bar_h - 0.06)
+    _outlook(fig, results, top=key_bottom - 0.03)
+    fig.text(0.06, 0.035, _wrap(SAFETY_TEXT, 140), fontsize=7, color=style.INK, va="bottom")
+
+
+def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
+    ax.set_title("Outage minutes (unavailable time) by cause", loc="left", fontsize=11, weight="bold")
+    shown = [r for r in results if r.outage is not None][:MAX_TABLE_ROWS]
+    names = [r.link.link_id for r in shown]
+    y = np.arange(len(shown))[::-1]
+    any_outage = False
+    bounds_note = False
+    used: list[str] = []
+    for yi, r in zip(y, shown):
+        bc = r.outage.by_cause.set_index("cause") if not r.outage.by_cause.empty else None
+        left = 0.0
+        exact = bool(r.outage.summary.get("exact"))
+        for cause in style.CAUSE_ORDER:
+            if bc is None or cause not in bc.index:
+                continue
+            value = bc.loc[cause, "unavailable_s" if exact else "unavailable_s_lo"]
+            value = float(value) / 60.0 if _finite(value) else 0.0
+            if value <= 0:
+                continue
+            any_outage = True
+            if cause not in used:
+                used.append(cause)
+            ax.barh(yi, value, left=left, height=0.6, color=style.cause_color(cause),
+                    hatch=style.cause_hatch(cause), edgecolor="white", linewidth=0.5,
+                    label=style.cause_label(cause) if used.count(cause) == 1 and cause == used[-1] else None)
+            left += value
+        if not exact:
+            lo = float(r.outage.summary.get("unavailable_s_lo", 0)) / 60.0
+            hi = float(r.outage.summary.get("unavailable_s_hi", 0)) / 60.0
+            if hi > lo:
+                any_outage = True
+                bounds_note = True
+                ax.plot([lo, hi], [yi, yi], color=style.INK, lw=1.2)
+                ax.plot([hi], [yi], marker="|", color=style.INK, markersize=10)
+                ax.text(hi, yi + 0.32, f" up to {hi:.0f} min", fontsize=6.5, va="bottom")
+        total = left
+        ax.text(total, yi, f" {total:.1f}" if exact else "", va="center", fontsize=7)
+    ax.set_yticks(y)
+    ax.set_yticklabels(names, fontsize=7.5)
+    ax.set_xlabel("minutes in the analysed period", fontsize=8)
+    ax.tick_params(axis="x", labelsize=7)
+    ax.grid(axis="x", color=style.GRID, lw=0.5)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    if not any_outage:
+        ax.text(0.5, 0.5, "No unavailable time on any hop in this period", ha="center", va="center",
+                transform=ax.transAxes, fontsize=10)
+        ax.set_xlim(0, 1)
+    if used:
+        ax.legend(fontsize=7, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=min(len(used), 3), frameon=False,
+                  borderaxespad=0.2)
+        ax.set_title("Outage minutes (unavailable time) by cause", loc="left", fontsize=11, weight="bold",
+                     pad=18 if len(used) <= 3 else 30)
+    if bounds_note:
+        ax.text(0, -0.35, "Bars: the part that is certain; line: how far the outage may reach (coarse logs).",
+                fontsize=6.5, transform=ax.transAxes, style="italic")
+
+
+def _top_findings(results: Sequence[LinkResult], limit: int) -> list[tuple[str, dict]]:
+    """Round-robin over hops in their ranked order, so every hop's first finding comes before any second one."""
+    out: list[tuple[str, dict]] = []
+    depth = 0
+    while len(out) < limit:
+        added = False
+        for r in results:
+            if depth < len(r.findings):
+                out.append((r.link.link_id, r.findings[depth]))
+                added = True
+                if len(out) >= limit:
+                    break
+        if not added:
+            break
+        depth += 1
+    return out
+
+
+def _first_action(finding: dict) -> str:
+    actions = finding.get("actions") or []
+    if isinstance(actions, str):
+        return actions
+    return str(actions[0]) if actions else ""
+
+
+def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
+    fig.text(0.06, top, "Key points", fontsize=11, weight="bold", va="top")
+    lines = []
+    for link_id, f in _top_findings(results, 5):
+        title = f.get("title", "")
+        action = _first_action(f)
+        lines.append(_wrap(f"• {link_id}: {title}" + (f" — Action: {action}" if action else ""), 125))
+    if not lines:
+        worst = sorted([r for r in results if r.outage is not None],
+                       key=lambda r: -(r.outage.summary.get("unavailable_s_hi") or 0))
+        for r in worst[:4]:
+            s = r.outage.summary
+            main = s.get("dominant_cause")
+            lines.append(_wrap(f"• {r.link.link_id}: outage {format_minutes(s)}"
+                               + (f", mostly {style.cause_label(main).lower()}" if main else "")
+                               + f"; availability {format_availability(s)}.", 125))
+    text = "\n".join(lines) if lines else "No findings."
+    fig.text(0.06, top - 0.025, text, fontsize=7.5, va="top", linespacing=1.35)
+    return top - 0.025 - 0.0135 * (text.count("\n") + 1)
+
+
+def _outlook(fig, results: Sequence[LinkResult], top: float) -> None:
+    """Yearly outlook per hop: a labelled extrapolation next to what the objective allows."""
+    rows = []
+    for r in results[:MAX_TABLE_ROWS]:
+        s = r.outage.summary if r.outage is not None else None
+        if not s or not s.get("observed_s"):
+            continue
+        lo = s.get("unavailable_min_per_year_linear_lo")
+        hi = s.get("unavailable_min_per_year_linear_hi")
+        wlo = s.get("unavailable_min_per_year_if_worst_month_lo")
+        whi = s.get("unavailable_min_per_year_if_worst_month_hi")
+
+        def rng(a, b):
+            if not (_finite(a) and _finite(b)):
+                return "n/a"
+            return f"{a:,.0f} min" if round(a) == round(b) else f"{a:,.0f} – {b:,.0f} min"
+
+        allowed = s.get("objective_min_per_year")
+        rows.append([r.link.link_id, format_minutes(s), f"{s['observed_s'] / 86400:.1f} d", rng(lo, hi),
+                     rng(wlo, whi), f"{allowed:,.1f} min" if _finite(allowed) else "no objective"])
+    if not rows or top < 0.2:
+        return
+    fig.text(0.06, top, "Outlook for a year (extrapolation only)", fontsize=11, weight="bold", va="top")
+    height = 0.022 * (len(rows) + 1.8)
+    ax = fig.add_axes([0.05, top - 0.02 - height, 0.90, height])
+    ax.axis("off")
+    header = ["Hop", "Outage in\nperiod", "Observed", "Per year if every week\nwere like this one",
+              "Per year if this was\nthe worst month (P.841)", "Allowed per year\nby the objective"]
+    table = ax.table(cellText=rows, colLabels=header, bbox=[0, 0, 1, 1], cellLoc="center",
+                     colWidths=[0.14, 0.12, 0.1, 0.22, 0.22, 0.2])
+    table.auto_set_font_size(False)
+    table.set_fontsize(7)
+    for (row, col), cell in table.get_celld().items():
+        cell.set_edgecolor(style.GRID)
+        if row == 0:
+            cell.set_text_props(weight="bold")
+            cell.set_facecolor("#EFEFEF")
+    fig.text(0.06, top - 0.03 - height, _wrap(
+        "A week is not a year: rain and multipath are seasonal, so these yearly figures are rough extrapolations, "
+        "not predictions. The worst-month conversion uses ITU-R P.841 global parameters (not yet checked against "
+        "the Recommendation). Only a year or more of data supports an annual figure.", 135),
+        fontsize=6.8, va="top", style="italic")
+
+
+# ------------------------------------------------------------------------------------------------ page 2
+def _envelope(index: pd.DatetimeIndex, values: np.ndarray, bins: int = 1200):
+    """Min/max envelope for plotting a long series (NaN kept as breaks)."""
+    n = len(values)
+    if n <= 2 * bins:
+        return index, values, values
+    edges = np.linspace(0, n, bins + 1).astype(int)
+    lo, hi, t = [], [], []
+    for a, b in zip(edges[:-1], edges[1:]):
+        chunk = values[a:b]
+        finite = chunk[np.isfinite(chunk)]
+        t.append(index[a])
+        lo.append(finite.min() if finite.size else np.nan)
+        hi.append(finite.max() if finite.size else np.nan)
+    return pd.DatetimeIndex(t), np.array(lo), np.array(hi)
+
+
+def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
+    m = np.concatenate(([0], mask.astype(np.int8), [0]))
+    d = np.diff(m)
+    return list(zip(np.flatnonzero(d == 1), np.flatnonzero(d == -1)))
+
+
+def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
+    link = r.link
+    threshold = link.threshold_dbm
+    lows = []
+    for i, (channel, s) in enumerate(sorted(r.series.items())):
+        frame = s.frame
+        if "rsl_dbm" not in frame or frame.empty:
+            continue
+        color = style.LEVEL_LINES[min(i, len(style.LEVEL_LINES) - 1)]
+        level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        if "status" in frame:
+            level = np.where(frame["status"].to_numpy(dtype=object) == schema.SIGNAL_LOST, threshold - 8.0, level)
+        if s.kind == "stats" and "rsl_min_dbm" in frame:
+            mn = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
+            mx = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_max_dbm" in frame else level
+            ax.fill_between(frame.index, mn, mx, color=color, alpha=0.15, lw=0, step="post")
+            ax.step(frame.index, level, where="post", color=color, lw=0.7, label=f"{channel} level")
+            lows.append(np.nanmin(mn) if np.isfinite(mn).any() else np.nan)
+        else:
+            t, lo, hi = _envelope(frame.index, level)
+            ax.fill_between(t, lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
+                            label=f"{channel} level")
+            lows.append(np.nanmin(lo) if np.isfinite(lo).any() else np.nan)
+        status = frame["status"].to_numpy(dtype=object) if "status" in frame else None
+        if status is not None and i == 0:
+            gap = (status == "no_data") | (status == schema.MISSING)
+            for a, b in _runs(gap):
+                if b - a < 2:
+                    continue
+                end = frame.index[b - 1] + pd.Timedelta(seconds=float(s.interval_s))
+                ax.axvspan(frame.index[a], end, facecolor="white", edgecolor="#777777", hatch="..", lw=0.0,
+                           zorder=0.5)
+                legend_causes.add(schema.NO_DATA)
+    ev = r.events if isinstance(r.events, pd.DataFrame) else pd.DataFrame()
+    if not ev.empty and {"start_utc", "end_utc", "cause"} <= set(ev.columns):
+        ev = ev.assign(_dur=pd.to_datetime(ev["end_utc"], utc=True) - pd.to_datetime(ev["start_utc"], utc=True))
+        ev = ev.sort_values("_dur", ascending=False, kind="stable")      # long ones first, short on top
+        for _, e in ev.iterrows():
+            cause = str(e["cause"]) if str(e["cause"]) in style.CAUSE_COLORS else schema.UNKNOWN
+            # a level shift lasts hours or days: a strip along the bottom, so the fades inside it stay readable
+            span = (0.0, 0.07) if cause == schema.LEVEL_SHIFT else (0.0, 1.0)
+            ax.axvspan(pd.Timestamp(e["start_utc"]), pd.Timestamp(e["end_utc"]), ymin=span[0], ymax=span[1],
+                       facecolor=style.cause_color(cause), alpha=0.6 if cause == schema.LEVEL_SHIFT else 0.28,
+                       edgecolor=style.cause_color(cause), hatch=style.cause_hatch(cause), lw=0.0, zorder=0.8)
+            legend_causes.add(cause)
+    ax.axhline(threshold, color=style.THRESHOLD, ls="--", lw=0.9, label="receiver threshold")
+    finite_lows = [v for v in lows if np.isfinite(v)]
+    ymin = min([threshold - 10.0] + finite_lows)
+    ax.set_ylim(max(ymin, threshold - 40.0), None)
+    s = r.outage.summary if r.outage is not None else {}
+    ax.set_title(f"{link.link_id}  ·  {link.frequency_ghz:g} GHz, {link.length_km:g} km  ·  availability "
+                 f"{format_availability(s)}  ·  outage {format_minutes(s)}", loc="left", fontsize=8.5)
+    ax.set_ylabel("dBm", fontsize=7.5)
+    ax.tick_params(labelsize=7)
+    ax.grid(color=style.GRID, lw=0.4)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+
+
+def _page_timelines(fig, results: Sequence[LinkResult]) -> None:
+    import matplotlib.dates as mdates
+    from matplotlib.patches import Patch
+
+    fig.text(0.06, 0.965, "What happened on each hop", fontsize=15, weight="bold", va="top")
+    fig.text(0.06, 0.94, "Receive level (band = spread within each plotted step), receiver threshold (dashed), fades "
+             "shaded by cause; level shifts as a strip along the bottom; dotted white = no data.", fontsize=8,
+             va="top")
+    shown = [r for r in results if r.series]
+    if len(shown) > MAX_TIMELINES:
+        shown = sorted(shown, key=lambda r: -((r.outage.summary.get("unavailable_s_hi") or 0)
+                                             if r.outage is not None else 0))[:MAX_TIMELINES]
+        fig.text(0.06, 0.925, f"The {MAX_TIMELINES} hops with the most outage are shown; the others are in the "
+                 "table on page 1 and in events.csv.", fontsize=7.5, va="top", style="italic")
+    legend_causes: set = set()
+    if not shown:
+        fig.text(0.5, 0.5, "No receive-level series to show.", ha="center")
+        return
+    height = 0.80 / len(shown)
+    for i, r in enumerate(shown):
+        ax = fig.add_axes([0.09, 0.09 + (len(shown) - 1 - i) * height + 0.035, 0.87, height - 0.06])
+        _timeline(ax, r, legend_causes)
+        locator = mdates.AutoDateLocator(minticks=4, maxticks=9)
+        ax.xaxis.set_major_locator(locator)
+        formatter = mdates.ConciseDateFormatter(locator)
+        ax.xaxis.set_major_formatter(formatter)
+        ax.xaxis.get_offset_text().set_fontsize(7)
+        if i == 0:
+            ax.legend(fontsize=6.5, loc="lower left", ncol=3, frameon=True)
+    handles = [Patch(facecolor=style.cause_color(c), edgecolor=style.INK if c == schema.NO_DATA else
+                     style.cause_color(c), hatch=style.cause_hatch(c), alpha=0.5 if c != schema.NO_DATA else 1,
+                     label=style.cause_label(c))
+               for c in list(style.CAUSE_ORDER) + [schema.NO_DATA] if c in legend_causes]
+    if handles:
+        fig.legend(handles=handles, loc="lower center", ncol=min(len(handles), 4), fontsize=7.5, frameon=False,
+                   bbox_to_anchor=(0.5, 0.01))
+
+
+# ------------------------------------------------------------------------------------------------ page 3
+def _pick_distribution(results: Sequence[LinkResult]):
+    """The hop and channel whose fade-depth curve says the most: the most multipath exceedance, else any."""
+    best = None
+    for r in results:
+        channels = (r.statistics or {}).get("channels", {}) if isinstance(r.statistics, dict) else {}
+        for channel, block in sorted(channels.items()):
+            ex = (block or {}).get("exceedance") or {}
+            if not ex.get("all_percent"):
+                continue
+            score = sum(v for v in (ex.get("multipath_percent") or []) if _finite(v))
+            key = (score, sum(v for v in ex["all_percent"] if _finite(v)))
+            if best is None or key > best[0]:
+                best = (key, r, channel, ex)
+    return None if best is None else best[1:]
+
+
+def _distribution(ax, results: Sequence[LinkResult]) -> None:
+    ax.set_title("Fade depth: how often each depth was exceeded", loc="left", fontsize=10, weight="bold")
+    picked = _pick_distribution(results)
+    if picked is None:
+        ax.text(0.5, 0.5, "No fade statistics available", ha="center", va="center", transform=ax.transAxes)
+        ax.axis("off")
+        return
+    r, channel, ex = picked
+    depth = np.asarray(ex.get("depth_db", []), dtype=float)
+
+    def curve(key, **kw):
+        values = ex.get(key)
+        if not values:
+            return
+        y = np.array([v if _finite(v) and v > 0 else np.nan for v in values], dtype=float)
+        if np.isfinite(y).any():
+            ax.semilogy(depth, y, **kw)
+
+    curve("all_percent", color=style.INK, lw=1.8, marker="o", ms=3.5, label="measured, all fades")
+    curve("multipath_percent", color=style.cause_color(schema.MULTIPATH), lw=1.4, marker="x", ms=4,
+          label="measured, multipath fades")
+    curve("rain_percent", color=style.cause_color(schema.RAIN), lw=1.4, marker="s", ms=3,
+          label="measured, rain fades")
+    curve("all_percent_upper_bound", color=style.INK, lw=0.8, ls=":", label="upper bound (interval minima)")
+    # Rayleigh tail (10 dB per decade of probability) drawn through the measured curve at the first depth >= 10 dB:
+    # the unconditional Rayleigh law assumes fading all the time, the measured curve covers the whole period
+    anchor_key = "multipath_percent" if any(_finite(v) and v > 0 for v in (ex.get("multipath_percent") or [])) \
+        else "all_percent"
+    anchor = ex.get(anchor_key) or []
+    ref = next(((d, float(v)) for d, v in zip(depth, anchor) if d >= 10 and _finite(v) and v > 0), None)
+    if ref is not None:
+        ax.semilogy(depth, ref[1] * 10 ** (-(depth - ref[0]) / 10.0), color="#555555", lw=1.0, ls="--",
+                    label=f"Rayleigh tail, 10 dB per decade (through {ref[0]:g} dB)")
+    pred = ex.get("p530_multipath") or {}
+    if pred.get("percent_worst_month"):
+        y = np.array([v if _finite(v) and v > 0 else np.nan for v in pred["percent_worst_month"]], dtype=float)
+        ax.semilogy(depth, y, color=style.cause_color(schema.MULTIPATH), lw=1.0, ls="-.",
+                    label="design prediction, ITU-R P.530 (worst month)")
+    ax.set_xlabel("fade depth below the clear-sky level [dB]", fontsize=8)
+    ax.set_ylabel("% of observed time exceeded", fontsize=8)
+    ax.tick_params(labelsize=7)
+    ax.grid(color=style.GRID, lw=0.4, which="both")
+    ax.legend(fontsize=6.5, loc="upper right")
+    ax.text(0.0, -0.2, _wrap(f"Hop {r.link.link_id}, channel {channel}; percentages of the observed time. A clear-"
+            "air multipath tail falls about 10 dB per decade like the dashed line; a flatter tail points to another "
+            "cause (rain, obstruction). The P.530 design curve is for the worst month of an average year.", 125),
+            fontsize=6.8, transform=ax.transAxes, va="top")
+
+
+def _page_findings(fig, results: Sequence[LinkResult]) -> None:
+    fig.text(0.06, 0.965, "Findings, actions and method", fontsize=15, weight="bold", va="top")
+    _distribution(fig.add_axes([0.1, 0.66, 0.84, 0.26]), results)
+    y = 0.56
+    blocks: list[tuple[str, list[str]]] = []
+    items = []
+    for link_id, f in _top_findings(results, 6):
+        actions = f.get("actions") or []
+        actions = [actions] if isinstance(actions, str) else list(actions)
+        text = f"• {link_id}: {f.get('title', '')}."
+        if f.get("detail"):
+            text += f" {f['detail']}"
+        line = _wrap(text, 135)
+        if actions:
+            line += "\n" + _wrap("    Action: " + "; ".join(str(a) for a in actions[:2]), 135)
+        items.append(line)
+    blocks.append(("Findings and recommended actions", items or ["No findings were produced for these hops."]))
+    gaps = []
+    for r in results:
+        s = r.outage.summary if r.outage is not None else None
+        if s and (s.get("no_data_s") or 0) > 0:
+            total = (s.get("observed_s") or 0) + s["no_data_s"]
+            gaps.append(f"{r.link.link_id}: {_duration(s['no_data_s'])} without data "
+                        f"({100 * s['no_data_s'] / total:.1f} % of the period), excluded from availability.")
+        elif r.error:
+            gaps.append(f"{r.link.link_id}: not analysed ({r.error}).")
+    blocks.append(("Data gaps", gaps or ["No gaps in the analysed period."]))
+    method = [
+        "A second below the receiver threshold (or with loss of signal) counts as a severely errored second (SES). "
+        "Unavailable time begins with ten consecutive SES and ends with ten consecutive clear seconds "
+        "(ITU-T G.826 / G.828). Data gaps are never counted as outage.",
+        "Each outage second is attributed to the cause of the fade covering it; the causes add up to the total.",
+        "Coarse logs (15-min min/avg/max statistics, sparse samples) give a lower and an upper bound, never one "
+        "invented number.",
+        "A week is not a year: yearly figures are only an extrapolation. Rain and multipath are seasonal; the "
+        "worst-month conversion (ITU-R P.841) uses parameters not yet checked against the Recommendation.",
+    ]
+    for r in results:
+        if r.outage is not None and r.link.objective_pct is None:
+            method.append("Hops without an availability objective in the links table are not judged against one.")
+            break
+    blocks.append(("Method notes", [_wrap("• " + m, 135) for m in method]))
+    counters = []
+    for r in results:
+        rc = (r.outage.summary.get("radio_counters") or {}) if r.outage is not None else {}
+        for channel, c in sorted(rc.items()):
+            if "radio_uas_count" in c:
+                agree = "agrees with" if c.get("uas_count_within_bounds") else "differs from"
+                counters.append(f"{r.link.link_id} {channel}: the radio counted {c['radio_uas_count']:.0f} "
+                                f"unavailable s; this {agree} the level-based {c['level_based_uas_count_lo']:.0f}"
+                                + ("" if c["level_based_uas_count_lo"] == c["level_based_uas_count_hi"]
+                                   else f"–{c['level_based_uas_count_hi']:.0f}") + " s.")
+    if counters:
+        blocks.append(("The radios' own counters", [_wrap(line, 135) for line in counters]))
+    blocks.append(("Safety", [_wrap(SAFETY_TEXT.replace("Safety: some", "Some"), 135)]))
+    for title, lines in blocks:
+        if y < 0.06:
+            break
+        fig.text(0.06, y, title, fontsize=10, weight="bold", va="top")
+        y -= 0.022
+        for line in lines:
+            n_lines = line.count("\n") + 1
+            if y - 0.0135 * n_lines < 0.03:
+                fig.text(0.06, y, "… (more in findings.json)", fontsize=7, va="top", style="italic")
+                y = 0.0
+                break
+            fig.text(0.06, y, line, fontsize=7.3, va="top", linespacing=1.25)
+            y -= 0.0135 * n_lines + 0.004
+        y -= 0.012
+
+
+# ------------------------------------------------------------------------------------------------ assembly
+def build_figures(results: Iterable[LinkResult]) -> list:
+    """The report's pages as matplotlib Figures (also used to render a page to PNG)."""
+    from matplotlib.figure import Figure
+
+    results = list(results)
+    pages = []
+    for painter in (_page_summary, _page_timelines, _page_findings):
+        fig = Figure(figsize=PAGE_SIZE_IN)
+        painter(fig, results)
+        pages.append(fig)
+    return pages
+
+
+_RC = {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6,
+       "path.simplify": True}
+
+
+def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
+    """The report as PDF bytes (deterministic: no creation date in the metadata)."""
+    import matplotlib
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    buffer = io.BytesIO()
+    with matplotlib.rc_context(_RC):
+        pages = build_figures(results)
+        with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
+                                        "Producer": "diag (matplotlib)", "CreationDate": None,
+                                        "ModDate": None}) as pdf:
+            for i, fig in enumerate(pages):
+                pdf.savefig(fig)
+                if progress is not None:
+                    progress(i + 1, len(pages), f"report page {i + 1}")
+    return buffer.getvalue()
+
+
+def write_pdf(results: Iterable[LinkResult], path) -> None:
+    from pathlib import Path
+
+    Path(path).write_bytes(pdf_bytes(results))
+
+
+def page_png_bytes(results: Iterable[LinkResult], page: int = 0, *, dpi: int = 80) -> bytes:
+    """One page rendered to PNG with the same drawing code (for previews and tests without a PDF renderer)."""
+    import matplotlib
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    with matplotlib.rc_context(_RC):
+        fig = build_figures(results)[page]
+        FigureCanvasAgg(fig)
+        buffer = io.BytesIO()
+        fig.savefig(buffer, format="png", dpi=dpi)
+    return buffer.getvalue()
