@@ -17,8 +17,8 @@ and the first that fires wins:
    low H/V correlation (< 0.8) also points to multipath (rain and refraction fade both polarisations together).
 4. **rain or refractive** - a smooth fade.  Evidence for rain, in order of weight:
    a. V/H attenuation ratio (dual-polarised hops): rain follows ITU-R P.838-3 (A_V/A_H = gamma_V/gamma_H < 1 above
-      ~8 GHz); refractive fading is polarisation-independent (ratio ~ 1).  Decided when the P.838 ratio differs
-      from 1 by more than 0.05.
+      ~8 GHz, pulled towards 1 by a wet-antenna loss of ``WET_ANTENNA_DB`` common to both); refractive fading is
+      polarisation-independent (ratio ~ 1).  Up to 2 points, graded by which of the two ratios is nearer.
    b. the path-average rain rate implied by P.838-3 for the peak fade: above ``rain_plausible_max_mmh`` (or a
       12-h-long fade) the fade cannot be rain;
    c. shape: rain fades follow convective cells (a peaked profile: under ~35 % of the event above half its peak,
@@ -46,6 +46,9 @@ from diag.links import Link
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
 
 STATS_CONFIDENCE_FACTOR = 0.7
+# wet-antenna loss allowed for in the V/H test [dB]: 1-3 dB is typical (Leijnse et al., Adv. Water Res. 31(11),
+# 2008; Schleiss et al., IEEE GRSL 10, 2013); from memory, not a fitted value
+WET_ANTENNA_DB = 1.5
 
 
 def _f(value) -> float:
@@ -104,7 +107,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         ratio = _f(row["avg_to_min_ratio"])
         mp_score = 0.0
         reasons = []
-        if math.isfinite(spread) and spread >= 6.0 and (not math.isfinite(ratio) or ratio < 0.5):
+        if math.isfinite(spread) and spread >= 10.0 and (not math.isfinite(ratio) or ratio < 0.25):
             mp_score += 1.0
             reasons.append(f"min-max spread {spread:.1f} dB per 15 min with the average only "
                            f"{ratio:.0%} of the minimum's fade")
@@ -150,14 +153,19 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     rain_pts, refr_pts = 0.0, 0.0
     notes = []
     if math.isfinite(vh) and math.isfinite(expected) and abs(1.0 - expected) > 0.05:
-        mid = (1.0 + expected) / 2.0
-        if vh < mid:
-            rain_pts += 2.0
-            notes.append(f"V/H attenuation ratio {vh:.2f} as P.838 predicts ({expected:.2f}) at "
-                         f"{link.frequency_ghz:g} GHz")
+        # wet antennas add the same loss on both polarisations, pulling a small rain fade's ratio towards 1
+        fade = max(peak, config.fade_start_db)
+        wet = min(WET_ANTENNA_DB, 0.5 * fade)
+        expected_wet = (expected * (fade - wet) + wet) / fade
+        lean = (abs(vh - 1.0) - abs(vh - expected_wet)) / max(abs(1.0 - expected_wet), 0.02)
+        lean = max(-1.0, min(1.0, lean))
+        if lean > 0:
+            rain_pts += 2.0 * lean
+            notes.append(f"V/H attenuation ratio {vh:.2f} as P.838 predicts ({expected:.2f}, "
+                         f"{expected_wet:.2f} with wet antennas) at {link.frequency_ghz:g} GHz")
         else:
-            refr_pts += 2.0
-            notes.append(f"V/H attenuation ratio {vh:.2f}, not the {expected:.2f} rain gives at "
+            refr_pts += -2.0 * lean
+            notes.append(f"V/H attenuation ratio {vh:.2f}, not the {expected_wet:.2f} rain gives at "
                          f"{link.frequency_ghz:g} GHz")
     plausible = math.isfinite(rate) and 0 < rate <= config.rain_plausible_max_mmh
     if math.isfinite(rate) and not plausible:
@@ -166,20 +174,34 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     if dur > 12 * 3600:
         refr_pts += 1.0
         notes.append("longer than rain lasts")
-    if math.isfinite(half):
+    if not stats and dur < 900.0:
+        rain_pts += 1.5
+        notes.append("too short for a refractive fade")
+    if stats:
+        ratio = _f(row["avg_to_min_ratio"])
+        if math.isfinite(ratio) and dur >= 1800.0:
+            if ratio <= 0.62:
+                rain_pts += 1.0
+                notes.append(f"average fade {ratio:.0%} of the interval minimum's (rain varies within 15 min)")
+            elif ratio >= 0.72:
+                refr_pts += 1.0
+                notes.append(f"average fade {ratio:.0%} of the interval minimum's (slow fading)")
+    elif math.isfinite(half):
         if half < 0.35:
             rain_pts += 1.0
             notes.append(f"peaked profile ({half:.0%} of the time above half the peak)")
         elif half > 0.42:
             refr_pts += 1.0
             notes.append(f"broad profile ({half:.0%} of the time above half the peak)")
-    if math.isfinite(slope):
-        if slope < 0.004:
-            refr_pts += 0.5
-            notes.append(f"slow onset {slope * 60:.2f} dB/min")
-        elif slope > 0.01:
-            rain_pts += 0.5
-            notes.append(f"onset {slope * 60:.1f} dB/min")
+    slope_out = _f(row["slope_out_db_s"])
+    if not stats and dur >= 900.0 and math.isfinite(slope) and math.isfinite(slope_out) and slope_out > 0:
+        asym = slope / slope_out
+        if asym >= 1.5:
+            rain_pts += 1.0
+            notes.append(f"onset {asym:.1f}x faster than the recovery")
+        elif asym <= 1.25:
+            refr_pts += 1.0
+            notes.append(f"onset and recovery alike ({slope * 60:.2f} and {slope_out * 60:.2f} dB/min)")
     if math.isfinite(gauge):
         if gauge >= 0.5:
             rain_pts += 1.5

@@ -345,6 +345,19 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
             for row_id, a, b in zip(order.index.to_numpy(), order["start_index"].to_numpy(),
                                     order["end_index"].to_numpy()):
                 event_id[int(a):int(b)] = row_id
+            # inside a level-shift span a nested fade names the sample only where it is the larger contribution
+            # (its attenuation against the shifted level exceeds the shift), as the truth of a sample is defined
+            spans = mine[mine["event_kind"] == "level_shift"]
+            if len(spans):
+                att = item.frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
+                lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy()
+                for row_id, a, b, size in zip(spans.index.to_numpy(), spans["start_index"].to_numpy(),
+                                              spans["end_index"].to_numpy(), spans["peak_fade_db"].to_numpy()):
+                    a, b = int(a), int(b)
+                    inner = event_id[a:b]
+                    with np.errstate(invalid="ignore"):
+                        weaker = (inner != row_id) & ~(att[a:b] > size) & ~lost[a:b]
+                    inner[weaker] = row_id
         causes = np.concatenate([events["cause"].to_numpy(dtype=object), np.array([""], dtype=object)]) \
             if len(events) else np.array([""], dtype=object)
         item.frame["event_id"] = event_id
