@@ -30,7 +30,8 @@ from diag.models._util import ArrayLike, as_float_array, like_input
 __all__ = ["rayleigh_pdf_db", "rayleigh_cdf_db", "rayleigh_exceedance_db", "rice_pdf_db", "rice_cdf_db",
            "rice_exceedance_db", "k_factor_db", "k_factor_linear", "envelope_from_level_db", "rice_k_moments",
            "rice_k_mle", "RiceFit", "fit_rice", "rayleigh_level_crossing_rate_hz",
-           "rayleigh_average_fade_duration_s", "doppler_from_crossing_rate_hz"]
+           "rayleigh_average_fade_duration_s", "doppler_from_crossing_rate_hz", "rice_level_crossing_rate_hz",
+           "rice_average_fade_duration_s"]
 
 _LN10_OVER_10 = math.log(10.0) / 10.0
 
@@ -251,3 +252,26 @@ def doppler_from_crossing_rate_hz(crossing_rate_hz: ArrayLike, level_db: ArrayLi
     rho = _rho(level_db)
     fm = as_float_array(crossing_rate_hz) / (math.sqrt(2.0 * math.pi) * rho * np.exp(-rho * rho))
     return like_input(fm, crossing_rate_hz, level_db)
+
+
+def rice_level_crossing_rate_hz(level_db: ArrayLike, k_factor: ArrayLike, doppler_hz: ArrayLike) -> ArrayLike:
+    """Rice level-crossing rate with a static (zero-Doppler) steady component [Hz] [1, §2.3, from memory].
+
+    N_R = sqrt(2 pi (K+1)) f_m rho e^(-K - (K+1) rho^2) I0(2 rho sqrt(K (K+1))), rho^2 = 10^(level/10) relative to
+    the mean power; the scattered part has a Clarke/Jakes spectrum of maximum Doppler f_m.  K = 0 gives the
+    Rayleigh rate.
+    """
+    rho = _rho(level_db)
+    k = _k_array(k_factor)
+    fm = as_float_array(doppler_hz)
+    z = 2.0 * rho * np.sqrt(k * (k + 1.0))
+    rate = (np.sqrt(2.0 * math.pi * (k + 1.0)) * fm * rho
+            * np.exp(-k - (k + 1.0) * rho * rho + z) * special.i0e(z))  # N_R, I0 = i0e e^z
+    return like_input(rate, level_db, k_factor, doppler_hz)
+
+
+def rice_average_fade_duration_s(level_db: ArrayLike, k_factor: ArrayLike, doppler_hz: ArrayLike) -> ArrayLike:
+    """Rice average fade duration below a level [s] = P(below level) / N_R [1, §2.3]."""
+    duration = as_float_array(rice_cdf_db(as_float_array(level_db), as_float_array(k_factor))) / as_float_array(
+        rice_level_crossing_rate_hz(as_float_array(level_db), as_float_array(k_factor), as_float_array(doppler_hz)))
+    return like_input(duration, level_db, k_factor, doppler_hz)
