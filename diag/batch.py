@@ -279,7 +279,8 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
                                          "table; add one"), {})
     bad = [p for p in pieces if p.error]
     if bad:
-        return _HopOutcome(failed_result(link, "; ".join(f"{p.name}: {p.error}" for p in bad)), {})
+        return _HopOutcome(failed_result(link, "; ".join(p.error if p.name in p.error else f"{p.name}: {p.error}"
+                                                         for p in bad)), {})
     try:
         if store_path is not None:
             from diag.store import read_store
