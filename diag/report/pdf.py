@@ -639,8 +639,9 @@ def build_figures(results: Iterable[LinkResult]) -> list:
     return pages
 
 
+# text.parse_math off: link ids and findings are user text, and a "$" in them must print, not start mathtext
 _RC = {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6,
-       "path.simplify": True}
+       "path.simplify": True, "text.parse_math": False}
 
 
 def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
