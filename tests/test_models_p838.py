@@ -121,3 +121,16 @@ def test_more_rain_more_attenuation_and_inverse_round_trip(rate, length, f, tau)
     assert g2 > g1
     back = p838.rain_rate_from_attenuation_mmh(g1 * length, length, f, tau)
     assert back == pytest.approx(rate, rel=1e-9)
+
+
+def test_itur_gamma_with_frequency_arrays_is_wrong():
+    # Found here: itur 0.4.0's rain_specific_attenuation unpacks its (n, 2) coefficient array by rows, so for two
+    # frequencies it silently returns wrong values (and fails for three or more).  Per-frequency calls are right.
+    # We record the disagreement; the P.838-3 text (and itur called per frequency) is what we match.
+    itu838 = pytest.importorskip("itur.models.itu838")
+    f = np.array([6.0, 23.0])
+    bad = np.asarray(itu838.rain_specific_attenuation(37.0, f, 0.0, 0.0).value)
+    good = [float(itu838.rain_specific_attenuation(37.0, fi, 0.0, 0.0).value) for fi in f]
+    ours = p838.specific_attenuation_db_per_km(37.0, f)
+    np.testing.assert_allclose(ours, good, rtol=1e-9)
+    assert abs(bad[0] / ours[0] - 1) > 0.5  # the array call is off by far more than any tolerance
