@@ -51,13 +51,16 @@ def series_span(series: ChannelSeries) -> tuple[pd.Timestamp, pd.Timestamp] | No
     return _utc(index[0]), _utc(index[-1])
 
 
-def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2000) -> pd.DataFrame:
+def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2000, column: str = "rsl_dbm",
+             low_column: str | None = None, high_column: str | None = None) -> pd.DataFrame:
     """The receive level of one channel between ``start`` and ``end``, thinned to at most ``max_points`` rows.
 
     The grid is regular, so consecutive runs of ``ceil(n / max_points)`` points are equal time bins; each bin keeps
     its first time, the mean level, the lowest and highest level seen (the logged interval min/max for statistics
     logs, so a deep fade inside a bin is never hidden) and whether the receiver lost the signal in it.  A bin with no
-    level (gap, signal lost) has NaN levels so the chart line breaks there.  Columns: ``TIMELINE_COLUMNS``.
+    level (gap, signal lost) has NaN levels so the chart line breaks there.  Columns: ``TIMELINE_COLUMNS``; the
+    ``level_*`` columns hold ``column`` (e.g. ``attenuation_db`` or ``xpd_db``), ``low_column``/``high_column`` name
+    the logged interval extremes (by default ``rsl_min_dbm``/``rsl_max_dbm`` for the receive level).
     """
     if max_points < 1:
         raise ValueError("max_points must be at least 1")
@@ -70,9 +73,11 @@ def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2
     if n == 0:
         return pd.DataFrame({name: pd.Series([], dtype="float64") for name in TIMELINE_COLUMNS}).assign(
             time_utc=pd.Series([], dtype="datetime64[ns, UTC]"), signal_lost=pd.Series([], dtype="bool"))
-    level = frame["rsl_dbm"].to_numpy(dtype=float)
-    low = frame["rsl_min_dbm"].to_numpy(dtype=float) if "rsl_min_dbm" in frame else level
-    high = frame["rsl_max_dbm"].to_numpy(dtype=float) if "rsl_max_dbm" in frame else level
+    if column == "rsl_dbm":
+        low_column, high_column = low_column or "rsl_min_dbm", high_column or "rsl_max_dbm"
+    level = frame[column].to_numpy(dtype=float)
+    low = frame[low_column].to_numpy(dtype=float) if low_column and low_column in frame else level
+    high = frame[high_column].to_numpy(dtype=float) if high_column and high_column in frame else level
     reference = (frame["reference_dbm"].to_numpy(dtype=float) if "reference_dbm" in frame
                  else np.full(n, np.nan))
     lost = (frame["status"].astype(str).to_numpy() == schema.SIGNAL_LOST) if "status" in frame else np.zeros(n, bool)
@@ -134,52 +139,7 @@ def event_spans(events: pd.DataFrame, *, channel: str | None = None, start=None,
 
 
 # --- overview ---------------------------------------------------------------------------------------------------
-def outage_minutes_by_cause(result: LinkResult, *, include_zero: bool = False) -> pd.DataFrame:
-    """Outage of one hop by cause in minutes, in the order of ``diag.schema.CAUSES``.
-
-    Columns: ``cause, cause_label, events, below_threshold_min, unavailable_min``.  From ``result.outage.by_cause``
-    (seconds) without recomputing anything; causes with no events and no time are left out unless ``include_zero``.
-    """
-    columns = ["cause", "cause_label", "events", "below_threshold_min", "unavailable_min"]
-    by_cause = result.outage.by_cause if result.outage is not None else None
-    if by_cause is None or len(by_cause) == 0:
-        return pd.DataFrame({name: [] for name in columns})
-    frame = by_cause.copy()
-    frame["cause"] = frame["cause"].astype(str)
-    frame = frame.groupby("cause", sort=False)[["events", "below_threshold_s", "unavailable_s"]].sum()
-    order = [c for c in schema.CAUSES if c in frame.index] + [c for c in frame.index if c not in schema.CAUSES]
-    frame = frame.reindex(order)
-    out = pd.DataFrame({
-        "cause": frame.index.astype(str),
-        "cause_label": [cause_label(c) for c in frame.index],
-        "events": frame["events"].fillna(0).astype(int).to_numpy(),
-        "below_threshold_min": frame["below_threshold_s"].fillna(0).to_numpy(dtype=float) / 60.0,
-        "unavailable_min": frame["unavailable_s"].fillna(0).to_numpy(dtype=float) / 60.0,
-    })
-    if not include_zero:
-        out = out[(out["events"] > 0) | (out["below_threshold_min"] > 0) | (out["unavailable_min"] > 0)]
-    return out.reset_index(drop=True)
-
-
-def dominant_cause(result: LinkResult) -> str | None:
-    """The cause with the most unavailable time, else the most time below threshold, else the most fade events.
-
-    None when the hop had no fade event at all.
-    """
-    table = outage_minutes_by_cause(result)
-    if len(table):
-        for column in ("unavailable_min", "below_threshold_min", "events"):
-            if table[column].max() > 0:
-                return str(table.loc[table[column].idxmax(), "cause"])
-    events = result.events
-    if events is not None and len(events):
-        counts = events["cause"].astype(str).value_counts()
-        return str(counts.index[0])
-    return None
-
-
-def _summary_number(summary: dict, key: str) -> float | None:
-    value = summary.get(key)
+def _number(value) -> float | None:
     try:
         number = float(value)
     except (TypeError, ValueError):
@@ -187,27 +147,107 @@ def _summary_number(summary: dict, key: str) -> float | None:
     return number if math.isfinite(number) else None
 
 
+def _bounds(mapping, key: str) -> tuple[float | None, float | None]:
+    """(low, high) of an outage figure: the exact value twice when known, else its ``_lo``/``_hi`` bounds."""
+    exact = _number(mapping.get(key))
+    if exact is not None:
+        return exact, exact
+    return _number(mapping.get(f"{key}_lo")), _number(mapping.get(f"{key}_hi"))
+
+
+def outage_minutes_by_cause(result: LinkResult, *, include_zero: bool = False) -> pd.DataFrame:
+    """Outage of one hop by cause in minutes, in the order of ``diag.schema.CAUSES``.
+
+    From ``result.outage.by_cause`` (seconds) without recomputing anything.  For coarse logs the outage module
+    gives bounds instead of exact figures; both are carried: ``*_lo_min``/``*_hi_min`` equal the exact value when
+    it is known.  Columns: ``cause, cause_label, events, below_threshold_lo_min, below_threshold_hi_min,
+    unavailable_lo_min, unavailable_hi_min, exact``.  Causes with no events and no time are left out unless
+    ``include_zero``.
+    """
+    columns = ["cause", "cause_label", "events", "below_threshold_lo_min", "below_threshold_hi_min",
+               "unavailable_lo_min", "unavailable_hi_min", "exact"]
+    by_cause = result.outage.by_cause if result.outage is not None else None
+    if by_cause is None or len(by_cause) == 0:
+        return pd.DataFrame({name: [] for name in columns})
+    rows = []
+    for record in by_cause.to_dict("records"):
+        below = _bounds(record, "below_threshold_s")
+        unavailable = _bounds(record, "unavailable_s")
+        rows.append({
+            "cause": str(record["cause"]),
+            "cause_label": cause_label(record["cause"]),
+            "events": int(_number(record.get("events")) or 0),
+            "below_threshold_lo_min": (below[0] or 0.0) / 60.0,
+            "below_threshold_hi_min": (below[1] or 0.0) / 60.0,
+            "unavailable_lo_min": (unavailable[0] or 0.0) / 60.0,
+            "unavailable_hi_min": (unavailable[1] or 0.0) / 60.0,
+            "exact": _number(record.get("below_threshold_s")) is not None,
+        })
+    out = pd.DataFrame(rows, columns=columns)
+    out = out.groupby(["cause", "cause_label"], sort=False, as_index=False).agg(
+        {"events": "sum", "below_threshold_lo_min": "sum", "below_threshold_hi_min": "sum",
+         "unavailable_lo_min": "sum", "unavailable_hi_min": "sum", "exact": "all"})
+    order = {cause: number for number, cause in enumerate(schema.CAUSES)}
+    out = out.sort_values("cause", key=lambda c: c.map(lambda x: order.get(x, len(order))), kind="stable")
+    if not include_zero:
+        out = out[(out["events"] > 0) | (out["below_threshold_hi_min"] > 0) | (out["unavailable_hi_min"] > 0)]
+    return out[columns].reset_index(drop=True)
+
+
+def dominant_cause(result: LinkResult) -> str | None:
+    """The outage module's dominant cause when it names one; else the cause with the most unavailable time, else
+    the most time below threshold, else the most fade events (upper bounds for coarse logs).  None when the hop had
+    no fade event at all."""
+    summary = result.outage.summary if result.outage is not None else {}
+    named = summary.get("dominant_cause")
+    if named and str(named) in schema.CAUSES:
+        return str(named)
+    table = outage_minutes_by_cause(result)
+    if len(table):
+        for column in ("unavailable_hi_min", "below_threshold_hi_min", "events"):
+            if table[column].max() > 0:
+                return str(table.loc[table[column].idxmax(), "cause"])
+    events = result.events
+    if events is not None and len(events):
+        return str(events["cause"].astype(str).value_counts().index[0])
+    return None
+
+
+MEETS = {"yes": True, "true": True, "no": False, "false": False}
+
+
 def hop_overview(result: LinkResult) -> dict:
-    """Headline figures of one hop: availability against the objective, minutes, dominant cause, counts."""
+    """Headline figures of one hop: availability against the objective, minutes, dominant cause, counts.
+
+    Figures are (low, high) pairs in minutes or percent; low == high when the outage module counted exactly.
+    ``meets_objective`` is True / False / None (undetermined: the bounds straddle the objective, or no objective).
+    """
     summary = dict(result.outage.summary) if result.outage is not None else {}
     meets = summary.get("meets_objective")
     if isinstance(meets, str):
-        meets = {"true": True, "false": False}.get(meets.strip().lower())
-    minutes = {key: (None if (value := _summary_number(summary, f"{key}_s")) is None else value / 60.0)
-               for key in ("observed", "no_data", "below_threshold", "unavailable", "ses_available")}
+        meets = MEETS.get(meets.strip().lower())
+    elif not isinstance(meets, bool):
+        meets = None
+
+    def minutes(key):
+        low, high = _bounds(summary, f"{key}_s")
+        return (None if low is None else low / 60.0, None if high is None else high / 60.0)
+
     cause = dominant_cause(result)
     return {
         "link_id": result.link.link_id,
         "period_start_utc": summary.get("period_start_utc"),
         "period_end_utc": summary.get("period_end_utc"),
-        "availability_pct": _summary_number(summary, "availability_pct"),
-        "objective_pct": _summary_number(summary, "objective_pct"),
-        "meets_objective": meets if isinstance(meets, bool) else None,
-        "observed_min": minutes["observed"],
-        "no_data_min": minutes["no_data"],
-        "below_threshold_min": minutes["below_threshold"],
-        "unavailable_min": minutes["unavailable"],
-        "ses_available_min": minutes["ses_available"],
+        "exact": bool(summary.get("exact", True)),
+        "method": str(summary.get("method") or ""),
+        "availability_pct": _bounds(summary, "availability_pct"),
+        "objective_pct": _number(summary.get("objective_pct")),
+        "meets_objective": meets,
+        "meets_text": str(summary.get("meets_objective") or ""),
+        "observed_min": minutes("observed"),
+        "no_data_min": minutes("no_data"),
+        "below_threshold_min": minutes("below_threshold"),
+        "unavailable_min": minutes("unavailable"),
         "events": 0 if result.events is None else int(len(result.events)),
         "dominant_cause": cause,
         "dominant_cause_label": cause_label(cause) if cause else "no fades",
@@ -215,27 +255,38 @@ def hop_overview(result: LinkResult) -> dict:
     }
 
 
+def range_text(pair: tuple[float | None, float | None], fmt: str = "{:.1f}", unit: str = "") -> str:
+    """``12.3 min`` for an exact figure, ``0.0–45.0 min`` for bounds, ``–`` when unknown."""
+    low, high = pair
+    if low is None and high is None:
+        return "–"
+    if low is None or high is None or low == high:
+        return fmt.format(low if low is not None else high) + unit
+    return f"{fmt.format(low)}–{fmt.format(high)}{unit}"
+
+
 def network_table(results: Sequence[LinkResult]) -> pd.DataFrame:
-    """One row per hop for the network list, worst availability first (hops that failed last)."""
+    """One row per hop for the network list, worst availability (lower bound) first, failed hops last."""
     rows = []
     for result in results:
         item = hop_overview(result)
         rows.append({
             "Hop": item["link_id"],
-            "Availability %": item["availability_pct"],
+            "Availability %": range_text(item["availability_pct"], "{:.4f}"),
             "Objective %": item["objective_pct"],
-            "Meets objective": (None if item["meets_objective"] is None
-                                else ("yes" if item["meets_objective"] else "NO")),
-            "Unavailable min": item["unavailable_min"],
-            "Below threshold min": item["below_threshold_min"],
+            "Meets objective": {True: "yes", False: "NO"}.get(item["meets_objective"],
+                                                              item["meets_text"] or "–"),
+            "Unavailable min": range_text(item["unavailable_min"]),
+            "Below threshold min": range_text(item["below_threshold_min"]),
             "Fade events": item["events"],
             "Main cause": item["dominant_cause_label"] if not item["error"] else f"not analysed: {item['error']}",
+            "_sort": item["availability_pct"][0],
         })
-    table = pd.DataFrame(rows, columns=["Hop", "Availability %", "Objective %", "Meets objective", "Unavailable min",
-                                        "Below threshold min", "Fade events", "Main cause"])
-    if len(table):
-        table = table.sort_values("Availability %", na_position="last", kind="stable").reset_index(drop=True)
-    return table
+    table = pd.DataFrame(rows, columns=["Hop", "Availability %", "Objective %", "Meets objective",
+                                        "Unavailable min", "Below threshold min", "Fade events", "Main cause",
+                                        "_sort"])
+    table = table.sort_values("_sort", na_position="last", kind="stable")
+    return table.drop(columns="_sort").reset_index(drop=True)
 
 
 def top_findings(result: LinkResult, limit: int = 5) -> list[dict]:
@@ -284,44 +335,170 @@ def event_table(events: pd.DataFrame, *, causes: Iterable[str] | None = None,
     return out.reset_index(drop=True)
 
 
-def fades_by_hour(events: pd.DataFrame, *, utc_offset_h: float = 0.0) -> pd.DataFrame:
-    """Number of fade events starting in each hour of the day (0..23, shifted by ``utc_offset_h``), by cause.
+# --- fading statistics ------------------------------------------------------------------------------------------
+EXCEEDANCE_CURVES = {
+    "all_percent": "measured, all fades",
+    "all_percent_upper_bound": "measured, all fades (upper bound)",
+    "multipath_percent": "measured, multipath",
+    "rain_percent": "measured, rain",
+    "rayleigh_percent": "Rayleigh distribution",
+}
 
-    Long format for a stacked bar chart: ``hour, cause, cause_label, events`` (every hour present; zero rows for
-    causes that occur somewhere in the list).  Multipath fading peaks in still summer nights and mornings, rain
-    in the afternoon in convective climates: the shape helps read the cause (common practice).
+
+def exceedance_curves(channel_statistics: dict) -> pd.DataFrame:
+    """Fade-depth exceedance of one channel as a long table for a log-scale chart.
+
+    From ``LinkResult.statistics["channels"][channel]`` (``diag.stats``): the measured curves, the Rayleigh curve
+    and the design predictions (ITU-R P.530 multipath for the worst month, P.530 rain for the average year) as the
+    statistics module gives them.  Columns: ``depth_db, percent, curve, kind`` (kind "measured", "theory" or
+    "prediction").  Zero and missing percentages are dropped (they cannot be drawn on a log scale).
     """
-    columns = ["hour", "cause", "cause_label", "events"]
-    if events is None or len(events) == 0:
-        return pd.DataFrame({name: [] for name in columns})
-    start = pd.to_datetime(events["start_utc"], utc=True) + pd.Timedelta(hours=float(utc_offset_h))
-    frame = pd.DataFrame({"hour": start.dt.hour.to_numpy(), "cause": events["cause"].astype(str).to_numpy()})
-    causes = [c for c in schema.CAUSES if c in set(frame["cause"])] + sorted(
-        set(frame["cause"]) - set(schema.CAUSES))
-    counts = frame.groupby(["hour", "cause"]).size()
-    index = pd.MultiIndex.from_product([range(24), causes], names=["hour", "cause"])
-    out = counts.reindex(index, fill_value=0).rename("events").reset_index()
-    out["cause_label"] = out["cause"].map(cause_label)
-    out["events"] = out["events"].astype(int)
-    return out[columns]
+    columns = ["depth_db", "percent", "curve", "kind"]
+    rows: list[dict] = []
+    exceedance = (channel_statistics or {}).get("exceedance") or {}
+    depths = exceedance.get("depth_db") or []
+    for key, label in EXCEEDANCE_CURVES.items():
+        values = exceedance.get(key)
+        if not isinstance(values, list):
+            continue
+        kind = "theory" if key == "rayleigh_percent" else "measured"
+        rows += [{"depth_db": d, "percent": v, "curve": label, "kind": kind} for d, v in zip(depths, values)]
+    multipath = exceedance.get("p530_multipath") or {}
+    if isinstance(multipath.get("percent_worst_month"), list):
+        rows += [{"depth_db": d, "percent": v, "curve": "P.530 multipath prediction (worst month)",
+                  "kind": "prediction"} for d, v in zip(depths, multipath["percent_worst_month"])]
+    rain = ((channel_statistics or {}).get("rain") or {}).get("p530") or {}
+    if isinstance(rain.get("attenuation_db"), list) and isinstance(rain.get("percent_of_year"), list):
+        rows += [{"depth_db": a, "percent": p, "curve": "P.530 rain prediction (average year)",
+                  "kind": "prediction"} for a, p in zip(rain["attenuation_db"], rain["percent_of_year"])]
+    out = pd.DataFrame(rows, columns=columns)
+    out["depth_db"] = pd.to_numeric(out["depth_db"], errors="coerce")
+    out["percent"] = pd.to_numeric(out["percent"], errors="coerce")
+    out = out[(out["percent"] > 0) & out["depth_db"].notna()]
+    return out.reset_index(drop=True)
+
+
+def hourly_fading(channel_statistics: dict) -> pd.DataFrame:
+    """Faded minutes and fade starts by hour of day (UTC) and cause, from ``diag.stats``' ``by_hour``.
+
+    Long table for a stacked bar chart: ``hour, cause, cause_label, faded_min, event_starts`` (all 24 hours for
+    every cause that appears).  Multipath fading gathers in still nights and mornings, convective rain in the
+    afternoon and evening: the shape helps read the cause (common practice).
+    """
+    columns = ["hour", "cause", "cause_label", "faded_min", "event_starts"]
+    by_hour = (channel_statistics or {}).get("by_hour") or {}
+    hours = by_hour.get("hour_utc") or list(range(24))
+    faded = by_hour.get("faded_s_by_cause") or {}
+    starts = by_hour.get("event_starts_by_cause") or {}
+    causes = [c for c in schema.CAUSES if c in faded or c in starts]
+    causes += sorted((set(faded) | set(starts)) - set(schema.CAUSES))
+    rows = []
+    for cause in causes:
+        seconds = faded.get(cause) or [0.0] * len(hours)
+        counts = starts.get(cause) or [0] * len(hours)
+        for hour, sec, count in zip(hours, seconds, counts):
+            rows.append({"hour": int(hour), "cause": cause, "cause_label": cause_label(cause),
+                         "faded_min": float(sec or 0.0) / 60.0, "event_starts": int(count or 0)})
+    return pd.DataFrame(rows, columns=columns)
+
+
+def key_figures(data, *, skip: Iterable[str] = (), max_list: int = 6) -> pd.DataFrame:
+    """A nested JSON-able dict (statistics, cross-polar results) flattened to ``Item, Value`` rows for display.
+
+    Nested keys are joined with " › "; long lists (curves, segment lists) are summarised by their length instead
+    of being printed.
+    """
+    skip = set(skip)
+    rows: list[dict] = []
+
+    def walk(prefix: str, value) -> None:
+        if isinstance(value, dict):
+            for key, item in value.items():
+                if key in skip:
+                    continue
+                walk(f"{prefix} › {key}" if prefix else str(key), item)
+        elif isinstance(value, (list, tuple)) and (len(value) > max_list or any(isinstance(v, (dict, list))
+                                                                                  for v in value)):
+            rows.append({"Item": prefix.replace("_", " "), "Value": f"{len(value)} entries"})
+        else:
+            if isinstance(value, float):
+                text = f"{value:.4g}"
+            elif isinstance(value, (list, tuple)):
+                text = ", ".join(f"{v:.4g}" if isinstance(v, float) else str(v) for v in value)
+            else:
+                text = "–" if value is None else str(value)
+            rows.append({"Item": prefix.replace("_", " "), "Value": text})
+
+    walk("", data)
+    return pd.DataFrame(rows, columns=["Item", "Value"])
 
 
 # --- reader report ----------------------------------------------------------------------------------------------
+def _interval_text(seconds) -> str:
+    value = _number(seconds)
+    if value is None:
+        return "–"
+    if value >= 60 and value % 60 == 0:
+        return f"{value / 60:g} min"
+    return f"{value:g} s"
+
+
+def reader_summary(report: dict) -> pd.DataFrame:
+    """What the reader detected in one file (``diag.ingest`` report dict), as ``What, Found`` rows for display."""
+    time = report.get("time") or {}
+    values = report.get("values") or {}
+    rejected = report.get("rejected") or {}
+    kind = {"sample": "instantaneous samples", "stats": "interval min/avg/max statistics",
+            "mixed": "samples and statistics"}.get(str(report.get("kind")), str(report.get("kind") or "–"))
+    floors = report.get("floors") or {}
+    rows = [
+        ("Layout", f"{report.get('layout') or '–'}; separator {report.get('separator')!r}, decimal "
+                   f"{report.get('decimal')!r}, {report.get('encoding') or '?'}, header on line "
+                   f"{report.get('header_line') or '?'}"),
+        ("Time", f"{', '.join(time.get('columns') or []) or '–'} ({time.get('format') or '?'}; zone: "
+                 f"{time.get('zone') or 'UTC'}; stamps mark the {time.get('marks') or 'start'})"),
+        ("Hop", f"{', '.join(report.get('links') or []) or '–'} (from {report.get('link_source') or '?'})"),
+        ("Channels", ", ".join(report.get("channels") or []) or "–"),
+        ("Quantities", ", ".join(report.get("quantities") or []) or "–"),
+        ("Data", f"{kind}, every {_interval_text(report.get('interval_s'))}"),
+        ("Time span (UTC)", f"{report.get('start_utc') or '–'} → {report.get('end_utc') or '–'}"),
+        ("Rows", f"{int(report.get('rows_read') or 0):,} read, {int(report.get('rows_kept') or 0):,} kept, "
+                 f"{sum(int(v or 0) for v in rejected.values()):,} not kept"),
+        ("Values", f"{int(values.get('ok') or 0):,} ok, {int(values.get('signal_lost') or 0):,} signal lost, "
+                   f"{int(values.get('missing') or 0):,} missing"),
+        ("Gaps (no data)", f"{int(report.get('gap_count') or 0):,} gaps, "
+                           f"{_interval_text(report.get('gap_seconds') or 0)} in all"),
+    ]
+    if floors:
+        rows.append(("Receiver floor", "; ".join(f"{q}: {f.get('dbm')} dBm" for q, f in floors.items()
+                                                 if isinstance(f, dict))))
+    if report.get("out_of_order_rows"):
+        rows.append(("Out of order", f"{int(report['out_of_order_rows']):,} rows sorted into time order"))
+    return pd.DataFrame(rows, columns=["What", "Found"])
+
+
+def column_roles(report: dict) -> pd.DataFrame:
+    """Each column of the file and the role the reader gave it (``ignored`` for the ones it left aside)."""
+    rows = [{"Column": str(name), "Read as": str(role)} for name, role in (report.get("columns") or {}).items()]
+    rows += [{"Column": str(name), "Read as": "ignored"} for name in report.get("ignored_columns") or []]
+    return pd.DataFrame(rows, columns=["Column", "Read as"])
+
+
 def rejected_rows(report: dict) -> pd.DataFrame:
-    """Rows the reader did not keep, by reason, from a reader report (``ReadResult.report.to_dict()``)."""
-    rejected = report.get("rejected") or report.get("rows_rejected") or {}
-    if isinstance(rejected, dict):
-        rows = [{"Reason": str(k), "Rows": int(v)} for k, v in rejected.items() if v]
-    else:
-        rows = []
-    return pd.DataFrame(rows, columns=["Reason", "Rows"])
+    """Rows (and values) the reader did not keep or could not use, by reason, from a reader report."""
+    rows = [{"Reason": str(k).replace("_", " "), "Count": int(v), "Of": "rows (not kept)"}
+            for k, v in (report.get("rejected") or {}).items() if v]
+    reasons = (report.get("values") or {}).get("reasons") or {}
+    rows += [{"Reason": str(k).replace("_", " "), "Count": int(v), "Of": "values (row kept)"}
+             for k, v in reasons.items() if v]
+    return pd.DataFrame(rows, columns=["Reason", "Count", "Of"])
 
 
 def no_data_share(result: LinkResult) -> float | None:
     """Fraction of the analysed period with no data (from the outage summary), None when unknown."""
     summary = result.outage.summary if result.outage is not None else {}
-    observed = _summary_number(summary, "observed_s")
-    gap = _summary_number(summary, "no_data_s")
+    observed = _number(summary.get("observed_s"))
+    gap = _number(summary.get("no_data_s"))
     if observed is None or gap is None or observed + gap <= 0:
         return None
     return gap / (observed + gap)

@@ -132,19 +132,47 @@ def test_event_table_filters_by_cause_and_depth():
     assert len(views.event_table(events.iloc[:0])) == 0
 
 
-def test_fades_by_hour_counts_every_event_once():
-    events = _events([
-        ("2026-03-02 05:10:00", "2026-03-02 05:11:00", "multipath", 20.0),
-        ("2026-03-02 05:50:00", "2026-03-02 05:51:00", "multipath", 20.0),
-        ("2026-03-03 05:20:00", "2026-03-03 05:21:00", "multipath", 20.0),
-        ("2026-03-02 15:00:00", "2026-03-02 16:00:00", "rain", 30.0),
-    ])
-    out = views.fades_by_hour(events)
-    assert out["events"].sum() == len(events)
-    assert set(out["hour"]) == set(range(24))
-    assert out[(out.hour == 5) & (out.cause == "multipath")]["events"].item() == 3
-    shifted = views.fades_by_hour(events, utc_offset_h=2)
-    assert shifted[(shifted.hour == 17) & (shifted.cause == "rain")]["events"].item() == 1
+def test_hourly_fading_converts_seconds_and_keeps_every_hour():
+    # diag.stats' by_hour block (shape as the statistics module writes it)
+    stats = {"by_hour": {"hour_utc": list(range(24)),
+                         "faded_s_by_cause": {"rain": [0.0] * 15 + [1800.0] + [0.0] * 8,
+                                              "multipath": [120.0] * 24},
+                         "event_starts_by_cause": {"rain": [0] * 15 + [2] + [0] * 8, "multipath": [1] * 24}}}
+    out = views.hourly_fading(stats)
+    assert len(out) == 48 and set(out["hour"]) == set(range(24))
+    assert out["cause"].iloc[0] == "rain"                                   # CAUSES order, not dict order
+    assert out[(out.hour == 15) & (out.cause == "rain")]["faded_min"].item() == 30.0
+    assert out["event_starts"].sum() == 2 + 24                              # every fade start counted once
+    assert len(views.hourly_fading({})) == 0
+
+
+def test_exceedance_curves_keep_measured_theory_and_predictions():
+    stats = {"exceedance": {"depth_db": [3.0, 10.0, 20.0], "all_percent": [20.0, 5.0, 0.0],
+                            "rayleigh_percent": [39.42, 9.516, 0.995], "multipath_percent": [0.0, 0.0, 0.0],
+                            "p530_multipath": {"percent_worst_month": [16.0, 3.6, 0.72]}},
+             "rain": {"p530": {"percent_of_year": [1.0, 0.1, 0.01], "attenuation_db": [2.4, 8.7, 23.0]}}}
+    out = views.exceedance_curves(stats)
+    # zero percentages cannot be drawn on a log axis: dropped, never turned into a tiny number
+    assert (out["percent"] > 0).all()
+    assert set(out["kind"]) == {"measured", "theory", "prediction"}
+    rain = out[out.curve.str.contains("rain prediction")]
+    assert rain["depth_db"].tolist() == [2.4, 8.7, 23.0] and rain["percent"].tolist() == [1.0, 0.1, 0.01]
+    # Rayleigh: P(fade > 10 dB) = 1 - exp(-10^(-10/10)) = 9.516 % (textbook Rayleigh CDF), carried unchanged
+    assert out[(out.kind == "theory") & (out.depth_db == 10.0)]["percent"].item() == pytest.approx(9.516)
+    assert len(out[out.curve == "measured, all fades"]) == 2
+    assert len(views.exceedance_curves({})) == 0
+
+
+def test_key_figures_flatten_nested_results():
+    data = {"rice_k": {"k_factor_db": 3.21, "n_samples": 500}, "curve": list(range(50)), "skipped": None,
+            "note": "drop me", "range": [1.0, 2.5]}
+    out = views.key_figures(data, skip=("note",))
+    table = dict(zip(out["Item"], out["Value"]))
+    assert table["rice k › k factor db"] == "3.21"
+    assert table["curve"] == "50 entries"
+    assert table["range"] == "1, 2.5"
+    assert table["skipped"] == "–"
+    assert "note" not in table
 
 
 # --- overview -------------------------------------------------------------------------------------------------------
@@ -152,29 +180,63 @@ BY_CAUSE = pd.DataFrame({"link_id": "HOP-1", "cause": ["rain", "multipath", "ref
                          "below_threshold_s": [1800.0, 600.0, 0.0], "unavailable_s": [1500.0, 0.0, 0.0]})
 SUMMARY = {"link_id": "HOP-1", "period_start_utc": "2026-03-02T00:00:00Z", "period_end_utc": "2026-03-09T00:00:00Z",
            "observed_s": 600000.0, "no_data_s": 4800.0, "below_threshold_s": 2400.0, "unavailable_s": 1500.0,
-           "ses_available_s": 30.0, "availability_pct": 99.75, "objective_pct": 99.99, "meets_objective": False}
+           "ses_available_s": 30.0, "availability_pct": 99.75, "objective_pct": 99.99, "meets_objective": "no",
+           "exact": True}
+# a statistics log: exact figures unknown (NaN), bounds given instead (diag.outage's summary keys)
+BY_CAUSE_BOUNDS = pd.DataFrame({"link_id": "HOP-1", "cause": ["multipath", "signal_loss"], "events": [1, 1],
+                                "below_threshold_s": [np.nan, np.nan], "unavailable_s": [np.nan, np.nan],
+                                "below_threshold_s_lo": [3, 0], "below_threshold_s_hi": [2481, 899],
+                                "unavailable_s_lo": [0, 0], "unavailable_s_hi": [2700, 900]})
+SUMMARY_BOUNDS = {"link_id": "HOP-1", "observed_s": 21600, "no_data_s": 0, "availability_pct": np.nan,
+                  "availability_pct_lo": 83.3333, "availability_pct_hi": 100.0, "unavailable_s": np.nan,
+                  "unavailable_s_lo": 0, "unavailable_s_hi": 3600, "below_threshold_s": np.nan,
+                  "below_threshold_s_lo": 3, "below_threshold_s_hi": 3380, "objective_pct": 99.99,
+                  "meets_objective": "undetermined", "exact": False, "method": "bounds from 900-s statistics"}
 
 
 def test_outage_minutes_by_cause_converts_seconds_and_keeps_order():
     out = views.outage_minutes_by_cause(_result(by_cause=BY_CAUSE, summary=SUMMARY))
     assert out["cause"].tolist() == ["rain", "multipath"]                   # zero rows left out, CAUSES order
-    assert out["below_threshold_min"].tolist() == [30.0, 10.0]
-    assert out["unavailable_min"].tolist() == [25.0, 0.0]
+    assert out["below_threshold_lo_min"].tolist() == [30.0, 10.0]
+    assert out["below_threshold_hi_min"].tolist() == [30.0, 10.0]
+    assert out["unavailable_lo_min"].tolist() == [25.0, 0.0]
+    assert out["exact"].all()
     full = views.outage_minutes_by_cause(_result(by_cause=BY_CAUSE, summary=SUMMARY), include_zero=True)
     assert len(full) == 3
     assert len(views.outage_minutes_by_cause(_result())) == 0
 
 
+def test_outage_bounds_are_carried_not_invented():
+    out = views.outage_minutes_by_cause(_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS))
+    assert out["below_threshold_lo_min"].tolist() == [3 / 60, 0.0]
+    assert out["below_threshold_hi_min"].tolist() == [2481 / 60, 899 / 60]
+    assert not out["exact"].any()
+    hop = views.hop_overview(_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS))
+    assert hop["availability_pct"] == (83.3333, 100.0)
+    assert hop["unavailable_min"] == (0.0, 60.0)
+    assert hop["meets_objective"] is None and hop["meets_text"] == "undetermined"
+    assert hop["exact"] is False
+    assert views.range_text(hop["unavailable_min"], "{:.1f}", " min") == "0.0–60.0 min"
+    assert views.range_text((None, None)) == "–"
+
+
 def test_hop_overview_reads_the_summary():
     result = _result(by_cause=BY_CAUSE, summary=SUMMARY)
     hop = views.hop_overview(result)
-    assert hop["availability_pct"] == 99.75 and hop["meets_objective"] is False
-    assert hop["unavailable_min"] == 25.0 and hop["below_threshold_min"] == 40.0
-    assert hop["dominant_cause"] == "rain" and hop["dominant_cause_label"] == "Rain"
+    assert hop["availability_pct"] == (99.75, 99.75) and hop["meets_objective"] is False
+    assert hop["unavailable_min"] == (25.0, 25.0) and hop["below_threshold_min"] == (40.0, 40.0)
+    assert hop["dominant_cause"] == "rain" and hop["dominant_cause_label"] == views.cause_label("rain")
+    assert views.range_text(hop["availability_pct"], "{:.4f}", " %") == "99.7500 %"
     assert views.no_data_share(result) == pytest.approx(4800.0 / 604800.0)
-    table = views.network_table([result, _result()])
-    assert table["Hop"].tolist() == ["HOP-1", "HOP-1"]
-    assert table["Meets objective"].iloc[0] == "NO"
+    table = views.network_table([_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS), result, _result()])
+    assert table["Hop"].tolist() == ["HOP-1"] * 3
+    assert table["Availability %"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
+    assert table["Meets objective"].tolist()[:2] == ["undetermined", "NO"]
+
+
+def test_dominant_cause_prefers_the_outage_modules_verdict():
+    named = dict(SUMMARY, dominant_cause="multipath")
+    assert views.dominant_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
 
 
 def test_dominant_cause_falls_back_to_event_count():
@@ -195,5 +257,31 @@ def test_top_findings_normalises_keys():
 
 
 def test_cause_labels_cover_the_vocabulary():
-    assert set(views.CAUSE_LABELS) == set(schema.CAUSES)
-    assert len(set(views.CAUSE_LABELS.values())) == len(schema.CAUSES)     # distinguishable by label alone
+    labels = [views.cause_label(c) for c in schema.CAUSES]
+    assert len(set(labels)) == len(schema.CAUSES)          # distinguishable by label alone
+
+
+# --- reader report --------------------------------------------------------------------------------------------------
+REPORT = {"file": "a.csv", "encoding": "utf-8", "separator": ",", "decimal": ".", "header_line": 1, "layout": "wide",
+          "columns": {"time_utc": "time", "RSL H (dBm)": "rsl_dbm/sample"}, "ignored_columns": ["Comment"],
+          "time": {"columns": ["time_utc"], "format": "iso", "zone": "offset in the stamps", "marks": "start"},
+          "guesses": [], "links": ["HOP-1"], "link_source": "file_name", "channels": ["H"],
+          "quantities": ["rsl_dbm"], "kind": "sample", "interval_s": 1.0, "start_utc": "2026-06-08T00:00:00Z",
+          "end_utc": "2026-06-08T05:59:59Z", "rows_read": 21590, "rows_kept": 21568,
+          "rejected": {"duplicate": 22}, "values": {"read": 100, "ok": 97, "signal_lost": 1, "missing": 2,
+                                                     "reasons": {"blank": 2, "receiver_floor": 1}},
+          "floors": {"rsl_dbm": {"dbm": -88.7, "how": "plateau"}}, "gap_count": 3, "gap_seconds": 120.0,
+          "out_of_order_rows": 16, "warnings": []}
+
+
+def test_reader_summary_shows_detection_and_accounting():
+    table = dict(zip(*views.reader_summary(REPORT).to_dict("list").values()))
+    assert table["Rows"] == "21,590 read, 21,568 kept, 22 not kept"       # read = kept + rejected
+    assert table["Data"] == "instantaneous samples, every 1 s"
+    assert table["Gaps (no data)"] == "3 gaps, 2 min in all"
+    assert "-88.7 dBm" in table["Receiver floor"]
+    roles = views.column_roles(REPORT)
+    assert roles["Read as"].tolist() == ["time", "rsl_dbm/sample", "ignored"]
+    rejected = views.rejected_rows(REPORT)
+    assert rejected["Count"].tolist() == [22, 2, 1]
+    assert rejected["Count"][rejected["Of"].str.startswith("rows")].sum() == REPORT["rows_read"] - REPORT["rows_kept"]
