@@ -148,6 +148,14 @@ def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: Analys
     return results
 
 
+def _is_store(path: Path) -> bool:
+    try:
+        from diag.store import is_store
+    except ModuleNotFoundError:  # pragma: no cover - store is part of the package
+        return False
+    return bool(is_store(path))
+
+
 def expand_sources(sources: Iterable) -> list:
     """Paths (folders expand to their files, non-recursive, hidden files skipped) and ``(name, bytes)`` pairs."""
     out: list = []
@@ -156,7 +164,9 @@ def expand_sources(sources: Iterable) -> list:
             out.append(source)
             continue
         path = Path(os.fspath(source))
-        if path.is_dir():
+        if path.is_dir() and _is_store(path):
+            out.append(path)  # a store written by 'ingest --out': the reader opens it whole
+        elif path.is_dir():
             files = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
             if not files:
                 raise InputError("folder holds no files", path=str(path))
