@@ -143,7 +143,7 @@ def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *,
 def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
                  window_s: float = 7200.0, persist_s: float = 6 * 3600.0,
                  fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6, abrupt_s: float = 600.0,
-                 min_abrupt_fraction: float = 0.6) -> list[Step]:
+                 min_abrupt_fraction: float = 0.6, max_step_db: float | None = 40.0) -> list[Step]:
     """Persistent steps of the clear-sky level of one channel.
 
     Parameters
@@ -164,6 +164,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     min_flat_fraction : float
         Share of the blocks after the step that must sit within max(1 dB, step/4) of the new level (a long rain
         fade wanders; a step is flat).
+    max_step_db : float or None
+        Larger steps are not level shifts: a drop of more than this is a loss of signal (the receiver sits at or
+        near its floor), e.g. a far-end transmitter off for a day (common practice; None = no limit).
     abrupt_s, min_abrupt_fraction : float
         Abruptness check: the clear level over ``abrupt_s`` before and after the refined time must differ by at
         least this fraction of the step (rejects the slow end of a refractive fade and drifts).
@@ -210,6 +213,8 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
             continue
         if abs(new - old) < max(min_step_db, abs(diff[i]) / 2):
             continue  # not persistent: a long fade, not a step
+        if max_step_db is not None and abs(new - old) > max_step_db:
+            continue  # a drop to (near) the receiver floor: loss of signal, not a level shift
         if (hi - i) < w or (i - lo) < w:
             continue
         if _flat_fraction(blocks[i:hi], new, abs(new - old)) < min_flat_fraction:

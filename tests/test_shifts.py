@@ -129,3 +129,12 @@ def test_level_changes_on_link_result_flags_common_step():
     assert all(abs(v + 6.0) <= 1.0 for v in out["common"][0]["size_db_by_channel"].values())
     import json
     json.dumps(out)  # JSON-able
+
+
+def test_drop_to_receiver_floor_is_not_a_level_shift():
+    # real case (OpenRainER link 245, 18 Aug 2022): the level fell from -42 to -102 dBm (floor) for 28 h;
+    # a 60-dB 'step' is a loss of signal, not a misalignment (common practice)
+    x = np.full(3 * 1440, -42.0)
+    x[1500:] = -102.0
+    assert shifts.detect_steps(_grid(x, step_s=60.0), 60.0) == []
+    assert len(shifts.detect_steps(_grid(x, step_s=60.0), 60.0, max_step_db=None)) == 1
