@@ -85,11 +85,11 @@ def _empty(n: int) -> np.ndarray:
 
 
 def _cause_codes(frame: pd.DataFrame) -> np.ndarray:
+    """Cause index (CAUSES) per grid point; _UNKNOWN where no event covers it or the cause is not in the list."""
     if "cause" not in frame.columns:
         return np.full(len(frame), _UNKNOWN, dtype=np.int8)
-    cause = frame["cause"].astype(object).where(frame["cause"].notna(), "")
-    lookup = {name: i for i, name in enumerate(CAUSES)}
-    return np.fromiter((lookup.get(str(c), _UNKNOWN) for c in cause), dtype=np.int8, count=len(cause))
+    codes = pd.Index(CAUSES, dtype=object).get_indexer(frame["cause"].astype(object))
+    return np.where(codes < 0, _UNKNOWN, codes).astype(np.int8)
 
 
 def _offsets(frame: pd.DataFrame, t0: pd.Timestamp) -> np.ndarray:
@@ -97,10 +97,14 @@ def _offsets(frame: pd.DataFrame, t0: pd.Timestamp) -> np.ndarray:
     return np.round(np.asarray(delta, dtype=float)).astype(np.int64)
 
 
-def _status(frame: pd.DataFrame) -> np.ndarray:
+def _status_flags(frame: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """(status == "ok", status == "signal_lost") as bool arrays; without a status column, ok = level present."""
     if "status" not in frame.columns:
-        return np.where(frame["rsl_dbm"].notna(), schema.OK, GRID_NO_DATA).astype(object)
-    return frame["status"].astype(object).fillna(GRID_NO_DATA).to_numpy()
+        return frame["rsl_dbm"].notna().to_numpy(), np.zeros(len(frame), dtype=bool)
+    status = frame["status"]
+    ok = (status == schema.OK).to_numpy(dtype=bool, na_value=False)
+    lost = (status == schema.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)
+    return ok, lost
 
 
 def _fill(target: np.ndarray, starts, lengths, values=None) -> None:
@@ -122,10 +126,10 @@ def _exact_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm:
     30 % of its observed samples are (by analogy with the G.826 SES definition, >= 30 % errored blocks)."""
     frame = series.frame
     off = _offsets(frame, t0)
-    status = _status(frame)
-    rsl = frame["rsl_dbm"].to_numpy(dtype=float)
-    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
-    below = (status == schema.SIGNAL_LOST) | ((status == schema.OK) & (rsl < threshold_dbm))
+    ok, lost = _status_flags(frame)
+    rsl = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    observed = ok | lost
+    below = lost | (ok & (rsl < threshold_dbm))
     codes = _cause_codes(frame)
     inside = (off >= 0) & (off < n)
     obs_s, below_s = _empty(n), _empty(n)
@@ -158,10 +162,10 @@ def _sample_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm
     frame = series.frame
     dt = int(round(series.interval_s))
     off = _offsets(frame, t0)
-    status = _status(frame)
-    rsl = frame["rsl_dbm"].to_numpy(dtype=float)
-    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
-    below = (status == schema.SIGNAL_LOST) | ((status == schema.OK) & (rsl < threshold_dbm))
+    ok, lost = _status_flags(frame)
+    rsl = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    observed = ok | lost
+    below = lost | (ok & (rsl < threshold_dbm))
     nxt_obs = np.append(observed[1:], False) & (np.append(off[1:], -1) == off + dt)
     nxt_below = np.append(below[1:], False)
     codes = _cause_codes(frame)
@@ -254,12 +258,11 @@ def _stats_masks(series: ChannelSeries, t0: pd.Timestamp, n: int, threshold_dbm:
     frame = series.frame
     dt = int(round(series.interval_s))
     off = _offsets(frame, t0)
-    status = _status(frame)
-    observed = (status == schema.OK) | (status == schema.SIGNAL_LOST)
-    lost = status == schema.SIGNAL_LOST
+    ok, lost = _status_flags(frame)
+    observed = ok | lost
     mn = frame["rsl_min_dbm"].to_numpy(dtype=float) if "rsl_min_dbm" in frame else np.full(len(frame), np.nan)
     mx = frame["rsl_max_dbm"].to_numpy(dtype=float) if "rsl_max_dbm" in frame else np.full(len(frame), np.nan)
-    av = frame["rsl_dbm"].to_numpy(dtype=float)
+    av = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
     mn = np.where(lost & np.isnan(mn), -np.inf, mn)
     mx = np.where(lost & np.isnan(mx), -np.inf, mx)     # lost for the whole interval when no max survives
     k_lo, k_hi = stats_interval_bounds(mn, av, mx, threshold_dbm, dt, average=average)
