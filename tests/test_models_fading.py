@@ -1,4 +1,4 @@
-"""Rayleigh/Rice statistics, K estimation and Rayleigh LCR/AFD (diag.models.fading) against scipy.stats and simulation."""
+"""Rayleigh/Rice statistics, K estimation, LCR/AFD (diag.models.fading) against scipy.stats and simulation."""
 import math
 
 import numpy as np

@@ -283,3 +283,12 @@ def test_multipath_monotone(p0, a):
     p1 = p530.multipath_fade_percent(a, p0)
     p2 = p530.multipath_fade_percent(a + 1.0, p0)
     assert p2 < p1 <= 100.0
+
+
+@settings(max_examples=50, deadline=None)
+@given(st.floats(-3.0, 0.0), st.floats(6.0, 80.0), st.floats(1.0, 200.0))
+def test_rain_percent_round_trip(log_p, f, a001):
+    # property: eq. (34) and its inverse round-trip over the whole 0.001-1 % range
+    p = 10 ** log_p
+    a = p530.rain_attenuation_db(p, a001, f)
+    assert p530.rain_time_percent(a, a001, f) == pytest.approx(p, rel=1e-7)

@@ -59,5 +59,6 @@ def link_budget(frequency_ghz: float, length_km: float, tx_power_dbm: float, *, 
     level = float(expected_level_dbm(tx_power_dbm, fsl, tx_gain_dbi, rx_gain_dbi, tx_losses_db, rx_losses_db,
                                      other_losses_db))
     margin = None if threshold_dbm is None else float(fade_margin_db(level, threshold_dbm))
-    return LinkBudget(frequency_ghz=float(frequency_ghz), length_km=float(length_km), free_space_loss_db=fsl, expected_level_dbm=level,
+    return LinkBudget(frequency_ghz=float(frequency_ghz), length_km=float(length_km), free_space_loss_db=fsl,
+                      expected_level_dbm=level,
                       threshold_dbm=None if threshold_dbm is None else float(threshold_dbm), fade_margin_db=margin)

@@ -147,7 +147,7 @@ def rain_time_percent(attenuation_db: ArrayLike, a001_db: ArrayLike, frequency_g
         x = (-c2 + np.sqrt(disc)) / (2.0 * c3)  # (34) inverted
         p = np.where((a > 0) & (a001 > 0), 10.0 ** x, np.nan)
     finite = p[np.isfinite(p)]
-    if finite.size and np.any((finite < 0.001) | (finite > 1.0)):
+    if finite.size and np.any((finite < 0.001 * (1 - 1e-9)) | (finite > 1.0 + 1e-9)):
         warnings.warn("rain attenuation outside the 0.001-1 % range of P.530 §2.4.1; the percentage is an "
                       "extrapolation", RuntimeWarning, stacklevel=2)
     return like_input(p, attenuation_db, a001_db, frequency_ghz)
