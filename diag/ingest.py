@@ -239,10 +239,16 @@ def _decode(head: bytes, complete: bool, label: str) -> tuple[str, str]:
     if not head.strip():
         raise InputError("empty file (no data)", path=label)
     if head.startswith(codecs.BOM_UTF8):
-        return _decode_with(head[3:], "utf-8", complete, label), "utf-8-sig"
+        try:
+            return _decode_with(head[3:], "utf-8", complete, label), "utf-8-sig"
+        except UnicodeDecodeError:
+            return head.decode("latin-1"), "latin-1"   # a BOM, then bytes that are not UTF-8
     for bom, enc in ((codecs.BOM_UTF16_LE, "utf-16-le"), (codecs.BOM_UTF16_BE, "utf-16-be")):
         if head.startswith(bom):
-            return _decode_with(head[2:], enc, complete, label), "utf-16"
+            try:
+                return _decode_with(head[2:], enc, complete, label), "utf-16"
+            except UnicodeDecodeError as exc:
+                raise InputError("starts with a UTF-16 mark but is not UTF-16 text", path=label) from exc
     if b"\x00" in head[:4096]:
         raise InputError("not a text log (binary data)", path=label)
     ctrl = sum(1 for b in head[:4096] if b < 9 or 13 < b < 32)
@@ -1063,10 +1069,7 @@ def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | N
         return read_logs(files, tz=tz, mapping=mapping, link_id=link_id)
     head = src.data[:4] if src.data is not None else _head(_Source(src.label, src.stem, src.path, None), 4)
     if head == b"PAR1":
-        if src.data is not None:
-            tab = store._to_frame(__import__("pyarrow.parquet").parquet.read_table(pa.BufferReader(src.data)))
-        else:
-            tab = store.read_parquet(src.path)
+        tab = store.read_parquet(src.data if src.data is not None else src.path, name=src.label)
         return _from_table(tab, src.label, "parquet")
     result = _read_csv(src, tz=tz, mapping=mapping, link_id=link_id)
     for w in result.report.warnings:

@@ -427,11 +427,25 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
             text = pc.replace_substring_regex(text, r"\s*UTC$", "Z")
     ser = pd.Series(pd.array(text, dtype="str"), copy=False)
     if spec.kind == "iso":
-        if spec.has_offset:
-            t = pd.to_datetime(ser, format="ISO8601", utc=True, errors="coerce")
-            # rows without offset in an offset column: read as UTC by to_datetime(utc=True)
-            return _finish_utc(t, n)
-        t = pd.to_datetime(ser, format="ISO8601", errors="coerce")
+        # stamps with Z/offset are exact; stamps without are local time in spec.tz (UTC when none), even when the
+        # two kinds are mixed in one column
+        off = pc.fill_null(pc.match_substring_regex(text, r"(Z|z|[+-]\d{2}(:?\d{2})?)$"), False)
+        off = off.to_numpy(zero_copy_only=False) & (pc.utf8_length(text).to_numpy(zero_copy_only=False) > 10)
+        ns = np.zeros(n, dtype=np.int64)
+        code = np.ones(n, dtype=np.int8)
+        if off.any():
+            t = pd.to_datetime(ser[off], format="ISO8601", utc=True, errors="coerce")
+            ns[off], code[off] = _finish_utc(t, int(off.sum()))
+        if not off.all():
+            naive = ~off
+            t = pd.to_datetime(ser[naive], format="ISO8601", errors="coerce")
+            if getattr(t.dt, "tz", None) is not None:   # cannot happen without an offset; be safe
+                ns[naive], code[naive] = _finish_utc(t.dt.tz_convert("UTC"), int(naive.sum()))
+            elif spec.tz:
+                ns[naive], code[naive] = _localise(t, spec.tz)
+            else:
+                ns[naive], code[naive] = _finish_utc(t.dt.tz_localize("UTC"), int(naive.sum()))
+        return ns, code
     else:
         t = pd.to_datetime(ser, format=spec.fmt, errors="coerce")
     if getattr(t.dt, "tz", None) is not None:

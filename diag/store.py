@@ -76,12 +76,17 @@ def write_parquet(table: pd.DataFrame, path: str | Path) -> Path:
     return path
 
 
-def read_parquet(path: str | Path) -> pd.DataFrame:
+def read_parquet(source: str | Path | bytes, *, name: str | None = None) -> pd.DataFrame:
+    """Read a single Parquet file (path or bytes) written by ``write_parquet``."""
+    label = name or (str(source) if not isinstance(source, (bytes, bytearray)) else "upload")
     try:
-        tab = pq.read_table(path)
+        src = pa.BufferReader(bytes(source)) if isinstance(source, (bytes, bytearray)) else source
+        return _to_frame(pq.read_table(src))
+    except InputError as exc:
+        exc.path = exc.path or label
+        raise
     except (OSError, pa.ArrowException) as exc:
-        raise InputError(f"not a readable Parquet file ({' '.join(str(exc).split())[:120]})", path=str(path)) from exc
-    return _to_frame(tab)
+        raise InputError(f"not a readable Parquet file ({' '.join(str(exc).split())[:120]})", path=label) from exc
 
 
 def write_store(table: pd.DataFrame, directory: str | Path) -> Path:
