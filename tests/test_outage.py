@@ -190,13 +190,14 @@ def test_stats_interval_bounds_contain_the_true_count(values, threshold, mw_aver
 
 
 def test_stats_interval_bounds_cases():
-    lo, hi = outage.stats_interval_bounds([-80, -50, -75, np.nan], [-78, -45, -50, -60],
-                                          [-72, -40, -41, -55], -70.0, 900)
+    lo, hi = outage.stats_interval_bounds([-80, -50, -75, np.nan, -np.inf], [-78, -45, -50, -60, np.nan],
+                                          [-72, -40, -41, -55, -45], -70.0, 900)
     assert (lo[0], hi[0]) == (900, 900)       # max below threshold: all of it
     assert (lo[1], hi[1]) == (0, 0)           # min at or above: none
     assert 1 <= lo[2] < hi[2] <= 899          # straddles: between 1 and 899, narrowed by the average
     assert hi[2] < 899
     assert lo[3] == 0 and hi[3] < 899        # min unknown: no lower information; the average still caps it
+    assert (lo[4], hi[4]) == (1, 899)         # signal lost at the minimum (-inf), no average: 1 .. 899 s
 
 
 # --- simulated hops with known truth ----------------------------------------------------------------------------
@@ -356,3 +357,18 @@ def test_simulated_15min_statistics_bounds_contain_truth(sim_1s):
     assert s["availability_pct_lo"] <= exact["availability_pct"] <= s["availability_pct_hi"]
     assert s["unavailable_s_hi"] > s["unavailable_s_lo"]                # an honest interval, not one number
     check_adds_up(res)
+
+
+def test_pipeline_end_to_end_per_cause_within_2_percent_of_truth(sim_1s):
+    # the whole analysis (DIAGNOSIS's reference, events and classification, then this accounting) on the simulated
+    # hop: per-cause unavailable seconds within 2 % (+2 s) of the simulator's truth
+    pipeline = pytest.importorskip("diag.pipeline")
+    sr = sim_1s
+    result = pipeline.analyze_link(sr.table, sr.link)
+    assert result.outage is not None
+    _, per_cause_true = true_unavailable_by_cause(sr)
+    bc = result.outage.by_cause.set_index("cause")
+    for cause, true_s in per_cause_true.items():
+        measured = bc.loc[cause, "unavailable_s"]
+        assert abs(measured - true_s) <= 0.02 * true_s + 2, (cause, measured, true_s)
+    check_adds_up(result.outage)
