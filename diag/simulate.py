@@ -591,14 +591,18 @@ def aggregate_statistics(table: pd.DataFrame, *, interval_s: float = 900.0, floo
     value = table[schema.VALUE].to_numpy(dtype=float)
     is_lost = status == schema.SIGNAL_LOST
     usable = status != schema.MISSING
+    codes, labels = {}, {}
+    for name in (schema.LINK, schema.CHANNEL, schema.QUANTITY):
+        codes[name], labels[name] = pd.factorize(table[name], sort=True)   # integer keys: fast grouping
     frame = pd.DataFrame({
-        "link": table[schema.LINK].to_numpy(dtype=object), "channel": table[schema.CHANNEL].to_numpy(dtype=object),
-        "quantity": table[schema.QUANTITY].to_numpy(dtype=object), "bin": t_ns // width_ns,
-        "v": np.where(usable, np.where(is_lost, floor_dbm, value), np.nan),
-        "lost": is_lost.astype(int), "usable": usable.astype(int)})
+        "link": codes[schema.LINK], "channel": codes[schema.CHANNEL], "quantity": codes[schema.QUANTITY],
+        "bin": t_ns // width_ns, "v": np.where(usable, np.where(is_lost, floor_dbm, value), np.nan),
+        "lost": is_lost.astype(np.int32), "usable": usable.astype(np.int32)})
     grouped = frame.groupby(["link", "channel", "quantity", "bin"], sort=True)
     agg = grouped.agg(vmin=("v", "min"), vavg=("v", "mean"), vmax=("v", "max"), lost=("lost", "sum"),
                       usable=("usable", "sum")).reset_index()
+    for name, key in ((schema.LINK, "link"), (schema.CHANNEL, "channel"), (schema.QUANTITY, "quantity")):
+        agg[key] = np.asarray(labels[name], dtype=object)[agg[key].to_numpy()]
     rows = []
     for stat_name, column in ((schema.AVG, "vavg"), (schema.MAX, "vmax"), (schema.MIN, "vmin")):
         if stat_name == schema.MIN:

@@ -36,12 +36,9 @@ from diag.errors import InputError
 
 __all__ = ["SHAPES", "WriteInfo", "write_log", "write_wide_iso", "write_semicolon_local", "write_epoch",
            "write_links_table", "truth_segments", "write_truth", "write_scenario",
-           "write_long", "write_stats", "SHAPE_SUFFIX"]
+           "write_long", "write_stats"]
 
 SHAPES = ("wide_iso", "semicolon_local", "epoch", "long", "stats")
-SHAPE_SUFFIX = {"wide_iso": "wide", "semicolon_local": "local", "epoch": "epoch", "long": "long",
-                "stats": "15min"}
-
 _LABEL = {  # quantity -> (wide_iso name, semicolon name, epoch name, unit)
     schema.RSL: ("RSL", "Rx level", "RxLevel", "dBm"),
     schema.TSL: ("TSL", "Tx level", "TxLevel", "dBm"),
@@ -154,7 +151,7 @@ def _write_lines(path: Path, header: str, columns: list[pa.Array], sep: str, ord
     path.parent.mkdir(parents=True, exist_ok=True)
     if path.suffix == ".gz":
         buffer = io.BytesIO()
-        with gzip.GzipFile(filename="", mode="wb", fileobj=buffer, mtime=0, compresslevel=9) as handle:
+        with gzip.GzipFile(filename="", mode="wb", fileobj=buffer, mtime=0, compresslevel=6) as handle:
             handle.write(data)
         data = buffer.getvalue()
     path.write_bytes(data)
@@ -445,7 +442,7 @@ def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[s
             for i in ids:
                 r = results[i]
                 suffix = ".csv.gz" if outputs.get(i, {}).get("gzip", False) else ".csv"
-                name = f"{i}_{SHAPE_SUFFIX[shape]}{suffix}"
+                name = f"{i}{suffix}"      # the reader takes a one-hop file's link id from its name
                 info = write_log(r.table, folder / name, shape, tz=scenario.tz, defects=r.file_defects,
                                  floor_dbm=r.spec.floor_value_dbm)
                 written.append(info.path)
