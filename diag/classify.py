@@ -137,7 +137,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         if dur < 120.0:
             score += 1.0
             reasons.append("too short for rain or refraction")
-        if math.isfinite(corr) and corr < 0.8:
+        if math.isfinite(corr) and corr < 0.8 and peak - mean_fade >= 3.0:  # (a flat fade has no shape to share)
             score += 0.5
             reasons.append(f"H/V correlation {corr:.2f}")
         if score >= 1.0:
