@@ -3,12 +3,13 @@
 Edition.  The rain method (§2.4.1) is the same in ITU-R P.530-17 (12/2017) and P.530-18 (09/2021).  The
 multipath method implemented is the P.530-17 one (§2.3.1: geoclimatic factor K from dN1 and s_a, or given by the
 user; p_w = K d^3.4 (1 + |eps_p|)^-1.03 f^0.8 10^(-0.00076 h_L - A/10)); P.530-18 replaced it by a form that needs
-its digital maps (LogK, dN75), which this tool does not ship.  Equation numbers in comments are those of
-P.530-17 as printed beside the arithmetic in ITU-Rpy 0.4.0 and in the ITU reference code; they were not checked
-against the PDF and may be off by a few in P.530-18.
+its digital maps (LogK, dN75), which this tool does not ship.  Equation numbers in comments: (4), (5), (7),
+(10), (12), (13), (18), (32)-(35), (78), (101)-(106) and (112)-(115) are those printed beside the same arithmetic
+in ITU-Rpy 0.4.0 for P.530-17; (14)-(17), (29) and (30) are inferred from the order of the text (from memory).
+None was checked against the PDF, and P.530-18 renumbers some of them.
 
 Reading of the C0 term (eq. (35)).  The printed text "C0 = 0.12 + 0.4 [log10(f/10)^0.8]" is read two ways.  This
-module reads it as 0.4 log10((f/10)^0.8) (= 0.32 log10(f/10)), as the ITU-R reference code and crc-covlib do;
+module reads it as 0.4 log10((f/10)^0.8) (= 0.32 log10(f/10)), as other published P.530-18 implementations do;
 ITU-Rpy reads 0.4 (log10(f/10))^0.8.  The two agree at p = 0.01 % and differ by up to a few per cent at 0.001 and
 1 %.  ``c0_reading="power_of_log"`` selects the other reading (used in tests to reproduce ITU-Rpy exactly).
 
@@ -290,7 +291,7 @@ def geoclimatic_conversion_db(latitude_deg: ArrayLike, length_km: ArrayLike,
 
     Delta G = 10.5 - 5.6 log10(1.1 +- |cos 2 xi|^0.7) - 2.7 log10 d + 1.7 log10(1 + |eps_p|), limited to
     Delta G <= 10.8 dB; "+" for |xi| <= 45 deg, "-" above.  (The upper limit is read from the text, from memory;
-    crc-covlib and the ITU reference code apply max(10.8, Delta G), which contradicts "<= 10.8 dB".)
+    some published implementations apply max(10.8, Delta G) instead, which contradicts "<= 10.8 dB".)
     """
     xi = np.radians(np.abs(as_float_array(latitude_deg)))
     sign = np.where(np.degrees(xi) <= 45.0, 1.0, -1.0)
