@@ -875,6 +875,9 @@ def _finish(chunks: list[_Rows], keys: _Keys, plan: _Plan, report: IngestReport,
         del first
         keepm = ~dup
         ns, key, rownum, vals, reas = ns[keepm], key[keepm], rownum[keepm], vals[keepm], reas[keepm]
+    if len(key) == 0:
+        report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
+        return S.empty_table()
     # group boundaries
     bounds = np.flatnonzero(np.diff(key)) + 1
     starts = np.concatenate(([0], bounds))
