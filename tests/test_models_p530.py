@@ -292,3 +292,13 @@ def test_rain_percent_round_trip(log_p, f, a001):
     p = 10 ** log_p
     a = p530.rain_attenuation_db(p, a001, f)
     assert p530.rain_time_percent(a, a001, f) == pytest.approx(p, rel=1e-7)
+
+
+def test_multipath_p530_18_worked_value():
+    # REFERENCES.md §3.2 [C]: P.530-18 with K = 10^-4.2, dN75 = 40, h_t = 50 m, d = 30 km, f = 8 GHz,
+    # he = 200 m, hr = 100 m: h_c = 91.18 m, v_sr = 8.6e-4, p0 = 27.52 %
+    p0 = p530.multipath_deep_fade_percent_p530_18(0.0, 30.0, 8.0, 10 ** -4.2, 40.0, 200.0, 100.0, 50.0)
+    assert p0 == pytest.approx(27.52, rel=1e-3)
+    # deep-fade slope 10 dB per decade in this form too
+    p20 = p530.multipath_deep_fade_percent_p530_18(20.0, 30.0, 8.0, 10 ** -4.2, 40.0, 200.0, 100.0, 50.0)
+    assert p20 == pytest.approx(p0 / 100, rel=1e-12)

@@ -31,7 +31,7 @@ from diag.models._util import ArrayLike, as_float_array, like_input
 __all__ = ["rain_distance_factor", "rain_attenuation_001_db", "rain_scaling_coefficients", "rain_attenuation_db",
            "rain_time_percent", "rain_fade_count_10s", "rain_frequency_scaling_db", "rain_polarization_scaling_db",
            "geoclimatic_factor_k", "path_inclination_mrad", "multipath_deep_fade_percent",
-           "multipath_occurrence_percent", "multipath_fade_percent", "geoclimatic_conversion_db",
+           "multipath_occurrence_percent", "multipath_deep_fade_percent_p530_18", "multipath_fade_percent", "geoclimatic_conversion_db",
            "multipath_fade_percent_year", "rayleigh_tail_percent", "xpd_rain_db", "copolar_attenuation_for_xpd_db",
            "xpd_rain_voltage_factor_db", "xpd_outage_rain_probability", "xpd_outage_clear_air_probability"]
 
@@ -244,6 +244,36 @@ def multipath_occurrence_percent(length_km: ArrayLike, frequency_ghz: ArrayLike,
     """Multipath occurrence factor p0 = p_w(A = 0) of the deep-fade law [%] (P.530-17 §2.3.2 step 1, eq. (10))."""
     return multipath_deep_fade_percent(0.0, length_km, frequency_ghz, geoclimatic_k, path_inclination_mrad,
                                        lower_antenna_altitude_m)
+
+
+def multipath_deep_fade_percent_p530_18(fade_depth_db: ArrayLike, length_km: ArrayLike, frequency_ghz: ArrayLike,
+                                        geoclimatic_k: ArrayLike, dn75: ArrayLike, height_tx_m: ArrayLike,
+                                        height_rx_m: ArrayLike, mean_terrain_m: ArrayLike) -> ArrayLike:
+    """Deep-fade percentage of the average worst month by the P.530-18 §2.3.1 method [%].
+
+    h_c = (h_r + h_e)/2 - d^2/102 - h_t;  v_sr = min((dN75/50)^1.8 exp(-h_c/(2.5 sqrt d)), dN75 d^1.5 f^0.5/24730);
+    p_w = K d^3.51 (f^2 + 13)^0.447 10^(-0.376 tanh((h_c - 147)/125) - 0.334 eps_p^0.39 - 0.00027 h_L
+    + 17.85 v_sr - A/10), with eps_p = |h_r - h_e|/d [mrad] and h_L = min(h_e, h_r).
+
+    K (here the P.530-18 worst-month factor, from its LogK map) and dN75 (its map of the 0.1 % worst-month
+    refractivity increase over the lowest 75 m) must be supplied by the caller: the maps are not shipped.
+    Heights in metres above sea level (h_t: mean terrain height along the path).  Use the result's A = 0 value as
+    p0 in :func:`multipath_fade_percent` for shallow fades.
+    """
+    a = as_float_array(fade_depth_db)
+    d = as_float_array(length_km)
+    f = as_float_array(frequency_ghz)
+    he, hr = as_float_array(height_tx_m), as_float_array(height_rx_m)
+    dn75_arr = as_float_array(dn75)
+    eps = np.abs(hr - he) / d
+    h_c = (hr + he) / 2.0 - d * d / 102.0 - as_float_array(mean_terrain_m)
+    v_sr = np.minimum((dn75_arr / 50.0) ** 1.8 * np.exp(-h_c / (2.5 * np.sqrt(d))),
+                      dn75_arr * d ** 1.5 * f ** 0.5 / 24730.0)
+    exponent = (-0.376 * np.tanh((h_c - 147.0) / 125.0) - 0.334 * eps ** 0.39 - 0.00027 * np.minimum(he, hr)
+                + 17.85 * v_sr - a / 10.0)
+    p_w = as_float_array(geoclimatic_k) * d ** 3.51 * (f * f + 13.0) ** 0.447 * 10.0 ** exponent
+    return like_input(p_w, fade_depth_db, length_km, frequency_ghz, geoclimatic_k, dn75, height_tx_m, height_rx_m,
+                      mean_terrain_m)
 
 
 def _shallow(a: np.ndarray, p_t: np.ndarray, a_t: np.ndarray) -> np.ndarray:
