@@ -2,7 +2,7 @@
 
 References
 ----------
-ITU-R P.525-4 (08/2019), "Calculation of free-space attenuation", §2.2 (point-to-point links): L_bf =
+ITU-R P.525-4 (08/2019, date from memory), "Calculation of free-space attenuation", §2.2 (point-to-point links): L_bf =
 20 log10(4 pi d / lambda) dB, i.e. 32.4 + 20 log10 f[MHz] + 20 log10 d[km] (equation numbers from memory).
 ITU-R P.530-17 §2.2.1, eq. (2): first Fresnel ellipsoid radius F1 = 17.3 sqrt(d1 d2 / (f d)) m; the exact
 form sqrt(n lambda d1 d2 / d) is that of ITU-R P.526 §3.1 (from memory).

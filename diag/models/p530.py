@@ -156,7 +156,8 @@ def rain_time_percent(attenuation_db: ArrayLike, a001_db: ArrayLike, frequency_g
 
 def rain_fade_count_10s(time_percent: ArrayLike) -> ArrayLike:
     """Number of rain fade events per year exceeding the attenuation that is exceeded ``time_percent`` of the
-    time and lasting 10 s or longer: N10s = 1 + 1313 p^0.945 (P.530-17 §2.4.6, eq. (78); p in %)."""
+    time and lasting 10 s or longer: N10s = 1 + 1313 p^0.945 (P.530-17 §2.4, eq. (78) as numbered in ITU-Rpy;
+    the subsection is from memory; p in %)."""
     p = as_float_array(time_percent)
     return like_input(1.0 + 1313.0 * p ** 0.945, time_percent)  # (78)
 
@@ -376,8 +377,9 @@ def xpd_rain_voltage_factor_db(frequency_ghz: ArrayLike) -> ArrayLike:
 def xpd_rain_db(copolar_attenuation_db: ArrayLike, frequency_ghz: ArrayLike, u0_db: ArrayLike = 15.0) -> ArrayLike:
     """Equiprobable rain XPD for a co-polar attenuation: XPD = U - V(f) log10(CPA) [dB] (P.530-17 §4.2).
 
-    U = U0 + 30 log10 f with U0 about 15 dB (the default, a lower bound of 9 dB is quoted for long-term
-    statistics).  CPA in dB, > 0; CPA <= 1 dB gives U (no reduction is predicted below 1 dB).
+    U = U0 + 30 log10 f with U0 about 15 dB (the default; a lower bound of 9 dB is quoted for long-term
+    statistics, from memory).  CPA in dB; CPA <= 1 dB gives U (a choice made here: the log law would otherwise
+    predict XPD above U for very light rain).
     """
     cpa = np.maximum(as_float_array(copolar_attenuation_db), 1.0)
     f = as_float_array(frequency_ghz)
