@@ -1,0 +1,69 @@
+"""Ranked findings (diag.findings).
+
+The remedies are the trade's usual ones (common practice, no outside source): rain -> margin, lower band,
+vertical polarisation, adaptive modulation; tilt -> feed realignment; site work carries the work-at-height, RF
+exposure and licensed-practice cautions (project rule).  Inputs: simulated hops with known causes (diag.simulate
+truth, so the test does not depend on the classifier), outage from diag.outage, statistics from diag.stats,
+cross-polar from diag.crosspol and level changes from diag.shifts.
+"""
+import json
+import sys
+from pathlib import Path
+
+from diag import crosspol, findings, shifts, stats
+from diag.outage import account_link
+from diag.simulate import Effect, LinkSpec, simulate_link
+
+sys.path.insert(0, str(Path(__file__).parent))
+from _stats_support import truth_result  # noqa: E402
+
+KEYS = {"title", "detail", "numbers", "actions", "cautions", "severity"}
+
+
+def _analysed(spec, seed=4):
+    result = truth_result(simulate_link(spec, seed=seed))
+    result.statistics = stats.link_statistics(result)
+    result.cross_polar = crosspol.cross_polar(result)
+    result.level_changes = shifts.level_changes(result)
+    result.outage = account_link(result)
+    return result
+
+
+def test_rain_dominated_hop_gets_rain_first_with_remedies():
+    spec = LinkSpec(link_id="wet", frequency_ghz=23, length_km=12, polarization="H", threshold_dbm=-68,
+                    r001_mmh=40, objective_pct=99.99, duration_s=6 * 3600,
+                    effects=(Effect("rain", 3600, 2 * 3600, {"peak_mmh": 90}),))
+    out = findings.rank_findings(_analysed(spec))
+    assert out and KEYS <= set(out[0])
+    top = out[0]
+    assert top["cause"] == "rain" and top["severity"] == "high"
+    text = " ".join(top["actions"]).lower()
+    for remedy in ("margin", "lower frequency band", "vertical polarisation", "adaptive modulation"):
+        assert remedy in text
+    assert top["numbers"]["unavailable_s"] > 0 and top["numbers"]["p530_a001_db"] > 0
+    assert any("licen" in c for c in top["cautions"])
+    assert [f["rank"] for f in out] == list(range(1, len(out) + 1))
+    json.dumps(out)
+
+
+def test_tilt_and_step_get_site_cautions():
+    spec = LinkSpec(link_id="tilted", frequency_ghz=18, length_km=8, polarization="dual", threshold_dbm=-80,
+                    xpd_required_db=25, duration_s=18 * 3600,
+                    effects=(Effect("level_shift", 6 * 3600, None, {"step_db": 5, "tilt_deg": 8}),))
+    out = findings.rank_findings(_analysed(spec))
+    tilt = [f for f in out if f["cause"] == "polarisation_tilt"]
+    assert len(tilt) == 1 and tilt[0]["severity"] == "high"        # XPD below the required 25 dB
+    assert abs(tilt[0]["numbers"]["tilt_deg"] - 8.0) <= 1.0
+    assert "realign" in " ".join(tilt[0]["actions"])
+    cautions = " ".join(tilt[0]["cautions"]).lower()
+    assert "work at height" in cautions and "rf exposure" in cautions and "licensed practice" in cautions
+    shift = [f for f in out if f["cause"] == "level_shift"]
+    assert shift and "alignment" in " ".join(shift[0]["actions"])
+    assert all(KEYS <= set(f) for f in out)
+
+
+def test_quiet_hop_has_no_high_findings():
+    spec = LinkSpec(link_id="calm", frequency_ghz=15, length_km=5, polarization="V", threshold_dbm=-80,
+                    duration_s=3 * 3600)
+    out = findings.rank_findings(_analysed(spec))
+    assert all(f["severity"] != "high" for f in out)
