@@ -687,7 +687,7 @@ def random_scenario(seed: int, *, n_links: int = 3, duration_h: float = 48.0, in
 
         if long_hop:
             for day in range(int(math.ceil(duration_s / 86400.0))):
-                begin = day * 86400.0 + rng.uniform(-2.0, 1.0) * 3600.0 + 23 * 3600.0 - 86400.0 * (day == 0) * 0
+                begin = day * 86400.0 + rng.uniform(21.0, 24.0) * 3600.0     # night windows from 21-24 h
                 length_s = rng.uniform(5.0, 8.0) * 3600.0
                 if begin < 0 or begin + length_s > duration_s:
                     continue
