@@ -97,6 +97,8 @@ def test_k_estimators_rayleigh_and_edge_cases():
     assert math.isinf(fading.rice_k_moments(np.full(20, 2.0)))  # constant envelope: no scatter
     with pytest.raises(ValueError, match="at least 10"):
         fading.rice_k_moments([1.0, np.nan, 2.0])
+    with pytest.raises(ValueError, match="all zero"):
+        fading.rice_k_moments(np.zeros(20))
     with pytest.raises(ValueError, match="method"):
         fading.fit_rice(r, method="guess")
     # NaNs are ignored

@@ -140,6 +140,8 @@ def rice_k_moments(envelope: ArrayLike) -> float:
     """
     r = _clean_envelope(envelope)
     scale = np.mean(r * r)
+    if scale <= 0:
+        raise ValueError("envelope samples are all zero")
     p = r * r / scale  # normalised power: K is scale-free
     mu2 = 1.0
     mu4 = float(np.mean(p * p))
