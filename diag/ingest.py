@@ -974,14 +974,22 @@ def _sorted_unique(a: np.ndarray) -> np.ndarray:
     return s[keep]
 
 
-def _step(ns: np.ndarray) -> float | None:
-    if len(ns) < 2:
+def _mode_step_ns(t: np.ndarray) -> float | None:
+    """The most common step between sorted unique stamps (ties: the shortest); robust to gaps and jitter-free logs."""
+    if len(t) < 2:
         return None
-    d = np.diff(_sorted_unique(ns))
+    d = np.sort(np.diff(t))
     d = d[d > 0]
     if not d.size:
         return None
-    return float(np.median(d)) / 1e9
+    starts = np.flatnonzero(np.concatenate(([True], d[1:] != d[:-1])))
+    runs = np.diff(np.concatenate((starts, [len(d)])))
+    return float(d[starts[int(np.argmax(runs))]])
+
+
+def _step(ns: np.ndarray) -> float | None:
+    st = _mode_step_ns(_sorted_unique(ns))
+    return None if st is None else st / 1e9
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -1011,7 +1019,7 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
         if len(t) < 2:
             continue
         d = np.diff(t)
-        step = float(np.median(d))
+        step = _mode_step_ns(t)
         steps.append(step)
         stepped.append(lk)
         big = np.flatnonzero(d > 1.5 * step)

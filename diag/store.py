@@ -39,7 +39,7 @@ def _to_arrow(table: pd.DataFrame, with_row: bool) -> pa.Table:
                          pa.timestamp("ns", tz="UTC")),
     }
     for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
-        arrays[c] = pa.array(table[c].astype("str").to_numpy(dtype=object, na_value=None), pa.string())
+        arrays[c] = pa.array(table[c].astype("str"), type=pa.large_string()).cast(pa.string())
     for c in (S.INTERVAL, S.VALUE):
         arrays[c] = pa.array(table[c].to_numpy(dtype="float64"), pa.float64())
     if with_row:
@@ -100,13 +100,19 @@ def write_store(table: pd.DataFrame, directory: str | Path) -> Path:
     directory.mkdir(parents=True)
     tab = _to_arrow(table, with_row=True)
     if len(table):
-        link = table[S.LINK].astype("str").to_numpy(dtype=object)
-        day = table[S.TIME].dt.strftime("%Y-%m-%d").to_numpy(dtype=object)
-        keys = pd.DataFrame({"l": link, "d": day})
-        for (lk, dy), idx in keys.groupby(["l", "d"], sort=True).indices.items():
+        link_code, links = pd.factorize(table[S.LINK], sort=True)
+        ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
+        day = ns // (86400 * 10**9)                       # UTC day number
+        day0 = int(day.min())
+        key = link_code.astype(np.int64) * (int(day.max()) - day0 + 1) + (day - day0)
+        order = np.argsort(key, kind="stable")
+        bounds = np.flatnonzero(np.diff(key[order])) + 1
+        for idx in np.split(order, bounds):
+            lk = links[link_code[idx[0]]]
+            dy = np.datetime64(int(day[idx[0]]), "D").astype(str)
             part = directory / f"link={quote(str(lk), safe='')}" / f"day={dy}"
             part.mkdir(parents=True, exist_ok=True)
-            pq.write_table(tab.take(pa.array(np.sort(idx))), part / "part.parquet", compression="zstd")
+            pq.write_table(tab.take(pa.array(idx)), part / "part.parquet", compression="zstd")
     (directory / MARKER).write_text(json.dumps({"format": FORMAT, "version": 1, "columns": S.COLUMNS,
                                                 "rows": int(len(table))}, indent=1))
     return directory
