@@ -138,10 +138,16 @@ class LinkSpec:
         for name in ("blank_fraction", "drop_fraction", "duplicate_fraction", "swap_fraction"):
             if not 0.0 <= getattr(self, name) < 0.5:
                 raise InputError(f"link {self.link_id}: {name} must be in [0, 0.5)")
+        for name in ("noise_db", "quantisation_db", "atpc_range_db"):
+            value = getattr(self, name)
+            if not (value >= 0.0 and math.isfinite(value)):
+                raise InputError(f"link {self.link_id}: {name} must be a finite number >= 0")
         if not 0.0 <= self.tilt_deg < 45.0:
             raise InputError(f"link {self.link_id}: tilt_deg must be in [0, 45)")
         if self.floor_value_dbm >= self.threshold_dbm:
             raise InputError(f"link {self.link_id}: floor_dbm must be below threshold_dbm")
+        if self.nominal_dbm <= self.threshold_dbm:
+            raise InputError(f"link {self.link_id}: nominal_dbm must be above threshold_dbm (no fade margin)")
         self.to_link()  # validates the links-table fields
 
     @property

@@ -229,3 +229,25 @@ def test_bad_specs_raise_input_error():
         LinkSpec("X", 23.0, 5.0, "circular", -70.0)
     with pytest.raises(InputError, match="interval_s"):
         LinkSpec("X", 23.0, 5.0, "H", -70.0, interval_s=0.0)
+
+
+def test_wet_antenna_dries_after_the_rain_and_drift_accumulates():
+    # wet-antenna loss outlasts the rain and dries out exponentially (shape after Schleiss et al., IEEE GRSL 10,
+    # 2013; the time constant is the scenario's drying_min); drift adds db_per_week linearly (common practice:
+    # vegetation growth is slow and steady)
+    spec = LinkSpec("WA", 23.0, 6.0, "H", -70.0, nominal_dbm=-38.0, duration_s=6 * 3600, noise_db=0.0,
+                    quantisation_db=1.0,
+                    effects=(Effect("rain", 1800.0, 1800.0, {"peak_mmh": 20.0, "wet_antenna_db": 2.0,
+                                                             "drying_min": 15.0}),
+                             Effect("drift", 0.0, None, {"db_per_week": 7.0})))
+    result = simulate_link(spec, seed=8)
+    truth = result.truth_samples.set_index("time_utc")
+    after = truth.loc["2026-06-01T01:00:00Z":, "rain"]
+    assert (truth.loc["2026-06-01T01:00:00Z":, "rain_rate_mmh"] == 0).all()
+    w0 = after.iloc[0]
+    assert 0.5 < w0 <= 2.0
+    w15 = after.loc["2026-06-01T01:15:00Z"]
+    assert w15 / w0 == pytest.approx(np.exp(-1.0), rel=0.05)           # one drying time constant later
+    assert truth["level_shift"].iloc[-1] == pytest.approx(7.0 * 6 / 168, rel=1e-3)
+    values = result.table["value"].dropna().to_numpy()
+    np.testing.assert_array_equal(values, np.round(values))             # 1 dB quantisation
