@@ -212,9 +212,9 @@ def _page_summary(fig, results: Sequence[LinkResult]) -> None:
     fig.text(0.06, y, _wrap(note, 135), fontsize=6.8, va="top", style="italic")
 
     bar_top = y - 0.085
-    bar_h = min(0.26, max(0.12, 0.035 * len(rows) + 0.06))
+    bar_h = min(0.24, max(0.11, 0.028 * len(rows) + 0.05))
     _bar_by_cause(fig.add_axes([0.2, bar_top - bar_h, 0.74, bar_h]), results)
-    key_bottom = _key_points(fig, results, top=bar_top - bar_h - 0.06)
+    key_bottom = _key_points(fig, results, top=bar_top - bar_h - 0.105)
     _outlook(fig, results, top=key_bottom - 0.03)
     fig.text(0.06, 0.035, _wrap(SAFETY_TEXT, 140), fontsize=7, color=style.INK, va="bottom")
 
@@ -242,8 +242,7 @@ def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
             if cause not in used:
                 used.append(cause)
             ax.barh(yi, value, left=left, height=0.6, color=style.cause_color(cause),
-                    hatch=style.cause_hatch(cause), edgecolor="white", linewidth=0.5,
-                    label=style.cause_label(cause) if used.count(cause) == 1 and cause == used[-1] else None)
+                    hatch=style.cause_hatch(cause), edgecolor="white", linewidth=0.5)
             left += value
         if not exact:
             lo = float(r.outage.summary.get("unavailable_s_lo", 0)) / 60.0
@@ -253,7 +252,7 @@ def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
                 bounds_note = True
                 ax.plot([lo, hi], [yi, yi], color=style.INK, lw=1.2)
                 ax.plot([hi], [yi], marker="|", color=style.INK, markersize=10)
-                ax.text(hi, yi + 0.32, f" up to {hi:.0f} min", fontsize=6.5, va="bottom")
+                ax.text(hi, yi + 0.32, f"up to {hi:.0f} min", fontsize=6.5, va="bottom", ha="right")
         total = left
         ax.text(total, yi, f" {total:.1f}" if exact else "", va="center", fontsize=7)
     ax.set_yticks(y)
@@ -268,14 +267,20 @@ def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
         ax.text(0.5, 0.5, "No unavailable time on any hop in this period", ha="center", va="center",
                 transform=ax.transAxes, fontsize=10)
         ax.set_xlim(0, 1)
+    legend_lines = 0
     if used:
-        ax.legend(fontsize=7, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=min(len(used), 3), frameon=False,
-                  borderaxespad=0.2)
-        ax.set_title("Outage minutes (unavailable time) by cause", loc="left", fontsize=11, weight="bold",
-                     pad=18 if len(used) <= 3 else 30)
+        ncol = min(len(used), 3)
+        legend_lines = -(-len(used) // ncol)
+        from matplotlib.patches import Patch
+
+        handles = [Patch(facecolor=style.cause_color(c), hatch=style.cause_hatch(c), edgecolor="white",
+                         label=style.cause_label(c)) for c in style.CAUSE_ORDER if c in used]
+        ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(-0.2, -0.16), ncol=ncol,
+                  frameon=False, borderaxespad=0.0)
     if bounds_note:
-        ax.text(0, -0.35, "Bars: the part that is certain; line: how far the outage may reach (coarse logs).",
-                fontsize=6.5, transform=ax.transAxes, style="italic")
+        ax.annotate("Bars: the part that is certain; line: how far the outage may reach (coarse logs).",
+                    xy=(-0.2, 0), xycoords="axes fraction", xytext=(0, -40 - 12 * legend_lines),
+                    textcoords="offset points", fontsize=6.5, style="italic", va="top")  # below the legend
 
 
 def _top_findings(results: Sequence[LinkResult], limit: int) -> list[tuple[str, dict]]:
@@ -306,7 +311,7 @@ def _first_action(finding: dict) -> str:
 def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
     fig.text(0.06, top, "Key points", fontsize=11, weight="bold", va="top")
     lines = []
-    for link_id, f in _top_findings(results, 5):
+    for link_id, f in _top_findings(results, 4):
         title = f.get("title", "")
         action = _first_action(f)
         lines.append(_wrap(f"• {link_id}: {title}" + (f" — Action: {action}" if action else ""), 125))
@@ -344,7 +349,7 @@ def _outlook(fig, results: Sequence[LinkResult], top: float) -> None:
         allowed = s.get("objective_min_per_year")
         rows.append([r.link.link_id, format_minutes(s), f"{s['observed_s'] / 86400:.1f} d", rng(lo, hi),
                      rng(wlo, whi), f"{allowed:,.1f} min" if _finite(allowed) else "no objective"])
-    if not rows or top < 0.2:
+    if not rows or top - 0.022 * (len(rows) + 1.8) < 0.12:
         return
     fig.text(0.06, top, "Outlook for a year (extrapolation only)", fontsize=11, weight="bold", va="top")
     height = 0.022 * (len(rows) + 1.8)
@@ -455,9 +460,9 @@ def _page_timelines(fig, results: Sequence[LinkResult]) -> None:
     from matplotlib.patches import Patch
 
     fig.text(0.06, 0.965, "What happened on each hop", fontsize=15, weight="bold", va="top")
-    fig.text(0.06, 0.94, "Receive level (band = spread within each plotted step), receiver threshold (dashed), fades "
-             "shaded by cause; level shifts as a strip along the bottom; dotted white = no data.", fontsize=8,
-             va="top")
+    fig.text(0.06, 0.94, _wrap("Receive level (band = spread within each plotted step), receiver threshold "
+             "(dashed), fades shaded by cause; level shifts as a strip along the bottom; dotted white = no data; "
+             "loss of signal drawn below the threshold.", 130), fontsize=8, va="top")
     shown = [r for r in results if r.series]
     if len(shown) > MAX_TIMELINES:
         shown = sorted(shown, key=lambda r: -((r.outage.summary.get("unavailable_s_hi") or 0)
@@ -543,6 +548,9 @@ def _distribution(ax, results: Sequence[LinkResult]) -> None:
         y = np.array([v if _finite(v) and v > 0 else np.nan for v in pred["percent_worst_month"]], dtype=float)
         ax.semilogy(depth, y, color=style.cause_color(schema.MULTIPATH), lw=1.0, ls="-.",
                     label="design prediction, ITU-R P.530 (worst month)")
+    from matplotlib.ticker import FuncFormatter
+
+    ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))   # plain numbers: no mathtext
     ax.set_xlabel("fade depth below the clear-sky level [dB]", fontsize=8)
     ax.set_ylabel("% of observed time exceeded", fontsize=8)
     ax.tick_params(labelsize=7)
@@ -609,19 +617,33 @@ def _page_findings(fig, results: Sequence[LinkResult]) -> None:
     if counters:
         blocks.append(("The radios' own counters", [_wrap(line, 135) for line in counters]))
     blocks.append(("Safety", [_wrap(SAFETY_TEXT.replace("Safety: some", "Some"), 135)]))
-    for title, lines in blocks:
-        if y < 0.06:
-            break
+    _draw_blocks(fig, blocks, top=y, bottom=0.03)
+
+
+_LINE_H = 0.0135
+
+
+def _block_height(lines: list[str]) -> float:
+    return 0.022 + sum(_LINE_H * (line.count("\n") + 1) + 0.004 for line in lines) + 0.012
+
+
+def _draw_blocks(fig, blocks: list[tuple[str, list[str]]], *, top: float, bottom: float) -> None:
+    """Text blocks from ``top`` down.  The first block (findings) gives way: every later block (data gaps, method,
+    safety) is always printed in full, the findings are cut with a pointer to findings.json."""
+    reserved = sum(_block_height(lines) for _, lines in blocks[1:])
+    y = top
+    for index, (title, lines) in enumerate(blocks):
+        limit = bottom + reserved if index == 0 else bottom
         fig.text(0.06, y, title, fontsize=10, weight="bold", va="top")
         y -= 0.022
         for line in lines:
             n_lines = line.count("\n") + 1
-            if y - 0.0135 * n_lines < 0.03:
-                fig.text(0.06, y, "… (more in findings.json)", fontsize=7, va="top", style="italic")
-                y = 0.0
+            if index == 0 and y - _LINE_H * n_lines - 0.02 < limit:
+                fig.text(0.06, y, "… more findings in findings.json", fontsize=7, va="top", style="italic")
+                y -= _LINE_H + 0.004
                 break
             fig.text(0.06, y, line, fontsize=7.3, va="top", linespacing=1.25)
-            y -= 0.0135 * n_lines + 0.004
+            y -= _LINE_H * n_lines + 0.004
         y -= 0.012
 
 
