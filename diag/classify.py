@@ -27,6 +27,10 @@ and the first that fires wins:
       confidence and is said in the evidence (a gauge is a point and can miss a cell).
 5. **unknown** - no usable feature (e.g. all samples missing).
 
+6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain within 30 min of multipath events on the
+   same channel is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
+   several channels the propagation verdict with the highest confidence is applied to all of them.
+
 15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
 short-term variability (multipath widens the spread while the average stays near the reference; rain lowers
 the average and minimum together), and every confidence multiplied by 0.7 (the verdict rests on three numbers per
@@ -128,7 +132,11 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         if math.isfinite(fast) and fast >= max(0.6, 0.15 * mean_fade):
             score += 1.0
             reasons.append(f"fast fluctuation {fast:.1f} dB rms about the 1-min mean")
-        if math.isfinite(var_excess) and var_excess >= 0.5:
+        # at 1-s sampling a rain fade changes by tenths of a dB per sample; at coarser sampling (1-min logs) a deep
+        # rain fade moves several dB per sample, so the test becomes relative to the fade depth
+        step_s = _f(row["interval_s"])
+        var_limit = 0.5 if not (step_s > 2.0) else max(0.5, 0.4 * mean_fade)
+        if math.isfinite(var_excess) and var_excess >= var_limit:
             score += 0.6
             reasons.append(f"1-s variability {var:.2f} dB")
         if upfade >= 2.0:
@@ -240,7 +248,30 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     out["confidence"] = np.round([v[1] for v in verdicts], 2)
     out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
     _harmonise_groups(out)
+    _short_fades_amid_multipath(out)
+    out["peak_fade_db"] = out["peak_fade_db"].clip(lower=0.0)
     return out
+
+
+def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.0) -> None:
+    """A short (< 10 min), shallow (< 6 dB) fade called rain within 30 min of a multipath event of the same
+    channel is one more dip of that multipath episode (multipath activity lasts hours and comes and goes;
+    a shallow rain fade of a few minutes alone carries no shape to judge)."""
+    mp = events[events["cause"] == S.MULTIPATH]
+    if mp.empty:
+        return
+    window = pd.Timedelta(seconds=window_s)
+    for i in events.index[(events["cause"] == S.RAIN) & (events["duration_s"] < 600)
+                          & (events["peak_fade_db"] < 6.0)]:
+        row = events.loc[i]
+        near = mp[(mp["channel"] == row["channel"]) & (mp["end_utc"] >= row["start_utc"] - window)
+                  & (mp["start_utc"] <= row["end_utc"] + window)]
+        if len(near):
+            events.at[i, "cause"] = S.MULTIPATH
+            events.at[i, "confidence"] = 0.5
+            events.at[i, "evidence"] = (f"short shallow fade ({row['duration_s'] / 60:.0f} min, peak "
+                                        f"{row['peak_fade_db']:.1f} dB) within {window_s / 60:.0f} min of "
+                                        f"{len(near)} multipath event(s) on this channel")
 
 
 def _harmonise_groups(events: pd.DataFrame) -> None:
