@@ -35,6 +35,7 @@ import pandas as pd
 log = logging.getLogger(__name__)
 
 WEEK_S = 7 * 86400.0
+MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
 
 
 @dataclass(frozen=True)
@@ -65,6 +66,20 @@ def clear_level_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
     q75 = np.quantile(x, 0.75)
     kept = x[x >= q75 - fade_trim_db]
     return float(np.median(kept))
+
+
+def clear_mean_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
+    """Mean of the samples within ``MEAN_TRIM_DB`` (1.5 dB) of the window's trimmed median (:func:`clear_level_dbm`).
+
+    A mean, unlike a median, averages coarse quantisation (1-dB steps dithered by noise) out, so step sizes are not
+    rounded to the quantisation step; fades and upfades beyond the trim are left out.
+    """
+    med = clear_level_dbm(values, fade_trim_db=fade_trim_db)
+    if not math.isfinite(med):
+        return math.nan
+    x = values[np.isfinite(values)]
+    kept = x[np.abs(x - med) <= MEAN_TRIM_DB]
+    return float(kept.mean()) if kept.size else med
 
 
 def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float) -> np.ndarray:
@@ -118,9 +133,11 @@ def _window_levels(blocks: np.ndarray, w: int, *, fade_trim_db: float) -> tuple[
     return before, after
 
 
-def _flat_fraction(blocks: np.ndarray, level: float, step_db: float) -> float:
-    """Fraction of the valid blocks within max(1 dB, step/4) of ``level``."""
+def _flat_fraction(blocks: np.ndarray, level: float, step_db: float, fade_trim_db: float = 3.0) -> float:
+    """Fraction of the valid blocks within max(1 dB, step/4) of ``level``; blocks faded more than ``fade_trim_db``
+    below the level (rain on top of the new level) are left out."""
     x = blocks[np.isfinite(blocks)]
+    x = x[x >= level - max(fade_trim_db, step_db / 4.0)]
     if x.size == 0:
         return 0.0
     return float(np.mean(np.abs(x - level) <= max(1.0, step_db / 4.0)))
@@ -143,7 +160,8 @@ def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *,
 def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
                  window_s: float = 7200.0, persist_s: float = 6 * 3600.0,
                  fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6, abrupt_s: float = 600.0,
-                 min_abrupt_fraction: float = 0.6, max_step_db: float | None = 40.0) -> list[Step]:
+                 min_abrupt_fraction: float = 0.6, max_step_db: float | None = 40.0,
+                 min_edge_s: float = 3600.0) -> list[Step]:
     """Persistent steps of the clear-sky level of one channel.
 
     Parameters
@@ -164,6 +182,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     min_flat_fraction : float
         Share of the blocks after the step that must sit within max(1 dB, step/4) of the new level (a long rain
         fade wanders; a step is flat).
+    min_edge_s : float
+        Near the start or end of the record a step needs only this much evidence on that side (instead of a
+        full window), so a step an hour before the record ends is still found.
     max_step_db : float or None
         Larger steps are not level shifts: a drop of more than this is a loss of signal (the receiver sits at or
         near its floor), e.g. a far-end transmitter off for a day (common practice; None = no limit).
@@ -206,6 +227,16 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     for i in candidates:       # already in order of decreasing |diff|
         prev = max([a for a in accepted if a < i], default=0)
         nxt = min([a for a in accepted if a > i], default=n)
+        # the two windows see the same step anywhere on a plateau of |diff|; its first maximum can sit a whole
+        # window away from the step, so judge the candidate at the plateau's centre
+        thr = 0.8 * mag[i]
+        a = i
+        while a - 1 > prev and mag[a - 1] >= thr and np.sign(diff[a - 1]) == np.sign(diff[i]):
+            a -= 1
+        b = i
+        while b + 1 < nxt and mag[b + 1] >= thr and np.sign(diff[b + 1]) == np.sign(diff[i]):
+            b += 1
+        i = (a + b + 1) // 2
         lo, hi = max(prev, i - p), min(nxt, i + p)
         old = clear_level_dbm(blocks[lo:i], fade_trim_db=fade_trim_db)
         new = clear_level_dbm(blocks[i:hi], fade_trim_db=fade_trim_db)
@@ -215,19 +246,13 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
             continue  # not persistent: a long fade, not a step
         if max_step_db is not None and abs(new - old) > max_step_db:
             continue  # a drop to (near) the receiver floor: loss of signal, not a level shift
-        if (hi - i) < w or (i - lo) < w:
+        # evidence on each side: one window, or at the very start / end of the record at least min_edge_s
+        edge = max(2, int(round(min_edge_s / (block * interval_s))))
+        if (hi - i) < (edge if hi == n else w) or (i - lo) < (edge if lo == 0 else w):
             continue
-        if _flat_fraction(blocks[i:hi], new, abs(new - old)) < min_flat_fraction:
+        if _flat_fraction(blocks[i:hi], new, abs(new - old), fade_trim_db) < min_flat_fraction:
             continue  # the 'new level' wanders (a long rain fade), not a step
-        # refine at full resolution over the plateau of |diff| around i (the two windows see the same step
-        # anywhere on it), widened by one block either side
-        thr = 0.8 * mag[i]
-        a = i
-        while a - 1 > prev and mag[a - 1] >= thr:
-            a -= 1
-        b = i
-        while b + 1 < nxt and mag[b + 1] >= thr:
-            b += 1
+        # refine at full resolution over the plateau, widened by one block either side
         span_lo = max(prev * block, (a - 1) * block)
         span_hi = min(nxt * block, (b + 1) * block, len(values))
         k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
@@ -242,8 +267,8 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
             continue  # a slow change (the end of a refractive fade, a drift), not a step
         lo_s = max(prev * block, k - p * block)
         hi_s = min(nxt * block, k + p * block)
-        old_s = clear_level_dbm(values[lo_s:k], fade_trim_db=fade_trim_db)
-        new_s = clear_level_dbm(values[k:hi_s], fade_trim_db=fade_trim_db)
+        old_s = clear_mean_dbm(values[lo_s:k], fade_trim_db=fade_trim_db)
+        new_s = clear_mean_dbm(values[k:hi_s], fade_trim_db=fade_trim_db)
         if not (math.isfinite(old_s) and math.isfinite(new_s)):
             old_s, new_s = old, new
         accepted.append(i)
