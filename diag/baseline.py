@@ -112,19 +112,47 @@ def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int)
 
 
 _STATUS_RANK = {S.OK: 0, S.MISSING: 1, S.SIGNAL_LOST: 2}
-_STATUS_NAMES = np.array([S.OK, S.MISSING, S.SIGNAL_LOST, GRID_NO_DATA], dtype=object)
+STATUS_CATEGORIES = [S.OK, S.SIGNAL_LOST, S.MISSING, GRID_NO_DATA]
+_STATUS_ORDER = np.array([0, 2, 1, 3], dtype=np.int8)   # internal code (ok, missing, lost, no data) -> category
 
 
-def _place_status(times_ns: np.ndarray, status: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
+def _status_codes(status: pd.Series) -> np.ndarray:
+    """Row status as codes 0 ok, 1 missing, 2 signal_lost (vectorised comparisons, no per-row Python)."""
+    codes = np.ones(len(status), dtype=np.int8)
+    codes[(status == S.OK).to_numpy(dtype=bool, na_value=False)] = 0
+    codes[(status == S.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)] = 2
+    return codes
+
+
+def _place_status(times_ns: np.ndarray, codes: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
     """Status code per grid point: 0 ok, 1 missing, 2 signal_lost, 3 no data (an ok row wins a collision)."""
     pos = np.rint((times_ns - t0) / step).astype(np.int64)
     keep = (pos >= 0) & (pos < n)
-    codes = np.full(status.shape, 1, dtype=np.int8)
-    codes[status == S.OK] = 0
-    codes[status == S.SIGNAL_LOST] = 2
     out = np.full(n, 3, dtype=np.int8)
-    np.minimum.at(out, pos[keep], codes[keep])
+    pos, codes = pos[keep], codes[keep]
+    if pos.size and np.all(pos[1:] > pos[:-1]):
+        out[pos] = codes
+    else:
+        np.minimum.at(out, pos, codes)
     return out
+
+
+def _groups(table: pd.DataFrame) -> dict:
+    """Row blocks by (channel, quantity, stat), found from the runs of the (normally sorted) table."""
+    n = len(table)
+    change = np.zeros(n, dtype=bool)
+    change[0] = True
+    for col in (S.CHANNEL, S.QUANTITY, S.STAT):
+        values = table[col].reset_index(drop=True)
+        diff = values.iloc[1:].reset_index(drop=True) != values.iloc[:-1].reset_index(drop=True)
+        change[1:] |= diff.to_numpy(dtype=bool, na_value=True)
+    starts = np.flatnonzero(change)
+    ends = np.append(starts[1:], n)
+    keys = table.iloc[starts][[S.CHANNEL, S.QUANTITY, S.STAT]].astype(object).itertuples(index=False, name=None)
+    parts: dict = {}
+    for key, a, b in zip(keys, starts, ends):
+        parts.setdefault(tuple(str(k) for k in key), []).append(table.iloc[a:b])
+    return {key: (frames[0] if len(frames) == 1 else pd.concat(frames)) for key, frames in parts.items()}
 
 
 def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
@@ -138,7 +166,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
         return {}
     link_id = str(table[S.LINK].iloc[0])
     out: dict[str, ChannelSeries] = {}
-    groups = {key: frame for key, frame in table.groupby([S.CHANNEL, S.QUANTITY, S.STAT], sort=False)}
+    groups = _groups(table)
     channels = sorted({key[0] for key in groups if key[1] == S.RSL})
     tsl_channels = sorted({key[0] for key in groups if key[1] == S.TSL})
     mains = {}
@@ -165,7 +193,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
         t0 = lo + ((int(t_ns.min()) - lo) % step)  # keep the channel's own phase on the shared span
         n = int(round((hi - t0) / step)) + 1
         index = pd.DatetimeIndex(t0 + step * np.arange(n, dtype=np.int64), tz="UTC", name=S.TIME)
-        status = _place_status(t_ns, main[S.STATUS].to_numpy(dtype=object), t0, step, n)
+        status = _place_status(t_ns, _status_codes(main[S.STATUS]), t0, step, n)
         cols: dict[str, np.ndarray] = {"rsl_dbm": _place(t_ns, main[S.VALUE].to_numpy(dtype=float), t0, step, n)}
         if kind == "stats":
             for stat, name in ((S.MIN, "rsl_min_dbm"), (S.MAX, "rsl_max_dbm")):
@@ -174,7 +202,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
                     ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
                     cols[name] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
                     if stat == S.MIN:  # a signal-lost minimum marks the interval as reaching the floor
-                        st = _place_status(ts, frame[S.STATUS].to_numpy(dtype=object), t0, step, n)
+                        st = _place_status(ts, _status_codes(frame[S.STATUS]), t0, step, n)
                         status = np.where((st == 2) & (status == 0), 2, status)
                 else:
                     cols[name] = cols["rsl_dbm"].copy()
@@ -200,7 +228,8 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
                 ts = counter[0][S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
                 cols[quantity] = _place(ts, counter[0][S.VALUE].to_numpy(dtype=float), t0, step, n)
         frame = pd.DataFrame(cols, index=index)
-        frame["status"] = pd.array(_STATUS_NAMES[status], dtype="str")
+        # categorical: compares and converts like the str column the results docstring names, built in O(n)
+        frame["status"] = pd.Categorical.from_codes(_STATUS_ORDER[status], categories=STATUS_CATEGORIES)
         out[channel] = ChannelSeries(link_id=link_id, channel=channel, interval_s=step / 1e9, kind=kind,
                                      frame=frame)
     return out

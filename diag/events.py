@@ -121,13 +121,19 @@ def _expected_v_over_h(rate_mmh: float, frequency_ghz: float) -> float:
 
 
 def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
+    """Centred running mean over ``width`` samples ignoring NaN (cumulative sums: O(n))."""
     if width <= 1 or x.size < 3:
         return x
-    filled = np.where(np.isfinite(x), x, 0.0)
-    weight = np.isfinite(x).astype(float)
-    kernel = np.ones(min(width, x.size))
-    num = np.convolve(filled, kernel, mode="same")
-    den = np.convolve(weight, kernel, mode="same")
+    width = min(width, x.size)
+    ok = np.isfinite(x)
+    csum = np.concatenate([[0.0], np.cumsum(np.where(ok, x, 0.0))])
+    ccount = np.concatenate([[0], np.cumsum(ok)])
+    half = width // 2
+    idx = np.arange(x.size)
+    lo = np.clip(idx - half, 0, x.size)
+    hi = np.clip(idx - half + width, 0, x.size)
+    num = csum[hi] - csum[lo]
+    den = ccount[hi] - ccount[lo]
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(den > 0, num / den, np.nan)
 
@@ -155,8 +161,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     frame = series.frame
     step = series.interval_s
     stats = series.kind == "stats"
-    status = frame["status"].to_numpy(dtype=object)
-    floor = status == S.SIGNAL_LOST
+    floor = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
     att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
     seg_att = frame["attenuation_peak_db"].to_numpy(dtype=float, na_value=np.nan) if stats else att
     level_low = frame["rsl_min_dbm" if stats else "rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
@@ -350,7 +355,7 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
             spans = mine[mine["event_kind"] == "level_shift"]
             if len(spans):
                 att = item.frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
-                lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy()
+                lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
                 for row_id, a, b, size in zip(spans.index.to_numpy(), spans["start_index"].to_numpy(),
                                               spans["end_index"].to_numpy(), spans["peak_fade_db"].to_numpy()):
                     a, b = int(a), int(b)
@@ -358,7 +363,10 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
                     with np.errstate(invalid="ignore"):
                         weaker = (inner != row_id) & ~(att[a:b] > size) & ~lost[a:b]
                     inner[weaker] = row_id
-        causes = np.concatenate([events["cause"].to_numpy(dtype=object), np.array([""], dtype=object)]) \
-            if len(events) else np.array([""], dtype=object)
+        # categorical over the cause vocabulary ("" = no event): built from codes in O(n)
+        categories = list(S.CAUSES) + [""]
+        lookup = {c: i for i, c in enumerate(categories)}
+        codes = np.array([lookup.get(str(c), lookup[S.UNKNOWN]) for c in events["cause"]] + [len(categories) - 1],
+                         dtype=np.int16) if len(events) else np.array([len(categories) - 1], dtype=np.int16)
         item.frame["event_id"] = event_id
-        item.frame["cause"] = pd.array(causes[event_id], dtype="str")
+        item.frame["cause"] = pd.Categorical.from_codes(codes[event_id], categories=categories)
