@@ -12,7 +12,8 @@ Counting rules (see README section "outage"):
   radio's own counters (when logged) are shown beside it.
 * **Unavailable time** follows ITU-T G.826 / G.828 Annex A (``diag.models.g826``): it starts at the first of ten
   consecutive SES (those ten count as unavailable) and ends at the first of ten consecutive non-SES seconds (those
-  count as available).  A data gap restarts the rule.  **SES in available time** are the SES outside it.
+  count as available).  A data gap of ten seconds or more restarts the rule; a shorter one (a missed poll, a blank
+  reading) is bridged.  **SES in available time** are the SES outside it.
 * **Availability** = 100 (1 - unavailable / observed) over the observed time only.
 * **Link level**: a second is SES if any traffic channel of the hop is (both polarisations of a dual-polarised hop,
   or both directions); it is observed if any channel has data.  The 10-second rule is then applied to that combined
@@ -319,8 +320,8 @@ def _combine(masks: list[_Masks]) -> _Masks:
 
 
 def _clusters(possible: np.ndarray, observed: np.ndarray, consecutive_s: int) -> np.ndarray:
-    """Cluster id per second: runs of possible-SES seconds not separated by >= 10 clear observed seconds or a gap;
-    -1 for separator seconds."""
+    """Cluster id per second: runs of possible-SES seconds not separated by >= 10 clear observed seconds or a gap of
+    >= 10 s (shorter gaps are bridged by the rule); -1 for separator seconds."""
     code = np.where(observed, possible.astype(np.int8), np.int8(-1))
     n = code.size
     if n == 0:
@@ -329,7 +330,7 @@ def _clusters(possible: np.ndarray, observed: np.ndarray, consecutive_s: int) ->
     starts = np.concatenate(([0], change))
     lengths = np.diff(np.concatenate((starts, [n])))
     values = code[starts]
-    separator = (values == -1) | ((values == 0) & (lengths >= consecutive_s))
+    separator = ((values == -1) & (lengths >= consecutive_s)) | ((values == 0) & (lengths >= consecutive_s))
     run_id = np.cumsum(separator)
     run_id = np.where(separator, -1, run_id)
     return np.repeat(run_id, lengths)
@@ -337,10 +338,10 @@ def _clusters(possible: np.ndarray, observed: np.ndarray, consecutive_s: int) ->
 
 def _unavailable(m: _Masks, consecutive_s: int) -> tuple[np.ndarray, np.ndarray]:
     """Lower and upper unavailable masks (equal for exact data)."""
-    u_lo = g826.unavailable_mask(m.certain, m.observed, consecutive_s=consecutive_s)
+    u_lo = g826.unavailable_mask(m.certain, m.observed, consecutive_s=consecutive_s, bridge_gaps_s=consecutive_s)
     if m.exact:
         return u_lo, u_lo
-    u_hi = g826.unavailable_mask(m.possible, m.observed, consecutive_s=consecutive_s)
+    u_hi = g826.unavailable_mask(m.possible, m.observed, consecutive_s=consecutive_s, bridge_gaps_s=consecutive_s)
     # a cluster that cannot hold `consecutive_s` below-threshold seconds cannot start unavailable time
     cid = _clusters(m.possible, m.observed, consecutive_s)
     if u_hi.any():

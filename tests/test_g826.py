@@ -104,6 +104,17 @@ def test_gap_breaks_consecutive_runs_and_is_never_unavailable():
     assert g826.available_count(ses, unav, valid) == 3
 
 
+def test_short_gaps_bridged_when_asked():
+    # our option (not in G.826): a gap shorter than bridge_gaps_s is taken out of the time line
+    ses = mask((1, 5), (1, 3), (1, 5), (0, 12))
+    valid = mask((1, 5), (0, 3), (1, 5), (1, 12))
+    unav = g826.unavailable_mask(ses, valid, bridge_gaps_s=10)
+    assert unav.sum() == 10 and not unav[5:8].any()       # 5 + 5 SES joined; the gap itself is not unavailable
+    valid_long = mask((1, 5), (0, 3), (1, 5), (1, 12))
+    valid_long[5:8] = False
+    assert g826.unavailable_mask(ses, valid_long, bridge_gaps_s=3).sum() == 0   # a 3-s gap is not < 3: restarts
+
+
 def test_bidirectional_union():
     # G.826 Annex A: a bidirectional path is unavailable if either direction is
     a = mask((1, 10), (0, 30))

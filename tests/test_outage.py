@@ -108,14 +108,21 @@ def test_gaps_and_missing_values_are_never_outage():
     check_adds_up(res)
 
 
-def test_gap_splits_consecutive_runs():
-    rsl = np.full(40, -40.0)
+def test_long_gap_splits_consecutive_runs_short_gap_is_bridged():
+    rsl = np.full(60, -40.0)
     rsl[10:16] = -80.0
-    rsl[20:26] = -80.0
-    status = np.array(["ok"] * 40, dtype=object)
-    status[16:20] = "no_data"                # 6 + 6 SES around a gap: not 10 consecutive
+    rsl[26:32] = -80.0
+    status = np.array(["ok"] * 60, dtype=object)
+    status[16:26] = "no_data"                # 6 + 6 SES around a 10-s gap: not 10 consecutive
     res = outage.account_link(result_for([series_1s(rsl, status=status)]))
     assert res.summary["unavailable_s"] == 0 and res.summary["ses_available_s"] == 12
+    status[16:26] = "ok"
+    rsl[16:26] = -40.0
+    status[16:19] = "missing"                # 6 + 6 SES around 3 blank readings: bridged, 12 s unavailable
+    rsl[19:26] = -80.0
+    rsl[26:32] = -40.0
+    res = outage.account_link(result_for([series_1s(rsl, status=status)]))
+    assert res.summary["unavailable_s"] == 13 and res.summary["no_data_s"] == 3
 
 
 def test_unavailable_seconds_without_event_take_the_period_cause():

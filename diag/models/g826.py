@@ -20,9 +20,10 @@ includes the initial 10 seconds to enter ... but not the 10 seconds to exit").  
 
 Choices of our own (not in the Recommendations, which assume a continuous measurement):
 
-* Seconds with no data (``valid`` False) are neither SES nor non-SES.  A gap interrupts "consecutive": the state
-  machine restarts in the available state after every gap, so the seconds on either side of a gap never join into
-  one run of ten.  Gap seconds are never unavailable.
+* Seconds with no data (``valid`` False) are neither SES nor non-SES.  By default a gap interrupts "consecutive":
+  the state machine restarts in the available state after it, so the seconds on either side never join into one
+  run of ten.  With ``bridge_gaps_s`` a short gap (a missed poll, a blank reading) is taken out of the time line
+  instead and the rule carries on across it.  Gap seconds are never unavailable.
 * At the end of the record, a trailing run of fewer than ten non-SES seconds after unavailable time stays
   unavailable (the exit was not reached); a trailing run of fewer than ten SES in available time stays available
   (the entry was not reached) and counts as SES.
@@ -58,7 +59,7 @@ def _runs(values: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 def unavailable_mask(ses: npt.ArrayLike, valid: npt.ArrayLike | None = None, *,
-                     consecutive_s: int = CONSECUTIVE_S) -> np.ndarray:
+                     consecutive_s: int = CONSECUTIVE_S, bridge_gaps_s: int = 0) -> np.ndarray:
     """Unavailable seconds from a per-second SES mask (ITU-T G.826 (12/2002) Annex A; G.828 Annex A).
 
     Parameters
@@ -69,6 +70,11 @@ def unavailable_mask(ses: npt.ArrayLike, valid: npt.ArrayLike | None = None, *,
         False where the second has no data (excluded; restarts the rule; never unavailable).  Default: all valid.
     consecutive_s : int
         Run length that enters/leaves unavailable time (10 in G.826/G.828).
+    bridge_gaps_s : int
+        Gaps shorter than this many seconds are bridged: taken out of the time line, so the rule carries on across
+        them as if the seconds on either side were adjacent (a single blank reading inside a long outage does not
+        end it).  Longer gaps restart the rule.  Gap seconds are never unavailable either way.  Default 0: every
+        gap restarts the rule.
 
     Returns
     -------
@@ -80,6 +86,14 @@ def unavailable_mask(ses: npt.ArrayLike, valid: npt.ArrayLike | None = None, *,
     valid_arr = np.ones_like(ses_arr) if valid is None else np.asarray(valid, dtype=bool).ravel()
     if valid_arr.shape != ses_arr.shape:
         raise ValueError("ses and valid must have the same length")
+    if bridge_gaps_s > 0 and not valid_arr.all():
+        gap_starts, gap_lengths, gap_values = _runs(valid_arr.astype(np.int8))
+        short = (gap_values == 0) & (gap_lengths < bridge_gaps_s)
+        if short.any():
+            keep = ~np.repeat(short, gap_lengths)               # drop the short gaps from the time line
+            out = np.zeros(ses_arr.shape, dtype=bool)
+            out[keep] = unavailable_mask(ses_arr[keep], valid_arr[keep], consecutive_s=consecutive_s)
+            return out
     # code: 1 = SES, 0 = non-SES, -1 = no data
     code = np.where(valid_arr, ses_arr.astype(np.int8), np.int8(-1))
     starts, lengths, values = _runs(code)
