@@ -1,23 +1,22 @@
 """Log writers: the shapes of receive-level exports that ``diag.ingest.read_log`` understands.
 
-Each writer takes normalised rows (:mod:`diag.schema`; usually ``SimResult.table``) and writes one CSV file
-(gzip-compressed when the path ends in ``.gz``; the gzip header carries no time stamp so the same table gives the
-same bytes).  Values are written as the radio would: a ``signal_lost`` value as the receiver floor reading, a
-``missing`` value as an empty cell.  File defects (``SimResult.file_defects``: duplicated rows, adjacent rows
-swapped) are applied by the sample writers so that the reader's accounting can be checked exactly.
+Each writer takes normalised rows (:mod:`diag.schema`; usually ``SimResult.table``) and writes one CSV
+file (gzip-compressed when the path ends in ``.gz``; the gzip header carries no time stamp so the same
+table gives the same bytes).  Values are written as the radio would: a ``signal_lost`` value as the
+receiver floor reading, a ``missing`` value as an empty cell.  File defects (``SimResult.file_defects``:
+duplicated rows, adjacent rows swapped) are applied by the sample writers so that the reader's accounting
+can be checked exactly.
 
-=====================  ==============================================================================================
-shape                  layout
-=====================  ==============================================================================================
-``wide_iso``           ``time_utc,RSL H (dBm),RSL V (dBm),...``; ISO 8601 UTC stamps with ``Z``; one hop per file
-``semicolon_local``    ``Local time;Rx level H [dBm];...``; ``;`` separated, decimal comma, day-first local time in an
-                       IANA zone (read it back with ``tz=``)
-``epoch``              ``unix_time,RxLevel-H,...``: epoch seconds
-``long``               ``time_utc,link_id,channel,quantity,value``: one value per row, several hops in one file
-``stats``              ``period_start_utc,link_id,channel,RSL min (dBm),RSL avg (dBm),RSL max (dBm),...``: interval
-                       min/avg/max statistics (e.g. 15 minutes, from :func:`diag.simulate.aggregate_statistics`)
-=====================  ==============================================================================================
+``wide_iso``         ``time_utc,RSL H (dBm),RSL V (dBm),...``; ISO 8601 UTC stamps with ``Z``; one hop
+``semicolon_local``  ``Local time;Rx level H [dBm];...``; ``;`` separated, decimal comma, day-first local
+                     time in an IANA zone (read it back with ``tz=``); one hop
+``epoch``            ``unix_time,RxLevel-H,...``: epoch seconds; one hop
+``long``             ``time_utc,link_id,channel,quantity,value``: one value per row, several hops per file
+``stats``            ``period_start_utc,link_id,channel,RSL min (dBm),RSL avg (dBm),RSL max (dBm),...``:
+                     interval min/avg/max statistics (e.g. 15 minutes, from
+                     :func:`diag.simulate.aggregate_statistics`)
 """
+
 from __future__ import annotations
 
 import gzip
@@ -34,9 +33,20 @@ import pyarrow.compute as pc
 from diag import schema
 from diag.errors import InputError
 
-__all__ = ["SHAPES", "WriteInfo", "write_log", "write_wide_iso", "write_semicolon_local", "write_epoch",
-           "write_links_table", "truth_segments", "write_truth", "write_scenario",
-           "write_long", "write_stats"]
+__all__ = [
+    "SHAPES",
+    "WriteInfo",
+    "write_log",
+    "write_wide_iso",
+    "write_semicolon_local",
+    "write_epoch",
+    "write_links_table",
+    "truth_segments",
+    "write_truth",
+    "write_scenario",
+    "write_long",
+    "write_stats",
+]
 
 SHAPES = ("wide_iso", "semicolon_local", "epoch", "long", "stats")
 _LABEL = {  # quantity -> (wide_iso name, semicolon name, epoch name, unit)
@@ -50,7 +60,8 @@ _LONG_NAME = {schema.RSL: "RSL", schema.TSL: "TSL", schema.XPD: "XPD", schema.XP
 
 @dataclass(frozen=True)
 class WriteInfo:
-    """What a writer wrote: data lines (header excluded), how many of them are repeats and how many adjacent pairs
+    """What a writer wrote: data lines (header excluded), how many of them are repeats and how many adjacent
+    pairs
     were swapped, and the number of value cells."""
 
     path: Path
@@ -61,11 +72,18 @@ class WriteInfo:
     values: int
 
 
-# ----------------------------------------------------------------------------------------------------------------
+# ------------------------------------------------------------------------------------------------------------
 # helpers
 
-def _format_values(values: np.ndarray, status: np.ndarray, floor_dbm: float | None, *, decimal: str = ".",
-                   floor_applies: bool = True) -> pa.Array:
+
+def _format_values(
+    values: np.ndarray,
+    status: np.ndarray,
+    floor_dbm: float | None,
+    *,
+    decimal: str = ".",
+    floor_applies: bool = True,
+) -> pa.Array:
     """Cells as text: numbers in their shortest form, the floor reading for signal_lost, "" for missing."""
     out = np.where(status == schema.OK, values, np.nan)
     if floor_applies and floor_dbm is not None:
@@ -79,7 +97,9 @@ def _format_values(values: np.ndarray, status: np.ndarray, floor_dbm: float | No
 
 
 def _time_text(times_ns: np.ndarray, fmt: str, tz: str = "UTC") -> pa.Array:
-    arr = pa.array(np.asarray(times_ns, dtype="datetime64[ns]").astype("datetime64[s]"), type=pa.timestamp("s"))
+    arr = pa.array(
+        np.asarray(times_ns, dtype="datetime64[ns]").astype("datetime64[s]"), type=pa.timestamp("s")
+    )
     arr = pc.assume_timezone(arr, "UTC").cast(pa.timestamp("s", tz=tz))
     return pc.strftime(arr, format=fmt)
 
@@ -93,7 +113,7 @@ def _row_order(times_ns: np.ndarray, defects: Mapping | None) -> tuple[np.ndarra
     swaps = np.asarray(defects.get("swap_times", []), dtype="datetime64[ns]").view(np.int64)
     pos = np.searchsorted(times_ns, swaps)
     pos = np.unique(pos[(pos < n - 1) & (times_ns[np.minimum(pos, n - 1)] == swaps)])
-    pos = pos[np.concatenate([[True], np.diff(pos) > 1])] if len(pos) else pos   # disjoint pairs only
+    pos = pos[np.concatenate([[True], np.diff(pos) > 1])] if len(pos) else pos  # disjoint pairs only
     order[pos], order[pos + 1] = order[pos + 1], order[pos].copy()
     dups = np.asarray(defects.get("duplicate_times", []), dtype="datetime64[ns]").view(np.int64)
     hit = np.searchsorted(times_ns, dups)
@@ -105,8 +125,8 @@ def _row_order(times_ns: np.ndarray, defects: Mapping | None) -> tuple[np.ndarra
 
 
 def _pivot(table: pd.DataFrame, keys: list[str], signal: list[str]) -> tuple[pd.DataFrame, list[tuple]]:
-    """Wide frame indexed by ``keys`` (time first) with one (value, status) column pair per (channel, quantity[,
-    stat]); the signal columns in a stable order."""
+    """Wide frame indexed by ``keys`` (time first) with one (value, status) column pair per ``signal``
+    combination; the signal columns in a stable order."""
     frame = table[keys + signal + [schema.VALUE, schema.STATUS]].copy()
     frame[schema.STATUS] = frame[schema.STATUS].astype(object)
     wide = frame.pivot(index=keys, columns=signal, values=[schema.VALUE, schema.STATUS])
@@ -122,7 +142,7 @@ def _signal_sort_key(col: tuple) -> tuple:
     if len(col) == 3:
         channel, quantity, stat = col
         return (_QUANTITY_ORDER.get(quantity, 9), channel, _STAT_ORDER.get(stat, 9))
-    if len(col) == 2 and col[0] in _QUANTITY_ORDER:   # (quantity, stat)
+    if len(col) == 2 and col[0] in _QUANTITY_ORDER:  # (quantity, stat)
         return (_QUANTITY_ORDER.get(col[0], 9), _STAT_ORDER.get(col[1], 9))
     channel, quantity = col
     return (_QUANTITY_ORDER.get(quantity, 9), channel)
@@ -136,7 +156,9 @@ def _check(table: pd.DataFrame, *, samples: bool) -> None:
     if samples and stats - {schema.SAMPLE}:
         raise InputError("writer: this shape writes samples; use the 'stats' shape for interval statistics")
     if not samples and schema.SAMPLE in stats:
-        raise InputError("writer: the 'stats' shape needs min/avg/max rows (diag.simulate.aggregate_statistics)")
+        raise InputError(
+            "writer: the 'stats' shape needs min/avg/max rows (diag.simulate.aggregate_statistics)"
+        )
 
 
 def _write_lines(path: Path, header: str, columns: list[pa.Array], sep: str, order: np.ndarray) -> None:
@@ -160,19 +182,25 @@ def _write_lines(path: Path, header: str, columns: list[pa.Array], sep: str, ord
 def _one_link(table: pd.DataFrame) -> str:
     links = table[schema.LINK].unique()
     if len(links) > 1:
-        raise InputError("writer: this shape holds one hop per file; use the 'long' or 'stats' shape for several")
+        raise InputError(
+            "writer: this shape holds one hop per file; use the 'long' or 'stats' shape for several"
+        )
     return str(links[0]) if len(links) else ""
 
 
-# ----------------------------------------------------------------------------------------------------------------
+# ------------------------------------------------------------------------------------------------------------
 # shapes
 
-def _write_wide(table, path, *, shape, defects, floor_dbm, time_header, time_fmt, tz, sep, decimal,
-                name_of) -> WriteInfo:
+
+def _write_wide(
+    table, path, *, shape, defects, floor_dbm, time_header, time_fmt, tz, sep, decimal, name_of
+) -> WriteInfo:
     _check(table, samples=True)
     _one_link(table)
     wide, columns = _pivot(table, [schema.TIME], [schema.CHANNEL, schema.QUANTITY])
-    times_ns = wide.index.to_numpy(dtype="datetime64[ns]").view(np.int64) if len(wide) else np.array([], np.int64)
+    times_ns = (
+        wide.index.to_numpy(dtype="datetime64[ns]").view(np.int64) if len(wide) else np.array([], np.int64)
+    )
     order, dups, swaps = _row_order(times_ns, defects)
     if time_fmt == "epoch":
         time_col = pa.array((times_ns // 1_000_000_000).astype(str))
@@ -183,46 +211,93 @@ def _write_wide(table, path, *, shape, defects, floor_dbm, time_header, time_fmt
         values = wide[(schema.VALUE, channel, quantity)].to_numpy(dtype=float)
         status = wide[(schema.STATUS, channel, quantity)].to_numpy(dtype=object)
         status = np.where(pd.isna(status), schema.MISSING, status)
-        cells.append(_format_values(values, status, floor_dbm, decimal=decimal,
-                                    floor_applies=quantity in (schema.RSL, schema.XPL)))
+        cells.append(
+            _format_values(
+                values, status, floor_dbm, decimal=decimal, floor_applies=quantity in (schema.RSL, schema.XPL)
+            )
+        )
         names.append(name_of(channel, quantity))
     _write_lines(path, sep.join(names), cells, sep, order)
     return WriteInfo(Path(path), shape, len(order), dups, swaps, len(order) * len(columns))
 
 
-def write_wide_iso(table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None,
-                   floor_dbm: float | None = -99.0) -> WriteInfo:
+def write_wide_iso(
+    table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None, floor_dbm: float | None = -99.0
+) -> WriteInfo:
     """One hop, one row per time, one column per channel and quantity; ISO 8601 UTC stamps with ``Z``."""
-    return _write_wide(table, path, shape="wide_iso", defects=defects, floor_dbm=floor_dbm, time_header="time_utc",
-                       time_fmt="%Y-%m-%dT%H:%M:%SZ", tz="UTC", sep=",", decimal=".",
-                       name_of=lambda ch, q: f"{_LABEL[q][0]} {ch} ({_LABEL[q][3]})")
+    return _write_wide(
+        table,
+        path,
+        shape="wide_iso",
+        defects=defects,
+        floor_dbm=floor_dbm,
+        time_header="time_utc",
+        time_fmt="%Y-%m-%dT%H:%M:%SZ",
+        tz="UTC",
+        sep=",",
+        decimal=".",
+        name_of=lambda ch, q: f"{_LABEL[q][0]} {ch} ({_LABEL[q][3]})",
+    )
 
 
-def write_semicolon_local(table: pd.DataFrame, path: str | Path, *, tz: str, defects: Mapping | None = None,
-                          floor_dbm: float | None = -99.0) -> WriteInfo:
-    """One hop; ``;`` separated, decimal comma, day-first local time (``dd.mm.yyyy HH:MM:SS``) in IANA zone ``tz``.
+def write_semicolon_local(
+    table: pd.DataFrame,
+    path: str | Path,
+    *,
+    tz: str,
+    defects: Mapping | None = None,
+    floor_dbm: float | None = -99.0,
+) -> WriteInfo:
+    """One hop; ``;`` separated, decimal comma, day-first local time (``dd.mm.yyyy HH:MM:SS``) in IANA
+    zone ``tz``.
 
     A local clock repeats an hour when summer time ends: stamps in that hour are ambiguous and a reader must
     count them rather than guess (see the reader's ``dst_ambiguous`` reason)."""
-    return _write_wide(table, path, shape="semicolon_local", defects=defects, floor_dbm=floor_dbm,
-                       time_header="Local time", time_fmt="%d.%m.%Y %H:%M:%S", tz=tz, sep=";", decimal=",",
-                       name_of=lambda ch, q: f"{_LABEL[q][1]} {ch} [{_LABEL[q][3]}]")
+    return _write_wide(
+        table,
+        path,
+        shape="semicolon_local",
+        defects=defects,
+        floor_dbm=floor_dbm,
+        time_header="Local time",
+        time_fmt="%d.%m.%Y %H:%M:%S",
+        tz=tz,
+        sep=";",
+        decimal=",",
+        name_of=lambda ch, q: f"{_LABEL[q][1]} {ch} [{_LABEL[q][3]}]",
+    )
 
 
-def write_epoch(table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None,
-                floor_dbm: float | None = -99.0) -> WriteInfo:
+def write_epoch(
+    table: pd.DataFrame, path: str | Path, *, defects: Mapping | None = None, floor_dbm: float | None = -99.0
+) -> WriteInfo:
     """One hop; the time as integer seconds since 1970-01-01 UTC."""
-    return _write_wide(table, path, shape="epoch", defects=defects, floor_dbm=floor_dbm, time_header="unix_time",
-                       time_fmt="epoch", tz="UTC", sep=",", decimal=".",
-                       name_of=lambda ch, q: f"{_LABEL[q][2]}-{ch}")
+    return _write_wide(
+        table,
+        path,
+        shape="epoch",
+        defects=defects,
+        floor_dbm=floor_dbm,
+        time_header="unix_time",
+        time_fmt="epoch",
+        tz="UTC",
+        sep=",",
+        decimal=".",
+        name_of=lambda ch, q: f"{_LABEL[q][2]}-{ch}",
+    )
 
 
-def write_long(tables: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, *,
-               defects: Mapping[str, Mapping] | None = None, floors_dbm: Mapping[str, float] | None = None
-               ) -> WriteInfo:
+def write_long(
+    tables: pd.DataFrame | Iterable[pd.DataFrame],
+    path: str | Path,
+    *,
+    defects: Mapping[str, Mapping] | None = None,
+    floors_dbm: Mapping[str, float] | None = None,
+) -> WriteInfo:
     """Several hops in one file, one value per row: ``time_utc,link_id,channel,quantity,value``.
 
-    ``defects`` and ``floors_dbm`` are keyed by link id.  A duplicated poll repeats every value row of that time."""
+    ``defects`` and ``floors_dbm`` are keyed by link id.  A duplicated poll repeats every value row of that
+    time."""
     table = tables if isinstance(tables, pd.DataFrame) else pd.concat(list(tables), ignore_index=True)
     _check(table, samples=True)
     pieces_lines: list[pa.Array] = []
@@ -240,15 +315,19 @@ def write_long(tables: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, 
         floor = (floors_dbm or {}).get(link_id, -99.0)
         quantity = frame[schema.QUANTITY].to_numpy(dtype=object)
         status = frame[schema.STATUS].to_numpy(dtype=object)
-        values = _format_values(frame[schema.VALUE].to_numpy(dtype=float), status, floor,
-                                floor_applies=True)
+        values = _format_values(frame[schema.VALUE].to_numpy(dtype=float), status, floor, floor_applies=True)
         # the floor reading only for levels
         is_level = np.isin(quantity, [schema.RSL, schema.XPL])
         values = pc.if_else(pa.array((status == schema.SIGNAL_LOST) & ~is_level), "", values)
         names = pa.array([_LONG_NAME.get(q, q) for q in quantity])
         line = pc.binary_join_element_wise(
-            _time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"), pa.array(frame[schema.LINK].to_numpy(dtype=object)),
-            pa.array(frame[schema.CHANNEL].to_numpy(dtype=object)), names, values, ",")
+            _time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"),
+            pa.array(frame[schema.LINK].to_numpy(dtype=object)),
+            pa.array(frame[schema.CHANNEL].to_numpy(dtype=object)),
+            names,
+            values,
+            ",",
+        )
         pieces_lines.append(line.take(pa.array(rows)))
         total_rows += len(rows)
         dups_total += len(rows) - len(times_ns)
@@ -266,22 +345,34 @@ def _ramp(sizes: np.ndarray) -> np.ndarray:
     return np.arange(ends[-1]) - np.repeat(ends - sizes, sizes)
 
 
-def write_stats(table: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, *,
-                floors_dbm: Mapping[str, float] | None = None) -> WriteInfo:
+def write_stats(
+    table: pd.DataFrame | Iterable[pd.DataFrame],
+    path: str | Path,
+    *,
+    floors_dbm: Mapping[str, float] | None = None,
+) -> WriteInfo:
     """Interval statistics of one or several hops: one row per interval start, hop and channel, with
-    ``<quantity> min/avg/max (<unit>)`` columns.  ``floors_dbm`` (by link id) is written for signal_lost cells.
-    Hops that log different quantities leave blank cells for each other (read back as "missing"): give such hops
-    files of their own."""
+    ``<quantity> min/avg/max (<unit>)`` columns.  ``floors_dbm`` (by link id) is written for signal_lost
+    cells.  Hops that log different quantities leave blank cells for each other (read back as "missing"):
+    give such hops files of their own."""
     table = table if isinstance(table, pd.DataFrame) else pd.concat(list(table), ignore_index=True)
     _check(table, samples=False)
     wide, columns = _pivot(table, [schema.TIME, schema.LINK, schema.CHANNEL], [schema.QUANTITY, schema.STAT])
     index = wide.index.to_frame(index=False)
-    order = np.lexsort((index[schema.CHANNEL].to_numpy(dtype=str), index[schema.LINK].to_numpy(dtype=str),
-                        index[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)))
+    order = np.lexsort(
+        (
+            index[schema.CHANNEL].to_numpy(dtype=str),
+            index[schema.LINK].to_numpy(dtype=str),
+            index[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64),
+        )
+    )
     times_ns = index[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
     floor = np.array([(floors_dbm or {}).get(link, -99.0) for link in index[schema.LINK]], dtype=float)
-    cells = [_time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"), pa.array(index[schema.LINK].to_numpy(dtype=object)),
-             pa.array(index[schema.CHANNEL].to_numpy(dtype=object))]
+    cells = [
+        _time_text(times_ns, "%Y-%m-%dT%H:%M:%SZ"),
+        pa.array(index[schema.LINK].to_numpy(dtype=object)),
+        pa.array(index[schema.CHANNEL].to_numpy(dtype=object)),
+    ]
     names = ["period_start_utc", "link_id", "channel"]
     n_values = 0
     for quantity, stat in columns:
@@ -291,15 +382,24 @@ def write_stats(table: pd.DataFrame | Iterable[pd.DataFrame], path: str | Path, 
         status = np.where(present, status, schema.MISSING)
         n_values += int(present.sum())
         applies = quantity in (schema.RSL, schema.XPL)
-        out = np.where(status == schema.OK, values, np.where((status == schema.SIGNAL_LOST) & applies, floor, np.nan))
+        out = np.where(
+            status == schema.OK, values, np.where((status == schema.SIGNAL_LOST) & applies, floor, np.nan)
+        )
         cells.append(_format_values(out, np.where(np.isnan(out), schema.MISSING, schema.OK), None))
         names.append(f"{_LABEL[quantity][0]} {stat} ({_LABEL[quantity][3]})")
     _write_lines(path, ",".join(names), cells, ",", order)
     return WriteInfo(Path(path), "stats", len(order), 0, 0, n_values)
 
 
-def write_log(table: pd.DataFrame, path: str | Path, shape: str, *, tz: str | None = None,
-              defects: Mapping | None = None, floor_dbm: float | None = -99.0) -> WriteInfo:
+def write_log(
+    table: pd.DataFrame,
+    path: str | Path,
+    shape: str,
+    *,
+    tz: str | None = None,
+    defects: Mapping | None = None,
+    floor_dbm: float | None = -99.0,
+) -> WriteInfo:
     """Write ``table`` (one hop) in ``shape`` (see ``SHAPES``)."""
     if shape == "wide_iso":
         return write_wide_iso(table, path, defects=defects, floor_dbm=floor_dbm)
@@ -311,16 +411,21 @@ def write_log(table: pd.DataFrame, path: str | Path, shape: str, *, tz: str | No
         return write_epoch(table, path, defects=defects, floor_dbm=floor_dbm)
     if shape == "long":
         link = _one_link(table)
-        return write_long(table, path, defects={link: defects} if defects else None,
-                          floors_dbm={link: floor_dbm} if floor_dbm is not None else None)
+        return write_long(
+            table,
+            path,
+            defects={link: defects} if defects else None,
+            floors_dbm={link: floor_dbm} if floor_dbm is not None else None,
+        )
     if shape == "stats":
         link = _one_link(table)
         return write_stats(table, path, floors_dbm={link: floor_dbm} if floor_dbm is not None else None)
     raise InputError(f"writer: unknown shape {shape!r}; use one of {', '.join(SHAPES)}")
 
 
-# ----------------------------------------------------------------------------------------------------------------
+# ------------------------------------------------------------------------------------------------------------
 # links table, ground truth and whole scenarios
+
 
 def _iso(values) -> list[str]:
     stamps = pd.to_datetime(pd.Series(values), utc=True)
@@ -328,7 +433,8 @@ def _iso(values) -> list[str]:
 
 
 def write_links_table(links, path: str | Path) -> Path:
-    """A links table CSV (``diag.links`` columns: required first, then every optional one; empty when unknown)."""
+    """A links table CSV (``diag.links`` columns: required first, then every optional one; empty when
+    unknown)."""
     from diag.links import OPTIONAL, REQUIRED
 
     rows = [",".join(REQUIRED + OPTIONAL)]
@@ -361,22 +467,33 @@ def truth_segments(result) -> pd.DataFrame:
         for a, b in zip(change, ends):
             if cause[a] == "":
                 continue
-            out.append({"link_id": result.spec.link_id, "channel": channel, "start_utc": times[a],
-                        "end_utc": times[b - 1] + dt, "cause": cause[a], "samples": int(b - a),
-                        "peak_fade_db": round(float(fade[a:b].max()), 2)})
-    return pd.DataFrame(out, columns=["link_id", "channel", "start_utc", "end_utc", "cause", "samples",
-                                      "peak_fade_db"])
+            out.append(
+                {
+                    "link_id": result.spec.link_id,
+                    "channel": channel,
+                    "start_utc": times[a],
+                    "end_utc": times[b - 1] + dt,
+                    "cause": cause[a],
+                    "samples": int(b - a),
+                    "peak_fade_db": round(float(fade[a:b].max()), 2),
+                }
+            )
+    return pd.DataFrame(
+        out, columns=["link_id", "channel", "start_utc", "end_utc", "cause", "samples", "peak_fade_db"]
+    )
 
 
 def write_truth(results, out_dir: str | Path, *, samples: bool = True) -> list[Path]:
-    """Ground truth beside the logs: ``truth_events.csv``, ``truth_labels.csv`` (run-length cause segments) and,
-    when ``samples``, ``truth_samples.parquet`` (every sample's contribution per cause)."""
+    """Ground truth beside the logs: ``truth_events.csv``, ``truth_labels.csv`` (run-length cause
+    segments) and, when ``samples``, ``truth_samples.parquet`` (every sample's contribution per cause)."""
     out_dir = Path(out_dir)
     out_dir.mkdir(parents=True, exist_ok=True)
     results = list(results.values()) if isinstance(results, Mapping) else list(results)
-    events = pd.concat([r.truth_events for r in results if not r.truth_events.empty] or
-                       [pd.DataFrame(columns=results[0].truth_events.columns if results else [])],
-                       ignore_index=True)
+    events = pd.concat(
+        [r.truth_events for r in results if not r.truth_events.empty]
+        or [pd.DataFrame(columns=results[0].truth_events.columns if results else [])],
+        ignore_index=True,
+    )
     for column in ("start_utc", "end_utc", "shift_utc"):
         if column in events:
             events[column] = _iso(events[column])
@@ -400,13 +517,15 @@ def write_truth(results, out_dir: str | Path, *, samples: bool = True) -> list[P
     return paths
 
 
-def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[str] | None = None,
-                   truth_samples: bool = True) -> list[Path]:
+def write_scenario(
+    results, scenario, out_dir: str | Path, *, shapes: Iterable[str] | None = None, truth_samples: bool = True
+) -> list[Path]:
     """Everything for a simulated scenario under ``out_dir``: ``links.csv``, ``logs/`` and ``truth/``.
 
-    Without ``shapes`` each hop is written in its own ``log_shape`` (scenario file; default ``wide_iso``) straight
-    into ``logs/`` (statistics as ``<link>_<N>min.csv``, long-shape hops together in ``<name>_long.csv``);
-    with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when there are several."""
+    Without ``shapes`` each hop is written in its own ``log_shape`` (scenario file; default ``wide_iso``)
+    straight into ``logs/`` (statistics as ``<link>_<N>min.csv``, long-shape hops together in
+    ``<name>_long.csv``); with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when
+    there are several."""
     from diag.simulate import aggregate_statistics
 
     out_dir = Path(out_dir)
@@ -420,31 +539,44 @@ def write_scenario(results, scenario, out_dir: str | Path, *, shapes: Iterable[s
     written = [write_links_table([r.link for r in results.values()], out_dir / "links.csv")]
     plan: dict[str, list[str]] = {}
     for link_id in results:
-        for shape in (shape_list or [outputs.get(link_id, {}).get("log_shape", "wide_iso")]):
+        for shape in shape_list or [outputs.get(link_id, {}).get("log_shape", "wide_iso")]:
             plan.setdefault(shape, []).append(link_id)
     interval = float(getattr(scenario, "stats_interval_s", 900.0))
     tag = f"{int(interval // 60)}min" if interval % 60 == 0 else f"{interval:g}s"
     for shape, ids in plan.items():
-        folder = out_dir / "logs" / shape if shape_list is not None and len(shape_list) > 1 else out_dir / "logs"
+        folder = (
+            out_dir / "logs" / shape if shape_list is not None and len(shape_list) > 1 else out_dir / "logs"
+        )
         if shape == "stats":
             for i in ids:
-                stats = aggregate_statistics(results[i].table, interval_s=interval,
-                                             floor_dbm=results[i].spec.floor_value_dbm)
-                info = write_stats(stats, folder / f"{i}_{tag}.csv",
-                                   floors_dbm={i: results[i].spec.floor_value_dbm})
+                stats = aggregate_statistics(
+                    results[i].table, interval_s=interval, floor_dbm=results[i].spec.floor_value_dbm
+                )
+                info = write_stats(
+                    stats, folder / f"{i}_{tag}.csv", floors_dbm={i: results[i].spec.floor_value_dbm}
+                )
                 written.append(info.path)
         elif shape == "long":
-            info = write_long([results[i].table for i in ids], folder / f"{scenario.name}_long.csv",
-                              defects={i: results[i].file_defects for i in ids},
-                              floors_dbm={i: results[i].spec.floor_value_dbm for i in ids})
+            info = write_long(
+                [results[i].table for i in ids],
+                folder / f"{scenario.name}_long.csv",
+                defects={i: results[i].file_defects for i in ids},
+                floors_dbm={i: results[i].spec.floor_value_dbm for i in ids},
+            )
             written.append(info.path)
         else:
             for i in ids:
                 r = results[i]
                 suffix = ".csv.gz" if outputs.get(i, {}).get("gzip", False) else ".csv"
-                name = f"{i}{suffix}"      # the reader takes a one-hop file's link id from its name
-                info = write_log(r.table, folder / name, shape, tz=scenario.tz, defects=r.file_defects,
-                                 floor_dbm=r.spec.floor_value_dbm)
+                name = f"{i}{suffix}"  # the reader takes a one-hop file's link id from its name
+                info = write_log(
+                    r.table,
+                    folder / name,
+                    shape,
+                    tz=scenario.tz,
+                    defects=r.file_defects,
+                    floor_dbm=r.spec.floor_value_dbm,
+                )
                 written.append(info.path)
     written += write_truth(results, out_dir / "truth", samples=truth_samples)
     return written

@@ -1,4 +1,8 @@
-"""``python -m diag simulate --scenario NAME|FILE --out DIR [--seed N] [--shape SHAPE ...]``: labelled synthetic logs."""
+"""``python -m diag simulate --scenario NAME|FILE --out DIR [--seed N] [--shape SHAPE ...]``.
+
+Labelled synthetic logs and their ground truth (thin layer over :mod:`diag.simulate` and :mod:`diag.writers`).
+"""
+
 from __future__ import annotations
 
 import argparse
@@ -11,17 +15,29 @@ log = logging.getLogger(__name__)
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(
-        "simulate", help="write labelled synthetic logs and their ground truth for a scenario",
-        description="Simulate a scenario (a built-in name or a TOML file) and write links.csv, the logs and the "
-                    "ground truth (truth/) under --out.")
-    parser.add_argument("--scenario", required=True, help="built-in scenario name or path to a TOML scenario file")
+        "simulate",
+        help="write labelled synthetic logs and their ground truth for a scenario",
+        description="Simulate a scenario (a built-in name or a TOML file) and write links.csv, the logs "
+        "and the ground truth (truth/) under --out.",
+    )
+    parser.add_argument(
+        "--scenario", required=True, help="built-in scenario name or path to a TOML scenario file"
+    )
     parser.add_argument("--out", required=True, help="output folder (created; existing files are replaced)")
     parser.add_argument("--seed", type=int, default=0, help="random seed (same seed, same bytes); default 0")
-    parser.add_argument("--shape", action="append", default=None, metavar="SHAPE",
-                        help="log shape to write (repeatable, or 'all'): wide_iso, semicolon_local, epoch, long, "
-                             "stats; default: each hop's log_shape from the scenario")
-    parser.add_argument("--no-truth-samples", action="store_true",
-                        help="leave out truth/truth_samples.parquet (per-sample truth; large for long runs)")
+    parser.add_argument(
+        "--shape",
+        action="append",
+        default=None,
+        metavar="SHAPE",
+        help="log shape to write (repeatable, or 'all'): wide_iso, semicolon_local, epoch, long, "
+        "stats; default: each hop's log_shape from the scenario",
+    )
+    parser.add_argument(
+        "--no-truth-samples",
+        action="store_true",
+        help="leave out truth/truth_samples.parquet (per-sample truth; large for long runs)",
+    )
     parser.add_argument("--list", action="store_true", help="list the built-in scenarios and exit")
     parser.set_defaults(func=run)
 
@@ -41,9 +57,12 @@ def run(args: argparse.Namespace) -> int:
         for item in args.shape:
             for name in item.split(","):
                 shapes.extend(SHAPES if name.strip() == "all" else [name.strip()])
-    log.info("simulating %d hop(s) of scenario %s with seed %d", len(scenario.links), scenario.name, args.seed)
+    log.info(
+        "simulating %d hop(s) of scenario %s with seed %d", len(scenario.links), scenario.name, args.seed
+    )
     results, _ = simulate_scenario(scenario, seed=args.seed)
-    paths = write_scenario(results, scenario, Path(args.out), shapes=shapes,
-                           truth_samples=not args.no_truth_samples)
+    paths = write_scenario(
+        results, scenario, Path(args.out), shapes=shapes, truth_samples=not args.no_truth_samples
+    )
     print(f"wrote {len(paths)} files for {len(results)} hop(s) under {args.out}", file=sys.stderr)
     return 0

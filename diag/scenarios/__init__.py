@@ -4,30 +4,31 @@ A scenario names hops and what happens to them::
 
     name = "example"
     description = "one short 23 GHz hop with a storm"
-    tz = "Europe/Vienna"                 # local zone of the (invented) place; the local-time log shape uses it
-    start = "2026-06-08T00:00:00Z"       # defaults for every hop (any hop field may be set here) ...
+    tz = "Europe/Vienna"             # clock of the (invented) place; used by the local-time log shape
+    start = "2026-06-08T00:00:00Z"   # defaults for every hop (any hop field may be set here) ...
     duration_h = 24
     interval_s = 1
-    stats_interval_s = 900               # interval of the min/avg/max statistics shape
+    stats_interval_s = 900           # interval of the min/avg/max statistics shape
 
     [[link]]
-    link_id = "HILL-MILL"                # links-table fields: frequency_ghz, length_km, polarization, threshold_dbm,
-    frequency_ghz = 23                   #   nominal_dbm, tx_dbm, ..., objective_pct, r001_mmh, geoclimatic_k
+    link_id = "HILL-MILL"            # links-table fields: frequency_ghz, length_km, polarization,
+    frequency_ghz = 23               #   threshold_dbm, nominal_dbm, tx_dbm, ..., objective_pct, r001_mmh
     length_km = 6.5
     polarization = "dual"
     threshold_dbm = -72
     nominal_dbm = -38
-    tilt_deg = 0                         # simulation fields: tilt_deg, xpd_antenna_db, atpc, atpc_range_db, noise_db,
-    log_shape = "wide_iso"               #   quantisation_db, floor_dbm, *_fraction, log_shape, gzip, ...
+    tilt_deg = 0                     # simulation fields: tilt_deg, xpd_antenna_db, atpc, atpc_range_db,
+    log_shape = "wide_iso"           #   noise_db, quantisation_db, floor_dbm, *_fraction, log_shape, gzip
 
-    [[link.rain]]                        # one table per effect: rain, multipath, refractive, level_shift, drift,
-    at_h = 14.5                          #   signal_loss, gap.  When: at_h / at_min / at_s (after start) or
-    duration_min = 90                    #   at = "ISO time"; how long: duration_s / duration_min / duration_h
-    peak_mmh = 60                        #   (none: until the end); the rest are the effect's parameters
+    [[link.rain]]                    # one table per effect: rain, multipath, refractive, level_shift,
+    at_h = 14.5                      #   drift, signal_loss, gap.  When: at_h / at_min / at_s (after start)
+    duration_min = 90                #   or at = "ISO time"; how long: duration_s / duration_min /
+    peak_mmh = 60                    #   duration_h (none: until the end); the rest are its parameters
 
-Times are hours after the hop's start unless ``at`` gives an ISO 8601 time.  A bad file raises ``InputError``
-naming the file and the offending entry.
+Times are hours after the hop's start unless ``at`` gives an ISO 8601 time.  A bad file raises
+``InputError`` naming the file and the offending entry.
 """
+
 from __future__ import annotations
 
 import math
@@ -47,8 +48,16 @@ BUILTIN_DIR = Path(__file__).resolve().parent
 LINK_EXTRA_FIELDS = ("log_shape", "gzip")
 _SCENARIO_KEYS = {"name", "description", "tz", "stats_interval_s", "link", "defaults"}
 _EFFECT_PARAMS = {
-    "rain": {"peak_mmh", "profile", "cells", "variability", "variability_s", "wet_antenna_db", "drying_min",
-             "wetting_s"},
+    "rain": {
+        "peak_mmh",
+        "profile",
+        "cells",
+        "variability",
+        "variability_s",
+        "wet_antenna_db",
+        "drying_min",
+        "wetting_s",
+    },
     "multipath": {"k_min", "k_max", "fade_rate_hz", "correlation", "repeat_days", "plateau"},
     "refractive": {"depth_db"},
     "level_shift": {"step_db", "tilt_deg", "ramp_s"},
@@ -72,8 +81,11 @@ def load_scenario(name_or_path: str | Path) -> Scenario:
     if not path.suffix and (BUILTIN_DIR / f"{text_name}.toml").is_file():
         path = BUILTIN_DIR / f"{text_name}.toml"
     if not path.is_file():
-        raise InputError(f"no scenario file or built-in scenario named {text_name!r} "
-                         f"(built-in: {', '.join(builtin_names())})", path=text_name)
+        raise InputError(
+            f"no scenario file or built-in scenario named {text_name!r} "
+            f"(built-in: {', '.join(builtin_names())})",
+            path=text_name,
+        )
     try:
         data = tomllib.loads(path.read_text(encoding="utf-8"))
     except tomllib.TOMLDecodeError as exc:
@@ -107,8 +119,11 @@ def _effect(kind: str, entry: dict, start: pd.Timestamp, what: str, where: str) 
         raise InputError(f"{what} must be a table ([[link.{kind}]])", path=where)
     unknown = set(entry) - _TIME_KEYS - _EFFECT_PARAMS[kind]
     if unknown:
-        raise InputError(f"{what}: unknown key(s) {', '.join(sorted(unknown))} (allowed: "
-                         f"{', '.join(sorted(_EFFECT_PARAMS[kind] | _TIME_KEYS))})", path=where)
+        raise InputError(
+            f"{what}: unknown key(s) {', '.join(sorted(unknown))} (allowed: "
+            f"{', '.join(sorted(_EFFECT_PARAMS[kind] | _TIME_KEYS))})",
+            path=where,
+        )
     whens = [k for k in ("at", "at_h", "at_min", "at_s") if k in entry]
     if len(whens) != 1:
         raise InputError(f"{what}: give exactly one of at (ISO time), at_h, at_min, at_s", path=where)
@@ -185,6 +200,7 @@ def parse_scenario(data: dict, *, where: str = "scenario", default_name: str = "
         specs.append(spec.replace(effects=tuple(effects)))
         shape = extra.get("log_shape", "wide_iso")
         from diag.writers import SHAPES
+
         if shape not in SHAPES:
             raise InputError(f"{what}: log_shape must be one of {', '.join(SHAPES)}", path=where)
         extras[spec.link_id] = {"log_shape": shape, "gzip": bool(extra.get("gzip", False))}
@@ -194,6 +210,11 @@ def parse_scenario(data: dict, *, where: str = "scenario", default_name: str = "
     except Exception:  # noqa: BLE001 - any failure means the zone is unknown
         raise InputError(f"tz = {tz!r} is not an IANA time zone name", path=where) from None
     stats_interval = _seconds(data.get("stats_interval_s", 900), "stats_interval_s", where)
-    return Scenario(name=str(data.get("name", default_name)), links=tuple(specs),
-                    description=str(data.get("description", "")), tz=tz, outputs=extras,
-                    stats_interval_s=stats_interval)
+    return Scenario(
+        name=str(data.get("name", default_name)),
+        links=tuple(specs),
+        description=str(data.get("description", "")),
+        tz=tz,
+        outputs=extras,
+        stats_interval_s=stats_interval,
+    )
