@@ -104,20 +104,29 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
     return starts, ends
 
 
-def _rain_rates(att_db: float, length_km: float, frequency_ghz: float, pol: str | None) -> float:
-    if not (math.isfinite(att_db) and att_db > 0):
-        return 0.0
-    tilt = 90.0 if pol == "V" else 0.0
-    return float(p838.rain_rate_from_attenuation_mmh(att_db, length_km, frequency_ghz, tilt))
+class _RainModel:
+    """ITU-R P.838-3 coefficients of one hop, computed once (eq. (1) inverted per event in plain floats)."""
 
+    def __init__(self, frequency_ghz: float, length_km: float):
+        self.length_km = float(length_km)
+        self.frequency_ghz = float(frequency_ghz)
+        kh, ah = p838.coefficients_horizontal(frequency_ghz)
+        kv, av = p838.coefficients_vertical(frequency_ghz)
+        self.coef = {"H": (float(kh), float(ah)), "V": (float(kv), float(av))}
 
-def _expected_v_over_h(rate_mmh: float, frequency_ghz: float) -> float:
-    """A_V / A_H for uniform rain of ``rate_mmh`` by ITU-R P.838-3 eq. (1) (NaN for no rain)."""
-    if not (math.isfinite(rate_mmh) and rate_mmh > 0):
-        return math.nan
-    gh = float(p838.specific_attenuation_db_per_km(rate_mmh, frequency_ghz, 0.0))
-    gv = float(p838.specific_attenuation_db_per_km(rate_mmh, frequency_ghz, 90.0))
-    return gv / gh if gh > 0 else math.nan
+    def rate_mmh(self, att_db: float, pol: str | None) -> float:
+        """Path-average rain rate for ``att_db`` under uniform rain: R = (A / (k L))^(1/alpha), P.838-3 eq. (1)."""
+        if not (math.isfinite(att_db) and att_db > 0):
+            return 0.0
+        k, alpha = self.coef["V" if pol == "V" else "H"]
+        return float((att_db / (k * self.length_km)) ** (1.0 / alpha))
+
+    def v_over_h(self, rate_mmh: float) -> float:
+        """A_V / A_H = gamma_V / gamma_H at ``rate_mmh`` (NaN for no rain)."""
+        if not (math.isfinite(rate_mmh) and rate_mmh > 0):
+            return math.nan
+        (kh, ah), (kv, av) = self.coef["H"], self.coef["V"]
+        return float(kv * rate_mmh ** av / (kh * rate_mmh ** ah))
 
 
 def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
@@ -171,6 +180,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     if starts.size == 0:
         return []
     pol = channel_polarization(series.channel, link)
+    rain = _RainModel(link.frequency_ghz, link.length_km)
     p_att = None
     if partner is not None and len(partner.frame) == len(frame):
         p_att = partner.frame["attenuation_peak_db" if stats else "attenuation_db"].to_numpy(
@@ -227,8 +237,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             ref = frame["reference_dbm"].to_numpy(dtype=float)[a:b]
             lower_bound = float(np.nanmax(ref) - link.threshold_dbm) if np.isfinite(ref).any() else math.nan
             peak_reported = max(peak if math.isfinite(peak) else -math.inf, lower_bound)
-        rate = _rain_rates(peak, link.length_km, link.frequency_ghz, pol)
-        rate_mean = _rain_rates(mean_fade, link.length_km, link.frequency_ghz, pol)
+        rate = rain.rate_mmh(peak, pol)
+        rate_mean = rain.rate_mmh(mean_fade, pol)
         corr = ratio = vh = math.nan
         if p_att is not None:
             pa = p_att[a:b]
@@ -242,8 +252,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
                     vh = ratio
                 elif pol == "V" and p_pol == "H" and ratio > 0:
                     vh = 1.0 / ratio
-        rate_h = rate if pol != "V" else _rain_rates(peak / vh if vh and math.isfinite(vh) and vh > 0 else peak,
-                                                     link.length_km, link.frequency_ghz, "H")
+        rate_h = rate if pol != "V" else rain.rate_mmh(peak / vh if vh and math.isfinite(vh) and vh > 0 else peak,
+                                                       "H")
         gauge_rate = math.nan
         if gauge is not None and len(gauge):
             from diag.gauge import gauge_rain_over
@@ -265,7 +275,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "upfade_after_db": up_after, "hour_utc": int(hours[ipeak]), "floor_fraction": floor_frac,
             "pre_floor_fade_db": pre_floor, "below_threshold_s": float(below[a:b].sum() * step),
             "valid_fraction": float((finite | fl).mean()), "partner_corr": corr, "partner_ratio": ratio,
-            "v_over_h_ratio": vh, "expected_v_over_h": _expected_v_over_h(rate_h, link.frequency_ghz),
+            "v_over_h_ratio": vh, "expected_v_over_h": rain.v_over_h(rate_h),
             "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean,
             "rain_plausible": bool(0 < rate <= config.rain_plausible_max_mmh),
             "spread_db": float(np.nanmedian(spread_all[a:b])) if stats and np.isfinite(spread_all[a:b]).any()
