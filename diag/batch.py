@@ -262,6 +262,23 @@ def _placeholder_link(link_id: str) -> Link:
     return Link(link_id=link_id, frequency_ghz=nan, length_km=nan, polarization="", threshold_dbm=nan)
 
 
+def write_tables(results: list[LinkResult], out_dir: Path) -> list[Path]:
+    """``diag.report.write_outputs`` without the PDF: events.csv, findings.json, outage_summary.csv,
+    outage_by_cause.csv, byte for byte the same files (for networks where a PDF per hop is not wanted)."""
+    from diag.report import (events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes,
+                             outage_summary_csv_bytes)
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    for name, make in (("events.csv", events_csv_bytes), ("findings.json", findings_json_bytes),
+                       ("outage_summary.csv", outage_summary_csv_bytes),
+                       ("outage_by_cause.csv", outage_by_cause_csv_bytes)):
+        (out / name).write_bytes(make(results))
+        written.append(out / name)
+    return written
+
+
 def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
     if writer is None:
         from diag.report import write_outputs as writer
@@ -286,10 +303,12 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
             from diag.store import read_store
 
             table = _sorted(read_store(store_path, link_id=link_id))
-            ingest = {"files": [{"file": store_path, "layout": "store"}], "overlap_values_dropped": 0}
+            ingest = {"files": [{"file": store_path, "layout": "store"}]}
         else:
             table, dropped = hop_table(p.tables.get(link_id) for p in pieces)
-            ingest = {"files": [p.report for p in pieces], "overlap_values_dropped": dropped}
+            ingest = {"files": [p.report for p in pieces]}
+            if dropped:
+                ingest["overlap_values_dropped"] = dropped
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
@@ -496,7 +515,7 @@ def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) ->
 def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str | os.PathLike | None = None,
         workers: int | None = None, scheduler: str | None = None, client=None, tz=None, mapping=None, config=None,
         analyze: AnalyzeFn | None = None, writer: WriterFn | None = None, reader: ReaderFn | None = None,
-        progress: ProgressFn | None = None, keep_series: bool = False,
+        progress: ProgressFn | None = None, keep_series: bool = False, hop_pdf: bool = True,
         connect_timeout_s: float = 10.0) -> BatchResult:
     """Analyse every hop found in ``inputs`` (files, folders, Parquet stores) in parallel on Dask.
 
@@ -512,12 +531,16 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         (tests and benchmarks); they must be importable by the workers (module-level functions).
     progress : ``progress(stage, done, total, message)``; stage ``"read"`` per file, ``"analyse"`` per hop.
     keep_series : keep each hop's per-sample ``series`` in the returned results (memory grows with the network).
+    hop_pdf : write each hop's ``report.pdf`` (about a second or more per hop); ``False`` writes the other files
+        only (``write_tables``).  Ignored when ``writer`` is given.
     connect_timeout_s : how long to try reaching ``scheduler``.
     """
     files, stores = expand_inputs(inputs)
     if not links:
         raise InputError("the links table holds no links")
     by_id = {link.link_id: link for link in links}
+    if writer is None and not hop_pdf:
+        writer = write_tables
     own = client is None
     cluster = None
     if own:

@@ -27,6 +27,9 @@ def register(subparsers) -> None:
                              "installed and see the input paths)")
     parser.add_argument("--tz", default=None, metavar="ZONE",
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
+    parser.add_argument("--no-hop-pdf", action="store_true",
+                        help="skip each hop's report.pdf (the slow part for big networks); the CSV/JSON files and "
+                             "the network page are still written")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     parser.set_defaults(func=main)
 
@@ -51,7 +54,7 @@ def main(args: argparse.Namespace) -> int:
         raise InputError(f"--scheduler must be an address like tcp://host:8786, not {args.scheduler!r}")
     links = read_links_table(args.links)
     result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,
-                       tz=args.tz, progress=_progress(args.quiet))
+                       tz=args.tz, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf)
     ranking = result.ranking
     ok = ranking[ranking["error"] == ""]
     failed = ranking[ranking["error"] != ""]
