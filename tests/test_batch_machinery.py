@@ -153,15 +153,6 @@ def test_cluster_results_equal_serial_and_failures_stay_with_their_hop(network, 
     assert [a[1] for a in hops] == list(range(1, 8)) and hops[-1][2] == 7   # 6 hops + the stray hop
 
 
-def test_run_starts_its_own_local_cluster(network, tmp_path):
-    root, logs, links, tables = network
-    files = [logs / "Kestrel-00_a.csv", logs / "Kestrel-00_b.csv"]
-    res = batch.run(files, links[:1], out_dir=None, workers=2, analyze=standin_analyze, writer=standin_writer,
-                    reader=standin_reader)
-    assert len(res.results) == 1 and res.results[0].error is None
-    assert res.results[0].statistics == standin_analyze(tables["Kestrel-00"], links[0]).statistics
-
-
 def test_single_hop_file_takes_the_hop_named_in_its_file_name(tmp_path, client):
     link = make_link({"link_id": "Osprey-7", "frequency_ghz": 38, "length_km": 3, "polarization": "H",
                       "threshold_dbm": -65})
