@@ -79,13 +79,15 @@ def tilt_from_measured_xpd_deg(xpd_db, antenna_xpd_db):
 
 
 def _clear_mask(frame: pd.DataFrame, clear_max_att_db: float) -> np.ndarray:
-    mask = (frame["status"] == S.OK).to_numpy().copy() if "status" in frame else np.ones(len(frame), bool)
+    mask = ((frame["status"] == S.OK).to_numpy(dtype=bool, na_value=False) if "status" in frame
+            else np.ones(len(frame), bool))
     if "cause" in frame:
-        mask &= ~frame["cause"].isin(_NOT_CLEAR).to_numpy()
+        mask = mask & ~frame["cause"].isin(_NOT_CLEAR).to_numpy(dtype=bool, na_value=False)
     if "attenuation_db" in frame:
         att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
-        cause = frame["cause"].to_numpy(dtype=object) if "cause" in frame else np.full(len(frame), "")
-        mask &= (att <= clear_max_att_db) | (cause == S.LEVEL_SHIFT)
+        shifted = ((frame["cause"] == S.LEVEL_SHIFT).to_numpy(dtype=bool, na_value=False) if "cause" in frame
+                   else np.zeros(len(frame), bool))
+        mask = mask & ((att <= clear_max_att_db) | shifted)
     return mask
 
 
@@ -114,7 +116,8 @@ def rain_xpd_block(frame: pd.DataFrame, xpd: pd.Series, clear_xpd_db, frequency_
         return {"skipped": "no classified events"}
     cpa = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
     x = xpd.to_numpy(dtype=float, na_value=np.nan)
-    use = (frame["cause"].to_numpy(dtype=object) == S.RAIN) & (cpa >= min_cpa_db) & np.isfinite(x)
+    is_rain = (frame["cause"] == S.RAIN).to_numpy(dtype=bool, na_value=False)
+    use = is_rain & (cpa >= min_cpa_db) & np.isfinite(x)
     if use.sum() < min_samples:
         return {"skipped": f"fewer than {min_samples} rain samples with CPA >= {min_cpa_db:g} dB and an XPD"}
     cpa_u, x_u = cpa[use], x[use]

@@ -286,6 +286,21 @@ def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
     return out
 
 
+def _hourly_clear_levels(series: pd.Series, *, fade_trim_db: float) -> pd.Series:
+    """Clear level (:func:`clear_level_dbm`) of each clock hour holding valid samples, vectorised."""
+    t0 = series.index[0].floor("h")
+    hour = ((series.index - t0).total_seconds().to_numpy() // 3600).astype(np.int64)
+    values = series.to_numpy(dtype=float)
+    starts = np.flatnonzero(np.r_[True, np.diff(hour) != 0])       # index sorted: hours are non-decreasing
+    counts = np.diff(np.r_[starts, len(hour)])
+    pos = np.arange(len(hour)) - np.repeat(starts, counts)
+    matrix = np.full((len(starts), int(counts.max())), np.nan)
+    matrix[np.repeat(np.arange(len(starts)), counts), pos] = values
+    levels = _clear_rows(matrix, fade_trim_db=fade_trim_db)
+    index = t0 + pd.to_timedelta(hour[starts], unit="h")
+    return pd.Series(levels, index=index).dropna()
+
+
 def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = 2 * 86400.0,
                       fade_trim_db: float = 3.0) -> dict:
     """Slow trend of the clear-sky level: Theil-Sen slope of hourly clear levels [dB/week] with a 95 % interval.
@@ -301,8 +316,7 @@ def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = 2 * 86400.0,
     if span_s < min_span_s:
         return {"slope_db_per_week": None, "span_days": round(span_s / 86400.0, 3),
                 "skipped": f"record spans {span_s / 86400.0:.2f} d, under {min_span_s / 86400.0:.2f} d"}
-    hourly = series.groupby(series.index.floor("h")).agg(
-        lambda v: clear_level_dbm(v.to_numpy(), fade_trim_db=fade_trim_db)).dropna()
+    hourly = _hourly_clear_levels(series, fade_trim_db=fade_trim_db)
     if len(hourly) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
     from scipy import stats as sps   # imported here: scipy.stats is slow to import and only the trend needs it

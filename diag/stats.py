@@ -41,7 +41,7 @@ log = logging.getLogger(__name__)
 DEFAULT_DEPTHS_DB = (3.0, 5.0, 10.0, 15.0, 20.0, 25.0, 30.0, 35.0, 40.0)
 LCR_LEVELS_DB = (-5.0, -10.0, -15.0, -20.0, -25.0, -30.0)
 RAIN_PERCENTAGES = (1.0, 0.1, 0.01, 0.001)
-MLE_MAX_SAMPLES = 5000   # the likelihood fit uses at most this many evenly spaced samples (speed)
+MLE_MAX_SAMPLES = 3000   # the likelihood fit uses at most this many evenly spaced samples (speed)
 FADED_DB = 3.0   # a sample counts as faded above this attenuation (the same 3 dB used for truth labels)
 
 
@@ -65,20 +65,28 @@ class _Arrays:
     def __init__(self, series):
         frame = series.frame
         n = len(frame)
-        status = frame["status"].to_numpy(dtype=object) if "status" in frame else np.full(n, S.OK, dtype=object)
-        self.ok = status == S.OK
-        self.lost = status == S.SIGNAL_LOST
+        if "status" in frame:
+            self.ok = (frame["status"] == S.OK).to_numpy(dtype=bool, na_value=False)
+            self.lost = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)
+        else:
+            self.ok, self.lost = np.ones(n, dtype=bool), np.zeros(n, dtype=bool)
         att = (frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan) if "attenuation_db" in frame
                else np.full(n, np.nan))
         self.observed = (self.ok & np.isfinite(att)) | self.lost
         self.att = np.where(self.lost, np.inf, att)          # at the floor: deeper than any depth
-        if "cause" in frame:
-            codes, names = pd.factorize(frame["cause"], use_na_sentinel=False)
+        if "cause" in frame and isinstance(frame["cause"].dtype, pd.CategoricalDtype):
+            codes = frame["cause"].cat.codes.to_numpy()        # -1 = missing
+            names = [str(c) for c in frame["cause"].cat.categories]
+            codes = np.where(codes < 0, len(names), codes)
+            names = names + [""]
+        elif "cause" in frame:
+            codes, uniques = pd.factorize(frame["cause"], use_na_sentinel=False)
+            names = [str(x) if isinstance(x, str) else "" for x in uniques]
         else:
-            codes, names = np.zeros(n, dtype=np.int64), pd.Index([""])
+            codes, names = np.zeros(n, dtype=np.int64), [""]
         self.cause_codes = np.asarray(codes)
-        self.cause_names = [str(x) if isinstance(x, str) else "" for x in names]
-        self.cause = np.asarray(self.cause_names, dtype=object)[self.cause_codes] if n else np.array([], object)
+        self.cause_names = names
+        self.n = n
         self.is_mp = self.is_cause(S.MULTIPATH)
         self.is_rain = self.is_cause(S.RAIN)
         self.is_none = self.is_cause("")
@@ -86,9 +94,10 @@ class _Arrays:
         self.hours = frame.index.hour.to_numpy() if isinstance(frame.index, pd.DatetimeIndex) else np.zeros(n, int)
 
     def is_cause(self, cause: str) -> np.ndarray:
-        if cause not in self.cause_names:
-            return np.zeros(len(self.cause_codes), dtype=bool)
-        return self.cause_codes == self.cause_names.index(cause)
+        hits = [i for i, name in enumerate(self.cause_names) if name == cause]
+        if not hits:
+            return np.zeros(self.n, dtype=bool)
+        return np.isin(self.cause_codes, hits)
 
 
 # ------------------------------------------------------------------------------------------------- exceedance
@@ -152,7 +161,7 @@ def p530_multipath_curve(p530, link, depths_db) -> dict:
 def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -> dict:
     frame = series.frame
     arrays = arrays or _Arrays(series)
-    att, observed, cause = arrays.att, arrays.observed, arrays.cause
+    att, observed = arrays.att, arrays.observed
     n_obs = int(observed.sum())
     out = {"depth_db": list(depths_db), "observed_s": _round(n_obs * series.interval_s, 8),
            "samples": n_obs}
@@ -194,7 +203,7 @@ def multipath_periods(arrays: _Arrays, interval_s: float, *, merge_s: float = 60
     gap = max(1, int(round(merge_s / interval_s)))
     pad = int(round(pad_s / interval_s))
     breaks = np.flatnonzero(np.diff(idx) > gap) + 1
-    n = len(arrays.cause)
+    n = arrays.n
     return [(max(0, int(part[0]) - pad), min(n, int(part[-1]) + 1 + pad)) for part in np.split(idx, breaks)]
 
 
@@ -211,7 +220,7 @@ def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float) -> np.
 
 def _period_mask(arrays: _Arrays, periods) -> np.ndarray:
     """Samples inside the multipath periods that are not part of another cause's event."""
-    mask = np.zeros(len(arrays.cause), dtype=bool)
+    mask = np.zeros(arrays.n, dtype=bool)
     for a, b in periods:
         mask[a:b] = True
     other = ~arrays.is_none & ~arrays.is_mp
@@ -315,7 +324,7 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
 # --------------------------------------------------------------------------------------------------- rain
 def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     arrays = arrays or _Arrays(series)
-    att, observed, cause = arrays.att, arrays.observed, arrays.cause
+    att, observed = arrays.att, arrays.observed
     is_rain = arrays.is_rain & observed
     n_obs = int(observed.sum())
     out: dict = {"rain_samples": int(is_rain.sum()), "rain_s": _round(is_rain.sum() * series.interval_s, 8)}
