@@ -150,6 +150,14 @@ def show_input_error(exc: InputError, *, prefix: str = "") -> None:
     st.error(f"{prefix}{exc.one_line()}", icon=":material/warning:")
 
 
+def fit_height(rows: int, most: int = 460) -> int:
+    """Pixel height that shows ``rows`` table rows without empty space (scrolls beyond ``most``)."""
+    return min(most, 35 * (rows + 1) + 3)
+
+
+TIME_AXIS = alt.Axis(format="%d %b %H:%M", labelOverlap=True)
+
+
 def _utc_naive(stamp: pd.Timestamp) -> dt.datetime:
     return stamp.tz_convert("UTC").tz_localize(None).to_pydatetime()
 
@@ -319,13 +327,16 @@ def input_check(reports: dict[str, dict], errors: dict[str, str], *, expanded_ed
         with st.container(border=True):
             st.markdown(f"**{name}**")
             left, right = st.columns([3, 2])
-            left.dataframe(views.reader_summary(report), hide_index=True, width="stretch")
-            right.dataframe(views.column_roles(report), hide_index=True, width="stretch")
+            summary = views.reader_summary(report)
+            left.dataframe(summary, hide_index=True, width="stretch", height=fit_height(len(summary), 600))
+            roles = views.column_roles(report)
+            right.dataframe(roles, hide_index=True, width="stretch", height=fit_height(len(roles), 320))
             rejected = views.rejected_rows(report)
             if len(rejected):
-                right.dataframe(rejected, hide_index=True, width="stretch")
+                right.dataframe(rejected, hide_index=True, width="stretch", height=fit_height(len(rejected), 250))
             for guess in report.get("guesses") or []:
-                st.info(f"Guessed: {guess}", icon=":material/search:")
+                st.info(f"Guessed: {guess}. To change it, use “Correct the detection” below.",
+                        icon=":material/search:")
             for note in report.get("warnings") or []:
                 st.warning(str(note))
     unsure = bool(errors) or any(r.get("guesses") for r in reports.values())
@@ -338,14 +349,16 @@ def overview(result, hop: dict) -> None:
     if hop["error"]:
         st.error(f"Hop {hop['link_id']} could not be analysed: {hop['error']}")
         return
-    c1, c2, c3, c4 = st.columns(4)
+    exact = all(pair[0] == pair[1] for pair in (hop["availability_pct"], hop["unavailable_min"]))
+    c1, c2, c3, c4 = st.columns(4) if exact else (*st.columns(2), *st.columns(2))
     low, high = hop["availability_pct"]
     objective = hop["objective_pct"]
     if low is not None and low == high and objective is not None:
         delta = f"{low - objective:+.4f} % vs objective {objective:g} %"
     else:
         delta = None
-    c1.metric("Availability", views.range_text(hop["availability_pct"], "{:.4f}", " %"), delta=delta,
+    c1.metric("Availability", views.range_text(hop["availability_pct"], "{:.4f}" if low == high else "{:.3f}",
+                                               " %"), delta=delta,
               delta_color="normal",
               help=None if hop["exact"] else "Bounds: the logs are too coarse to count seconds exactly. "
               + hop["method"])
@@ -367,11 +380,15 @@ def overview(result, hop: dict) -> None:
         table = views.outage_minutes_by_cause(result)
         if len(table) == 0:
             st.success("No fade event in this period.")
+        elif table["below_threshold_hi_min"].max() <= 0:
+            st.success("No fade reached the receiver threshold in this period.")
+            st.dataframe(table[["cause_label", "events"]], hide_index=True,
+                         column_config={"cause_label": "Cause", "events": "Fade events"})
         else:
             table["label"] = [views.range_text((lo, hi), "{:.1f}", " min") for lo, hi in
                               zip(table["below_threshold_lo_min"], table["below_threshold_hi_min"])]
             base = alt.Chart(table).encode(
-                y=alt.Y("cause_label:N", sort=None, title=None),
+                y=alt.Y("cause_label:N", sort=None, title=None, axis=alt.Axis(labelLimit=220)),
                 tooltip=[alt.Tooltip("cause_label:N", title="cause"), alt.Tooltip("events:Q", title="events"),
                          alt.Tooltip("label:N", title="below threshold"),
                          alt.Tooltip("unavailable_hi_min:Q", format=".1f", title="unavailable (min, upper)")])
@@ -383,20 +400,19 @@ def overview(result, hop: dict) -> None:
             st.altair_chart((upper + lower + text).properties(height=44 * len(table) + 50), width="stretch")
             if not table["exact"].all():
                 st.caption("Solid: time certainly below threshold; light: the most it can have been (coarse logs).")
-            shown = table[["cause_label", "events", "below_threshold_lo_min", "below_threshold_hi_min",
-                           "unavailable_lo_min", "unavailable_hi_min"]]
-            st.dataframe(shown, hide_index=True, width="stretch", column_config={
-                "cause_label": "Cause", "events": "Events",
-                "below_threshold_lo_min": st.column_config.NumberColumn("Below thr. min (low)", format="%.1f"),
-                "below_threshold_hi_min": st.column_config.NumberColumn("(high)", format="%.1f"),
-                "unavailable_lo_min": st.column_config.NumberColumn("Unavailable min (low)", format="%.1f"),
-                "unavailable_hi_min": st.column_config.NumberColumn("(high)", format="%.1f")})
+            shown = pd.DataFrame({
+                "Cause": table["cause_label"], "Fade events": table["events"],
+                "Below threshold": table["label"],
+                "Unavailable": [views.range_text((lo, hi), "{:.1f}", " min") for lo, hi in
+                                zip(table["unavailable_lo_min"], table["unavailable_hi_min"])]})
+            st.dataframe(shown, hide_index=True, width="stretch")
     with right:
         st.markdown("##### What to look at first")
         findings = views.top_findings(result)
         if not findings:
             st.caption("No findings for this hop.")
         any_action = False
+        cautions: list[str] = []
         for item in findings:
             with st.container(border=True):
                 st.markdown(f"**{item['title']}**")
@@ -405,10 +421,10 @@ def overview(result, hop: dict) -> None:
                 for action in item["actions"]:
                     any_action = True
                     st.markdown(f"- {action}")
-                for caution in item["cautions"]:
-                    st.caption(f"Caution: {caution}")
-        if any_action:
-            st.warning(SAFETY_NOTE, icon=":material/warning:")
+            cautions += [c for c in item["cautions"] if c not in cautions]
+        if any_action or cautions:
+            st.warning("**Before any work on site.** " + (" ".join(cautions) if cautions else SAFETY_NOTE),
+                       icon=":material/warning:")
     if result.skipped:
         with st.expander(f"Checks skipped ({len(result.skipped)})"):
             for line in dict.fromkeys(result.skipped):
@@ -451,7 +467,7 @@ def level_timeline(result) -> None:
         y_scale = alt.Scale(zero=False)
     spans = views.event_spans(result.events, channel=channel, start=start, end=end)
     present = [c for c in schema.CAUSES if c in set(spans["cause"])]
-    x = alt.X("time_utc:T", title="time (UTC)", axis=alt.Axis(format="%d %b %H:%M", labelOverlap=True))
+    x = alt.X("time_utc:T", title="time (UTC)", axis=TIME_AXIS)
     layers = []
     if len(spans):
         edge = pd.concat([line["level_max_dbm"], line["level_min_dbm"], line["limit"]])
@@ -510,15 +526,23 @@ def event_list(result) -> None:
     depth = c2.number_input("Peak fade at least (dB)", min_value=0.0, max_value=80.0, value=0.0, step=1.0,
                             key=f"ev_depth_{hop}")
     table = views.event_table(events, causes=chosen, min_peak_fade_db=depth)
-    st.caption(f"{len(table)} of {len(events)} events; click a column title to sort.")
-    st.dataframe(table, hide_index=True, width="stretch", height=460, column_config={
-        "Start (UTC)": st.column_config.DatetimeColumn(format="YYYY-MM-DD HH:mm:ss"),
-        "End (UTC)": st.column_config.DatetimeColumn(format="YYYY-MM-DD HH:mm:ss"),
-        "Duration s": st.column_config.NumberColumn(format="%.0f"),
-        "Peak fade dB": st.column_config.NumberColumn(format="%.1f"),
-        "Confidence": st.column_config.NumberColumn(format="%.2f"),
-        "Evidence": st.column_config.TextColumn(width="large"),
-    })
+    order = ["Start (UTC)", "Duration s", "Peak fade dB", "Cause", "Confidence", "Channel", "Evidence", "End (UTC)"]
+    st.caption(f"{len(table)} of {len(events)} events. Click a column title to sort; select a row to read its "
+               "evidence in full.")
+    picked = st.dataframe(table, hide_index=True, width="stretch", height=fit_height(len(table)),
+                          column_order=order, on_select="rerun", selection_mode="single-row",
+                          key=f"ev_table_{hop}", column_config={
+                              "Start (UTC)": st.column_config.DatetimeColumn(format="YYYY-MM-DD HH:mm:ss"),
+                              "End (UTC)": st.column_config.DatetimeColumn(format="YYYY-MM-DD HH:mm:ss"),
+                              "Duration s": st.column_config.NumberColumn(format="%.0f"),
+                              "Peak fade dB": st.column_config.NumberColumn(format="%.1f"),
+                              "Confidence": st.column_config.NumberColumn(format="%.2f"),
+                              "Evidence": st.column_config.TextColumn(width="large")})
+    rows = (picked.selection.rows if picked is not None and hasattr(picked, "selection") else []) or []
+    if rows and rows[0] < len(table):
+        row = table.iloc[rows[0]]
+        st.info(f"**{row['Cause']}** on {row['Channel']}, {row['Start (UTC)']:%Y-%m-%d %H:%M:%S} → "
+                f"{row['End (UTC)']:%H:%M:%S} UTC, peak {row['Peak fade dB']:.1f} dB: {row['Evidence']}")
 
 
 def fading_statistics(result) -> None:
@@ -538,15 +562,16 @@ def fading_statistics(result) -> None:
             chart = alt.Chart(curves).mark_line(point=True).encode(
                 x=alt.X("depth_db:Q", title="fade depth (dB)"),
                 y=alt.Y("percent:Q", title="% of time exceeded", scale=alt.Scale(type="log")),
-                color=alt.Color("curve:N", title=None, legend=alt.Legend(orient="bottom", columns=2),
-                                scale=alt.Scale(scheme="dark2")),
-                strokeDash=alt.StrokeDash("kind:N", title=None, scale=alt.Scale(
+                color=alt.Color("curve:N", title=None, scale=alt.Scale(scheme="dark2"),
+                                legend=alt.Legend(orient="bottom", columns=2, labelLimit=320)),
+                strokeDash=alt.StrokeDash("kind:N", legend=None, scale=alt.Scale(
                     domain=["measured", "theory", "prediction"], range=[[1, 0], [6, 3], [2, 2]])),
                 tooltip=["curve:N", alt.Tooltip("depth_db:Q", format=".1f"),
                          alt.Tooltip("percent:Q", format=".4g")])
             st.altair_chart(chart.properties(height=340), width="stretch")
             notes = [stats.get("exceedance", {}).get("note"), stats.get("exceedance", {}).get("p530_note"),
                      (stats.get("rain") or {}).get("note")]
+            st.caption("Solid: measured; dashed: Rayleigh distribution; dotted: ITU-R P.530 design prediction.")
             for note in filter(None, notes):
                 st.caption(note)
         else:
@@ -589,7 +614,7 @@ def cross_polar(result) -> None:
             if len(with_xpd) > 1 else with_xpd[0]
         line = views.timeline(result.series[channel], column="xpd_db", max_points=1500)
         layers = [alt.Chart(line).mark_area(opacity=0.25, color="#7a8791").encode(
-            x=alt.X("time_utc:T", title="time (UTC)"),
+            x=alt.X("time_utc:T", title="time (UTC)", axis=TIME_AXIS),
             y=alt.Y("level_min_dbm:Q", title="XPD (dB)", scale=alt.Scale(zero=False)), y2="level_max_dbm:Q"),
             alt.Chart(line).mark_line(color="#1d2329", strokeWidth=1).encode(
                 x="time_utc:T", y="level_dbm:Q",
@@ -748,9 +773,12 @@ def main() -> None:
     if len(results) > 1:
         st.markdown("#### Network")
         st.dataframe(views.network_table(results), hide_index=True, width="stretch",
+                     height=fit_height(len(results), 420),
                      column_config={"Objective %": st.column_config.NumberColumn(format="%.3f")})
+    network = views.network_table(results)
     by_id = {r.link.link_id: r for r in results}
-    hop_id = st.selectbox("Hop", list(by_id), key="hop") if len(by_id) > 1 else next(iter(by_id))
+    order = [h for h in network["Hop"] if h in by_id] or list(by_id)
+    hop_id = st.selectbox("Hop", order, key="hop", help="worst availability first") if len(order) > 1 else order[0]
     result = by_id[hop_id]
     hop = views.hop_overview(result)
     link = result.link

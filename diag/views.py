@@ -14,22 +14,13 @@ import numpy as np
 import pandas as pd
 
 from diag import schema
+from diag.report.style import CAUSE_LABELS
 from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult
 
-# Labels shown for the cause vocabulary (the CSV files keep the bare names of diag.schema.CAUSES).
-CAUSE_LABELS = {
-    schema.RAIN: "Rain",
-    schema.MULTIPATH: "Multipath (clear air)",
-    schema.REFRACTIVE: "Refractive (slow, clear air)",
-    schema.LEVEL_SHIFT: "Level shift / alignment",
-    schema.SIGNAL_LOSS: "Signal loss (equipment)",
-    schema.UNKNOWN: "Unknown",
-}
-
-
 def cause_label(cause: str) -> str:
-    """Display label of a cause name ("" and unexpected names pass through readable)."""
-    return CAUSE_LABELS.get(str(cause), str(cause).replace("_", " ").capitalize() or "None")
+    """Display label of a cause name, from the shared palette (``diag.report.style``, also used by the PDF)."""
+    text = str(cause)
+    return CAUSE_LABELS.get(text, text.replace("_", " ").capitalize() or "None")
 
 
 def _utc(value) -> pd.Timestamp | None:

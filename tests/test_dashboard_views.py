@@ -112,7 +112,7 @@ def test_event_spans_clip_to_window_and_label_causes():
     out = views.event_spans(events, start=T0 + pd.Timedelta(minutes=5), end=T0 + pd.Timedelta(hours=2))
     assert out["cause"].tolist() == ["rain", "multipath"]
     assert out["start_utc"].iloc[0] == T0 + pd.Timedelta(minutes=5)          # clipped
-    assert out["cause_label"].tolist() == ["Rain", "Multipath (clear air)"]
+    assert out["cause_label"].tolist() == [views.cause_label("rain"), views.cause_label("multipath")]
     longest = views.event_spans(events, max_spans=1)
     assert longest["cause"].tolist() == ["level_shift"]
     assert len(views.event_spans(events, channel="H")) == 0
@@ -127,7 +127,7 @@ def test_event_table_filters_by_cause_and_depth():
     assert len(views.event_table(events)) == 3
     only = views.event_table(events, causes=["multipath"], min_peak_fade_db=10.0)
     assert only["Peak fade dB"].tolist() == [18.0]
-    assert only["Cause"].tolist() == ["Multipath (clear air)"]
+    assert only["Cause"].tolist() == [views.cause_label("multipath")]
     assert list(only.columns) == views.EVENT_TABLE_COLUMNS
     assert len(views.event_table(events.iloc[:0])) == 0
 
