@@ -129,7 +129,9 @@ def _headline_rows(results: Sequence[LinkResult]) -> list[list[str]]:
                          objective, "—", "—", "—", "—", "—"])
             continue
         obs, nod = s.get("observed_s", 0) or 0, s.get("no_data_s", 0) or 0
-        nodata = f"{_duration(nod)} ({100 * nod / (obs + nod):.1f} %)" if obs + nod > 0 else "—"
+        share = 100 * nod / (obs + nod) if obs + nod > 0 else 0.0
+        nodata = (f"{_duration(nod)} ({share:.2f} %)" if 0 < share < 0.1 else f"{_duration(nod)} ({share:.1f} %)"
+                  ) if obs + nod > 0 else "—"
         main = s.get("dominant_cause") or ""
         rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", format_availability(s),
                      objective, _verdict(s), format_minutes(s, "unavailable_s"),
@@ -170,18 +172,18 @@ def _overview_sentence(results: Sequence[LinkResult]) -> str:
     return " ".join(parts)
 
 
-def _page_summary(fig, results: Sequence[LinkResult]) -> None:
+def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
     fig.text(0.06, 0.965, "Microwave hop outage report", fontsize=17, weight="bold", color=style.INK, va="top")
     fig.text(0.06, 0.937, f"Period: {_period(results)}   ·   {len(results)} hop(s)", fontsize=9, color=style.INK,
              va="top")
-    fig.text(0.06, 0.912, _wrap(_overview_sentence(results), 88), fontsize=10, color=style.INK, va="top",
-             weight="bold", linespacing=1.3)
+    overview = _wrap(_overview_sentence(results), 88)
+    fig.text(0.06, 0.912, overview, fontsize=10, color=style.INK, va="top", weight="bold", linespacing=1.3)
 
     rows = _headline_rows(results)
     n_rows = max(len(rows), 1)
     row_h = 0.024 if n_rows <= 8 else 0.019
     table_h = row_h * (n_rows + 1.6)
-    top = 0.855
+    top = 0.912 - 0.019 * (overview.count("\n") + 1) - 0.02
     fig.text(0.06, top, "Headline per hop", fontsize=11, weight="bold", va="top")
     ax = fig.add_axes([0.05, top - 0.02 - table_h, 0.90, table_h])
     ax.axis("off")
@@ -189,9 +191,9 @@ def _page_summary(fig, results: Sequence[LinkResult]) -> None:
               "Outage\n(unavailable)", "Below\nthreshold", "Main cause", "No data"]
     table = ax.table(cellText=rows or [["—"] * len(header)], colLabels=header, bbox=[0, 0, 1, 1],
                      cellLoc="center", colLoc="center",
-                     colWidths=[0.13, 0.13, 0.16, 0.08, 0.09, 0.1, 0.1, 0.1, 0.11])
+                     colWidths=[0.155, 0.115, 0.165, 0.07, 0.1, 0.095, 0.09, 0.095, 0.115])
     table.auto_set_font_size(False)
-    table.set_fontsize(7.3 if n_rows <= 8 else 6.3)
+    table.set_fontsize(6.8 if n_rows <= 8 else 6.0)
     for (row, col), cell in table.get_celld().items():
         cell.set_edgecolor(style.GRID)
         if row == 0:
@@ -212,10 +214,10 @@ def _page_summary(fig, results: Sequence[LinkResult]) -> None:
     fig.text(0.06, y, _wrap(note, 135), fontsize=6.8, va="top", style="italic")
 
     bar_top = y - 0.085
-    bar_h = min(0.24, max(0.11, 0.028 * len(rows) + 0.05))
+    bar_h = min(0.22, max(0.1, 0.022 * len(rows) + 0.05))
     _bar_by_cause(fig.add_axes([0.2, bar_top - bar_h, 0.74, bar_h]), results)
     key_bottom = _key_points(fig, results, top=bar_top - bar_h - 0.105)
-    _outlook(fig, results, top=key_bottom - 0.03)
+    state["outlook_done"] = _outlook(fig, results, top=key_bottom - 0.03, bottom=0.075)
     fig.text(0.06, 0.035, _wrap(SAFETY_TEXT, 140), fontsize=7, color=style.INK, va="bottom")
 
 
@@ -329,7 +331,7 @@ def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
     return top - 0.025 - 0.0135 * (text.count("\n") + 1)
 
 
-def _outlook(fig, results: Sequence[LinkResult], top: float) -> None:
+def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float) -> bool:
     """Yearly outlook per hop: a labelled extrapolation next to what the objective allows."""
     rows = []
     for r in results[:MAX_TABLE_ROWS]:
@@ -349,16 +351,18 @@ def _outlook(fig, results: Sequence[LinkResult], top: float) -> None:
         allowed = s.get("objective_min_per_year")
         rows.append([r.link.link_id, format_minutes(s), f"{s['observed_s'] / 86400:.1f} d", rng(lo, hi),
                      rng(wlo, whi), f"{allowed:,.1f} min" if _finite(allowed) else "no objective"])
-    if not rows or top - 0.022 * (len(rows) + 1.8) < 0.12:
-        return
+    if not rows:
+        return True
+    if top - 0.02 - 0.02 * (len(rows) + 1.8) - 0.05 < bottom:
+        return False
     fig.text(0.06, top, "Outlook for a year (extrapolation only)", fontsize=11, weight="bold", va="top")
-    height = 0.022 * (len(rows) + 1.8)
+    height = 0.02 * (len(rows) + 1.8)
     ax = fig.add_axes([0.05, top - 0.02 - height, 0.90, height])
     ax.axis("off")
     header = ["Hop", "Outage in\nperiod", "Observed", "Per year if every week\nwere like this one",
               "Per year if this was\nthe worst month (P.841)", "Allowed per year\nby the objective"]
     table = ax.table(cellText=rows, colLabels=header, bbox=[0, 0, 1, 1], cellLoc="center",
-                     colWidths=[0.14, 0.12, 0.1, 0.22, 0.22, 0.2])
+                     colWidths=[0.17, 0.11, 0.09, 0.22, 0.22, 0.19])
     table.auto_set_font_size(False)
     table.set_fontsize(7)
     for (row, col), cell in table.get_celld().items():
@@ -371,6 +375,7 @@ def _outlook(fig, results: Sequence[LinkResult], top: float) -> None:
         "not predictions. The worst-month conversion uses ITU-R P.841 global parameters (not yet checked against "
         "the Recommendation). Only a year or more of data supports an annual figure.", 135),
         fontsize=6.8, va="top", style="italic")
+    return True
 
 
 # ------------------------------------------------------------------------------------------------ page 2
@@ -455,7 +460,7 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
         ax.spines[side].set_visible(False)
 
 
-def _page_timelines(fig, results: Sequence[LinkResult]) -> None:
+def _page_timelines(fig, results: Sequence[LinkResult], state: dict) -> None:
     import matplotlib.dates as mdates
     from matplotlib.patches import Patch
 
@@ -562,10 +567,17 @@ def _distribution(ax, results: Sequence[LinkResult]) -> None:
             fontsize=6.8, transform=ax.transAxes, va="top")
 
 
-def _page_findings(fig, results: Sequence[LinkResult]) -> None:
+def _page_findings(fig, results: Sequence[LinkResult], state: dict) -> None:
     fig.text(0.06, 0.965, "Findings, actions and method", fontsize=15, weight="bold", va="top")
-    _distribution(fig.add_axes([0.1, 0.66, 0.84, 0.26]), results)
-    y = 0.56
+    if state.get("outlook_done", True):
+        _distribution(fig.add_axes([0.1, 0.66, 0.84, 0.26]), results)
+        y = 0.56
+    else:   # the yearly outlook did not fit on page 1: it goes here, under a smaller fade-depth chart
+        _distribution(fig.add_axes([0.1, 0.735, 0.84, 0.18]), results)
+        n = min(len(results), MAX_TABLE_ROWS)
+        top = 0.655
+        _outlook(fig, results, top=top, bottom=0.0)
+        y = top - 0.02 - 0.02 * (n + 1.8) - 0.07
     blocks: list[tuple[str, list[str]]] = []
     items = []
     for link_id, f in _top_findings(results, 6):
@@ -584,8 +596,11 @@ def _page_findings(fig, results: Sequence[LinkResult]) -> None:
         s = r.outage.summary if r.outage is not None else None
         if s and (s.get("no_data_s") or 0) > 0:
             total = (s.get("observed_s") or 0) + s["no_data_s"]
+            share = 100 * s["no_data_s"] / total
             gaps.append(f"{r.link.link_id}: {_duration(s['no_data_s'])} without data "
-                        f"({100 * s['no_data_s'] / total:.1f} % of the period), excluded from availability.")
+                        f"({share:.2f} % of the period), excluded from availability." if share < 0.1 else
+                        f"{r.link.link_id}: {_duration(s['no_data_s'])} without data "
+                        f"({share:.1f} % of the period), excluded from availability.")
         elif r.error:
             gaps.append(f"{r.link.link_id}: not analysed ({r.error}).")
     blocks.append(("Data gaps", gaps or ["No gaps in the analysed period."]))
@@ -654,9 +669,10 @@ def build_figures(results: Iterable[LinkResult]) -> list:
 
     results = list(results)
     pages = []
+    state: dict = {}
     for painter in (_page_summary, _page_timelines, _page_findings):
         fig = Figure(figsize=PAGE_SIZE_IN)
-        painter(fig, results)
+        painter(fig, results, state)
         pages.append(fig)
     return pages
 
