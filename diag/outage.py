@@ -89,7 +89,14 @@ def _cause_codes(frame: pd.DataFrame) -> np.ndarray:
     """Cause index (CAUSES) per grid point; _UNKNOWN where no event covers it or the cause is not in the list."""
     if "cause" not in frame.columns:
         return np.full(len(frame), _UNKNOWN, dtype=np.int8)
-    codes = pd.Index(CAUSES, dtype=object).get_indexer(frame["cause"].astype(object))
+    cause = frame["cause"]
+    lookup = pd.Index(CAUSES, dtype=object)
+    if isinstance(cause.dtype, pd.CategoricalDtype):      # the pipeline's frames: map the categories once
+        per_category = lookup.get_indexer(cause.cat.categories.astype(object))
+        raw = cause.cat.codes.to_numpy()
+        codes = np.where(raw >= 0, per_category[np.maximum(raw, 0)], -1)
+    else:
+        codes = lookup.get_indexer(cause.astype(object))
     return np.where(codes < 0, _UNKNOWN, codes).astype(np.int8)
 
 
