@@ -149,7 +149,7 @@ def _run(capsys, argv: list[str], seconds: int = 60) -> tuple[int, str, str]:
 
 def _check_failure(rc: int, err: str, name: str):
     assert rc == 2, f"{name}: status {rc}, stderr {err!r}"
-    lines = [ln for ln in err.splitlines() if ln.strip() and not ln.startswith("diag: warning")]
+    lines = [ln for ln in err.splitlines() if ln.startswith("diag: error")]
     assert len(lines) == 1, f"{name}: expected one error line, got {err!r}"
     assert lines[0].startswith("diag: error:")
     assert name in lines[0], f"{name}: the message must name the file: {lines[0]!r}"
