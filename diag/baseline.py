@@ -59,7 +59,7 @@ class AnalysisConfig:
     reference_window_h: float = 24.0
     reference_quantile: float = 0.75
     min_block_coverage: float = 0.5
-    step_min_db: float = 2.0
+    step_min_db: float = 1.5
     context_s: float = 300.0          # window before/after an event for upfades
     rain_plausible_max_mmh: float = 200.0   # path-average rain rate above this is not rain (common practice)
     merge_gap_s: float = 0.0          # cross-channel grouping tolerance (0 = overlap only)

@@ -143,7 +143,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             score += 0.8
             reasons.append(f"upfades to {upfade:.1f} dB above the reference")
         if dur < 120.0:
-            score += 1.0
+            score += 0.6
             reasons.append("too short for rain or refraction")
         if math.isfinite(corr) and corr < 0.8 and peak - mean_fade >= 3.0:  # (a flat fade has no shape to share)
             score += 0.5
