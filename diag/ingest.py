@@ -951,16 +951,18 @@ def _finish(chunks: list[_Rows], keys: _Keys, plan: _Plan, report: IngestReport,
         if plan.time.marks_end:
             shift = iv if iv else (step or 0.0)
             t = t - np.int64(round(shift * 1e9))
-        parts.append((link, channel, q, st, float(iv), t, v, r))
-    # value accounting
-    all_r = np.concatenate([p[7] for p in parts]) if parts else np.zeros(0, np.int8)
-    status = N.status_of(all_r)
-    reasons = {N.REASON_NAMES[c]: int((all_r == c).sum()) for c in N.REASON_NAMES if (all_r == c).any()}
-    report.values = {"read": int(all_r.size), "ok": int((status == N._OK).sum()),
-                     "signal_lost": int((status == N._LOST).sum()), "missing": int((status == N._MISSING).sum()),
-                     "reasons": reasons}
-    table = N.build_table([(p[0], p[1], p[2], p[3], p[4], p[5], p[6], N.status_of(p[7])) for p in parts])
-    return table
+        parts.append([link, channel, q, st, float(iv), t, v, r])
+    # value accounting (reason codes -> counts; then the codes are replaced by the status codes)
+    del ns, key, rownum, vals, reas, series
+    counts = np.zeros(len(N.REASON_NAMES) + 1, dtype=np.int64)
+    for p in parts:
+        counts += np.bincount(p[7], minlength=len(counts))[:len(counts)]
+        p[7] = N.status_of(p[7])
+    reasons = {N.REASON_NAMES[c]: int(counts[c]) for c in N.REASON_NAMES if counts[c]}
+    lost = int(counts[N.R_MARK_LOST] + counts[N.R_FLOOR])
+    report.values = {"read": int(counts.sum()), "ok": int(counts[N.R_NONE]), "signal_lost": lost,
+                     "missing": int(counts.sum() - counts[N.R_NONE]) - lost, "reasons": reasons}
+    return N.build_table(parts)
 
 
 def _sorted_unique(a: np.ndarray) -> np.ndarray:

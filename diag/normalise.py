@@ -420,6 +420,10 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
                                            " ")
     else:
         text = pc.utf8_trim_whitespace(cols[0])
+    if spec.kind == "iso" and not spec.tz:
+        fast = _iso_fast(text)
+        if fast is not None:
+            return fast
     if spec.kind == "iso":
         if pc.any(pc.match_substring(text, ",")).as_py():
             text = pc.replace_substring(text, ",", ".")
@@ -453,6 +457,20 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
     if spec.tz:
         return _localise(t, spec.tz)
     return _finish_utc(t.dt.tz_localize("UTC"), n)
+
+
+def _iso_fast(text: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
+    """Arrow's own ISO 8601 cast when every stamp has an offset, or none has (read as UTC); None otherwise."""
+    for typ in (pa.timestamp("ns", "UTC"), pa.timestamp("ns")):
+        try:
+            ts = pc.cast(text, typ)
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            continue
+        if ts.null_count:
+            return None
+        ns = ts.cast(pa.int64()).to_numpy(zero_copy_only=False).astype(np.int64, copy=False)
+        return ns, np.zeros(len(ns), dtype=np.int8)
+    return None
 
 
 def _finish_utc(t: pd.Series, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -489,6 +507,12 @@ def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
     s = pc.utf8_trim(s, '"\'')
     if decimal == ",":
         s = pc.replace_substring(s, ",", ".")
+    try:
+        fast = pc.cast(s, pa.float64()).to_numpy(zero_copy_only=False).astype(np.float64, copy=True)
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        fast = None
+    if fast is not None and np.isfinite(fast).all():
+        return fast, np.zeros(len(fast), dtype=np.int8)
     up = pc.utf8_upper(s)
     blank = pc.equal(pc.utf8_length(s), 0)
     lost = pc.is_in(up, value_set=pa.array(LOST_MARKERS))
@@ -532,34 +556,54 @@ class Series:
     reasons: list = field(default_factory=list)
 
 
-def _as_str_series(codes: np.ndarray, categories: list[str]) -> pd.Series:
-    arr = pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), pa.array(categories, pa.string()))
-    return pd.Series(pd.array(arr.cast(pa.string()), dtype="str"), copy=False)
+def _repeated_strings(words: list[str], counts: np.ndarray) -> pd.Series:
+    """A "str" Series holding words[i] counts[i] times, in order, built straight from Arrow buffers."""
+    enc = [w.encode("utf-8") for w in words]
+    counts = np.asarray(counts, dtype=np.int64)
+    n = int(counts.sum())
+    lengths = np.repeat(np.array([len(b) for b in enc], dtype=np.int64), counts)
+    total = int(lengths.sum())
+    big = total >= 2**31 - 1
+    offsets = np.zeros(n + 1, dtype=np.int64 if big else np.int32)
+    np.cumsum(lengths, out=offsets[1:])
+    data = b"".join(b * int(k) for b, k in zip(enc, counts))
+    cls = pa.LargeStringArray if big else pa.StringArray
+    arr = cls.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data))
+    return pd.Series(pd.array(arr, dtype="str"), copy=False)
 
 
-def build_table(parts: list[tuple[str, str, str, str, float, np.ndarray, np.ndarray, np.ndarray]]) -> pd.DataFrame:
-    """Assemble the long table from sorted parts (link, channel, quantity, stat, interval, ns, values, status)."""
+def build_table(parts: list) -> pd.DataFrame:
+    """Assemble the long table from parts [link, channel, quantity, stat, interval, ns, values, status-codes].
+
+    The parts are sorted by key; each part's arrays are released as soon as they are copied into the table."""
     if not parts:
         return S.empty_table()
-    parts = sorted(parts, key=lambda p: (p[0], p[1], p[2], p[3]))
-    lens = np.array([len(p[5]) for p in parts])
-    total = int(lens.sum())
-    if total == 0:
+    parts.sort(key=lambda p: (p[0], p[1], p[2], p[3]))
+    lens = np.array([len(p[5]) for p in parts], dtype=np.int64)
+    if int(lens.sum()) == 0:
         return S.empty_table()
     cols = {}
     ns = np.concatenate([p[5] for p in parts])
     cols[S.TIME] = pd.Series(pd.DatetimeIndex(ns.view("datetime64[ns]")).tz_localize("UTC"), copy=False)
-    for k, name in enumerate([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT], start=0):
-        cats = sorted({p[k] for p in parts})
-        idx = {c: i for i, c in enumerate(cats)}
-        codes = np.repeat(np.array([idx[p[k]] for p in parts], dtype=np.int32), lens)
-        cols[name] = _as_str_series(codes, cats)
+    del ns
+    for p in parts:
+        p[5] = None
+    for k, name in enumerate([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT]):
+        cols[name] = _repeated_strings([p[k] for p in parts], lens)
     cols[S.INTERVAL] = pd.Series(np.repeat(np.array([float(p[4]) for p in parts]), lens), dtype="float64")
-    cols[S.VALUE] = pd.Series(np.concatenate([p[6] for p in parts]), dtype="float64")
+    cols[S.VALUE] = pd.Series(np.concatenate([p[6] for p in parts]), dtype="float64", copy=False)
+    for p in parts:
+        p[6] = None
     st = np.concatenate([p[7] for p in parts])
-    cols[S.STATUS] = _as_str_series(st.astype(np.int32), list(S.STATUSES))
-    table = pd.DataFrame(cols, columns=S.COLUMNS)
-    return table.reset_index(drop=True)
+    for p in parts:
+        p[7] = None
+    # status: runs of equal codes -> repeated words
+    change = np.flatnonzero(np.diff(st)) + 1
+    run_start = np.concatenate(([0], change))
+    run_len = np.diff(np.concatenate((run_start, [len(st)])))
+    cols[S.STATUS] = _repeated_strings([S.STATUSES[c] for c in st[run_start]], run_len)
+    del st
+    return pd.DataFrame(cols, columns=S.COLUMNS)
 
 
 def detect_floor(series_values: list[np.ndarray], series_order: list[np.ndarray]) -> tuple[float | None, str]:
