@@ -185,6 +185,26 @@ def test_no_series_gives_an_empty_but_valid_result():
     assert res.summary["observed_s"] == 0 and res.notes
 
 
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from(["ok", "ok", "ok", "signal_lost", "missing", "no_data"]),
+                          st.sampled_from(["", "rain", "multipath", "signal_loss", "level_shift"]),
+                          st.integers(1, 25), st.booleans()), min_size=1, max_size=30),
+       st.booleans())
+def test_per_cause_rows_always_add_up(runs, two_channels):
+    # random runs of (status, cause, length, below threshold?) on one or two channels
+    status = np.concatenate([[s] * n for s, _, n, _ in runs]).astype(object)
+    cause = np.concatenate([[c] * n for _, c, n, _ in runs]).astype(object)
+    rsl = np.concatenate([[-80.0 if b else -40.0] * n for _, _, n, b in runs])
+    chans = [series_1s(rsl, status=status, cause=cause, channel="H")]
+    if two_channels:
+        chans.append(series_1s(rsl[::-1].copy(), status=status[::-1].copy(), cause=cause[::-1].copy(), channel="V"))
+    res = outage.account_link(result_for(chans))
+    check_adds_up(res)
+    s = res.summary
+    assert s["observed_s"] + s["no_data_s"] == len(rsl)
+    assert s["unavailable_s"] <= s["observed_s"] and s["ses_available_s"] <= s["below_threshold_s"]
+
+
 # --- statistics bounds ------------------------------------------------------------------------------------------
 @settings(max_examples=60, deadline=None)
 @given(st.lists(st.floats(-95, -40), min_size=10, max_size=60), st.floats(-80, -55), st.booleans())
@@ -363,6 +383,8 @@ def test_simulated_15min_statistics_bounds_contain_truth(sim_1s):
                                                                   s[f"{key}_hi"])
     assert s["availability_pct_lo"] <= exact["availability_pct"] <= s["availability_pct_hi"]
     assert s["unavailable_s_hi"] > s["unavailable_s_lo"]                # an honest interval, not one number
+    unav_true, _ = true_unavailable_by_cause(sr)                        # the simulator's truth, not the 1-s log
+    assert s["unavailable_s_lo"] <= unav_true.sum() <= s["unavailable_s_hi"]
     check_adds_up(res)
 
 
