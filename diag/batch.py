@@ -48,9 +48,10 @@ WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> lis
 ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
 ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
 
-RANKING_COLUMNS = ["rank", "link_id", "outage_min", "outage_min_lo", "outage_min_hi", "exact", "below_threshold_min",
-                   "availability_pct", "objective_pct", "meets_objective", "main_cause", "main_cause_min", "events", "observed_h", "no_data_h",
-                   "folder", "error"]
+RANKING_COLUMNS = ["rank", "link_id", "outage_min_lo", "outage_min_hi", "exact", "below_threshold_min_lo",
+                   "below_threshold_min_hi", "availability_pct_lo", "availability_pct_hi", "objective_pct",
+                   "meets_objective", "main_cause", "main_cause_min_lo", "main_cause_min_hi", "events", "observed_h",
+                   "no_data_h", "folder", "error"]
 COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
 _SORT = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
 _RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
@@ -93,11 +94,14 @@ class _HopOutcome:
 
 # --- small helpers ----------------------------------------------------------------------------------------------
 def safe_name(link_id: str) -> str:
-    """A folder name for a hop id that is safe on every common file system (letters, digits, ``._-``)."""
-    name = re.sub(r"[^A-Za-z0-9._-]+", "_", str(link_id)).strip("._ ") or "hop"
+    """A folder name for a hop id: ``diag.report.safe_filename`` (letters, digits, ``._-``; no leading dot or dash),
+    with Windows' reserved device names (CON, NUL, COM1 ...) prefixed by ``_``."""
+    from diag.report.tables import safe_filename
+
+    name = safe_filename(str(link_id), default="hop")
     if name.split(".")[0].upper() in _RESERVED:
         name = "_" + name
-    return name[:100]
+    return name
 
 
 def _folder_names(link_ids: Iterable[str]) -> dict[str, str]:
@@ -336,56 +340,63 @@ def _num(mapping, key: str) -> float:
         return math.nan
 
 
-def best_estimate(mapping, key: str) -> tuple[float, float, float]:
-    """(estimate, low, high) of an outage figure: the exact value when the accounting is exact, else the middle of
-    ``key_lo``/``key_hi`` (coarse logs and 15-min statistics give only bounds, see ``diag.outage``)."""
+def bounds(mapping, key: str) -> tuple[float, float]:
+    """(low, high) of an outage figure: ``key_lo``/``key_hi`` when the accounting gives bounds (coarse logs,
+    15-min statistics; see ``diag.outage``), else the exact ``key`` twice."""
     exact, lo, hi = _num(mapping, key), _num(mapping, f"{key}_lo"), _num(mapping, f"{key}_hi")
-    if math.isfinite(exact):
-        return exact, (lo if math.isfinite(lo) else exact), (hi if math.isfinite(hi) else exact)
     if math.isfinite(lo) and math.isfinite(hi):
-        return (lo + hi) / 2, lo, hi
-    return math.nan, lo, hi
+        return lo, hi
+    return exact, exact
 
 
-def _cause_minutes(by_cause: pd.DataFrame | None, cause: str) -> float:
+def _cause_minutes(by_cause: pd.DataFrame | None, cause: str) -> tuple[float, float]:
     if by_cause is None or not len(by_cause) or "cause" not in by_cause:
-        return 0.0
-    rows = by_cause[by_cause["cause"] == cause]
-    total = sum(best_estimate(row, "unavailable_s")[0] for _, row in rows.iterrows())
-    return total / 60 if math.isfinite(total) else 0.0
+        return 0.0, 0.0
+    lo = hi = 0.0
+    for _, row in by_cause[by_cause["cause"] == cause].iterrows():
+        a, b = bounds(row, "unavailable_s")
+        lo += a if math.isfinite(a) else 0.0
+        hi += b if math.isfinite(b) else 0.0
+    return lo / 60, hi / 60
 
 
 def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | None = None) -> pd.DataFrame:
-    """The network table: one row per hop, worst first by outage minutes (unavailable time in the ITU-T G.826
-    sense; exact for 1-s logs, the middle of the bounds for coarser logs, see ``best_estimate``), then by minutes
-    below threshold; hops that could not be analysed come last, with their error and no rank."""
+    """The network table: one row per hop, worst first.
+
+    Outage = unavailable time (ITU-T G.826 sense) in minutes.  1-s logs give it exactly (``exact``; low = high);
+    coarser logs and 15-min statistics give bounds (``diag.outage``).  Hops are ranked by the upper bound (worst
+    case), then the lower bound, then minutes below threshold (upper bound); no number between the bounds is made
+    up.  Hops that could not be analysed come last, with their error and no rank."""
     rows = []
     for res in results:
         link_id = res.link.link_id
         row = {"link_id": link_id, "folder": (folders or {}).get(link_id, ""), "error": res.error or ""}
         if res.error is None and res.outage is not None:
             s = res.outage.summary or {}
-            by = res.outage.by_cause
-            minutes = {c: _cause_minutes(by, c) for c in schema.CAUSES}
-            main = max(minutes, key=minutes.get) if any(v > 0 for v in minutes.values()) else ""
-            outage, lo, hi = best_estimate(s, "unavailable_s")
-            below = best_estimate(s, "below_threshold_s")[0]
+            minutes = {c: _cause_minutes(res.outage.by_cause, c) for c in schema.CAUSES}
+            main = max(minutes, key=lambda c: (minutes[c][1], minutes[c][0]))
+            if minutes[main][1] <= 0:
+                main = ""
+            lo, hi = bounds(s, "unavailable_s")
+            blo, bhi = bounds(s, "below_threshold_s")
+            alo, ahi = bounds(s, "availability_pct")
             meets = s.get("meets_objective")
-            row.update(outage_min=outage / 60, outage_min_lo=lo / 60, outage_min_hi=hi / 60,
-                       exact=bool(math.isfinite(_num(s, "unavailable_s"))), below_threshold_min=below / 60,
-                       availability_pct=best_estimate(s, "availability_pct")[0],
-                       objective_pct=_num(s, "objective_pct"),
+            row.update(outage_min_lo=lo / 60, outage_min_hi=hi / 60,
+                       exact=bool(math.isfinite(_num(s, "unavailable_s")) and lo == hi),
+                       below_threshold_min_lo=blo / 60, below_threshold_min_hi=bhi / 60,
+                       availability_pct_lo=alo, availability_pct_hi=ahi, objective_pct=_num(s, "objective_pct"),
                        meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
                        else str(meets),
-                       main_cause=main, main_cause_min=minutes.get(main, 0.0), events=int(len(res.events)),
+                       main_cause=main, main_cause_min_lo=minutes[main][0] if main else 0.0,
+                       main_cause_min_hi=minutes[main][1] if main else 0.0, events=int(len(res.events)),
                        observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
         elif res.error is None:
             row["error"] = "analysis returned no outage accounting"
         rows.append(row)
     table = pd.DataFrame(rows, columns=[c for c in RANKING_COLUMNS if c != "rank"])
     ok = table["error"] == ""
-    good = table[ok].sort_values(["outage_min", "below_threshold_min", "link_id"], ascending=[False, False, True],
-                                 kind="mergesort", na_position="last")
+    good = table[ok].sort_values(["outage_min_hi", "outage_min_lo", "below_threshold_min_hi", "link_id"],
+                                 ascending=[False, False, False, True], kind="mergesort", na_position="last")
     good.insert(0, "rank", np.arange(1, len(good) + 1))
     bad = table[~ok].sort_values("link_id", kind="mergesort")
     bad.insert(0, "rank", pd.NA)
@@ -395,12 +406,12 @@ def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | Non
 
 
 def _spreadsheet_safe(table: pd.DataFrame) -> pd.DataFrame:
-    """Text cells that a spreadsheet would run as a formula (=, +, -, @, tab, CR first) get a leading apostrophe
-    (OWASP "CSV injection" advice)."""
+    """Text cells a spreadsheet would run as a formula get a leading apostrophe (``diag.report.safe_cell``)."""
+    from diag.report.tables import safe_cell
+
     out = table.copy()
-    for col in ("link_id", "folder", "main_cause", "error"):
-        out[col] = out[col].map(lambda v: "'" + v if isinstance(v, str) and v[:1] in ("=", "+", "-", "@", "\t", "\r")
-                                else v)
+    for col in ("link_id", "folder", "main_cause", "error", "meets_objective"):
+        out[col] = out[col].map(safe_cell).astype(object)
     return out
 
 
@@ -441,26 +452,27 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     left = np.zeros(len(labels))
     for cause in schema.CAUSES:
         minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
-                                             cause) for h in labels])
+                                             cause)[1] for h in labels])
         if labels and minutes.sum() > 0:
             ax.barh(labels, minutes, left=left, color=colours.get(cause, "#888888"), label=names.get(cause, cause))
             left += minutes
-    ax.set_xlabel("outage [min]")
+    ax.set_xlabel("outage [min] (upper bound where the log gives bounds)")
     ax.set_title(f"Worst {len(labels)} hops", fontsize=10, loc="left")
     ax.tick_params(axis="y", labelsize=7)
     if left.sum() > 0:
         ax.legend(fontsize=7, loc="lower right")
     else:
         ax.text(0.5, 0.5, "no outage on any analysed hop", transform=ax.transAxes, ha="center", fontsize=9)
-    lines = ["rank  hop                       outage min  avail. %   objective  main cause"]
+    lines = ["rank  hop                     outage min       avail. %   objective  main cause"]
     for row in ok.itertuples():
-        avail = "" if pd.isna(row.availability_pct) else f"{row.availability_pct:.4f}"
+        minutes = f"{row.outage_min_hi:.1f}" if row.exact else f"{row.outage_min_lo:.0f}-{row.outage_min_hi:.0f}"
+        avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if row.exact
+                 else f">={row.availability_pct_lo:.3f}")
         met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
-        approx = " " if row.exact else "~"
-        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:24]:<24}  {approx}{row.outage_min:>9.1f}  {avail:>9}  "
+        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:22]:<22}  {minutes:>12}  {avail:>12}  "
                      f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
-    if not ok["exact"].all():
-        lines.append("~ from 15-min statistics / coarse logs: middle of the bounds (see network_ranking.csv)")
+    if len(ok) and not ok["exact"].all():
+        lines.append("a-b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper bound")
     fig.text(0.70, 0.89, "\n".join(lines[:top + 1]), fontsize=6.2, family="monospace", va="top")
     if len(failed):
         text = ["Hops not analysed (fix and rerun):"] + [f"  {str(r.link_id)[:24]}: {str(r.error)[:150]}"

@@ -61,9 +61,9 @@ def main(args: argparse.Namespace) -> int:
     print(f"{len(ok)} hops analysed, {len(failed)} not; ranking: {args.out}/network_ranking.csv, "
           f"page: {args.out}/network_report.pdf, per hop: {args.out}/hops/")
     for row in ok.head(10).itertuples():
-        approx = "" if row.exact else "~"
-        print(f"{int(row.rank):>4}  {row.link_id}  outage {approx}{row.outage_min:.1f} min  "
-              f"main cause {row.main_cause or '-'}")
+        minutes = (f"{row.outage_min_hi:.1f}" if row.exact
+                   else f"{row.outage_min_lo:.1f} to {row.outage_min_hi:.1f}")
+        print(f"{int(row.rank):>4}  {row.link_id}  outage {minutes} min  main cause {row.main_cause or '-'}")
     for row in failed.itertuples():
         print(f"   -  {row.link_id}  NOT ANALYSED: {row.error}")
     if not len(ok):
