@@ -251,30 +251,32 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
     with st.form("mapping_form", border=False):
         c1, c2, c3 = st.columns(3)
         time_default = ", ".join((current.get("time") or {}).get("columns") or [])
-        time_cols = c1.text_input("Time column(s), comma separated", value=time_default,
+        time_cols = c1.text_input("Time column(s), comma separated", value=time_default, key="map_time",
                                   help=("Columns: " + ", ".join(columns)) if columns else None)
         formats = ["detect", "iso", "epoch_s", "epoch_ms", "%d.%m.%Y %H:%M:%S", "%m/%d/%Y %I:%M:%S %p",
                    "%d/%m/%Y %H:%M"]
-        fmt = c2.selectbox("Time format", formats,
+        fmt = c2.selectbox("Time format", formats, key="map_format",
                            index=formats.index((current.get("time") or {}).get("format", "detect"))
                            if (current.get("time") or {}).get("format", "detect") in formats else 0)
-        marks = c3.selectbox("Stamps mark the", ["detect", "start", "end"], help="of each statistics interval")
+        marks = c3.selectbox("Stamps mark the", ["detect", "start", "end"], help="of each statistics interval",
+                             key="map_marks")
         c4, c5, c6 = st.columns(3)
-        link_id = c4.text_input("Hop id for these files", value=(current.get("link") or {}).get("id", ""))
+        link_id = c4.text_input("Hop id for these files", value=(current.get("link") or {}).get("id", ""),
+                                key="map_link")
         floor = c5.text_input("Receiver floor (dBm, or 'none')",
-                              value=str((current.get("floor") or {}).get("dbm", "")))
+                              value=str((current.get("floor") or {}).get("dbm", "")), key="map_floor")
         header = c6.number_input("Header on line", min_value=1, max_value=500, step=1,
-                                 value=(current.get("file") or {}).get("header_line"))
+                                 value=(current.get("file") or {}).get("header_line"), key="map_header")
         signals_text = st.text_area(
             "Signal columns, one per line: column = quantity[:channel[:stat]]",
             value="\n".join(f"{col} = {spec.get('quantity', 'rsl')}" + (f":{spec['channel']}" if spec.get("channel")
                                                                         else "")
                             + (f":{spec['stat']}" if spec.get("stat") else "")
                             for col, spec in (current.get("signals") or {}).items()),
-            placeholder="Level A = rsl:A\nRx min = rsl:V:min", height=90,
+            placeholder="Level A = rsl:A\nRx min = rsl:V:min", height=90, key="map_signals",
             help="quantity: " + ", ".join(QUANTITY_CHOICES) + "; stat: sample, min, avg, max")
-        applied = st.form_submit_button("Apply to the reader")
-    if st.button("Back to automatic detection", disabled=not current):
+        applied = st.form_submit_button("Apply to the reader", key="map_apply")
+    if st.button("Back to automatic detection", disabled=not current, key="map_reset"):
         st.session_state.pop("mapping", None)
         st.rerun()
     if applied:

@@ -113,6 +113,23 @@ def test_bad_file_shows_a_one_line_message(name, data):
     assert all("\n" not in m and "Traceback" not in m for m in messages)
 
 
+def test_detection_can_be_corrected_with_a_mapping():
+    # A level column whose name the reader cannot know ("Kanal 7") is refused with a message; naming it in the
+    # "Correct the detection" form (same keys as a --map file) makes the same upload readable.
+    text = _small_log().decode().replace("RSL (dBm)", "Kanal 7").encode()
+    at = _upload(_app(), ("TESTHOP_x.csv", text), LINKS)
+    _no_failure(at)
+    assert any("TESTHOP_x.csv" in e.value and "signal column" in e.value for e in at.error)
+    assert "Availability" not in _metric_labels(at)
+    at.text_area(key="map_signals").set_value("Kanal 7 = rsl:V")
+    at.form_submit_button(key="map_apply").click().run()
+    _no_failure(at)
+    assert at.session_state["mapping"] == {"signals": {"Kanal 7": {"quantity": "rsl", "channel": "V"}}}
+    assert [e.value for e in at.error] == []
+    assert any(m.value == "### Hop TESTHOP" for m in at.markdown)
+    assert "Availability" in _metric_labels(at)
+
+
 def test_bad_links_table_shows_a_one_line_message():
     at = _upload(_app(), ("TESTHOP.csv", _small_log()), b"link_id,frequency_ghz\nX,abc\n")
     _no_failure(at)
