@@ -65,10 +65,6 @@ SNIFF_LINES = 400           # lines looked at to find separator and header
 HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
 MAX_LISTED = 200   # gaps / conflicts listed in the report (counts are always complete)
 
-QUANTITY_ALIASES = {"rsl": S.RSL, "rx": S.RSL, "tsl": S.TSL, "tx": S.TSL, "xpd": S.XPD, "xpl": S.XPL,
-                    "es": S.ES, "ses": S.SES, "uas": S.UAS}
-for _q in S.QUANTITIES:
-    QUANTITY_ALIASES[_q] = _q
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -157,22 +153,6 @@ def load_mapping(mapping: dict | str | Path | None) -> dict:
                          line=int(m.group(1)) if m else None) from exc
     return data
 
-
-def _section(mapping: dict, key: str) -> dict:
-    v = mapping.get(key) or {}
-    if not isinstance(v, dict):
-        raise InputError(f"mapping: [{key}] must be a table of keys")
-    return v
-
-
-def quantity_name(text: str) -> str:
-    q = QUANTITY_ALIASES.get(str(text).strip().lower())
-    if q is None:
-        info = N.recognise_name(str(text))
-        q = info.quantity
-    if q is None:
-        raise InputError(f"unknown quantity '{text}' (use one of {', '.join(sorted(QUANTITY_ALIASES))})")
-    return q
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -312,7 +292,7 @@ def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
     lines = text.splitlines()
     if not complete and len(lines) > 1:
         lines = lines[:-1]           # the last line may be cut off
-    fsec = _section(mapping, "file")
+    fsec = N.section(mapping, "file")
     nonempty = [i for i, ln in enumerate(lines) if ln.strip()][:SNIFF_LINES]
     if not nonempty:
         raise InputError("empty file (no data)", path=label)
@@ -398,292 +378,14 @@ def _decimal(rows: list[list[str]], sep: str) -> str:
 # ---------------------------------------------------------------------------------------------------------------
 # plan: what each column is
 
-@dataclass
-class _ValueCol:
-    name: str
-    quantity: str | None        # None: from the quantity-name column (long-named layout)
-    stat: str
-    interval_s: float | None
-    channel: str | None
-
-
-@dataclass
-class _Plan:
-    time: N.TimeSpec
-    link_col: str | None
-    channel_col: str | None
-    qname_col: str | None
-    values: list[_ValueCol]
-    layout: str
-    roles: dict[str, str]
-    ignored: list[str]
-    guesses: list[str]
-    warnings: list[str]
-
-
-def _sample(batch: pa.RecordBatch, name: str, n: int = 2000) -> list[str]:
-    col = batch.column(batch.schema.get_field_index(name)).slice(0, n)
-    return [v for v in col.to_pylist() if v is not None]
-
-
-def _plan(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str | None, label: str,
-          header_line: int) -> _Plan:
-    tsec, lsec, csec = _section(mapping, "time"), _section(mapping, "link"), _section(mapping, "channel")
-    signals = _section(mapping, "signals")
-    roles: dict[str, str] = {}
-    guesses: list[str] = []
-    warn: list[str] = []
-
-    def need(col: str, what: str) -> str:
-        if col not in names:
-            raise InputError(f"mapping names {what} column '{col}', which is not in the header "
-                             f"({', '.join(names)})", path=label, line=header_line)
-        return col
-
-    link_col = need(lsec["column"], "link") if lsec.get("column") else None
-    channel_col = need(csec["column"], "channel") if csec.get("column") else None
-    qname_col = None
-    by_role = {n: N.name_role(n) for n in names}
-    if link_col is None and not lsec.get("id"):
-        link_col = next((n for n in names if by_role[n] == "link"), None)
-    if channel_col is None:
-        channel_col = next((n for n in names if by_role[n] == "channel" and n != link_col), None)
-
-    # --- time
-    tcols = tsec.get("columns") or tsec.get("column")
-    if isinstance(tcols, str):
-        tcols = [tcols]
-    marks_end = str(tsec.get("marks", "")).lower() == "end"
-    zone = N.check_tz(tsec.get("zone") or tz, label)
-    spec = None
-    if tcols:
-        for c in tcols:
-            need(c, "time")
-        spec = _time_spec([_sample(batch, c) for c in tcols], tuple(tcols), tsec.get("format"), zone, label,
-                          header_line)
-    else:
-        taken = {link_col, channel_col}
-        timeish = [n for n in names if by_role[n] == "time" and n not in taken]
-        full, dates, clocks, epochs = [], [], [], []
-        for n in timeish:
-            vals = _sample(batch, n, 400)
-            if N.epoch_kind(vals):
-                epochs.append(n)
-            elif N.detect_datetime_format(vals):
-                full.append(n)
-            elif N.detect_date_format(vals):
-                dates.append(n)
-            elif N.detect_clock_format(vals):
-                clocks.append(n)
-        if tsec.get("format") and timeish:
-            # a format given without naming the column: the first time-named column(s)
-            cols = tuple(timeish[:2]) if len(timeish) > 1 and dates and clocks else (timeish[0],)
-            spec = _time_spec([_sample(batch, c) for c in cols], cols, tsec.get("format"), zone, label,
-                              header_line)
-        elif full:
-            def pref(n: str) -> tuple:
-                w = set(N._words(n))
-                return (0 if w & {"utc", "gmt", "z"} else 1, 0 if w & {"start", "begin"} else 1,
-                        names.index(n))
-            full.sort(key=pref)
-            cols = (full[0],)
-            if len(full) > 1:
-                guesses.append(f"several time columns ({', '.join(full)}); used '{full[0]}' "
-                               f"(override with --time-col or [time] columns)")
-            spec = _time_spec([_sample(batch, full[0])], cols, None, zone, label, header_line)
-        elif dates and clocks:
-            spec = _time_spec([_sample(batch, dates[0]), _sample(batch, clocks[0])], (dates[0], clocks[0]),
-                              None, zone, label, header_line)
-        elif epochs:
-            spec = _time_spec([_sample(batch, epochs[0])], (epochs[0],), None, zone, label, header_line)
-        else:
-            # any other column whose content is a date and time
-            for n in names:
-                if n in taken or N.recognise_name(n).quantity and not N.recognise_name(n).guessed:
-                    continue
-                vals = _sample(batch, n, 400)
-                if vals and N.detect_datetime_format(vals):
-                    spec = _time_spec([vals], (n,), None, zone, label, header_line)
-                    guesses.append(f"time column guessed from its content: '{n}' (override with --time-col)")
-                    break
-        if spec is None and timeish:
-            first = next(iter(_sample(batch, timeish[0], 1)), "")
-            raise InputError(f"cannot read the time column '{timeish[0]}' (first value '{first[:40]}'); give "
-                             f"--time-format", path=label, line=header_line + 1)
-        if spec is None:
-            raise InputError(f"no time column recognised in the header ({', '.join(names[:12])}); name it with "
-                             f"--time-col (or [time] columns in a mapping file)", path=label, line=header_line)
-        if any(set(N._words(c)) & {"end"} for c in spec.columns) and "marks" not in tsec:
-            marks_end = True
-            guesses.append(f"time column '{spec.columns[0]}' read as the END of each interval (override with "
-                           f"--time-marks start)")
-    spec = dataclasses.replace(spec, marks_end=marks_end)
-    if spec.guess:
-        guesses.append(spec.guess)
-    for c in spec.columns:
-        roles[c] = "time"
-    if link_col:
-        roles[link_col] = "link"
-    if channel_col:
-        roles[channel_col] = "channel"
-
-    # --- signals
-    values: list[_ValueCol] = []
-    if signals:
-        for col, spec_s in signals.items():
-            need(col, "signal")
-            if isinstance(spec_s, str):
-                spec_s = {"quantity": spec_s}
-            q = quantity_name(spec_s.get("quantity", "rsl"))
-            stat = str(spec_s.get("stat", S.SAMPLE)).lower()
-            stat = {"mean": S.AVG, "average": S.AVG}.get(stat, stat)
-            if stat not in S.STATS:
-                raise InputError(f"mapping: stat '{stat}' for column '{col}' is not one of {S.STATS}")
-            iv = spec_s.get("interval_s")
-            values.append(_ValueCol(col, q, stat, float(iv) if iv else None, spec_s.get("channel")))
-            roles[col] = f"{q}/{stat}"
-    else:
-        for n in names:
-            if n in roles:
-                continue
-            info = N.recognise_name(n)
-            if info.quantity is None or by_role[n] in ("time", "link", "channel", "qname"):
-                continue
-            if info.guessed:
-                vals = _sample(batch, n, 200)
-                if not _mostly_numeric(vals):
-                    continue
-                guesses.append(f"column '{n}' taken as {info.quantity} from its unit/name (override with "
-                               f"--signal-col '{n}=QUANTITY[:CHANNEL[:STAT]]')")
-            values.append(_ValueCol(n, info.quantity, info.stat, info.interval_s, info.channel))
-            roles[n] = f"{info.quantity}/{info.stat}"
-        if not values:
-            qn = next((n for n in names if by_role[n] == "qname" and n not in roles), None)
-            vc = next((n for n in names if by_role[n] == "value" and n not in roles), None)
-            if qn and vc:
-                qname_col = qn
-                values.append(_ValueCol(vc, None, S.SAMPLE, None, None))
-                roles[qn], roles[vc] = "quantity name", "value"
-            elif vc and _mostly_numeric(_sample(batch, vc, 200)):
-                values.append(_ValueCol(vc, S.RSL, S.SAMPLE, None, None))
-                roles[vc] = f"{S.RSL}/{S.SAMPLE}"
-                guesses.append(f"column '{vc}' taken as receive level (override with --signal-col)")
-    if not values:
-        raise InputError(f"no signal column recognised in the header ({', '.join(names[:12])}); expected names "
-                         f"such as RSL, Rx level, receive level (dBm); name it with --signal-col",
-                         path=label, line=header_line)
-    # unique (quantity, stat, channel) per wide column
-    seen: dict[tuple, int] = {}
-    for v in values:
-        key = (v.quantity, v.stat, v.channel)
-        if key in seen and v.quantity is not None:
-            v.channel = f"{v.channel or N.DEFAULT_CHANNEL}:{v.name}"
-            warn.append(f"two columns measure the same thing ({v.quantity} {v.stat}); '{v.name}' kept as channel "
-                        f"'{v.channel}'")
-        seen[key] = 1
-    ignored = [n for n in names if n not in roles and n != ""]
-    layout = "long-named" if qname_col else ("long" if channel_col or link_col else "wide")
-    return _Plan(spec, link_col, channel_col, qname_col, values, layout, roles, ignored, guesses, warn)
-
-
-def _mostly_numeric(vals: list[str]) -> bool:
-    vals = [v.strip() for v in vals if v and v.strip()]
-    if not vals:
-        return False
-    good = sum(1 for v in vals if re.fullmatch(r"[-+]?\d+([.,]\d*)?([eE][-+]?\d+)?", v))
-    return good >= 0.5 * len(vals)
-
-
-def _time_spec(samples: list[list[str]], cols: tuple, fmt: str | None, zone: str | None, label: str,
-               header_line: int) -> N.TimeSpec:
-    if len(cols) > 2:
-        raise InputError("at most two time columns (date and time of day)", path=label)
-    if fmt:
-        f = str(fmt).strip()
-        if f.lower() in ("epoch_s", "epoch_ms"):
-            return N.TimeSpec(cols, f.lower(), tz=zone)
-        if f.lower() in ("iso", "iso8601"):
-            return N.TimeSpec(cols, "iso", has_offset=N.iso_has_offset(samples[0]), tz=zone)
-        return N.TimeSpec(cols, "format", fmt=f, tz=zone)
-    if len(cols) == 2:
-        d = N.detect_date_format(samples[0])
-        c = N.detect_clock_format(samples[1])
-        if d is None or c is None:
-            raise InputError(f"cannot read the date/time columns {cols} (give --time-format)", path=label,
-                             line=header_line)
-        return N.TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone)
-    ek = N.epoch_kind(samples[0])
-    if ek:
-        return N.TimeSpec(cols, ek, tz=zone)
-    found = N.detect_datetime_format(samples[0])
-    if found is None:
-        first = samples[0][0] if samples[0] else ""
-        raise InputError(f"cannot read the time column '{cols[0]}' (first value '{first[:40]}'); give "
-                         f"--time-format", path=label, line=header_line + 1)
-    kind, f, guess = found
-    if kind == "iso":
-        return N.TimeSpec(cols, "iso", has_offset=N.iso_has_offset(samples[0]), tz=zone)
-    return N.TimeSpec(cols, "format", fmt=f, tz=zone, guess=guess)
-
-
 # ---------------------------------------------------------------------------------------------------------------
 # reading one CSV-like source
-
-
-@dataclass
-class _Rows:
-    """Kept rows of one chunk (time-parsed)."""
-
-    ns: np.ndarray
-    key: np.ndarray          # int32 global key id
-    rownum: np.ndarray       # int64 data-row number in the file
-    values: np.ndarray       # (n, m) float64
-    reasons: np.ndarray      # (n, m) int8
-
-
-class _Keys:
-    """Global ids for (link, channel, quantity-name) tuples seen in the rows."""
-
-    def __init__(self):
-        self.ids: dict[tuple, int] = {}
-        self.tuples: list[tuple] = []
-
-    def encode(self, cols: list[pa.Array | None], n: int) -> np.ndarray:
-        if all(c is None for c in cols):
-            return np.full(n, self._id(("", "", "")), dtype=np.int32)
-        combo = np.zeros(n, dtype=np.int64)
-        dicts = []
-        for c in cols:
-            if c is None:
-                dicts.append(([""], 1))
-                continue
-            enc = pa.compute.dictionary_encode(pa.compute.utf8_trim_whitespace(pa.compute.fill_null(c, "")))
-            words = enc.dictionary.to_pylist()
-            idx = enc.indices.to_numpy(zero_copy_only=False).astype(np.int64)
-            combo = combo * len(words) + idx
-            dicts.append((words, len(words)))
-        inv, uniq = pd.factorize(combo, sort=False)
-        mapped = np.empty(len(uniq), dtype=np.int32)
-        for i, u in enumerate(uniq):
-            parts = []
-            rest = int(u)
-            for words, base in reversed(dicts):
-                parts.append(words[rest % base])
-                rest //= base
-            mapped[i] = self._id(tuple(reversed(parts)))
-        return mapped[inv]
-
-    def _id(self, t: tuple) -> int:
-        if t not in self.ids:
-            self.ids[t] = len(self.tuples)
-            self.tuples.append(t)
-        return self.ids[t]
 
 
 def _read_csv(src: _Source, *, tz: str | None, mapping: dict, link_id: str | None) -> ReadResult:
     head = _head(src, SAMPLE_BYTES)
     complete = len(head) < SAMPLE_BYTES
-    fsec = _section(mapping, "file")
+    fsec = N.section(mapping, "file")
     if fsec.get("encoding"):
         enc = str(fsec["encoding"])
         try:
@@ -722,13 +424,13 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
                                      quoted_strings_can_be_null=False, null_values=[])
     report = IngestReport(file=src.label, encoding=enc, separator=dialect.separator, decimal=dialect.decimal,
                           header_line=header_line)
-    keys = _Keys()
-    chunks: list[_Rows] = []
+    keys = N.KeyIndex()
+    chunks: list[N.RowBlock] = []
     rejected = dict.fromkeys(ROW_REASONS, 0)
     first_bad_time: tuple[int, str] | None = None
-    plan: _Plan | None = None
+    plan: N.ColumnPlan | None = None
     rows_seen = 0
-    lsec = _section(mapping, "link")
+    lsec = N.section(mapping, "link")
     try:
         reader = pacsv.open_csv(_stream(src), read_options=read_opts, parse_options=parse_opts,
                                 convert_options=conv_opts)
@@ -737,7 +439,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
             if n == 0:
                 continue
             if plan is None:
-                plan = _plan(batch, names, mapping, tz, src.label, header_line)
+                plan = N.plan_columns(batch, names, mapping, tz, src.label, header_line)
             cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
             ns, tcode = N.parse_times(cols, plan.time)
             for code, reason in ((1, "bad_time"), (2, "dst_nonexistent"), (3, "dst_ambiguous")):
@@ -756,7 +458,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
             for j, vc in enumerate(plan.values):
                 vals[:, j], reas[:, j] = N.parse_values(getcol(vc.name), dialect.decimal)
             rownum = rows_seen + np.flatnonzero(keep).astype(np.int64)
-            chunks.append(_Rows(ns[keep], key, rownum, vals, reas))
+            chunks.append(N.RowBlock(ns[keep], key, rownum, vals, reas))
             rows_seen += n
     except pa.ArrowInvalid as exc:
         msg = " ".join(str(exc).split())
@@ -798,7 +500,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
         default_link = src.stem
         if report.link_source == "file_name":
             report.guesses.append(f"link id taken from the file name: '{default_link}' (override with --link-id)")
-    table = _finish(chunks, keys, plan, report, rejected, default_link, mapping, header_line)
+    table = N.assemble(chunks, keys, plan, report, rejected, default_link, mapping, header_line)
     report.rejected = {k: v for k, v in rejected.items() if v}
     report.rows_kept = rows_read - sum(report.rejected.values())
     _summarise(table, report)
@@ -810,188 +512,6 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
                                f"{rejected['dst_nonexistent']} non-existent, {rejected['dst_ambiguous']} ambiguous "
                                f"(counted, not guessed)")
     return ReadResult(table, report)
-
-
-def _finish(chunks: list[_Rows], keys: _Keys, plan: _Plan, report: IngestReport, rejected: dict,
-            default_link: str, mapping: dict, header_line: int) -> pd.DataFrame:
-    m = len(plan.values)
-    if not chunks or sum(len(c.ns) for c in chunks) == 0:
-        report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
-        return S.empty_table()
-    ns = np.concatenate([c.ns for c in chunks])
-    key = np.concatenate([c.key for c in chunks])
-    rownum = np.concatenate([c.rownum for c in chunks])
-    vals = np.concatenate([c.values for c in chunks])
-    reas = np.concatenate([c.reasons for c in chunks])
-    chunks.clear()
-    # quantity-name layout: rows whose name is not a known quantity are rejected
-    kinfo = []
-    for t in keys.tuples:
-        qn = t[2]
-        info = N.recognise_name(qn) if plan.qname_col else None
-        kinfo.append(info)
-    if plan.qname_col:
-        unknown = np.array([i is None or i.quantity is None for i in kinfo], dtype=bool)
-        bad = unknown[key]
-        rejected["unknown_quantity"] += int(bad.sum())
-        if bad.any():
-            names = sorted({keys.tuples[k][2] for k in np.unique(key[bad])})[:10]
-            report.warnings.append(f"rows with unrecognised quantity names skipped: {names} (map them with "
-                                   f"[signals] in a mapping file)")
-            ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
-    # out-of-order rows (file order, per key)
-    fo = np.argsort(key, kind="stable")
-    same = key[fo][1:] == key[fo][:-1]
-    report.out_of_order_rows = int((same & (np.diff(ns[fo]) < 0)).sum())
-    if report.out_of_order_rows:
-        report.warnings.append(f"{report.out_of_order_rows} rows were out of time order (sorted)")
-    # sort by key then time (stable: file order among equal stamps)
-    order = np.lexsort((ns, key))
-    ns, key, rownum, vals, reas = ns[order], key[order], rownum[order], vals[order], reas[order]
-    dup = np.zeros(len(ns), dtype=bool)
-    dup[1:] = (key[1:] == key[:-1]) & (ns[1:] == ns[:-1])
-    if dup.any():
-        first = np.flatnonzero(~dup)
-        grp = np.maximum.accumulate(np.where(~dup, np.arange(len(ns)), 0))
-        v0, r0 = vals[grp], reas[grp]
-        eq = ((vals == v0) | (np.isnan(vals) & np.isnan(v0))) & (reas == r0)
-        exact = dup & eq.all(axis=1)
-        conflict = dup & ~exact
-        report.duplicates = int(exact.sum())
-        report.conflicting_duplicates = int(conflict.sum())
-        rejected["duplicate"] += report.duplicates
-        rejected["conflicting_duplicate"] += report.conflicting_duplicates
-        for i in np.flatnonzero(conflict)[:20]:
-            g = grp[i]
-            report.conflicts.append({
-                "time_utc": pd.Timestamp(int(ns[i]), tz="UTC").isoformat(),
-                "key": "/".join(x for x in keys.tuples[key[i]] if x) or default_link,
-                "kept_line": int(header_line + 1 + rownum[g]), "dropped_line": int(header_line + 1 + rownum[i]),
-                "kept": [None if np.isnan(x) else float(x) for x in vals[g]],
-                "dropped": [None if np.isnan(x) else float(x) for x in vals[i]]})
-        if report.conflicting_duplicates:
-            report.warnings.append(f"{report.conflicting_duplicates} rows repeat a time with other values; the first "
-                                   f"row in file order was kept (see conflicts)")
-        del first
-        keepm = ~dup
-        ns, key, rownum, vals, reas = ns[keepm], key[keepm], rownum[keepm], vals[keepm], reas[keepm]
-    if len(key) == 0:
-        report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
-        return S.empty_table()
-    # group boundaries
-    bounds = np.flatnonzero(np.diff(key)) + 1
-    starts = np.concatenate(([0], bounds))
-    ends = np.concatenate((bounds, [len(key)]))
-    # per column quantity (fixed) or per key (quantity-name layout)
-    fsec_floor = _section(mapping, "floor")
-    iv_default = mapping.get("interval_s")
-    series = []   # (link, channel, quantity, stat, interval|None, ns, values, reasons)
-    for s, e in zip(starts, ends):
-        t = keys.tuples[key[s]]
-        link = t[0] or default_link
-        for j, vc in enumerate(plan.values):
-            if vc.quantity is None:
-                info = kinfo[key[s]]
-                q, st, iv, ch = info.quantity, info.stat, info.interval_s, info.channel
-            else:
-                q, st, iv, ch = vc.quantity, vc.stat, vc.interval_s, vc.channel
-            channel = t[1] or (ch if ch else None) or N.DEFAULT_CHANNEL
-            if t[1] and ch and vc.quantity is not None and len(plan.values) > 1 and \
-                    sum(1 for v in plan.values if v.quantity == q and v.stat == st) > 1:
-                channel = f"{t[1]}-{ch}"
-            series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
-                           ns[s:e], vals[s:e, j].copy(), reas[s:e, j].copy()])
-    # physical range
-    for sr in series:
-        lo, hi = N.RANGES.get(sr[2], (-np.inf, np.inf))
-        v, r = sr[6], sr[7]
-        out = (r == N.R_NONE) & ((v < lo) | (v > hi))
-        r[out] = N.R_RANGE
-        v[out] = np.nan
-    # receiver floor per level quantity
-    floor_cfg = fsec_floor.get("dbm")
-    for q in (S.RSL, S.XPL):
-        group = [sr for sr in series if sr[2] == q]
-        if not group:
-            continue
-        if isinstance(floor_cfg, str) and floor_cfg.lower() == "none":
-            continue
-        if floor_cfg is not None and not isinstance(floor_cfg, str):
-            fl, how = float(floor_cfg), "given in the mapping"
-            mask_fn = lambda v: v <= fl + 1e-6  # noqa: E731
-        else:
-            fl, how = N.detect_floor([sr[6] for sr in group], [])
-            if fl is None:
-                continue
-            mask_fn = lambda v: np.abs(v - fl) < 1e-6  # noqa: E731
-            report.guesses.append(f"{q}: readings at {fl:g} dBm taken as the receiver floor (signal lost): {how}; "
-                                  f"override with --floor-dbm VALUE or --floor-dbm none")
-        n_floor = 0
-        for sr in group:
-            at = (sr[7] == N.R_NONE) & mask_fn(sr[6])
-            sr[7][at] = N.R_FLOOR
-            sr[6][at] = np.nan
-            n_floor += int(at.sum())
-        report.floors[q] = {"dbm": fl, "how": how, "values": n_floor}
-    # intervals and end-marked stamps
-    parts = []
-    stats_kind = False
-    for link, channel, q, st, iv, t, v, r in series:
-        step = _step(t)
-        if st != S.SAMPLE or q in N.COUNTERS:
-            if iv is None:
-                iv = step if step else 0.0
-                if st != S.SAMPLE and iv:
-                    msg = (f"statistics interval taken from the row step: {iv:g} s (override with --interval-s)")
-                    if msg not in report.guesses:
-                        report.guesses.append(msg)
-            stats_kind = stats_kind or st != S.SAMPLE
-        else:
-            iv = 0.0
-        if plan.time.marks_end:
-            shift = iv if iv else (step or 0.0)
-            t = t - np.int64(round(shift * 1e9))
-        parts.append([link, channel, q, st, float(iv), t, v, r])
-    # value accounting (reason codes -> counts; then the codes are replaced by the status codes)
-    del ns, key, rownum, vals, reas, series
-    counts = np.zeros(len(N.REASON_NAMES) + 1, dtype=np.int64)
-    for p in parts:
-        counts += np.bincount(p[7], minlength=len(counts))[:len(counts)]
-        p[7] = N.status_of(p[7])
-    reasons = {N.REASON_NAMES[c]: int(counts[c]) for c in N.REASON_NAMES if counts[c]}
-    lost = int(counts[N.R_MARK_LOST] + counts[N.R_FLOOR])
-    report.values = {"read": int(counts.sum()), "ok": int(counts[N.R_NONE]), "signal_lost": lost,
-                     "missing": int(counts.sum() - counts[N.R_NONE]) - lost, "reasons": reasons}
-    return N.build_table(parts)
-
-
-def _sorted_unique(a: np.ndarray) -> np.ndarray:
-    """np.unique for int64 stamps, without hashing (the arrays are mostly sorted already)."""
-    if len(a) == 0:
-        return a
-    s = a if bool(np.all(a[1:] >= a[:-1])) else np.sort(a, kind="stable")
-    keep = np.empty(len(s), dtype=bool)
-    keep[0] = True
-    np.not_equal(s[1:], s[:-1], out=keep[1:])
-    return s[keep]
-
-
-def _mode_step_ns(t: np.ndarray) -> float | None:
-    """The most common step between sorted unique stamps (ties: the shortest); robust to gaps and jitter-free logs."""
-    if len(t) < 2:
-        return None
-    d = np.sort(np.diff(t))
-    d = d[d > 0]
-    if not d.size:
-        return None
-    starts = np.flatnonzero(np.concatenate(([True], d[1:] != d[:-1])))
-    runs = np.diff(np.concatenate((starts, [len(d)])))
-    return float(d[starts[int(np.argmax(runs))]])
-
-
-def _step(ns: np.ndarray) -> float | None:
-    st = _mode_step_ns(_sorted_unique(ns))
-    return None if st is None else st / 1e9
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -1017,11 +537,11 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
     steps, stepped = [], []
     links = table[S.LINK].to_numpy(dtype=object) if len(report.links) > 1 else None
     for lk in report.links:
-        t = _sorted_unique(ns if links is None else ns[links == lk])
+        t = N.sorted_unique(ns if links is None else ns[links == lk])
         if len(t) < 2:
             continue
         d = np.diff(t)
-        step = _mode_step_ns(t)
+        step = N.mode_step_ns(t)
         steps.append(step)
         stepped.append(lk)
         big = np.flatnonzero(d > 1.5 * step)
