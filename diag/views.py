@@ -71,7 +71,7 @@ def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2
     high = frame[high_column].to_numpy(dtype=float) if high_column and high_column in frame else level
     reference = (frame["reference_dbm"].to_numpy(dtype=float) if "reference_dbm" in frame
                  else np.full(n, np.nan))
-    lost = (frame["status"].astype(str).to_numpy() == schema.SIGNAL_LOST) if "status" in frame else np.zeros(n, bool)
+    lost = (frame["status"] == schema.SIGNAL_LOST).to_numpy(dtype=bool) if "status" in frame else np.zeros(n, bool)
     size = max(1, math.ceil(n / max_points))
     bins = np.arange(n) // size
     shaped = pd.DataFrame({"bin": bins, "level_dbm": level, "level_min_dbm": low, "level_max_dbm": high,

@@ -82,13 +82,26 @@ def test_timeline_uses_logged_interval_extremes_and_marks_signal_loss():
     # 15-min statistics: the band shows the logged min/max, not the average's extremes.
     levels = [-40.0, -45.0, np.nan, -41.0]
     status = ["ok", "ok", "signal_lost", "ok"]
-    series = _series(levels, interval_s=900.0, status=status, stats=True)
+    series = _series(levels, interval_s=900.0, status=pd.Categorical(status, categories=["ok", "signal_lost",
+                                                                                    "missing", "no_data"]),
+                     stats=True)                               # the pipeline's status column is categorical
     out = views.timeline(series, max_points=2)
     assert len(out) == 2
     assert out["level_min_dbm"].tolist() == [-48.0, -44.0]
     assert out["level_max_dbm"].tolist() == [-39.0, -40.0]
     assert out["signal_lost"].tolist() == [False, True]
     assert out["level_dbm"].iloc[1] == pytest.approx(-41.0)
+
+
+def test_timeline_of_fade_depth_uses_the_named_extremes():
+    series = _series([-40.0, -50.0, -41.0, -40.0], interval_s=900.0)
+    series.frame["attenuation_peak_db"] = [1.0, 25.0, 3.0, 0.5]      # deepest fade inside each interval
+    series.frame["attenuation_low_db"] = [0.0, 5.0, 0.0, 0.0]
+    out = views.timeline(series, column="attenuation_db", low_column="attenuation_low_db",
+                         high_column="attenuation_peak_db", max_points=2)
+    assert out["level_dbm"].tolist() == [(0.0 + 10.0) / 2, (1.0 + 0.0) / 2]   # mean of attenuation_db per bin
+    assert out["level_max_dbm"].tolist() == [25.0, 3.0]
+    assert out["level_min_dbm"].tolist() == [0.0, 0.0]
 
 
 def test_timeline_window():
