@@ -446,6 +446,7 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
                        facecolor=style.cause_color(cause), alpha=0.6 if cause == schema.LEVEL_SHIFT else 0.28,
                        edgecolor=style.cause_color(cause), hatch=style.cause_hatch(cause), lw=0.0, zorder=0.8)
             legend_causes.add(cause)
+        _mark_groups(ax, ev)
     ax.axhline(threshold, color=style.THRESHOLD, ls="--", lw=0.9, label="receiver threshold")
     finite_lows = [v for v in lows if np.isfinite(v)]
     ymin = min([threshold - 10.0] + finite_lows)
@@ -458,6 +459,43 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
     ax.grid(color=style.GRID, lw=0.4)
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
+
+
+def _mark_groups(ax, ev: pd.DataFrame) -> None:
+    """Print each cause's short mark (style.CAUSE_MARKS) once above every group of its fades (fades closer than 2 %
+    of the plotted span form one group), so the cause reads without colour."""
+    start = pd.to_datetime(ev["start_utc"], utc=True)
+    end = pd.to_datetime(ev["end_utc"], utc=True)
+    if start.empty:
+        return
+    span = (end.max() - start.min()).total_seconds()
+    xlim = ax.get_xlim()
+    import matplotlib.dates as mdates
+
+    total_s = max((mdates.num2date(xlim[1]) - mdates.num2date(xlim[0])).total_seconds(), span, 1.0)
+    join_s = 0.02 * total_s
+    for cause in style.CAUSE_ORDER:
+        sel = (ev["cause"].astype(str) == cause).to_numpy()
+        if not sel.any() or not style.CAUSE_MARKS.get(cause):
+            continue
+        order = np.argsort(start[sel].to_numpy())
+        s_times = start[sel].to_numpy()[order]
+        e_times = end[sel].to_numpy()[order]
+        groups = []
+        g0, g1 = s_times[0], e_times[0]
+        for a, b in zip(s_times[1:], e_times[1:]):
+            if (a - g1) / np.timedelta64(1, "s") <= join_s:
+                g1 = max(g1, b)
+            else:
+                groups.append((g0, g1))
+                g0, g1 = a, b
+        groups.append((g0, g1))
+        y = 0.02 if cause == schema.LEVEL_SHIFT else 0.9
+        for a, b in groups:
+            mid = pd.Timestamp(a) + (pd.Timestamp(b) - pd.Timestamp(a)) / 2
+            ax.text(mid, y, style.CAUSE_MARKS[cause], transform=ax.get_xaxis_transform(), ha="center",
+                    va="bottom", fontsize=6, weight="bold", color=style.INK, zorder=5,
+                    bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.8})
 
 
 def _page_timelines(fig, results: Sequence[LinkResult], state: dict) -> None:
@@ -491,7 +529,7 @@ def _page_timelines(fig, results: Sequence[LinkResult], state: dict) -> None:
             ax.legend(fontsize=6.5, loc="lower left", ncol=3, frameon=True)
     handles = [Patch(facecolor=style.cause_color(c), edgecolor=style.INK if c == schema.NO_DATA else
                      style.cause_color(c), hatch=style.cause_hatch(c), alpha=0.5 if c != schema.NO_DATA else 1,
-                     label=style.cause_label(c))
+                     label=(f"{style.CAUSE_MARKS[c]}  " if style.CAUSE_MARKS.get(c) else "") + style.cause_label(c))
                for c in list(style.CAUSE_ORDER) + [schema.NO_DATA] if c in legend_causes]
     if handles:
         fig.legend(handles=handles, loc="lower center", ncol=min(len(handles), 4), fontsize=7.5, frameon=False,

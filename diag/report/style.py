@@ -42,6 +42,17 @@ CAUSE_LABELS = {
     schema.NO_DATA: "No data (gap)",
 }
 
+# short marks printed on timelines above each group of fades, so a black-and-white print still names the cause
+CAUSE_MARKS = {
+    schema.RAIN: "RN",
+    schema.MULTIPATH: "MP",
+    schema.REFRACTIVE: "RF",
+    schema.LEVEL_SHIFT: "LS",
+    schema.SIGNAL_LOSS: "SL",
+    schema.UNKNOWN: "?",
+    schema.NO_DATA: "",
+}
+
 # neutral colours for lines and text
 INK = "#1A1A1A"
 GRID = "#D0D0D0"
@@ -50,7 +61,7 @@ LEVEL_LINES = ("#1A1A1A", "#7A7A7A")   # first and second channel of a hop
 OK_TEXT = "#1B7F3B"
 BAD_TEXT = "#B03A2E"
 
-__all__ = ["CAUSE_ORDER", "CAUSE_COLORS", "CAUSE_HATCHES", "CAUSE_LABELS", "INK", "GRID", "THRESHOLD",
+__all__ = ["CAUSE_ORDER", "CAUSE_COLORS", "CAUSE_HATCHES", "CAUSE_LABELS", "CAUSE_MARKS", "INK", "GRID", "THRESHOLD",
            "LEVEL_LINES", "OK_TEXT", "BAD_TEXT", "cause_color", "cause_hatch", "cause_label"]
 
 
