@@ -23,12 +23,14 @@ and the first that fires wins:
       12-h-long fade) the fade cannot be rain;
    c. shape: rain fades follow convective cells (a peaked profile: under ~35 % of the event above half its peak,
       a fast onset), refractive fades are broad and slow (sin^2-like: ~50 % above half peak, onset < 0.01 dB/s);
-   d. a rain gauge, when given: rain at the gauge within 15 min confirms (confidence up), a dry gauge lowers the
-      confidence and is said in the evidence (a gauge is a point and can miss a cell).
+   d. a rain gauge, when given: rain at the gauge within 15 min confirms (1.5 points for rain), a dry gauge counts
+      0.5 against; a rain call that stays weak (confidence < 0.7) with a dry gauge becomes the best non-rain cause
+      (multipath when any fast-fading evidence exists, else refractive) at confidence 0.4 (a gauge is a point and
+      can miss a cell, hence only weak calls are overturned).
 5. **unknown** - no usable feature (e.g. all samples missing).
 
 6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain within 30 min of multipath events on the
-   same channel is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
+   same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
    several channels the propagation verdict with the highest confidence is applied to all of them.
 
 15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
@@ -129,6 +131,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         fast = _f(row["fast_std_db"])
         reasons = []
         score = 0.0
+        mp_score = 0.0
         if math.isfinite(fast) and fast >= max(0.6, 0.15 * mean_fade):
             score += 1.0
             reasons.append(f"fast fluctuation {fast:.1f} dB rms about the 1-min mean")
@@ -148,6 +151,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         if math.isfinite(corr) and corr < 0.8 and peak - mean_fade >= 3.0:  # (a flat fade has no shape to share)
             score += 0.5
             reasons.append(f"H/V correlation {corr:.2f}")
+        mp_score = score
         if score >= 1.0:
             return (S.MULTIPATH, _clip(0.55 + 0.15 * score),
                     f"{shape} fast fading, peak {peak_rep:.1f} dB, " + ", ".join(reasons))
@@ -218,6 +222,13 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             refr_pts += 0.5
             notes.append("gauge dry")
     total = rain_pts + refr_pts
+    gauge_dry = math.isfinite(gauge) and gauge < 0.5
+    if gauge_dry and rain_pts >= refr_pts and 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 1.0) < 0.7:
+        # a weak rain call with a dry gauge: take the best non-rain cause (the gauge is a point; say so)
+        cause = S.MULTIPATH if mp_score > 0 else S.REFRACTIVE
+        text = (f"{shape} fade, peak {peak_rep:.1f} dB, not rain: gauge dry within 15 min and the rain evidence is "
+                f"weak" + (f" ({', '.join(notes[:-1])})" if len(notes) > 1 else ""))
+        return cause, _clip(0.4 * (STATS_CONFIDENCE_FACTOR if stats else 1.0)), text
     if rain_pts >= refr_pts:
         cause = S.RAIN
         conf = 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 1.0)
@@ -254,8 +265,8 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
 
 
 def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.0) -> None:
-    """A short (< 10 min), shallow (< 6 dB) fade called rain within 30 min of a multipath event of the same
-    channel is one more dip of that multipath episode (multipath activity lasts hours and comes and goes;
+    """A short (< 10 min), shallow (< 6 dB) fade called rain within 30 min of a multipath event on the same
+    hop is one more dip of that multipath episode (multipath activity lasts hours and comes and goes;
     a shallow rain fade of a few minutes alone carries no shape to judge)."""
     mp = events[events["cause"] == S.MULTIPATH]
     if mp.empty:
@@ -264,14 +275,14 @@ def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.
     for i in events.index[(events["cause"] == S.RAIN) & (events["duration_s"] < 600)
                           & (events["peak_fade_db"] < 6.0)]:
         row = events.loc[i]
-        near = mp[(mp["channel"] == row["channel"]) & (mp["end_utc"] >= row["start_utc"] - window)
+        near = mp[(mp["end_utc"] >= row["start_utc"] - window)
                   & (mp["start_utc"] <= row["end_utc"] + window)]
         if len(near):
             events.at[i, "cause"] = S.MULTIPATH
             events.at[i, "confidence"] = 0.5
             events.at[i, "evidence"] = (f"short shallow fade ({row['duration_s'] / 60:.0f} min, peak "
                                         f"{row['peak_fade_db']:.1f} dB) within {window_s / 60:.0f} min of "
-                                        f"{len(near)} multipath event(s) on this channel")
+                                        f"{len(near)} multipath event(s) on this hop")
 
 
 def _harmonise_groups(events: pd.DataFrame) -> None:
