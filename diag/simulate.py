@@ -691,9 +691,18 @@ def _build_table(spec, channels, times_ns, keep, measured, below_floor, blank, t
 
 
 def aggregate_statistics(
-    table: pd.DataFrame, *, interval_s: float = 900.0, floor_dbm: float = -99.0
+    table: pd.DataFrame,
+    *,
+    interval_s: float = 900.0,
+    floor_dbm: float = -99.0,
+    threshold_dbm: float | None = None,
 ) -> pd.DataFrame:
     """Interval min / avg / max rows (normalised table, ``stat`` min/avg/max) from a table of samples.
+
+    With ``threshold_dbm`` the radio's interval counters are added per channel, as level-based stand-ins
+    for its error counts: ``ses_count`` = available seconds with the level below the threshold or lost, and
+    ``uas_count`` = unavailable seconds by the ITU-T G.826 rule (10 consecutive SES; via
+    :func:`diag.models.g826.unavailable_mask`); rows with ``stat`` "sample" and ``interval_s`` = the interval.
 
     The radio sees its floor value while the signal is lost, so lost samples enter the statistics at
     ``floor_dbm``: ``min`` is "signal_lost" when any sample of the interval was lost, ``avg``/``max``
@@ -756,6 +765,8 @@ def aggregate_statistics(
                 }
             )
         )
+    if threshold_dbm is not None:
+        rows.extend(_counter_rows(table, interval_s=interval_s, threshold_dbm=threshold_dbm))
     out = pd.concat(rows, ignore_index=True)
     for name in (schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.STATUS):
         out[name] = out[name].astype("str")
@@ -765,6 +776,53 @@ def aggregate_statistics(
         ignore_index=True,
     )
     return out[schema.COLUMNS]
+
+
+def _counter_rows(table: pd.DataFrame, *, interval_s: float, threshold_dbm: float) -> list[pd.DataFrame]:
+    """SES and UAS counts per interval and channel from RSL samples (see :func:`aggregate_statistics`)."""
+    from diag.models import g826
+
+    width_ns = int(round(interval_s * 1e9))
+    rsl = table[(table[schema.QUANTITY] == schema.RSL) & (table[schema.STAT] == schema.SAMPLE)]
+    out = []
+    for (link_id, channel), part in rsl.groupby([schema.LINK, schema.CHANNEL], sort=True):
+        t_ns = part[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
+        if len(t_ns) < 2:
+            continue
+        step = int(np.median(np.diff(np.unique(t_ns))))
+        slot = (t_ns - t_ns.min()) // step
+        n = int(slot.max()) + 1
+        status = part[schema.STATUS].to_numpy(dtype=object)
+        value = part[schema.VALUE].to_numpy(dtype=float)
+        ses = np.zeros(n, dtype=bool)
+        valid = np.zeros(n, dtype=bool)
+        with np.errstate(invalid="ignore"):
+            ses[slot] = (status == schema.SIGNAL_LOST) | ((status == schema.OK) & (value < threshold_dbm))
+        valid[slot] = status != schema.MISSING
+        unavailable = g826.unavailable_mask(ses, valid)
+        grid_bin = (t_ns.min() + np.arange(n) * step) // width_ns
+        first = grid_bin[0]
+        bins = np.unique(t_ns // width_ns)
+        counts = {
+            schema.SES: np.bincount(grid_bin - first, weights=ses & valid & ~unavailable),
+            schema.UAS: np.bincount(grid_bin - first, weights=unavailable),
+        }
+        for quantity, per_bin in counts.items():
+            out.append(
+                pd.DataFrame(
+                    {
+                        schema.TIME: _utc(bins * width_ns),
+                        schema.LINK: link_id,
+                        schema.CHANNEL: channel,
+                        schema.QUANTITY: quantity,
+                        schema.STAT: schema.SAMPLE,
+                        schema.INTERVAL: float(interval_s),
+                        schema.VALUE: per_bin[bins - first].astype(float),
+                        schema.STATUS: schema.OK,
+                    }
+                )
+            )
+    return out
 
 
 # ------------------------------------------------------------------------------------------------------------

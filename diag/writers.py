@@ -54,6 +54,8 @@ _LABEL = {  # quantity -> (wide_iso name, semicolon name, epoch name, unit)
     schema.TSL: ("TSL", "Tx level", "TxLevel", "dBm"),
     schema.XPD: ("XPD", "XPD", "XPD", "dB"),
     schema.XPL: ("XPL", "Xpol level", "XpolLevel", "dBm"),
+    schema.SES: ("SES", "SES", "SES", "s"),
+    schema.UAS: ("UAS", "UAS", "UAS", "s"),
 }
 _LONG_NAME = {schema.RSL: "RSL", schema.TSL: "TSL", schema.XPD: "XPD", schema.XPL: "XPL"}
 
@@ -185,7 +187,8 @@ def _columns_by_time(table: pd.DataFrame) -> tuple[np.ndarray, list[tuple[str, s
     return times, out
 
 
-_QUANTITY_ORDER = {schema.RSL: 0, schema.TSL: 1, schema.XPD: 2, schema.XPL: 3}
+_QUANTITY_ORDER = {schema.RSL: 0, schema.TSL: 1, schema.XPD: 2, schema.XPL: 3, schema.SES: 4, schema.UAS: 5}
+_COUNTERS = (schema.ES, schema.SES, schema.UAS)
 _STAT_ORDER = {schema.SAMPLE: 0, schema.MIN: 1, schema.AVG: 2, schema.MAX: 3}
 
 
@@ -206,7 +209,8 @@ def _check(table: pd.DataFrame, *, samples: bool) -> None:
     stats = set(table[schema.STAT].unique())
     if samples and stats - {schema.SAMPLE}:
         raise InputError("writer: this shape writes samples; use the 'stats' shape for interval statistics")
-    if not samples and schema.SAMPLE in stats:
+    counters_only = set(table.loc[table[schema.STAT] == schema.SAMPLE, schema.QUANTITY]) <= set(_COUNTERS)
+    if not samples and not counters_only:
         raise InputError(
             "writer: the 'stats' shape needs min/avg/max rows (diag.simulate.aggregate_statistics)"
         )
@@ -431,7 +435,10 @@ def write_stats(
             status == schema.OK, values, np.where((status == schema.SIGNAL_LOST) & applies, floor, np.nan)
         )
         cells.append(_format_values(out, np.where(np.isnan(out), schema.MISSING, schema.OK), None))
-        names.append(f"{_LABEL[quantity][0]} {stat} ({_LABEL[quantity][3]})")
+        if stat == schema.SAMPLE:  # an interval counter
+            names.append(f"{_LABEL[quantity][0]} ({_LABEL[quantity][3]})")
+        else:
+            names.append(f"{_LABEL[quantity][0]} {stat} ({_LABEL[quantity][3]})")
     _write_lines(path, ",".join(names), cells, ",", order)
     return WriteInfo(Path(path), "stats", len(order), 0, 0, n_values)
 
@@ -594,8 +601,12 @@ def write_scenario(
         )
         if shape == "stats":
             for i in ids:
+                counters = outputs.get(i, {}).get("counters", False)
                 stats = aggregate_statistics(
-                    results[i].table, interval_s=interval, floor_dbm=results[i].spec.floor_value_dbm
+                    results[i].table,
+                    interval_s=interval,
+                    floor_dbm=results[i].spec.floor_value_dbm,
+                    threshold_dbm=results[i].spec.threshold_dbm if counters else None,
                 )
                 info = write_stats(
                     stats, folder / f"{i}_{tag}.csv", floors_dbm={i: results[i].spec.floor_value_dbm}

@@ -190,3 +190,28 @@ def test_writer_rejects_wrong_input(sim, tmp_path):
     with pytest.raises(InputError, match="stats"):
         write_log(sim.table, tmp_path / "x.csv", "stats")
     assert set(SHAPES) == {"wide_iso", "semicolon_local", "epoch", "long", "stats"}
+
+
+def test_statistics_counters_follow_the_g826_rule_and_read_back(tmp_path):
+    # a 100-s drop to the floor: ITU-T G.826 Annex A counts all of it unavailable (the 10 SES that start
+    # unavailable time count as unavailable; the 10 good seconds that end it count as available)
+    spec = LinkSpec(
+        "WR-CNT",
+        18.0,
+        9.0,
+        "V",
+        -72.0,
+        nominal_dbm=-40.0,
+        duration_s=2 * 3600,
+        effects=(Effect("signal_loss", 1000.0, 100.0), Effect("signal_loss", 4000.0, 5.0)),
+    )
+    sim = simulate_link(spec, seed=0)
+    table = aggregate_statistics(sim.table, interval_s=900, threshold_dbm=-72.0)
+    uas = table[table.quantity == schema.UAS].set_index("time_utc")["value"]
+    ses = table[table.quantity == schema.SES].set_index("time_utc")["value"]
+    assert uas.sum() == 100 and uas.loc["2026-06-01T00:15:00Z"] == 100
+    assert ses.sum() == 5 and ses.loc["2026-06-01T01:00:00Z"] == 5  # too short for unavailability
+    info = write_stats(table, tmp_path / "WR-CNT_15min.csv")
+    result = read_log(info.path)
+    _values_accounting(result.report, table)
+    _same(table, result.table)

@@ -18,7 +18,8 @@ A scenario names hops and what happens to them::
     threshold_dbm = -72
     nominal_dbm = -38
     tilt_deg = 0                     # simulation fields: tilt_deg, xpd_antenna_db, atpc, atpc_range_db,
-    log_shape = "wide_iso"           #   noise_db, quantisation_db, floor_dbm, *_fraction, log_shape, gzip
+    log_shape = "wide_iso"           #   noise_db, quantisation_db, floor_dbm, *_fraction, log_shape, gzip,
+    counters = false                 #   counters (SES/UAS columns in the statistics shape)
 
     [[link.rain]]                    # one table per effect: rain, multipath, refractive, level_shift,
     at_h = 14.5                      #   drift, signal_loss, gap.  When: at_h / at_min / at_s (after start)
@@ -45,7 +46,7 @@ __all__ = ["load_scenario", "parse_scenario", "builtin_names", "BUILTIN_DIR", "L
 
 BUILTIN_DIR = Path(__file__).resolve().parent
 # hop keys that are not LinkSpec fields but steer the output
-LINK_EXTRA_FIELDS = ("log_shape", "gzip")
+LINK_EXTRA_FIELDS = ("log_shape", "gzip", "counters")
 _SCENARIO_KEYS = {"name", "description", "tz", "stats_interval_s", "link", "defaults"}
 _EFFECT_PARAMS = {
     "rain": {
@@ -203,7 +204,11 @@ def parse_scenario(data: dict, *, where: str = "scenario", default_name: str = "
 
         if shape not in SHAPES:
             raise InputError(f"{what}: log_shape must be one of {', '.join(SHAPES)}", path=where)
-        extras[spec.link_id] = {"log_shape": shape, "gzip": bool(extra.get("gzip", False))}
+        extras[spec.link_id] = {
+            "log_shape": shape,
+            "gzip": bool(extra.get("gzip", False)),
+            "counters": bool(extra.get("counters", False)),
+        }
     tz = str(data.get("tz", "UTC"))
     try:
         pd.Timestamp("2026-01-01", tz=tz)
