@@ -17,8 +17,9 @@ swing it both ways around its mean (multipath), so the detector works on robust 
    the refined time already differ by ``min_abrupt_fraction`` of the step (the slow end of a refractive fade
    or a drift is not);
 4. the step time is refined at full resolution over the plateau where the two-window difference stays within
-   80 % of its peak: with the levels before and after fixed, the split that minimises the sum of absolute
-   deviations is found with a cumulative sum (exact, O(n)); samples faded below both levels are ignored.
+   80 % of its peak: each sample is put on the old or new side of the mid level, and the split minimising a
+   weighted count of samples on the wrong side is found with cumulative sums (exact, O(n)); a sample on the low
+   side counts little where a fade could explain it (rain just before a downward step does not move the split).
 
 The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected
 steps have been removed, in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
@@ -35,6 +36,7 @@ import pandas as pd
 log = logging.getLogger(__name__)
 
 WEEK_S = 7 * 86400.0
+_FADE_WEIGHT = 0.05   # cost of a sample that a fade can explain, against 1 for one that nothing explains
 MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
 
 
@@ -143,18 +145,38 @@ def _flat_fraction(blocks: np.ndarray, level: float, step_db: float, fade_trim_d
     return float(np.mean(np.abs(x - level) <= max(1.0, step_db / 4.0)))
 
 
+def _near_clear(values: np.ndarray, level: float, m: int, fade_trim_db: float) -> float:
+    """Median of the first ``m`` values (in the given order) that are finite and not faded more than
+    ``fade_trim_db`` below ``level``; NaN when there are none."""
+    ok = np.isfinite(values) & (values >= level - fade_trim_db)
+    picked = values[ok][:m]
+    return float(np.median(picked)) if picked.size else math.nan
+
+
 def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *, fade_trim_db: float) -> int:
-    """Index in [lo, hi] of the first sample at the new level: minimise sum|x - before| (left of the split) +
-    sum|x - after| (right), with samples faded below both levels left out (they carry no information)."""
+    """Index in [lo, hi] of the first sample at the new level.
+
+    Each sample is put on the old or the new side of the mid level.  Fades only lower the level, so a sample on
+    the LOW side is explainable on either side of a step (weight ``_FADE_WEIGHT``), while a sample on the HIGH
+    side of the wrong half is not (weight 1): a rain fade just before a downward step or just after an upward
+    step cannot pull the split into the fade.  The split minimising the weighted count is found with cumulative
+    sums (exact, O(n)).  ``fade_trim_db`` is unused (kept for the call signature).
+    """
     lo, hi = max(0, lo), min(len(level), hi)
     if hi - lo < 2:
         return lo
     x = level[lo:hi]
-    ok = np.isfinite(x) & (x >= min(before, after) - fade_trim_db)
-    # cost(k) - cost(lo) = sum_{lo<=i<k} (|x_i - before| - |x_i - after|): cumulative sum, argmin is the split
-    gain = np.where(ok, np.abs(x - before) - np.abs(x - after), 0.0)
-    cost = np.concatenate([[0.0], np.cumsum(gain)])
-    return lo + int(np.argmin(cost))
+    ok = np.isfinite(x)
+    mid = 0.5 * (before + after)
+    down = after < before
+    new_side = ok & ((x < mid) if down else (x > mid))
+    old_side = ok & ~new_side
+    w_new_before = _FADE_WEIGHT if down else 1.0    # a low sample before a downward step may be a fade
+    w_old_after = 1.0 if down else _FADE_WEIGHT     # a low sample after an upward step may be a fade
+    # cost(k) = w_new_before * #new-side samples before k + w_old_after * #old-side samples from k on
+    before_cost = np.concatenate([[0.0], np.cumsum(new_side * w_new_before)])
+    after_cost = np.concatenate([np.cumsum((old_side * w_old_after)[::-1])[::-1], [0.0]])
+    return lo + int(np.argmin(before_cost + after_cost))
 
 
 def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
@@ -257,9 +279,12 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
         span_hi = min(nxt * block, (b + 1) * block, len(values))
         k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
         # abruptness: the clear level just before and just after must already differ by most of the step
+        # (the nearest samples that are not faded below their side's level: rain right before a step, or
+        # masked samples, must not hide it)
         m = max(3, int(round(abrupt_s / interval_s)))
-        near_old = clear_level_dbm(values[max(prev * block, k - m):k], fade_trim_db=fade_trim_db)
-        near_new = clear_level_dbm(values[k:min(nxt * block, k + m)], fade_trim_db=fade_trim_db)
+        span = p * block
+        near_old = _near_clear(values[max(prev * block, k - span):k][::-1], old, m, fade_trim_db)
+        near_new = _near_clear(values[k:min(nxt * block, k + span)], new, m, fade_trim_db)
         if not (math.isfinite(near_old) and math.isfinite(near_new)):
             continue
         if abs(near_new - near_old) < min_abrupt_fraction * abs(new - old) or \

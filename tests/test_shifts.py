@@ -138,3 +138,26 @@ def test_drop_to_receiver_floor_is_not_a_level_shift():
     x[1500:] = -102.0
     assert shifts.detect_steps(_grid(x, step_s=60.0), 60.0) == []
     assert len(shifts.detect_steps(_grid(x, step_s=60.0), 60.0, max_step_db=None)) == 1
+
+
+def test_step_right_after_rain_on_15_min_statistics():
+    # 15-min averages: a rain fade ends minutes before a 6.5-dB drop (the pattern of the demo hop's log); the fade
+    # must not pull the step time into the rain, nor hide the step
+    x = np.full(7 * 96, -40.3) + np.random.default_rng(2).normal(0, 0.05, 7 * 96)
+    k = 4 * 96 + 70                                     # day 5, 17:30
+    x[k - 7: k - 1] -= [0.7, 1.2, 2.5, 12.6, 7.1, 3.0]  # rain 16:00-17:15
+    x[k:] -= 6.5
+    series = _grid(x, step_s=900.0)
+    steps = shifts.detect_steps(series, 900.0)
+    assert len(steps) == 1
+    assert abs((steps[0].time_utc - series.index[k]).total_seconds()) <= 15 * 60
+    assert steps[0].size_db == pytest.approx(-6.5, abs=1.0)
+
+
+def test_step_found_with_masked_samples_just_before():
+    # XPD with the rain samples masked (NaN) right before the tilt appears: still one step, at the right time
+    x = np.r_[np.full(300, 35.0), np.full(372, 13.4)]
+    x[296:299] = np.nan
+    series = _grid(x, step_s=900.0)
+    steps = shifts.detect_steps(series, 900.0, min_step_db=1.5)
+    assert len(steps) == 1 and steps[0].time_utc == series.index[300]
