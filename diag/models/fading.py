@@ -154,21 +154,34 @@ def rice_k_moments(envelope: ArrayLike) -> float:
     return s / (mu2 - s)
 
 
-def _rice_nll(params: np.ndarray, r: np.ndarray) -> float:
-    k, log_omega = params
-    omega = math.exp(log_omega)
-    two_sigma2 = omega / (k + 1.0)  # 2 sigma^2 = Omega / (K+1)
-    nu = math.sqrt(k * omega / (k + 1.0))  # nu^2 = K Omega / (K+1)
-    z = 2.0 * r * nu / two_sigma2
-    # log f(r) = log(2r/(2 sigma^2)) - (r^2 + nu^2)/(2 sigma^2) + log I0(r nu / sigma^2); log r dropped (constant)
-    ll = math.log(2.0 / two_sigma2) - (r * r + nu * nu) / two_sigma2 + np.log(special.i0e(z)) + z
-    return -float(np.sum(ll))
+def _rice_nll_and_gradient(params: np.ndarray, r2: np.ndarray, r: np.ndarray) -> tuple:
+    """Negative log-likelihood of Rice envelope samples and its gradient, in (u, s) with K = u^2, Omega = e^s.
+
+    Per sample, dropping constants: l = log(K+1) - s - (K+1) r^2 e^(-s) - K + log I0(z), z = 2 r sqrt(K(K+1)/Omega)
+    [1, §2.1.1: f(r) = 2r(K+1)/Omega exp(-K - (K+1) r^2/Omega) I0(z)].  d log I0/dz = I1/I0.  The u = sqrt(K)
+    parameterisation keeps z smooth at K = 0.
+    """
+    u, s_log = float(params[0]), float(params[1])
+    k = u * u
+    inv_omega = math.exp(-s_log)
+    root = math.sqrt(k * (k + 1.0) * inv_omega)
+    z = 2.0 * r * root
+    i0e = special.i0e(z)
+    ratio = special.i1e(z) / i0e  # I1(z)/I0(z)
+    n = r.size
+    sum_r2 = float(np.sum(r2))
+    ll = n * (math.log(k + 1.0) - s_log - k) - (k + 1.0) * sum_r2 * inv_omega + float(np.sum(np.log(i0e) + z))
+    dz_du = 2.0 * r * (2.0 * k + 1.0) * math.sqrt(inv_omega / (k + 1.0))  # dz/du
+    d_u = n * (2.0 * u / (k + 1.0) - 2.0 * u) - 2.0 * u * sum_r2 * inv_omega + float(np.sum(ratio * dz_du))
+    d_s = -n + (k + 1.0) * sum_r2 * inv_omega - float(np.sum(ratio * z)) / 2.0
+    return -ll, -np.array([d_u, d_s])
 
 
 def rice_k_mle(envelope: ArrayLike) -> float:
     """Rice K (linear) by maximum likelihood over (K, Omega) of the Rice envelope density [1, §2.1.1].
 
-    Numerical maximisation (L-BFGS-B, K in [0, 10^4]) started from the moment estimate.  NaNs are ignored.
+    L-BFGS-B with the analytic gradient over (sqrt(K), log Omega), K in [0, 10^4], started from the moment
+    estimate.  NaNs are ignored.
     """
     return fit_rice(envelope, method="mle").k_factor
 
@@ -208,14 +221,11 @@ def fit_rice(envelope: ArrayLike, method: str = "mle") -> RiceFit:
         k, omega = k0, scale
     elif method == "mle":
         rn = r / math.sqrt(scale)  # fit on unit mean power, rescale after
-        start = np.array([min(k0, 1e3) if math.isfinite(k0) else 1e3, 0.0])
-        best = None
-        for k_start in {float(start[0]), 1.0}:
-            res = optimize.minimize(_rice_nll, np.array([k_start, 0.0]), args=(rn,), method="L-BFGS-B",
-                                    bounds=[(0.0, 1e4), (-3.0, 3.0)])
-            if best is None or res.fun < best.fun:
-                best = res
-        k, omega = float(best.x[0]), scale * math.exp(float(best.x[1]))
+        u_start = math.sqrt(min(k0, 1e4)) if math.isfinite(k0) else 100.0
+        # u = 0 is always a stationary point (the likelihood is even in u), so never start exactly there
+        best = optimize.minimize(_rice_nll_and_gradient, np.array([max(u_start, 0.3), 0.0]), args=(rn * rn, rn),
+                                 jac=True, method="L-BFGS-B", bounds=[(0.0, 100.0), (-3.0, 3.0)])
+        k, omega = float(best.x[0]) ** 2, scale * math.exp(float(best.x[1]))  # K = u^2
     else:
         raise ValueError(f"method must be 'moments' or 'mle', not {method!r}")
     k_db = 10.0 * math.log10(k) if k > 0 else -math.inf
