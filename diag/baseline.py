@@ -279,6 +279,27 @@ def _segment_reference(values: np.ndarray, block: int, config: AnalysisConfig, i
     return np.interp(np.arange(n, dtype=float), centres[ok], ref_blocks[ok])
 
 
+def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
+                     change_db: float = 4.0) -> bool:
+    """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
+
+    A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
+    multipath activity lowers the average (the mean of a Rayleigh-faded level in dB is 2.5 dB below its mean
+    power) while widening the spread to 10-30 dB.  A step across which the median spread changes by ``change_db``
+    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source).
+    """
+    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
+        return False
+    spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
+    t = step.time_utc
+    window = pd.Timedelta(hours=window_h)
+    before = spread.loc[t - window: t - pd.Timedelta(seconds=1)].median()
+    after = spread.loc[t: t + window].median()
+    if not (np.isfinite(before) and np.isfinite(after)):
+        return False
+    return max(before, after) >= wide_db and abs(after - before) >= change_db
+
+
 def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -> list:
     """Add ``reference_dbm`` and ``attenuation_db`` (and ``attenuation_peak_db`` for statistics) to the frame.
 
@@ -298,6 +319,8 @@ def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -
         except ValueError as exc:  # too short a record for the windows
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []
+    if series.kind == "stats" and steps:
+        steps = [step for step in steps if not _fading_not_step(frame, step)]
     cuts = [0] + sorted(int(frame.index.searchsorted(step.time_utc)) for step in steps) + [len(frame)]
     block = max(1, int(round(config.block_s / interval_s)))
     reference = np.full(len(frame), np.nan)
