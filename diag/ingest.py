@@ -59,7 +59,7 @@ BLOCK_BYTES = 8 * 1024 * 1024
 SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
 SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
-ROW_REASONS = ("malformed_row", "bad_time", "dst_nonexistent", "dst_ambiguous", "unknown_quantity",
+ROW_REASONS = ("malformed_row", "bad_time", "dst_nonexistent", "dst_ambiguous", "time_out_of_range", "unknown_quantity",
                "duplicate", "conflicting_duplicate")
 SNIFF_LINES = 400           # lines looked at to find separator and header
 HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
@@ -442,7 +442,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
                 plan = N.plan_columns(batch, names, mapping, tz, src.label, header_line)
             cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
             ns, tcode = N.parse_times(cols, plan.time)
-            for code, reason in ((1, "bad_time"), (2, "dst_nonexistent"), (3, "dst_ambiguous")):
+            for code, reason in enumerate(N.TIME_REASONS, start=1):
                 rejected[reason] += int((tcode == code).sum())
             if first_bad_time is None and (tcode == 1).any():
                 i = int(np.flatnonzero(tcode == 1)[0])

@@ -53,9 +53,13 @@ DEFAULT_CHANNEL = "main"
 # value status codes used internally (int8), in the order of schema.STATUSES
 _OK, _LOST, _MISSING = 0, 1, 2
 # value reason codes (int8)
-R_NONE, R_BLANK, R_MARK_MISSING, R_NON_NUMERIC, R_RANGE, R_MARK_LOST, R_FLOOR = range(7)
+R_NONE, R_BLANK, R_MARK_MISSING, R_NON_NUMERIC, R_RANGE, R_MARK_LOST, R_FLOOR, R_NONPOS, R_ABSENT = range(9)
 REASON_NAMES = {R_BLANK: "blank", R_MARK_MISSING: "missing_marker", R_NON_NUMERIC: "non_numeric",
-                R_RANGE: "out_of_range", R_MARK_LOST: "signal_lost_marker", R_FLOOR: "receiver_floor"}
+                R_RANGE: "out_of_range", R_MARK_LOST: "signal_lost_marker", R_FLOOR: "receiver_floor",
+                R_NONPOS: "non_positive_power", R_ABSENT: "absent_field"}
+# linear power units -> factor to milliwatt (a level in dBm is 10 log10 of the power in mW)
+POWER_UNITS_MW = {"w": 1e3, "mw": 1.0, "uw": 1e-3, "nw": 1e-6}
+FLOOR_BAND_DB = 1.0   # readings within this of a detected floor are floor readings too (common practice)
 
 LOST_MARKERS = ("LOS", "LOF", "LOSS", "SIGNAL LOST", "NO SIGNAL", "NOSIGNAL", "-INF", "LOSS OF SIGNAL", "DOWN")
 MISSING_MARKERS = ("N/A", "NA", "NAN", "#N/A", "---", "--", "-", "NULL", "NONE", "?", "ERR", "ERROR", "INVALID",
@@ -74,6 +78,7 @@ COUNTERS = (S.ES, S.SES, S.UAS)
 # column names
 
 _UNIT_RE = re.compile(r"\b(dbm|dbmw|db|dbuv|dbµv)\b", re.I)
+_POWER_RE = re.compile(r"[\(\[]\s*([mµun]?w)\s*[\)\]]|(?<![A-Za-z])(mw|uw|nw)(?![A-Za-z])", re.I)
 _INTERVAL_RE = re.compile(r"\b(\d+(?:\.\d+)?)\s*(s|sec|secs|seconds?|m|mins?|minutes?|h|hr|hrs|hours?)\b", re.I)
 _INTERVAL_UNIT_S = {"s": 1, "sec": 1, "secs": 1, "second": 1, "seconds": 1, "m": 60, "min": 60, "mins": 60,
                     "minute": 60, "minutes": 60, "h": 3600, "hr": 3600, "hrs": 3600, "hour": 3600,
@@ -150,6 +155,10 @@ def recognise_name(name: str) -> NameInfo:
         interval = float(m.group(1)) * _INTERVAL_UNIT_S[m.group(2).lower()]
         text = text[:m.start()] + " " * (m.end() - m.start()) + text[m.end():]
     unit = None
+    pw = _POWER_RE.search(str(name))
+    if pw:
+        unit = (pw.group(1) or pw.group(2)).lower().replace("µ", "u")
+        text = text[:pw.start()] + " " * (pw.end() - pw.start()) + text[pw.end():]
     for u in _UNIT_RE.finditer(text):
         unit = u.group(1).lower().replace("µ", "u")
     text = _UNIT_RE.sub(lambda x: " " * len(x.group(0)), text)
@@ -399,22 +408,25 @@ def epoch_kind(values: list[str]) -> str | None:
     return None
 
 
-TIME_REASONS = ("bad_time", "dst_nonexistent", "dst_ambiguous")
+TIME_REASONS = ("bad_time", "dst_nonexistent", "dst_ambiguous", "time_out_of_range")
 
 
 def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.ndarray]:
-    """Vectorised: (int64 ns since epoch UTC, int8 code 0 ok / 1 bad_time / 2 dst_nonexistent / 3 dst_ambiguous)."""
+    """Vectorised: (int64 ns since epoch UTC, int8 code 0 ok / 1 bad_time / 2 dst_nonexistent / 3 dst_ambiguous /
+    4 time_out_of_range (before TIME_MIN or from TIME_MAX on))."""
     n = len(cols[0])
     if spec.kind in ("epoch_s", "epoch_ms"):
         s = pc.utf8_trim_whitespace(cols[0])
         good = pc.fill_null(pc.match_substring_regex(s, r"^[+-]?\d+(\.\d*)?([eE][+-]?\d+)?$"), False)
         num = pc.cast(pc.if_else(good, s, pa.scalar(None, pa.string())), pa.float64()).to_numpy(zero_copy_only=False)
-        scale = 1e9 if spec.kind == "epoch_s" else 1e6
-        lo, hi = (1e8, 4.2e9) if spec.kind == "epoch_s" else (1e11, 4.2e12)
-        ok = np.isfinite(num) & (num > lo) & (num < hi)
+        per_second = 1.0 if spec.kind == "epoch_s" else 1000.0
+        lo = TIME_MIN.tz_localize("UTC").timestamp() * per_second
+        hi = TIME_MAX.tz_localize("UTC").timestamp() * per_second
+        finite = np.isfinite(num)
+        ok = finite & (num >= lo) & (num < hi)
         ns = np.zeros(n, dtype=np.int64)
-        ns[ok] = np.round(num[ok] * scale).astype(np.int64)
-        code = np.where(ok, 0, 1).astype(np.int8)
+        ns[ok] = np.round(num[ok] * (1e9 / per_second)).astype(np.int64)
+        code = np.where(ok, 0, np.where(finite, 4, 1)).astype(np.int8)
         return ns, code
     if len(cols) == 2:
         text = pc.binary_join_element_wise(pc.utf8_trim_whitespace(cols[0]), pc.utf8_trim_whitespace(cols[1]),
@@ -474,20 +486,40 @@ def _iso_fast(text: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
     return None
 
 
+# plausible time range of a radio log (common practice: management systems postdate 1980); outside -> code 4
+TIME_MIN = pd.Timestamp("1980-01-01")
+TIME_MAX = pd.Timestamp("2100-01-01")
+
+
+def _out_of_range(t: pd.Series) -> np.ndarray:
+    lo, hi = (TIME_MIN, TIME_MAX) if getattr(t.dt, "tz", None) is None else (TIME_MIN.tz_localize("UTC"),
+                                                                            TIME_MAX.tz_localize("UTC"))
+    return ((t < lo) | (t >= hi)).fillna(False).to_numpy(dtype=bool)
+
+
 def _finish_utc(t: pd.Series, n: int) -> tuple[np.ndarray, np.ndarray]:
+    oor = _out_of_range(t)
+    if oor.any():
+        t = t.where(~oor)
     t = t.astype("datetime64[ns, UTC]")
     bad = t.isna().to_numpy()
     ns = t.to_numpy(dtype="datetime64[ns]", na_value=np.datetime64("NaT")).view(np.int64).copy()
     ns[bad] = 0
-    return ns, bad.astype(np.int8)
+    code = bad.astype(np.int8)
+    code[oor] = 4
+    return ns, code
 
 
 def _localise(t: pd.Series, tz: str) -> tuple[np.ndarray, np.ndarray]:
+    oor = _out_of_range(t)
+    if oor.any():
+        t = t.where(~oor)
     t = t.astype("datetime64[ns]")
-    bad = t.isna().to_numpy()
+    bad = t.isna().to_numpy() & ~oor
     loc = t.dt.tz_localize(tz, ambiguous="NaT", nonexistent="NaT")
-    nat = loc.isna().to_numpy() & ~bad
+    nat = loc.isna().to_numpy() & ~bad & ~oor
     code = bad.astype(np.int8)
+    code[oor] = 4
     if nat.any():
         # which of the failures are in the spring-forward gap: those that stay NaT even when ambiguity is resolved
         sub = t[nat]
@@ -496,6 +528,7 @@ def _localise(t: pd.Series, tz: str) -> tuple[np.ndarray, np.ndarray]:
         code[idx[gap]] = 2
         code[idx[~gap]] = 3
     ns, _ = _finish_utc(loc.dt.tz_convert("UTC"), len(t))
+    ns[code != 0] = 0
     return ns, code
 
 
@@ -514,6 +547,7 @@ def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
         fast = None
     if fast is not None and np.isfinite(fast).all():
         return fast, np.zeros(len(fast), dtype=np.int8)
+    s = pc.replace_substring_regex(s, r"(?i)([0-9.])\s*(dbm|db|mw|uw|nw|w)$", r"\1")   # "-45.3 dBm" -> "-45.3"
     up = pc.utf8_upper(s)
     blank = pc.equal(pc.utf8_length(s), 0)
     lost = pc.is_in(up, value_set=pa.array(LOST_MARKERS))
@@ -686,6 +720,8 @@ class ValueColumn:
     stat: str
     interval_s: float | None
     channel: str | None
+    unit: str | None = None         # "dbm", "db", or a linear power unit of POWER_UNITS_MW (converted to dBm)
+    negate: bool | None = None      # levels written as positive "dB below 1 mW": None = decide from the values
 
 
 @dataclass
@@ -821,7 +857,12 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
             if stat not in S.STATS:
                 raise InputError(f"mapping: stat '{stat}' for column '{col}' is not one of {S.STATS}")
             iv = spec_s.get("interval_s")
-            values.append(ValueColumn(col, q, stat, float(iv) if iv else None, spec_s.get("channel")))
+            unit = str(spec_s["unit"]).lower().replace("µ", "u") if spec_s.get("unit") else None
+            if unit is not None and unit not in POWER_UNITS_MW and unit not in ("dbm", "db"):
+                raise InputError(f"mapping: unit '{unit}' for column '{col}' is not dBm, dB, W, mW, uW or nW")
+            neg = spec_s.get("negate")
+            values.append(ValueColumn(col, q, stat, float(iv) if iv else None, spec_s.get("channel"), unit,
+                                      None if neg is None else bool(neg)))
             roles[col] = f"{q}/{stat}"
     else:
         for n in names:
@@ -836,7 +877,7 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
                     continue
                 guesses.append(f"column '{n}' taken as {info.quantity} from its unit/name (override with "
                                f"--signal-col '{n}=QUANTITY[:CHANNEL[:STAT]]')")
-            values.append(ValueColumn(n, info.quantity, info.stat, info.interval_s, info.channel))
+            values.append(ValueColumn(n, info.quantity, info.stat, info.interval_s, info.channel, info.unit))
             roles[n] = f"{info.quantity}/{info.stat}"
         if not values:
             qn = next((n for n in names if by_role[n] == "qname" and n not in roles), None)
@@ -960,6 +1001,35 @@ class KeyIndex:
         return self.ids[t]
 
 
+def _convert_units(plan: ColumnPlan, vals: np.ndarray, reas: np.ndarray, report) -> None:
+    """Per column, in place: linear power (W, mW, uW, nW) -> dBm; positive "dB below 1 mW" levels -> negative dBm."""
+    for j, vc in enumerate(plan.values):
+        v, r = vals[:, j], reas[:, j]
+        ok = r == R_NONE
+        if vc.unit in POWER_UNITS_MW:
+            pos = ok & (v > 0)
+            bad = ok & ~pos
+            r[bad] = R_NONPOS
+            v[bad] = np.nan
+            v[pos] = 10.0 * np.log10(v[pos] * POWER_UNITS_MW[vc.unit])
+            msg = (f"column '{vc.name}': power in {vc.unit} converted to dBm (10 log10 of mW); override with "
+                   f"unit in [signals.\"{vc.name}\"] of a mapping file")
+            if msg not in report.guesses:
+                report.guesses.append(msg)
+            continue
+        if vc.quantity not in (S.RSL, S.XPL) or vc.negate is False:
+            continue
+        okv = v[ok]
+        auto = (vc.unit != "dbm" and okv.size >= 3 and bool(np.all((okv >= 15.0) & (okv <= 130.0))))
+        if vc.negate or auto:
+            v[ok] = -v[ok]
+            if auto:
+                msg = (f"column '{vc.name}': every level is between +15 and +130, read as dB below 1 mW and negated "
+                       f"(override with negate = false in [signals.\"{vc.name}\"] of a mapping file)")
+                if msg not in report.guesses:
+                    report.guesses.append(msg)
+
+
 def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, rejected: dict,
              default_link: str, mapping: dict, header_line: int) -> pd.DataFrame:
     """Kept rows of all blocks -> the sorted long table.
@@ -1030,6 +1100,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
     if len(key) == 0:
         report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
         return S.empty_table()
+    _convert_units(plan, vals, reas, report)
     # group boundaries
     bounds = np.flatnonzero(np.diff(key)) + 1
     starts = np.concatenate(([0], bounds))
@@ -1075,9 +1146,11 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             fl, how = detect_floor([sr[6] for sr in group], [])
             if fl is None:
                 continue
-            mask_fn = lambda v: np.abs(v - fl) < 1e-6  # noqa: E731
-            report.guesses.append(f"{q}: readings at {fl:g} dBm taken as the receiver floor (signal lost): {how}; "
-                                  f"override with --floor-dbm VALUE or --floor-dbm none")
+            band = fl + FLOOR_BAND_DB + 1e-9
+            mask_fn = lambda v: v <= band  # noqa: E731
+            report.guesses.append(f"{q}: readings at {fl:g} dBm (and up to {FLOOR_BAND_DB:g} dB above) taken as the "
+                                  f"receiver floor (signal lost): {how}; override with --floor-dbm VALUE or "
+                                  f"--floor-dbm none")
         n_floor = 0
         for sr in group:
             at = (sr[7] == R_NONE) & mask_fn(sr[6])

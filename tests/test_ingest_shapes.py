@@ -164,6 +164,24 @@ CASES = [
     ("utf16_bom", "Time\tRSL H (dBm)\tRSL V (dBm)\n2026-12-01T10:00:00Z\t-45.5\t-47.25\n"
                   "2026-12-01T10:00:01Z\t-45.6\t-47.3\n".encode("utf-16"), {}, WIDE_HV, 2, 2, {},
      {"encoding": "utf-16"}),
+    # stamps outside 1980..2100 are no radio log's: counted, never converted (and never an overflow)
+    ("far_dates", b"time,rsl_dbm\n1970-01-01T00:00:00Z,-45\n9999-12-31T23:59:59Z,-46\n2026-12-01T10:00:00Z,-45\n", {},
+     [R(T0, "main", -45.0)], 3, 1, {"time_out_of_range": 2}, {}),
+    ("units_in_cells", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-45.3 dBm\n2026-12-01T10:00:01Z,-46dBm\n", {},
+     [R(T0, "main", -45.3), R(T1, "main", -46.0)], 2, 2, {}, {}),
+    # 1 mW = 0 dBm, so 1e-3 mW = -30 dBm and 1e-6 mW = -60 dBm (definition of dBm); 0 mW has no level
+    ("milliwatts", b"Time,Rx power (mW)\n2026-12-01T10:00:00Z,1e-3\n2026-12-01T10:00:01Z,0\n2026-12-01T10:00:02Z,1e-6\n",
+     {}, [R(T0, "main", -30.0), R(T1, "main", None, "missing"), R(T2, "main", -60.0)], 3, 3, {},
+     {"values.reasons": {"non_positive_power": 1}}),
+    # levels written as positive dB below 1 mW (no dBm in the name): negated, said in the guesses
+    ("positive_levels", b"Time,rx level\n2026-12-01T10:00:00Z,45\n2026-12-01T10:00:01Z,46\n2026-12-01T10:00:02Z,47\n",
+     {}, [R(T0, "main", -45.0), R(T1, "main", -46.0), R(T2, "main", -47.0)], 3, 3, {}, {}),
+    # a floor at -103 dBm with readings hovering 1 dB above it (-102): both are floor readings
+    ("floor_band", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-60\n2026-12-01T10:00:01Z,-103\n2026-12-01T10:00:02Z,-102\n"
+                   b"2026-12-01T10:00:03Z,-102\n2026-12-01T10:00:04Z,-101.5\n", {},
+     [R(T0, "main", -60.0), R(T1, "main", None, "signal_lost"), R(T2, "main", None, "signal_lost"),
+      R("2026-12-01T10:00:03", "main", None, "signal_lost"), R("2026-12-01T10:00:04", "main", -101.5)],
+     5, 5, {}, {"values.reasons": {"receiver_floor": 3}}),
 ]
 
 
