@@ -142,6 +142,23 @@ def cause_shapes() -> alt.Scale:
     return alt.Scale(domain=[views.cause_label(c) for c in schema.CAUSES], range=shapes[:len(schema.CAUSES)])
 
 
+def curve_colours(curves: list[str]) -> alt.Scale:
+    """Exceedance curves: rain curves in the rain colour, multipath in the multipath colour (measured solid,
+    prediction dotted), all fades in ink, the Rayleigh reference in a neutral violet."""
+    from diag.report.style import CAUSE_COLORS, INK
+
+    def colour(name: str) -> str:
+        if "rain" in name:
+            return CAUSE_COLORS[schema.RAIN]
+        if "multipath" in name:
+            return CAUSE_COLORS[schema.MULTIPATH]
+        if "Rayleigh" in name:
+            return "#6a51a3"
+        return "#8a8a8a" if "upper bound" in name else INK
+
+    return alt.Scale(domain=curves, range=[colour(c) for c in curves])
+
+
 def cause_legend(present: list[str]) -> alt.Legend:
     return alt.Legend(values=[views.cause_label(c) for c in present], title="cause", orient="bottom")
 
@@ -564,7 +581,7 @@ def fading_statistics(result) -> None:
             chart = alt.Chart(curves).mark_line(point=True).encode(
                 x=alt.X("depth_db:Q", title="fade depth (dB)"),
                 y=alt.Y("percent:Q", title="% of time exceeded", scale=alt.Scale(type="log")),
-                color=alt.Color("curve:N", title=None, scale=alt.Scale(scheme="dark2"),
+                color=alt.Color("curve:N", title=None, scale=curve_colours(list(dict.fromkeys(curves["curve"]))),
                                 legend=alt.Legend(orient="bottom", columns=2, labelLimit=320)),
                 strokeDash=alt.StrokeDash("kind:N", legend=None, scale=alt.Scale(
                     domain=["measured", "theory", "prediction"], range=[[1, 0], [6, 3], [2, 2]])),
