@@ -122,8 +122,19 @@ def is_store(directory: str | Path) -> bool:
     return (Path(directory) / MARKER).is_file()
 
 
-def read_store(directory: str | Path) -> pd.DataFrame:
-    """Read a store folder back: exactly the table given to ``write_store`` (dtypes and row order)."""
+def store_links(directory: str | Path) -> list[str]:
+    """Link ids held by a store folder (from its ``link=...`` folders), sorted."""
+    directory = Path(directory)
+    if not is_store(directory):
+        raise InputError("not a diag store folder (no marker file)", path=str(directory))
+    return sorted(unquote(p.name.split("=", 1)[1]) for p in directory.glob("link=*") if p.is_dir())
+
+
+def read_store(directory: str | Path, *, link_id: str | None = None) -> pd.DataFrame:
+    """Read a store folder back: exactly the table given to ``write_store`` (dtypes and row order).
+
+    With ``link_id`` only that hop's parts are read: the same rows, dtypes and order as the full read filtered to
+    that hop (the whole-store row count is then not checked)."""
     directory = Path(directory)
     if not is_store(directory):
         raise InputError("not a diag store folder (no marker file)", path=str(directory))
@@ -133,7 +144,8 @@ def read_store(directory: str | Path) -> pd.DataFrame:
         raise InputError("store marker file is unreadable", path=str(directory / MARKER)) from exc
     if meta.get("format") != FORMAT:
         raise InputError("store marker names another format", path=str(directory / MARKER))
-    parts = sorted(directory.glob("link=*/day=*/part.parquet"))
+    pattern = f"link={quote(str(link_id), safe='')}" if link_id is not None else "link=*"
+    parts = sorted(directory.glob(f"{pattern}/day=*/part.parquet"))
     if not parts:
         return S.empty_table()
     tabs = []
@@ -145,11 +157,8 @@ def read_store(directory: str | Path) -> pd.DataFrame:
     tab = pa.concat_tables(tabs, promote_options="default")
     order = np.argsort(tab.column(_ROW).to_numpy(), kind="stable")
     tab = tab.take(pa.array(order)).drop_columns([_ROW])
-    if meta.get("rows") is not None and int(meta["rows"]) != tab.num_rows:
+    if link_id is None and meta.get("rows") is not None and int(meta["rows"]) != tab.num_rows:
         raise InputError(f"store holds {tab.num_rows} rows, marker says {meta['rows']} (incomplete copy?)",
                          path=str(directory))
     return _to_frame(tab)
 
-
-def link_of_part(path: Path) -> str:
-    return unquote(path.parent.parent.name.split("=", 1)[1])

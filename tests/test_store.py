@@ -8,7 +8,7 @@ import pytest
 from diag import schema as S
 from diag.errors import InputError
 from diag.ingest import read_log
-from diag.store import read_parquet, read_store, write_parquet, write_store
+from diag.store import read_parquet, read_store, store_links, write_parquet, write_store
 
 
 def sample_table() -> pd.DataFrame:
@@ -92,3 +92,13 @@ def test_store_refuses_foreign_folder_and_damage(tmp_path):
     bad.write_bytes(b"PAR1 not really")
     with pytest.raises(InputError, match="Parquet"):
         read_log(bad)
+
+
+def test_read_one_link_of_a_store(tmp_path):
+    table = sample_table()
+    out = write_store(table, tmp_path / "s")
+    assert store_links(out) == ["HOP A/1", "hop-b"]
+    for link in store_links(out):
+        want = table[table[S.LINK] == link].reset_index(drop=True)
+        pd.testing.assert_frame_equal(read_store(out, link_id=link), want, check_exact=True)
+    pd.testing.assert_frame_equal(read_store(out, link_id="absent"), S.empty_table())

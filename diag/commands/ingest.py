@@ -11,7 +11,6 @@ import argparse
 import json
 import sys
 
-from diag.errors import InputError
 
 
 def register(subparsers) -> None:
@@ -43,69 +42,14 @@ def register(subparsers) -> None:
 
 
 def mapping_from_args(args: argparse.Namespace) -> dict:
-    """The mapping file (if any) with the override flags laid over it."""
-    from diag.ingest import load_mapping
+    """The mapping file (if any) with the override flags laid over it (parsing lives in the library)."""
+    from diag.ingest import load_mapping, mapping_from_options
 
-    mapping = {k: (dict(v) if isinstance(v, dict) else v) for k, v in load_mapping(args.map).items()}
-
-    def sec(name: str) -> dict:
-        mapping.setdefault(name, {})
-        return mapping[name]
-
-    if args.time_col:
-        if len(args.time_col) > 2:
-            raise InputError("--time-col at most twice (date column, then time-of-day column)")
-        sec("time")["columns"] = list(args.time_col)
-    if args.time_format:
-        sec("time")["format"] = args.time_format
-    if args.time_marks:
-        sec("time")["marks"] = args.time_marks
-    if args.link_col:
-        sec("link")["column"] = args.link_col
-    if args.channel_col:
-        sec("channel")["column"] = args.channel_col
-    if args.signal_col:
-        signals = {}
-        for item in args.signal_col:
-            if "=" not in item:
-                raise InputError(f"--signal-col '{item}': expected NAME=QUANTITY[:CHANNEL[:STAT[:INTERVAL_S]]]")
-            name, rest = item.rsplit("=", 1)
-            parts = rest.split(":")
-            spec = {"quantity": parts[0]}
-            if len(parts) > 1 and parts[1]:
-                spec["channel"] = parts[1]
-            if len(parts) > 2 and parts[2]:
-                spec["stat"] = parts[2]
-            if len(parts) > 3 and parts[3]:
-                try:
-                    spec["interval_s"] = float(parts[3])
-                except ValueError as exc:
-                    raise InputError(f"--signal-col '{item}': interval '{parts[3]}' is not a number") from exc
-            signals[name.strip()] = spec
-        mapping["signals"] = signals
-    if args.floor_dbm is not None:
-        if args.floor_dbm.strip().lower() == "none":
-            sec("floor")["dbm"] = "none"
-        else:
-            try:
-                sec("floor")["dbm"] = float(args.floor_dbm)
-            except ValueError as exc:
-                raise InputError(f"--floor-dbm '{args.floor_dbm}' is not a number or 'none'") from exc
-    if args.interval_s is not None:
-        if args.interval_s <= 0:
-            raise InputError("--interval-s must be positive")
-        mapping["interval_s"] = args.interval_s
-    if args.sep:
-        sec("file")["separator"] = "\t" if args.sep.lower() in ("tab", "\\t") else args.sep
-    if args.decimal:
-        sec("file")["decimal"] = args.decimal
-    if args.encoding:
-        sec("file")["encoding"] = args.encoding
-    if args.header_line is not None:
-        if args.header_line < 1:
-            raise InputError("--header-line is 1-based")
-        sec("file")["header_line"] = args.header_line
-    return {k: v for k, v in mapping.items() if v != {}}
+    return mapping_from_options(
+        base=load_mapping(args.map), time_cols=args.time_col, time_format=args.time_format,
+        time_marks=args.time_marks, link_col=args.link_col, channel_col=args.channel_col,
+        signal_cols=args.signal_col, floor=args.floor_dbm, interval_s=args.interval_s, separator=args.sep,
+        decimal=args.decimal, encoding=args.encoding, header_line=args.header_line)
 
 
 def summary_lines(rep: dict) -> list[str]:
