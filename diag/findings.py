@@ -36,7 +36,8 @@ SITE_CAUTIONS = [CAUTION_HEIGHT, CAUTION_RF, CAUTION_CODES]
 
 TILT_FINDING_DEG = 2.0        # common practice: a residual polarisation tilt above ~2 deg is worth realigning
 STEP_FINDING_DB = 2.0
-DRIFT_FINDING_DB_PER_WEEK = 1.0
+DRIFT_MEDIUM_DB_PER_WEEK = 3.0    # a fall this fast is worth a site check soon (common practice)
+SHIFT_MEDIUM_DB = 3.0             # a persistent drop this large costs margin worth restoring (common practice)
 
 _CAUSE_TEXT = {
     S.RAIN: ("Rain fades", "rain fade event(s)"),
@@ -186,6 +187,8 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
             worst = max(steps, key=lambda s: abs(float(s["size_db"])))
             numbers["steps"] = steps[:6]
             detail += f"; largest step {float(worst['size_db']):+.1f} dB on {worst['channel']} at {worst['time_utc']}"
+            if severity == "low" and float(worst["size_db"]) <= -SHIFT_MEDIUM_DB:
+                severity = "medium"          # margin lost for good until someone restores it
         actions = ["check antenna alignment (a step on both polarisations points at the antenna or its mount)",
                    "check the hardware of the affected channel: connectors, waveguide/cable, radio output",
                    "compare the clear-sky level with the planned receive level"]
@@ -249,14 +252,22 @@ def _shift_findings(result, covered: set[str]) -> list[dict]:
         trend = block.get("trend") or {}
         if block.get("drifting"):
             slope = trend.get("slope_db_per_week")
+            wet = bool(len(result.events)) and "cause" in result.events and \
+                bool((result.events["cause"].astype(str) == S.RAIN).any())
+            detail = (f"clear-sky level changes by {slope:+.2f} dB per week (95 % interval "
+                      f"{trend.get('low_db_per_week')} to {trend.get('high_db_per_week')}) over "
+                      f"{trend.get('span_days')} days")
+            if wet and slope < 0:
+                detail += ("; the record holds rain, and a level that sinks during a wet spell and recovers after "
+                           "it is wet antennas/radomes or wet ground, not hardware: confirm over a longer dry record")
             out.append({"title": f"Slow level drift on {channel}",
-                        "detail": f"clear-sky level changes by {slope:+.2f} dB per week "
-                                  f"(95 % interval {trend.get('low_db_per_week')} to {trend.get('high_db_per_week')}).",
+                        "detail": detail + ".",
                         "numbers": trend,
                         "actions": ["watch the trend; a steady fall points at ageing hardware, water in the "
                                     "feed/waveguide or a slowly moving mount",
                                     "check the radio's transmit power log at the far end"],
-                        "cautions": list(SITE_CAUTIONS), "severity": "low" if slope > 0 else "medium",
+                        "cautions": list(SITE_CAUTIONS),
+                        "severity": "medium" if slope <= -DRIFT_MEDIUM_DB_PER_WEEK else "low",
                         "cause": "drift", "score": _num(abs(slope), 8)})
     return out
 

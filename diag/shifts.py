@@ -36,6 +36,7 @@ import pandas as pd
 log = logging.getLogger(__name__)
 
 WEEK_S = 7 * 86400.0
+_FADE_CAUSES = ("rain", "multipath", "refractive", "signal_loss", "unknown")
 _FADE_WEIGHT = 0.05   # cost of a sample that a fade can explain, against 1 for one that nothing explains
 MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
 
@@ -371,10 +372,18 @@ def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db
     """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able)."""
     level = path_level_dbm(frame)
     steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
-    trend = trend_db_per_week(remove_steps(level, steps))
+    clear = remove_steps(level, steps)
+    masked = False
+    if "cause" in frame:   # the trend uses clear-sky samples only: fades of any other cause are left out
+        fading = frame["cause"].isin(_FADE_CAUSES).to_numpy(dtype=bool, na_value=False)
+        if fading.any() and (~fading).sum() > 0:
+            clear = clear.where(~fading)
+            masked = True
+    trend = trend_db_per_week(clear)
     slope = trend.get("slope_db_per_week")
     drifting = bool(slope is not None and abs(slope) >= drift_flag_db_per_week
                     and (trend["low_db_per_week"] > 0 or trend["high_db_per_week"] < 0))
+    trend["fades_left_out"] = masked
     return {"steps": [s.to_dict() for s in steps], "trend": trend, "drifting": drifting,
             "drift_flag_db_per_week": drift_flag_db_per_week,
             "tsl_compensated": bool("tsl_dbm" in frame.columns and frame["tsl_dbm"].notna().any())}
