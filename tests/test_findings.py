@@ -59,6 +59,7 @@ def test_tilt_and_step_get_site_cautions():
     assert "work at height" in cautions and "rf exposure" in cautions and "licensed practice" in cautions
     shift = [f for f in out if f["cause"] == "level_shift"]
     assert shift and "alignment" in " ".join(shift[0]["actions"])
+    assert shift[0]["severity"] == "medium"          # a 5-dB persistent drop costs margin (common practice)
     assert all(KEYS <= set(f) for f in out)
 
 
