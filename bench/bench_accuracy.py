@@ -224,6 +224,8 @@ def run(seeds, *, n_links: int = 3, duration_h: float = 48.0, verbose: bool = Fa
                     "below_right": float(np.mean(pred[below] == truth[below])) if below.any() else math.nan,
                     "thumb_below_right": float(np.mean(thumb[below] == truth[below])) if below.any() else math.nan,
                     "below_s": int(below.sum()), "samples": int(len(truth)),
+                    "below_by_cause": {c: (int((truth[below] == c).sum()), int(((truth == c) & (pred == c))[below].sum()))
+                                       for c in CAUSES if (truth[below] == c).any()},
                     "confusion": pd.crosstab(pd.Series(truth, name="truth"), pd.Series(pred, name="pred"))}
     out["shifts"] = shifts
     out["tilts"] = tilts
@@ -285,6 +287,8 @@ def main(argv=None) -> int:
     else:
         print("polarisation tilt: no hop with a 1-10 deg tilt and cross-polar data in these scenarios")
     print(f"samples judged: 1-s {one['samples']}, below threshold {one['below_s']} s; 15-min {q['samples']}")
+    print("below-threshold seconds by true cause (right/all), 1-s: " + ", ".join(
+        f"{c} {r}/{n}" for c, (n, r) in one["below_by_cause"].items()))
     if args.confusion:
         print("1-s confusion (rows truth, columns diagnosis):")
         print(one["confusion"].to_string())

@@ -58,19 +58,14 @@ def _load_gauge(gauge):
 
 def _call(module: str, function: str, result: LinkResult):
     """Call ``diag.<module>.<function>(result)``; a failure is logged and named in ``result.skipped``."""
-    try:
-        mod = importlib.import_module(f"diag.{module}")
-    except ModuleNotFoundError as exc:
-        if exc.name != f"diag.{module}":
-            raise
-        result.skipped.append(f"{module}: not available in this installation")
-        return None
+    mod = importlib.import_module(f"diag.{module}")
     try:
         return getattr(mod, function)(result)
     except InputError:
         raise
     except Exception as exc:  # one analysis step must not sink the hop: say it was skipped, log the details
-        log.warning("%s.%s failed on %s: %s", module, function, result.link.link_id, exc, exc_info=True)
+        log.warning("%s.%s failed on %s: %s", module, function, result.link.link_id, " ".join(str(exc).split()))
+        log.info("details of the %s.%s failure", module, function, exc_info=True)  # shown with -v only
         result.skipped.append(f"{module}: failed ({type(exc).__name__}: {' '.join(str(exc).split())[:120]})")
         return None
 
