@@ -67,16 +67,23 @@ def _by_cause(result) -> dict[str, dict]:
     if outage is not None and isinstance(outage.by_cause, pd.DataFrame) and len(outage.by_cause):
         df = outage.by_cause
         for _, row in df.iterrows():
-            def pick(name):
-                for col in (name, f"{name}_hi"):
-                    if col in df.columns and row.get(col) is not None and np.isfinite(float(row.get(col))):
-                        return float(row.get(col))
-                return 0.0
-            out[str(row["cause"])] = {"unavailable_s": pick("unavailable_s"),
-                                      "below_threshold_s": pick("below_threshold_s"),
-                                      "events": int(row.get("events", 0) or 0),
-                                      "bounds": "unavailable_s" in df.columns and
-                                      not np.isfinite(float(row.get("unavailable_s", np.nan)))}
+            def pick(col):
+                value = row.get(col) if col in df.columns else None
+                try:
+                    value = float(value)
+                except (TypeError, ValueError):
+                    return None
+                return value if np.isfinite(value) else None
+
+            entry = {"events": int(row.get("events", 0) or 0)}
+            for name in ("unavailable_s", "below_threshold_s"):
+                exact, lo, hi = pick(name), pick(f"{name}_lo"), pick(f"{name}_hi")
+                entry[name] = exact if exact is not None else (hi if hi is not None else 0.0)  # rank on worst case
+                entry[f"{name}_lo"] = exact if exact is not None else (lo if lo is not None else entry[name])
+                entry[f"{name}_hi"] = entry[name]
+            entry["bounds"] = (entry["unavailable_s_lo"] != entry["unavailable_s_hi"] or
+                               entry["below_threshold_s_lo"] != entry["below_threshold_s_hi"])
+            out[str(row["cause"])] = entry
     events = result.events if isinstance(result.events, pd.DataFrame) else pd.DataFrame()
     if len(events) and "cause" in events:
         for cause, part in events.groupby(events["cause"].astype(str)):
@@ -141,8 +148,18 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
     cautions: list[str] = []
     detail = f"{n_events} {noun}"
     if below > 0 or unav > 0:
-        detail += f" took the hop below threshold for {below:.0f} s ({unav:.0f} s unavailable"
-        detail += f", {100 * share:.0f} % of the hop's unavailable time)" if total_unav > 0 else ")"
+        if figures.get("bounds"):   # coarse logs: the accounting gives bounds, never one made-up number
+            b_lo, u_lo = figures.get("below_threshold_s_lo", below), figures.get("unavailable_s_lo", unav)
+            numbers.update({"below_threshold_s_lo": _num(b_lo), "below_threshold_s_hi": _num(below),
+                            "unavailable_s_lo": _num(u_lo), "unavailable_s_hi": _num(unav)})
+            numbers["below_threshold_s"] = numbers["unavailable_s"] = None
+            detail += (f" took the hop below threshold for {b_lo:.0f} to {below:.0f} s ({u_lo:.0f} to {unav:.0f} s "
+                       "unavailable; bounds from coarse statistics")
+            detail += (f", at most {100 * share:.0f} % of the hop's worst-case unavailable time)"
+                       if total_unav > 0 else ")")
+        else:
+            detail += f" took the hop below threshold for {below:.0f} s ({unav:.0f} s unavailable"
+            detail += f", {100 * share:.0f} % of the hop's unavailable time)" if total_unav > 0 else ")"
     else:
         detail += " without taking the hop below threshold"
     if cause == S.RAIN:
