@@ -644,11 +644,26 @@ def cross_polar(result) -> None:
             layers.append(alt.Chart(rule).mark_rule(color="#b2182b", strokeDash=[7, 4]).encode(
                 y="level:Q", tooltip=["what:N", "level:Q"]))
         st.altair_chart(alt.layer(*layers).properties(height=260).interactive(bind_y=False), width="stretch")
-    parts = [("Per channel", xp.get("xpd")), ("H/V comparison", xp.get("hv"))]
-    for title, part in parts:
-        if part:
-            st.markdown(f"##### {title}")
-            st.dataframe(views.key_figures(part, skip=("segments",)), hide_index=True, width="stretch")
+    per_channel = xp.get("xpd") or {}
+    chosen = channel if with_xpd else next(iter(per_channel), None)
+    figures = per_channel.get(chosen) or {}
+    if figures:
+        def number(key, unit):
+            value = figures.get(key)
+            return f"{value:.1f} {unit}" if isinstance(value, (int, float)) else "–"
+
+        st.markdown(f"##### Channel {chosen}")
+        c1, c2, c3, c4 = st.columns(4)
+        c1.metric("Clear-sky XPD", number("clear_xpd_db", "dB"))
+        c2.metric("Polarisation tilt", number("tilt_deg", "°"),
+                  help="feed rotation implied by the clear-sky XPD, with the antennas' own XPD assumed")
+        c3.metric("Co-polar loss from tilt", number("copolar_loss_db", "dB"))
+        required = result.link.xpd_required_db
+        c4.metric("Required XPD", "–" if required is None else f"{required:g} dB")
+        st.dataframe(views.key_figures(figures, skip=("segments",)), hide_index=True, width="stretch")
+    if xp.get("hv"):
+        st.markdown("##### H and V compared")
+        st.dataframe(views.key_figures(xp["hv"]), hide_index=True, width="stretch")
 
 
 def downloads(key: str, results) -> None:

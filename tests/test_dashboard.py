@@ -59,6 +59,12 @@ def test_demo_network_loads():
     labels = [b.label for b in at.download_button]
     for name in ("events.csv", "outage_summary.csv", "outage_by_cause.csv", "report.pdf"):
         assert name in labels
+    # every hop's views draw (all tabs render on each run); switching hop uses the cached analysis
+    for hop in at.selectbox(key="hop").options:
+        at.selectbox(key="hop").set_value(hop).run()
+        _no_failure(at)
+        assert [e.value for e in at.error] == []
+        assert any(m.value == f"### Hop {hop}" for m in at.markdown)
 
 
 def _upload(at: AppTest, log: tuple[str, bytes], links: bytes | None = None) -> AppTest:
