@@ -781,7 +781,8 @@ def main() -> None:
     if len(chosen_links) < len(hops):
         missing = [h for h in hops if h not in {link.link_id for link in chosen_links}]
         st.info(f"Analysis starts once every hop has its frequency, length and threshold (still missing: "
-                f"{', '.join(missing)}).")
+                f"{', '.join(missing)}). Several files of one hop that name no hop: give them one hop id under "
+                "“Correct the detection” below, or upload a links table.")
         st.markdown("#### What the reader found")
         input_check(reports, errors)
         return
