@@ -59,8 +59,9 @@ BLOCK_BYTES = 8 * 1024 * 1024
 SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
 SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
-ROW_REASONS = ("malformed_row", "bad_time", "dst_nonexistent", "dst_ambiguous", "time_out_of_range", "unknown_quantity",
+ROW_REASONS = ("malformed_row", "too_many_fields", "bad_time", "dst_nonexistent", "dst_ambiguous", "time_out_of_range", "unknown_quantity",
                "duplicate", "conflicting_duplicate")
+MAX_RAGGED_ROWS = 200_000   # rows with another field count than the header looked at again; more: malformed_row
 SNIFF_LINES = 400           # lines looked at to find separator and header
 HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
 MAX_LISTED = 200   # gaps / conflicts listed in the report (counts are always complete)
@@ -294,6 +295,9 @@ def _decode(head: bytes, complete: bool, label: str) -> tuple[str, str]:
     """(text, encoding) of the first bytes."""
     if not head.strip():
         raise InputError("empty file (no data)", path=label)
+    kind = _foreign_format(head)
+    if kind:
+        raise InputError(f"not a delimited text log ({kind}); export the log as CSV", path=label)
     if head.startswith(codecs.BOM_UTF8):
         try:
             return _decode_with(head[3:], "utf-8", complete, label), "utf-8-sig"
@@ -314,6 +318,26 @@ def _decode(head: bytes, complete: bool, label: str) -> tuple[str, str]:
         return _decode_with(head, "utf-8", complete, label), "utf-8"
     except UnicodeDecodeError:
         return head.decode("latin-1"), "latin-1"
+
+
+_SIGNATURES = ((b"PK\x03\x04", "a zip archive or a spreadsheet workbook such as XLSX"),
+               (b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1", "an old-style office document such as XLS"),
+               (b"%PDF", "a PDF document"), (b"\x89PNG", "an image"), (b"\xff\xd8\xff", "an image"),
+               (b"SQLite format 3", "an SQLite database"), (b"BZh", "bzip2 data"), (b"\xfd7zXZ", "xz data"),
+               (b"7z\xbc\xaf", "a 7z archive"))
+
+
+def _foreign_format(head: bytes) -> str | None:
+    """Name a well-known non-CSV format from the first bytes (None when it may be a delimited text)."""
+    for magic, kind in _SIGNATURES:
+        if head.startswith(magic):
+            return kind
+    text = head.lstrip(codecs.BOM_UTF8).lstrip()[:200]
+    if text[:1] in (b"{", b"[") and re.match(rb'^[\[{]\s*("|\{|\[|\]|\}|\d|-|true|false|null)', text):
+        return "looks like JSON"
+    if text[:1] == b"<" and re.match(rb"^<(\?xml|!doctype|html|[a-zA-Z][\w:.-]*[\s>/])", text, re.I):
+        return "looks like HTML or XML"
+    return None
 
 
 def _decode_with(data: bytes, enc: str, complete: bool, label: str) -> str:
@@ -392,6 +416,16 @@ def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
                 sc = _header_score(r)
                 if sc > best_score:
                     best_i, best_score = j, sc
+        if best_score <= 0:
+            # ragged files: the header may have another field count than most data rows
+            for j, (r, c) in enumerate(zip(split[:HEADER_SEARCH_LINES], counts)):
+                if c >= 2:
+                    sc = _header_score(r)
+                    if sc > best_score:
+                        best_i, best_score = j, sc
+            if best_score > 0:
+                hc = counts[best_i]
+                consistency = sum(1 for c in counts[best_i + 1:] if c == hc) / max(1, len(counts) - best_i - 1)
         candidates.append((best_score > 0, consistency >= 0.8, best_score, consistency, k,
                            -SEPARATORS.index(sep) if sep in SEPARATORS else 0, sep, best_i, split))
     if not candidates:
@@ -477,6 +511,26 @@ def _read_csv(src: _Source, *, tz: str | None, mapping: dict, link_id: str | Non
         return _read_rows(src, "latin-1", dialect, tz=tz, mapping=mapping, link_id=link_id)
 
 
+def _ragged_rows(texts: list[str], sep: str, ncols: int) -> tuple[list[list[str]], np.ndarray, int]:
+    """Rows with another field count: short rows padded (absent cells marked), longer rows with only empty extra
+    fields (trailing separators) trimmed, other longer rows counted.  -> (rows, absent mask, too_long count)."""
+    rows, absent, too_long = [], [], 0
+    for text in texts:
+        try:
+            fields = next(csv.reader([text], delimiter=sep, quotechar='"'))
+        except (csv.Error, StopIteration):
+            fields = [text]
+        if len(fields) > ncols:
+            if any(f.strip() for f in fields[ncols:]):
+                too_long += 1
+                continue
+            fields = fields[:ncols]
+        gone = [False] * len(fields) + [True] * (ncols - len(fields))
+        rows.append(fields + [""] * (ncols - len(fields)))
+        absent.append(gone)
+    return rows, np.array(absent, dtype=bool).reshape(len(rows), ncols), too_long
+
+
 class _RetryLatin1(Exception):
     pass
 
@@ -484,10 +538,15 @@ class _RetryLatin1(Exception):
 def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_id) -> ReadResult:
     header_line = dialect.header_index + 1
     names = dialect.names
-    bad_rows: list[int | None] = []
+    ragged: list[str] = []          # rows whose field count differs from the header's (kept for a second look)
+    unexamined = 0
 
     def on_invalid(row) -> str:
-        bad_rows.append(row.number)
+        nonlocal unexamined
+        if len(ragged) < MAX_RAGGED_ROWS:
+            ragged.append(row.text)
+        else:
+            unexamined += 1
         return "skip"
 
     pa_enc = {"utf-8-sig": "utf8", "utf-8": "utf8"}.get(enc, enc)
@@ -503,51 +562,70 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     keys = N.KeyIndex()
     chunks: list[N.RowBlock] = []
     rejected = dict.fromkeys(ROW_REASONS, 0)
-    first_bad_time: tuple[int, str] | None = None
+    first_bad_time: list = []
     plan: N.ColumnPlan | None = None
     rows_seen = 0
     lsec = N.section(mapping, "link")
+
+    def process(batch: pa.RecordBatch, absent: np.ndarray | None = None) -> None:
+        """Parse one block of string columns; ``absent`` marks cells a short row did not have."""
+        nonlocal plan, rows_seen
+        n = batch.num_rows
+        if n == 0:
+            return
+        if plan is None:
+            plan = N.plan_columns(batch, names, mapping, tz, src.label, header_line)
+        cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
+        ns, tcode = N.parse_times(cols, plan.time)
+        for code, reason in enumerate(N.TIME_REASONS, start=1):
+            rejected[reason] += int((tcode == code).sum())
+        if not first_bad_time and (tcode == 1).any():
+            i = int(np.flatnonzero(tcode == 1)[0])
+            first_bad_time.append((rows_seen + i, " | ".join(str(c[i].as_py())[:30] for c in cols)))
+        keep = tcode == 0
+        kb = batch.take(pa.array(np.flatnonzero(keep))) if not keep.all() else batch
+        m = kb.num_rows
+        getcol = lambda c: kb.column(kb.schema.get_field_index(c)) if c else None  # noqa: E731
+        key = keys.encode([getcol(plan.link_col), getcol(plan.channel_col), getcol(plan.qname_col)], m)
+        vals = np.empty((m, len(plan.values)), dtype=np.float64)
+        reas = np.empty((m, len(plan.values)), dtype=np.int8)
+        for j, vc in enumerate(plan.values):
+            vals[:, j], reas[:, j] = N.parse_values(getcol(vc.name), dialect.decimal)
+            if absent is not None:
+                gone = absent[keep, names.index(vc.name)]
+                reas[gone, j] = N.R_ABSENT
+                vals[gone, j] = np.nan
+        rownum = rows_seen + np.flatnonzero(keep).astype(np.int64)
+        if absent is not None:
+            rownum = np.full(m, -1, dtype=np.int64)   # re-read rows: their place in the file is not known
+        chunks.append(N.RowBlock(ns[keep], key, rownum, vals, reas))
+        rows_seen += n
+
     try:
         reader = pacsv.open_csv(_stream(src), read_options=read_opts, parse_options=parse_opts,
                                 convert_options=conv_opts)
         for batch in reader:
-            n = batch.num_rows
-            if n == 0:
-                continue
-            if plan is None:
-                plan = N.plan_columns(batch, names, mapping, tz, src.label, header_line)
-            cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
-            ns, tcode = N.parse_times(cols, plan.time)
-            for code, reason in enumerate(N.TIME_REASONS, start=1):
-                rejected[reason] += int((tcode == code).sum())
-            if first_bad_time is None and (tcode == 1).any():
-                i = int(np.flatnonzero(tcode == 1)[0])
-                first_bad_time = (rows_seen + i, " | ".join(str(c[i].as_py())[:30] for c in cols))
-            keep = tcode == 0
-            idx = pa.array(np.flatnonzero(keep))
-            kb = batch.take(idx) if not keep.all() else batch
-            m = kb.num_rows
-            getcol = lambda c: kb.column(kb.schema.get_field_index(c)) if c else None  # noqa: E731
-            key = keys.encode([getcol(plan.link_col), getcol(plan.channel_col), getcol(plan.qname_col)], m)
-            vals = np.empty((m, len(plan.values)), dtype=np.float64)
-            reas = np.empty((m, len(plan.values)), dtype=np.int8)
-            for j, vc in enumerate(plan.values):
-                vals[:, j], reas[:, j] = N.parse_values(getcol(vc.name), dialect.decimal)
-            rownum = rows_seen + np.flatnonzero(keep).astype(np.int64)
-            chunks.append(N.RowBlock(ns[keep], key, rownum, vals, reas))
-            rows_seen += n
+            process(batch)
+        if ragged:
+            short, absent, too_long = _ragged_rows(ragged, dialect.separator, len(names))
+            rejected["too_many_fields"] += too_long
+            if short:
+                process(pa.RecordBatch.from_arrays([pa.array(list(c), pa.string()) for c in zip(*short)],
+                                                   names=names), absent)
     except pa.ArrowInvalid as exc:
         msg = " ".join(str(exc).split())
         if "UTF8" in msg.upper() and pa_enc == "utf8":
             raise _RetryLatin1() from exc
+        if "straddling" in msg or "block size" in msg:
+            msg = f"a line is longer than {BLOCK_BYTES // 2**20} MiB"
         raise InputError(f"cannot parse as a delimited text log ({msg[:160]})", path=src.label) from exc
     except (pa.ArrowException, OSError, EOFError) as exc:
         msg = " ".join(str(exc).split())
         raise InputError(f"cannot read ({msg[:160]})", path=src.label) from exc
-    rejected["malformed_row"] = len(bad_rows)
-    rows_read = rows_seen + len(bad_rows)
+    rejected["malformed_row"] += unexamined
+    rows_read = rows_seen + rejected["too_many_fields"] + unexamined
     if plan is None:
-        if bad_rows:
+        if ragged or unexamined:
             raise InputError(f"no row matches the header's {len(names)} columns", path=src.label,
                              line=header_line)
         raise InputError("no data rows after the header", path=src.label, line=header_line)
@@ -561,7 +639,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
                    "zone": plan.time.tz or ("offset in the stamps" if plan.time.has_offset else "UTC"),
                    "marks": "end" if plan.time.marks_end else "start"}
     if rows_seen and rejected["bad_time"] == rows_seen:
-        line, val = first_bad_time
+        line, val = first_bad_time[0]
         raise InputError(f"no row has a readable time in {list(plan.time.columns)} (first value '{val}'); give "
                          f"--time-format", path=src.label, line=header_line + 1 + line)
     # default link id
@@ -580,9 +658,10 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     report.rejected = {k: v for k, v in rejected.items() if v}
     report.rows_kept = rows_read - sum(report.rejected.values())
     _summarise(table, report)
-    if bad_rows:
-        report.warnings.append(f"{len(bad_rows)} rows with the wrong number of fields were skipped "
-                               f"(counted as malformed_row)")
+    if ragged or unexamined:
+        report.warnings.append(f"{len(ragged) + unexamined} rows had another number of fields than the header: "
+                               f"short rows kept (absent cells missing), {rejected['too_many_fields']} longer rows "
+                               f"rejected (too_many_fields), {unexamined} not examined (malformed_row)")
     if rejected["dst_nonexistent"] or rejected["dst_ambiguous"]:
         report.warnings.append(f"local times at daylight-saving changes not converted: "
                                f"{rejected['dst_nonexistent']} non-existent, {rejected['dst_ambiguous']} ambiguous "

@@ -1062,7 +1062,8 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
                                    f"[signals] in a mapping file)")
             ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
     # out-of-order rows (file order, per key)
-    fo = np.argsort(key, kind="stable")
+    placed = rownum >= 0     # rows re-read after a field-count mismatch have no known place (rownum -1)
+    fo = np.flatnonzero(placed)[np.argsort(key[placed], kind="stable")]
     same = key[fo][1:] == key[fo][:-1]
     report.out_of_order_rows = int((same & (np.diff(ns[fo]) < 0)).sum())
     if report.out_of_order_rows:
@@ -1088,7 +1089,8 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             report.conflicts.append({
                 "time_utc": pd.Timestamp(int(ns[i]), tz="UTC").isoformat(),
                 "key": "/".join(x for x in keys.tuples[key[i]] if x) or default_link,
-                "kept_line": int(header_line + 1 + rownum[g]), "dropped_line": int(header_line + 1 + rownum[i]),
+                "kept_line": int(header_line + 1 + rownum[g]) if rownum[g] >= 0 else None,
+                "dropped_line": int(header_line + 1 + rownum[i]) if rownum[i] >= 0 else None,
                 "kept": [None if np.isnan(x) else float(x) for x in vals[g]],
                 "dropped": [None if np.isnan(x) else float(x) for x in vals[i]]})
         if report.conflicting_duplicates:

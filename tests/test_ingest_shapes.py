@@ -157,10 +157,15 @@ CASES = [
                            b"2026-12-01T10:00:01Z,-45.6,-47.3\n"), {}, WIDE_HV, 2, 2, {}, {}),
     ("trailing_separator", b"Time;RSL H (dBm);RSL V (dBm)\n2026-12-01T10:00:00Z;-45,5;-47,25;\n"
                            b"2026-12-01T10:00:01Z;-45,6;-47,3;\n", {}, WIDE_HV, 2, 2, {}, {}),
-    ("malformed_and_bad_time", b"Time,RSL H (dBm),RSL V (dBm)\n2026-12-01T10:00:00Z,-45.5,-47.25\n"
-                               b"2026-12-01T10:00:01Z,-45.6,-47.3,7,8\nnot a time,-1,-2\n"
-                               b"2026-12-01T10:00:01Z,-45.6,-47.3\n", {}, WIDE_HV, 4, 2,
-     {"malformed_row": 1, "bad_time": 1}, {}),
+    ("too_long_and_bad_time", b"Time,RSL H (dBm),RSL V (dBm)\n2026-12-01T10:00:00Z,-45.5,-47.25\n"
+                              b"2026-12-01T10:00:01Z,-45.6,-47.3,7,8\nnot a time,-1,-2\n"
+                              b"2026-12-01T10:00:01Z,-45.6,-47.3\n", {}, WIDE_HV, 4, 2,
+     {"too_many_fields": 1, "bad_time": 1}, {}),
+    # rows shorter than the header are kept: the absent cells are missing values (reason absent_field)
+    ("ragged_rows", b"time,rsl_h_dbm,rsl_v_dbm\n2026-12-01T10:00:00Z,-45.5,-47.25,,\n2026-12-01T10:00:01Z,-45.6\n"
+                    b"2026-12-01T10:00:02Z,-45,-46,1,2\n", {},
+     [R(T0, "h", -45.5), R(T1, "h", -45.6), R(T0, "v", -47.25), R(T1, "v", None, "missing")], 3, 2,
+     {"too_many_fields": 1}, {"values.reasons": {"absent_field": 1}, "out_of_order_rows": 0}),
     ("utf16_bom", "Time\tRSL H (dBm)\tRSL V (dBm)\n2026-12-01T10:00:00Z\t-45.5\t-47.25\n"
                   "2026-12-01T10:00:01Z\t-45.6\t-47.3\n".encode("utf-16"), {}, WIDE_HV, 2, 2, {},
      {"encoding": "utf-16"}),
