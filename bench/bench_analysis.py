@@ -45,22 +45,29 @@ def main(argv=None) -> int:
         path = Path(tmp) / "BENCH-WEEK.csv.gz"
         write_log(sim.table, path, "wide_iso")
         size_mb = path.stat().st_size / 1e6
-        read_s, analyse_s = [], []
+        read_s, analyse_s, read_cpu, analyse_cpu = [], [], [], []
         for _ in range(max(1, args.repeat)):
-            t0 = time.perf_counter()
+            t0, c0 = time.perf_counter(), time.process_time()
             table = read_log(path).table
             read_s.append(time.perf_counter() - t0)
-            t0 = time.perf_counter()
+            read_cpu.append(time.process_time() - c0)
+            t0, c0 = time.perf_counter(), time.process_time()
             result = analyze_link(table, sim.link)
             analyse_s.append(time.perf_counter() - t0)
+            analyse_cpu.append(time.process_time() - c0)
     rows = int((table["quantity"] == "rsl_dbm").sum())
     best_read, best_an = min(read_s), min(analyse_s)
     print(f"one link-week at 1 s, {len(result.series)} channels, {rows} RSL samples, file {size_mb:.1f} MB (gzip CSV)")
-    print(f"{'step':<34}{'best s':>10}{'runs':>28}")
-    print(f"{'read_log (file -> table)':<34}{best_read:>10.2f}{'  '.join(f'{x:.2f}' for x in read_s):>28}")
-    print(f"{'analyze_link (table -> result)':<34}{best_an:>10.2f}{'  '.join(f'{x:.2f}' for x in analyse_s):>28}")
-    print(f"analysis / read = {best_an / best_read:.2f}; analysis target < 2 s: "
-          f"{'met' if best_an < 2.0 else 'NOT met'} ({len(result.events)} events)")
+    print(f"{'step':<34}{'best wall s':>12}{'best CPU s':>12}{'wall s of each run':>28}")
+    print(f"{'read_log (file -> table)':<34}{best_read:>12.2f}{min(read_cpu):>12.2f}"
+          f"{'  '.join(f'{x:.2f}' for x in read_s):>28}")
+    print(f"{'analyze_link (table -> result)':<34}{best_an:>12.2f}{min(analyse_cpu):>12.2f}"
+          f"{'  '.join(f'{x:.2f}' for x in analyse_s):>28}")
+    print("(CPU s = this process's CPU time: on a shared, loaded machine it is closer to the unloaded wall time)")
+    cpu_an, cpu_read = min(analyse_cpu), min(read_cpu)
+    print(f"analysis / read = {best_an / best_read:.2f} (wall), {cpu_an / cpu_read:.2f} (CPU); "
+          f"analysis target < 2 s: {'met' if best_an < 2.0 else 'not met'} on wall time, "
+          f"{'met' if cpu_an < 2.0 else 'not met'} on CPU time ({len(result.events)} events)")
     return 0
 
 
