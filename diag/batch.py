@@ -431,6 +431,15 @@ def _cause_colours() -> tuple[dict[str, str], dict[str, str]]:
             dict(labels) if isinstance(labels, dict) else {})
 
 
+def _short(text: str, width: int) -> str:
+    """Shorten in the middle so hop ids that differ only at the end stay distinct."""
+    text = str(text)
+    if len(text) <= width:
+        return text
+    head = (width - 2) // 2
+    return f"{text[:head]}..{text[-(width - 2 - head):]}"
+
+
 def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
     """One A4-landscape PDF page: outage minutes by cause for the worst hops, the ranking, and failed hops."""
     import matplotlib
@@ -447,41 +456,44 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     fig.text(0.04, 0.955, "Network outage ranking", fontsize=16, weight="bold")
     fig.text(0.04, 0.925, f"{len(ranking)} hops: {int((ranking['error'] == '').sum())} analysed, {len(failed)} "
              "could not be analysed.  Outage = unavailable time (ITU-T G.826 sense), by cause.", fontsize=9)
-    ax = fig.add_axes((0.17, 0.42, 0.50, 0.47))
+    ax = fig.add_axes((0.17, 0.57, 0.79, 0.31))
     labels = list(ok["link_id"])[::-1]
+    shown = [f"{_short(h, 30)} " for h in labels]
     left = np.zeros(len(labels))
     for cause in schema.CAUSES:
         minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
                                              cause)[1] for h in labels])
         if labels and minutes.sum() > 0:
-            ax.barh(labels, minutes, left=left, color=colours.get(cause, "#888888"), label=names.get(cause, cause))
+            ax.barh(range(len(labels)), minutes, left=left, color=colours.get(cause, "#888888"), label=names.get(cause, cause))
             left += minutes
+    ax.set_yticks(range(len(labels)), shown)
+    ax.set_ylim(-0.6, max(len(labels), 1) - 0.4)
     ax.set_xlabel("outage [min] (upper bound where the log gives bounds)")
     ax.set_title(f"Worst {len(labels)} hops", fontsize=10, loc="left")
-    ax.tick_params(axis="y", labelsize=7)
+    ax.tick_params(axis="y", labelsize=6 if len(labels) > 12 else 7)
     if left.sum() > 0:
         ax.legend(fontsize=7, loc="lower right")
     else:
         ax.text(0.5, 0.5, "no outage on any analysed hop", transform=ax.transAxes, ha="center", fontsize=9)
-    lines = ["rank  hop                     outage min       avail. %   objective  main cause"]
+    lines = ["rank  hop                         outage min       avail. %   objective  main cause"]
     for row in ok.itertuples():
         minutes = f"{row.outage_min_hi:.1f}" if row.exact else f"{row.outage_min_lo:.0f}-{row.outage_min_hi:.0f}"
         avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if row.exact
                  else f">={row.availability_pct_lo:.3f}")
         met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
-        lines.append(f"{int(row.rank):>4}  {str(row.link_id)[:22]:<22}  {minutes:>12}  {avail:>12}  "
+        lines.append(f"{int(row.rank):>4}  {_short(row.link_id, 26):<26}  {minutes:>12}  {avail:>12}  "
                      f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
     if len(ok) and not ok["exact"].all():
         lines.append("a-b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper bound")
-    fig.text(0.70, 0.89, "\n".join(lines[:top + 1]), fontsize=6.2, family="monospace", va="top")
+    fig.text(0.04, 0.50, "\n".join(lines), fontsize=6.5, family="monospace", va="top")
     if len(failed):
-        text = ["Hops not analysed (fix and rerun):"] + [f"  {str(r.link_id)[:24]}: {str(r.error)[:150]}"
-                                                      for r in failed.head(12).itertuples()]
-        if len(failed) > 12:
-            text.append(f"  ... and {len(failed) - 12} more (network_ranking.csv)")
-        fig.text(0.04, 0.33, "\n".join(text), fontsize=7, family="monospace", va="top", color="#a02020")
-    fig.text(0.04, 0.03, "Per-hop reports: hops/<hop>/report.pdf.  Advice that involves work on towers or near "
-             "radiating antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
+        text = ["Hops not analysed (fix and rerun):"] + [f"  {_short(r.link_id, 26)}: {_short(r.error, 140)}"
+                                                      for r in failed.head(8).itertuples()]
+        if len(failed) > 8:
+            text.append(f"  ... and {len(failed) - 8} more (network_ranking.csv)")
+        fig.text(0.04, 0.19, "\n".join(text), fontsize=6.5, family="monospace", va="top", color="#a02020")
+    fig.text(0.04, 0.03, "Per-hop outputs: hops/<hop>/.  Advice that involves work on towers or near radiating "
+             "antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
     path = Path(path)
     with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
         pdf.savefig(fig)
@@ -503,6 +515,27 @@ def _open_client(workers: int | None, scheduler: str | None, connect_timeout_s: 
     cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=":0",
                            silence_logs=logging.ERROR)
     return Client(cluster), cluster
+
+
+class _quiet_dask:
+    """Dask's own start/stop chatter (INFO/WARNING lines such as "Worker process still alive ... killing" while a
+    busy local cluster shuts down) is kept off the user's terminal unless ``diag``'s logging is at DEBUG."""
+
+    def __enter__(self):
+        import distributed  # noqa: F401  (creates its loggers)
+
+        self._saved = {}
+        if not log.isEnabledFor(logging.DEBUG):
+            names = ["distributed"] + [n for n in logging.root.manager.loggerDict if n.startswith("distributed.")]
+            for name in names:
+                logger = logging.getLogger(name)
+                self._saved[name] = logger.level
+                logger.setLevel(logging.ERROR)
+        return self
+
+    def __exit__(self, *exc):
+        for name, level in self._saved.items():
+            logging.getLogger(name).setLevel(level)
 
 
 def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
@@ -555,16 +588,17 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         writer = write_tables
     own = client is None
     cluster = None
-    if own:
-        client, cluster = _open_client(workers, scheduler, connect_timeout_s)
-    try:
-        return _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader,
-                    progress, keep_series)
-    finally:
+    with _quiet_dask():
         if own:
-            client.close()
-            if cluster is not None:
-                cluster.close()
+            client, cluster = _open_client(workers, scheduler, connect_timeout_s)
+        try:
+            return _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader,
+                        progress, keep_series)
+        finally:
+            if own:
+                client.close()
+                if cluster is not None:
+                    cluster.close()
 
 
 def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,

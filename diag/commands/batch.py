@@ -61,7 +61,7 @@ def main(args: argparse.Namespace) -> int:
     print(f"{len(ok)} hops analysed, {len(failed)} not; ranking: {args.out}/network_ranking.csv, "
           f"page: {args.out}/network_report.pdf, per hop: {args.out}/hops/")
     for row in ok.head(10).itertuples():
-        minutes = (f"{row.outage_min_hi:.1f}" if row.exact
+        minutes = (f"{row.outage_min_hi:.1f}" if row.exact or row.outage_min_lo == row.outage_min_hi
                    else f"{row.outage_min_lo:.1f} to {row.outage_min_hi:.1f}")
         print(f"{int(row.rank):>4}  {row.link_id}  outage {minutes} min  main cause {row.main_cause or '-'}")
     for row in failed.itertuples():
