@@ -426,6 +426,108 @@ def _figures(m: _Masks, consecutive_s: int) -> dict:
     }
 
 
+# --- interval statistics on one aligned grid: the same figures counted per interval ---------------------------
+# With every channel's intervals on one grid of dt >= 10 s, each interval is either wholly certain, wholly possible or
+# clear in the per-second masks above, so the G.826 rule reduces to interval arithmetic: certain intervals are
+# unavailable (lower bound); runs of possible intervals are unavailable unless the run cannot hold ten below-threshold
+# seconds, at most min(dt, 10k + 9) s per interval (upper bound).  tests/test_outage.py checks both ways agree.
+
+def _aligned_stats_interval(series: list[ChannelSeries], t0: pd.Timestamp, n: int, consecutive_s: int) -> int | None:
+    if any(s.kind != "stats" for s in series):
+        return None
+    dts = {float(s.interval_s) for s in series}
+    if len(dts) != 1:
+        return None
+    dt = int(round(dts.pop()))
+    if dt < consecutive_s or abs(series[0].interval_s - dt) > 1e-9 or n % dt:
+        return None
+    for s in series:
+        if (_offsets(s.frame, t0) % dt).any():
+            return None
+    return dt
+
+
+def _stats_units(series: ChannelSeries, t0: pd.Timestamp, nu: int, dt: int, threshold_dbm: float,
+                 average: str) -> dict:
+    frame = series.frame
+    off = _offsets(frame, t0) // dt
+    ok, lost = _status_flags(frame)
+    observed = ok | lost
+    nan = np.full(len(frame), np.nan)
+    mn = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_min_dbm" in frame else nan
+    mx = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_max_dbm" in frame else nan
+    av = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    mn = np.where(lost & np.isnan(mn), -np.inf, mn)
+    mx = np.where(lost & np.isnan(mx), -np.inf, mx)
+    k_lo, k_hi = stats_interval_bounds(mn, av, mx, threshold_dbm, dt, average=average)
+    codes = _cause_codes(frame)
+    sel = observed & (off >= 0) & (off < nu)
+    out = {"obs": np.zeros(nu, dtype=bool), "lo": np.zeros(nu, dtype=np.int64), "hi": np.zeros(nu, dtype=np.int64),
+           "cause": np.full(nu, _UNKNOWN, dtype=np.int8)}
+    out["obs"][off[sel]] = True
+    out["lo"][off[sel]] = k_lo[sel]
+    out["hi"][off[sel]] = k_hi[sel]
+    out["cause"][off[sel]] = codes[sel]
+    return out
+
+
+def _combine_units(units: list[dict], dt: int) -> dict:
+    """Hop level per interval: observed if any channel is; at least the largest channel lower count; at most the sum
+    of the upper counts (capped at dt); the cause of the first channel that may be below, else any known one."""
+    out = {"obs": units[0]["obs"].copy(), "lo": units[0]["lo"].copy(), "hi": units[0]["hi"].copy(),
+           "cause": units[0]["cause"].copy()}
+    for u in units[1:]:
+        take = (u["hi"] > 0) & (out["hi"] == 0) | ((out["cause"] == _UNKNOWN) & (u["cause"] != _UNKNOWN))
+        out["cause"][take] = u["cause"][take]
+        out["obs"] |= u["obs"]
+        out["lo"] = np.maximum(out["lo"], u["lo"])
+        out["hi"] = np.minimum(out["hi"] + u["hi"], dt)
+    return out
+
+
+def _weighted_period_causes(counts: np.ndarray, cause: np.ndarray) -> np.ndarray:
+    """Per interval cause for unavailable time: unknown ones take the dominant cause (by seconds) of their run."""
+    out = cause.copy()
+    for start, end in g826.unavailable_periods(counts > 0):
+        seg = out[start:end]
+        unknown = seg == _UNKNOWN
+        if unknown.any() and not unknown.all():
+            weights = np.bincount(seg[~unknown], weights=counts[start:end][~unknown], minlength=len(CAUSES))
+            seg[unknown] = int(np.argmax(weights))
+    return out
+
+
+def _unit_figures(u: dict, dt: int, consecutive_s: int, method: str) -> dict:
+    obs, lo, hi, cause = u["obs"], np.where(u["obs"], u["lo"], 0), np.where(u["obs"], u["hi"], 0), u["cause"]
+    certain = obs & (lo >= dt)
+    possible = obs & (hi > 0)
+    # clusters: runs of possible intervals (a clear or missing interval of dt >= 10 s separates them)
+    edges = np.diff(np.concatenate(([0], possible.astype(np.int8), [0])))
+    starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+    keep = np.zeros(obs.size, dtype=bool)
+    csum = np.concatenate(([0], np.cumsum(hi)))
+    for a, b in zip(starts, ends):
+        if csum[b] - csum[a] >= consecutive_s:
+            keep[a:b] = True
+    u_lo = np.where(certain, dt, 0)
+    u_hi = np.where(keep, np.minimum(dt, hi + (consecutive_s - 1) * (hi + 1)), 0)
+    below_lo, below_hi = int(lo.sum()), int(hi.sum())
+    unav_lo, unav_hi = int(u_lo.sum()), int(u_hi.sum())
+    ses_av_lo = max(0, below_lo - min(unav_hi, below_hi))
+    ses_av_hi = max(ses_av_lo, below_hi - unav_lo)
+    by = lambda w, c: np.bincount(c.astype(np.int64), weights=w, minlength=len(CAUSES)).astype(np.int64)  # noqa
+    return {
+        "observed_s": int(obs.sum()) * dt,
+        "below_lo": below_lo, "below_hi": below_hi, "unav_lo": unav_lo, "unav_hi": unav_hi,
+        "ses_av_lo": int(ses_av_lo), "ses_av_hi": int(ses_av_hi),
+        "cause_below_lo": by(lo, cause), "cause_below_hi": by(hi, cause),
+        "cause_unav_lo": by(u_lo, _weighted_period_causes(u_lo, cause)),
+        "cause_unav_hi": by(u_hi, _weighted_period_causes(u_hi, cause)),
+        "unavailable_periods": int(len(g826.unavailable_periods(u_lo > 0))),
+        "exact": False, "method": method,
+    }
+
+
 def _iso(ts: pd.Timestamp) -> str:
     return ts.tz_convert("UTC").strftime("%Y-%m-%dT%H:%M:%SZ")
 
@@ -507,7 +609,7 @@ def _counters(series: ChannelSeries, f: dict) -> dict | None:
 
 
 def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
-                 stats_average: str = "either") -> OutageResult:
+                 stats_average: str = "either", _force_seconds: bool = False) -> OutageResult:
     """Outage accounting of one hop over the analysed period (see the module docstring for the rules).
 
     Returns an ``OutageResult`` whose ``summary`` has ``schema.OUTAGE_SUMMARY_COLUMNS`` first, then the bounds
@@ -534,22 +636,31 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
     t0 = min(s.frame.index[0] for s in series).floor("s")
     t1 = max(s.frame.index[-1] + pd.Timedelta(seconds=float(s.interval_s)) for s in series).ceil("s")
     n = int(round((t1 - t0) / pd.Timedelta(seconds=1)))
-    rotation: dict[int, int] = {}
-    masks = [_channel_masks(s, t0, n, threshold, rotation, stats_average) for s in series]
+    dt = None if _force_seconds else _aligned_stats_interval(series, t0, n, consecutive_s)
+    if dt is not None:   # interval statistics on one grid: count per interval (same figures, far less memory)
+        units = [_stats_units(s, t0, n // dt, dt, threshold, stats_average) for s in series]
+        channel_figures = [_unit_figures(u, dt, consecutive_s, METHOD_STATS.format(dt=dt,
+                                                                                   avg=_AVG_TEXT[stats_average]))
+                           for u in units]
+        f = _unit_figures(_combine_units(units, dt), dt, consecutive_s, channel_figures[0]["method"])
+        kinds = [("stats", float(dt))] * len(series)
+    else:
+        rotation: dict[int, int] = {}
+        masks = [_channel_masks(s, t0, n, threshold, rotation, stats_average) for s in series]
+        channel_figures = [_figures(m, consecutive_s) for m in masks]
+        f = _figures(_combine(masks), consecutive_s)
+        kinds = [(m.kind, m.interval_s) for m in masks]
 
     per_channel_rows = []
     counters: dict[str, dict] = {}
-    for s, m in zip(series, masks):
-        fc = _figures(m, consecutive_s)
+    for s, fc, (kind, interval_s) in zip(series, channel_figures, kinds):
         row = _row(link.link_id, t0, t1, n, fc, objective)
-        row = {"channel": s.channel, **row, "interval_s": m.interval_s, "kind": m.kind}
+        row = {"channel": s.channel, **row, "interval_s": interval_s, "kind": kind}
         found = _counters(s, fc)
         if found:
             counters[s.channel] = found
             row.update({f"counter_{k}": v for k, v in found.items() if k != "logged"})
         per_channel_rows.append(row)
-    link_masks = _combine(masks)
-    f = _figures(link_masks, consecutive_s)
     summary = _row(link.link_id, t0, t1, n, f, objective)
     summary["channels"] = [s.channel for s in series]
     summary["threshold_dbm"] = threshold

@@ -401,3 +401,41 @@ def test_pipeline_end_to_end_per_cause_within_2_percent_of_truth(sim_1s):
         measured = bc.loc[cause, "unavailable_s"]
         assert abs(measured - true_s) <= 0.02 * true_s + 2, (cause, measured, true_s)
     check_adds_up(result.outage)
+
+
+def _stats_frame(rows, start=T0, dt=900):
+    index = pd.date_range(start, periods=len(rows), freq=f"{dt}s", name="time_utc")
+    status, lo, mid, hi, cause = zip(*rows)
+    mn = -70.0 + np.array(lo)
+    mx = mn + np.array(hi)
+    av = mn + np.array(mid) * (mx - mn)
+    status = np.array(status, dtype=object)
+    return pd.DataFrame({"rsl_dbm": np.where(status == "ok", av, np.nan),
+                         "rsl_min_dbm": np.where(status == "ok", mn, np.nan),
+                         "rsl_max_dbm": np.where(status == "no_data", np.nan, mx), "status": status,
+                         "event_id": -1, "cause": list(cause)}, index=index)
+
+
+_STATS_ROW = st.tuples(st.sampled_from(["ok", "ok", "ok", "ok", "signal_lost", "missing", "no_data"]),
+                       st.floats(-25, 15), st.floats(0, 1), st.floats(0, 30),
+                       st.sampled_from(["", "rain", "rain", "multipath", "signal_loss"]))
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.lists(_STATS_ROW, min_size=1, max_size=16), st.booleans(), st.data())
+def test_interval_arithmetic_matches_the_per_second_masks(rows, two_channels, data):
+    # the fast path for aligned interval statistics must give exactly the per-second path's figures
+    chans = [ChannelSeries("L1", "H", 900.0, "stats", _stats_frame(rows))]
+    if two_channels:
+        other = data.draw(st.lists(_STATS_ROW, min_size=len(rows), max_size=len(rows)))
+        other = [(s, a, b, c, cause) for (s, a, b, c, _), (*_, cause) in zip(other, rows)]   # same causes
+        chans.append(ChannelSeries("L1", "V", 900.0, "stats", _stats_frame(other)))
+    fast = outage.account_link(result_for(chans))
+    slow = outage.account_link(result_for(chans), _force_seconds=True)
+    keys = [k for k in slow.summary if k.endswith(("_lo", "_hi")) or k in ("observed_s", "no_data_s",
+                                                                            "unavailable_periods")]
+    same = lambda a, b: a == b or (isinstance(a, float) and isinstance(b, float) and np.isnan(a) and np.isnan(b))  # noqa
+    assert all(same(fast.summary[k], slow.summary[k]) for k in keys), \
+        {k: (fast.summary[k], slow.summary[k]) for k in keys if not same(fast.summary[k], slow.summary[k])}
+    pd.testing.assert_frame_equal(fast.by_cause, slow.by_cause)
+    check_adds_up(fast)
