@@ -15,6 +15,7 @@ import io
 import json
 import logging
 import os
+import re
 import threading
 import zipfile
 from collections import OrderedDict
@@ -32,7 +33,7 @@ LOG = logging.getLogger("diag.dashboard")
 ROOT = Path(__file__).resolve().parent
 DEMO_DIR = Path(os.environ.get("DIAG_DEMO_DIR") or ROOT / "demo_logs")
 LOG_SUFFIXES = (".csv", ".csv.gz", ".txt", ".tsv", ".gz")
-MAX_CACHED_ANALYSES = 6
+MAX_CACHED_ANALYSES = 4   # the demo network holds ~90 MB of results
 QUANTITY_CHOICES = ["rsl", "tsl", "xpd", "xpl", "es", "ses", "uas"]
 
 SAFETY_NOTE = ("Before any work on site: climbing and work near antennas is hazardous. Follow the local codes for "
@@ -163,8 +164,17 @@ def cause_legend(present: list[str]) -> alt.Legend:
     return alt.Legend(values=[views.cause_label(c) for c in present], title="cause", orient="bottom")
 
 
+_MD_SPECIAL = re.compile(r"([\\`*_\[\]<>|$~])")
+
+
+def md(text) -> str:
+    """Text from files or the library made safe for Streamlit's markdown: one line, markup characters escaped
+    (a hop id like ``**x**`` or ``[a](b)`` or ``$y$`` is shown as written, never rendered)."""
+    return _MD_SPECIAL.sub(r"\\\1", " ".join(str(text).split()))
+
+
 def show_input_error(exc: InputError, *, prefix: str = "") -> None:
-    st.error(f"{prefix}{exc.one_line()}", icon=":material/warning:")
+    st.error(f"{prefix}{md(exc.one_line())}", icon=":material/warning:")
 
 
 def fit_height(rows: int, most: int = 460) -> int:
@@ -240,7 +250,7 @@ def _make(hop: str, values: dict, *, show: bool) -> Link | None:
                                          ("threshold", "threshold_dbm")) if values.get(name) is None]
     if missing:
         if show:
-            st.info(f"Hop **{hop}**: enter the {', '.join(missing)} to analyse it.")
+            st.info(f"Hop **{md(hop)}**: enter the {', '.join(missing)} to analyse it.")
         return None
     try:
         return make_link({k: v for k, v in values.items() if k in ("link_id", "polarization", "frequency_ghz",
@@ -341,10 +351,10 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
 def input_check(reports: dict[str, dict], errors: dict[str, str], *, expanded_editor: bool = False) -> None:
     """What the reader detected in each file, the rows it kept or not, and the detection override."""
     for name, message in errors.items():
-        st.error(f"{name} was left out: {message}", icon=":material/warning:")
+        st.error(f"{md(name)} was left out: {md(message)}", icon=":material/warning:")
     for name, report in reports.items():
         with st.container(border=True):
-            st.markdown(f"**{name}**")
+            st.markdown(f"**{md(name)}**")
             left, right = st.columns([3, 2])
             summary = views.reader_summary(report)
             left.dataframe(summary, hide_index=True, width="stretch", height=fit_height(len(summary), 600))
@@ -354,10 +364,10 @@ def input_check(reports: dict[str, dict], errors: dict[str, str], *, expanded_ed
             if len(rejected):
                 right.dataframe(rejected, hide_index=True, width="stretch", height=fit_height(len(rejected), 250))
             for guess in report.get("guesses") or []:
-                st.info(f"Guessed: {guess}. To change it, use “Correct the detection” below.",
+                st.info(f"Guessed: {md(guess)}. To change it, use “Correct the detection” below.",
                         icon=":material/search:")
             for note in report.get("warnings") or []:
-                st.warning(str(note))
+                st.warning(md(note))
     unsure = bool(errors) or any(r.get("guesses") for r in reports.values())
     with st.expander("Correct the detection", expanded=expanded_editor or (unsure and bool(errors))):
         mapping_editor(reports, errors)
@@ -366,7 +376,7 @@ def input_check(reports: dict[str, dict], errors: dict[str, str], *, expanded_ed
 # --- result views -----------------------------------------------------------------------------------------------
 def overview(result, hop: dict) -> None:
     if hop["error"]:
-        st.error(f"Hop {hop['link_id']} could not be analysed: {hop['error']}")
+        st.error(f"Hop {md(hop['link_id'])} could not be analysed: {md(hop['error'])}")
         return
     exact = all(pair[0] == pair[1] for pair in (hop["availability_pct"], hop["unavailable_min"]))
     c1, c2, c3, c4 = st.columns(4) if exact else (*st.columns(2), *st.columns(2))
@@ -434,20 +444,20 @@ def overview(result, hop: dict) -> None:
         cautions: list[str] = []
         for item in findings:
             with st.container(border=True):
-                st.markdown(f"**{item['title']}**")
+                st.markdown(f"**{md(item['title'])}**")
                 if item["detail"]:
-                    st.markdown(item["detail"])
+                    st.markdown(md(item["detail"]))
                 for action in item["actions"]:
                     any_action = True
-                    st.markdown(f"- {action}")
+                    st.markdown(f"- {md(action)}")
             cautions += [c for c in item["cautions"] if c not in cautions]
         if any_action or cautions:
-            st.warning("**Before any work on site.** " + (" ".join(cautions) if cautions else SAFETY_NOTE),
+            st.warning("**Before any work on site.** " + (md(" ".join(cautions)) if cautions else SAFETY_NOTE),
                        icon=":material/warning:")
     if result.skipped:
         with st.expander(f"Checks skipped ({len(result.skipped)})"):
             for line in dict.fromkeys(result.skipped):
-                st.markdown(f"- {line}")
+                st.markdown(f"- {md(line)}")
 
 
 def level_timeline(result) -> None:
@@ -560,8 +570,8 @@ def event_list(result) -> None:
     rows = (picked.selection.rows if picked is not None and hasattr(picked, "selection") else []) or []
     if rows and rows[0] < len(table):
         row = table.iloc[rows[0]]
-        st.info(f"**{row['Cause']}** on {row['Channel']}, {row['Start (UTC)']:%Y-%m-%d %H:%M:%S} → "
-                f"{row['End (UTC)']:%H:%M:%S} UTC, peak {row['Peak fade dB']:.1f} dB: {row['Evidence']}")
+        st.info(f"**{md(row['Cause'])}** on {md(row['Channel'])}, {row['Start (UTC)']:%Y-%m-%d %H:%M:%S} → "
+                f"{row['End (UTC)']:%H:%M:%S} UTC, peak {row['Peak fade dB']:.1f} dB: {md(row['Evidence'])}")
 
 
 def fading_statistics(result) -> None:
@@ -592,7 +602,7 @@ def fading_statistics(result) -> None:
                      (stats.get("rain") or {}).get("note")]
             st.caption("Solid: measured; dashed: Rayleigh distribution; dotted: ITU-R P.530 design prediction.")
             for note in filter(None, notes):
-                st.caption(note)
+                st.caption(md(note))
         else:
             st.caption("No fade deep enough to draw an exceedance curve.")
     with right:
@@ -604,7 +614,7 @@ def fading_statistics(result) -> None:
                 continue
             st.markdown(f"**{title}**")
             if set(part) == {"skipped"}:
-                st.caption(f"not computed: {part['skipped']}")
+                st.caption(f"not computed: {md(part['skipped'])}")
             else:
                 st.dataframe(views.key_figures(part, skip=("note",)), hide_index=True, width="stretch")
     st.markdown("##### Fading by hour of day (UTC)")
@@ -652,7 +662,7 @@ def cross_polar(result) -> None:
             value = figures.get(key)
             return f"{value:.1f} {unit}" if isinstance(value, (int, float)) else "–"
 
-        st.markdown(f"##### Channel {chosen}")
+        st.markdown(f"##### Channel {md(chosen)}")
         c1, c2, c3, c4 = st.columns(4)
         c1.metric("Clear-sky XPD", number("clear_xpd_db", "dB"))
         c2.metric("Polarisation tilt", number("tilt_deg", "°"),
@@ -748,12 +758,12 @@ def main() -> None:
     good = tuple((n, b) for n, b in sources if n in reports)
     if not good:
         for name, message in errors.items():
-            st.error(f"{name} cannot be read: {message}", icon=":material/warning:")
+            st.error(f"{md(name)} cannot be read: {md(message)}", icon=":material/warning:")
         st.markdown("#### What the reader found")
         input_check({}, {}, expanded_editor=True)
         return
     for name, message in errors.items():
-        st.error(f"{name} cannot be read and is left out: {message}", icon=":material/warning:")
+        st.error(f"{md(name)} cannot be read and is left out: {md(message)}", icon=":material/warning:")
 
     # hops: one per link id the reader found, matched to the links table where one is given
     hops: dict[str, Link | None] = {}
@@ -781,7 +791,7 @@ def main() -> None:
     if len(chosen_links) < len(hops):
         missing = [h for h in hops if h not in {link.link_id for link in chosen_links}]
         st.info(f"Analysis starts once every hop has its frequency, length and threshold (still missing: "
-                f"{', '.join(missing)}). Several files of one hop that name no hop: give them one hop id under "
+                f"{md(', '.join(missing))}). Several files of one hop that name no hop: give them one hop id under "
                 "“Correct the detection” below, or upload a links table.")
         st.markdown("#### What the reader found")
         input_check(reports, errors)
@@ -817,7 +827,7 @@ def main() -> None:
     result = by_id[hop_id]
     hop = views.hop_overview(result)
     link = result.link
-    st.markdown(f"### Hop {hop_id}")
+    st.markdown(f"### Hop {md(hop_id)}")
     st.caption(f"{link.frequency_ghz:g} GHz · {link.length_km:g} km · polarisation {link.polarization} · "
                f"threshold {link.threshold_dbm:g} dBm · {hop['events']} fade events")
     tabs = st.tabs(["Overview", "Level timeline", "Fade events", "Fading statistics", "Cross-polar",
@@ -841,7 +851,7 @@ def main() -> None:
 try:
     main()
 except InputError as _exc:  # bad input that slipped past the page's own checks: still one line
-    st.error(_exc.one_line(), icon=":material/warning:")
+    st.error(md(_exc.one_line()), icon=":material/warning:")
 except Exception as _exc:  # a bug: one line in the page, the traceback only in the server log
     LOG.exception("dashboard failed")
-    st.error(f"Internal error ({type(_exc).__name__}): {' '.join(str(_exc).split())[:300]}", icon=":material/error:")
+    st.error(f"Internal error ({type(_exc).__name__}): {md(str(_exc)[:300])}", icon=":material/error:")
