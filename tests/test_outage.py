@@ -439,3 +439,23 @@ def test_interval_arithmetic_matches_the_per_second_masks(rows, two_channels, da
         {k: (fast.summary[k], slow.summary[k]) for k in keys if not same(fast.summary[k], slow.summary[k])}
     pd.testing.assert_frame_equal(fast.by_cause, slow.by_cause)
     check_adds_up(fast)
+
+
+def test_radio_counters_from_15min_log_fall_inside_the_bounds(sim_1s):
+    # SIMULATOR's statistics logs can carry the radio's SES/UAS counters, computed per interval from the 1-s levels
+    # with the same G.826 rule (a stand-in for a real radio): through the whole analysis they must lie inside the
+    # level-based bounds that the 15-min min/avg/max statistics allow
+    pipeline = pytest.importorskip("diag.pipeline")
+    sr = sim_1s
+    try:
+        agg = sim.aggregate_statistics(sr.table, interval_s=900, floor_dbm=sr.spec.floor_value_dbm,
+                                       threshold_dbm=sr.spec.threshold_dbm)
+    except TypeError:
+        pytest.skip("this diag.simulate has no interval counters")
+    result = pipeline.analyze_link(agg, sr.link)
+    counters = result.outage.summary["radio_counters"]
+    assert set(counters) == {"H", "V"}
+    for channel, c in counters.items():
+        assert c["uas_count_within_bounds"] and c["ses_count_within_bounds"], (channel, c)
+        assert c["level_based_uas_count_lo"] <= c["radio_uas_count"] <= c["level_based_uas_count_hi"]
+    assert any("counters" in note for note in result.outage.notes)
