@@ -641,6 +641,25 @@ def build_table(parts: list) -> pd.DataFrame:
     return pd.DataFrame(cols, columns=S.COLUMNS)
 
 
+FLOOR_RUN = 3   # consecutive rows within FLOOR_BAND_DB of the floor that make a floor plateau
+
+
+def _floor_mask(v: np.ndarray, floor_dbm: float) -> np.ndarray:
+    """Readings at the floor, plus runs of >= FLOOR_RUN consecutive rows within FLOOR_BAND_DB above it (a receiver
+    sitting just above its nominal floor, e.g. -102 next to a -103 dBm floor; common practice)."""
+    at = np.abs(v - floor_dbm) < 1e-6
+    band = v <= floor_dbm + FLOOR_BAND_DB + 1e-9
+    if band.any():
+        d = np.diff(np.concatenate(([0], band.astype(np.int8), [0])))
+        starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
+        long_runs = (ends - starts) >= FLOOR_RUN
+        cover = np.zeros(len(v) + 1, dtype=np.int32)
+        np.add.at(cover, starts[long_runs], 1)
+        np.add.at(cover, ends[long_runs], -1)
+        at |= np.cumsum(cover[:-1]) > 0
+    return at
+
+
 def detect_floor(series_values: list[np.ndarray], series_order: list[np.ndarray]) -> tuple[float | None, str]:
     """Receiver floor of one level quantity: the minimum reading when it sits at or below FLOOR_MAX_DBM and is
     either a known floor value or held for at least 3 consecutive rows (a plateau at the minimum; common practice).
@@ -1148,11 +1167,10 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             fl, how = detect_floor([sr[6] for sr in group], [])
             if fl is None:
                 continue
-            band = fl + FLOOR_BAND_DB + 1e-9
-            mask_fn = lambda v: v <= band  # noqa: E731
-            report.guesses.append(f"{q}: readings at {fl:g} dBm (and up to {FLOOR_BAND_DB:g} dB above) taken as the "
-                                  f"receiver floor (signal lost): {how}; override with --floor-dbm VALUE or "
-                                  f"--floor-dbm none")
+            mask_fn = functools.partial(_floor_mask, floor_dbm=fl)
+            report.guesses.append(f"{q}: readings at {fl:g} dBm (and runs of >= {FLOOR_RUN} rows within "
+                                  f"{FLOOR_BAND_DB:g} dB above it) taken as the receiver floor (signal lost): {how}; "
+                                  f"override with --floor-dbm VALUE or --floor-dbm none")
         n_floor = 0
         for sr in group:
             at = (sr[7] == R_NONE) & mask_fn(sr[6])

@@ -181,12 +181,15 @@ CASES = [
     # levels written as positive dB below 1 mW (no dBm in the name): negated, said in the guesses
     ("positive_levels", b"Time,rx level\n2026-12-01T10:00:00Z,45\n2026-12-01T10:00:01Z,46\n2026-12-01T10:00:02Z,47\n",
      {}, [R(T0, "main", -45.0), R(T1, "main", -46.0), R(T2, "main", -47.0)], 3, 3, {}, {}),
-    # a floor at -103 dBm with readings hovering 1 dB above it (-102): both are floor readings
+    # a floor at -103 dBm with readings sitting 1 dB above it (-102, three rows running): floor readings too; a lone
+    # -102.5 between ordinary readings is a reading
     ("floor_band", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-60\n2026-12-01T10:00:01Z,-103\n2026-12-01T10:00:02Z,-102\n"
-                   b"2026-12-01T10:00:03Z,-102\n2026-12-01T10:00:04Z,-101.5\n", {},
+                   b"2026-12-01T10:00:03Z,-102\n2026-12-01T10:00:04Z,-101.5\n2026-12-01T10:00:05Z,-102.5\n"
+                   b"2026-12-01T10:00:06Z,-90\n", {},
      [R(T0, "main", -60.0), R(T1, "main", None, "signal_lost"), R(T2, "main", None, "signal_lost"),
-      R("2026-12-01T10:00:03", "main", None, "signal_lost"), R("2026-12-01T10:00:04", "main", -101.5)],
-     5, 5, {}, {"values.reasons": {"receiver_floor": 3}}),
+      R("2026-12-01T10:00:03", "main", None, "signal_lost"), R("2026-12-01T10:00:04", "main", -101.5),
+      R("2026-12-01T10:00:05", "main", -102.5), R("2026-12-01T10:00:06", "main", -90.0)],
+     7, 7, {}, {"values.reasons": {"receiver_floor": 3}}),
 ]
 
 
