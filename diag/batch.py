@@ -15,8 +15,8 @@ thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
 
-A Parquet store written by ``ingest --out`` (``diag.store``) may be given instead of log files: then each hop task
-reads only its own hop's partition from the store, and nothing passes through the driver at all.
+A Parquet store written by ``ingest --out`` (``diag.store``) may be given instead of (or besides) log files: then
+each hop task reads only its own hop's partition from the store, and no data passes through the driver at all.
 
 A hop that cannot be analysed (a file that cannot be read, no row in the links table, no data, an analysis error)
 becomes a ``LinkResult`` with ``error`` set and a row in the ranking; it never stops the other hops.
@@ -292,9 +292,22 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
                 for p in sorted(Path(tmp).rglob("*")) if p.is_file()}
 
 
-def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | None, config,
+def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
+    from diag.store import read_store
+
+    table = read_store(store_path, link_id=store_id)
+    if store_id != hop:
+        table = table.assign(**{schema.LINK: hop})
+        table[schema.LINK] = table[schema.LINK].astype("str")
+    return table
+
+
+def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
-    """Analyse one hop on a worker and render its outputs; never raises."""
+    """Analyse one hop on a worker and render its outputs; never raises.
+
+    ``pieces``: the parsed files holding the hop; ``store_refs``: ``(store folder, hop id in the store)`` pairs,
+    read here, so a hop kept in a store never passes through the driver."""
     if link is None:
         return _HopOutcome(failed_result(_placeholder_link(link_id), f"hop {link_id!r} has no row in the links "
                                          "table; add one"), {})
@@ -303,16 +316,14 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_path: str | N
         return _HopOutcome(failed_result(link, "; ".join(p.error if p.name in p.error else f"{p.name}: {p.error}"
                                                          for p in bad)), {})
     try:
-        if store_path is not None:
-            from diag.store import read_store
-
-            table = _sorted(read_store(store_path, link_id=link_id))
-            ingest = {"files": [{"file": store_path, "layout": "store"}]}
-        else:
-            table, dropped = hop_table(p.tables.get(link_id) for p in pieces)
-            ingest = {"files": [p.report for p in pieces]}
-            if dropped:
-                ingest["overlap_values_dropped"] = dropped
+        parts = [p.tables.get(link_id) for p in pieces]
+        parts += [_store_part(path, sid, link_id) for path, sid in store_refs]
+        table, dropped = hop_table(parts)
+        ingest = {"files": [p.report for p in pieces] + [{"file": path, "layout": "store", "store_link_id": sid}
+                                                         for path, sid in store_refs]}
+        if dropped:
+            ingest["overlap_values_dropped"] = dropped
+        del parts
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
@@ -627,33 +638,32 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         hops = list(meta["hops"]) if not meta["error"] else ([meta["hop_of_error"]] if meta["hop_of_error"] else [])
         for hop in hops:
             hop_files.setdefault(hop, []).append(i)
-    store_hops: dict[str, str] = {}
-    twice: dict[str, str] = {}
+    # stores: only the list of hops is read here; each hop task reads its own partition
+    store_hops: dict[str, list[tuple[str, str]]] = {}
     for store_path in stores:
         from diag.store import store_links
 
-        for hop in store_links(store_path):
-            if hop in hop_files or hop in store_hops:
-                twice[hop] = f"hop {hop!r} is in store {store_path} and in another input; give its data once"
-            store_hops[hop] = str(store_path)
+        for store_id in store_links(store_path):
+            carried = None if store_id in ("", schema.DEFAULT_LINK_ID) else store_id
+            try:
+                hop = match_link(links, carried, file_name=str(store_path)).link_id
+            except InputError:
+                hop = store_id
+            store_hops.setdefault(hop, []).append((str(store_path), store_id))
     order = [link.link_id for link in links] + sorted((set(hop_files) | set(store_hops)) - set(by_id))
     folders = _folder_names(order)
 
     # 2. one task per hop; results stream back and are written as they arrive
     hop_futures = {}
-    results_early: dict[str, LinkResult] = {}
     for hop in order:
         if hop not in hop_files and hop not in store_hops:
             continue
-        if hop in twice:
-            results_early[hop] = failed_result(by_id.get(hop) or _placeholder_link(hop), twice[hop])
-            continue
         deps = [pieces[i] for i in hop_files.get(hop, [])]
-        hop_futures[client.submit(_hop_task, hop, by_id.get(hop), deps, store_hops.get(hop), config, analyze,
+        hop_futures[client.submit(_hop_task, hop, by_id.get(hop), deps, store_hops.get(hop, []), config, analyze,
                                   writer, keep_series, key=f"hop-{safe_name(hop)}-{len(hop_futures)}",
                                   pure=False)] = hop
     del pieces  # each file's table is released by the cluster as soon as its last hop task has finished
-    results: dict[str, LinkResult] = dict(results_early)
+    results: dict[str, LinkResult] = {}
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
     unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]
