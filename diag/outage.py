@@ -38,7 +38,7 @@ import pandas as pd
 
 from diag import schema
 from diag.models import g826
-from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult, OutageResult
+from diag.results import ChannelSeries, LinkResult, OutageResult
 
 log = logging.getLogger(__name__)
 
