@@ -225,6 +225,11 @@ def hop_overview(result: LinkResult) -> dict:
         return (None if low is None else low / 60.0, None if high is None else high / 60.0)
 
     cause = dominant_cause(result)
+    below = minutes("below_threshold")
+    if cause and below[1] == 0:
+        label = "no outage"          # fades happened, none reached the threshold: no cause "cost" anything
+    else:
+        label = cause_label(cause) if cause else "no fades"
     return {
         "link_id": result.link.link_id,
         "period_start_utc": summary.get("period_start_utc"),
@@ -237,11 +242,11 @@ def hop_overview(result: LinkResult) -> dict:
         "meets_text": str(summary.get("meets_objective") or ""),
         "observed_min": minutes("observed"),
         "no_data_min": minutes("no_data"),
-        "below_threshold_min": minutes("below_threshold"),
+        "below_threshold_min": below,
         "unavailable_min": minutes("unavailable"),
         "events": 0 if result.events is None else int(len(result.events)),
         "dominant_cause": cause,
-        "dominant_cause_label": cause_label(cause) if cause else "no fades",
+        "dominant_cause_label": label,
         "error": result.error,
     }
 

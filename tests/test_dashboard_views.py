@@ -250,6 +250,9 @@ def test_hop_overview_reads_the_summary():
 def test_dominant_cause_prefers_the_outage_modules_verdict():
     named = dict(SUMMARY, dominant_cause="multipath")
     assert views.dominant_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
+    # fades that never reached the threshold cost nothing: the headline says so instead of naming a cause
+    quiet = dict(SUMMARY, below_threshold_s=0.0, unavailable_s=0.0, availability_pct=100.0, dominant_cause="rain")
+    assert views.hop_overview(_result(by_cause=BY_CAUSE, summary=quiet))["dominant_cause_label"] == "no outage"
 
 
 def test_dominant_cause_falls_back_to_event_count():
