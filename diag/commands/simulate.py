@@ -20,10 +20,8 @@ def register(subparsers) -> None:
         description="Simulate a scenario (a built-in name or a TOML file) and write links.csv, the logs "
         "and the ground truth (truth/) under --out.",
     )
-    parser.add_argument(
-        "--scenario", required=True, help="built-in scenario name or path to a TOML scenario file"
-    )
-    parser.add_argument("--out", required=True, help="output folder (created; existing files are replaced)")
+    parser.add_argument("--scenario", help="built-in scenario name or path to a TOML scenario file")
+    parser.add_argument("--out", help="output folder (created; existing files are replaced)")
     parser.add_argument("--seed", type=int, default=0, help="random seed (same seed, same bytes); default 0")
     parser.add_argument(
         "--shape",
@@ -43,6 +41,7 @@ def register(subparsers) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
+    from diag.errors import InputError
     from diag.scenarios import builtin_names, load_scenario
     from diag.simulate import simulate_scenario
     from diag.writers import SHAPES, write_scenario
@@ -50,13 +49,18 @@ def run(args: argparse.Namespace) -> int:
     if args.list:
         print("\n".join(builtin_names()))
         return 0
-    scenario = load_scenario(args.scenario)
+    if not args.scenario or not args.out:
+        raise InputError("simulate needs --scenario NAME|FILE and --out DIR (or --list)")
     shapes = None
     if args.shape:
         shapes = []
         for item in args.shape:
             for name in item.split(","):
                 shapes.extend(SHAPES if name.strip() == "all" else [name.strip()])
+        unknown = [name for name in shapes if name not in SHAPES]
+        if unknown:
+            raise InputError(f"unknown log shape(s) {', '.join(unknown)}; use {', '.join(SHAPES)} or all")
+    scenario = load_scenario(args.scenario)
     log.info(
         "simulating %d hop(s) of scenario %s with seed %d", len(scenario.links), scenario.name, args.seed
     )
