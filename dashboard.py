@@ -397,7 +397,8 @@ def overview(result, hop: dict) -> None:
     c2.metric("Unavailable time", views.range_text(hop["unavailable_min"], "{:.1f}", " min"),
               help="ITU-T G.826 rule: 10 consecutive severely errored seconds start unavailable time")
     c3.metric("Time below threshold", views.range_text(hop["below_threshold_min"], "{:.1f}", " min"))
-    c4.metric("Main cause", hop["dominant_cause_label"], help="cause with the most unavailable time (time below threshold for coarse logs)")
+    c4.metric("Main cause", hop["dominant_cause_label"],
+              help="cause with the most unavailable time (time below threshold for coarse logs)")
     if hop["period_start_utc"]:
         gap = views.no_data_share(result)
         st.caption(f"Analysed period (UTC): {hop['period_start_utc']} → {hop['period_end_utc']}"
