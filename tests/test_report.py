@@ -218,3 +218,14 @@ def test_unwritable_output_folder_is_an_input_error(tmp_path, results):
     blocker.write_text("x")
     with pytest.raises(InputError, match="output folder"):
         write_outputs(results, blocker / "sub")
+
+
+def test_hop_that_could_not_be_analysed_is_listed_not_dropped(tmp_path):
+    failed = LinkResult(link=_link("BROKEN"), series={}, events=pd.DataFrame(columns=schema.EVENT_COLUMNS),
+                        error="cannot read broken.csv")
+    write_outputs([failed], tmp_path)
+    summary = pd.read_csv(tmp_path / "outage_summary.csv")
+    assert summary.loc[0, "link_id"] == "BROKEN" and "cannot read broken.csv" in summary.loc[0, "method"]
+    assert pd.read_csv(tmp_path / "events.csv").empty
+    reader = pypdf.PdfReader(str(tmp_path / "report.pdf"))
+    assert len(reader.pages) == 3 and "not analysed" in reader.pages[0].extract_text()
