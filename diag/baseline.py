@@ -100,10 +100,9 @@ def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int)
     pos, values = pos[keep], values[keep]
     out = np.full(n, np.nan)
     finite = np.isfinite(values)
-    if finite.all():
-        if np.unique(pos).size == pos.size:
-            out[pos] = values
-            return out
+    if pos.size and np.all(pos[1:] > pos[:-1]):  # sorted, one row per grid point: the usual case
+        out[pos] = values
+        return out
     sums = np.bincount(pos[finite], weights=values[finite], minlength=n)
     counts = np.bincount(pos[finite], minlength=n)
     with np.errstate(invalid="ignore", divide="ignore"):
