@@ -286,7 +286,9 @@ def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
 
 
 def _top_findings(results: Sequence[LinkResult], limit: int) -> list[tuple[str, dict]]:
-    """Round-robin over hops in their ranked order, so every hop's first finding comes before any second one."""
+    """Round-robin over hops, worst outage first, so every hop's first finding comes before any second one."""
+    results = sorted(results, key=lambda r: -(float(r.outage.summary.get("unavailable_s_hi") or 0)
+                                              if r.outage is not None else 0.0))
     out: list[tuple[str, dict]] = []
     depth = 0
     while len(out) < limit:
