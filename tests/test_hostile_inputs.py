@@ -93,7 +93,7 @@ def _corpus() -> dict[str, bytes]:
     c["far_dates.csv"] = b"time,rsl_dbm\n1970-01-01T00:00:00Z,-45\n9999-12-31T23:59:59Z,-46\n2026-01-01T00:00:00Z,-45\n"
     c["some_bad_times.csv"] = ("time,rsl_dbm\n" + _rows(
         30, lambda i, t: f"{'not-a-time' if i % 7 == 0 else t},-45\n")).encode()
-    c["nul_bytes.csv"] = good.encode().replace(b"\n-", b"\x00\n-", 3)
+    c["nul_bytes.csv"] = good.encode().replace(b",-4", b",\x00-4", 3)
     c["separators_only_line.csv"] = (good + ",,,\n,,\n").encode()
     c["html_export.csv"] = b"<!DOCTYPE html><html><body><table><tr><td>time</td></tr></table></body></html>\n"
     c["json_export.csv"] = json.dumps([{"time": _iso(i), "rsl": -45} for i in range(5)]).encode()
