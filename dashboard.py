@@ -480,8 +480,12 @@ def level_timeline(result) -> None:
     step = dt.timedelta(seconds=max(60.0, series.interval_s))
     window = (first, last)
     if last - first > step:
-        window = c3.slider("Time window (UTC)", min_value=first, max_value=last, value=(first, last), step=step,
-                           format="MM-DD HH:mm", key=f"tl_win_{hop}_{channel}")
+        key = f"tl_win_{hop}_{channel}"
+        saved = st.session_state.get(key)
+        if not (isinstance(saved, tuple) and first <= saved[0] <= saved[1] <= last):
+            st.session_state[key] = (first, last)
+        window = c3.slider("Time window (UTC)", min_value=first, max_value=last, step=step, format="MM-DD HH:mm",
+                           key=key)
     start, end = (pd.Timestamp(w, tz="UTC") for w in window)
     fade = plot == "Fade depth"
     if fade:
@@ -573,6 +577,24 @@ def event_list(result) -> None:
         row = table.iloc[rows[0]]
         st.info(f"**{md(row['Cause'])}** on {md(row['Channel'])}, {row['Start (UTC)']:%Y-%m-%d %H:%M:%S} → "
                 f"{row['End (UTC)']:%H:%M:%S} UTC, peak {row['Peak fade dB']:.1f} dB: {md(row['Evidence'])}")
+        st.button("Zoom the level timeline to this event", key=f"ev_zoom_{hop}", on_click=_zoom_timeline,
+                  args=(result, str(row["Channel"]), row["Start (UTC)"], row["End (UTC)"]),
+                  icon=":material/zoom_in:")
+
+
+def _zoom_timeline(result, channel: str, start: pd.Timestamp, end: pd.Timestamp) -> None:
+    """Button callback: point the timeline tab at one event (its duration again on each side, at least 30 min)."""
+    series = result.series.get(channel)
+    span = views.series_span(series) if series is not None else None
+    if span is None:
+        return
+    margin = max(end - start, pd.Timedelta(minutes=30))
+    first, last = (_utc_naive(t) for t in span)
+    low = max(first, _utc_naive(start - margin))
+    high = min(last, _utc_naive(end + margin))
+    hop = result.link.link_id
+    st.session_state[f"tl_ch_{hop}"] = channel
+    st.session_state[f"tl_win_{hop}_{channel}"] = (low, max(low, high))
 
 
 def fading_statistics(result) -> None:
