@@ -295,55 +295,33 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
         header = c6.number_input("Header on line", min_value=1, max_value=500, step=1,
                                  value=(current.get("file") or {}).get("header_line"), key="map_header")
         signals_text = st.text_area(
-            "Signal columns, one per line: column = quantity[:channel[:stat]]",
+            "Signal columns, one per line: column = quantity[:channel[:stat[:interval_s]]]",
             value="\n".join(f"{col} = {spec.get('quantity', 'rsl')}" + (f":{spec['channel']}" if spec.get("channel")
                                                                         else "")
                             + (f":{spec['stat']}" if spec.get("stat") else "")
                             for col, spec in (current.get("signals") or {}).items()),
             placeholder="Level A = rsl:A\nRx min = rsl:V:min", height=90, key="map_signals",
-            help="quantity: " + ", ".join(QUANTITY_CHOICES) + "; stat: sample, min, avg, max")
+            help="quantity: " + ", ".join(QUANTITY_CHOICES) + "; stat: sample, min, avg, max; an optional fourth "
+                 "part is the statistics interval in seconds (e.g. RSL low = rsl:H:min:900)")
         applied = st.form_submit_button("Apply to the reader", key="map_apply")
     if st.button("Back to automatic detection", disabled=not current, key="map_reset"):
         st.session_state.pop("mapping", None)
         st.rerun()
     if applied:
-        mapping: dict = {}
-        cols = [c.strip() for c in time_cols.split(",") if c.strip()]
-        if cols or fmt != "detect" or marks != "detect":
-            mapping["time"] = {k: v for k, v in (("columns", cols or None),
-                                                 ("format", None if fmt == "detect" else fmt),
-                                                 ("marks", None if marks == "detect" else marks)) if v}
+        from diag.ingest import mapping_from_options
+
+        lines = [re.sub(r"\s*([=:])\s*", r"\1", line.strip()) for line in signals_text.splitlines() if line.strip()]
+        try:
+            mapping = mapping_from_options(
+                time_cols=[c.strip() for c in time_cols.split(",") if c.strip()] or None,
+                time_format=None if fmt == "detect" else fmt, time_marks=None if marks == "detect" else marks,
+                signal_cols=lines or None, floor=floor.strip() or None,
+                header_line=int(header) if header else None)
+        except InputError as exc:
+            show_input_error(exc, prefix="Correct the detection: ")
+            return
         if link_id.strip():
             mapping["link"] = {"id": link_id.strip()}
-        if floor.strip():
-            text = floor.strip().lower()
-            try:
-                mapping["floor"] = {"dbm": "none" if text == "none" else float(text.replace(",", "."))}
-            except ValueError:
-                st.error(f"Receiver floor must be a number in dBm or 'none', not {floor.strip()[:20]!r}")
-                return
-        if header:
-            mapping["file"] = {"header_line": int(header)}
-        signals: dict = {}
-        for number, line in enumerate(signals_text.splitlines(), start=1):
-            if not line.strip():
-                continue
-            if "=" not in line:
-                st.error(f"Signal line {number}: write 'column = quantity[:channel[:stat]]'")
-                return
-            col, spec = (part.strip() for part in line.rsplit("=", 1))
-            parts = [p.strip() for p in spec.split(":")]
-            if parts[0].lower() not in QUANTITY_CHOICES:
-                st.error(f"Signal line {number}: quantity must be one of {', '.join(QUANTITY_CHOICES)}")
-                return
-            item = {"quantity": parts[0].lower()}
-            if len(parts) > 1 and parts[1]:
-                item["channel"] = parts[1]
-            if len(parts) > 2 and parts[2]:
-                item["stat"] = parts[2].lower()
-            signals[col] = item
-        if signals:
-            mapping["signals"] = signals
         st.session_state["mapping"] = mapping or None
         st.rerun()
 

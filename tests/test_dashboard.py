@@ -130,10 +130,15 @@ def test_detection_can_be_corrected_with_a_mapping():
     at.text_area(key="map_signals").set_value("Kanal 7 = rsl:V")
     at.form_submit_button(key="map_apply").click().run()
     _no_failure(at)
-    assert at.session_state["mapping"] == {"signals": {"Kanal 7": {"quantity": "rsl", "channel": "V"}}}
+    assert at.session_state["mapping"] == {"signals": {"Kanal 7": {"quantity": "rsl_dbm", "channel": "V"}}}
     assert [e.value for e in at.error] == []
     assert any(m.value == "### Hop TESTHOP" for m in at.markdown)
     assert "Availability" in _metric_labels(at)
+    # a malformed override line is refused with a message, the page keeps working
+    at.text_area(key="map_signals").set_value("Kanal 7 rsl")
+    at.form_submit_button(key="map_apply").click().run()
+    _no_failure(at)
+    assert any("Correct the detection" in e.value and "NAME=QUANTITY" in e.value for e in at.error)
 
 
 def test_markup_in_names_is_shown_not_rendered():
