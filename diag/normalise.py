@@ -1088,8 +1088,12 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
     if report.out_of_order_rows:
         report.warnings.append(f"{report.out_of_order_rows} rows were out of time order (sorted)")
     # sort by key then time (stable: file order among equal stamps)
-    order = np.lexsort((ns, key))
-    ns, key, rownum, vals, reas = ns[order], key[order], rownum[order], vals[order], reas[order]
+    dk = np.diff(key)
+    if not (np.all(dk >= 0) and np.all((dk > 0) | (np.diff(ns) >= 0))):   # already in order: no copies
+        order = np.lexsort((ns, key))
+        ns, key, rownum, vals, reas = ns[order], key[order], rownum[order], vals[order], reas[order]
+        del order
+    del dk
     dup = np.zeros(len(ns), dtype=bool)
     dup[1:] = (key[1:] == key[:-1]) & (ns[1:] == ns[:-1])
     if dup.any():
@@ -1144,7 +1148,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
                     sum(1 for v in plan.values if v.quantity == q and v.stat == st) > 1:
                 channel = f"{t[1]}-{ch}"
             series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
-                           ns[s:e], vals[s:e, j].copy(), reas[s:e, j].copy()])
+                           ns[s:e], vals[s:e, j], reas[s:e, j]])   # views: edited in place below
     # physical range
     for sr in series:
         lo, hi = RANGES.get(sr[2], (-np.inf, np.inf))
