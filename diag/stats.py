@@ -276,8 +276,9 @@ def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, ar
 
 
 def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, min_crossings: int = 3,
-              arrays=None) -> dict:
-    """Level-crossing rate and average fade duration over multipath periods vs Rayleigh with a fitted f_m."""
+              arrays=None, rice_k: float | None = None) -> dict:
+    """Level-crossing rate and average fade duration over multipath periods vs Rayleigh with a fitted f_m (and
+    vs Rice with the measured ``rice_k`` when given)."""
     arrays = arrays or _Arrays(series)
     if series.kind != "sample":
         return {"skipped": "statistics log: crossings cannot be counted"}
@@ -315,6 +316,14 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
     out["method"] = ("levels relative to the local mean power over the multipath periods; f_m = count-weighted "
                      "geometric mean of the f_m that reproduce each observed crossing rate (Rayleigh N_R, "
                      "diag.models.fading)")
+    if rice_k is not None and math.isfinite(rice_k) and rice_k > 0:
+        # the same fit under the Rice law with the K measured over these periods (N_R is linear in f_m)
+        unit = np.asarray(fading.rice_level_crossing_rate_hz(lv[use], rice_k, 1.0), dtype=float)
+        fm_rice = float(np.exp(np.sum(weights * np.log(rate[use] / unit)) / np.sum(weights)))
+        out["rice_k_used"] = _round(rice_k)
+        out["rice_fading_bandwidth_hz"] = _round(fm_rice)
+        out["rice_crossing_rate_hz"] = _round(np.asarray(fading.rice_level_crossing_rate_hz(lv, rice_k, fm_rice)))
+        out["rice_afd_s"] = _round(np.asarray(fading.rice_average_fade_duration_s(lv, rice_k, fm_rice)))
     if fm * dt > 0.2:
         out["note"] = (f"fitted f_m = {fm:.3g} Hz against {dt:g}-s sampling: crossings are missed, rates are "
                        "lower bounds")
@@ -417,7 +426,7 @@ def channel_statistics(series, link, events: pd.DataFrame | None = None, *, dept
     arrays = _Arrays(series)
     out["exceedance"] = exceedance_block(series, link, depths_db, skipped, arrays)
     rice = rice_block(series, arrays=arrays)
-    lcr = lcr_block(series, arrays=arrays)
+    lcr = lcr_block(series, arrays=arrays, rice_k=rice.get("k_moments"))
     for name, block in (("Rice K-factor", rice), ("level-crossing rate / fade duration", lcr)):
         if "skipped" in block:
             skipped.append(f"{series.channel}: {name}: {block['skipped']}")

@@ -153,3 +153,16 @@ def test_statistics_log_gives_bounds_and_skips_envelope():
     assert ex["all_percent"][0] == pytest.approx(25.0)
     assert ex["all_percent_upper_bound"][0] == pytest.approx(75.0)
     assert "skipped" in out["rice_k"] and "skipped" in out["lcr_afd"]
+
+
+def test_rice_crossing_fit_recovers_bandwidth_when_k_is_large():
+    # a Rician period (K = 5): the Rayleigh formula misreads the crossing rate, the Rice formula
+    # (diag.models.fading.rice_level_crossing_rate_hz) with the measured K recovers the simulator's f_m
+    spec = LinkSpec(link_id="mpk", frequency_ghz=8, length_km=40, polarization="H", threshold_dbm=-95,
+                    duration_s=6 * 3600, effects=(Effect("multipath", 1800, 5 * 3600,
+                                                         {"k_min": 5, "k_max": 5, "fade_rate_hz": 0.05}),))
+    result = truth_result(simulate_link(spec, seed=3))
+    out = stats.channel_statistics(result.series["H"], result.link)
+    assert out["rice_k"]["k_moments"] == pytest.approx(5.0, rel=0.2)
+    assert out["lcr_afd"]["rice_fading_bandwidth_hz"] == pytest.approx(0.05, rel=0.25)
+    assert out["lcr_afd"]["fading_bandwidth_hz"] < 0.03      # the Rayleigh reading is far off at K = 5
