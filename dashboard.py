@@ -495,6 +495,11 @@ def level_timeline(result) -> None:
             x="start_utc:T", y=alt.Y("marker:Q", scale=y_scale), tooltip=event_tooltip,
             color=alt.Color("cause_label:N", scale=cause_scale(), legend=cause_legend(present)),
             shape=alt.Shape("cause_label:N", scale=cause_shapes(), legend=cause_legend(present))))
+        from diag.report.style import CAUSE_MARKS
+
+        spans["mark"] = spans["cause"].map(lambda c: CAUSE_MARKS.get(c, "?"))
+        layers.append(alt.Chart(spans).mark_text(dy=13, fontSize=10, fontWeight="bold", color="#1d2329").encode(
+            x="start_utc:T", y=alt.Y("marker:Q", scale=y_scale), text="mark:N"))
     layers.append(alt.Chart(line).mark_area(opacity=0.3, color="#7a8791").encode(
         x=x, y=alt.Y("level_min_dbm:Q", title=y_title, scale=y_scale), y2="level_max_dbm:Q"))
     if not fade:
@@ -520,7 +525,8 @@ def level_timeline(result) -> None:
     what = ("Black: fade depth (grey band: shallowest–deepest within each plotted point). Red dashed: fade margin."
             if fade else "Black: receive level (grey band: lowest–highest within each plotted point). Blue dotted: "
             "clear-sky reference. Red dashed: receiver threshold.")
-    st.caption(what + " Shading and markers along the edge: fade events, colour and shape by cause"
+    st.caption(what + " Shading and markers along the edge: fade events, told apart by colour, shape and mark "
+               "(RN rain, MP multipath, RF refractive, LS level shift, SL signal loss)"
                + ("; purple dotted: level steps" if steps else "")
                + ". Drag to pan, scroll to zoom, or narrow the time window for full detail.")
 
