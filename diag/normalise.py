@@ -537,6 +537,13 @@ def _localise(t: pd.Series, tz: str) -> tuple[np.ndarray, np.ndarray]:
 
 def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
     """Vectorised: (float64 values, int8 reason code) for one string column (R_NONE when the number is fine)."""
+    if decimal == "." and col.null_count == 0:
+        try:   # clean numbers only (the usual case): one cast, no text work
+            fast = pc.cast(col, pa.float64()).to_numpy(zero_copy_only=False).astype(np.float64, copy=True)
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            fast = None
+        if fast is not None and np.isfinite(fast).all():
+            return fast, np.zeros(len(fast), dtype=np.int8)
     s = pc.utf8_trim_whitespace(pc.fill_null(col, ""))
     s = pc.utf8_trim(s, '"\'')
     if decimal == ",":
@@ -599,8 +606,10 @@ def _repeated_strings(words: list[str], counts: np.ndarray) -> pd.Series:
     lengths = np.repeat(np.array([len(b) for b in enc], dtype=np.int64), counts)
     total = int(lengths.sum())
     big = total >= 2**31 - 1
-    offsets = np.zeros(n + 1, dtype=np.int64 if big else np.int32)
-    np.cumsum(lengths, out=offsets[1:])
+    offsets = np.zeros(n + 1, dtype=np.int64)
+    np.cumsum(lengths, out=offsets[1:])        # same dtype in and out: a plain fast cumsum
+    if not big:
+        offsets = offsets.astype(np.int32)
     data = b"".join(b * int(k) for b, k in zip(enc, counts))
     cls = pa.LargeStringArray if big else pa.StringArray
     arr = cls.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data))
@@ -1038,8 +1047,10 @@ def _convert_units(plan: ColumnPlan, vals: np.ndarray, reas: np.ndarray, report)
             continue
         if vc.quantity not in (S.RSL, S.XPL) or vc.negate is False:
             continue
-        okv = v[ok]
-        auto = (vc.unit != "dbm" and okv.size >= 3 and bool(np.all((okv >= 15.0) & (okv <= 130.0))))
+        auto = False
+        if vc.unit != "dbm" and int(ok.sum()) >= 3:
+            okv = v[ok]
+            auto = bool(okv.min() >= 15.0 and okv.max() <= 130.0)
         if vc.negate or auto:
             v[ok] = -v[ok]
             if auto:
