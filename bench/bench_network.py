@@ -163,6 +163,44 @@ def _best(fn, repeat: int) -> tuple[float, object]:
     return best, out
 
 
+_HOP_MEMORY = """
+import json, resource, sys, warnings
+warnings.simplefilter("ignore")
+import psutil
+from diag import batch
+from diag.links import make_link
+link = make_link(json.loads(sys.argv[2]))
+warm = make_link(dict(json.loads(sys.argv[2]), link_id="Warm"))
+# warm-up on a few hours of the same hop, so lazily imported libraries are part of the idle level
+piece = batch._read_task(sys.argv[3], [warm], None, None, None)
+batch._hop_task("Warm", warm, [piece], [], None, None, None, False)
+del piece
+proc = psutil.Process()
+base = proc.memory_info().rss
+peak0 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+piece = batch._read_task(sys.argv[1], [link], None, None, None)
+table = int(sum(t.memory_usage(deep=True).sum() for t in piece.tables.values()))
+after_read = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+out = batch._hop_task(link.link_id, link, [piece], [], None, None, None, False)
+after_hop = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+print(json.dumps({"table": table, "base": base, "peak0": peak0, "read": after_read, "hop": after_hop,
+                  "error": out.result.error}))
+"""
+
+
+def _hop_memory(path: Path, link, warm_path: Path) -> dict:
+    """Peak memory of one hop's task (read, analysis, all five output files) in a fresh process."""
+    import subprocess
+
+    values = {k: v for k, v in link.to_dict().items()}
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    out = subprocess.run([sys.executable, "-c", _HOP_MEMORY, str(path), json.dumps(values), str(warm_path)],
+                         capture_output=True, text=True, env=env)
+    if out.returncode:
+        raise RuntimeError(f"memory probe failed: {out.stderr[-2000:]}")
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
 def bench_analysis(report: list[str], repeat: int) -> None:
     from diag.ingest import read_log
     from diag.pipeline import analyze_link
@@ -178,8 +216,13 @@ def bench_analysis(report: list[str], repeat: int) -> None:
         table = rr.table.assign(**{schema.LINK: sim.link.link_id})
         table[schema.LINK] = table[schema.LINK].astype("str")
         t_an, result = _best(lambda: analyze_link(table, sim.link), repeat)
+        n_events = len(result.events)
         out = Path(tmp) / "out"
         t_wr, _ = _best(lambda: write_outputs([result], out), 1)
+        warm = sim.table[sim.table[schema.TIME] < sim.table[schema.TIME].min() + pd.Timedelta(hours=6)]
+        write_wide_iso(warm, Path(tmp) / "Warm.csv", floor_dbm=sim.spec.floor_value_dbm)
+        del result
+        mem = _hop_memory(path, sim.link, Path(tmp) / "Warm.csv")
     n = int((rr.table[schema.QUANTITY] == schema.RSL).sum())
     report.append(f"### Analysis of one link-week at 1 s (dual polarisation: {n:,} RSL values plus XPD; "
                   f"CSV {size / 2**20:.0f} MiB; best of {repeat})\n")
@@ -190,7 +233,14 @@ def bench_analysis(report: list[str], repeat: int) -> None:
     report.append(f"| write_outputs (CSV, JSON, PDF report) | {t_wr:.2f} | {t_wr / t_read:.2f} |")
     verdict = "met" if t_an <= t_read else "NOT met"
     report.append(f"\nTarget \"analysis no slower than reading\": {verdict} (analysis/read = {t_an / t_read:.2f}); "
-                  f"{len(result.events)} events found.\n")
+                  f"{n_events} events found.\n")
+    mib = 2**20
+    table = mem["table"]
+    report.append(f"Memory of this hop's batch task in a fresh process (after a warm-up hop, so libraries are "
+                  f"loaded): normalised table {table / mib:.0f} MiB; peak above the idle level after reading "
+                  f"{(mem['read'] - mem['base']) / mib:.0f} MiB ({(mem['read'] - mem['base']) / table:.1f}x the "
+                  f"table), after analysis and all five output files {(mem['hop'] - mem['base']) / mib:.0f} MiB "
+                  f"({(mem['hop'] - mem['base']) / table:.1f}x the table).\n")
 
 
 class _PeakRSS:
@@ -229,7 +279,7 @@ def _worker_peak_mib() -> float:
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def _timed_batch(files, links, workers: int, out: Path) -> dict:
+def _timed_batch(files, links, workers: int, out: Path, hop_pdf: bool = False) -> dict:
     """One network run on a fresh local cluster: cluster start, run time, driver memory growth, worker peaks."""
     from distributed import Client, LocalCluster
 
@@ -241,14 +291,15 @@ def _timed_batch(files, links, workers: int, out: Path) -> dict:
         t_start = time.perf_counter() - t0
         with _PeakRSS() as mem:
             t1 = time.perf_counter()
-            res = batch.run(files, links, out_dir=out, client=client)
+            res = batch.run(files, links, out_dir=out, client=client, hop_pdf=hop_pdf)
             secs = time.perf_counter() - t1
         peaks = list(client.run(_worker_peak_mib).values())
     return {"seconds": secs, "start_s": t_start, "result": res, "driver_growth_mib": mem.growth_mib,
             "worker_peak_mib": max(peaks), "failed": int((res.ranking["error"] != "").sum())}
 
 
-def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int], distinct: int) -> None:
+def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int], distinct: int,
+                  hop_pdf: bool) -> None:
     from diag.ingest import read_log
 
     with tempfile.TemporaryDirectory() as tmp:
@@ -260,10 +311,11 @@ def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int]
         mib = sum(p.stat().st_size for p in files) / 2**20
         fast = [p for p in files if p.name.startswith("Fast-")]
         table_mib = read_log(fast[0]).table.memory_usage(deep=True).sum() / 2**20 if fast else math.nan
-        runs = {w: _timed_batch(files, links, w, Path(tmp) / f"out{w}") for w in (1, 2)}
+        runs = {w: _timed_batch(files, links, w, Path(tmp) / f"out{w}", hop_pdf) for w in (1, 2)}
         t1 = runs[1]["seconds"]
         report.append(f"### Scaling: {n_stats} hop-weeks of 15-min statistics + {n_fast} hop-weeks at 1 s "
-                      f"({len(files)} CSV files, {mib:.0f} MiB; generated in {t_gen:.0f} s, not timed)\n")
+                      f"({len(files)} CSV files, {mib:.0f} MiB; generated in {t_gen:.0f} s, not timed; per-hop PDF "
+                      f"reports {'on' if hop_pdf else 'off (--no-hop-pdf)'}; network files always written)\n")
         report.append("| workers | seconds (reading, analysis, all outputs; cluster start apart) | speed-up vs 1 "
                       "worker | cluster start s | driver memory growth MiB | largest worker peak MiB | "
                       "hops failed |")
@@ -281,7 +333,7 @@ def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int]
                 continue
             sub = stat_files[:n]
             ids = {p.stem for p in sub}
-            r = _timed_batch(sub, [lk for lk in links if lk.link_id in ids], 2, Path(tmp) / f"grow{n}")
+            r = _timed_batch(sub, [lk for lk in links if lk.link_id in ids], 2, Path(tmp) / f"grow{n}", hop_pdf)
             growth.append((n, r["seconds"]))
         if growth:
             n0, s0 = growth[0]
@@ -365,6 +417,7 @@ def main() -> None:
     ap.add_argument("--fast-hops", type=int, default=4)
     ap.add_argument("--sizes", type=int, nargs="+", default=[15, 30, 60],
                     help="network sizes (15-min statistics hops) for the growth check")
+    ap.add_argument("--hop-pdf", action="store_true", help="scaling runs also write each hop's report.pdf")
     ap.add_argument("--distinct", type=int, default=12, help="different simulated hops, repeated under new ids")
     ap.add_argument("--read-rows", type=int, default=7 * 86400)
     ap.add_argument("--repeat", type=int, default=2)
@@ -385,7 +438,7 @@ def main() -> None:
         elif part == "analysis":
             bench_analysis(report, args.repeat)
         elif part == "scaling":
-            bench_scaling(report, args.stats_hops, args.fast_hops, args.sizes, args.distinct)
+            bench_scaling(report, args.stats_hops, args.fast_hops, args.sizes, args.distinct, args.hop_pdf)
         elif part == "kfactor":
             bench_kfactor(report, args.k_samples, args.k_reps)
         print("\n".join(report[n_before:]), flush=True)
