@@ -49,7 +49,8 @@ READERS = {
     "pandas.read_csv": ("import pandas as pd", "obj = pd.read_csv(PATH); n = len(obj)"),
     "pandas.read_csv + to_datetime": ("import pandas as pd", "obj = pd.read_csv(PATH); "
                                       "obj['Time'] = pd.to_datetime(obj['Time'], format='ISO8601'); n = len(obj)"),
-    "pandas.read_csv(engine=pyarrow)": ("import pandas as pd", "obj = pd.read_csv(PATH, engine='pyarrow'); n = len(obj)"),
+    "pandas.read_csv(engine=pyarrow)": ("import pandas as pd",
+                                        "obj = pd.read_csv(PATH, engine='pyarrow'); n = len(obj)"),
     "pyarrow.csv.read_csv": ("import pyarrow.csv as c", "obj = c.read_csv(PATH); n = obj.num_rows"),
 }
 

@@ -59,8 +59,8 @@ BLOCK_BYTES = 8 * 1024 * 1024
 SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
 SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
-ROW_REASONS = ("malformed_row", "too_many_fields", "bad_time", "dst_nonexistent", "dst_ambiguous", "time_out_of_range", "unknown_quantity",
-               "duplicate", "conflicting_duplicate")
+ROW_REASONS = ("malformed_row", "too_many_fields", "bad_time", "dst_nonexistent", "dst_ambiguous",
+               "time_out_of_range", "unknown_quantity", "duplicate", "conflicting_duplicate")
 MAX_RAGGED_ROWS = 200_000   # rows with another field count than the header looked at again; more: malformed_row
 SNIFF_LINES = 400           # lines looked at to find separator and header
 HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines

@@ -837,7 +837,8 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
                                f"(override with --time-col or [time] columns)")
             spec = _time_spec([_sample_values(batch, full[0])], cols, None, zone, label, header_line)
         elif dates and clocks:
-            spec = _time_spec([_sample_values(batch, dates[0]), _sample_values(batch, clocks[0])], (dates[0], clocks[0]),
+            spec = _time_spec([_sample_values(batch, dates[0]), _sample_values(batch, clocks[0])],
+                              (dates[0], clocks[0]),
                               None, zone, label, header_line)
         elif epochs:
             spec = _time_spec([_sample_values(batch, epochs[0])], (epochs[0],), None, zone, label, header_line)

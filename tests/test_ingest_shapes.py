@@ -101,13 +101,15 @@ CASES = [
      [R("2026-03-29T00:59:59", "main", -40.0), R("2026-03-29T01:00:00", "main", -42.0),
       R("2026-10-24T23:59:59", "main", -43.0), R("2026-10-25T02:00:00", "main", -45.0)],
      6, 4, {"dst_nonexistent": 1, "dst_ambiguous": 1}, {}),
-    ("wide_tsl_xpd", b"Time,RSL H (dBm),RSL V (dBm),TSL H (dBm),XPD H (dB)\n2026-12-01T10:00:00Z,-45.5,-47.25,18,31.5\n",
+    ("wide_tsl_xpd", b"Time,RSL H (dBm),RSL V (dBm),TSL H (dBm),XPD H (dB)\n"
+                     b"2026-12-01T10:00:00Z,-45.5,-47.25,18,31.5\n",
      {}, [R(T0, "H", -45.5), R(T0, "H", 18.0, q=S.TSL), R(T0, "H", 31.5, q=S.XPD), R(T0, "V", -47.25)],
      1, 1, {}, {}),
     ("long_channel_column", b"time_utc,channel,rsl_dbm\n2026-12-01T10:00:00Z,H,-45.5\n2026-12-01T10:00:00Z,V,-47.25\n"
                             b"2026-12-01T10:00:01Z,H,-45.6\n2026-12-01T10:00:01Z,V,-47.3\n", {}, WIDE_HV, 4, 4, {},
      {"layout": "long"}),
-    ("multi_link_long", b"Time,Link ID,Pol,RSL (dBm)\n2026-12-01T10:00:00Z,HOP-B,H,-50\n2026-12-01T10:00:00Z,HOP-A,H,-40\n"
+    ("multi_link_long", b"Time,Link ID,Pol,RSL (dBm)\n2026-12-01T10:00:00Z,HOP-B,H,-50\n"
+                        b"2026-12-01T10:00:00Z,HOP-A,H,-40\n"
                         b"2026-12-01T10:00:01Z,HOP-A,H,-41\n", {},
      [R(T0, "H", -40.0, link="HOP-A"), R(T1, "H", -41.0, link="HOP-A"), R(T0, "H", -50.0, link="HOP-B")], 3, 3, {},
      {"links": ["HOP-A", "HOP-B"], "link_source": "column"}),
@@ -125,13 +127,15 @@ CASES = [
      5, 5, {}, {"values.reasons": {"receiver_floor": 2, "signal_lost_marker": 1, "missing_marker": 2, "blank": 1,
                                    "non_numeric": 1, "out_of_range": 1}}),
     # a plateau at an unlisted minimum (-105 dBm held 3 rows) is a floor; the single -95 reading above it is not
-    ("floor_plateau", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-95\n2026-12-01T10:00:01Z,-105\n2026-12-01T10:00:02Z,-105\n"
+    ("floor_plateau", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-95\n2026-12-01T10:00:01Z,-105\n"
+                      b"2026-12-01T10:00:02Z,-105\n"
                       b"2026-12-01T10:00:03Z,-105\n2026-12-01T10:00:04Z,-60\n", {},
      [R(T0, "main", -95.0), R(T1, "main", None, "signal_lost"), R(T2, "main", None, "signal_lost"),
       R("2026-12-01T10:00:03", "main", None, "signal_lost"), R("2026-12-01T10:00:04", "main", -60.0)],
      5, 5, {}, {}),
     ("duplicates_conflicts_order", b"Time,RSL (dBm)\n2026-12-01T10:00:01Z,-41\n2026-12-01T10:00:00Z,-40\n"
-                                   b"2026-12-01T10:00:01Z,-41\n2026-12-01T10:00:02Z,-42\n2026-12-01T10:00:02Z,-43\n", {},
+                                   b"2026-12-01T10:00:01Z,-41\n2026-12-01T10:00:02Z,-42\n"
+                                   b"2026-12-01T10:00:02Z,-43\n", {},
      [R(T0, "main", -40.0), R(T1, "main", -41.0), R(T2, "main", -42.0)], 5, 3,
      {"duplicate": 1, "conflicting_duplicate": 1},
      {"duplicates": 1, "conflicting_duplicates": 1, "out_of_order_rows": 1}),
@@ -175,7 +179,8 @@ CASES = [
     ("units_in_cells", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-45.3 dBm\n2026-12-01T10:00:01Z,-46dBm\n", {},
      [R(T0, "main", -45.3), R(T1, "main", -46.0)], 2, 2, {}, {}),
     # 1 mW = 0 dBm, so 1e-3 mW = -30 dBm and 1e-6 mW = -60 dBm (definition of dBm); 0 mW has no level
-    ("milliwatts", b"Time,Rx power (mW)\n2026-12-01T10:00:00Z,1e-3\n2026-12-01T10:00:01Z,0\n2026-12-01T10:00:02Z,1e-6\n",
+    ("milliwatts", b"Time,Rx power (mW)\n2026-12-01T10:00:00Z,1e-3\n2026-12-01T10:00:01Z,0\n"
+                   b"2026-12-01T10:00:02Z,1e-6\n",
      {}, [R(T0, "main", -30.0), R(T1, "main", None, "missing"), R(T2, "main", -60.0)], 3, 3, {},
      {"values.reasons": {"non_positive_power": 1}}),
     # levels written as positive dB below 1 mW (no dBm in the name): negated, said in the guesses

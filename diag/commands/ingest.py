@@ -1,4 +1,4 @@
-"""``python -m diag ingest FILE... [--tz ZONE] [--map MAPPING] [--out PATH] [--json]``: read logs, report what was found.
+"""``python -m diag ingest FILE... [--tz ZONE] [--map MAPPING] [--out PATH] [--json]``: read logs, report findings.
 
 Override flags (they win over the mapping file): ``--time-col`` (once, or twice for date + time of day),
 ``--time-format``, ``--time-marks``, ``--link-col``, ``--link-id``, ``--channel-col``,
