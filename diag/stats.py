@@ -75,7 +75,7 @@ class _Arrays:
         self.observed = (self.ok & np.isfinite(att)) | self.lost
         self.att = np.where(self.lost, np.inf, att)          # at the floor: deeper than any depth
         if "cause" in frame and isinstance(frame["cause"].dtype, pd.CategoricalDtype):
-            codes = frame["cause"].cat.codes.to_numpy()        # -1 = missing
+            codes = frame["cause"].cat.codes.to_numpy().astype(np.int64)   # -1 = missing; int8 would overflow below
             names = [str(c) for c in frame["cause"].cat.categories]
             codes = np.where(codes < 0, len(names), codes)
             names = names + [""]

@@ -166,3 +166,14 @@ def test_rice_crossing_fit_recovers_bandwidth_when_k_is_large():
     assert out["rice_k"]["k_moments"] == pytest.approx(5.0, rel=0.2)
     assert out["lcr_afd"]["rice_fading_bandwidth_hz"] == pytest.approx(0.05, rel=0.25)
     assert out["lcr_afd"]["fading_bandwidth_hz"] < 0.03      # the Rayleigh reading is far off at K = 5
+
+
+def test_categorical_cause_codes_do_not_overflow():
+    # the pipeline stores cause as a Categorical (int8 codes): a faded sample outside any event has code 6 and
+    # 6 * 24 overflows int8 (bug found by the fuzz tests); by-hour counting must still work
+    from diag import schema as S
+    s = _series(np.array([0.0, 5.0, 6.0, 7.0]))
+    s.frame["cause"] = pd.Categorical(["", "", "rain", ""], categories=list(S.CAUSES) + [""])
+    s.frame.index = s.frame.index + pd.Timedelta(hours=23)
+    out = stats.hourly_block(s, None)
+    assert out["faded_s_by_cause"]["unknown"][23] == 2.0 and out["faded_s_by_cause"]["rain"][23] == 1.0
