@@ -9,6 +9,8 @@ and the first that fires wins:
 2. **signal_loss** - at least half of the event at the receiver floor, and the level in the 30 s before the first
    floor sample was within 6 dB of the reference: the signal vanished abruptly from near clear-sky level, which
    no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last seconds).
+   A level that sits within 2 dB of the channel's lowest reading for 80 % of an event of an hour or more, 20 dB
+   or more below the reference, is also the floor (logs that print a value instead of flagging the loss).
 3. **multipath** - fast fading: the fluctuation about the 1-min running mean (``fast_std_db``) or the 1-s
    difference spread (``variability_db``, in excess of the log's own clear-air noise) is large compared with the
    fade, or the level rises above the clear-sky reference inside/around the event (upfades: P.530 §2.3.3;
@@ -21,15 +23,24 @@ and the first that fires wins:
       polarisation-independent (ratio ~ 1).  Up to 2 points, graded by which of the two ratios is nearer.
    b. the path-average rain rate implied by P.838-3 for the peak fade: above ``rain_plausible_max_mmh`` (or a
       12-h-long fade) the fade cannot be rain;
-   c. shape: rain fades follow convective cells (a peaked profile: under ~35 % of the event above half its peak,
-      a fast onset), refractive fades are broad and slow (sin^2-like: ~50 % above half peak, onset < 0.01 dB/s);
-   d. a rain gauge, when given: rain at the gauge within 15 min confirms (1.5 points for rain), a dry gauge counts
+   c. shape (samples of 10 s or finer, or at least 30 samples): rain fades follow convective cells (a peaked profile: under ~35 % of
+      the event above half its peak, onset >= 1.5x faster than the recovery), refractive fades are broad and
+      symmetric; an event under 15 min is too short for refraction; a fade deeper than ``DEEP_RAIN_DB`` above
+      10 GHz with a plausible rain rate points to rain; a shallow fade shorter than ``MIN_RAIN_S_PER_KM`` x path
+      length is not rain (multipath, or unknown when both polarisations fade together);
+   d. coarse samples (1-min logs), where the fast fading itself is not resolved: a level more than 2 dB above the
+      reference within 30 min of a fade under 10 dB means two-sided clear-air fading (multipath, confidence 0.5);
+      no enhancement above 1 dB within 30 min counts half a point for rain (rain only lowers the level); a shallow
+      (< 6 dB) fade on a path of 15 km or more counts one point against rain (P.530 clear-air fading occurrence
+      grows as d^3.4); in coarse samples a lead of less than one point is "unknown";
+   e. a rain gauge, when given: rain at the gauge within 15 min confirms (1.5 points for rain), a dry gauge counts
       0.5 against; a rain call that stays weak (confidence < 0.7) with a dry gauge becomes the best non-rain cause
       (multipath when any fast-fading evidence exists, else refractive) at confidence 0.4 (a gauge is a point and
       can miss a cell, hence only weak calls are overturned).
-5. **unknown** - no usable feature (e.g. all samples missing).
+5. **unknown** - no usable feature (e.g. all samples missing), or a short fade in coarse samples (1-min logs)
+   for which none of the tests above says anything.
 
-6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain within 30 min of multipath events on the
+6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain (or unknown) within 30 min of multipath events on the
    same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
    several channels the propagation verdict with the highest confidence is applied to all of them.
 
@@ -55,6 +66,12 @@ STATS_CONFIDENCE_FACTOR = 0.7
 # wet-antenna loss allowed for in the V/H test [dB]: 1-3 dB is typical (Leijnse et al., Adv. Water Res. 31(11),
 # 2008; Schleiss et al., IEEE GRSL 10, 2013); from memory, not a fitted value
 WET_ANTENNA_DB = 1.5
+# refractive (beam-bending, diffraction) fades deeper than this are rare above 10 GHz, where rain of a plausible rate
+# produces them easily (common practice; no outside source)
+DEEP_RAIN_DB = 25.0
+# shortest rain fade per km of path: a cell advected at ~15-30 m/s needs about 30 s per km to cross a path obliquely
+# (common practice, from memory)
+MIN_RAIN_S_PER_KM = 30.0
 
 
 def _f(value) -> float:
@@ -102,6 +119,11 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         return (S.SIGNAL_LOSS, 0.9 if math.isfinite(pre_floor) else 0.7,
                 f"{shape} drop to the receiver floor ({floor_frac:.0%} of the event at the floor) with fade "
                 f"{before} in the 30 s before: abrupt, not a propagation fade")
+    near_floor = _f(row["near_floor_fraction"])
+    if near_floor >= 0.8 and dur >= 3600.0 and peak_rep >= 20.0:
+        return (S.SIGNAL_LOSS, 0.6,
+                f"{shape} at the receiver floor: level within 2 dB of its lowest reading for {near_floor:.0%} of the "
+                f"event, {peak_rep:.0f} dB below the reference; a propagation fade does not sit still at the floor")
     if not math.isfinite(peak) and floor_frac <= 0:
         return S.UNKNOWN, 0.1, f"{shape} event without valid samples"
     # 3. multipath ---------------------------------------------------------------------------------------------
@@ -163,6 +185,21 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     slope = _f(row["slope_in_db_s"])
     gauge = _f(row["gauge_rain_mmh"])
     rain_pts, refr_pts = 0.0, 0.0
+    # the profile tests need the shape resolved: samples of 10 s or finer (not 1-min or 15-min logs)
+    step_s = _f(row["interval_s"])
+    fine = (not stats) and math.isfinite(step_s) and (step_s <= 10.0 or dur >= 30 * step_s)
+    # a rain cell needs time to cross a path: a shallow fade shorter than ~30 s per km of path is not rain
+    min_rain_s = MIN_RAIN_S_PER_KM * link.length_km
+    coarse = (not stats) and math.isfinite(step_s) and step_s > 10.0
+    up_context = _f(row["upfade_context_db"])
+    if coarse and math.isfinite(up_context) and up_context >= 2.0 and peak < 10.0:
+        # sampled too coarsely to see the fast fading itself, but clear-air fading swings both ways
+        return (S.MULTIPATH, 0.5, f"{shape} fade, peak {peak_rep:.1f} dB, with the level {up_context:.1f} dB above "
+                f"the reference within 30 min: two-sided clear-air fading (rain only lowers the level)")
+    if not stats and dur < min_rain_s and peak < 6.0:
+        return (S.MULTIPATH if mp_score > 0 or not math.isfinite(corr) or corr < 0.8 else S.UNKNOWN, 0.45,
+                f"{shape} shallow fade, peak {peak_rep:.1f} dB: shorter than a rain cell takes to cross a "
+                f"{link.length_km:g}-km path ({min_rain_s / 60:.0f} min), no slow refractive shape")
     notes = []
     if math.isfinite(vh) and math.isfinite(expected) and abs(1.0 - expected) > 0.05:
         # wet antennas add the same loss on both polarisations, pulling a small rain fade's ratio towards 1
@@ -183,10 +220,20 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     if math.isfinite(rate) and not plausible:
         refr_pts += 2.0
         notes.append(f"would need {rate:.0f} mm/h over the whole path")
+    if coarse and math.isfinite(up_context) and up_context < 1.0:
+        rain_pts += 0.5
+        notes.append("no enhancement within 30 min (one-sided, as rain)")
+    if coarse and link.length_km >= 15.0 and peak < 6.0:
+        refr_pts += 1.0
+        notes.append(f"shallow fade on a {link.length_km:g}-km path, where clear-air fading is common "
+                     f"(P.530 occurrence grows as d^3.4)")
+    if plausible and peak >= DEEP_RAIN_DB and link.frequency_ghz >= 10.0:
+        rain_pts += 1.5
+        notes.append(f"{peak:.0f} dB deep: deeper than refractive fades go at {link.frequency_ghz:g} GHz")
     if dur > 12 * 3600:
         refr_pts += 1.0
         notes.append("longer than rain lasts")
-    if not stats and dur < 900.0:
+    if not stats and step_s <= 10.0 and dur < 900.0:  # (at coarser sampling multipath could not be ruled out)
         rain_pts += 1.5
         notes.append("too short for a refractive fade")
     if stats:
@@ -198,7 +245,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             elif ratio >= 0.72:
                 refr_pts += 1.0
                 notes.append(f"average fade {ratio:.0%} of the interval minimum's (slow fading)")
-    elif math.isfinite(half):
+    elif math.isfinite(half) and fine:
         if half < 0.35:
             rain_pts += 1.0
             notes.append(f"peaked profile ({half:.0%} of the time above half the peak)")
@@ -206,7 +253,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             refr_pts += 1.0
             notes.append(f"broad profile ({half:.0%} of the time above half the peak)")
     slope_out = _f(row["slope_out_db_s"])
-    if not stats and dur >= 900.0 and math.isfinite(slope) and math.isfinite(slope_out) and slope_out > 0:
+    if fine and dur >= 900.0 and math.isfinite(slope) and math.isfinite(slope_out) and slope_out > 0:
         asym = slope / slope_out
         if asym >= 1.5:
             rain_pts += 1.0
@@ -222,8 +269,12 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             refr_pts += 0.5
             notes.append("gauge dry")
     total = rain_pts + refr_pts
+    if (total == 0 or (coarse and abs(rain_pts - refr_pts) < 1.0)) and not fine and not stats:
+        return (S.UNKNOWN, 0.3, f"smooth {shape} fade, peak {peak_rep:.1f} dB: too few samples "
+                f"({dur / step_s:.0f}) to judge its shape and no deciding evidence"
+                + (f" ({', '.join(notes)})" if notes else ""))
     gauge_dry = math.isfinite(gauge) and gauge < 0.5
-    if gauge_dry and rain_pts >= refr_pts and 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 1.0) < 0.7:
+    if gauge_dry and rain_pts >= refr_pts and 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 3.0) < 0.7:
         # a weak rain call with a dry gauge: take the best non-rain cause (the gauge is a point; say so)
         cause = S.MULTIPATH if mp_score > 0 else S.REFRACTIVE
         text = (f"{shape} fade, peak {peak_rep:.1f} dB, not rain: gauge dry within 15 min and the rain evidence is "
@@ -231,12 +282,12 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         return cause, _clip(0.4 * (STATS_CONFIDENCE_FACTOR if stats else 1.0)), text
     if rain_pts >= refr_pts:
         cause = S.RAIN
-        conf = 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 1.0)
+        conf = 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 3.0)
         implied = f", implied {rate:.0f} mm/h" if plausible else ""
         text = f"smooth {shape} fade, peak {peak_rep:.1f} dB" + implied
     else:
         cause = S.REFRACTIVE
-        conf = 0.5 + 0.45 * (refr_pts - rain_pts) / max(total, 1.0)
+        conf = 0.5 + 0.45 * (refr_pts - rain_pts) / max(total, 3.0)
         text = f"smooth {shape} fade, peak {peak_rep:.1f} dB"
     if total == 0:
         conf = 0.35
@@ -272,7 +323,7 @@ def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.
     if mp.empty:
         return
     window = pd.Timedelta(seconds=window_s)
-    for i in events.index[(events["cause"] == S.RAIN) & (events["duration_s"] < 600)
+    for i in events.index[events["cause"].isin([S.RAIN, S.UNKNOWN]) & (events["duration_s"] < 600)
                           & (events["peak_fade_db"] < 6.0)]:
         row = events.loc[i]
         near = mp[(mp["end_utc"] >= row["start_utc"] - window)
@@ -287,7 +338,8 @@ def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.
 
 def _harmonise_groups(events: pd.DataFrame) -> None:
     """Within a group (one physical event on several channels) propagation causes agree: the verdict with the
-    highest confidence wins for rain/refractive/multipath; signal_loss and level_shift stay per channel."""
+    highest confidence wins for rain/refractive/multipath when it is at least 0.15 more confident; signal_loss and
+    level_shift stay per channel."""
     prop = {S.RAIN, S.REFRACTIVE, S.MULTIPATH}
     for _, idx in events.groupby("group_id").groups.items():
         if len(idx) < 2:
@@ -299,7 +351,7 @@ def _harmonise_groups(events: pd.DataFrame) -> None:
         best = sub.loc[mask, "confidence"].idxmax()
         cause = events.at[best, "cause"]
         for i in sub.index[mask]:
-            if events.at[i, "cause"] != cause:
+            if events.at[i, "cause"] != cause and events.at[best, "confidence"] - events.at[i, "confidence"] >= 0.15:
                 events.at[i, "cause"] = cause
                 events.at[i, "confidence"] = round(float(events.at[i, "confidence"]) * 0.8, 2)
                 events.at[i, "evidence"] = (f"{events.at[i, 'evidence']}; called {cause} with the other "

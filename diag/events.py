@@ -46,7 +46,8 @@ FEATURE_COLUMNS = [
     "roughness", "upfade_within_db", "upfade_before_db", "upfade_after_db", "hour_utc", "floor_fraction",
     "pre_floor_fade_db", "below_threshold_s", "valid_fraction", "partner_corr", "partner_ratio", "v_over_h_ratio",
     "expected_v_over_h", "rain_rate_mmh", "rain_rate_mean_mmh", "rain_plausible", "spread_db", "avg_to_min_ratio",
-    "step_db", "gauge_rain_mmh", "fast_std_db", "half_peak_fraction", "noise_diff_db",
+    "step_db", "gauge_rain_mmh", "fast_std_db", "half_peak_fraction", "noise_diff_db", "near_floor_fraction",
+    "upfade_context_db",
 ]
 
 
@@ -179,6 +180,10 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     starts, ends = segment(seg_att, floor, below, step, config)
     if starts.size == 0:
         return []
+    # the receiver's lowest reading; a level pinned within 2 dB of it is the floor even when the log gives values
+    lowest = float(np.nanmin(level_low)) if np.isfinite(level_low).any() else math.nan
+    with np.errstate(invalid="ignore"):
+        near_floor = floor | (level_low <= lowest + 2.0)
     pol = channel_polarization(series.channel, link)
     rain = _RainModel(link.frequency_ghz, link.length_km)
     p_att = None
@@ -227,6 +232,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
         up_in = _nanmax(-att[a:b], 0.0)
         up_before = _nanmax(-att[max(0, a - ctx):a], 0.0)
         up_after = _nanmax(-att[b:b + ctx], 0.0)
+        wide = max(1, int(round(1800.0 / step)))   # +-30 min around the event
+        up_context = max(_nanmax(-att[max(0, a - wide):a], 0.0), _nanmax(-att[b:b + wide], 0.0))
         floor_frac = float(fl.mean())
         pre_floor = math.nan
         if fl.any():  # deepest fade in the 30 s before the first floor sample (NaN: no valid sample there)
@@ -283,6 +290,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if stats and peak > 0 else math.nan,
             "step_db": math.nan, "gauge_rain_mmh": gauge_rate, "fast_std_db": fast_std,
             "half_peak_fraction": half, "noise_diff_db": noise_diff,
+            "near_floor_fraction": float(near_floor[a:b].mean()), "upfade_context_db": up_context,
         })
     return rows
 
