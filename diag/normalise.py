@@ -603,13 +603,18 @@ def _repeated_strings(words: list[str], counts: np.ndarray) -> pd.Series:
     enc = [w.encode("utf-8") for w in words]
     counts = np.asarray(counts, dtype=np.int64)
     n = int(counts.sum())
-    lengths = np.repeat(np.array([len(b) for b in enc], dtype=np.int64), counts)
-    total = int(lengths.sum())
+    total = int(sum(len(b) * int(k) for b, k in zip(enc, counts)))
     big = total >= 2**31 - 1
-    offsets = np.zeros(n + 1, dtype=np.int64)
-    np.cumsum(lengths, out=offsets[1:])        # same dtype in and out: a plain fast cumsum
-    if not big:
-        offsets = offsets.astype(np.int32)
+    offsets = np.empty(n + 1, dtype=np.int64 if big else np.int32)
+    pos = cur = 0
+    for b, k in zip(enc, counts):     # each word repeated: offsets are a ramp; no per-row length array
+        k = int(k)
+        offsets[pos:pos + k] = np.arange(k, dtype=offsets.dtype)
+        offsets[pos:pos + k] *= len(b)
+        offsets[pos:pos + k] += cur
+        pos += k
+        cur += len(b) * k
+    offsets[n] = cur
     data = b"".join(b * int(k) for b, k in zip(enc, counts))
     cls = pa.LargeStringArray if big else pa.StringArray
     arr = cls.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data))
@@ -647,7 +652,10 @@ def build_table(parts: list) -> pd.DataFrame:
     run_len = np.diff(np.concatenate((run_start, [len(st)])))
     cols[S.STATUS] = _repeated_strings([S.STATUSES[c] for c in st[run_start]], run_len)
     del st
-    return pd.DataFrame(cols, columns=S.COLUMNS)
+    table = pd.DataFrame(index=pd.RangeIndex(len(cols[S.TIME])))
+    for name in S.COLUMNS:      # one column at a time: no consolidation copy of the float columns
+        table[name] = cols.pop(name)
+    return table
 
 
 FLOOR_RUN = 3   # consecutive rows within FLOOR_BAND_DB of the floor that make a floor plateau
