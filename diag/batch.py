@@ -26,7 +26,6 @@ from __future__ import annotations
 import logging
 import math
 import os
-import re
 import shutil
 import tempfile
 from collections.abc import Callable, Iterable, Sequence
@@ -475,7 +474,8 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
         minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
                                              cause)[1] for h in labels])
         if labels and minutes.sum() > 0:
-            ax.barh(range(len(labels)), minutes, left=left, color=colours.get(cause, "#888888"), label=names.get(cause, cause))
+            ax.barh(range(len(labels)), minutes, left=left, color=colours.get(cause, "#888888"),
+                    label=names.get(cause, cause))
             left += minutes
     ax.set_yticks(range(len(labels)), shown)
     ax.set_ylim(-0.6, max(len(labels), 1) - 0.4)
@@ -549,11 +549,39 @@ class _quiet_dask:
             logging.getLogger(name).setLevel(level)
 
 
+def _prepare_out(out_dir) -> Path | None:
+    """Create the output folder up front, so an unwritable folder fails before the analysis, not after it."""
+    if out_dir is None:
+        return None
+    out = Path(out_dir)
+    try:
+        (out / "hops").mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the output folder: {exc.strerror}", path=str(out)) from None
+    return out
+
+
+def _clear_outputs(out: Path, folders: Iterable[str]) -> None:
+    """Remove the files a previous run left under our names (network files, each hop's output files), so a hop
+    that fails now leaves no stale results behind and the network files hold this run only."""
+    from diag.report import OUTPUT_FILES
+
+    names = set(OUTPUT_FILES)
+    stale = [out / name for name in (*COMBINED_FILES, "network_ranking.csv", "network_report.pdf")]
+    stale += [out / "hops" / folder / name for folder in folders if folder for name in names]
+    for path in stale:
+        try:
+            path.unlink(missing_ok=True)
+        except OSError as exc:
+            raise InputError(f"cannot replace an old output file: {exc.strerror}", path=str(path)) from None
+
+
 def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
     """Concatenate the per-hop CSV files into network-wide ones (header once, hops in ``order``)."""
     written = []
     for name in COMBINED_FILES:
-        parts = [out_dir / "hops" / folders[h] / name for h in order if (out_dir / "hops" / folders[h] / name).exists()]
+        parts = [out_dir / "hops" / folders[h] / name for h in order if folders.get(h)
+                 and (out_dir / "hops" / folders[h] / name).exists()]
         if not parts:
             continue
         target = out_dir / name
@@ -581,8 +609,9 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
     links : the links table (``diag.links.read_links_table``).
     out_dir : where to write ``hops/<hop>/...`` and the network files; ``None`` writes nothing.
     workers : local cluster size (processes, one thread each); default: the number of CPUs.
-    scheduler : address of an existing Dask scheduler (``tcp://host:port``); its workers must import ``diag`` and see
-        the input paths.  ``client`` : an existing ``distributed.Client`` (wins over both).
+    scheduler : address of an existing Dask scheduler (``tcp://host:port``); the scheduler and its workers must import
+        ``diag``, and the workers must see the input paths.
+    client : an existing ``distributed.Client`` (wins over ``workers`` and ``scheduler``; left open).
     analyze, writer, reader : replace ``diag.pipeline.analyze_link``, ``diag.report.write_outputs`` and the reader
         (tests and benchmarks); they must be importable by the workers (module-level functions).
     progress : ``progress(stage, done, total, message)``; stage ``"read"`` per file, ``"analyse"`` per hop.
@@ -594,6 +623,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
     files, stores = expand_inputs(inputs)
     if not links:
         raise InputError("the links table holds no links")
+    _prepare_out(out_dir)
     by_id = {link.link_id: link for link in links}
     if writer is None and not hop_pdf:
         writer = write_tables
@@ -628,8 +658,17 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     index = {m.key: i for i, m in enumerate(metas)}
     reads: list[dict | None] = [None] * len(files)
     for done, fut in enumerate(as_completed(metas), start=1):
-        meta = fut.result()
-        reads[index[fut.key]] = meta
+        i = index[fut.key]
+        try:
+            meta = fut.result()
+        except Exception as exc:  # the task itself could not run (a worker died, environments differ ...)
+            try:
+                hop = match_link(links, None, file_name=files[i].name).link_id
+            except InputError:
+                hop = None
+            meta = {"file": files[i].name, "hops": {}, "rows": 0, "error": _one_line(exc), "hop_of_error": hop,
+                    "report": {}}
+        reads[i] = meta
         tell("read", done, len(files), meta["file"] + (f" (error: {meta['error']})" if meta["error"] else ""))
     del metas
 
@@ -666,6 +705,8 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     results: dict[str, LinkResult] = {}
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
+    if out is not None:
+        _clear_outputs(out, folders.values())
     unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]
     total = len(hop_futures)
     for done, fut in enumerate(as_completed(list(hop_futures)), start=1):

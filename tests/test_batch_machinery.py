@@ -189,6 +189,28 @@ def test_store_input_gives_each_hop_task_its_own_partition(network, client, tmp_
         assert got.ingest["files"][0]["layout"] == "store"
 
 
+def test_a_rerun_leaves_no_stale_results(network, client, tmp_path):
+    root, logs, links, tables = network
+    out = tmp_path / "out"
+    first = [logs / f"{lk.link_id}_{part}.csv" for lk in links[:3] for part in "ab"]
+    batch.run(first, links[:3], out_dir=out, client=client, analyze=standin_analyze, writer=standin_writer,
+              reader=standin_reader)
+    assert (out / "hops" / "Kestrel-00" / "outage_summary.csv").exists()
+    batch.run(first[2:], links[:3], out_dir=out, client=client, analyze=standin_analyze, writer=standin_writer,
+              reader=standin_reader)                          # hop 00 has no data this time
+    assert not (out / "hops" / "Kestrel-00" / "outage_summary.csv").exists()
+    assert sorted(pd.read_csv(out / "outage_summary.csv")["link_id"]) == ["Kestrel-01", "Kestrel-02"]
+
+
+def test_unwritable_output_folder_fails_before_any_work(tmp_path):
+    (tmp_path / "file").write_text("x")
+    link = make_link({"link_id": "L", "frequency_ghz": 18, "length_km": 5, "polarization": "H",
+                      "threshold_dbm": -70})
+    with pytest.raises(InputError, match="cannot create the output folder"):
+        batch.run([tmp_path / "file"], [link], out_dir=tmp_path / "file" / "sub", scheduler="tcp://127.0.0.1:1",
+                  connect_timeout_s=1)
+
+
 def test_safe_names_are_distinct_and_portable():
     names = batch._folder_names(["A/B", "A_B", "a:b", "CON", "..", "hop 1"])
     assert names["A/B"] == "A_B" and names["A_B"] == "A_B-2" and names["a:b"] == "a_b-3"
