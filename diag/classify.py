@@ -2,7 +2,8 @@
 
 Physics-based rules (no trained model).  The features come from :mod:`diag.events`; the physics behind each test
 is in the shared reference sheet, section 8 (rain vs multipath), with sources there.  The rules run in this order
-and the first that fires wins:
+and the first that fires wins.  Rain-vs-refractive points turn into a confidence 0.5 + 0.45 x (lead / max(total,
+3)), so a verdict resting on little evidence stays near 0.5:
 
 1. **level_shift** - a span of the record whose clear-sky level sits at least ``step_min_db`` below the best
    level, opened by an abrupt persistent step (:func:`diag.shifts.detect_steps`).  Confidence grows with the step.
@@ -11,21 +12,24 @@ and the first that fires wins:
    no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last seconds).
    A level that sits within 2 dB of the channel's lowest reading for 80 % of an event of an hour or more, 20 dB
    or more below the reference, is also the floor (logs that print a value instead of flagging the loss).
-3. **multipath** - fast fading: the fluctuation about the 1-min running mean (``fast_std_db``) or the 1-s
-   difference spread (``variability_db``, in excess of the log's own clear-air noise) is large compared with the
-   fade, or the level rises above the clear-sky reference inside/around the event (upfades: P.530 §2.3.3;
-   rain and refractive fades never enhance the level), or the event is shorter than two minutes (rain cells and
-   refractive fades last many minutes: Vigants 1971, deep multipath fades last seconds).  On a dual-polarised hop a
-   low H/V correlation (< 0.8) also points to multipath (rain and refraction fade both polarisations together).
+3. **multipath** - fast fading, by points (multipath at 1 point or more): fluctuation about the 1-min running
+   mean (``fast_std_db``) of at least max(0.6 dB, 15 % of the mean fade) - 1 point; 1-s difference spread
+   (``variability_db``) in excess of the log's own clear-air noise of 0.5 dB (relative to depth for samples
+   coarser than 2 s) - 0.6; the level above the clear-sky reference by 2 dB or more inside or within 5 min of the
+   event (upfades: P.530 §2.3.3; rain and refractive fades never enhance the level) - 0.8; shorter than two
+   minutes (rain cells and refractive fades last many minutes; deep multipath fades last seconds, Vigants 1971) -
+   0.6; on a dual-polarised hop an H/V correlation under 0.8 over a fade with shape - 0.5 (rain and refraction
+   fade both polarisations together).  15-min statistics: a min-max spread of 10 dB or more with the average
+   fade under a quarter of the minimum's - 1 point; maxima 2 dB above the reference - 0.5.
 4. **rain or refractive** - a smooth fade.  Evidence for rain, in order of weight:
    a. V/H attenuation ratio (dual-polarised hops): rain follows ITU-R P.838-3 (A_V/A_H = gamma_V/gamma_H < 1 above
       ~8 GHz, pulled towards 1 by a wet-antenna loss of ``WET_ANTENNA_DB`` common to both); refractive fading is
       polarisation-independent (ratio ~ 1).  Up to 2 points, graded by which of the two ratios is nearer.
    b. the path-average rain rate implied by P.838-3 for the peak fade: above ``rain_plausible_max_mmh`` (or a
       12-h-long fade) the fade cannot be rain;
-   c. shape (samples of 10 s or finer, or at least 30 samples): rain fades follow convective cells (a peaked profile: under ~35 % of
-      the event above half its peak, onset >= 1.5x faster than the recovery), refractive fades are broad and
-      symmetric; an event under 15 min is too short for refraction; a fade deeper than ``DEEP_RAIN_DB`` above
+   c. shape (samples of 10 s or finer, or at least 30 samples): rain fades follow convective cells (a peaked
+      profile: under ~35 % of the event above half its peak, onset >= 1.5x faster than the recovery), refractive
+      fades are broad and symmetric; an event under 15 min is too short for refraction; a fade deeper than ``DEEP_RAIN_DB`` above
       10 GHz with a plausible rain rate points to rain; a shallow fade shorter than ``MIN_RAIN_S_PER_KM`` x path
       length is not rain (multipath, or unknown when both polarisations fade together);
    d. coarse samples (1-min logs), where the fast fading itself is not resolved: a level more than 2 dB above the
@@ -39,9 +43,8 @@ and the first that fires wins:
       can miss a cell, hence only weak calls are overturned).
 5. **unknown** - no usable feature (e.g. all samples missing), or a short fade in coarse samples (1-min logs)
    for which none of the tests above says anything.
-
-6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain (or unknown) within 30 min of multipath events on the
-   same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
+6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain (or unknown) within 30 min of multipath
+   events on the same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
    several channels the propagation verdict with the highest confidence is applied to all of them.
 
 15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
