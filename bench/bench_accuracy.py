@@ -227,7 +227,8 @@ def run(seeds, *, n_links: int = 3, duration_h: float = 48.0, verbose: bool = Fa
                     "below_right": float(np.mean(pred[below] == truth[below])) if below.any() else math.nan,
                     "thumb_below_right": float(np.mean(thumb[below] == truth[below])) if below.any() else math.nan,
                     "below_s": int(below.sum()), "samples": int(len(truth)),
-                    "below_by_cause": {c: (int((truth[below] == c).sum()), int(((truth == c) & (pred == c))[below].sum()))
+                    "below_by_cause": {c: (int((truth[below] == c).sum()),
+                                           int(((truth == c) & (pred == c))[below].sum()))
                                        for c in CAUSES if (truth[below] == c).any()},
                     "confusion": pd.crosstab(pd.Series(truth, name="truth"), pd.Series(pred, name="pred"))}
     out["shifts"] = shifts
@@ -265,7 +266,8 @@ def main(argv=None) -> int:
     shift_t = [e[0] for e in out["shifts"]]
     shift_s = [e[1] for e in out["shifts"]]
     print(f"accuracy on {'TUNING' if args.tuning else 'EVALUATION'} seeds {list(seeds)}: {out['hops']} hops x "
-          f"{args.hours:g} h{'' if args.margin_db is None else f', fade margin {args.margin_db:g} dB'} (simulate {out['simulate_s']:.0f} s, analyse {out['analyse_s']:.0f} s, wall {wall:.0f} s)")
+          f"{args.hours:g} h{'' if args.margin_db is None else f', fade margin {args.margin_db:g} dB'} "
+          f"(simulate {out['simulate_s']:.0f} s, analyse {out['analyse_s']:.0f} s, wall {wall:.0f} s)")
     print(f"{'measure':<52}{'diag':>10}{'rule of thumb':>15}{'bar':>10}")
     print(f"{'1-s logs: macro F1 on faded samples':<52}{_fmt(one['f1'][0]):>10}{_fmt(one['thumb_f1'][0]):>15}"
           f"{'>= 0.90':>10}")
@@ -278,8 +280,9 @@ def main(argv=None) -> int:
     for label, key in (("1-s", "1s"), ("15-min", "15min")):
         per = out[key]["f1"][1]
         thumb = out[key]["thumb_f1"][1]
-        print(f"  {label} F1 per cause: " + ", ".join(f"{c} {per.get(c, math.nan):.2f} (thumb {thumb.get(c, math.nan):.2f})"
-                                                     for c in CAUSES if c in per or c in thumb))
+        print(f"  {label} F1 per cause: " + ", ".join(
+            f"{c} {per.get(c, math.nan):.2f} (thumb {thumb.get(c, math.nan):.2f})"
+            for c in CAUSES if c in per or c in thumb))
     if shift_t:
         found = [t for t in shift_t if math.isfinite(t)]
         print(f"level shifts: {len(found)}/{len(shift_t)} found; time error max "

@@ -29,9 +29,10 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
       12-h-long fade) the fade cannot be rain;
    c. shape (samples of 10 s or finer, or at least 30 samples): rain fades follow convective cells (a peaked
       profile: under ~35 % of the event above half its peak, onset >= 1.5x faster than the recovery), refractive
-      fades are broad and symmetric; an event under 15 min is too short for refraction; a fade deeper than ``DEEP_RAIN_DB`` above
-      10 GHz with a plausible rain rate points to rain; a shallow fade shorter than ``MIN_RAIN_S_PER_KM`` x path
-      length is not rain (multipath, or unknown when both polarisations fade together);
+      fades are broad and symmetric; an event under 15 min is too short for refraction; a fade deeper than
+      ``DEEP_RAIN_DB`` above 10 GHz with a plausible rain rate points to rain; a shallow fade shorter than
+      ``MIN_RAIN_S_PER_KM`` x path length is not rain (multipath, or unknown when both polarisations fade
+      together);
    d. coarse samples (1-min logs), where the fast fading itself is not resolved: a level more than 2 dB above the
       reference within 30 min of a fade under 10 dB means two-sided clear-air fading (multipath, confidence 0.5);
       no enhancement above 1 dB within 30 min counts half a point for rain (rain only lowers the level); a shallow
@@ -44,8 +45,8 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
 5. **unknown** - no usable feature (e.g. all samples missing), or a short fade in coarse samples (1-min logs)
    for which none of the tests above says anything.
 6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain (or unknown) within 30 min of multipath
-   events on the same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping events on
-   several channels the propagation verdict with the highest confidence is applied to all of them.
+   events on the same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping
+   events on several channels the propagation verdict with the highest confidence is applied to all of them.
 
 15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
 short-term variability (multipath widens the spread while the average stays near the reference; rain lowers
