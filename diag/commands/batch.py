@@ -27,6 +27,8 @@ def register(subparsers) -> None:
                              "installed and see the input paths)")
     parser.add_argument("--tz", default=None, metavar="ZONE",
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
+    parser.add_argument("--map", default=None, metavar="MAPPING",
+                        help="TOML file overriding the log-shape detection for every input (see 'ingest --help')")
     parser.add_argument("--no-hop-pdf", action="store_true",
                         help="skip each hop's report.pdf (the slow part for big networks); the CSV/JSON files and "
                              "the network page are still written")
@@ -53,8 +55,13 @@ def main(args: argparse.Namespace) -> int:
     if args.scheduler and "://" not in args.scheduler:
         raise InputError(f"--scheduler must be an address like tcp://host:8786, not {args.scheduler!r}")
     links = read_links_table(args.links)
+    mapping = None
+    if args.map:
+        from diag.ingest import load_mapping
+
+        mapping = load_mapping(args.map)   # checked here: a bad mapping is one error, not one per file
     result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,
-                       tz=args.tz, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf)
+                       tz=args.tz, mapping=mapping, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf)
     ranking = result.ranking
     ok = ranking[ranking["error"] == ""]
     failed = ranking[ranking["error"] != ""]
