@@ -21,7 +21,8 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
    0.6; on a dual-polarised hop an H/V correlation under 0.8 over a fade with shape - 0.5 (rain and refraction
    fade both polarisations together).  15-min statistics: a min-max spread of 10 dB or more with the average
    fade under a quarter of the minimum's - 1 point; maxima 2 dB above the reference - 0.5.
-4. **rain or refractive** - a smooth fade.  Evidence for rain, in order of weight:
+4. **rain or refractive** - a smooth fade (one with the level 3 dB or more above the reference in or within 5 min
+   of it is multipath: rain and refraction do not enhance the level).  Evidence for rain, in order of weight:
    a. V/H attenuation ratio (dual-polarised hops): rain follows ITU-R P.838-3 (A_V/A_H = gamma_V/gamma_H < 1 above
       ~8 GHz, pulled towards 1 by a wet-antenna loss of ``WET_ANTENNA_DB`` common to both); refractive fading is
       polarisation-independent (ratio ~ 1).  Up to 2 points, graded by which of the two ratios is nearer.
@@ -46,7 +47,8 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
    for which none of the tests above says anything.
 6. **context** - a short (< 10 min) shallow (< 6 dB) fade called rain (or unknown) within 30 min of multipath
    events on the same hop is re-labelled multipath (one more dip of the episode); within a group of overlapping
-   events on several channels the propagation verdict with the highest confidence is applied to all of them.
+   events on several channels the rain/refractive verdict with the highest confidence is applied to all of them
+   (multipath verdicts rest on each channel's own fast fading and stay).
 
 15-min min/avg/max statistics: the same order, with the interval spread (max - min) standing in for the
 short-term variability (multipath widens the spread while the average stays near the reference; rain lowers
@@ -182,6 +184,11 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             return (S.MULTIPATH, _clip(0.55 + 0.15 * score),
                     f"{shape} fast fading, peak {peak_rep:.1f} dB, " + ", ".join(reasons))
     # 4. rain vs refractive ----------------------------------------------------------------------------------
+    if upfade >= 3.0:
+        # the level rose well above the clear-sky reference in or around the fade: two-sided, clear-air fading
+        return (S.MULTIPATH, _clip(0.5 + 0.15 * max(mp_score, 0.0) * (0.7 if stats else 1.0)),
+                f"{shape} fade, peak {peak_rep:.1f} dB, with the level {upfade:.1f} dB above the reference in or "
+                f"within 5 min of it: rain never lifts the level")
     vh = _f(row["v_over_h_ratio"])
     expected = _f(row["expected_v_over_h"])
     rate = _f(row["rain_rate_mmh"])
@@ -342,9 +349,9 @@ def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.
 
 def _harmonise_groups(events: pd.DataFrame) -> None:
     """Within a group (one physical event on several channels) propagation causes agree: the verdict with the
-    highest confidence wins for rain/refractive/multipath when it is at least 0.15 more confident; signal_loss and
-    level_shift stay per channel."""
-    prop = {S.RAIN, S.REFRACTIVE, S.MULTIPATH}
+    highest confidence wins between rain and refractive when it is at least 0.15 more confident; multipath,
+    signal_loss and level_shift stay per channel."""
+    prop = {S.RAIN, S.REFRACTIVE}   # a channel whose own features say fast fading keeps its multipath verdict
     for _, idx in events.groupby("group_id").groups.items():
         if len(idx) < 2:
             continue
