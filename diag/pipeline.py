@@ -217,11 +217,15 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     for done, link_id in enumerate(hop_ids):
         if progress:
             progress(done, len(hop_ids), f"analysing {link_id}")
-        parts = pieces[link_id]
-        table = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
-        table = table.sort_values([S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable", ignore_index=True)
-        results.append(analyze_link(table, by_id[link_id], config=config, gauge=gauge_table,
-                                    ingest={"files": reports[link_id]}))
+        # files of one hop: concatenated, sorted, a value found in two files kept once (the first file's), as
+        # read_logs and batch do; how many were dropped goes into the ingest report
+        from diag.batch import hop_table
+
+        table, dropped = hop_table(pieces[link_id])
+        ingest = {"files": reports[link_id]}
+        if dropped:
+            ingest["overlap_values_dropped"] = dropped
+        results.append(analyze_link(table, by_id[link_id], config=config, gauge=gauge_table, ingest=ingest))
     if progress:
         progress(len(hop_ids), len(hop_ids), "analysis done")
     return results

@@ -122,3 +122,15 @@ def test_config_changes_segmentation(sim):
     fades_strict = strict.events[strict.events["event_kind"] == "fade"]
     fades_loose = loose.events[loose.events["event_kind"] == "fade"]
     assert fades_strict["duration_s"].sum() < fades_loose["duration_s"].sum()
+
+
+def test_overlapping_files_of_one_hop_keep_each_value_once(sim, tmp_path):
+    # the same export saved twice: every value is in both files; kept once and counted (as read_logs does)
+    first, second = tmp_path / "PL-A.csv", tmp_path / "PL-A_again.csv"
+    write_log(sim.table, first, "wide_iso")
+    second.write_bytes(first.read_bytes())
+    single = analyze_files([first], links=[sim.link])[0]
+    double = analyze_files([first, second], links=[sim.link])[0]
+    assert double.ingest["overlap_values_dropped"] == len(sim.table)
+    assert list(double.events["cause"]) == list(single.events["cause"])
+    assert list(double.events["duration_s"]) == list(single.events["duration_s"])
