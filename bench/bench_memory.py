@@ -11,6 +11,7 @@ accounting of THAT child (``os.wait4`` -> ``ru_maxrss``), so the steps' peaks ar
   read      diag.ingest.read_log(file)  -> normalised table (what `diag ingest` does)
   analyze   read_log + diag.pipeline.analyze_link + the four table/JSON outputs (what `diag analyze` does, less the
             PDF drawing)
+  cli       `python -m diag analyze FILE --freq-ghz ... --out DIR` in-process: everything, PDF included
 
 The log: a dual-polarised hop logged every second (``time,rsl_h_dbm,rsl_v_dbm``, ISO 8601 UTC), clear-sky level
 with noise, a rain-like fade every ~2 days, short drop-outs to a -99 dBm receiver floor, one 6-hour gap.  Printed:
@@ -42,6 +43,7 @@ def make_log(path: str | Path, rows: int, *, seed: int = 0, bad_time_every: int 
     the line before it exactly; ``blank_every`` = k: every k-th line has an empty V cell.  0 = none.
     """
     import pyarrow as pa
+    import pyarrow.compute  # noqa: F401  (pa.compute)
     import pyarrow.csv as pacsv
 
     rng = np.random.default_rng(seed)
@@ -70,12 +72,13 @@ def make_log(path: str | Path, rows: int, *, seed: int = 0, bad_time_every: int 
         floor[start:start + 30] = True
     h[floor] = -99.0
     v[floor] = -99.0
-    times = np.datetime_as_string(T0 + sec.astype("timedelta64[s]"), unit="s").astype(object) + "Z"
+    times = pa.compute.binary_join_element_wise(
+        pa.array(np.datetime_as_string(T0 + sec.astype("timedelta64[s]"), unit="s")), "Z", "")
     if bad_time_every:
         bad = (idx % bad_time_every == bad_time_every - 1) & ~dup
         if duplicate_every:  # the line after a bad-time line must not repeat it (keeps the counts simple)
             bad &= ~np.roll(dup, -1)
-        times[bad] = "not-a-time"
+        times = pa.compute.if_else(pa.array(bad), pa.scalar("not-a-time"), times)
     else:
         bad = np.zeros(rows, dtype=bool)
     h_txt = pa.array(h[sec]).cast(pa.string())
@@ -86,7 +89,7 @@ def make_log(path: str | Path, rows: int, *, seed: int = 0, bad_time_every: int 
         if duplicate_every:
             blank &= ~np.roll(dup, -1)
         v_arr = pa.compute.if_else(pa.array(blank), pa.scalar(""), v_arr)
-    table = pa.table({"time": pa.array(times, pa.string()), "rsl_h_dbm": h_txt, "rsl_v_dbm": v_arr})
+    table = pa.table({"time": times, "rsl_h_dbm": h_txt, "rsl_v_dbm": v_arr})
     pacsv.write_csv(table, str(path), write_options=pacsv.WriteOptions(include_header=True, quoting_style="none",
                                                                        batch_size=1 << 20))
     kept = rows - int(dup.sum()) - int(bad.sum())
@@ -112,6 +115,15 @@ def _step(name: str, path: str) -> dict:
         return out
     if name == "write":
         return make_log(path, int(os.environ["BENCH_ROWS"]))
+    if name == "cli":   # the whole command, PDF included
+        from diag.cli import main as cli_main
+
+        with tempfile.TemporaryDirectory() as out_dir:
+            rc = cli_main(["analyze", path, "--freq-ghz", "23", "--length-km", "8", "--polarization", "dual",
+                           "--threshold-dbm", "-72", "--out", out_dir])
+            out["status"] = rc
+            out["outputs"] = {p.name: p.stat().st_size for p in Path(out_dir).iterdir()}
+        return out
     from diag.ingest import read_log
 
     read = read_log(path)
@@ -181,7 +193,7 @@ def main(argv=None) -> int:
     with tempfile.TemporaryDirectory(dir=args.dir) as tmp:
         path = Path(tmp) / "hop_10m.csv"
         results = {}
-        for name in ("baseline", "write", "read", "analyze"):
+        for name in ("baseline", "write", "read", "analyze", "cli"):
             results[name] = r = _run_child(name, path, args.rows, args.timeout_s)
             print(f"{name:9s} peak {r['peak_mib']:8.0f} MiB  wall {r.get('wall_s', float('nan')):7.1f} s  "
                   f"cpu {r.get('cpu_s', float('nan')):7.1f} s  {r.get('error', '')}", flush=True)
@@ -199,7 +211,7 @@ def main(argv=None) -> int:
         print(f"{'step':9s} {'peak MiB':>9s} {'- baseline':>10s} {'/ file':>7s} {'/ table':>8s} "
               f"{'(-base)/file':>12s} {'(-base)/table':>13s} {'wall s':>7s} {'cpu s':>7s}")
         base_b = base.get("peak_mib", 0.0) * mib
-        for name, r in (("baseline", base), ("read", rd), ("analyze", an)):
+        for name, r in (("baseline", base), ("read", rd), ("analyze", an), ("cli", results.get("cli", {}))):
             if not r or "peak_mib" not in r:
                 continue
             peak = r["peak_mib"] * mib
@@ -212,6 +224,9 @@ def main(argv=None) -> int:
               f"no data {an['no_data_s']} s; failed stages: {an['skipped'] or 'none'}")
     if w:
         print(f"write: {w.get('wall_s', float('nan')):.1f} s")
+    cli = results.get("cli", {})
+    if "outputs" in cli:
+        print(f"cli: status {cli['status']}; outputs {cli['outputs']}")
     return 0 if all("error" not in r for r in results.values()) else 1
 
 
