@@ -658,22 +658,26 @@ def build_table(parts: list) -> pd.DataFrame:
     return table
 
 
-FLOOR_RUN = 3   # consecutive rows within FLOOR_BAND_DB of the floor that make a floor plateau
+FLOOR_RUN = 10   # identical consecutive readings within FLOOR_BAND_DB above the floor that make a floor plateau
 
 
 def _floor_mask(v: np.ndarray, floor_dbm: float) -> np.ndarray:
-    """Readings at the floor, plus runs of >= FLOOR_RUN consecutive rows within FLOOR_BAND_DB above it (a receiver
-    sitting just above its nominal floor, e.g. -102 next to a -103 dBm floor; common practice)."""
+    """Readings at the floor, plus flat plateaus just above it: >= FLOOR_RUN consecutive identical readings within
+    FLOOR_BAND_DB of the floor (a receiver parked 1 dB above its nominal floor, e.g. -102 next to -103 dBm, for
+    hours).  A fading signal near the floor varies from row to row and stays a reading (common practice)."""
     at = np.abs(v - floor_dbm) < 1e-6
     band = v <= floor_dbm + FLOOR_BAND_DB + 1e-9
-    if band.any():
-        d = np.diff(np.concatenate(([0], band.astype(np.int8), [0])))
-        starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
-        long_runs = (ends - starts) >= FLOOR_RUN
-        cover = np.zeros(len(v) + 1, dtype=np.int32)
-        np.add.at(cover, starts[long_runs], 1)
-        np.add.at(cover, ends[long_runs], -1)
-        at |= np.cumsum(cover[:-1]) > 0
+    if band.any() and len(v) >= FLOOR_RUN:
+        same = np.zeros(len(v), dtype=bool)
+        same[1:] = band[1:] & band[:-1] & (np.abs(np.diff(v)) < 1e-9)   # row equals the previous band reading
+        # run starts where a band reading does not equal its predecessor
+        start = band & ~same
+        run_id = np.cumsum(start)
+        run_id[~band] = 0
+        lengths = np.bincount(run_id)
+        long_run = lengths >= FLOOR_RUN
+        long_run[0] = False
+        at |= long_run[run_id]
     return at
 
 
@@ -1192,9 +1196,9 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             if fl is None:
                 continue
             mask_fn = functools.partial(_floor_mask, floor_dbm=fl)
-            report.guesses.append(f"{q}: readings at {fl:g} dBm (and runs of >= {FLOOR_RUN} rows within "
-                                  f"{FLOOR_BAND_DB:g} dB above it) taken as the receiver floor (signal lost): {how}; "
-                                  f"override with --floor-dbm VALUE or --floor-dbm none")
+            report.guesses.append(f"{q}: readings at {fl:g} dBm (and flat runs of >= {FLOOR_RUN} identical readings "
+                                  f"within {FLOOR_BAND_DB:g} dB above it) taken as the receiver floor (signal lost): "
+                                  f"{how}; override with --floor-dbm VALUE or --floor-dbm none")
         n_floor = 0
         for sr in group:
             at = (sr[7] == R_NONE) & mask_fn(sr[6])

@@ -186,15 +186,16 @@ CASES = [
     # levels written as positive dB below 1 mW (no dBm in the name): negated, said in the guesses
     ("positive_levels", b"Time,rx level\n2026-12-01T10:00:00Z,45\n2026-12-01T10:00:01Z,46\n2026-12-01T10:00:02Z,47\n",
      {}, [R(T0, "main", -45.0), R(T1, "main", -46.0), R(T2, "main", -47.0)], 3, 3, {}, {}),
-    # a floor at -103 dBm with readings sitting 1 dB above it (-102, three rows running): floor readings too; a lone
-    # -102.5 between ordinary readings is a reading
-    ("floor_band", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-60\n2026-12-01T10:00:01Z,-103\n2026-12-01T10:00:02Z,-102\n"
-                   b"2026-12-01T10:00:03Z,-102\n2026-12-01T10:00:04Z,-101.5\n2026-12-01T10:00:05Z,-102.5\n"
-                   b"2026-12-01T10:00:06Z,-90\n", {},
-     [R(T0, "main", -60.0), R(T1, "main", None, "signal_lost"), R(T2, "main", None, "signal_lost"),
-      R("2026-12-01T10:00:03", "main", None, "signal_lost"), R("2026-12-01T10:00:04", "main", -101.5),
-      R("2026-12-01T10:00:05", "main", -102.5), R("2026-12-01T10:00:06", "main", -90.0)],
-     7, 7, {}, {"values.reasons": {"receiver_floor": 3}}),
+    # a floor at -103 dBm with the receiver parked at -102 (ten identical rows running): floor readings too; a fade
+    # wandering near the floor (-102.5, -102.2, -102.4) stays a reading
+    ("floor_band", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-60\n2026-12-01T10:00:01Z,-103\n"
+                   + b"".join(b"2026-12-01T10:00:%02dZ,-102\n" % (i + 2) for i in range(10))
+                   + b"2026-12-01T10:00:12Z,-102.5\n2026-12-01T10:00:13Z,-102.2\n2026-12-01T10:00:14Z,-102.4\n", {},
+     [R(T0, "main", -60.0), R(T1, "main", None, "signal_lost")]
+     + [R(f"2026-12-01T10:00:{i + 2:02d}", "main", None, "signal_lost") for i in range(10)]
+     + [R("2026-12-01T10:00:12", "main", -102.5), R("2026-12-01T10:00:13", "main", -102.2),
+        R("2026-12-01T10:00:14", "main", -102.4)],
+     15, 15, {}, {"values.reasons": {"receiver_floor": 11}}),
 ]
 
 
