@@ -307,8 +307,7 @@ def _median_step(values: list[str], fmt: str) -> float:
     ts = []
     for v in values:
         try:
-            ts.append(_dt.datetime.strptime(v, fmt).timestamp() if False else
-                      _dt.datetime.strptime(v, fmt).replace(tzinfo=_dt.timezone.utc).timestamp())
+            ts.append(_dt.datetime.strptime(v, fmt).replace(tzinfo=_dt.timezone.utc).timestamp())
         except ValueError:
             pass
     d = np.abs(np.diff(np.asarray(ts, dtype=float)))
@@ -681,7 +680,7 @@ def _floor_mask(v: np.ndarray, floor_dbm: float) -> np.ndarray:
     return at
 
 
-def detect_floor(series_values: list[np.ndarray], series_order: list[np.ndarray]) -> tuple[float | None, str]:
+def detect_floor(series_values: list[np.ndarray]) -> tuple[float | None, str]:
     """Receiver floor of one level quantity: the minimum reading when it sits at or below FLOOR_MAX_DBM and is
     either a known floor value or held for at least 3 consecutive rows (a plateau at the minimum; common practice).
     Returns (floor_dbm or None, how)."""
@@ -1192,7 +1191,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             fl, how = float(floor_cfg), "given in the mapping"
             mask_fn = lambda v: v <= fl + 1e-6  # noqa: E731
         else:
-            fl, how = detect_floor([sr[6] for sr in group], [])
+            fl, how = detect_floor([sr[6] for sr in group])
             if fl is None:
                 continue
             mask_fn = functools.partial(_floor_mask, floor_dbm=fl)
