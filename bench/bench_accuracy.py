@@ -297,8 +297,9 @@ def main(argv=None) -> int:
     else:
         print("polarisation tilt: no hop with a 1-10 deg tilt and cross-polar data in these scenarios")
     print(f"samples judged: 1-s {one['samples']}, below threshold {one['below_s']} s; 15-min {q['samples']}")
-    print("below-threshold seconds by true cause (right/all), 1-s: " + ", ".join(
-        f"{c} {r}/{n}" for c, (n, r) in one["below_by_cause"].items()))
+    for label, part in (("1-s", one), ("15-min", q)):
+        print(f"below-threshold seconds by true cause (right/all), {label}: " + ", ".join(
+            f"{c} {r}/{n}" for c, (n, r) in part["below_by_cause"].items()))
     if args.confusion:
         print("1-s confusion (rows truth, columns diagnosis):")
         print(one["confusion"].to_string())
