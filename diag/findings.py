@@ -59,6 +59,11 @@ def _num(value, digits: int = 4):
     return float(f"{value:.{digits}g}") if value != 0 else 0.0
 
 
+def _pct(share: float) -> str:
+    """A share as a whole percentage, '<1 %' for a small non-zero one."""
+    return "<1 %" if 0 < share < 0.005 else f"{100 * share:.0f} %"
+
+
 def _by_cause(result) -> dict[str, dict]:
     """{cause: {unavailable_s, below_threshold_s, events}} from the outage accounting (upper bounds when coarse),
     else from the events table."""
@@ -155,11 +160,11 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
             numbers["below_threshold_s"] = numbers["unavailable_s"] = None
             detail += (f" took the hop below threshold for {b_lo:.0f} to {below:.0f} s ({u_lo:.0f} to {unav:.0f} s "
                        "unavailable; bounds from coarse statistics")
-            detail += (f", at most {100 * share:.0f} % of the hop's worst-case unavailable time)"
+            detail += (f", at most {_pct(share)} of the hop's worst-case unavailable time)"
                        if total_unav > 0 else ")")
         else:
             detail += f" took the hop below threshold for {below:.0f} s ({unav:.0f} s unavailable"
-            detail += f", {100 * share:.0f} % of the hop's unavailable time)" if total_unav > 0 else ")"
+            detail += f", {_pct(share)} of the hop's unavailable time)" if total_unav > 0 else ")"
     else:
         detail += " without taking the hop below threshold"
     if cause == S.RAIN:

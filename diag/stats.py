@@ -181,6 +181,10 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
     out["rayleigh_percent"] = _round(100.0 * np.asarray(fading.rayleigh_cdf_db(-np.asarray(depths_db, float))))
     counts_mp = np.array([np.count_nonzero(is_mp[observed] & (att[observed] > d)) for d in depths_db])
     fit = tail_fit(depths_db, out["multipath_percent"] or [], counts_mp)
+    floor_mp = int(np.count_nonzero(is_mp & arrays.lost))
+    if fit.get("depths_used_db") and floor_mp >= 0.5 * counts_mp[list(depths_db).index(fit["depths_used_db"][-1])]:
+        fit["note"] = (f"{floor_mp} multipath samples at the receiver floor set the deep tail (they exceed every "
+                       "depth): the slope is not a fading-law estimate")
     fit["rayleigh_slope_db_per_decade"] = 10.0
     out["multipath_tail"] = fit
     pred = _p530_multipath(link, depths_db, skipped)
@@ -327,6 +331,9 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
     if fm * dt > 0.2:
         out["note"] = (f"fitted f_m = {fm:.3g} Hz against {dt:g}-s sampling: crossings are missed, rates are "
                        "lower bounds")
+    elif dt > 10.0:
+        out["note"] = (f"{dt:g}-s sampling resolves only slow fading; Rayleigh/Rice crossing theory assumes the "
+                       "envelope is sampled well above its fading bandwidth, so read these as slow-fading rates")
     return out
 
 
