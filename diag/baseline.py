@@ -35,6 +35,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
+from diag.errors import InputError
 from diag.results import GRID_NO_DATA, ChannelSeries
 
 log = logging.getLogger(__name__)
@@ -91,6 +92,24 @@ def _grid_step_ns(times_ns: np.ndarray, interval_s: float) -> int:
     if step >= 1e9:
         step = round(step / 1e9) * 1e9
     return max(int(step), 1)
+
+
+# A regular grid costs ~100 bytes per point.  Bound it, so that a few stray time stamps far from the rest (or a
+# record far longer than one analysis should hold) give a clear message instead of exhausting memory.
+MAX_GRID_POINTS = 40_000_000      # about 15 months at 1 s per channel
+SPARSE_GRID_FACTOR = 50           # grid points per logged row beyond which the log is too sparse for one grid
+SPARSE_GRID_FLOOR = 2_000_000     # ... but any record up to this many points (23 days at 1 s) is accepted
+
+
+def _check_grid_size(link_id: str, channel: str, n_points: int, n_rows: int, step_ns: int) -> None:
+    if n_points <= MAX_GRID_POINTS and n_points <= max(SPARSE_GRID_FACTOR * n_rows, SPARSE_GRID_FLOOR):
+        return
+    step_s = step_ns / 1e9
+    days = n_points * step_s / 86400.0
+    raise InputError(
+        f"hop {link_id!r}, channel {channel!r}: {n_rows} readings spread over {days:.1f} days at a {step_s:g}-s step "
+        f"would need {n_points / 1e6:.1f} M grid points; the log is too sparse or holds stray time stamps "
+        f"(check the times, or split it into shorter periods, e.g. weeks, and use 'batch')")
 
 
 def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
@@ -191,6 +210,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
         lo, hi = spans[(kind, step)]
         t0 = lo + ((int(t_ns.min()) - lo) % step)  # keep the channel's own phase on the shared span
         n = int(round((hi - t0) / step)) + 1
+        _check_grid_size(link_id, channel, n, len(main), step)
         index = pd.DatetimeIndex(t0 + step * np.arange(n, dtype=np.int64), tz="UTC", name=S.TIME)
         status = _place_status(t_ns, _status_codes(main[S.STATUS]), t0, step, n)
         cols: dict[str, np.ndarray] = {"rsl_dbm": _place(t_ns, main[S.VALUE].to_numpy(dtype=float), t0, step, n)}

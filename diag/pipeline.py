@@ -191,6 +191,7 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     links = list(links)
     pieces: dict[str, list[pd.DataFrame]] = {}
     reports: dict[str, list[dict]] = {}
+    names: dict[str, list[str]] = {}
     total = len(items)
     for done, item in enumerate(items):
         if isinstance(item, tuple):
@@ -211,6 +212,7 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
                 part = part.assign(**{S.LINK: link.link_id})
             pieces.setdefault(link.link_id, []).append(part)
             reports.setdefault(link.link_id, []).append(report)
+            names.setdefault(link.link_id, []).append(name)
     by_id = {link.link_id: link for link in links}
     results = []
     hop_ids = [link.link_id for link in links if link.link_id in pieces]
@@ -225,7 +227,12 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
         ingest = {"files": reports[link_id]}
         if dropped:
             ingest["overlap_values_dropped"] = dropped
-        results.append(analyze_link(table, by_id[link_id], config=config, gauge=gauge_table, ingest=ingest))
+        try:
+            results.append(analyze_link(table, by_id[link_id], config=config, gauge=gauge_table, ingest=ingest))
+        except InputError as exc:
+            if exc.path is None:  # a problem of the hop's data: name the file(s) it came from
+                exc.path = ", ".join(dict.fromkeys(names[link_id]))
+            raise
     if progress:
         progress(len(hop_ids), len(hop_ids), "analysis done")
     return results

@@ -109,6 +109,9 @@ def _corpus() -> dict[str, bytes]:
         f"2026-05-01T00:00:{i // 10:02d}.{i % 10}00Z,-45\n" for i in range(50))).encode()
     c["markers.csv"] = ("time,rsl_dbm\n" + _rows(
         40, lambda i, t: f"{t},{['-45', 'LOS', 'N/A', '---', '', '-128'][i % 6]}\n")).encode()
+    # a few 1-s readings and one stray stamp 17 months later: a regular grid over it would need ~45 M points
+    c["stray_far_timestamp.csv"] = (b"time,rsl_dbm\n2026-01-01T00:00:00Z,-45\n2026-01-01T00:00:01Z,-46\n"
+                                    b"2026-01-01T00:00:02Z,-46\n2027-06-01T00:00:00Z,-45\n")
     return c
 
 

@@ -65,11 +65,23 @@ def links_from_args(args: argparse.Namespace) -> list:
     if missing:
         raise InputError("describe the hop: --links LINKS, or all of --freq-ghz, --length-km, --polarization, "
                          "--threshold-dbm (missing: " + ", ".join("--" + m.replace("_", "-") for m in missing) + ")")
-    values = {"link_id": args.link_id or "link", "frequency_ghz": args.freq_ghz, "length_km": args.length_km,
+    values = {"link_id": args.link_id or _default_link_id(args.inputs), "frequency_ghz": args.freq_ghz, "length_km": args.length_km,
               "polarization": args.polarization, "threshold_dbm": args.threshold_dbm}
     for name in OPTIONAL:
         values[name] = getattr(args, name)
     return [make_link(values, where="command-line flags")]
+
+
+def _default_link_id(files: list) -> str:
+    """Flags mode without --link-id: one input file names the hop after itself (as the reader does), else "link"."""
+    from pathlib import Path
+
+    if len(files) == 1 and Path(str(files[0])).is_file():
+        name = Path(str(files[0])).name
+        for suffix in (".gz", ".csv", ".txt", ".tsv", ".parquet"):
+            name = name[: -len(suffix)] if name.lower().endswith(suffix) else name
+        return name or "link"
+    return "link"
 
 
 def _progress(quiet: bool):
