@@ -37,6 +37,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema
+from diag.errors import InputError
 from diag.models import g826
 from diag.results import ChannelSeries, LinkResult, OutageResult
 
@@ -79,6 +80,10 @@ class _Masks:
     interval_s: float
     kind: str
     block: np.ndarray | None = None   # int64 statistics-interval number of each second (-1 outside), stats only
+
+
+# per-second masks cost ~20 bytes a second: bound the period counted second by second (about 23 months)
+MAX_SECONDS = 60_000_000
 
 
 def _empty(n: int) -> np.ndarray:
@@ -645,6 +650,9 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
         f = _unit_figures(_combine_units(units, dt), dt, consecutive_s, channel_figures[0]["method"])
         kinds = [("stats", float(dt))] * len(series)
     else:
+        if n > MAX_SECONDS:
+            raise InputError(f"hop {link.link_id!r}: a period of {n / 86400:.0f} days is too long to count second by "
+                             f"second (at most {MAX_SECONDS / 86400:.0f} days); split the log into shorter periods")
         rotation: dict[int, int] = {}
         masks = [_channel_masks(s, t0, n, threshold, rotation, stats_average) for s in series]
         channel_figures = [_figures(m, consecutive_s) for m in masks]
