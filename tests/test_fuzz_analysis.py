@@ -24,7 +24,7 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from diag import schema as S
@@ -76,8 +76,8 @@ LEVEL = st.one_of(
 
 
 @st.composite
-def link_strategy(draw, link_id: str = "FZ-1"):
-    plausible = draw(st.booleans())
+def link_strategy(draw, link_id: str = "FZ-1", always_plausible: bool = False):
+    plausible = always_plausible or draw(st.booleans())
     if plausible:
         values = {"frequency_ghz": draw(st.floats(6.0, 80.0)), "length_km": draw(st.floats(0.2, 60.0)),
                   "threshold_dbm": draw(st.floats(-90.0, -60.0))}
@@ -169,7 +169,10 @@ def _analyze_or_input_error(table, link, label):
             result = analyze_link(table, link)
     except InputError as exc:
         assert exc.one_line() and "\n" not in exc.one_line()
+        event("InputError")
         return None
+    event(f"result ({'exact' if result.outage.summary.get('exact') else 'bounds'}, "
+          f"{'with' if len(result.events) else 'no'} events)")
     check_result(result, table, label)
     return result
 
@@ -178,7 +181,9 @@ def _analyze_or_input_error(table, link, label):
 @given(table=table_strategy(), link=link_strategy())
 def test_analyze_link_random_tables(table, link):
     link = _make_link(link)
-    if link is not None:
+    if link is None:
+        event("link refused")
+    else:
         _analyze_or_input_error(table, link, f"fuzz {link}")
 
 
@@ -234,7 +239,7 @@ def csv_bytes(draw):
 
 
 @FUZZ
-@given(data=csv_bytes(), link=link_strategy(link_id="fuzz"))
+@given(data=csv_bytes(), link=link_strategy(link_id="fuzz", always_plausible=True))
 def test_analyze_files_random_csv(data, link):
     from diag.ingest import read_log
 
@@ -247,7 +252,9 @@ def test_analyze_files_random_csv(data, link):
             results = analyze_files([("fuzz.csv", data)], links=[link])
     except InputError as exc:
         assert exc.one_line() and "\n" not in exc.one_line()
+        event("InputError")
         return
+    event(f"{len(results)} result(s)")
     table = read_log(data, name="fuzz.csv").table
     for result in results:
         check_result(result, table.assign(**{S.LINK: result.link.link_id}), "csv fuzz")
