@@ -28,7 +28,6 @@ from __future__ import annotations
 
 import logging
 import math
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -187,6 +186,11 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
     groups = _groups(table)
     channels = sorted({key[0] for key in groups if key[1] == S.RSL})
     tsl_channels = sorted({key[0] for key in groups if key[1] == S.TSL})
+    counters: dict = {}  # error-counter blocks by (channel, quantity) and by quantity, in the groups' order
+    for (ch, q, _), f in groups.items():
+        if q in (S.ES, S.SES, S.UAS):
+            counters.setdefault((ch, q), []).append(f)
+            counters.setdefault(q, []).append(f)
     mains = {}
     for channel in channels:
         if (channel, S.RSL, S.SAMPLE) in groups:
@@ -240,9 +244,9 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
             ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
             cols[quantity] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
         for quantity in (S.ES, S.SES, S.UAS):  # the radio's own error counters, for the outage cross-check
-            counter = [f for (ch, q, _), f in groups.items() if ch == channel and q == quantity]
+            counter = counters.get((channel, quantity), [])
             if not counter and len(channels) == 1:
-                counter = [f for (_, q, _), f in groups.items() if q == quantity]
+                counter = counters.get(quantity, [])
             if counter:
                 ts = counter[0][S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
                 cols[quantity] = _place(ts, counter[0][S.VALUE].to_numpy(dtype=float), t0, step, n)
@@ -274,10 +278,23 @@ def _block_medians(values: np.ndarray, block: int, min_coverage: float) -> np.nd
     padded[: len(values)] = values
     blocks = padded.reshape(n_blocks, block)
     valid = np.isfinite(blocks).sum(axis=1)
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        med = np.nanmedian(blocks, axis=1)
+    med = _row_nanmedian(blocks)
     med[valid < max(1, int(min_coverage * block))] = np.nan
+    return med
+
+
+def _row_nanmedian(blocks: np.ndarray) -> np.ndarray:
+    """``np.nanmedian(blocks, axis=1)`` without its per-row Python loop: one sort (NaN sorts last), then the middle
+    value, or the mean of the two middle values, of each row's non-NaN values (the same arithmetic as numpy's
+    median, so the same bits); NaN for a row with no value."""
+    ordered = np.sort(blocks, axis=1)
+    k = (~np.isnan(blocks)).sum(axis=1)
+    rows = np.arange(len(blocks))
+    hi = np.minimum(k // 2, blocks.shape[1] - 1)
+    lo = np.maximum(k - 1, 0) // 2
+    with np.errstate(invalid="ignore"):
+        med = (ordered[rows, lo] + ordered[rows, hi]) / 2.0
+    med[k == 0] = np.nan
     return med
 
 

@@ -352,8 +352,16 @@ def _harmonise_groups(events: pd.DataFrame) -> None:
     highest confidence wins between rain and refractive when it is at least 0.15 more confident; multipath,
     signal_loss and level_shift stay per channel."""
     prop = {S.RAIN, S.REFRACTIVE}   # a channel whose own features say fast fading keeps its multipath verdict
-    for _, idx in events.groupby("group_id").groups.items():
-        if len(idx) < 2:
+    if not len(events):
+        return
+    # only groups holding two different propagation verdicts can change: find them in one pass
+    in_prop = events["cause"].isin(prop)
+    mixed = events.loc[in_prop].groupby("group_id")["cause"].nunique()
+    mixed = set(mixed.index[mixed.to_numpy() > 1])
+    if not mixed:
+        return
+    for group, idx in events.groupby("group_id").groups.items():
+        if group not in mixed or len(idx) < 2:
             continue
         sub = events.loc[idx]
         mask = sub["cause"].isin(prop)
