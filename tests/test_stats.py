@@ -15,7 +15,7 @@ from scipy import stats as sps
 
 from diag import stats
 from diag.links import make_link
-from diag.results import ChannelSeries, LinkResult
+from diag.results import ChannelSeries
 from diag.simulate import Effect, LinkSpec, simulate_link
 
 sys.path.insert(0, str(Path(__file__).parent))
