@@ -10,19 +10,23 @@ swing it both ways around its mean (multipath), so the detector works on robust 
    level of a window is a trimmed median: the median of the samples no more than ``fade_trim_db`` below the
    window's upper quartile (fades are cut away, noise is not);
 3. boundaries where the difference exceeds ``min_step_db`` and is a local maximum within ``window_s`` are
-   candidates.  They are tried largest first; the evidence windows are bounded only by steps already accepted.
-   A candidate is kept when (a) the new level persists over ``persist_s`` (or up to the next accepted step, at
-   least one window) by at least half the step, (b) it is flat (most blocks after it sit near the new level;
-   a long rain fade wanders), and (c) it is abrupt: the clear level of the ``abrupt_s`` just before and after
-   the refined time already differ by ``min_abrupt_fraction`` of the step (the slow end of a refractive fade
-   or a drift is not);
+   candidates.  They are tried largest first, each judged at the centre of its plateau of near-peak difference;
+   the evidence windows are bounded only by steps already accepted.  A candidate is kept when (a) the new level
+   persists over ``persist_s`` (up to the next accepted step; at least one window, or ``min_edge_s`` at the
+   start/end of the record) by at least half the step, (b) it is not larger than ``max_step_db`` (a drop to the
+   receiver floor is a loss of signal, not a shift), (c) it is flat (most blocks after it sit near the new level,
+   blocks faded below it left out; a long rain fade wanders), and (d) it is abrupt: the nearest unfaded samples
+   just before and after the refined time already differ by ``min_abrupt_fraction`` of the step (the slow end of
+   a refractive fade or a drift is not);
 4. the step time is refined at full resolution over the plateau where the two-window difference stays within
    80 % of its peak: each sample is put on the old or new side of the mid level, and the split minimising a
    weighted count of samples on the wrong side is found with cumulative sums (exact, O(n)); a sample on the low
    side counts little where a fade could explain it (rain just before a downward step does not move the split).
 
-The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected
-steps have been removed, in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
+Step sizes are trimmed means of the samples near each side's clear level (1-dB quantisation averages out).
+The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected steps
+have been removed and (in :func:`channel_level_changes`, when causes are known) the samples of fade events masked,
+in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
 """
 from __future__ import annotations
 
