@@ -15,7 +15,8 @@ Entry point :func:`link_statistics` (fills ``LinkResult.statistics``).  Per chan
   (diag.models.fading), pooled and per event.
 - **Level-crossing rate and average fade duration** over the same periods at several depths below the local mean;
   the fading bandwidth f_m is fitted from the observed crossing rates (Rayleigh N_R = sqrt(2 pi) f_m rho e^-rho^2),
-  then theory and observation are listed side by side (diag.models.fading).
+  then theory and observation are listed side by side; with the K measured over the same periods the fit is
+  repeated under the Rice law (diag.models.fading), which the Rayleigh law misreads when K is large.
 - **Rain**: the P.530 rain attenuation A_p for p = 1, 0.1, 0.01, 0.001 % of an average year (needs ``r001_mmh``)
   next to the depths the rain fades exceeded for the same percentages of the observed period, the deepest rain
   fade, and the time the rain fade exceeded A_0.01.
