@@ -139,11 +139,15 @@ def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
     csum = np.concatenate([[0.0], np.cumsum(np.where(ok, x, 0.0))])
     ccount = np.concatenate([[0], np.cumsum(ok)])
     half = width // 2
-    idx = np.arange(x.size)
-    lo = np.clip(idx - half, 0, x.size)
-    hi = np.clip(idx - half + width, 0, x.size)
-    num = csum[hi] - csum[lo]
-    den = ccount[hi] - ccount[lo]
+    n = x.size
+    # window [i - half, i - half + width) clipped to [0, n]: the sums at its ends by slicing edge-padded sums
+    # (the same values a clipped index gather picks, without the gathers)
+    lo_c = np.concatenate([np.repeat(csum[:1], half), csum])[:n]
+    hi_c = np.concatenate([csum, np.repeat(csum[-1:], width)])[width - half:width - half + n]
+    lo_n = np.concatenate([np.repeat(ccount[:1], half), ccount])[:n]
+    hi_n = np.concatenate([ccount, np.repeat(ccount[-1:], width)])[width - half:width - half + n]
+    num = hi_c - lo_c
+    den = hi_n - lo_n
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(den > 0, num / den, np.nan)
 
@@ -196,7 +200,6 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     smooth60 = _running_mean(att, max(1, int(round(60.0 / step))))
     noise_diff = _noise_diff(att, floor, config)
     index = frame.index
-    hours = index.hour.to_numpy()
     if stats:
         spread_all = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
                       - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
@@ -279,7 +282,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "peak_fade_db_finite": peak, "mean_fade_db": mean_fade, "time_to_peak_s": float((ipeak - a) * step),
             "slope_in_db_s": float(slope_in), "slope_out_db_s": float(slope_out), "variability_db": variability,
             "roughness": roughness, "upfade_within_db": up_in, "upfade_before_db": up_before,
-            "upfade_after_db": up_after, "hour_utc": int(hours[ipeak]), "floor_fraction": floor_frac,
+            "upfade_after_db": up_after, "hour_utc": int(index[ipeak].hour), "floor_fraction": floor_frac,
             "pre_floor_fade_db": pre_floor, "below_threshold_s": float(below[a:b].sum() * step),
             "valid_fraction": float((finite | fl).mean()), "partner_corr": corr, "partner_ratio": ratio,
             "v_over_h_ratio": vh, "expected_v_over_h": rain.v_over_h(rate_h),
