@@ -68,3 +68,23 @@ def test_quiet_hop_has_no_high_findings():
                     duration_s=3 * 3600)
     out = findings.rank_findings(_analysed(spec))
     assert all(f["severity"] != "high" for f in out)
+
+
+def test_coarse_logs_quote_bounds_not_one_number():
+    # 15-min statistics give outage bounds (diag.outage); the finding must quote "lo to hi", never a made-up value
+    import numpy as np
+
+    spec = LinkSpec(link_id="coarse", frequency_ghz=23, length_km=12, polarization="H", threshold_dbm=-68,
+                    duration_s=6 * 3600, effects=(Effect("rain", 3600, 2 * 3600, {"peak_mmh": 90}),))
+    result = _analysed(spec)
+    by = result.outage.by_cause
+    rain = by["cause"] == "rain"
+    by.loc[rain, "unavailable_s_lo"] = 600.0
+    by.loc[rain, "unavailable_s_hi"] = 1500.0
+    by.loc[rain, "below_threshold_s_lo"] = 700.0
+    by.loc[rain, "below_threshold_s_hi"] = 1600.0
+    by["unavailable_s"] = np.nan
+    by["below_threshold_s"] = np.nan
+    top = [f for f in findings.rank_findings(result) if f["cause"] == "rain"][0]
+    assert "700 to 1600 s" in top["detail"] and "600 to 1500 s" in top["detail"]
+    assert top["numbers"]["unavailable_s"] is None and top["numbers"]["unavailable_s_hi"] == 1500.0
