@@ -111,16 +111,30 @@ def _check_grid_size(link_id: str, channel: str, n_points: int, n_rows: int, ste
         f"(check the times, or split it into shorter periods, e.g. weeks, and use 'batch')")
 
 
-def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
-    """Values on the grid (mean of rows falling on the same grid point), NaN where none."""
+def _positions(times_ns: np.ndarray, t0: int, step: int, n: int) -> tuple:
+    """Grid position of each row: (positions, rows kept (None = all), positions strictly increasing)."""
     pos = np.rint((times_ns - t0) / step).astype(np.int64)
     keep = (pos >= 0) & (pos < n)
-    pos, values = pos[keep], values[keep]
+    if keep.all():
+        keep = None
+    else:
+        pos = pos[keep]
+    return pos, keep, bool(pos.size) and bool(np.all(pos[1:] > pos[:-1]))
+
+
+def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int, where: tuple | None = None
+           ) -> np.ndarray:
+    """Values on the grid (mean of rows falling on the same grid point), NaN where none.
+
+    ``where``: the rows' :func:`_positions` when already known (channels' quantities share their time stamps)."""
+    pos, keep, increasing = where if where is not None else _positions(times_ns, t0, step, n)
+    if keep is not None:
+        values = values[keep]
     out = np.full(n, np.nan)
-    finite = np.isfinite(values)
-    if pos.size and np.all(pos[1:] > pos[:-1]):  # sorted, one row per grid point: the usual case
+    if increasing:  # sorted, one row per grid point: the usual case
         out[pos] = values
         return out
+    finite = np.isfinite(values)
     sums = np.bincount(pos[finite], weights=values[finite], minlength=n)
     counts = np.bincount(pos[finite], minlength=n)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -141,13 +155,14 @@ def _status_codes(status: pd.Series) -> np.ndarray:
     return codes
 
 
-def _place_status(times_ns: np.ndarray, codes: np.ndarray, t0: int, step: int, n: int) -> np.ndarray:
+def _place_status(times_ns: np.ndarray, codes: np.ndarray, t0: int, step: int, n: int,
+                  where: tuple | None = None) -> np.ndarray:
     """Status code per grid point: 0 ok, 1 missing, 2 signal_lost, 3 no data (an ok row wins a collision)."""
-    pos = np.rint((times_ns - t0) / step).astype(np.int64)
-    keep = (pos >= 0) & (pos < n)
+    pos, keep, increasing = where if where is not None else _positions(times_ns, t0, step, n)
+    if keep is not None:
+        codes = codes[keep]
     out = np.full(n, 3, dtype=np.int8)
-    pos, codes = pos[keep], codes[keep]
-    if pos.size and np.all(pos[1:] > pos[:-1]):
+    if increasing:
         out[pos] = codes
     else:
         np.minimum.at(out, pos, codes)
@@ -216,16 +231,24 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
         n = int(round((hi - t0) / step)) + 1
         _check_grid_size(link_id, channel, n, len(main), step)
         index = pd.DatetimeIndex(t0 + step * np.arange(n, dtype=np.int64), tz="UTC", name=S.TIME)
-        status = _place_status(t_ns, _status_codes(main[S.STATUS]), t0, step, n)
-        cols: dict[str, np.ndarray] = {"rsl_dbm": _place(t_ns, main[S.VALUE].to_numpy(dtype=float), t0, step, n)}
+        main_where = _positions(t_ns, t0, step, n)
+
+        def where(ts: np.ndarray, main_where=main_where, t_ns=t_ns, t0=t0, step=step, n=n) -> tuple:
+            same = ts.shape == t_ns.shape and np.array_equal(ts, t_ns)
+            return main_where if same else _positions(ts, t0, step, n)
+
+        status = _place_status(t_ns, _status_codes(main[S.STATUS]), t0, step, n, main_where)
+        cols: dict[str, np.ndarray] = {"rsl_dbm": _place(t_ns, main[S.VALUE].to_numpy(dtype=float), t0, step, n,
+                                                         main_where)}
         if kind == "stats":
             for stat, name in ((S.MIN, "rsl_min_dbm"), (S.MAX, "rsl_max_dbm")):
                 frame = groups.get((channel, S.RSL, stat))
                 if frame is not None:
                     ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
-                    cols[name] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
+                    at = where(ts)
+                    cols[name] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n, at)
                     if stat == S.MIN:  # a signal-lost minimum marks the interval as reaching the floor
-                        st = _place_status(ts, _status_codes(frame[S.STATUS]), t0, step, n)
+                        st = _place_status(ts, _status_codes(frame[S.STATUS]), t0, step, n, at)
                         status = np.where((st == 2) & (status == 0), 2, status)
                 else:
                     cols[name] = cols["rsl_dbm"].copy()
@@ -242,7 +265,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
             if frame is None:
                 continue
             ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
-            cols[quantity] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n)
+            cols[quantity] = _place(ts, frame[S.VALUE].to_numpy(dtype=float), t0, step, n, where(ts))
         for quantity in (S.ES, S.SES, S.UAS):  # the radio's own error counters, for the outage cross-check
             counter = counters.get((channel, quantity), [])
             if not counter and len(channels) == 1:
