@@ -144,11 +144,17 @@ def _place(times_ns: np.ndarray, values: np.ndarray, t0: int, step: int, n: int,
 
 _STATUS_RANK = {S.OK: 0, S.MISSING: 1, S.SIGNAL_LOST: 2}
 STATUS_CATEGORIES = [S.OK, S.SIGNAL_LOST, S.MISSING, GRID_NO_DATA]
+STATUS_DTYPE = pd.CategoricalDtype(STATUS_CATEGORIES)   # built once: a dtype per channel costs ~0.5 ms
 _STATUS_ORDER = np.array([0, 2, 1, 3], dtype=np.int8)   # internal code (ok, missing, lost, no data) -> category
 
 
 def _status_codes(status: pd.Series) -> np.ndarray:
     """Row status as codes 0 ok, 1 missing, 2 signal_lost (vectorised comparisons, no per-row Python)."""
+    if isinstance(status.dtype, pd.CategoricalDtype):  # the normalised table's categorical: map the categories once
+        names = [str(c) for c in status.cat.categories]
+        per_category = np.array([0 if c == S.OK else 2 if c == S.SIGNAL_LOST else 1 for c in names] + [1],
+                                dtype=np.int8)
+        return per_category[status.cat.codes.to_numpy()]   # code -1 (no value) -> the last entry, missing
     codes = np.ones(len(status), dtype=np.int8)
     codes[(status == S.OK).to_numpy(dtype=bool, na_value=False)] = 0
     codes[(status == S.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)] = 2
@@ -275,7 +281,7 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
                 cols[quantity] = _place(ts, counter[0][S.VALUE].to_numpy(dtype=float), t0, step, n)
         frame = pd.DataFrame(cols, index=index)
         # categorical: compares and converts like the str column the results docstring names, built in O(n)
-        frame["status"] = pd.Categorical.from_codes(_STATUS_ORDER[status], categories=STATUS_CATEGORIES)
+        frame["status"] = pd.Categorical.from_codes(_STATUS_ORDER[status], dtype=STATUS_DTYPE, validate=False)
         out[channel] = ChannelSeries(link_id=link_id, channel=channel, interval_s=step / 1e9, kind=kind,
                                      frame=frame)
     return out

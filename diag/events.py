@@ -357,11 +357,20 @@ def find_events(series: dict[str, ChannelSeries], link: Link, *, config: Analysi
     return events[columns]
 
 
+CAUSE_DTYPE = pd.CategoricalDtype(list(S.CAUSES) + [""])   # the painted "cause" column ("" = no event)
+
+
 def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None:
     """Add ``event_id`` (row of ``events``, -1 none) and ``cause`` to each channel frame.
 
     Longer events are painted first, so the innermost (shortest) event covering a point wins.
     """
+    # categorical over the cause vocabulary ("" = no event): built from codes in O(n); the code of each event row
+    # (and, last, of "no event") is looked up once for all channels
+    categories = list(CAUSE_DTYPE.categories)
+    lookup = {c: i for i, c in enumerate(categories)}
+    codes = np.array([lookup.get(str(c), lookup[S.UNKNOWN]) for c in events["cause"]] + [len(categories) - 1],
+                     dtype=np.int16) if len(events) else np.array([len(categories) - 1], dtype=np.int16)
     for name, item in series.items():
         n = len(item.frame)
         event_id = np.full(n, -1, dtype=np.int64)
@@ -384,10 +393,5 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
                     with np.errstate(invalid="ignore"):
                         weaker = (inner != row_id) & ~(att[a:b] > size) & ~lost[a:b]
                     inner[weaker] = row_id
-        # categorical over the cause vocabulary ("" = no event): built from codes in O(n)
-        categories = list(S.CAUSES) + [""]
-        lookup = {c: i for i, c in enumerate(categories)}
-        codes = np.array([lookup.get(str(c), lookup[S.UNKNOWN]) for c in events["cause"]] + [len(categories) - 1],
-                         dtype=np.int16) if len(events) else np.array([len(categories) - 1], dtype=np.int16)
         item.frame["event_id"] = event_id
-        item.frame["cause"] = pd.Categorical.from_codes(codes[event_id], categories=categories)
+        item.frame["cause"] = pd.Categorical.from_codes(codes[event_id], dtype=CAUSE_DTYPE, validate=False)
