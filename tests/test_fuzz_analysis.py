@@ -2,7 +2,7 @@
 
 * ``analyze_link`` on random normalised tables (the shape the reader returns: sorted, unique, right dtypes) with
   random levels (inside and outside plausible ranges), statuses, gaps, channels, sampling steps, interval
-  statistics and random link parameters (inside and outside plausible ranges);
+  statistics, a stray row days to years away, and random link parameters (inside and outside plausible ranges);
 * ``analyze_files`` on random and mutated CSV bytes (reader + analysis together; the reader alone is fuzzed in
   tests/test_ingest_fuzz.py).
 
@@ -117,7 +117,12 @@ def table_strategy(draw, link_id: str = "FZ-1"):
         keep[start:start + length] = False
     if not keep.any():
         keep[0] = True
-    times = T0 + pd.to_timedelta(np.flatnonzero(keep) * step, unit="s")
+    offsets = np.flatnonzero(keep) * step
+    # a stray row far away in time (days to years): the grid must stay bounded (InputError or a result)
+    stray = draw(st.sampled_from([None, None, None, 2 * 86400.0, 40 * 86400.0, 3 * 365 * 86400.0]))
+    if stray is not None:
+        offsets = np.append(offsets, offsets[-1] + stray)
+    times = T0 + pd.to_timedelta(offsets, unit="s")
     base = draw(LEVEL)
     mode = draw(st.sampled_from(["constant", "noise", "fades", "random"]))
     seed = draw(st.integers(0, 2**31 - 1))
@@ -162,7 +167,7 @@ def table_strategy(draw, link_id: str = "FZ-1"):
                          S.INTERVAL: "float64", S.VALUE: "float64"})
 
 
-def _analyze_or_input_error(table, link, label):
+def _analyze_or_input_error(table, link, label, raise_input_error=False):
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -170,6 +175,8 @@ def _analyze_or_input_error(table, link, label):
     except InputError as exc:
         assert exc.one_line() and "\n" not in exc.one_line()
         event("InputError")
+        if raise_input_error:
+            raise
         return None
     event(f"result ({'exact' if result.outage.summary.get('exact') else 'bounds'}, "
           f"{'with' if len(result.events) else 'no'} events)")
@@ -194,8 +201,12 @@ def test_analyze_link_plausible_hop(table, data):
     link = make_link({"link_id": "FZ-1", "frequency_ghz": 23.0, "length_km": 8.0,
                       "polarization": data.draw(st.sampled_from(["H", "V", "dual"])), "threshold_dbm": -72.0,
                       "nominal_dbm": -40.0, "objective_pct": 99.99}, where="fuzz")
-    result = _analyze_or_input_error(table, link, "plausible hop")
-    assert result is not None   # a table with receive-level rows is always analysable
+    try:
+        result = _analyze_or_input_error(table, link, "plausible hop", raise_input_error=True)
+    except InputError as exc:  # only a log too sparse for one regular grid (a stray far row) may be refused
+        assert "too sparse" in str(exc) or "too long" in str(exc), exc
+        return
+    assert result is not None
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -217,7 +228,7 @@ def csv_bytes(draw):
     t = 0
     pool = draw(st.lists(cells, min_size=1, max_size=8))
     for i in range(n):
-        t += step * (1 if rng.random() > 0.05 else int(rng.integers(2, 500)))
+        t += step * (1 if rng.random() > 0.05 else int(rng.integers(2, 50)))   # bounded gaps: spans stay small
         stamp = (T0 + pd.Timedelta(seconds=t)).strftime("%Y-%m-%dT%H:%M:%SZ")
         vals = [f"{base + rng.normal(0, 2):.1f}" if rng.random() > 0.2 else pool[int(rng.integers(len(pool)))]
                 for _ in range(2 if dual else 1)]
@@ -258,3 +269,39 @@ def test_analyze_files_random_csv(data, link):
     table = read_log(data, name="fuzz.csv").table
     for result in results:
         check_result(result, table.assign(**{S.LINK: result.link.link_id}), "csv fuzz")
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# memory stays bounded on a sparse log (a stray far time stamp must not become a huge regular grid)
+
+
+@pytest.mark.parametrize("far_s", [3 * 86400, 5 * 365 * 86400])
+def test_sparse_log_bounded_memory(tmp_path, far_s):
+    """200 one-second rows plus one row days or years later, analysed in a child process whose address space is
+    capped at 3 GiB (resource.setrlimit): status 0 with outputs, or status 2 with one line; never a MemoryError."""
+    import resource
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    lines = ["time,rsl_dbm"] + [f"{(T0 + pd.Timedelta(seconds=i)).strftime('%Y-%m-%dT%H:%M:%SZ')},-45.{i % 10}"
+                                for i in range(200)]
+    lines.append(f"{(T0 + pd.Timedelta(seconds=200 + far_s)).strftime('%Y-%m-%dT%H:%M:%SZ')},-46.0")
+    path = tmp_path / "sparse.csv"
+    path.write_text("\n".join(lines) + "\n")
+    cap = 3 * 1024 ** 3
+
+    def limit():
+        resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
+
+    proc = subprocess.run([sys.executable, "-m", "diag", "analyze", str(path), "--freq-ghz", "23", "--length-km", "8",
+                           "--polarization", "H", "--threshold-dbm", "-72", "--out", str(tmp_path / "out")],
+                          capture_output=True, text=True, timeout=300, preexec_fn=limit,
+                          cwd=Path(__file__).resolve().parents[1])
+    assert "MemoryError" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr[-2000:]
+    assert proc.returncode in (0, 2), proc.stderr[-2000:]
+    if proc.returncode == 2:
+        errors = [ln for ln in proc.stderr.splitlines() if ln.startswith("diag: error:")]
+        assert len(errors) == 1 and "sparse.csv" in errors[0], proc.stderr
+    else:
+        assert (tmp_path / "out" / "outage_summary.csv").exists()
