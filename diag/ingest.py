@@ -676,6 +676,35 @@ def _iso(ns: int) -> str:
     return pd.Timestamp(int(ns), tz="UTC").isoformat().replace("+00:00", "Z")
 
 
+def _link_stamps(table: pd.DataFrame, ns: np.ndarray) -> list[tuple[str, np.ndarray]]:
+    """[(link id, its sorted distinct stamps)] per link, by link id.  The table is sorted by link, channel,
+    quantity, stat, time, so each (channel, quantity, stat) block is already sorted and distinct; when every block of a link holds
+    the same stamps (a wide log: every row has every column) the first block IS the union: no sort of all rows."""
+    codes = [table[c].cat.codes.to_numpy() if isinstance(table[c].dtype, pd.CategoricalDtype)
+             else pd.factorize(table[c])[0] for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT)]
+    change = np.zeros(len(ns), dtype=bool)
+    change[0] = True
+    for c in codes:
+        change[1:] |= c[1:] != c[:-1]
+    starts = np.flatnonzero(change)
+    del change
+    ends = np.append(starts[1:], len(ns))
+    by_link: dict = {}
+    for a, b, k in zip(starts.tolist(), ends.tolist(), codes[0][starts].tolist()):
+        by_link.setdefault(k, []).append((a, b))
+    out = []
+    for blocks in by_link.values():
+        a0, b0 = blocks[0]
+        first = ns[a0:b0]
+        same = all(b - a == b0 - a0 and np.array_equal(ns[a:b], first) for a, b in blocks[1:])
+        if same and bool(np.all(first[1:] > first[:-1])):
+            t = first
+        else:
+            t = N.sorted_unique(np.concatenate([ns[a:b] for a, b in blocks]))
+        out.append((str(table[S.LINK].iloc[a0]), t))
+    return sorted(out, key=lambda item: item[0])
+
+
 def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
     report.links = sorted(table[S.LINK].unique().tolist()) if len(table) else []
     report.channels = sorted(table[S.CHANNEL].unique().tolist()) if len(table) else []
@@ -690,13 +719,11 @@ def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
     report.start_utc, report.end_utc = _iso(ns.min()), _iso(ns.max())
     gaps = []
     steps, stepped = [], []
-    links = table[S.LINK].to_numpy(dtype=object) if len(report.links) > 1 else None
-    for lk in report.links:
-        t = N.sorted_unique(ns if links is None else ns[links == lk])
+    for lk, t in _link_stamps(table, ns):
         if len(t) < 2:
             continue
+        step = N.mode_step_ns(t)     # (its own diff array is freed before ours is made)
         d = np.diff(t)
-        step = N.mode_step_ns(t)
         steps.append(step)
         stepped.append(lk)
         big = np.flatnonzero(d > 1.5 * step)
@@ -792,7 +819,7 @@ def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str |
     if len(results) == 1:
         return results[0]
     tables = [r.table for r in results if len(r.table)]
-    table = pd.concat(tables, ignore_index=True) if tables else S.empty_table()
+    table = S.concat(tables)   # keeps the key columns categorical (unions their categories)
     rep = IngestReport(file=", ".join(r.report.file for r in results), layout="several")
     rep.files = [r.report.to_dict() for r in results]
     rep.rows_read = sum(r.report.rows_read for r in results)
@@ -813,7 +840,7 @@ def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str |
             rep.overlap_values_dropped = int(dup.sum())
             rep.warnings.append(f"{rep.overlap_values_dropped} values appear in more than one file; kept once")
             table = table[~dup]
-        table = table.reset_index(drop=True)
+        table = S.conform(table.reset_index(drop=True))   # (drops link/channel categories no longer present)
     st = table[S.STATUS].value_counts().to_dict() if len(table) else {}
     rep.values = {"read": sum(r.report.values.get("read", 0) for r in results), "ok": int(st.get(S.OK, 0)),
                   "signal_lost": int(st.get(S.SIGNAL_LOST, 0)), "missing": int(st.get(S.MISSING, 0)),

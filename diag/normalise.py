@@ -597,29 +597,6 @@ class Series:
     reasons: list = field(default_factory=list)
 
 
-def _repeated_strings(words: list[str], counts: np.ndarray) -> pd.Series:
-    """A "str" Series holding words[i] counts[i] times, in order, built straight from Arrow buffers."""
-    enc = [w.encode("utf-8") for w in words]
-    counts = np.asarray(counts, dtype=np.int64)
-    n = int(counts.sum())
-    total = int(sum(len(b) * int(k) for b, k in zip(enc, counts)))
-    big = total >= 2**31 - 1
-    offsets = np.empty(n + 1, dtype=np.int64 if big else np.int32)
-    pos = cur = 0
-    for b, k in zip(enc, counts):     # each word repeated: offsets are a ramp; no per-row length array
-        k = int(k)
-        offsets[pos:pos + k] = np.arange(k, dtype=offsets.dtype)
-        offsets[pos:pos + k] *= len(b)
-        offsets[pos:pos + k] += cur
-        pos += k
-        cur += len(b) * k
-    offsets[n] = cur
-    data = b"".join(b * int(k) for b, k in zip(enc, counts))
-    cls = pa.LargeStringArray if big else pa.StringArray
-    arr = cls.from_buffers(n, pa.py_buffer(offsets), pa.py_buffer(data))
-    return pd.Series(pd.array(arr, dtype="str"), copy=False)
-
-
 def build_table(parts: list) -> pd.DataFrame:
     """Assemble the long table from parts [link, channel, quantity, stat, interval, ns, values, status-codes].
 
@@ -631,26 +608,30 @@ def build_table(parts: list) -> pd.DataFrame:
     if int(lens.sum()) == 0:
         return S.empty_table()
     cols = {}
-    ns = np.concatenate([p[5] for p in parts])
-    cols[S.TIME] = pd.Series(pd.DatetimeIndex(ns.view("datetime64[ns]")).tz_localize("UTC"), copy=False)
-    del ns
-    for p in parts:
-        p[5] = None
-    for k, name in enumerate([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT]):
-        cols[name] = _repeated_strings([p[k] for p in parts], lens)
-    cols[S.INTERVAL] = pd.Series(np.repeat(np.array([float(p[4]) for p in parts]), lens), dtype="float64")
+    # values first: the (rows x columns) value array the parts are views of is released right after
     cols[S.VALUE] = pd.Series(np.concatenate([p[6] for p in parts]), dtype="float64", copy=False)
     for p in parts:
         p[6] = None
+    ns = np.concatenate([p[5] for p in parts])
+    for p in parts:
+        p[5] = None
+    cols[S.TIME] = pd.Series(pd.DatetimeIndex(ns.view("datetime64[ns]")).tz_localize("UTC"), copy=False)
+    del ns
+    for k, name in enumerate([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT]):
+        cols[name] = S.key_column_runs(name, [p[k] for p in parts], lens)   # categorical: ~1 byte a row
+    cols[S.INTERVAL] = pd.Series(np.repeat(np.array([float(p[4]) for p in parts]), lens), dtype="float64")
     st = np.concatenate([p[7] for p in parts])
     for p in parts:
         p[7] = None
-    # status: runs of equal codes -> repeated words
-    change = np.flatnonzero(np.diff(st)) + 1
-    run_start = np.concatenate(([0], change))
-    run_len = np.diff(np.concatenate((run_start, [len(st)])))
-    cols[S.STATUS] = _repeated_strings([S.STATUSES[c] for c in st[run_start]], run_len)
+    # status: internal codes (order of S.STATUSES) -> codes of the sorted status categories, in place
+    dtype = S.key_dtype(S.STATUS)
+    target = dtype.categories.get_indexer(list(S.STATUSES))
+    recoded = np.empty_like(st)
+    for code, new in enumerate(target):
+        recoded[st == code] = new
     del st
+    cols[S.STATUS] = pd.Series(pd.Categorical.from_codes(recoded, dtype=dtype), copy=False)
+    del recoded
     table = pd.DataFrame(index=pd.RangeIndex(len(cols[S.TIME])))
     for name in S.COLUMNS:      # one column at a time: no consolidation copy of the float columns
         table[name] = cols.pop(name)
@@ -1072,6 +1053,25 @@ def _convert_units(plan: ColumnPlan, vals: np.ndarray, reas: np.ndarray, report)
                     report.guesses.append(msg)
 
 
+def _gather(chunks: list[RowBlock]) -> tuple[np.ndarray, ...]:
+    """Concatenate the blocks' arrays into preallocated arrays, releasing each block once copied (so the blocks
+    and their concatenation are never both held whole: peak = result + one block)."""
+    n = sum(len(c.ns) for c in chunks)
+    first = chunks[0]
+    out = [np.empty((n,) + a.shape[1:], dtype=a.dtype)
+           for a in (first.ns, first.key, first.rownum, first.values, first.reasons)]
+    pos = 0
+    chunks.reverse()
+    while chunks:
+        c = chunks.pop()
+        k = len(c.ns)
+        for dst, a in zip(out, (c.ns, c.key, c.rownum, c.values, c.reasons)):
+            dst[pos:pos + k] = a
+        pos += k
+        del c
+    return tuple(out)
+
+
 def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, rejected: dict,
              default_link: str, mapping: dict, header_line: int) -> pd.DataFrame:
     """Kept rows of all blocks -> the sorted long table.
@@ -1082,12 +1082,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
     if not chunks or sum(len(c.ns) for c in chunks) == 0:
         report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
         return S.empty_table()
-    ns = np.concatenate([c.ns for c in chunks])
-    key = np.concatenate([c.key for c in chunks])
-    rownum = np.concatenate([c.rownum for c in chunks])
-    vals = np.concatenate([c.values for c in chunks])
-    reas = np.concatenate([c.reasons for c in chunks])
-    chunks.clear()
+    ns, key, rownum, vals, reas = _gather(chunks)
     # quantity-name layout: rows whose name is not a known quantity are rejected
     kinfo = []
     for t in keys.tuples:
@@ -1105,9 +1100,14 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
     # out-of-order rows (file order, per key)
     placed = rownum >= 0     # rows re-read after a field-count mismatch have no known place (rownum -1)
-    fo = np.flatnonzero(placed)[np.argsort(key[placed], kind="stable")]
-    same = key[fo][1:] == key[fo][:-1]
-    report.out_of_order_rows = int((same & (np.diff(ns[fo]) < 0)).sum())
+    if placed.all() and bool(np.all(key[1:] >= key[:-1])):   # keys already grouped in file order: no sort copies
+        report.out_of_order_rows = int(((key[1:] == key[:-1]) & (ns[1:] < ns[:-1])).sum())
+    else:
+        fo = np.flatnonzero(placed)[np.argsort(key[placed], kind="stable")]
+        same = key[fo][1:] == key[fo][:-1]
+        report.out_of_order_rows = int((same & (np.diff(ns[fo]) < 0)).sum())
+        del fo, same
+    del placed
     if report.out_of_order_rows:
         report.warnings.append(f"{report.out_of_order_rows} rows were out of time order (sorted)")
     # sort by key then time (stable: file order among equal stamps)
@@ -1225,7 +1225,10 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             t = t - np.int64(round(shift * 1e9))
         parts.append([link, channel, q, st, float(iv), t, v, r])
     # value accounting (reason codes -> counts; then the codes are replaced by the status codes)
+    # drop every name still bound to a view of the big arrays (loop variables too), so build_table can free
+    # each input array as soon as it has been copied into the table
     del ns, key, rownum, vals, reas, series
+    sr = group = t = v = r = None  # noqa: F841
     counts = np.zeros(len(REASON_NAMES) + 1, dtype=np.int64)
     for p in parts:
         counts += np.bincount(p[7], minlength=len(counts))[:len(counts)]
@@ -1252,8 +1255,9 @@ def mode_step_ns(t: np.ndarray) -> float | None:
     """The most common step between sorted unique stamps (ties: the shortest); robust to gaps and jitter-free logs."""
     if len(t) < 2:
         return None
-    d = np.sort(np.diff(t))
-    d = d[d > 0]
+    d = np.diff(t)
+    d.sort()                                   # in place: no second copy
+    d = d[np.searchsorted(d, 0, side="right"):]   # the positive steps (a view)
     if not d.size:
         return None
     starts = np.flatnonzero(np.concatenate(([True], d[1:] != d[:-1])))

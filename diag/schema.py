@@ -7,18 +7,27 @@ value, sorted by ``link_id, channel, quantity, stat, time_utc``:
 column         dtype                                   meaning
 =============  ======================================  ==============================================================
 time_utc       datetime64[ns, UTC]                     sample time, or the START of the statistics interval
-link_id        str                                     hop identifier ("" never; the reader fills a default)
-channel        str                                     polarisation or direction ("H", "V", "A-B", "ch1" ...)
-quantity       str (QUANTITIES)                        what was measured
-stat           str (STATS)                             instantaneous sample, or interval min / avg / max
+link_id        category (str categories)               hop identifier ("" never; the reader fills a default)
+channel        category (str categories)               polarisation or direction ("H", "V", "A-B", "ch1" ...)
+quantity       category (QUANTITIES)                   what was measured
+stat           category (STATS)                        instantaneous sample, or interval min / avg / max
 interval_s     float64                                 statistics interval length in s (0.0 for samples)
 value          float64                                 the number; NaN when status is not "ok"
-status         str (STATUSES)                          "ok", "signal_lost" (receiver at its floor / LOS), "missing"
+status         category (STATUSES)                     "ok", "signal_lost" (receiver at its floor / LOS), "missing"
 =============  ======================================  ==============================================================
 
 A stretch with no rows at all is "no data" (a gap), which is never an outage.  A row with status "signal_lost"
 is a real observation that the receiver had no usable signal (it counts as below threshold).  A row with status
 "missing" was present in the file but held no value (blank, N/A): it counts as no data.
+
+The five key columns (``KEY_COLUMNS``) are pandas Categoricals (about 1 byte per row instead of ~78 for "str"),
+with categories that are str and SORTED, so sorting on them (by category code) gives the same order as sorting
+the strings.  quantity/stat/status always carry their whole vocabulary as categories; link_id/channel carry the
+values present.  Every producer (reader, Parquet store, simulator, batch concatenation) passes its table through
+:func:`conform`, so two tables from different producers have equal dtypes.  Concatenating tables whose link_id or
+channel categories differ gives "str" columns (pandas): call :func:`conform` on the result.  Consumers may compare
+with ``==`` / ``isin`` (a value that is not a category is simply never equal), use ``.astype(str)``,
+``.to_numpy(dtype=object)``, ``.str``; group with ``observed=True`` (the pandas 3 default).
 """
 from __future__ import annotations
 
@@ -65,17 +74,136 @@ OUTAGE_SUMMARY_COLUMNS = ["link_id", "period_start_utc", "period_end_utc", "obse
 OUTAGE_BY_CAUSE_COLUMNS = ["link_id", "cause", "events", "below_threshold_s", "unavailable_s"]
 
 
+KEY_COLUMNS = (LINK, CHANNEL, QUANTITY, STAT, STATUS)   # categorical columns of the normalised table
+# fixed vocabularies (always all present as categories, sorted); link_id/channel categories = the values present
+VOCABULARY = {QUANTITY: tuple(sorted(QUANTITIES)), STAT: tuple(sorted(STATS)), STATUS: tuple(sorted(STATUSES))}
+
+
+def key_dtype(column: str, values=()):
+    """The categorical dtype of key column ``column`` holding ``values`` (sorted str categories)."""
+    import pandas as pd
+
+    cats = set(str(v) for v in values) | set(VOCABULARY.get(column, ()))
+    return pd.CategoricalDtype(pd.Index(sorted(cats), dtype="str"), ordered=False)
+
+
+def key_column(column: str, codes, categories):
+    """A categorical key column from integer ``codes`` into the str list ``categories`` (any order; the result
+    has the sorted categories of :func:`key_dtype`), without building one string per row."""
+    import numpy as np
+    import pandas as pd
+
+    dtype = key_dtype(column, categories)
+    target = dtype.categories.get_indexer(pd.Index([str(c) for c in categories], dtype="str"))
+    width = np.int8 if len(dtype.categories) < 127 else (np.int16 if len(dtype.categories) < 32000 else np.int32)
+    lookup = np.asarray(target, dtype=width)
+    new = lookup[np.asarray(codes, dtype=np.intp)] if len(lookup) else np.zeros(len(codes), dtype=width)
+    return pd.Series(pd.Categorical.from_codes(new, dtype=dtype), copy=False)
+
+
+def key_column_runs(column: str, words, counts):
+    """A categorical key column holding ``words[i]`` ``counts[i]`` times, in order (codes built by repeating one
+    small code per run: no per-row temporary beyond the 1-2 byte codes)."""
+    import numpy as np
+    import pandas as pd
+
+    words = [str(w) for w in words]
+    dtype = key_dtype(column, words)
+    width = np.int8 if len(dtype.categories) < 127 else (np.int16 if len(dtype.categories) < 32000 else np.int32)
+    small = dtype.categories.get_indexer(pd.Index(words, dtype="str")).astype(width)
+    codes = np.repeat(small, np.asarray(counts, dtype=np.int64))
+    return pd.Series(pd.Categorical.from_codes(codes, dtype=dtype), copy=False)
+
+
+def _conform_column(column: str, col):
+    """``col`` as a conforming categorical Series, or None when it already conforms."""
+    import numpy as np
+    import pandas as pd
+
+    if isinstance(col.dtype, pd.CategoricalDtype):
+        cats = col.cat.categories
+        codes = col.cat.codes.to_numpy()
+        if column in VOCABULARY:
+            used = cats
+        else:
+            present = np.bincount(codes[codes >= 0], minlength=len(cats)) > 0 if len(codes) else np.zeros(
+                len(cats), dtype=bool)
+            used = cats[present]
+        dtype = key_dtype(column, used)
+        if cats.equals(dtype.categories) and cats.dtype == dtype.categories.dtype and not col.cat.ordered:
+            return None     # conforms (dtype == dtype ignores category order for unordered categoricals: check it here)
+        if (codes < 0).any():
+            raise ValueError(f"normalised column {column} holds missing values")
+        target = dtype.categories.get_indexer(cats)    # -1 only for unused categories (never referenced)
+        width = np.int8 if len(dtype.categories) < 127 else (np.int16 if len(dtype.categories) < 32000 else np.int32)
+        new = target.astype(width)[codes] if len(codes) else np.zeros(0, dtype=width)
+        return pd.Series(pd.Categorical.from_codes(new, dtype=dtype), index=col.index, name=col.name)
+    if col.isna().any():
+        raise ValueError(f"normalised column {column} holds missing values")
+    codes, uniques = pd.factorize(col.astype("str"), sort=False)
+    out = key_column(column, codes, [str(u) for u in uniques])
+    out.index, out.name = col.index, col.name
+    return out
+
+
+def conform(table):
+    """The table with the normalised dtypes: key columns as sorted-category Categoricals (see the module
+    docstring), time as datetime64[ns, UTC], interval/value float64.  Cheap when the table already conforms
+    (returns the same object); otherwise returns a new frame (the input is not modified)."""
+    changes = {}
+    for c in KEY_COLUMNS:
+        if c in table.columns:
+            new = _conform_column(c, table[c])
+            if new is not None:
+                changes[c] = new
+    if TIME in table.columns and str(table[TIME].dtype) != "datetime64[ns, UTC]":
+        changes[TIME] = table[TIME].astype("datetime64[ns, UTC]")
+    for c in (INTERVAL, VALUE):
+        if c in table.columns and table[c].dtype != "float64":
+            changes[c] = table[c].astype("float64")
+    if not changes:
+        return table
+    out = table.copy(deep=False)
+    for c, v in changes.items():
+        out[c] = v
+    return out
+
+
+def concat(tables):
+    """Concatenate normalised tables (rows in the given order, fresh RangeIndex) keeping the key columns
+    categorical: the categories are unioned first (a plain ``pd.concat`` of categoricals whose categories
+    differ silently becomes "str", ~78 bytes a row).  Inputs need not conform; the result does."""
+    import pandas as pd
+
+    tables = [conform(t) for t in tables]
+    if not tables:
+        return empty_table()
+    if len(tables) == 1:
+        return tables[0].reset_index(drop=True)
+    aligned = [t.copy(deep=False) for t in tables]
+    for c in KEY_COLUMNS:
+        if c not in aligned[0].columns:
+            continue
+        dtype = key_dtype(c, [w for t in tables for w in t[c].cat.categories])
+        for t in aligned:
+            if not t[c].cat.categories.equals(dtype.categories):
+                t[c] = t[c].cat.set_categories(dtype.categories)   # recodes (no strings per row)
+    return conform(pd.concat(aligned, ignore_index=True))
+
+
+def conforms(table) -> bool:
+    """True when ``table`` already has the normalised dtypes (``conform(table)`` would return it unchanged)."""
+    return list(table.columns) == COLUMNS and conform(table) is table
+
+
 def empty_table():
     """An empty normalised table with the right dtypes."""
     import pandas as pd
 
-    return pd.DataFrame({
-        TIME: pd.Series([], dtype="datetime64[ns, UTC]"),
-        LINK: pd.Series([], dtype="str"),
-        CHANNEL: pd.Series([], dtype="str"),
-        QUANTITY: pd.Series([], dtype="str"),
-        STAT: pd.Series([], dtype="str"),
-        INTERVAL: pd.Series([], dtype="float64"),
-        VALUE: pd.Series([], dtype="float64"),
-        STATUS: pd.Series([], dtype="str"),
-    })
+    cols = {TIME: pd.Series([], dtype="datetime64[ns, UTC]")}
+    for c in (LINK, CHANNEL, QUANTITY, STAT):
+        cols[c] = pd.Series([], dtype=key_dtype(c))
+    cols[INTERVAL] = pd.Series([], dtype="float64")
+    cols[VALUE] = pd.Series([], dtype="float64")
+    cols[STATUS] = pd.Series([], dtype=key_dtype(STATUS))
+    return pd.DataFrame(cols, columns=COLUMNS)

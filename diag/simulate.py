@@ -683,7 +683,7 @@ def _build_table(spec, channels, times_ns, keep, measured, below_floor, blank, t
             schema.STATUS: _strings(status_codes, [schema.OK, schema.SIGNAL_LOST, schema.MISSING]),
         }
     )
-    return table[schema.COLUMNS]
+    return schema.conform(table[schema.COLUMNS])   # categorical key columns (diag.schema)
 
 
 # ------------------------------------------------------------------------------------------------------------
@@ -775,7 +775,7 @@ def aggregate_statistics(
         kind="stable",
         ignore_index=True,
     )
-    return out[schema.COLUMNS]
+    return schema.conform(out[schema.COLUMNS])   # categorical key columns (diag.schema)
 
 
 def _counter_rows(table: pd.DataFrame, *, interval_s: float, threshold_dbm: float) -> list[pd.DataFrame]:

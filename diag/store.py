@@ -20,6 +20,7 @@ from urllib.parse import quote, unquote
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from diag import schema as S
@@ -34,12 +35,15 @@ def _to_arrow(table: pd.DataFrame, with_row: bool) -> pa.Table:
     missing = [c for c in S.COLUMNS if c not in table.columns]
     if missing:
         raise InputError(f"table lacks the normalised columns {missing}")
+    table = S.conform(table)
     arrays = {
         S.TIME: pa.array(table[S.TIME].astype("datetime64[ns, UTC]").to_numpy(dtype="datetime64[ns]"),
                          pa.timestamp("ns", tz="UTC")),
     }
-    for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
-        arrays[c] = pa.array(table[c].astype("str"), type=pa.large_string()).cast(pa.string())
+    for c in S.KEY_COLUMNS:     # categorical -> Arrow dictionary (Parquet dictionary-encoded column)
+        cat = table[c].cat
+        arrays[c] = pa.DictionaryArray.from_arrays(pa.array(cat.codes.to_numpy()),
+                                                   pa.array(list(cat.categories), type=pa.string()))
     for c in (S.INTERVAL, S.VALUE):
         arrays[c] = pa.array(table[c].to_numpy(dtype="float64"), pa.float64())
     if with_row:
@@ -61,11 +65,25 @@ def _to_frame(tab: pa.Table) -> pd.DataFrame:
     t = t.cast(pa.timestamp("ns", tz="UTC")) if t.type.tz else t.cast(pa.timestamp("ns")).cast(
         pa.timestamp("ns", tz="UTC"))
     cols[S.TIME] = pd.Series(t.to_pandas(), copy=False).astype("datetime64[ns, UTC]")
-    for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
-        cols[c] = pd.Series(pd.array(tab.column(c).cast(pa.string()), dtype="str"), copy=False)
+    for c in S.KEY_COLUMNS:
+        cols[c] = _key_column(c, tab.column(c))
     for c in (S.INTERVAL, S.VALUE):
         cols[c] = pd.Series(tab.column(c).cast(pa.float64()).to_numpy(), dtype="float64")
-    return pd.DataFrame(cols, columns=S.COLUMNS).reset_index(drop=True)
+    return S.conform(pd.DataFrame(cols, columns=S.COLUMNS).reset_index(drop=True))
+
+
+def _key_column(column: str, col: pa.ChunkedArray) -> pd.Series:
+    """An Arrow key column (dictionary-encoded as written here, or plain strings from older files) -> the
+    categorical column of ``diag.schema``, without one Python string per row."""
+    if not pa.types.is_dictionary(col.type):
+        col = pc.dictionary_encode(col.cast(pa.string()))
+    col = col.unify_dictionaries() if isinstance(col, pa.ChunkedArray) else pa.chunked_array([col])
+    words = col.chunk(0).dictionary.cast(pa.string()).to_pylist() if col.num_chunks else []
+    if any(w is None for w in words) or col.null_count:
+        raise InputError(f"Parquet column {column} holds empty (null) keys")
+    codes = np.concatenate([ch.indices.to_numpy(zero_copy_only=False) for ch in col.chunks]) if col.num_chunks \
+        else np.zeros(0, dtype=np.int32)
+    return S.key_column(column, codes, words)
 
 
 def write_parquet(table: pd.DataFrame, path: str | Path) -> Path:
@@ -100,7 +118,7 @@ def write_store(table: pd.DataFrame, directory: str | Path) -> Path:
     directory.mkdir(parents=True)
     tab = _to_arrow(table, with_row=True)
     if len(table):
-        link_code, links = pd.factorize(table[S.LINK], sort=True)
+        link_code, links = pd.factorize(S.conform(table)[S.LINK].astype(object), sort=True)
         ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
         day = ns // (86400 * 10**9)                       # UTC day number
         day0 = int(day.min())

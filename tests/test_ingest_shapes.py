@@ -31,7 +31,7 @@ def check_accounting(result) -> None:
     assert v["read"] == len(table) == v["ok"] + v["signal_lost"] + v["missing"]
     assert sum(v["reasons"].values()) == v["signal_lost"] + v["missing"]
     assert list(table.columns) == S.COLUMNS
-    assert table.dtypes.equals(S.empty_table().dtypes)
+    assert S.conforms(table)   # categorical key columns, sorted categories (diag.schema)
     st = table[S.STATUS]
     assert st.isin(S.STATUSES).all() and table[S.QUANTITY].isin(S.QUANTITIES).all()
     assert table[S.STAT].isin(S.STATS).all()
