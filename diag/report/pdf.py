@@ -414,7 +414,8 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
         color = style.LEVEL_LINES[min(i, len(style.LEVEL_LINES) - 1)]
         level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
         if "status" in frame:
-            level = np.where(frame["status"].to_numpy(dtype=object) == schema.SIGNAL_LOST, threshold - 8.0, level)
+            lost = (frame["status"] == schema.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)
+            level = np.where(lost, threshold - 8.0, level)
         if s.kind == "stats" and "rsl_min_dbm" in frame:
             mn = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
             mx = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_max_dbm" in frame else level
@@ -426,9 +427,8 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
             ax.fill_between(t, lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
                             label=f"{channel} level")
             lows.append(np.nanmin(lo) if np.isfinite(lo).any() else np.nan)
-        status = frame["status"].to_numpy(dtype=object) if "status" in frame else None
-        if status is not None and i == 0:
-            gap = (status == "no_data") | (status == schema.MISSING)
+        if "status" in frame and i == 0:
+            gap = frame["status"].isin(["no_data", schema.MISSING]).to_numpy(dtype=bool, na_value=False)
             for a, b in _runs(gap):
                 if b - a < 2:
                     continue
