@@ -92,7 +92,12 @@ class _Arrays:
         self.is_rain = self.is_cause(S.RAIN)
         self.is_none = self.is_cause("")
         self.level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
-        self.hours = frame.index.hour.to_numpy() if isinstance(frame.index, pd.DatetimeIndex) else np.zeros(n, int)
+        if isinstance(frame.index, pd.DatetimeIndex):   # UTC hour from the epoch seconds (cheaper than .hour)
+            index = frame.index.tz_convert("UTC") if frame.index.tz is not None else frame.index
+            self.hours = (index.as_unit("s").asi8 // 3600) % 24
+        else:
+            self.hours = np.zeros(n, dtype=np.int64)
+        self.relative_cache: dict = {}
 
     def is_cause(self, cause: str) -> np.ndarray:
         hits = [i for i, name in enumerate(self.cause_names) if name == cause]
@@ -102,6 +107,15 @@ class _Arrays:
 
 
 # ------------------------------------------------------------------------------------------------- exceedance
+def exceedance_counts(attenuation_db: np.ndarray, observed: np.ndarray, depths_db, *,
+                      select: np.ndarray | None = None) -> np.ndarray:
+    """Number of observed (and selected) samples whose attenuation exceeds each depth (one sort, then binary
+    searches)."""
+    use = observed if select is None else observed & select
+    ordered = np.sort(attenuation_db[use])
+    return ordered.size - np.searchsorted(ordered, np.asarray(depths_db, dtype=float), side="right")
+
+
 def exceedance_percent(attenuation_db: np.ndarray, observed: np.ndarray, depths_db, *,
                        select: np.ndarray | None = None) -> np.ndarray:
     """Percentage of observed samples whose attenuation exceeds each depth (optionally only samples in ``select``
@@ -109,9 +123,7 @@ def exceedance_percent(attenuation_db: np.ndarray, observed: np.ndarray, depths_
     n = int(observed.sum())
     if n == 0:
         return np.full(len(depths_db), np.nan)
-    att = attenuation_db[observed]
-    sel = np.ones(att.shape, dtype=bool) if select is None else select[observed]
-    return np.array([100.0 * np.count_nonzero(sel & (att > d)) / n for d in depths_db])
+    return 100.0 * exceedance_counts(attenuation_db, observed, depths_db, select=select) / n
 
 
 def tail_fit(depths_db, percent, counts, *, min_depth_db: float = 10.0, min_count: int = 5) -> dict:
@@ -180,7 +192,7 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
         out["note"] = ("statistics log: percentages from the interval average (a lower bound); "
                        "all_percent_upper_bound counts whole intervals whose minimum exceeded the depth")
     out["rayleigh_percent"] = _round(100.0 * np.asarray(fading.rayleigh_cdf_db(-np.asarray(depths_db, float))))
-    counts_mp = np.array([np.count_nonzero(is_mp[observed] & (att[observed] > d)) for d in depths_db])
+    counts_mp = exceedance_counts(att, observed, depths_db, select=is_mp)
     fit = tail_fit(depths_db, out["multipath_percent"] or [], counts_mp)
     floor_mp = int(np.count_nonzero(is_mp & arrays.lost))
     if fit.get("depths_used_db") and floor_mp >= 0.5 * counts_mp[list(depths_db).index(fit["depths_used_db"][-1])]:
@@ -214,7 +226,14 @@ def multipath_periods(arrays: _Arrays, interval_s: float, *, merge_s: float = 60
 
 def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float) -> np.ndarray:
     """Level relative to the centred rolling mean power over ``local_mean_s`` [dB]; -inf at the floor, NaN where
-    no level."""
+    no level.  Computed once per channel (cached on ``arrays``)."""
+    key = (interval_s, local_mean_s)
+    if key not in arrays.relative_cache:
+        arrays.relative_cache[key] = _relative_db_uncached(arrays, interval_s, local_mean_s)
+    return arrays.relative_cache[key]
+
+
+def _relative_db_uncached(arrays: _Arrays, interval_s: float, local_mean_s: float) -> np.ndarray:
     window = max(5, int(round(local_mean_s / interval_s)))
     power = np.where(arrays.ok, 10.0 ** (arrays.level / 10.0), np.nan)
     mean = pd.Series(power).rolling(window, center=True, min_periods=max(3, window // 4)).mean().to_numpy()
