@@ -152,6 +152,32 @@ def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
         return np.where(den > 0, num / den, np.nan)
 
 
+class _RunningMeans:
+    """:func:`_running_mean` of one series evaluated only where asked (the event spans): the cumulative sums are
+    built once and shared by every width; each value is the same subtraction and division, so the same bits."""
+
+    def __init__(self, x: np.ndarray):
+        self.x = x
+        ok = np.isfinite(x)
+        self.csum = np.concatenate([[0.0], np.cumsum(np.where(ok, x, 0.0))])
+        self.ccount = np.concatenate([[0], np.cumsum(ok)])
+
+    def over(self, a: int, b: int, width: int) -> np.ndarray:
+        """``_running_mean(x, width)[a:b]``."""
+        x = self.x
+        if width <= 1 or x.size < 3:
+            return x[a:b]
+        width = min(width, x.size)
+        half = width // 2
+        idx = np.arange(a, b)
+        lo = np.clip(idx - half, 0, x.size)
+        hi = np.clip(idx - half + width, 0, x.size)
+        num = self.csum[hi] - self.csum[lo]
+        den = self.ccount[hi] - self.ccount[lo]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(den > 0, num / den, np.nan)
+
+
 def _noise_diff(att: np.ndarray, floor: np.ndarray, config: AnalysisConfig) -> float:
     """Std of sample-to-sample differences in clear air (|attenuation| < fade_end_db): the noise of the log."""
     d = np.diff(att)
@@ -196,8 +222,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             dtype=float, na_value=np.nan)
     p_pol = channel_polarization(partner.channel, link) if partner is not None else None
     ctx = max(1, int(round(config.context_s / step)))
-    smooth = _running_mean(att, max(1, int(round(300.0 / step))))
-    smooth60 = _running_mean(att, max(1, int(round(60.0 / step))))
+    means = _RunningMeans(att)   # 5-min and 1-min running means, evaluated over each event only
+    width300, width60 = max(1, int(round(300.0 / step))), max(1, int(round(60.0 / step)))
     noise_diff = _noise_diff(att, floor, config)
     index = frame.index
     if stats:
@@ -225,10 +251,10 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
         diffs = np.diff(att[a:b]) if not stats else np.diff(seg)
         diffs = diffs[np.isfinite(diffs)]
         variability = float(np.std(diffs)) if diffs.size > 1 else math.nan
-        resid = att[a:b] - smooth[a:b]
+        resid = att[a:b] - means.over(a, b, width300)
         resid = resid[np.isfinite(resid)]
         roughness = float(np.std(resid) / peak) if resid.size > 1 and peak > 0 else math.nan
-        fast = att[a:b] - smooth60[a:b]
+        fast = att[a:b] - means.over(a, b, width60)
         fast = fast[np.isfinite(fast)]
         fast_std = float(np.std(fast)) if fast.size > 1 and not stats else math.nan
         half = float(np.mean(seg[finite] >= 0.5 * peak)) if finite.any() and peak > 0 else math.nan
