@@ -163,8 +163,10 @@ def table_strategy(draw, link_id: str = "FZ-1"):
                     S.STATUS: q_status}))
     table = pd.concat(frames, ignore_index=True)
     table = table.sort_values([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable", ignore_index=True)
-    return table.astype({S.LINK: "str", S.CHANNEL: "str", S.QUANTITY: "str", S.STAT: "str", S.STATUS: "str",
-                         S.INTERVAL: "float64", S.VALUE: "float64"})
+    table = table.astype({S.LINK: "str", S.CHANNEL: "str", S.QUANTITY: "str", S.STAT: "str", S.STATUS: "str",
+                          S.INTERVAL: "float64", S.VALUE: "float64"})
+    # what the reader returns (categorical key columns), or plain str columns (a caller building its own table)
+    return S.conform(table) if draw(st.booleans()) else table
 
 
 def _analyze_or_input_error(table, link, label, raise_input_error=False):
