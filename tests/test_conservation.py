@@ -367,3 +367,31 @@ def test_million_rows_through_ingest(tmp_path, capsys):
     distinct = planted["kept"]   # every kept line has its own second (the repeats were the duplicates)
     assert distinct + report["gap_seconds"] == span_s
     assert report["gap_seconds"] >= planted["gap_s"]
+
+
+def test_hop_split_over_overlapping_files(tmp_path):
+    """One hop in two files that overlap by 10 minutes: every value is counted once (the overlap is reported as
+    dropped), and the analysed period and observed time are those of the union."""
+    sc = load_scenario("refractive")
+    spec = _short_spec(sc.links[0], window_s=2 * 3600)
+    sim = simulate_link(spec, seed=2)
+    table = sim.table
+    cut = table[S.TIME].min() + pd.Timedelta(hours=1)
+    first = table[table[S.TIME] < cut + pd.Timedelta(minutes=10)]
+    second = table[table[S.TIME] >= cut]
+    paths = [tmp_path / f"{spec.link_id}_a.csv", tmp_path / f"{spec.link_id}_b.csv"]
+    for part, path in zip((first, second), paths):
+        writers.write_log(part, path, "wide_iso", floor_dbm=spec.floor_value_dbm)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        (result,) = analyze_files(paths, links=[sim.link])
+    reports = result.ingest["files"]
+    assert len(reports) == 2
+    overlap = first[first[S.TIME] >= cut]
+    assert result.ingest.get("overlap_values_dropped", 0) == len(overlap)
+    assert sum(r["values"]["read"] for r in reports) == len(table) + len(overlap)
+    union = pd.concat([read_log(p).table.astype({S.LINK: str, S.CHANNEL: str, S.QUANTITY: str, S.STAT: str})
+                       for p in paths]).drop_duplicates([S.TIME, S.CHANNEL, S.QUANTITY, S.STAT])
+    union = union.assign(**{S.LINK: spec.link_id})   # the files are named after the hop, their rows carry the stem
+    assert len(union) == len(table)
+    check_outage_accounting(result, union, {spec.link_id: 1.0}, "split files")
