@@ -107,8 +107,7 @@ def make_network(folder: Path, n_stats: int, n_fast: int, *, distinct: int = 12,
         for i in range(n_stats):
             link, table = stats[i % len(stats)]
             hop = f"Stat-{i:04d}"
-            table = table.assign(**{schema.LINK: hop})
-            table[schema.LINK] = table[schema.LINK].astype("str")
+            table = schema.conform(table.assign(**{schema.LINK: hop}))
             write_stats(table, folder / f"{hop}.csv")
             links.append(dataclasses.replace(link, link_id=hop))
     if n_fast:
@@ -219,8 +218,7 @@ def bench_analysis(report: list[str], repeat: int) -> None:
         write_wide_iso(sim.table, path, floor_dbm=sim.spec.floor_value_dbm)
         size = path.stat().st_size
         t_read, rr = _best(lambda: read_log(path), repeat)
-        table = rr.table.assign(**{schema.LINK: sim.link.link_id})
-        table[schema.LINK] = table[schema.LINK].astype("str")
+        table = schema.conform(rr.table.assign(**{schema.LINK: sim.link.link_id}))
         t_an, result = _best(lambda: analyze_link(table, sim.link), repeat)
         n_events = len(result.events)
         out = Path(tmp) / "out"

@@ -206,9 +206,8 @@ def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.D
             renames[link_id] = hop
     if not renames:
         return table
-    table = table.copy()
-    table[schema.LINK] = table[schema.LINK].map(lambda v: renames.get(v, v)).astype("str")
-    return table
+    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
+    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
 
 
 def _sorted(table: pd.DataFrame) -> pd.DataFrame:
@@ -223,8 +222,8 @@ def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
     if not parts:
         return schema.empty_table(), 0
     if len(parts) == 1:
-        return _sorted(parts[0]), 0
-    table = _sorted(pd.concat(parts, ignore_index=True))
+        return _sorted(schema.conform(parts[0])), 0
+    table = _sorted(schema.concat(parts))   # keeps the key columns categorical (diag.schema)
     dup = table.duplicated(subset=_SORT, keep="first").to_numpy()
     if dup.any():
         table = table[~dup].reset_index(drop=True)
@@ -296,8 +295,7 @@ def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
 
     table = read_store(store_path, link_id=store_id)
     if store_id != hop:
-        table = table.assign(**{schema.LINK: hop})
-        table[schema.LINK] = table[schema.LINK].astype("str")
+        table = schema.conform(table.assign(**{schema.LINK: hop}))
     return table
 
 
