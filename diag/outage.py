@@ -95,13 +95,14 @@ def _cause_codes(frame: pd.DataFrame) -> np.ndarray:
     if "cause" not in frame.columns:
         return np.full(len(frame), _UNKNOWN, dtype=np.int8)
     cause = frame["cause"]
-    lookup = pd.Index(CAUSES, dtype=object)
     if isinstance(cause.dtype, pd.CategoricalDtype):      # the pipeline's frames: map the categories once
-        per_category = lookup.get_indexer(cause.cat.categories.astype(object))
+        position = {name: i for i, name in enumerate(CAUSES)}   # (plain dict: an Index per channel cost ~0.5 ms)
+        per_category = np.array([position.get(name, -1) if isinstance(name, str) else -1
+                                 for name in cause.cat.categories], dtype=np.int64)
         raw = cause.cat.codes.to_numpy()
         codes = np.where(raw >= 0, per_category[np.maximum(raw, 0)], -1)
     else:
-        codes = lookup.get_indexer(cause.astype(object))
+        codes = pd.Index(CAUSES, dtype=object).get_indexer(cause.astype(object))
     return np.where(codes < 0, _UNKNOWN, codes).astype(np.int8)
 
 
@@ -115,6 +116,13 @@ def _status_flags(frame: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     if "status" not in frame.columns:
         return frame["rsl_dbm"].notna().to_numpy(), np.zeros(len(frame), dtype=bool)
     status = frame["status"]
+    if isinstance(status.dtype, pd.CategoricalDtype):   # the pipeline's frames: compare the codes (~5x faster)
+        names = [str(c) for c in status.cat.categories]
+        codes = status.cat.codes.to_numpy()
+        ok = codes == names.index(schema.OK) if schema.OK in names else np.zeros(len(codes), dtype=bool)
+        lost = (codes == names.index(schema.SIGNAL_LOST) if schema.SIGNAL_LOST in names
+                else np.zeros(len(codes), dtype=bool))
+        return ok, lost
     ok = (status == schema.OK).to_numpy(dtype=bool, na_value=False)
     lost = (status == schema.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)
     return ok, lost
