@@ -601,11 +601,14 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
         chunks.append(N.RowBlock(ns[keep], key, rownum, vals, reas))
         rows_seen += n
 
+    reader = None
     try:
         reader = pacsv.open_csv(_stream(src), read_options=read_opts, parse_options=parse_opts,
                                 convert_options=conv_opts)
         for batch in reader:
             process(batch)
+        reader.close()    # release Arrow's read-ahead thread now, not at interpreter exit (an abort seen under load)
+        reader = None
         if ragged:
             short, absent, too_long = _ragged_rows(ragged, dialect.separator, len(names))
             rejected["too_many_fields"] += too_long
@@ -622,6 +625,12 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     except (pa.ArrowException, OSError, EOFError) as exc:
         msg = " ".join(str(exc).split())
         raise InputError(f"cannot read ({msg[:160]})", path=src.label) from exc
+    finally:
+        if reader is not None:
+            try:
+                reader.close()
+            except Exception:  # noqa: BLE001 - closing after an error must not hide that error
+                pass
     rejected["malformed_row"] += unexamined
     rows_read = rows_seen + rejected["too_many_fields"] + unexamined
     if plan is None:
@@ -678,8 +687,9 @@ def _iso(ns: int) -> str:
 
 def _link_stamps(table: pd.DataFrame, ns: np.ndarray) -> list[tuple[str, np.ndarray]]:
     """[(link id, its sorted distinct stamps)] per link, by link id.  The table is sorted by link, channel,
-    quantity, stat, time, so each (channel, quantity, stat) block is already sorted and distinct; when every block of a link holds
-    the same stamps (a wide log: every row has every column) the first block IS the union: no sort of all rows."""
+    quantity, stat, time, so each (channel, quantity, stat) block is already sorted and distinct; when every block
+    of a link holds the same stamps (a wide log: every row has every column) the first block IS the union: no sort
+    of all rows."""
     codes = [table[c].cat.codes.to_numpy() if isinstance(table[c].dtype, pd.CategoricalDtype)
              else pd.factorize(table[c])[0] for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT)]
     change = np.zeros(len(ns), dtype=bool)
@@ -706,14 +716,14 @@ def _link_stamps(table: pd.DataFrame, ns: np.ndarray) -> list[tuple[str, np.ndar
 
 
 def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
-    report.links = sorted(table[S.LINK].unique().tolist()) if len(table) else []
-    report.channels = sorted(table[S.CHANNEL].unique().tolist()) if len(table) else []
-    report.quantities = sorted(table[S.QUANTITY].unique().tolist()) if len(table) else []
+    report.links = S.present(table[S.LINK]) if len(table) else []
+    report.channels = S.present(table[S.CHANNEL]) if len(table) else []
+    report.quantities = S.present(table[S.QUANTITY]) if len(table) else []
     if not len(table):
         report.kind = None
         return
-    levels = table[S.QUANTITY].isin([S.RSL, S.XPL, S.TSL, S.XPD])
-    stats = table.loc[levels if levels.any() else slice(None), S.STAT].unique().tolist()
+    levels = S.is_in(table[S.QUANTITY], [S.RSL, S.XPL, S.TSL, S.XPD])
+    stats = S.present(table[S.STAT][levels] if levels.any() else table[S.STAT])   # one column only
     report.kind = "stats" if S.SAMPLE not in stats else ("sample" if len(stats) == 1 else "mixed")
     ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
     report.start_utc, report.end_utc = _iso(ns.min()), _iso(ns.max())

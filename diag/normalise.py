@@ -645,19 +645,16 @@ def _floor_mask(v: np.ndarray, floor_dbm: float) -> np.ndarray:
     """Readings at the floor, plus flat plateaus just above it: >= FLOOR_RUN consecutive identical readings within
     FLOOR_BAND_DB of the floor (a receiver parked 1 dB above its nominal floor, e.g. -102 next to -103 dBm, for
     hours).  A fading signal near the floor varies from row to row and stays a reading (common practice)."""
-    at = np.abs(v - floor_dbm) < 1e-6
-    band = v <= floor_dbm + FLOOR_BAND_DB + 1e-9
-    if band.any() and len(v) >= FLOOR_RUN:
-        same = np.zeros(len(v), dtype=bool)
-        same[1:] = band[1:] & band[:-1] & (np.abs(np.diff(v)) < 1e-9)   # row equals the previous band reading
-        # run starts where a band reading does not equal its predecessor
-        start = band & ~same
-        run_id = np.cumsum(start)
-        run_id[~band] = 0
-        lengths = np.bincount(run_id)
-        long_run = lengths >= FLOOR_RUN
-        long_run[0] = False
-        at |= long_run[run_id]
+    at = (v > floor_dbm - 1e-6) & (v < floor_dbm + 1e-6)    # |v - floor| < 1e-6 without float temporaries
+    bi = np.flatnonzero(v <= floor_dbm + FLOOR_BAND_DB + 1e-9)   # band readings (few): work on them only
+    if len(bi) >= FLOOR_RUN:
+        vb = v[bi]
+        same = np.zeros(len(bi), dtype=bool)
+        # a band reading equal to the band reading on the row just before it continues a run
+        same[1:] = (np.diff(bi) == 1) & (np.abs(np.diff(vb)) < 1e-9)
+        run_id = np.cumsum(~same) - 1
+        long_run = np.bincount(run_id)[run_id] >= FLOOR_RUN
+        at[bi[long_run]] = True
     return at
 
 
@@ -665,7 +662,7 @@ def detect_floor(series_values: list[np.ndarray]) -> tuple[float | None, str]:
     """Receiver floor of one level quantity: the minimum reading when it sits at or below FLOOR_MAX_DBM and is
     either a known floor value or held for at least 3 consecutive rows (a plateau at the minimum; common practice).
     Returns (floor_dbm or None, how)."""
-    mins = [np.nanmin(v) for v in series_values if np.isfinite(v).any()]
+    mins = [m for m in (np.fmin.reduce(v) if len(v) else np.nan for v in series_values) if np.isfinite(m)]  # no copy
     if not mins:
         return None, ""
     m = float(min(mins))
@@ -674,11 +671,13 @@ def detect_floor(series_values: list[np.ndarray]) -> tuple[float | None, str]:
     count = 0
     longest = 0
     for v in series_values:
-        at = np.isclose(v, m, atol=1e-6)
+        tol = 1e-6 + 1e-5 * abs(m)          # np.isclose(v, m) without its float temporaries
+        at = (v >= m - tol) & (v <= m + tol)
         count += int(at.sum())
         if at.any():
             # longest run of consecutive rows at the minimum
-            d = np.diff(np.concatenate(([0], at.astype(np.int8), [0])))
+            pad = np.zeros(1, dtype=np.int8)
+            d = np.diff(np.concatenate((pad, at.view(np.int8), pad)))   # int8 throughout (a list would be int64)
             starts, ends = np.flatnonzero(d == 1), np.flatnonzero(d == -1)
             longest = max(longest, int((ends - starts).max()))
     known = any(abs(m - f) < 1e-6 for f in KNOWN_FLOORS_DBM)
@@ -1060,14 +1059,13 @@ def _gather(chunks: list[RowBlock]) -> tuple[np.ndarray, ...]:
     first = chunks[0]
     out = [np.empty((n,) + a.shape[1:], dtype=a.dtype)
            for a in (first.ns, first.key, first.rownum, first.values, first.reasons)]
-    pos = 0
-    chunks.reverse()
-    while chunks:
+    end = n
+    while chunks:     # newest block first: freed from the top of the heap, so the allocator can give it back
         c = chunks.pop()
         k = len(c.ns)
         for dst, a in zip(out, (c.ns, c.key, c.rownum, c.values, c.reasons)):
-            dst[pos:pos + k] = a
-        pos += k
+            dst[end - k:end] = a
+        end -= k
         del c
     return tuple(out)
 

@@ -169,6 +169,33 @@ def conform(table):
     return out
 
 
+def present(column) -> list[str]:
+    """The distinct values of a key column, sorted (from the 1-byte codes of a categorical: no per-row hashing)."""
+    import numpy as np
+    import pandas as pd
+
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = np.unique(column.cat.codes.to_numpy())
+        return [str(column.cat.categories[c]) for c in codes if c >= 0]
+    return sorted(str(v) for v in pd.unique(column))
+
+
+def is_in(column, values):
+    """Boolean numpy mask: rows of a key column whose value is one of ``values`` (codes compared one by one on a
+    categorical: 1 byte a row of temporaries instead of ~11 for ``Series.isin``)."""
+    import numpy as np
+    import pandas as pd
+
+    if not isinstance(column.dtype, pd.CategoricalDtype):
+        return column.isin(list(values)).to_numpy(dtype=bool)
+    codes = column.cat.codes.to_numpy()
+    mask = np.zeros(len(codes), dtype=bool)
+    for c in column.cat.categories.get_indexer(pd.Index([str(v) for v in values], dtype="str")):
+        if c >= 0:
+            mask |= codes == c
+    return mask
+
+
 def concat(tables):
     """Concatenate normalised tables (rows in the given order, fresh RangeIndex) keeping the key columns
     categorical: the categories are unioned first (a plain ``pd.concat`` of categoricals whose categories
