@@ -181,6 +181,10 @@ def _groups(table: pd.DataFrame) -> dict:
     change = np.zeros(n, dtype=bool)
     change[0] = True
     for col in (S.CHANNEL, S.QUANTITY, S.STAT):
+        if isinstance(table[col].dtype, pd.CategoricalDtype):   # the reader's table: compare the codes
+            codes = table[col].cat.codes.to_numpy()
+            change[1:] |= (codes[1:] != codes[:-1]) | (codes[1:] < 0) | (codes[:-1] < 0)  # NaN differs from all
+            continue
         values = table[col].reset_index(drop=True)
         diff = values.iloc[1:].reset_index(drop=True) != values.iloc[:-1].reset_index(drop=True)
         change[1:] |= diff.to_numpy(dtype=bool, na_value=True)
