@@ -77,6 +77,15 @@ def _merge_skipped(result: LinkResult, part) -> None:
                 result.skipped.append(str(text))
 
 
+def _several_values(column: pd.Series) -> bool:
+    """``column.nunique() > 1`` (NaN not counted), from the codes when the column is categorical (~10x faster)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        codes = column.cat.codes.to_numpy()
+        codes = codes[codes >= 0]
+        return bool(codes.size) and bool((codes != codes[0]).any())
+    return column.nunique() > 1
+
+
 def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None, gauge=None,
                  ingest: dict | None = None) -> LinkResult:
     """Analyse the normalised rows of ONE hop (see the module docstring for the stages).
@@ -86,7 +95,7 @@ def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | No
     """
     config = config or AnalysisConfig()
     gauge_table = _load_gauge(gauge)
-    if S.LINK in table.columns and table[S.LINK].nunique() > 1:
+    if S.LINK in table.columns and _several_values(table[S.LINK]):
         table = table[table[S.LINK] == link.link_id]
     series = channel_grids(table)
     if not series:
