@@ -227,7 +227,8 @@ def test_corpus_conservation(tmp_path, name):
     except InputError:
         return
     for result in results:
-        check_outage_accounting(result, read.table, report.get("link_intervals_s") or {}, f"{name}/{result.link.link_id}")
+        check_outage_accounting(result, read.table, report.get("link_intervals_s") or {},
+                                f"{name}/{result.link.link_id}")
 
 
 # ---------------------------------------------------------------------------------------------------------------

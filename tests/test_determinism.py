@@ -4,7 +4,8 @@ Two runs of ``python -m diag analyze`` (in-process, through ``diag.cli.main``) o
 write the same bytes to events.csv, outage_summary.csv, outage_by_cause.csv, findings.json and report.pdf (the PDF
 is written with fixed metadata and no creation date, see diag/report/pdf.py).  The same bytes again when the logs
 are given as their folder, and from a separate interpreter with another PYTHONHASHSEED reading the files named in
-reverse order: output order may depend neither on the order of the inputs nor on hash order.  The project's own contract (shared/CONTRACT.md); no outside source needed.
+reverse order: output order may depend neither on the order of the inputs nor on hash order.  The project's own
+contract (shared/CONTRACT.md); no outside source needed.
 """
 from __future__ import annotations
 

@@ -17,8 +17,6 @@ test) or ``HYPOTHESIS_PROFILE=deep`` (2000) for a long local run.
 from __future__ import annotations
 
 import json
-import os
-import math
 import warnings
 
 import numpy as np
