@@ -37,6 +37,7 @@ import pandas as pd
 
 from diag import schema
 from diag.errors import InputError
+from diag.ingest import folder_files
 from diag.links import Link, match_link
 from diag.results import LinkResult
 
@@ -158,8 +159,7 @@ def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list
         elif _is_any_store(path):
             files.append(path)
         elif path.is_dir():
-            found = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith((".", "_", "~"))
-                           and "".join(p.suffixes[-1:]).lower() in _log_suffixes())
+            found = folder_files(path)
             if not found:
                 raise InputError("folder holds no files", path=str(path))
             files.extend(found)
@@ -172,14 +172,6 @@ def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list
     return files, stores
 
 
-def _log_suffixes() -> set[str]:
-    """The file endings the reader takes from a folder (``diag.ingest.LOG_SUFFIXES``), so ``batch`` and
-    ``analyze`` read the same files of a folder."""
-    try:
-        from diag.ingest import LOG_SUFFIXES
-    except ImportError:
-        return {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
-    return set(LOG_SUFFIXES)
 
 
 def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:

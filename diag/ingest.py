@@ -773,10 +773,11 @@ def _classify(source, name: str | None) -> _Source:
     return _Source(label, _stem(path.name), path, None, gz=magic[:2] == b"\x1f\x8b")
 
 
-def _folder_files(path: Path) -> list[Path]:
-    files = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith((".", "_", "~"))
-                   and "".join(p.suffixes[-1:]).lower() in LOG_SUFFIXES)
-    return files
+def folder_files(path: str | Path) -> list[Path]:
+    """The logs of a folder, as every command reads them: its files (not sub-folders), sorted, without hidden,
+    ``_``/``~`` names and without endings other than ``LOG_SUFFIXES``."""
+    return sorted(p for p in Path(path).iterdir() if p.is_file() and not p.name.startswith((".", "_", "~"))
+                  and "".join(p.suffixes[-1:]).lower() in LOG_SUFFIXES)
 
 
 def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | None = None,
@@ -788,7 +789,7 @@ def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | N
     if src.path is not None and src.path.is_dir():
         if store.is_store(src.path):
             return _from_table(store.read_store(src.path), src.label, "parquet")
-        files = _folder_files(src.path)
+        files = folder_files(src.path)
         if not files:
             raise InputError("folder holds no log files", path=src.label)
         return read_logs(files, tz=tz, mapping=mapping, link_id=link_id)

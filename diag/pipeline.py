@@ -161,7 +161,9 @@ def _is_store(path: Path) -> bool:
 
 
 def expand_sources(sources: Iterable) -> list:
-    """Paths (folders expand to their files, non-recursive, hidden files skipped) and ``(name, bytes)`` pairs."""
+    """Paths (folders expand to their logs, as ``diag.ingest.folder_files`` lists them) and ``(name, bytes)`` pairs."""
+    from diag.ingest import folder_files
+
     out: list = []
     for source in sources:
         if isinstance(source, tuple):
@@ -171,7 +173,7 @@ def expand_sources(sources: Iterable) -> list:
         if path.is_dir() and _is_store(path):
             out.append(path)  # a store written by 'ingest --out': the reader opens it whole
         elif path.is_dir():
-            files = sorted(p for p in path.iterdir() if p.is_file() and not p.name.startswith("."))
+            files = folder_files(path)
             if not files:
                 raise InputError("folder holds no files", path=str(path))
             out.extend(files)
