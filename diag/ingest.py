@@ -37,6 +37,7 @@ import re
 import statistics
 import tomllib
 import warnings
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Iterable
@@ -258,13 +259,16 @@ def _head(src: _Source, n: int) -> bytes:
             try:
                 with gzip.GzipFile(fileobj=io.BytesIO(src.data)) as fh:
                     return _read_upto(fh, n)
-            except (OSError, EOFError) as exc:
-                raise InputError("damaged gzip data", path=src.label) from exc
+            except (OSError, EOFError, zlib.error) as exc:
+                raise InputError("gzip data truncated or damaged", path=src.label) from exc
         return src.data[:n]
     try:
         if src.gz:
             with gzip.open(src.path, "rb") as fh:
                 return _read_upto(fh, n)
+    except (OSError, EOFError, zlib.error) as exc:
+        raise InputError("gzip data truncated or damaged", path=src.label) from exc
+    try:
         with open(src.path, "rb") as fh:
             return fh.read(n)
     except (OSError, EOFError) as exc:
@@ -280,7 +284,9 @@ def _read_upto(fh, n: int) -> bytes:
                 break
             out += chunk
     except EOFError:
-        pass  # truncated gzip: take what decompressed
+        if not out:
+            raise  # truncated before any data: the caller names it
+        # truncated gzip: take what decompressed
     return out
 
 

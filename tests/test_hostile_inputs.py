@@ -208,3 +208,14 @@ def test_no_traceback_in_a_real_process(tmp_path):
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_truncated_gzip_is_named_as_such(tmp_path, capsys):
+    """A cut-off download must not be reported as an empty file (project convention: the message says what to fix)."""
+    for name, data in (("head.csv.gz", CORPUS["gzip_truncated.csv.gz"]),
+                       ("half.csv.gz", gzip.compress(_good(2000).encode(), mtime=0)[:3000])):
+        path = tmp_path / name
+        path.write_bytes(data)
+        rc, out, err = _run(capsys, ["ingest", str(path), "--json"])
+        _check_failure(rc, err, name)
+        assert "gzip" in err and "truncated" in err
