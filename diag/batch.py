@@ -35,9 +35,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import schema, store
 from diag.errors import InputError
-from diag.ingest import folder_files
+from diag.ingest import expand_paths
 from diag.links import Link, match_link
 from diag.results import LinkResult
 
@@ -126,49 +126,16 @@ def _one_line(exc: BaseException) -> str:
 
 
 def _is_store(path: Path) -> bool:
-    """A store folder whose hops can be read one by one (``diag.store.store_links`` / ``read_store(link_id=)``)."""
-    if not path.is_dir():
-        return False
-    try:
-        from diag import store
-    except ImportError:
-        return False
-    if not (hasattr(store, "is_store") and hasattr(store, "store_links")):
-        return False
-    return bool(store.is_store(path))
-
-
-def _is_any_store(path: Path) -> bool:
-    try:
-        from diag.store import is_store
-    except ImportError:
-        return False
-    return path.is_dir() and bool(is_store(path))
+    """A store folder (``diag.store``), whose hops are read one by one."""
+    return path.is_dir() and bool(store.is_store(path))
 
 
 def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
-    """Split the inputs into log files and Parquet stores.  A folder gives its files (not recursive, hidden files
-    skipped) unless it is a store (read hop by hop when ``diag.store`` can, else as one input of ``read_log``).
-    Raises ``InputError`` for a path that does not exist or an empty input."""
-    files: list[Path] = []
-    stores: list[Path] = []
-    for raw in inputs:
-        path = Path(raw)
-        if _is_store(path):
-            stores.append(path)
-        elif _is_any_store(path):
-            files.append(path)
-        elif path.is_dir():
-            found = folder_files(path)
-            if not found:
-                raise InputError("folder holds no files", path=str(path))
-            files.extend(found)
-        elif path.is_file():
-            files.append(path)
-        else:
-            raise InputError("no such file or folder", path=str(path))
-    if not files and not stores:
-        raise InputError("no input files given")
+    """Split the inputs (expanded by ``diag.ingest.expand_paths``) into log files and Parquet stores, which are
+    read hop by hop.  Raises ``InputError`` for a path that does not exist or an empty input."""
+    paths = expand_paths(inputs)
+    stores = [path for path in paths if _is_store(path)]
+    files = [path for path in paths if not _is_store(path)]
     return files, stores
 
 

@@ -786,6 +786,28 @@ def folder_files(path: str | Path) -> list[Path]:
                   and "".join(p.suffixes[-1:]).lower() in LOG_SUFFIXES)
 
 
+def expand_paths(paths) -> list[Path]:
+    """Log paths as every command reads them: a folder gives its logs (``folder_files``), a Parquet store folder
+    stays whole.  ``InputError`` for a path that does not exist, a folder without logs, or no paths at all."""
+    out: list[Path] = []
+    for raw in paths:
+        path = Path(raw)
+        if path.is_dir() and store.is_store(path):
+            out.append(path)  # a store written by 'ingest --out': read whole, or hop by hop by 'batch'
+        elif path.is_dir():
+            found = folder_files(path)
+            if not found:
+                raise InputError("folder holds no files", path=str(path))
+            out.extend(found)
+        elif path.exists():
+            out.append(path)
+        else:
+            raise InputError("no such file or folder", path=str(path))
+    if not out:
+        raise InputError("no input files given")
+    return out
+
+
 def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | None = None,
              mapping: dict | str | Path | None = None, link_id: str | None = None) -> ReadResult:
     """Read one log (file, bytes, .csv.gz, .parquet, store folder, or a folder of logs) into the normalised table."""

@@ -152,35 +152,14 @@ def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: Analys
     return results
 
 
-def _is_store(path: Path) -> bool:
-    try:
-        from diag.store import is_store
-    except ModuleNotFoundError:  # pragma: no cover - store is part of the package
-        return False
-    return bool(is_store(path))
-
-
 def expand_sources(sources: Iterable) -> list:
-    """Paths (folders expand to their logs, as ``diag.ingest.folder_files`` lists them) and ``(name, bytes)`` pairs."""
-    from diag.ingest import folder_files
+    """Paths (expanded by ``diag.ingest.expand_paths``: folders give their logs, stores stay whole) and
+    ``(name, bytes)`` pairs, in the order given."""
+    from diag.ingest import expand_paths
 
     out: list = []
     for source in sources:
-        if isinstance(source, tuple):
-            out.append(source)
-            continue
-        path = Path(os.fspath(source))
-        if path.is_dir() and _is_store(path):
-            out.append(path)  # a store written by 'ingest --out': the reader opens it whole
-        elif path.is_dir():
-            files = folder_files(path)
-            if not files:
-                raise InputError("folder holds no files", path=str(path))
-            out.extend(files)
-        elif path.exists():
-            out.append(path)
-        else:
-            raise InputError("no such file or folder", path=str(path))
+        out.extend([source] if isinstance(source, tuple) else expand_paths([os.fspath(source)]))
     if not out:
         raise InputError("no input files given")
     return out
