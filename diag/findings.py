@@ -129,7 +129,9 @@ def _first_channel_stat(result, *path):
     return None
 
 
-def _cause_finding(cause: str, figures: dict, result, total_unav: float, objective_missed: bool) -> dict | None:
+def _cause_finding(cause: str, figures: dict, result, total_unav: float, objective_missed: bool,
+                   margin: float | None) -> dict | None:
+    """One cause's finding; ``margin`` is :func:`_margin_db` of the hop (computed once by the caller)."""
     unav = figures.get("unavailable_s", 0.0)
     below = figures.get("below_threshold_s", 0.0)
     n_events = figures.get("events", 0)
@@ -146,7 +148,6 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
         severity = "medium"
     else:
         severity = "low"
-    margin = _margin_db(result)
     if margin is not None:
         numbers["fade_margin_db"] = _num(margin)
     actions: list[str]
@@ -315,9 +316,10 @@ def rank_findings(result) -> list[dict]:
     summary = result.outage.summary if getattr(result, "outage", None) is not None else {}
     objective_missed = str(summary.get("meets_objective", "")) == "no"
     findings: list[dict] = []
+    margin = _margin_db(result) if any(cause in figures for cause in S.CAUSES) else None
     for cause in S.CAUSES:
         if cause in figures:
-            item = _cause_finding(cause, figures[cause], result, total_unav, objective_missed)
+            item = _cause_finding(cause, figures[cause], result, total_unav, objective_missed, margin)
             if item is not None:
                 findings.append(item)
     covered = {f["cause"] for f in findings}

@@ -99,15 +99,28 @@ def _cause_codes(frame: pd.DataFrame) -> np.ndarray:
         position = {name: i for i, name in enumerate(CAUSES)}   # (plain dict: an Index per channel cost ~0.5 ms)
         per_category = np.array([position.get(name, -1) if isinstance(name, str) else -1
                                  for name in cause.cat.categories], dtype=np.int64)
-        raw = cause.cat.codes.to_numpy()
-        codes = np.where(raw >= 0, per_category[np.maximum(raw, 0)], -1)
-    else:
-        codes = pd.Index(CAUSES, dtype=object).get_indexer(cause.astype(object))
+        # one look-up table, its last entry serving code -1 (no cause): the same codes as mapping then replacing
+        table = np.where(per_category >= 0, per_category, _UNKNOWN).astype(np.int8)
+        return np.append(table, np.int8(_UNKNOWN))[cause.cat.codes.to_numpy()]
+    codes = pd.Index(CAUSES, dtype=object).get_indexer(cause.astype(object))
     return np.where(codes < 0, _UNKNOWN, codes).astype(np.int8)
 
 
 def _offsets(frame: pd.DataFrame, t0: pd.Timestamp) -> np.ndarray:
-    delta = (frame.index - t0) / pd.Timedelta(seconds=1)
+    """Whole seconds from ``t0`` to each row's time (rounded to the nearest second)."""
+    index = frame.index
+    if isinstance(index, pd.DatetimeIndex) and index.tz is not None:
+        # integer nanoseconds: when every offset is whole seconds (the grids are) the division is exact, so the
+        # result equals the rounded float division below, without the float pass
+        ns = index.as_unit("ns").asi8 - pd.Timestamp(t0).as_unit("ns").value
+        if ns.size > 1 and ns[0] % 10**9 == 0 and (ns[1] - ns[0]) % 10**9 == 0:   # a grid of whole seconds?
+            whole = ns[0] // 10**9 + (ns[1] - ns[0]) // 10**9 * np.arange(ns.size, dtype=np.int64)
+            if np.array_equal(whole * 10**9, ns):
+                return whole
+        whole, rest = np.divmod(ns, 10**9)
+        if not rest.any():
+            return whole
+    delta = (index - t0) / pd.Timedelta(seconds=1)
     return np.round(np.asarray(delta, dtype=float)).astype(np.int64)
 
 
