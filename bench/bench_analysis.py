@@ -106,10 +106,10 @@ def main(argv=None) -> int:
     rows = int((table["quantity"] == "rsl_dbm").sum())
     print(f"one link-week at 1 s, {len(result.series)} channels, {rows} RSL samples, {len(table)} normalised rows; "
           f"files {sizes['gzip CSV']:.1f} MB (gzip CSV), {sizes['plain CSV']:.1f} MB (plain CSV)")
-    print(f"{'step':<34}{'best wall s':>12}{'best CPU s':>12}{'wall s of each run':>28}")
+    print(f"{'step':<34}{'best wall s':>12}{'best CPU s':>12}   {'wall s of each run'}")
     for step in wall:
-        print(f"{step:<34}{min(wall[step]):>12.2f}{min(cpu[step]):>12.2f}"
-              f"{'  '.join(f'{x:.2f}' for x in wall[step]):>28}")
+        print(f"{step:<34}{min(wall[step]):>12.2f}{min(cpu[step]):>12.2f}   "
+              f"{'  '.join(f'{x:.2f}' for x in wall[step])}")
     print(f"{'(first analysis in the process)':<34}{first_wall:>12.2f}{first_cpu:>12.2f}"
           "   (read + analysis, imports included)")
     print("(CPU s = this process's CPU time: on a shared, loaded machine it is closer to the unloaded wall time)")

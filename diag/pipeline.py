@@ -15,6 +15,8 @@ from __future__ import annotations
 import importlib
 import logging
 import os
+import sys
+from concurrent.futures import ThreadPoolExecutor
 from collections.abc import Callable, Iterable, Sequence
 from pathlib import Path
 
@@ -56,18 +58,62 @@ def _load_gauge(gauge):
     return read_gauge(gauge)
 
 
-def _call(module: str, function: str, result: LinkResult):
-    """Call ``diag.<module>.<function>(result)``; a failure is logged and named in ``result.skipped``."""
+def _attempt(module: str, function: str, result: LinkResult) -> tuple:
+    """``(diag.<module>.<function>(result), None)``, or ``(None, why)`` when it failed (logged); InputError rises.
+
+    Touches nothing shared, so the independent stages can run in threads (see :func:`analyze_link`)."""
     mod = importlib.import_module(f"diag.{module}")
     try:
-        return getattr(mod, function)(result)
+        return getattr(mod, function)(result), None
     except InputError:
         raise
     except Exception as exc:  # one analysis step must not sink the hop: say it was skipped, log the details
         log.warning("%s.%s failed on %s: %s", module, function, result.link.link_id, " ".join(str(exc).split()))
         log.info("details of the %s.%s failure", module, function, exc_info=True)  # shown with -v only
-        result.skipped.append(f"{module}: failed ({type(exc).__name__}: {' '.join(str(exc).split())[:120]})")
-        return None
+        return None, f"{module}: failed ({type(exc).__name__}: {' '.join(str(exc).split())[:120]})"
+
+
+def _call(module: str, function: str, result: LinkResult):
+    """Call ``diag.<module>.<function>(result)``; a failure is logged and named in ``result.skipped``."""
+    value, why = _attempt(module, function, result)
+    if why is not None:
+        result.skipped.append(why)
+    return value
+
+
+# stages that read the painted series and events and write nothing shared: they may run side by side
+_INDEPENDENT = (("stats", "link_statistics"), ("crosspol", "cross_polar"), ("shifts", "level_changes"),
+                ("outage", "account_link"))
+
+
+def default_threads() -> int:
+    """Threads for one hop's independent stages: 1 inside a Dask worker (the cluster already uses the cores) or on
+    a one-core machine, else 2 (numpy and pandas release the GIL in their array loops; more gains little)."""
+    distributed = sys.modules.get("distributed")
+    if distributed is not None:
+        try:
+            distributed.get_worker()
+            return 1
+        except (ValueError, AttributeError):
+            pass
+    return max(1, min(2, os.cpu_count() or 1))
+
+
+def _independent_stages(result: LinkResult, threads: int) -> list:
+    """Values of the ``_INDEPENDENT`` stages, in their order; failures named in ``result.skipped`` in that order
+    (so the outputs do not depend on which thread finished first)."""
+    if threads <= 1:
+        attempts = [_attempt(module, function, result) for module, function in _INDEPENDENT]
+    else:
+        with ThreadPoolExecutor(max_workers=threads, thread_name_prefix="diag-stage") as pool:
+            futures = [pool.submit(_attempt, module, function, result) for module, function in _INDEPENDENT]
+            attempts = [future.result() for future in futures]
+    values = []
+    for value, why in attempts:
+        if why is not None:
+            result.skipped.append(why)
+        values.append(value)
+    return values
 
 
 def _merge_skipped(result: LinkResult, part) -> None:
@@ -87,10 +133,12 @@ def _several_values(column: pd.Series) -> bool:
 
 
 def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None, gauge=None,
-                 ingest: dict | None = None) -> LinkResult:
+                 ingest: dict | None = None, threads: int | None = None) -> LinkResult:
     """Analyse the normalised rows of ONE hop (see the module docstring for the stages).
 
     ``gauge``: a rain-gauge table from :func:`diag.gauge.read_gauge`, or a path / ``(name, bytes)`` to read.
+    ``threads``: threads for the independent stages (statistics, cross-polar, level changes, outage); None =
+    :func:`default_threads`.  The result is the same for any number.
     Raises ``InputError`` when the rows hold no receive level.
     """
     config = config or AnalysisConfig()
@@ -116,13 +164,15 @@ def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | No
         result.events = pd.concat([events, checked], axis=1)
     elif gauge_table is None:
         result.skipped.append("rain-gauge check of the rain verdicts (no gauge file given)")
-    result.statistics = _call("stats", "link_statistics", result) or {}
+    statistics, cross_polar, level_changes, outage = _independent_stages(
+        result, default_threads() if threads is None else int(threads))
+    result.statistics = statistics or {}
     _merge_skipped(result, result.statistics)
-    result.cross_polar = _call("crosspol", "cross_polar", result) or {}
+    result.cross_polar = cross_polar or {}
     _merge_skipped(result, result.cross_polar)
-    result.level_changes = _call("shifts", "level_changes", result) or {}
+    result.level_changes = level_changes or {}
     _merge_skipped(result, result.level_changes)
-    result.outage = _call("outage", "account_link", result)
+    result.outage = outage
     result.findings = _call("findings", "rank_findings", result) or []
     return result
 

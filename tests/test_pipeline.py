@@ -134,3 +134,63 @@ def test_overlapping_files_of_one_hop_keep_each_value_once(sim, tmp_path):
     assert double.ingest["overlap_values_dropped"] == len(sim.table)
     assert list(double.events["cause"]) == list(single.events["cause"])
     assert list(double.events["duration_s"]) == list(single.events["duration_s"])
+
+
+def _same_result(a: LinkResult, b: LinkResult) -> None:
+    pd.testing.assert_frame_equal(a.events, b.events)
+    assert a.statistics == b.statistics and a.cross_polar == b.cross_polar and a.level_changes == b.level_changes
+    assert a.findings == b.findings and a.skipped == b.skipped
+    assert a.outage.summary == b.outage.summary and a.outage.notes == b.outage.notes
+    pd.testing.assert_frame_equal(a.outage.by_cause, b.outage.by_cause)
+    pd.testing.assert_frame_equal(a.outage.per_channel, b.outage.per_channel)
+
+
+def test_threads_give_the_same_result(sim):
+    """The independent stages run side by side in threads; the result must not depend on it."""
+    _same_result(analyze_link(sim.table, sim.link, threads=1), analyze_link(sim.table, sim.link, threads=2))
+
+
+def test_failed_stages_named_in_stage_order_whatever_the_threads(sim, monkeypatch):
+    import time
+
+    import diag.crosspol
+    import diag.stats
+
+    def slow_failure(result):
+        time.sleep(0.2)   # finishes after the cross-polar failure in the threaded run
+        raise RuntimeError("statistics broke")
+
+    def quick_failure(result):
+        raise RuntimeError("cross-polar broke")
+
+    monkeypatch.setattr(diag.stats, "link_statistics", slow_failure)
+    monkeypatch.setattr(diag.crosspol, "cross_polar", quick_failure)
+    serial = analyze_link(sim.table, sim.link, threads=1)
+    threaded = analyze_link(sim.table, sim.link, threads=2)
+    failed = [text for text in serial.skipped if "failed" in text]
+    assert failed == ["stats: failed (RuntimeError: statistics broke)",
+                      "crosspol: failed (RuntimeError: cross-polar broke)"]
+    assert threaded.skipped == serial.skipped
+    assert serial.statistics == {} and serial.cross_polar == {}
+    assert serial.outage is not None and serial.level_changes   # the other stages still ran
+
+
+def test_one_thread_inside_a_dask_worker(monkeypatch):
+    import sys
+    import types
+
+    from diag.pipeline import default_threads
+
+    fake = types.ModuleType("distributed")
+    fake.get_worker = lambda: object()          # as inside a worker: the cluster already holds the cores
+    monkeypatch.setitem(sys.modules, "distributed", fake)
+    assert default_threads() == 1
+
+    def no_worker():
+        raise ValueError("No worker found")     # what distributed.get_worker raises outside a worker
+
+    fake.get_worker = no_worker
+    monkeypatch.setattr("os.cpu_count", lambda: 2)
+    assert default_threads() == 2
+    monkeypatch.setattr("os.cpu_count", lambda: 1)
+    assert default_threads() == 1
