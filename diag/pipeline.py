@@ -148,10 +148,15 @@ def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | No
     series = channel_grids(table)
     if not series:
         raise InputError(f"hop {link.link_id}: the log holds no receive level ({S.RSL}) rows")
-    spans = []
-    for item in series.values():
-        add_reference(item, config)
-        spans.extend(level_shift_spans(item, config))
+    threads = default_threads() if threads is None else max(1, int(threads))
+    items = list(series.values())
+    if threads > 1 and len(items) > 1:   # each channel's reference touches only its own frame
+        with ThreadPoolExecutor(max_workers=threads, thread_name_prefix="diag-reference") as pool:
+            list(pool.map(lambda item: add_reference(item, config), items))
+    else:
+        for item in items:
+            add_reference(item, config)
+    spans = [span for item in items for span in level_shift_spans(item, config)]
     events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
     events = classify_events(events, link, config=config)
     paint_series(series, events)
@@ -164,8 +169,7 @@ def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | No
         result.events = pd.concat([events, checked], axis=1)
     elif gauge_table is None:
         result.skipped.append("rain-gauge check of the rain verdicts (no gauge file given)")
-    statistics, cross_polar, level_changes, outage = _independent_stages(
-        result, default_threads() if threads is None else int(threads))
+    statistics, cross_polar, level_changes, outage = _independent_stages(result, threads)
     result.statistics = statistics or {}
     _merge_skipped(result, result.statistics)
     result.cross_polar = cross_polar or {}
