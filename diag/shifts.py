@@ -43,6 +43,8 @@ WEEK_S = 7 * 86400.0
 _FADE_CAUSES = ("rain", "multipath", "refractive", "signal_loss", "unknown")
 _FADE_WEIGHT = 0.05   # cost of a sample that a fade can explain, against 1 for one that nothing explains
 MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
+TREND_MIN_SPAN_S = 2 * 86400.0   # trend_db_per_week defaults, also used by channel_level_changes
+TREND_TRIM_DB = 3.0
 
 
 @dataclass(frozen=True)
@@ -89,15 +91,15 @@ def clear_mean_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
     return float(kept.mean()) if kept.size else med
 
 
-def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float) -> np.ndarray:
-    """Quantile q (linear interpolation, as numpy's default) of each row of a row-sorted matrix whose first
-    ``count`` entries are finite (NaN after them)."""
+def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float, start=0) -> np.ndarray:
+    """Quantile q (linear interpolation, as numpy's default) of each row of a row-sorted matrix whose ``count``
+    entries from column ``start`` on (0, or one offset per row) are the finite values."""
     pos = q * np.maximum(count - 1, 0)
     lo = np.floor(pos).astype(int)
     hi = np.minimum(lo + 1, np.maximum(count - 1, 0))
     rows = np.arange(sorted_rows.shape[0])
-    v_lo = sorted_rows[rows, np.minimum(lo, sorted_rows.shape[1] - 1)]
-    v_hi = sorted_rows[rows, np.minimum(hi, sorted_rows.shape[1] - 1)]
+    v_lo = sorted_rows[rows, np.minimum(start + lo, sorted_rows.shape[1] - 1)]
+    v_hi = sorted_rows[rows, np.minimum(start + hi, sorted_rows.shape[1] - 1)]
     out = v_lo + (pos - lo) * (v_hi - v_lo)
     return np.where(count > 0, out, np.nan)
 
@@ -105,13 +107,17 @@ def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float) -> np.nd
 def _clear_rows(matrix: np.ndarray, *, fade_trim_db: float, min_count: int = 3) -> np.ndarray:
     """:func:`clear_level_dbm` of every row of ``matrix`` at once (vectorised; NaN = no value)."""
     srt = np.sort(matrix, axis=1)                   # NaN sort last
-    count = np.isfinite(matrix).sum(axis=1)
+    finite = np.isfinite(srt)
+    count = finite.sum(axis=1)
     q75 = _row_quantile(srt, count, 0.75)
+    # exact without a second sort: the kept values (>= q75 - trim) are the sorted row from column ``start`` (the
+    # number of values below the threshold) on, so their median is read from ``srt`` at that offset
     with np.errstate(invalid="ignore"):
-        kept = np.where(matrix >= (q75 - fade_trim_db)[:, None], matrix, np.nan)
-    srt2 = np.sort(kept, axis=1)
-    count2 = np.isfinite(kept).sum(axis=1)
-    med = _row_quantile(srt2, count2, 0.5)
+        low = srt < (q75 - fade_trim_db)[:, None]
+    start = low.sum(axis=1)
+    count2 = count - (low & finite).sum(axis=1)     # finite values kept
+    count2[np.isnan(q75)] = 0                       # nothing is kept under a NaN threshold
+    med = _row_quantile(srt, count2, 0.5, start)
     med[count < min_count] = np.nan
     return med
 
@@ -121,8 +127,11 @@ def _block_levels(level: np.ndarray, block: int, *, fade_trim_db: float) -> np.n
     if block == 1:
         return level.astype(float).copy()
     n_blocks = len(level) // block + (1 if len(level) % block else 0)
-    padded = np.full(n_blocks * block, np.nan)
-    padded[: len(level)] = level
+    if n_blocks * block == len(level):
+        padded = level                      # whole blocks: no NaN padding to add
+    else:
+        padded = np.full(n_blocks * block, np.nan)
+        padded[: len(level)] = level
     return _clear_rows(padded.reshape(n_blocks, block), fade_trim_db=fade_trim_db,
                        min_count=max(1, block // 2))
 
@@ -308,67 +317,103 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     return steps
 
 
-def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
-    """The level with each step's size subtracted from the step time on (the level as if no step happened)."""
-    out = level_dbm.astype(float).copy()
+def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
+    """:func:`remove_steps` on a float array (a copy) with its time index."""
+    out = np.array(values, dtype=float)
     for step in steps:
-        out.loc[out.index >= step.time_utc] -= step.size_db
+        if index.is_monotonic_increasing:    # the samples at or after the step time are a suffix
+            out[index.searchsorted(step.time_utc, side="left"):] -= step.size_db
+        else:
+            out[index >= step.time_utc] -= step.size_db
     return out
 
 
-def _hourly_clear_levels(series: pd.Series, *, fade_trim_db: float) -> pd.Series:
-    """Clear level (:func:`clear_level_dbm`) of each clock hour holding valid samples, vectorised."""
-    t0 = series.index[0].floor("h")
-    hour = ((series.index - t0).total_seconds().to_numpy() // 3600).astype(np.int64)
-    values = series.to_numpy(dtype=float)
-    starts = np.flatnonzero(np.r_[True, np.diff(hour) != 0])       # index sorted: hours are non-decreasing
+def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
+    """The level with each step's size subtracted from the step time on (the level as if no step happened)."""
+    values = level_dbm.to_numpy(dtype=float, na_value=np.nan)
+    return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name)
+
+
+def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *,
+                         fade_trim_db: float) -> tuple[np.ndarray, np.ndarray]:
+    """Clear level (:func:`clear_level_dbm`) of each clock hour holding valid samples, vectorised.
+
+    ``values``: valid (non-NaN) samples at the sorted times ``index``.  Returns (hour number counted from the
+    first sample's clock hour, clear level) of the hours with a level.
+    """
+    t0 = index[:1].floor("h").asi8[0]
+    ticks_per_hour = int(np.timedelta64(1, "h") // np.timedelta64(1, index.unit))
+    # integer ticks: the same hours as (index - t0).total_seconds() // 3600, which floors whole seconds first
+    hour = (index.asi8 - t0) // ticks_per_hour
+    starts = np.flatnonzero(np.r_[True, hour[1:] != hour[:-1]])     # index sorted: hours are non-decreasing
     counts = np.diff(np.r_[starts, len(hour)])
-    pos = np.arange(len(hour)) - np.repeat(starts, counts)
-    matrix = np.full((len(starts), int(counts.max())), np.nan)
-    matrix[np.repeat(np.arange(len(starts)), counts), pos] = values
-    levels = _clear_rows(matrix, fade_trim_db=fade_trim_db)
-    index = t0 + pd.to_timedelta(hour[starts], unit="h")
-    return pd.Series(levels, index=index).dropna()
+    width = int(counts.max())
+    # sample j of row r goes to flat position r * width + (j - starts[r])
+    flat = np.arange(len(hour)) + np.repeat(np.arange(len(starts)) * width - starts, counts)
+    matrix = np.full(len(starts) * width, np.nan)
+    matrix[flat] = values
+    levels = _clear_rows(matrix.reshape(len(starts), width), fade_trim_db=fade_trim_db)
+    ok = ~np.isnan(levels)
+    return hour[starts][ok], levels[ok]
 
 
-def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = 2 * 86400.0,
-                      fade_trim_db: float = 3.0) -> dict:
+def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = TREND_MIN_SPAN_S,
+                      fade_trim_db: float = TREND_TRIM_DB) -> dict:
     """Slow trend of the clear-sky level: Theil-Sen slope of hourly clear levels [dB/week] with a 95 % interval.
 
     Returns ``{"slope_db_per_week", "low_db_per_week", "high_db_per_week", "hours_used", "span_days"}``;
     the slope is None (with ``"skipped"`` saying why) when the record spans less than ``min_span_s`` or has
     fewer than 12 usable hours.  Source of the estimator: Sen (1968), as implemented in scipy.stats.theilslopes.
     """
-    series = level_dbm.astype(float).dropna()
-    if series.empty:
+    return _trend(level_dbm.to_numpy(dtype=float, na_value=np.nan), level_dbm.index, min_span_s=min_span_s,
+                  fade_trim_db=fade_trim_db)
+
+
+def _trend(values: np.ndarray, index: pd.DatetimeIndex, *, min_span_s: float, fade_trim_db: float) -> dict:
+    """:func:`trend_db_per_week` of a float array (NaN = no sample) with its time index."""
+    valid = ~np.isnan(values)
+    if not valid.any():
         return {"slope_db_per_week": None, "skipped": "no valid samples"}
-    span_s = (series.index[-1] - series.index[0]).total_seconds()
+    if not valid.all():
+        values, index = values[valid], index[valid]
+    span_s = (index[-1] - index[0]).total_seconds()
     if span_s < min_span_s:
         return {"slope_db_per_week": None, "span_days": round(span_s / 86400.0, 3),
                 "skipped": f"record spans {span_s / 86400.0:.2f} d, under {min_span_s / 86400.0:.2f} d"}
-    hourly = _hourly_clear_levels(series, fade_trim_db=fade_trim_db)
-    if len(hourly) < 12:
+    hours, levels = _hourly_clear_levels(values, index, fade_trim_db=fade_trim_db)
+    if len(levels) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
     from scipy import stats as sps   # imported here: scipy.stats is slow to import and only the trend needs it
 
-    t_week = (hourly.index - hourly.index[0]).total_seconds().to_numpy() / WEEK_S
-    slope, intercept, low, high = sps.theilslopes(hourly.to_numpy(), t_week, alpha=0.95)
+    t_week = (hours - hours[0]) * 3600.0 / WEEK_S   # whole hours: the same floats as Timedelta.total_seconds()
+    slope, intercept, low, high = sps.theilslopes(levels, t_week, alpha=0.95)
     return {"slope_db_per_week": round(float(slope), 4), "low_db_per_week": round(float(low), 4),
-            "high_db_per_week": round(float(high), 4), "hours_used": int(len(hourly)),
+            "high_db_per_week": round(float(high), 4), "hours_used": int(len(levels)),
             "span_days": round(span_s / 86400.0, 3)}
+
+
+def in_set(column: pd.Series, values) -> np.ndarray:
+    """``column.isin(values)`` as a bool array, missing values False; a categorical column is tested once per
+    category (the same test, applied to each row through its category code)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        hit = np.append(column.cat.categories.isin(values), False)    # code -1 (missing) -> False
+        return hit[column.cat.codes.to_numpy()]
+    return column.isin(values).to_numpy(dtype=bool, na_value=False)
 
 
 def path_level_dbm(frame: pd.DataFrame) -> pd.Series:
     """Receive level with logged transmit-power changes removed (RSL - (TSL - median TSL)), NaN unless valid."""
-    level = frame["rsl_dbm"].astype(float)
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    name = "rsl_dbm"
     if "status" in frame.columns:
-        level = level.where(frame["status"] == "ok")
+        level = np.where(in_set(frame["status"], ["ok"]), level, np.nan)
     if "tsl_dbm" in frame.columns:
         tsl = frame["tsl_dbm"].astype(float)
         if tsl.notna().any():
-            tsl_filled = tsl.ffill().bfill()
+            tsl_filled = tsl.ffill().bfill().to_numpy()
             level = level - (tsl_filled - float(tsl.median()))
-    return level
+            name = None        # as pandas names the difference of two differently named series
+    return pd.Series(level, index=frame.index, name=name)
 
 
 def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db: float = 2.0,
@@ -376,14 +421,14 @@ def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db
     """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able)."""
     level = path_level_dbm(frame)
     steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
-    clear = remove_steps(level, steps)
+    clear = _steps_removed(level.to_numpy(), level.index, steps)
     masked = False
     if "cause" in frame:   # the trend uses clear-sky samples only: fades of any other cause are left out
-        fading = frame["cause"].isin(_FADE_CAUSES).to_numpy(dtype=bool, na_value=False)
-        if fading.any() and (~fading).sum() > 0:
-            clear = clear.where(~fading)
+        fading = in_set(frame["cause"], _FADE_CAUSES)
+        if fading.any() and not fading.all():
+            clear[fading] = np.nan
             masked = True
-    trend = trend_db_per_week(clear)
+    trend = _trend(clear, level.index, min_span_s=TREND_MIN_SPAN_S, fade_trim_db=TREND_TRIM_DB)
     slope = trend.get("slope_db_per_week")
     drifting = bool(slope is not None and abs(slope) >= drift_flag_db_per_week
                     and (trend["low_db_per_week"] > 0 or trend["high_db_per_week"] < 0))
