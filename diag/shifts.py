@@ -334,27 +334,46 @@ def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
     return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name)
 
 
-def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *,
-                         fade_trim_db: float) -> tuple[np.ndarray, np.ndarray]:
+def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *, fade_trim_db: float,
+                         is_sorted: bool) -> tuple[np.ndarray, np.ndarray]:
     """Clear level (:func:`clear_level_dbm`) of each clock hour holding valid samples, vectorised.
 
-    ``values``: valid (non-NaN) samples at the sorted times ``index``.  Returns (hour number counted from the
-    first sample's clock hour, clear level) of the hours with a level.
+    ``values`` (NaN = no sample) at the times ``index``, whose first sample is valid; ``is_sorted``: the index is
+    increasing.  Returns (hour number counted from the first sample's clock hour, clear level) of the hours with
+    a level.
     """
+    i8 = index.asi8
     t0 = index[:1].floor("h").asi8[0]
     ticks_per_hour = int(np.timedelta64(1, "h") // np.timedelta64(1, index.unit))
-    # integer ticks: the same hours as (index - t0).total_seconds() // 3600, which floors whole seconds first
-    hour = (index.asi8 - t0) // ticks_per_hour
-    starts = np.flatnonzero(np.r_[True, hour[1:] != hour[:-1]])     # index sorted: hours are non-decreasing
-    counts = np.diff(np.r_[starts, len(hour)])
-    width = int(counts.max())
-    # sample j of row r goes to flat position r * width + (j - starts[r])
-    flat = np.arange(len(hour)) + np.repeat(np.arange(len(starts)) * width - starts, counts)
-    matrix = np.full(len(starts) * width, np.nan)
-    matrix[flat] = values
-    levels = _clear_rows(matrix.reshape(len(starts), width), fade_trim_db=fade_trim_db)
+    if is_sorted:
+        # row r: the samples in [t0 + r h, t0 + (r + 1) h), found by bisection.  NaN samples stay in the rows:
+        # _clear_rows ignores them, and an hour without valid samples gets no level, as if they had been dropped
+        n_hours = int((i8[-1] - t0) // ticks_per_hour) + 1
+        edges = np.searchsorted(i8, t0 + np.arange(n_hours + 1) * ticks_per_hour)
+        starts, counts, row_hour = edges[:-1], np.diff(edges), np.arange(n_hours)
+    else:   # rows: runs of one hour among the valid samples, in the given order
+        valid = ~np.isnan(values)
+        values, i8 = values[valid], i8[valid]
+        # integer ticks: the same hours as (index - t0).total_seconds() // 3600, which floors whole seconds first
+        hour = (i8 - t0) // ticks_per_hour
+        starts = np.flatnonzero(np.r_[True, hour[1:] != hour[:-1]])
+        counts = np.diff(np.r_[starts, len(hour)])
+        row_hour = hour[starts]
+    n_rows, width = len(starts), int(counts.max())
+    matrix = np.full((n_rows, width), np.nan)
+    if n_rows > 2 and (counts[1:-1] == width).all():
+        # a regular grid: the inner hours are consecutive full rows of the (contiguous) samples
+        matrix[1:-1] = values[starts[1]:starts[-1]].reshape(n_rows - 2, width)
+        matrix[0, :counts[0]] = values[starts[0]:starts[1]]
+        matrix[-1, :counts[-1]] = values[starts[-1]:starts[-1] + counts[-1]]
+    else:
+        # sample j of row r goes to flat position r * width + (j - starts[r])
+        j = np.arange(starts[0], starts[-1] + counts[-1])
+        flat = j + np.repeat(np.arange(n_rows) * width - starts, counts)
+        matrix.reshape(-1)[flat] = values[j]
+    levels = _clear_rows(matrix, fade_trim_db=fade_trim_db)
     ok = ~np.isnan(levels)
-    return hour[starts][ok], levels[ok]
+    return row_hour[ok], levels[ok]
 
 
 def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = TREND_MIN_SPAN_S,
@@ -374,13 +393,13 @@ def _trend(values: np.ndarray, index: pd.DatetimeIndex, *, min_span_s: float, fa
     valid = ~np.isnan(values)
     if not valid.any():
         return {"slope_db_per_week": None, "skipped": "no valid samples"}
-    if not valid.all():
-        values, index = values[valid], index[valid]
-    span_s = (index[-1] - index[0]).total_seconds()
+    first, last = int(valid.argmax()), len(valid) - 1 - int(valid[::-1].argmax())
+    span_s = (index[last] - index[first]).total_seconds()
     if span_s < min_span_s:
         return {"slope_db_per_week": None, "span_days": round(span_s / 86400.0, 3),
                 "skipped": f"record spans {span_s / 86400.0:.2f} d, under {min_span_s / 86400.0:.2f} d"}
-    hours, levels = _hourly_clear_levels(values, index, fade_trim_db=fade_trim_db)
+    hours, levels = _hourly_clear_levels(values[first:last + 1], index[first:last + 1], fade_trim_db=fade_trim_db,
+                                         is_sorted=index.is_monotonic_increasing)
     if len(levels) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
     from scipy import stats as sps   # imported here: scipy.stats is slow to import and only the trend needs it
@@ -396,8 +415,11 @@ def in_set(column: pd.Series, values) -> np.ndarray:
     """``column.isin(values)`` as a bool array, missing values False; a categorical column is tested once per
     category (the same test, applied to each row through its category code)."""
     if isinstance(column.dtype, pd.CategoricalDtype):
-        hit = np.append(column.cat.categories.isin(values), False)    # code -1 (missing) -> False
-        return hit[column.cat.codes.to_numpy()]
+        codes = column.cat.codes.to_numpy()                 # -1 (missing) matches no category
+        out = np.zeros(len(codes), dtype=bool)
+        for code in np.flatnonzero(column.cat.categories.isin(values)):
+            out |= codes == codes.dtype.type(code)     # compare in the codes' own (int8) type
+        return out
     return column.isin(values).to_numpy(dtype=bool, na_value=False)
 
 
