@@ -115,7 +115,10 @@ def _clear_rows(matrix: np.ndarray, *, fade_trim_db: float, min_count: int = 3) 
     with np.errstate(invalid="ignore"):
         low = srt < (q75 - fade_trim_db)[:, None]
     start = low.sum(axis=1)
-    count2 = count - (low & finite).sum(axis=1)     # finite values kept
+    if np.isneginf(srt[:, :1]).any():             # -inf sorts first: only then can a low value be non-finite
+        count2 = count - (low & finite).sum(axis=1)     # finite values kept
+    else:
+        count2 = count - start
     count2[np.isnan(q75)] = 0                       # nothing is kept under a NaN threshold
     med = _row_quantile(srt, count2, 0.5, start)
     med[count < min_count] = np.nan
