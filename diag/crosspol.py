@@ -37,7 +37,7 @@ import pandas as pd
 
 from diag import schema as S
 from diag.models import p838, xpol
-from diag.shifts import detect_steps
+from diag.shifts import detect_steps, in_set
 
 log = logging.getLogger(__name__)
 
@@ -57,14 +57,31 @@ def _r(value, digits: int = 4):
     return float(f"{value:.{digits}g}") if value != 0 else 0.0
 
 
+def _xpd_source(frame: pd.DataFrame) -> str | None:
+    """The column the XPD comes from (``xpd_db``, else ``xpl_dbm``), None when neither holds a value."""
+    for column in (S.XPD, S.XPL):
+        if column in frame and frame[column].notna().any():
+            return column
+    return None
+
+
+def _xpd_values(frame: pd.DataFrame, source: str) -> np.ndarray:
+    """:func:`xpd_series` as a float array, from the column ``source`` (see :func:`_xpd_source`)."""
+    x = frame[source].to_numpy(dtype=float, na_value=np.nan)
+    if source == S.XPL:
+        x = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan) - x
+    if "status" in frame:
+        x = np.where(in_set(frame["status"], [S.OK]), x, np.nan)
+    return x
+
+
 def xpd_series(frame: pd.DataFrame) -> pd.Series | None:
     """The logged XPD [dB] (``xpd_db``, else co-polar RSL - ``xpl_dbm``), NaN unless status is ok; None if absent."""
-    ok = frame["status"] == S.OK if "status" in frame else pd.Series(True, index=frame.index)
-    if S.XPD in frame and frame[S.XPD].notna().any():
-        return frame[S.XPD].astype(float).where(ok)
-    if S.XPL in frame and frame[S.XPL].notna().any():
-        return (frame["rsl_dbm"].astype(float) - frame[S.XPL].astype(float)).where(ok)
-    return None
+    source = _xpd_source(frame)
+    if source is None:
+        return None
+    return pd.Series(_xpd_values(frame, source), index=frame.index, name=source if source == S.XPD else None,
+                     copy=False)
 
 
 def tilt_from_measured_xpd_deg(xpd_db, antenna_xpd_db):
@@ -79,16 +96,34 @@ def tilt_from_measured_xpd_deg(xpd_db, antenna_xpd_db):
 
 
 def _clear_mask(frame: pd.DataFrame, clear_max_att_db: float) -> np.ndarray:
-    mask = ((frame["status"] == S.OK).to_numpy(dtype=bool, na_value=False) if "status" in frame
-            else np.ones(len(frame), bool))
+    mask = in_set(frame["status"], [S.OK]) if "status" in frame else np.ones(len(frame), bool)
     if "cause" in frame:
-        mask = mask & ~frame["cause"].isin(_NOT_CLEAR).to_numpy(dtype=bool, na_value=False)
+        mask = mask & ~in_set(frame["cause"], _NOT_CLEAR)
     if "attenuation_db" in frame:
         att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
-        shifted = ((frame["cause"] == S.LEVEL_SHIFT).to_numpy(dtype=bool, na_value=False) if "cause" in frame
-                   else np.zeros(len(frame), bool))
+        shifted = in_set(frame["cause"], [S.LEVEL_SHIFT]) if "cause" in frame else np.zeros(len(frame), bool)
         mask = mask & ((att <= clear_max_att_db) | shifted)
     return mask
+
+
+def _median(x: np.ndarray) -> float:
+    """``float(np.median(x))`` of a non-empty 1-D float array, with one single-place partition.
+
+    The same value: numpy partitions at both middle places and the last (a select several times slower); here
+    the upper middle comes from the partition, the lower middle is the largest value below it, and the middle
+    values go through np.mean as in numpy.  With a NaN, numpy's own median answers.
+    """
+    n = x.size
+    k = n // 2
+    part = np.partition(x, k)
+    if np.isnan(part[k:]).any():     # NaN sorts last, so any NaN is in the upper part
+        return float(np.median(x))
+    return float(np.mean(part[k:k + 1] if n % 2 else np.array([part[:k].max(), part[k]])))
+
+
+def _positions(index: pd.Index, times) -> np.ndarray:
+    """For each time, the number of index entries before it (the index is sorted)."""
+    return index.searchsorted(pd.DatetimeIndex(times), side="left")
 
 
 def _p530_xpd(frequency_ghz: float) -> dict | None:
@@ -110,13 +145,14 @@ def _fit_uv(cpa_db: np.ndarray, xpd_db: np.ndarray) -> dict:
 
 def rain_xpd_block(frame: pd.DataFrame, xpd: pd.Series, clear_xpd_db, frequency_ghz: float, *,
                    min_cpa_db: float = 3.0, min_samples: int = 20) -> dict:
-    """XPD vs CPA in rain.  ``clear_xpd_db``: the clear-sky XPD (a number, or an array per sample when it
-    changed during the record) whose leak is removed before the fit."""
+    """XPD vs CPA in rain.  ``xpd``: the XPD per sample of ``frame`` (a series or an array); ``clear_xpd_db``: the
+    clear-sky XPD (a number, or an array per sample when it changed during the record) whose leak is removed
+    before the fit."""
     if "cause" not in frame or "attenuation_db" not in frame:
         return {"skipped": "no classified events"}
     cpa = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
-    x = xpd.to_numpy(dtype=float, na_value=np.nan)
-    is_rain = (frame["cause"] == S.RAIN).to_numpy(dtype=bool, na_value=False)
+    x = xpd.to_numpy(dtype=float, na_value=np.nan) if isinstance(xpd, pd.Series) else np.asarray(xpd, dtype=float)
+    is_rain = in_set(frame["cause"], [S.RAIN])
     use = is_rain & (cpa >= min_cpa_db) & np.isfinite(x)
     if use.sum() < min_samples:
         return {"skipped": f"fewer than {min_samples} rain samples with CPA >= {min_cpa_db:g} dB and an XPD"}
@@ -145,23 +181,33 @@ def rain_xpd_block(frame: pd.DataFrame, xpd: pd.Series, clear_xpd_db, frequency_
     return out
 
 
-def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db: float, skipped: list[str]) -> dict:
+def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db: float, skipped: list[str],
+                clear: np.ndarray | None = None) -> dict:
+    """Clear-sky XPD, tilt and rain XPD of one channel (``clear``: its :func:`_clear_mask`, when already made)."""
     frame = series.frame
-    xpd = xpd_series(frame)
-    clear = _clear_mask(frame, clear_max_att_db)
-    clear_xpd = xpd.where(clear)
-    if clear_xpd.notna().sum() < 10:
+    index = frame.index
+    xpd = _xpd_values(frame, _xpd_source(frame))
+    if clear is None:
+        clear = _clear_mask(frame, clear_max_att_db)
+    clear_xpd = np.where(clear, xpd, np.nan)
+    valid = ~np.isnan(clear_xpd)
+    if np.count_nonzero(valid) < 10:
         skipped.append(f"{series.channel}: clear-sky XPD: fewer than 10 clear-sky samples with an XPD")
         return {"skipped": "too few clear-sky XPD samples"}
-    steps = detect_steps(clear_xpd, series.interval_s, min_step_db=1.5)
-    end = clear_xpd.index[-1] + pd.Timedelta(seconds=float(series.interval_s))
-    bounds = [clear_xpd.index[0]] + [s.time_utc for s in steps] + [end]
+    steps = detect_steps(pd.Series(clear_xpd, index=index, copy=False), series.interval_s, min_step_db=1.5)
+    end = index[-1] + pd.Timedelta(seconds=float(series.interval_s))
+    bounds = [index[0]] + [s.time_utc for s in steps] + [end]
+    if index.is_monotonic_increasing:   # each segment [a, b) is a slice of the samples
+        cuts = _positions(index, bounds)
+        slices = [slice(i, j) for i, j in zip(cuts[:-1], cuts[1:])]
+    else:
+        slices = [(index >= a) & (index < b) for a, b in zip(bounds[:-1], bounds[1:])]
     segments = []
-    for a, b in zip(bounds[:-1], bounds[1:]):
-        part = clear_xpd[(clear_xpd.index >= a) & (clear_xpd.index < b)].dropna()
+    for a, b, where in zip(bounds[:-1], bounds[1:], slices):
+        part = clear_xpd[where][valid[where]]
         if len(part) >= 10:
             segments.append({"start_utc": a.isoformat(), "end_utc": b.isoformat(),
-                             "clear_xpd_db": float(np.median(part)), "samples": int(len(part))})
+                             "clear_xpd_db": _median(part), "samples": int(len(part))})
     if not segments:
         return {"skipped": "no clear-sky XPD segment with 10 samples"}
     best = max(s["clear_xpd_db"] for s in segments)
@@ -196,7 +242,10 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
         skipped.append("XPD against required value: needs xpd_required_db in the links table")
     static = np.full(len(frame), segments[0]["clear_xpd_db"], dtype=float)
     for seg in segments[1:]:
-        static[frame.index >= pd.Timestamp(seg["start_utc"])] = seg["clear_xpd_db"]
+        if index.is_monotonic_increasing:
+            static[_positions(index, [pd.Timestamp(seg["start_utc"])])[0]:] = seg["clear_xpd_db"]
+        else:
+            static[index >= pd.Timestamp(seg["start_utc"])] = seg["clear_xpd_db"]
     out["rain"] = rain_xpd_block(frame, xpd, static, link.frequency_ghz)
     if "skipped" in out["rain"]:
         skipped.append(f"{series.channel}: XPD vs CPA in rain: {out['rain']['skipped']}")
@@ -204,17 +253,27 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
 
 
 def hv_block(series_h, series_v, link, *, clear_max_att_db: float, min_att_db: float = 3.0,
-             min_samples: int = 20) -> dict:
-    """Clear-sky H/V imbalance and the rain differential-attenuation check (P.838) for a dual-polarised hop."""
+             min_samples: int = 20, clear_h: np.ndarray | None = None, clear_v: np.ndarray | None = None) -> dict:
+    """Clear-sky H/V imbalance and the rain differential-attenuation check (P.838) for a dual-polarised hop.
+
+    ``clear_h``, ``clear_v``: the channels' :func:`_clear_mask`, when already made."""
     fh, fv = series_h.frame, series_v.frame
     out: dict = {}
-    ch = _clear_mask(fh, clear_max_att_db)
-    cv = _clear_mask(fv, clear_max_att_db)
-    h_clear = fh["rsl_dbm"].where(ch)
-    v_clear = fv["rsl_dbm"].where(cv)
-    both = pd.concat([h_clear.rename("h"), v_clear.rename("v")], axis=1, join="inner").dropna()
-    if len(both) >= 10:
-        imbalance = float(np.median(both["h"] - both["v"]))
+    ch = _clear_mask(fh, clear_max_att_db) if clear_h is None else clear_h
+    cv = _clear_mask(fv, clear_max_att_db) if clear_v is None else clear_v
+    same_grid = fh.index.equals(fv.index)
+    if same_grid:   # the inner join is the identity: pair the samples by position
+        h = np.where(ch, fh["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan), np.nan)
+        v = np.where(cv, fv["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan), np.nan)
+        pair = ~(np.isnan(h) | np.isnan(v))
+        h_minus_v = h[pair] - v[pair]
+    else:
+        h_clear = fh["rsl_dbm"].where(ch)
+        v_clear = fv["rsl_dbm"].where(cv)
+        both = pd.concat([h_clear.rename("h"), v_clear.rename("v")], axis=1, join="inner").dropna()
+        h_minus_v = (both["h"] - both["v"]).to_numpy()
+    if len(h_minus_v) >= 10:
+        imbalance = _median(h_minus_v)
         out["clear_sky_imbalance_db"] = _r(imbalance)
         out["imbalance_flag"] = bool(abs(imbalance) > HV_IMBALANCE_FLAG_DB)
         out["imbalance_flag_db"] = HV_IMBALANCE_FLAG_DB
@@ -223,21 +282,27 @@ def hv_block(series_h, series_v, link, *, clear_max_att_db: float, min_att_db: f
     if "attenuation_db" not in fh or "attenuation_db" not in fv or "cause" not in fh:
         out["rain_ratio"] = {"skipped": "no attenuation / causes"}
         return out
-    j = pd.concat([fh["attenuation_db"].rename("ah"), fv["attenuation_db"].rename("av"),
-                   fh["cause"].rename("ch"), fv["cause"].rename("cv"),
-                   fh["status"].rename("sh"), fv["status"].rename("sv")], axis=1, join="inner")
-    rain = ((j["ch"] == S.RAIN) | (j["cv"] == S.RAIN)) & (j["sh"] == S.OK) & (j["sv"] == S.OK)
-    j = j[rain & (j["ah"] >= min_att_db) & j["av"].notna()]
-    if len(j) < min_samples:
+    if same_grid:
+        j = {"ah": fh["attenuation_db"], "av": fv["attenuation_db"], "ch": fh["cause"], "cv": fv["cause"],
+             "sh": fh["status"], "sv": fv["status"]}
+    else:
+        j = pd.concat([fh["attenuation_db"].rename("ah"), fv["attenuation_db"].rename("av"),
+                       fh["cause"].rename("ch"), fv["cause"].rename("cv"),
+                       fh["status"].rename("sh"), fv["status"].rename("sv")], axis=1, join="inner")
+    ah = j["ah"].to_numpy(dtype=float, na_value=np.nan)
+    av = j["av"].to_numpy(dtype=float, na_value=np.nan)
+    rain = ((in_set(j["ch"], [S.RAIN]) | in_set(j["cv"], [S.RAIN])) & in_set(j["sh"], [S.OK])
+            & in_set(j["sv"], [S.OK]))
+    use = rain & (ah >= min_att_db) & ~np.isnan(av)
+    if np.count_nonzero(use) < min_samples:
         out["rain_ratio"] = {"skipped": f"fewer than {min_samples} rain samples with A_H >= {min_att_db:g} dB on both"}
         return out
-    ah = j["ah"].to_numpy(float)
-    av = j["av"].to_numpy(float)
+    ah, av = ah[use], av[use]
     observed = float(np.sum(ah * av) / np.sum(ah * ah))            # least squares through the origin
     rate = np.asarray(p838.rain_rate_from_attenuation_mmh(ah, link.length_km, link.frequency_ghz, 0.0), float)
     av_pred = np.asarray(p838.specific_attenuation_db_per_km(rate, link.frequency_ghz, 90.0), float) * link.length_km
     predicted = float(np.sum(ah * av_pred) / np.sum(ah * ah))
-    out["rain_ratio"] = {"samples": int(len(j)), "observed_av_over_ah": _r(observed),
+    out["rain_ratio"] = {"samples": int(len(ah)), "observed_av_over_ah": _r(observed),
                          "p838_av_over_ah": _r(predicted),
                          "median_sample_ratio": _r(np.median(av / ah)),
                          "implied_rain_mmh_median": _r(np.median(rate)),
@@ -257,14 +322,17 @@ def cross_polar(result, *, antenna_xpd_db: float | None = None, clear_max_att_db
     skipped: list[str] = []
     out: dict = {"xpd": {}, "skipped": skipped}
     link = result.link
+    clear: dict[str, np.ndarray] = {}   # each channel's clear-sky mask, made once for the XPD and the H/V checks
     for name, series in result.series.items():
-        if xpd_series(series.frame) is not None:
+        if _xpd_source(series.frame) is not None:
+            clear[name] = _clear_mask(series.frame, clear_max_att_db)
             out["xpd"][name] = xpd_channel(series, link, antenna_xpd_db=antenna_xpd_db,
-                                           clear_max_att_db=clear_max_att_db, skipped=skipped)
+                                           clear_max_att_db=clear_max_att_db, skipped=skipped, clear=clear[name])
     if not out["xpd"]:
         skipped.append("clear-sky XPD and tilt: no XPD or cross-polar level logged")
     if "H" in result.series and "V" in result.series:
-        out["hv"] = hv_block(result.series["H"], result.series["V"], link, clear_max_att_db=clear_max_att_db)
+        out["hv"] = hv_block(result.series["H"], result.series["V"], link, clear_max_att_db=clear_max_att_db,
+                             clear_h=clear.get("H"), clear_v=clear.get("V"))
         if "skipped" in out["hv"].get("rain_ratio", {}):
             skipped.append(f"rain differential attenuation (H/V): {out['hv']['rain_ratio']['skipped']}")
     elif not out["xpd"]:

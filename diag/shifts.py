@@ -334,7 +334,8 @@ def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np
 def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
     """The level with each step's size subtracted from the step time on (the level as if no step happened)."""
     values = level_dbm.to_numpy(dtype=float, na_value=np.nan)
-    return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name)
+    return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name,
+                     copy=False)
 
 
 def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *, fade_trim_db: float,
@@ -438,7 +439,7 @@ def path_level_dbm(frame: pd.DataFrame) -> pd.Series:
             tsl_filled = tsl.ffill().bfill().to_numpy()
             level = level - (tsl_filled - float(tsl.median()))
             name = None        # as pandas names the difference of two differently named series
-    return pd.Series(level, index=frame.index, name=name)
+    return pd.Series(level, index=frame.index, name=name, copy=False)
 
 
 def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db: float = 2.0,
