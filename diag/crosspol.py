@@ -106,8 +106,9 @@ def _clear_mask(frame: pd.DataFrame, clear_max_att_db: float) -> np.ndarray:
     return mask
 
 
-def _median(x: np.ndarray) -> float:
-    """``float(np.median(x))`` of a non-empty 1-D float array, with one single-place partition.
+def _median(x: np.ndarray, *, overwrite_input: bool = False) -> float:
+    """``float(np.median(x))`` of a non-empty 1-D float array, with one single-place partition (in place with
+    ``overwrite_input``: x is reordered).
 
     The same value: numpy partitions at both middle places and the last (a select several times slower); here
     the upper middle comes from the partition, the lower middle is the largest value below it, and the middle
@@ -115,7 +116,11 @@ def _median(x: np.ndarray) -> float:
     """
     n = x.size
     k = n // 2
-    part = np.partition(x, k)
+    if overwrite_input:
+        part = x
+        part.partition(k)
+    else:
+        part = np.partition(x, k)
     if np.isnan(part[k:]).any():     # NaN sorts last, so any NaN is in the upper part
         return float(np.median(x))
     return float(np.mean(part[k:k + 1] if n % 2 else np.array([part[:k].max(), part[k]])))
@@ -154,14 +159,15 @@ def rain_xpd_block(frame: pd.DataFrame, xpd: pd.Series, clear_xpd_db, frequency_
     x = xpd.to_numpy(dtype=float, na_value=np.nan) if isinstance(xpd, pd.Series) else np.asarray(xpd, dtype=float)
     is_rain = in_set(frame["cause"], [S.RAIN])
     use = is_rain & (cpa >= min_cpa_db) & np.isfinite(x)
-    if use.sum() < min_samples:
+    n_use = int(np.count_nonzero(use))
+    if n_use < min_samples:
         return {"skipped": f"fewer than {min_samples} rain samples with CPA >= {min_cpa_db:g} dB and an XPD"}
     cpa_u, x_u = cpa[use], x[use]
     static = np.broadcast_to(np.asarray(clear_xpd_db, dtype=float), cpa.shape)[use]
     # remove the clear-sky leak (antenna + tilt) so the fit describes the rain depolarisation alone
     leak = 10.0 ** (-x_u / 10.0) - 10.0 ** (-static / 10.0)
     keep = leak > 10.0 ** (-static / 10.0) * 0.25    # rain leak at least a quarter of the static one
-    out = {"samples": int(use.sum()), "samples_rain_dominated": int(keep.sum()), "min_cpa_db": min_cpa_db,
+    out = {"samples": n_use, "samples_rain_dominated": int(keep.sum()), "min_cpa_db": min_cpa_db,
            "clear_sky_leak_removed_db": _r(np.median(static))}
     if keep.sum() < min_samples:
         out["skipped"] = "rain depolarisation hidden under the clear-sky leak (too few rain-dominated samples)"
@@ -182,11 +188,12 @@ def rain_xpd_block(frame: pd.DataFrame, xpd: pd.Series, clear_xpd_db, frequency_
 
 
 def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db: float, skipped: list[str],
-                clear: np.ndarray | None = None) -> dict:
-    """Clear-sky XPD, tilt and rain XPD of one channel (``clear``: its :func:`_clear_mask`, when already made)."""
+                clear: np.ndarray | None = None, source: str | None = None) -> dict:
+    """Clear-sky XPD, tilt and rain XPD of one channel with a logged XPD (``clear``: its :func:`_clear_mask`,
+    ``source``: its :func:`_xpd_source`, when already known)."""
     frame = series.frame
     index = frame.index
-    xpd = _xpd_values(frame, _xpd_source(frame))
+    xpd = _xpd_values(frame, source or _xpd_source(frame))
     if clear is None:
         clear = _clear_mask(frame, clear_max_att_db)
     clear_xpd = np.where(clear, xpd, np.nan)
@@ -207,7 +214,7 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
         part = clear_xpd[where][valid[where]]
         if len(part) >= 10:
             segments.append({"start_utc": a.isoformat(), "end_utc": b.isoformat(),
-                             "clear_xpd_db": _median(part), "samples": int(len(part))})
+                             "clear_xpd_db": _median(part, overwrite_input=True), "samples": int(len(part))})
     if not segments:
         return {"skipped": "no clear-sky XPD segment with 10 samples"}
     best = max(s["clear_xpd_db"] for s in segments)
@@ -240,7 +247,10 @@ def xpd_channel(series, link, *, antenna_xpd_db: float | None, clear_max_att_db:
         out["segments_below_required"] = len(below)
     else:
         skipped.append("XPD against required value: needs xpd_required_db in the links table")
-    static = np.full(len(frame), segments[0]["clear_xpd_db"], dtype=float)
+    if len(segments) == 1:
+        static = segments[0]["clear_xpd_db"]    # one value for every sample (rain_xpd_block broadcasts it)
+    else:
+        static = np.full(len(frame), segments[0]["clear_xpd_db"], dtype=float)
     for seg in segments[1:]:
         if index.is_monotonic_increasing:
             static[_positions(index, [pd.Timestamp(seg["start_utc"])])[0]:] = seg["clear_xpd_db"]
@@ -263,17 +273,17 @@ def hv_block(series_h, series_v, link, *, clear_max_att_db: float, min_att_db: f
     cv = _clear_mask(fv, clear_max_att_db) if clear_v is None else clear_v
     same_grid = fh.index.equals(fv.index)
     if same_grid:   # the inner join is the identity: pair the samples by position
-        h = np.where(ch, fh["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan), np.nan)
-        v = np.where(cv, fv["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan), np.nan)
-        pair = ~(np.isnan(h) | np.isnan(v))
-        h_minus_v = h[pair] - v[pair]
+        h = fh["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        v = fv["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        pair = ch & cv & ~(np.isnan(h) | np.isnan(v))
+        h_minus_v = (h - v)[pair]
     else:
         h_clear = fh["rsl_dbm"].where(ch)
         v_clear = fv["rsl_dbm"].where(cv)
         both = pd.concat([h_clear.rename("h"), v_clear.rename("v")], axis=1, join="inner").dropna()
-        h_minus_v = (both["h"] - both["v"]).to_numpy()
+        h_minus_v = (both["h"] - both["v"]).to_numpy(copy=True)
     if len(h_minus_v) >= 10:
-        imbalance = _median(h_minus_v)
+        imbalance = _median(h_minus_v, overwrite_input=True)
         out["clear_sky_imbalance_db"] = _r(imbalance)
         out["imbalance_flag"] = bool(abs(imbalance) > HV_IMBALANCE_FLAG_DB)
         out["imbalance_flag_db"] = HV_IMBALANCE_FLAG_DB
@@ -324,10 +334,12 @@ def cross_polar(result, *, antenna_xpd_db: float | None = None, clear_max_att_db
     link = result.link
     clear: dict[str, np.ndarray] = {}   # each channel's clear-sky mask, made once for the XPD and the H/V checks
     for name, series in result.series.items():
-        if _xpd_source(series.frame) is not None:
+        source = _xpd_source(series.frame)
+        if source is not None:
             clear[name] = _clear_mask(series.frame, clear_max_att_db)
             out["xpd"][name] = xpd_channel(series, link, antenna_xpd_db=antenna_xpd_db,
-                                           clear_max_att_db=clear_max_att_db, skipped=skipped, clear=clear[name])
+                                           clear_max_att_db=clear_max_att_db, skipped=skipped, clear=clear[name],
+                                           source=source)
     if not out["xpd"]:
         skipped.append("clear-sky XPD and tilt: no XPD or cross-polar level logged")
     if "H" in result.series and "V" in result.series:

@@ -419,9 +419,10 @@ def in_set(column: pd.Series, values) -> np.ndarray:
     """``column.isin(values)`` as a bool array, missing values False; a categorical column is tested once per
     category (the same test, applied to each row through its category code)."""
     if isinstance(column.dtype, pd.CategoricalDtype):
-        codes = column.cat.codes.to_numpy()                 # -1 (missing) matches no category
+        categorical = column.array
+        codes = categorical.codes                           # -1 (missing) matches no category
         out = np.zeros(len(codes), dtype=bool)
-        for code in np.flatnonzero(column.cat.categories.isin(values)):
+        for code in np.flatnonzero(categorical.categories.isin(values)):
             out |= codes == codes.dtype.type(code)     # compare in the codes' own (int8) type
         return out
     return column.isin(values).to_numpy(dtype=bool, na_value=False)
