@@ -323,8 +323,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
 def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
     """:func:`remove_steps` on a float array (a copy) with its time index."""
     out = np.array(values, dtype=float)
+    is_sorted = bool(steps) and index.is_monotonic_increasing
     for step in steps:
-        if index.is_monotonic_increasing:    # the samples at or after the step time are a suffix
+        if is_sorted:    # the samples at or after the step time are a suffix
             out[index.searchsorted(step.time_utc, side="left"):] -= step.size_db
         else:
             out[index >= step.time_utc] -= step.size_db
