@@ -112,7 +112,15 @@ def _check_grid_size(link_id: str, channel: str, n_points: int, n_rows: int, ste
 
 
 def _positions(times_ns: np.ndarray, t0: int, step: int, n: int) -> tuple:
-    """Grid position of each row: (positions, rows kept (None = all), positions strictly increasing)."""
+    """Grid position of each row: (positions, rows kept (None = all), positions strictly increasing).
+
+    Rows exactly one step apart from a grid point on (the usual gap-free log) give a ``slice`` of the grid: the
+    same positions as the rounding below (whole steps divide exactly), assigned without an index array."""
+    m = times_ns.size
+    if m > 1 and (times_ns[0] - t0) % step == 0 and times_ns[-1] - times_ns[0] == step * (m - 1):
+        first = (int(times_ns[0]) - t0) // step
+        if 0 <= first and first + m <= n and bool((np.diff(times_ns) == step).all()):
+            return slice(first, first + m), None, True
     pos = np.rint((times_ns - t0) / step).astype(np.int64)
     keep = (pos >= 0) & (pos < n)
     if keep.all():
@@ -175,6 +183,15 @@ def _place_status(times_ns: np.ndarray, codes: np.ndarray, t0: int, step: int, n
     return out
 
 
+def _labels_at(column: pd.Series, rows: np.ndarray) -> list[str]:
+    """``str`` of the column's values at ``rows`` (a missing value gives "nan", as ``str(np.nan)``); a categorical
+    column is read from its codes (no row selection of the table)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        names = [str(c) for c in column.cat.categories] + [str(np.nan)]   # code -1 -> the last entry
+        return [names[code] for code in column.cat.codes.to_numpy()[rows].tolist()]
+    return [str(value) for value in column.iloc[rows].astype(object).tolist()]
+
+
 def _groups(table: pd.DataFrame) -> dict:
     """Row blocks by (channel, quantity, stat), found from the runs of the (normally sorted) table."""
     n = len(table)
@@ -183,17 +200,19 @@ def _groups(table: pd.DataFrame) -> dict:
     for col in (S.CHANNEL, S.QUANTITY, S.STAT):
         if isinstance(table[col].dtype, pd.CategoricalDtype):   # the reader's table: compare the codes
             codes = table[col].cat.codes.to_numpy()
-            change[1:] |= (codes[1:] != codes[:-1]) | (codes[1:] < 0) | (codes[:-1] < 0)  # NaN differs from all
+            change[1:] |= codes[1:] != codes[:-1]
+            if codes.min() < 0:   # NaN (code -1) differs from everything, itself included
+                change[1:] |= (codes[1:] < 0) | (codes[:-1] < 0)
             continue
         values = table[col].reset_index(drop=True)
         diff = values.iloc[1:].reset_index(drop=True) != values.iloc[:-1].reset_index(drop=True)
         change[1:] |= diff.to_numpy(dtype=bool, na_value=True)
     starts = np.flatnonzero(change)
     ends = np.append(starts[1:], n)
-    keys = table.iloc[starts][[S.CHANNEL, S.QUANTITY, S.STAT]].astype(object).itertuples(index=False, name=None)
+    keys = zip(*(_labels_at(table[col], starts) for col in (S.CHANNEL, S.QUANTITY, S.STAT)))
     parts: dict = {}
     for key, a, b in zip(keys, starts, ends):
-        parts.setdefault(tuple(str(k) for k in key), []).append(table.iloc[a:b])
+        parts.setdefault(key, []).append(table.iloc[a:b])
     return {key: (frames[0] if len(frames) == 1 else pd.concat(frames)) for key, frames in parts.items()}
 
 

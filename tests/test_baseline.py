@@ -131,3 +131,28 @@ def test_gaps_are_no_data_and_grid_step_from_samples():
     assert (frame["status"].iloc[100:111] == "signal_lost").all()
     add_reference(item, AnalysisConfig())
     assert frame["reference_dbm"].dropna().between(-45.01, -44.99).all()
+
+
+def test_gap_free_rows_take_the_slice_path_with_the_same_positions():
+    """Rows one step apart from a grid point on are placed as a slice; the values land where rounding puts them."""
+    from diag.baseline import _place, _positions
+
+    step = 1_000_000_000
+    t0 = 1_700_000_000 * step
+    times = t0 + step * np.arange(5, 12, dtype=np.int64)          # starts 5 steps into a 20-point grid
+    pos, keep, increasing = _positions(times, t0, step, 20)
+    assert pos == slice(5, 12) and keep is None and increasing
+    values = np.arange(7, dtype=float) + 0.5
+    placed = _place(times, values, t0, step, 20)
+    expected = np.full(20, np.nan)
+    expected[5:12] = values
+    np.testing.assert_array_equal(placed, expected)
+    # a gap, an off-grid phase, or rows past the grid's end: the general path, same placement rule
+    gappy = np.delete(times, 3)
+    pos, _, _ = _positions(gappy, t0, step, 20)
+    np.testing.assert_array_equal(pos, [5, 6, 7, 9, 10, 11])
+    pos, _, _ = _positions(times + step // 4, t0, step, 20)
+    np.testing.assert_array_equal(pos, np.arange(5, 12))
+    pos, keep, _ = _positions(times, t0, step, 10)
+    np.testing.assert_array_equal(pos, np.arange(5, 10))
+    assert keep.sum() == 5
