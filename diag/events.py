@@ -77,6 +77,13 @@ def _partners(channels: list[str], link: Link | None) -> dict[str, str]:
     return out
 
 
+def _count_in(mask: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> np.ndarray:
+    """Number of True entries of ``mask`` in each range ``[start, end)`` (positions, then binary searches: exact
+    integers without a cumulative sum over the whole series)."""
+    where = np.flatnonzero(mask)
+    return np.searchsorted(where, ends) - np.searchsorted(where, starts)
+
+
 def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, interval_s: float,
             config: AnalysisConfig) -> tuple[np.ndarray, np.ndarray]:
     """Fade events of one channel as index ranges ``[start, end)`` (see module docstring)."""
@@ -84,13 +91,17 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
     with np.errstate(invalid="ignore"):
         ext = (att >= config.fade_end_db) | floor
         core = (att >= config.fade_start_db) | floor
-    edges = np.diff(np.concatenate([[0], ext.astype(np.int8), [0]]))
-    starts = np.flatnonzero(edges == 1)
-    ends = np.flatnonzero(edges == -1)
+    if ext.size == 0:
+        return np.zeros(0, dtype=np.intp), np.zeros(0, dtype=np.intp)
+    # runs of ``ext``: the series split where it changes; every other run (those starting on True) is a fade
+    change = np.flatnonzero(ext[1:] != ext[:-1]) + 1
+    first = np.concatenate([[0], change])
+    last = np.concatenate([change, [ext.size]])
+    run = ext[first]
+    starts, ends = first[run], last[run]
     if starts.size == 0:
         return starts, ends
-    core_count = np.concatenate([[0], np.cumsum(core)])
-    keep = core_count[ends] - core_count[starts] > 0
+    keep = _count_in(core, starts, ends) > 0
     starts, ends = starts[keep], ends[keep]
     if starts.size > 1:
         sep = max(1, int(math.ceil(config.min_separation_s / interval_s)))
@@ -98,9 +109,8 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
         last = np.concatenate([new[1:], [True]])
         starts, ends = starts[new], ends[last]
     if starts.size:
-        bad = np.concatenate([[0], np.cumsum(below | floor)])
         long_enough = (ends - starts) * interval_s >= config.min_duration_s
-        keep = long_enough | ((bad[ends] - bad[starts]) > 0)
+        keep = long_enough | (_count_in(below | floor, starts, ends) > 0)
         starts, ends = starts[keep], ends[keep]
     return starts, ends
 
@@ -153,47 +163,110 @@ def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
 
 
 class _RunningMeans:
-    """:func:`_running_mean` of one series evaluated only where asked (the event spans): the cumulative sums are
-    built once and shared by every width; each value is the same subtraction and division, so the same bits."""
+    """:func:`_running_mean` of one series evaluated only where asked (the event samples): the cumulative sum is
+    built once and shared by every width; each value is the same subtraction and division, so the same bits (the
+    count of valid samples in a window is an exact integer however it is found: here by binary search over the
+    few positions without a value)."""
 
-    def __init__(self, x: np.ndarray):
+    def __init__(self, x: np.ndarray, ok: np.ndarray | None = None):
         self.x = x
-        ok = np.isfinite(x)
-        self.csum = np.concatenate([[0.0], np.cumsum(np.where(ok, x, 0.0))])
-        self.ccount = np.concatenate([[0], np.cumsum(ok)])
+        ok = np.isfinite(x) if ok is None else ok
+        self.csum = np.empty(x.size + 1)
+        self.csum[0] = 0.0
+        np.cumsum(np.where(ok, x, 0.0), out=self.csum[1:])
+        self.gaps = np.flatnonzero(~ok)
 
-    def over(self, a: int, b: int, width: int) -> np.ndarray:
-        """``_running_mean(x, width)[a:b]``."""
+    def at(self, idx: np.ndarray, width: int) -> np.ndarray:
+        """``_running_mean(x, width)[idx]``."""
         x = self.x
         if width <= 1 or x.size < 3:
-            return x[a:b]
+            return x[idx]
         width = min(width, x.size)
         half = width // 2
-        idx = np.arange(a, b)
         lo = np.clip(idx - half, 0, x.size)
         hi = np.clip(idx - half + width, 0, x.size)
         num = self.csum[hi] - self.csum[lo]
-        den = self.ccount[hi] - self.ccount[lo]
+        den = (hi - lo) - (np.searchsorted(self.gaps, hi) - np.searchsorted(self.gaps, lo))
         with np.errstate(invalid="ignore", divide="ignore"):
             return np.where(den > 0, num / den, np.nan)
 
 
 def _noise_diff(att: np.ndarray, floor: np.ndarray, config: AnalysisConfig) -> float:
     """Std of sample-to-sample differences in clear air (|attenuation| < fade_end_db): the noise of the log."""
-    d = np.diff(att)
     with np.errstate(invalid="ignore"):
-        quiet = (np.abs(att[1:]) < config.fade_end_db) & (np.abs(att[:-1]) < config.fade_end_db)
-    d = d[quiet & np.isfinite(d)]
-    if d.size < 10:
+        calm = np.abs(att) < config.fade_end_db
+    # differences only where both samples are calm (then both are finite and so is their difference)
+    idx = np.flatnonzero(calm[1:] & calm[:-1])
+    if idx.size < 10:
         return math.nan
-    if d.size > 200_000:
-        d = d[:: d.size // 200_000 + 1]
-    return float(np.std(d))
+    if idx.size > 200_000:
+        idx = idx[:: idx.size // 200_000 + 1]
+    return float(np.std(att[idx + 1] - att[idx]))
 
 
 def _nanmax(x: np.ndarray, default: float = math.nan) -> float:
     x = x[np.isfinite(x)]
     return float(x.max()) if x.size else default
+
+
+# The per-event helpers below repeat numpy's own steps without its wrappers (the events of a week are many short
+# arrays, where the wrappers cost more than the arithmetic), so every feature keeps its bits.
+
+def _window_max(x_nan: np.ndarray, lo: int, hi: int, default: float = math.nan) -> float:
+    """``_nanmax(x[lo:hi], default)`` with ``x_nan`` = x whose non-finite values are NaN (fmax skips NaN).  A
+    largest value of zero is taken again by :func:`_nanmax`: whether +0.0 or -0.0 comes out depends on the order
+    of the comparisons; any other largest value has one bit pattern."""
+    part = x_nan[max(lo, 0):hi]
+    if not part.size:
+        return default
+    v = float(np.fmax.reduce(part))
+    if v == 0.0:
+        return _nanmax(part, default)
+    return default if v != v else v
+
+
+def _window_max_neg(x_nan: np.ndarray, lo: int, hi: int, default: float = math.nan) -> float:
+    """``_nanmax(-x[lo:hi], default)``: minus the smallest finite value (negation is exact; zero as above)."""
+    part = x_nan[max(lo, 0):hi]
+    if not part.size:
+        return default
+    v = float(np.fmin.reduce(part))
+    if v == 0.0:
+        return _nanmax(-part, default)
+    return default if v != v else -v
+
+
+def _std(x: np.ndarray) -> float:
+    """``float(np.std(x))`` of a 1-D float array by numpy's steps (sum, divide, subtract, square, sum, divide,
+    square root): the same bits."""
+    n = x.size
+    d = x - x.sum() / n
+    d *= d
+    return math.sqrt(d.sum() / n)
+
+
+def _pearson(x: np.ndarray, y: np.ndarray) -> float:
+    """``float(np.corrcoef(x, y)[0, 1])`` of two 1-D float arrays by the steps of numpy.cov / numpy.corrcoef (the
+    same row means, the same BLAS product, the same scaling, division and clipping): the same bits."""
+    rows = np.empty((2, x.size))
+    rows[0] = x
+    rows[1] = y
+    rows -= rows.mean(axis=1)[:, None]
+    c = np.dot(rows, rows.T)
+    c *= np.true_divide(1, x.size - 1)
+    r = float(c[0, 1] / np.sqrt(c[0, 0]) / np.sqrt(c[1, 1]))
+    return 1.0 if r > 1.0 else -1.0 if r < -1.0 else r
+
+
+def _finite(x: np.ndarray) -> np.ndarray:
+    """``x[np.isfinite(x)]`` (``x`` itself when all are finite)."""
+    ok = np.isfinite(x)
+    return x if ok.all() else x[ok]
+
+
+def _inf_as_nan(x: np.ndarray) -> np.ndarray:
+    inf = np.isinf(x)
+    return np.where(inf, np.nan, x) if inf.any() else x
 
 
 def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, partner: ChannelSeries | None,
@@ -222,55 +295,106 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             dtype=float, na_value=np.nan)
     p_pol = channel_polarization(partner.channel, link) if partner is not None else None
     ctx = max(1, int(round(config.context_s / step)))
-    means = _RunningMeans(att)   # 5-min and 1-min running means, evaluated over each event only
+    wide = max(1, int(round(1800.0 / step)))   # +-30 min around the event
+    pre = max(1, int(round(30.0 / step)))      # 30 s before the first floor sample
+    att_ok = np.isfinite(att)
+    means = _RunningMeans(att, att_ok)   # 5-min and 1-min running means, evaluated over the event samples only
     width300, width60 = max(1, int(round(300.0 / step))), max(1, int(round(60.0 / step)))
     noise_diff = _noise_diff(att, floor, config)
     index = frame.index
     if stats:
         spread_all = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
                       - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
+    reference = None
+    att_nan = _inf_as_nan(att)
+    seg_nan = att_nan if seg_att is att else _inf_as_nan(seg_att)
+
+    # the samples of all events one after the other ("packed"): event i is packed[off[i]:off[i] + length[i]];
+    # maxima, minima and integer counts of every event in one reduction each (exact in any order)
+    length = ends - starts
+    off = np.concatenate([[0], np.cumsum(length)[:-1]])
+    pos = np.arange(int(length.sum())) + np.repeat(starts - off, length)
+    seg_p = seg_nan[pos]
+    fin_p = np.isfinite(seg_p)
+
+    def count(mask_p):
+        return np.add.reduceat(mask_p, off, dtype=np.int64).tolist()
+
+    n_fin = count(fin_p)
+    n_nan = count(np.isnan(seg_att[pos])) if seg_nan is not seg_att else [n - f for n, f in
+                                                                           zip(length.tolist(), n_fin)]
+    floor_p = floor[pos]
+    n_floor = count(floor_p)
+    n_valid = count(fin_p | floor_p)
+    n_below = count(below[pos])
+    n_near = count(near_floor[pos])
+    floor_at = np.flatnonzero(floor_p)
+    first_floor = pos[floor_at[np.minimum(np.searchsorted(floor_at, off), max(floor_at.size - 1, 0))]].tolist() \
+        if floor_at.size else [0] * len(off)
+    peak_all = np.fmax.reduceat(seg_p, off).tolist()
+    att_p = seg_p if seg_nan is att_nan else att_nan[pos]
+    low_all = np.fmin.reduceat(att_p, off).tolist()
+    att_raw_p = att[pos]
+    resid_p = att_raw_p - means.at(pos, width300)
+    fast_p = att_raw_p - means.at(pos, width60) if not stats else None
+    if p_att is not None:
+        n_both = count(fin_p & np.isfinite(p_att[pos]))
+    t_first, t_last = index[starts], index[ends - 1]
+    t_end = t_last + pd.Timedelta(seconds=step)
+    peaks_at = []
     rows = []
-    for a, b in zip(starts.tolist(), ends.tolist()):
+    for i, (a, b, o) in enumerate(zip(starts.tolist(), ends.tolist(), off.tolist())):
         seg = seg_att[a:b]
         n = b - a
-        fl = floor[a:b]
-        finite = np.isfinite(seg)
-        peak = _nanmax(seg)
-        ipeak = a + int(np.nanargmax(seg)) if finite.any() else a
-        mean_fade = float(np.nanmean(seg)) if finite.any() else math.nan
+        any_finite, all_finite = n_fin[i] > 0, n_fin[i] == n
+        peak = peak_all[i]
+        if peak == 0.0 or peak != peak:
+            peak = _nanmax(seg)
+        if any_finite:
+            ipeak = a + int(seg.argmax() if all_finite else np.nanargmax(seg))
+            total = seg.sum() if n_nan[i] == 0 else np.where(np.isnan(seg), 0.0, seg).sum()
+            mean_fade = float(total / (n - n_nan[i]))   # np.nanmean: the sum with NaN as 0 over the count
+        else:
+            ipeak, mean_fade = a, math.nan
+        peaks_at.append(ipeak)
         # slopes: from the start to the first point at 80 % of the peak, from the last such point to the end
-        if finite.any() and peak > 0:
+        if any_finite and peak > 0:
             hi_idx = np.flatnonzero(seg >= 0.8 * peak)
             i_in, i_out = a + int(hi_idx[0]), a + int(hi_idx[-1])
-            first = seg[np.flatnonzero(finite)[0]]
-            last = seg[np.flatnonzero(finite)[-1]]
+            if all_finite:
+                first, last = seg[0], seg[-1]
+            else:
+                finite_at = np.flatnonzero(np.isfinite(seg))
+                first, last = seg[finite_at[0]], seg[finite_at[-1]]
             slope_in = (seg_att[i_in] - first) / max((i_in - a) * step, step)
             slope_out = (seg_att[i_out] - last) / max((b - 1 - i_out) * step, step)
         else:
             slope_in = slope_out = math.nan
-        diffs = np.diff(att[a:b]) if not stats else np.diff(seg)
-        diffs = diffs[np.isfinite(diffs)]
-        variability = float(np.std(diffs)) if diffs.size > 1 else math.nan
-        resid = att[a:b] - means.over(a, b, width300)
-        resid = resid[np.isfinite(resid)]
-        roughness = float(np.std(resid) / peak) if resid.size > 1 and peak > 0 else math.nan
-        fast = att[a:b] - means.over(a, b, width60)
-        fast = fast[np.isfinite(fast)]
-        fast_std = float(np.std(fast)) if fast.size > 1 and not stats else math.nan
-        half = float(np.mean(seg[finite] >= 0.5 * peak)) if finite.any() and peak > 0 else math.nan
-        up_in = _nanmax(-att[a:b], 0.0)
-        up_before = _nanmax(-att[max(0, a - ctx):a], 0.0)
-        up_after = _nanmax(-att[b:b + ctx], 0.0)
-        wide = max(1, int(round(1800.0 / step)))   # +-30 min around the event
-        up_context = max(_nanmax(-att[max(0, a - wide):a], 0.0), _nanmax(-att[b:b + wide], 0.0))
-        floor_frac = float(fl.mean())
+        src = att[a:b] if not stats else seg
+        diffs = _finite(src[1:] - src[:-1])   # np.diff
+        variability = _std(diffs) if diffs.size > 1 else math.nan
+        resid = _finite(resid_p[o:o + n])
+        roughness = float(_std(resid) / peak) if resid.size > 1 and peak > 0 else math.nan
+        if not stats:
+            fast = _finite(fast_p[o:o + n])
+            fast_std = _std(fast) if fast.size > 1 else math.nan
+        else:
+            fast_std = math.nan
+        # fraction of the valid samples at half the peak or more (NaN compares False)
+        half = (np.count_nonzero(seg_p[o:o + n] >= 0.5 * peak) / n_fin[i]) if any_finite and peak > 0 else math.nan
+        low = low_all[i]
+        up_in = 0.0 if low != low else (-low if low != 0.0 else _nanmax(-att[a:b], 0.0))
+        up_before = _window_max_neg(att_nan, a - ctx, a, 0.0)
+        up_after = _window_max_neg(att_nan, b, b + ctx, 0.0)
+        up_context = max(_window_max_neg(att_nan, a - wide, a, 0.0), _window_max_neg(att_nan, b, b + wide, 0.0))
+        floor_frac = n_floor[i] / n
         pre_floor = math.nan
-        if fl.any():  # deepest fade in the 30 s before the first floor sample (NaN: no valid sample there)
-            first_floor = a + int(np.argmax(fl))
-            pre_floor = _nanmax(att[max(0, first_floor - max(1, int(round(30.0 / step)))):first_floor])
         peak_reported = peak
-        if fl.any():
-            ref = frame["reference_dbm"].to_numpy(dtype=float)[a:b]
+        if n_floor[i]:  # deepest fade in the 30 s before the first floor sample (NaN: no valid sample there)
+            pre_floor = _window_max(att_nan, first_floor[i] - pre, first_floor[i])
+            if reference is None:
+                reference = frame["reference_dbm"].to_numpy(dtype=float)
+            ref = reference[a:b]
             lower_bound = float(np.nanmax(ref) - link.threshold_dbm) if np.isfinite(ref).any() else math.nan
             peak_reported = max(peak if math.isfinite(peak) else -math.inf, lower_bound)
         rate = rain.rate_mmh(peak, pol)
@@ -278,29 +402,36 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
         corr = ratio = vh = math.nan
         if p_att is not None:
             pa = p_att[a:b]
-            ok = np.isfinite(seg) & np.isfinite(pa)
-            if ok.sum() >= 3 and np.std(seg[ok]) > 0 and np.std(pa[ok]) > 0:
-                corr = float(np.corrcoef(seg[ok], pa[ok])[0, 1])
-            deep = ok & (seg >= max(config.fade_start_db, 0.5 * peak))
-            if deep.sum() >= 1 and seg[deep].sum() > 0:
-                ratio = float(pa[deep].sum() / seg[deep].sum())
-                if pol == "H" and p_pol == "V":
-                    vh = ratio
-                elif pol == "V" and p_pol == "H" and ratio > 0:
-                    vh = 1.0 / ratio
+            if n_both[i] == n:
+                ok, x, y = None, seg, pa
+            else:
+                ok = np.isfinite(seg) & np.isfinite(pa)
+                x, y = seg[ok], pa[ok]
+            if x.size >= 3 and _std(x) > 0 and _std(y) > 0:
+                corr = _pearson(x, y)
+            deep = seg >= max(config.fade_start_db, 0.5 * peak)
+            if ok is not None:
+                deep &= ok
+            if deep.any():
+                deep_sum = seg[deep].sum()
+                if deep_sum > 0:
+                    ratio = float(pa[deep].sum() / deep_sum)
+                    if pol == "H" and p_pol == "V":
+                        vh = ratio
+                    elif pol == "V" and p_pol == "H" and ratio > 0:
+                        vh = 1.0 / ratio
         rate_h = rate if pol != "V" else rain.rate_mmh(peak / vh if vh and math.isfinite(vh) and vh > 0 else peak,
                                                        "H")
         gauge_rate = math.nan
         if gauge is not None and len(gauge):
             from diag.gauge import gauge_rain_over
 
-            got = gauge_rain_over(gauge, index[a] - pd.Timedelta(minutes=15),
-                                  index[b - 1] + pd.Timedelta(minutes=15))
+            got = gauge_rain_over(gauge, t_first[i] - pd.Timedelta(minutes=15),
+                                  t_last[i] + pd.Timedelta(minutes=15))
             if got["peak_mmh"] is not None and got["coverage"] >= 0.5:
                 gauge_rate = float(got["peak_mmh"])
-        end_time = index[b - 1] + pd.Timedelta(seconds=step)
         rows.append({
-            "link_id": link.link_id, "channel": series.channel, "start_utc": index[a], "end_utc": end_time,
+            "link_id": link.link_id, "channel": series.channel, "start_utc": t_first[i], "end_utc": t_end[i],
             "duration_s": float(n * step), "peak_fade_db": float(peak_reported) if math.isfinite(peak_reported)
             else math.nan,
             "event_kind": "fade", "kind": series.kind, "interval_s": float(step), "start_index": a, "end_index": b,
@@ -308,9 +439,9 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "peak_fade_db_finite": peak, "mean_fade_db": mean_fade, "time_to_peak_s": float((ipeak - a) * step),
             "slope_in_db_s": float(slope_in), "slope_out_db_s": float(slope_out), "variability_db": variability,
             "roughness": roughness, "upfade_within_db": up_in, "upfade_before_db": up_before,
-            "upfade_after_db": up_after, "hour_utc": int(index[ipeak].hour), "floor_fraction": floor_frac,
-            "pre_floor_fade_db": pre_floor, "below_threshold_s": float(below[a:b].sum() * step),
-            "valid_fraction": float((finite | fl).mean()), "partner_corr": corr, "partner_ratio": ratio,
+            "upfade_after_db": up_after, "hour_utc": 0, "floor_fraction": floor_frac,
+            "pre_floor_fade_db": pre_floor, "below_threshold_s": float(n_below[i] * step),
+            "valid_fraction": n_valid[i] / n, "partner_corr": corr, "partner_ratio": ratio,
             "v_over_h_ratio": vh, "expected_v_over_h": rain.v_over_h(rate_h),
             "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean,
             "rain_plausible": bool(0 < rate <= config.rain_plausible_max_mmh),
@@ -319,8 +450,10 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if stats and peak > 0 else math.nan,
             "step_db": math.nan, "gauge_rain_mmh": gauge_rate, "fast_std_db": fast_std,
             "half_peak_fraction": half, "noise_diff_db": noise_diff,
-            "near_floor_fraction": float(near_floor[a:b].mean()), "upfade_context_db": up_context,
+            "near_floor_fraction": n_near[i] / n, "upfade_context_db": up_context,
         })
+    for row, hour in zip(rows, index[np.asarray(peaks_at)].hour.tolist()):
+        row["hour_utc"] = int(hour)
     return rows
 
 
