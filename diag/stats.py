@@ -28,6 +28,7 @@ Pure functions; no I/O.
 """
 from __future__ import annotations
 
+import functools
 import logging
 import math
 
@@ -60,6 +61,19 @@ def _round(value, digits: int = 4):
 
 
 # ------------------------------------------------------------------------------------------------- arrays
+def _equals(column: pd.Series, value: str) -> np.ndarray:
+    """``(column == value).to_numpy(dtype=bool, na_value=False)``; for a categorical column one integer compare of
+    its codes (a missing value has code -1, which no category has)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        hit = np.flatnonzero(np.asarray(column.cat.categories == value))
+        codes = column.cat.codes.to_numpy()
+        return codes == hit[0] if hit.size else np.zeros(codes.size, dtype=bool)
+    return (column == value).to_numpy(dtype=bool, na_value=False)
+
+
+_UNITS_PER_SECOND = {"s": 1, "ms": 10 ** 3, "us": 10 ** 6, "ns": 10 ** 9}
+
+
 class _Arrays:
     """The numpy views of one channel's frame the statistics need (string columns converted once)."""
 
@@ -67,53 +81,97 @@ class _Arrays:
         frame = series.frame
         n = len(frame)
         if "status" in frame:
-            self.ok = (frame["status"] == S.OK).to_numpy(dtype=bool, na_value=False)
-            self.lost = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool, na_value=False)
+            self.ok = _equals(frame["status"], S.OK)
+            self.lost = _equals(frame["status"], S.SIGNAL_LOST)
         else:
             self.ok, self.lost = np.ones(n, dtype=bool), np.zeros(n, dtype=bool)
         att = (frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan) if "attenuation_db" in frame
                else np.full(n, np.nan))
         self.observed = (self.ok & np.isfinite(att)) | self.lost
-        self.att = np.where(self.lost, np.inf, att)          # at the floor: deeper than any depth
+        self.att = np.where(self.lost, np.inf, att) if self.lost.any() else att   # at the floor: deeper than any depth
         if "cause" in frame and isinstance(frame["cause"].dtype, pd.CategoricalDtype):
-            codes = frame["cause"].cat.codes.to_numpy().astype(np.int64)   # -1 = missing; int8 would overflow below
+            codes = frame["cause"].cat.codes.to_numpy()   # -1 = missing: given the code after the last category
             names = [str(c) for c in frame["cause"].cat.categories]
-            codes = np.where(codes < 0, len(names), codes)
+            if (codes < 0).any():
+                codes = np.where(codes < 0, len(names), codes.astype(np.int64))
             names = names + [""]
         elif "cause" in frame:
             codes, uniques = pd.factorize(frame["cause"], use_na_sentinel=False)
             names = [str(x) if isinstance(x, str) else "" for x in uniques]
         else:
             codes, names = np.zeros(n, dtype=np.int64), [""]
-        self.cause_codes = np.asarray(codes)
+        self.cause_codes = np.asarray(codes)   # small integers (int8 when from a categorical)
         self.cause_names = names
         self.n = n
         self.is_mp = self.is_cause(S.MULTIPATH)
         self.is_rain = self.is_cause(S.RAIN)
         self.is_none = self.is_cause("")
         self.level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
-        if isinstance(frame.index, pd.DatetimeIndex):   # UTC hour from the epoch seconds (cheaper than .hour)
+        self._epoch = None   # UTC hours from the epoch time in the index unit (cheaper than .hour)
+        if isinstance(frame.index, pd.DatetimeIndex):
             index = frame.index.tz_convert("UTC") if frame.index.tz is not None else frame.index
-            self.hours = (index.as_unit("s").asi8 // 3600) % 24
-        else:
-            self.hours = np.zeros(n, dtype=np.int64)
+            self._epoch = index.asi8
+            self._per_hour = 3600 * _UNITS_PER_SECOND[index.unit]
+            self._sorted = index.is_monotonic_increasing
         self.relative_cache: dict = {}
+
+    @functools.cached_property
+    def hours(self) -> np.ndarray:
+        """UTC hour (0-23) of every sample (floor divisions nest: the same hours as via whole seconds)."""
+        if self._epoch is None:
+            return np.zeros(self.n, dtype=np.int64)
+        return (self._epoch // self._per_hour) % 24
+
+    def hours_of(self, mask: np.ndarray) -> np.ndarray:
+        """``hours[mask]``, computed for those samples only."""
+        if self._epoch is None:
+            return np.zeros(int(np.count_nonzero(mask)), dtype=np.int64)
+        return (self._epoch[mask] // self._per_hour) % 24
+
+    def count_by_hour(self, mask: np.ndarray) -> np.ndarray:
+        """``np.bincount(hours[mask], minlength=24)``: on a time-ordered index, counted per run of samples of one
+        clock hour (exact integers) instead of per sample."""
+        if self._epoch is None or not self._sorted or not self.n:
+            return np.bincount(self.hours_of(mask), minlength=24)
+        t, per = self._epoch, self._per_hour
+        edges = np.arange(t[0] // per + 1, t[-1] // per + 1) * per
+        starts = np.concatenate([[0], np.searchsorted(t, edges)])
+        starts = starts[np.concatenate([starts[1:] > starts[:-1], [True]])]   # hours without a sample: no run
+        runs = np.add.reduceat(mask, starts, dtype=np.int64)
+        return np.bincount((t[starts] // per) % 24, weights=runs, minlength=24).astype(np.int64)
 
     def is_cause(self, cause: str) -> np.ndarray:
         hits = [i for i, name in enumerate(self.cause_names) if name == cause]
         if not hits:
             return np.zeros(self.n, dtype=bool)
-        return np.isin(self.cause_codes, hits)
+        out = self.cause_codes == hits[0]
+        for code in hits[1:]:
+            out |= self.cause_codes == code
+        return out
 
 
 # ------------------------------------------------------------------------------------------------- exceedance
+def _past_shallowest(attenuation_db: np.ndarray, use: np.ndarray, depths: np.ndarray) -> np.ndarray:
+    """``use`` less the samples at or below the shallowest depth: they exceed none, so the counts stay the same
+    without them (NaN, which the sort puts last and so counts as exceeding, stays in; a NaN depth keeps all)."""
+    if not depths.size:
+        return use
+    with np.errstate(invalid="ignore"):
+        return use & ~(attenuation_db <= depths.min())
+
+
+def _exceeding(values: np.ndarray, depths: np.ndarray) -> np.ndarray:
+    ordered = np.sort(values)
+    return ordered.size - np.searchsorted(ordered, depths, side="right")
+
+
 def exceedance_counts(attenuation_db: np.ndarray, observed: np.ndarray, depths_db, *,
                       select: np.ndarray | None = None) -> np.ndarray:
     """Number of observed (and selected) samples whose attenuation exceeds each depth (one sort, then binary
     searches)."""
+    depths = np.asarray(depths_db, dtype=float)
     use = observed if select is None else observed & select
-    ordered = np.sort(attenuation_db[use])
-    return ordered.size - np.searchsorted(ordered, np.asarray(depths_db, dtype=float), side="right")
+    return _exceeding(attenuation_db[_past_shallowest(attenuation_db, use, depths)], depths)
 
 
 def exceedance_percent(attenuation_db: np.ndarray, observed: np.ndarray, depths_db, *,
@@ -182,9 +240,13 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
         skipped.append(f"{series.channel}: exceedance: no observed samples")
         return out
     is_mp, is_rain = arrays.is_mp, arrays.is_rain
-    out["all_percent"] = _round(exceedance_percent(att, observed, depths_db))
-    out["multipath_percent"] = _round(exceedance_percent(att, observed, depths_db, select=is_mp))
-    out["rain_percent"] = _round(exceedance_percent(att, observed, depths_db, select=is_rain))
+    # exceedance_percent / exceedance_counts of all, multipath and rain samples, the common part found once
+    depths = np.asarray(depths_db, dtype=float)
+    deep = _past_shallowest(att, observed, depths)
+    counts_mp = _exceeding(att[deep & is_mp], depths)
+    out["all_percent"] = _round(100.0 * _exceeding(att[deep], depths) / n_obs)
+    out["multipath_percent"] = _round(100.0 * counts_mp / n_obs)
+    out["rain_percent"] = _round(100.0 * _exceeding(att[deep & is_rain], depths) / n_obs)
     if series.kind == "stats" and "rsl_min_dbm" in frame and "reference_dbm" in frame:
         peak = frame["reference_dbm"].to_numpy(dtype=float) - frame["rsl_min_dbm"].to_numpy(dtype=float)
         peak = np.where(arrays.lost, np.inf, peak)
@@ -192,7 +254,6 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
         out["note"] = ("statistics log: percentages from the interval average (a lower bound); "
                        "all_percent_upper_bound counts whole intervals whose minimum exceeded the depth")
     out["rayleigh_percent"] = _round(100.0 * np.asarray(fading.rayleigh_cdf_db(-np.asarray(depths_db, float))))
-    counts_mp = exceedance_counts(att, observed, depths_db, select=is_mp)
     fit = tail_fit(depths_db, out["multipath_percent"] or [], counts_mp)
     floor_mp = int(np.count_nonzero(is_mp & arrays.lost))
     if fit.get("depths_used_db") and floor_mp >= 0.5 * counts_mp[list(depths_db).index(fit["depths_used_db"][-1])]:
@@ -224,31 +285,36 @@ def multipath_periods(arrays: _Arrays, interval_s: float, *, merge_s: float = 60
     return [(max(0, int(part[0]) - pad), min(n, int(part[-1]) + 1 + pad)) for part in np.split(idx, breaks)]
 
 
-def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float) -> np.ndarray:
-    """Level relative to the centred rolling mean power over ``local_mean_s`` [dB]; -inf at the floor, NaN where
-    no level.  Computed once per channel (cached on ``arrays``)."""
-    key = (interval_s, local_mean_s)
+def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float, periods) -> np.ndarray:
+    """Level relative to the centred rolling mean power over ``local_mean_s`` [dB] inside ``periods`` (NaN
+    outside: nothing reads it there); -inf at the floor, NaN where no level.  Computed once per channel and
+    periods (cached on ``arrays``)."""
+    key = (interval_s, local_mean_s, tuple(periods))
     if key not in arrays.relative_cache:
-        arrays.relative_cache[key] = _relative_db_uncached(arrays, interval_s, local_mean_s)
+        arrays.relative_cache[key] = _relative_db_uncached(arrays, interval_s, local_mean_s, periods)
     return arrays.relative_cache[key]
 
 
-def _relative_db_uncached(arrays: _Arrays, interval_s: float, local_mean_s: float) -> np.ndarray:
+def _relative_db_uncached(arrays: _Arrays, interval_s: float, local_mean_s: float, periods) -> np.ndarray:
     window = max(5, int(round(local_mean_s / interval_s)))
     power = np.where(arrays.ok, 10.0 ** (arrays.level / 10.0), np.nan)
+    # the rolling mean runs over the whole series: pandas carries its running sum from the start, so a mean
+    # computed over a part would differ in the last bits
     mean = pd.Series(power).rolling(window, center=True, min_periods=max(3, window // 4)).mean().to_numpy()
-    with np.errstate(divide="ignore", invalid="ignore"):
-        rel = 10.0 * np.log10(power / mean)
-    return np.where(arrays.lost, -np.inf, rel)
+    rel = np.full(arrays.n, np.nan)
+    for a, b in periods:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            part = 10.0 * np.log10(power[a:b] / mean[a:b])
+        rel[a:b] = np.where(arrays.lost[a:b], -np.inf, part)
+    return rel
 
 
 def _period_mask(arrays: _Arrays, periods) -> np.ndarray:
     """Samples inside the multipath periods that are not part of another cause's event."""
     mask = np.zeros(arrays.n, dtype=bool)
     for a, b in periods:
-        mask[a:b] = True
-    other = ~arrays.is_none & ~arrays.is_mp
-    return mask & ~other
+        mask[a:b] = arrays.is_none[a:b] | arrays.is_mp[a:b]
+    return mask
 
 
 def _thin(n: int, most: int) -> np.ndarray:
@@ -264,7 +330,7 @@ def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, ar
     periods = multipath_periods(arrays, series.interval_s)
     if not periods:
         return {"skipped": "no samples classified multipath"}
-    rel = _relative_db(arrays, series.interval_s, local_mean_s)
+    rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
     mask = _period_mask(arrays, periods)
     per_period = []
     for a, b in (periods[:20] if len(periods) > 1 else []):
@@ -309,19 +375,22 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
     periods = multipath_periods(arrays, series.interval_s)
     if not periods:
         return {"skipped": "no samples classified multipath"}
-    rel = _relative_db(arrays, series.interval_s, local_mean_s)
+    rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
     mask = _period_mask(arrays, periods) & ~np.isnan(rel)
     dt = series.interval_s
     total_s = float(mask.sum() * dt)
     if total_s <= 0:
         return {"skipped": "no multipath samples with a level"}
-    both = mask[1:] & mask[:-1]
+    # counted over the masked samples only; a crossing needs two neighbouring samples both in the mask
+    at = np.flatnonzero(mask)
+    level = rel[at]
+    both = at[1:] == at[:-1] + 1
     lv = np.asarray(levels_db, dtype=float)
     crossings = np.zeros(len(lv))
     below_s = np.zeros(len(lv))
     for j, lev in enumerate(lv):
-        below = rel < lev
-        below_s[j] = np.count_nonzero(below & mask) * dt
+        below = level < lev
+        below_s[j] = np.count_nonzero(below) * dt
         crossings[j] = np.count_nonzero(both & below[1:] & ~below[:-1])   # downward crossings
     rate = crossings / total_s
     use = crossings >= min_crossings
@@ -420,20 +489,21 @@ def p530_rain_prediction(p530, link, channel: str) -> dict:
 # ------------------------------------------------------------------------------------------------ by hour
 def hourly_block(series, events: pd.DataFrame | None, arrays=None) -> dict:
     arrays = arrays or _Arrays(series)
-    att, observed, hours = arrays.att, arrays.observed, arrays.hours
+    att, observed = arrays.att, arrays.observed
     faded = observed & (att > FADED_DB)
     out: dict = {"hour_utc": list(range(24)), "faded_s_by_cause": {}, "observed_s": []}
-    obs_by_hour = np.bincount(hours[observed], minlength=24) * series.interval_s
+    obs_by_hour = arrays.count_by_hour(observed) * series.interval_s
     out["observed_s"] = _round(obs_by_hour, 8)
     k = len(arrays.cause_names)
-    table = np.bincount(arrays.cause_codes[faded] * 24 + hours[faded], minlength=24 * k).reshape(k, 24)
+    table = np.bincount(arrays.cause_codes[faded].astype(np.int64) * 24 + arrays.hours_of(faded),
+                        minlength=24 * k).reshape(k, 24)
     for code, name in enumerate(arrays.cause_names):
         if table[code].any():
             key = name or S.UNKNOWN            # faded but in no event: unknown
             prev = np.asarray(out["faded_s_by_cause"].get(key, np.zeros(24)), dtype=float)
             out["faded_s_by_cause"][key] = _round(prev + table[code] * series.interval_s, 8)
     if events is not None and len(events) and "channel" in events and "start_utc" in events:
-        mine = events[events["channel"].astype(str) == series.channel]
+        mine = events[np.array([str(c) == series.channel for c in events["channel"].to_numpy()], dtype=bool)]
         if len(mine):
             start_hours = pd.to_datetime(mine["start_utc"], utc=True).dt.hour.to_numpy()
             out["event_starts_by_cause"] = {
