@@ -316,7 +316,9 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     if events.empty:
         return events
     out = events.copy()
-    verdicts = [_classify_row(row, link, config) for row in out.to_dict("records")]
+    columns = list(out.columns)   # rows as dicts of Python values (what to_dict("records") gives, faster)
+    rows = (dict(zip(columns, values)) for values in zip(*(out[c].tolist() for c in columns)))
+    verdicts = [_classify_row(row, link, config) for row in rows]
     out["cause"] = pd.array([v[0] for v in verdicts], dtype="str")
     out["confidence"] = np.round([v[1] for v in verdicts], 2)
     out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
@@ -330,21 +332,28 @@ def _short_fades_amid_multipath(events: pd.DataFrame, *, window_s: float = 1800.
     """A short (< 10 min), shallow (< 6 dB) fade called rain within 30 min of a multipath event on the same
     hop is one more dip of that multipath episode (multipath activity lasts hours and comes and goes;
     a shallow rain fade of a few minutes alone carries no shape to judge)."""
-    mp = events[events["cause"] == S.MULTIPATH]
-    if mp.empty:
+    is_mp = (events["cause"] == S.MULTIPATH).to_numpy(dtype=bool, na_value=False)
+    if not is_mp.any():
         return
-    window = pd.Timedelta(seconds=window_s)
-    for i in events.index[events["cause"].isin([S.RAIN, S.UNKNOWN]) & (events["duration_s"] < 600)
-                          & (events["peak_fade_db"] < 6.0)]:
-        row = events.loc[i]
-        near = mp[(mp["end_utc"] >= row["start_utc"] - window)
-                  & (mp["start_utc"] <= row["end_utc"] + window)]
-        if len(near):
+    # times as integer nanoseconds (NaT, which compares False with anything, is left out by hand)
+    start = pd.DatetimeIndex(events["start_utc"]).as_unit("ns")
+    end = pd.DatetimeIndex(events["end_utc"]).as_unit("ns")
+    timed = ~(start.isna() | end.isna())
+    t0, t1 = start.asi8, end.asi8
+    window = pd.Timedelta(seconds=window_s).value
+    mp_start, mp_end = t0[is_mp & timed], t1[is_mp & timed]
+    candidates = (events["cause"].isin([S.RAIN, S.UNKNOWN]) & (events["duration_s"] < 600)
+                  & (events["peak_fade_db"] < 6.0)).to_numpy(dtype=bool, na_value=False) & timed
+    duration, peak = events["duration_s"].to_numpy(), events["peak_fade_db"].to_numpy()
+    for k in np.flatnonzero(candidates):
+        near = int(np.count_nonzero((mp_end >= t0[k] - window) & (mp_start <= t1[k] + window)))
+        if near:
+            i = events.index[k]
             events.at[i, "cause"] = S.MULTIPATH
             events.at[i, "confidence"] = 0.5
-            events.at[i, "evidence"] = (f"short shallow fade ({row['duration_s'] / 60:.0f} min, peak "
-                                        f"{row['peak_fade_db']:.1f} dB) within {window_s / 60:.0f} min of "
-                                        f"{len(near)} multipath event(s) on this hop")
+            events.at[i, "evidence"] = (f"short shallow fade ({duration[k] / 60:.0f} min, peak "
+                                        f"{peak[k]:.1f} dB) within {window_s / 60:.0f} min of "
+                                        f"{near} multipath event(s) on this hop")
 
 
 def _harmonise_groups(events: pd.DataFrame) -> None:
@@ -355,9 +364,11 @@ def _harmonise_groups(events: pd.DataFrame) -> None:
     if not len(events):
         return
     # only groups holding two different propagation verdicts can change: find them in one pass
-    in_prop = events["cause"].isin(prop)
-    mixed = events.loc[in_prop].groupby("group_id")["cause"].nunique()
-    mixed = set(mixed.index[mixed.to_numpy() > 1])
+    causes_in: dict = {}
+    for group, cause in zip(events["group_id"].tolist(), events["cause"].tolist()):
+        if cause in prop and group == group:   # (a NaN group is no group, as groupby drops it)
+            causes_in.setdefault(group, set()).add(cause)
+    mixed = {group for group, causes in causes_in.items() if len(causes) > 1}
     if not mixed:
         return
     for group, idx in events.groupby("group_id").groups.items():
