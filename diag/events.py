@@ -530,27 +530,36 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
     lookup = {c: i for i, c in enumerate(categories)}
     codes = np.array([lookup.get(str(c), lookup[S.UNKNOWN]) for c in events["cause"]] + [len(categories) - 1],
                      dtype=np.int16) if len(events) else np.array([len(categories) - 1], dtype=np.int16)
+    if len(events):   # the columns as arrays once (filtering the frame per channel copies every column)
+        channel = events["channel"].to_numpy()
+        row_ids = events.index.to_numpy()
+        first, last = events["start_index"].to_numpy(), events["end_index"].to_numpy()
+        duration = events["duration_s"].to_numpy(dtype=float)
+        shift = (events["event_kind"] == "level_shift").to_numpy(dtype=bool, na_value=False)
+        size_db = events["peak_fade_db"].to_numpy(dtype=float)
     for name, item in series.items():
         n = len(item.frame)
         event_id = np.full(n, -1, dtype=np.int64)
+        cause = np.full(n, codes[-1], dtype=np.int16)   # codes[event_id], painted alongside
         if len(events):
-            mine = events[events["channel"] == name]
-            order = mine.sort_values("duration_s", ascending=False, kind="stable")
-            for row_id, a, b in zip(order.index.to_numpy(), order["start_index"].to_numpy(),
-                                    order["end_index"].to_numpy()):
-                event_id[int(a):int(b)] = row_id
+            mine = np.flatnonzero(channel == name)
+            # longest first; a stable sort of the negated durations keeps ties in table order, as
+            # sort_values(ascending=False, kind="stable") does
+            for k in mine[np.argsort(-duration[mine], kind="stable")]:
+                event_id[int(first[k]):int(last[k])] = row_ids[k]
+                cause[int(first[k]):int(last[k])] = codes[row_ids[k]]
             # inside a level-shift span a nested fade names the sample only where it is the larger contribution
             # (its attenuation against the shifted level exceeds the shift), as the truth of a sample is defined
-            spans = mine[mine["event_kind"] == "level_shift"]
+            spans = mine[shift[mine]]
             if len(spans):
                 att = item.frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
                 lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
-                for row_id, a, b, size in zip(spans.index.to_numpy(), spans["start_index"].to_numpy(),
-                                              spans["end_index"].to_numpy(), spans["peak_fade_db"].to_numpy()):
-                    a, b = int(a), int(b)
+                for k in spans:
+                    a, b, row_id, size = int(first[k]), int(last[k]), row_ids[k], size_db[k]
                     inner = event_id[a:b]
                     with np.errstate(invalid="ignore"):
                         weaker = (inner != row_id) & ~(att[a:b] > size) & ~lost[a:b]
                     inner[weaker] = row_id
+                    cause[a:b][weaker] = codes[row_id]
         item.frame["event_id"] = event_id
-        item.frame["cause"] = pd.Categorical.from_codes(codes[event_id], dtype=CAUSE_DTYPE, validate=False)
+        item.frame["cause"] = pd.Categorical.from_codes(cause, dtype=CAUSE_DTYPE, validate=False)
