@@ -490,11 +490,14 @@ def find_events(series: dict[str, ChannelSeries], link: Link, *, config: Analysi
         for c in ("start_utc", "end_utc"):
             empty[c] = pd.Series([], dtype="datetime64[ns, UTC]")
         return empty[columns]
+    # by start time, then channel: the order of sort_values(["start_utc", "channel"], kind="stable") (a stable
+    # sort, NaT last), given to the rows before the table is built instead of reordering every column after
+    rows.sort(key=lambda row: (row["start_utc"] is pd.NaT,
+                               0 if row["start_utc"] is pd.NaT else row["start_utc"].value, str(row["channel"])))
     events = pd.DataFrame(rows)
     events["cause"] = ""
     events["confidence"] = math.nan
     events["evidence"] = ""
-    events = events.sort_values(["start_utc", "channel"], kind="stable", ignore_index=True)
     # groups: fades of different channels overlapping in time (level-shift spans stay on their own)
     group = np.full(len(events), -1, dtype=np.int64)
     fade = (events["event_kind"] == "fade").to_numpy()
