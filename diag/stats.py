@@ -112,7 +112,6 @@ class _Arrays:
             index = frame.index.tz_convert("UTC") if frame.index.tz is not None else frame.index
             self._epoch = index.asi8
             self._per_hour = 3600 * _UNITS_PER_SECOND[index.unit]
-            self._sorted = index.is_monotonic_increasing
         self.relative_cache: dict = {}
 
     @functools.cached_property
@@ -131,9 +130,10 @@ class _Arrays:
     def count_by_hour(self, mask: np.ndarray) -> np.ndarray:
         """``np.bincount(hours[mask], minlength=24)``: on a time-ordered index, counted per run of samples of one
         clock hour (exact integers) instead of per sample."""
-        if self._epoch is None or not self._sorted or not self.n:
-            return np.bincount(self.hours_of(mask), minlength=24)
         t, per = self._epoch, self._per_hour
+        # time-ordered, and no NaT (the smallest integer, so it could only come first)
+        if t is None or not self.n or t[0] == np.iinfo(np.int64).min or not (t[1:] >= t[:-1]).all():
+            return np.bincount(self.hours_of(mask), minlength=24)
         edges = np.arange(t[0] // per + 1, t[-1] // per + 1) * per
         starts = np.concatenate([[0], np.searchsorted(t, edges)])
         starts = starts[np.concatenate([starts[1:] > starts[:-1], [True]])]   # hours without a sample: no run
@@ -503,12 +503,12 @@ def hourly_block(series, events: pd.DataFrame | None, arrays=None) -> dict:
             prev = np.asarray(out["faded_s_by_cause"].get(key, np.zeros(24)), dtype=float)
             out["faded_s_by_cause"][key] = _round(prev + table[code] * series.interval_s, 8)
     if events is not None and len(events) and "channel" in events and "start_utc" in events:
-        mine = events[np.array([str(c) == series.channel for c in events["channel"].to_numpy()], dtype=bool)]
-        if len(mine):
-            start_hours = pd.to_datetime(mine["start_utc"], utc=True).dt.hour.to_numpy()
+        mine = np.array([str(c) == series.channel for c in events["channel"].to_numpy()], dtype=bool)
+        if mine.any():   # (the two columns only: selecting rows of the whole table copies every column)
+            start_hours = pd.to_datetime(events["start_utc"][mine], utc=True).dt.hour.to_numpy()
+            causes = events["cause"][mine].astype(str).to_numpy()
             out["event_starts_by_cause"] = {
-                str(c): np.bincount(start_hours[mine["cause"].astype(str).to_numpy() == c], minlength=24).tolist()
-                for c in sorted(set(mine["cause"].astype(str)))}
+                str(c): np.bincount(start_hours[causes == c], minlength=24).tolist() for c in sorted(set(causes))}
     out["note"] = "hours in UTC"
     return out
 
