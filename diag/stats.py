@@ -297,14 +297,15 @@ def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float, period
 
 def _relative_db_uncached(arrays: _Arrays, interval_s: float, local_mean_s: float, periods) -> np.ndarray:
     window = max(5, int(round(local_mean_s / interval_s)))
-    power = np.where(arrays.ok, 10.0 ** (arrays.level / 10.0), np.nan)
-    # the rolling mean runs over the whole series: pandas carries its running sum from the start, so a mean
-    # computed over a part would differ in the last bits
-    mean = pd.Series(power).rolling(window, center=True, min_periods=max(3, window // 4)).mean().to_numpy()
     rel = np.full(arrays.n, np.nan)
     for a, b in periods:
+        # the mean over [a, b) needs the samples a window either side (the same windows as over the whole series;
+        # the running sum starts here, so the last bits may differ from a whole-series rolling mean)
+        lo, hi = max(0, a - window), min(arrays.n, b + window)
+        power = np.where(arrays.ok[lo:hi], 10.0 ** (arrays.level[lo:hi] / 10.0), np.nan)
+        mean = pd.Series(power).rolling(window, center=True, min_periods=max(3, window // 4)).mean().to_numpy()
         with np.errstate(divide="ignore", invalid="ignore"):
-            part = 10.0 * np.log10(power[a:b] / mean[a:b])
+            part = 10.0 * np.log10(power[a - lo:b - lo] / mean[a - lo:b - lo])
         rel[a:b] = np.where(arrays.lost[a:b], -np.inf, part)
     return rel
 
