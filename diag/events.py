@@ -210,7 +210,9 @@ def _nanmax(x: np.ndarray, default: float = math.nan) -> float:
 
 
 # The per-event helpers below repeat numpy's own steps without its wrappers (the events of a week are many short
-# arrays, where the wrappers cost more than the arithmetic), so every feature keeps its bits.
+# arrays, where the wrappers cost more than the arithmetic), so every feature keeps its bits.  _sum is what
+# ndarray.sum() calls (the same pairwise summation).
+_sum = np.add.reduce
 
 def _window_max(x_nan: np.ndarray, lo: int, hi: int, default: float = math.nan) -> float:
     """``_nanmax(x[lo:hi], default)`` with ``x_nan`` = x whose non-finite values are NaN (fmax skips NaN).  A
@@ -240,9 +242,9 @@ def _std(x: np.ndarray) -> float:
     """``float(np.std(x))`` of a 1-D float array by numpy's steps (sum, divide, subtract, square, sum, divide,
     square root): the same bits."""
     n = x.size
-    d = x - x.sum() / n
+    d = x - _sum(x) / n
     d *= d
-    return math.sqrt(d.sum() / n)
+    return math.sqrt(_sum(d) / n)
 
 
 def _pearson(x: np.ndarray, y: np.ndarray) -> float:
@@ -251,7 +253,7 @@ def _pearson(x: np.ndarray, y: np.ndarray) -> float:
     rows = np.empty((2, x.size))
     rows[0] = x
     rows[1] = y
-    rows -= rows.mean(axis=1)[:, None]
+    rows -= (_sum(rows, axis=1) / x.size)[:, None]   # rows.mean(axis=1): the row sums over the count
     c = np.dot(rows, rows.T)
     c *= np.true_divide(1, x.size - 1)
     r = float(c[0, 1] / np.sqrt(c[0, 0]) / np.sqrt(c[1, 1]))
@@ -339,8 +341,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     fast_p = att_raw_p - means.at(pos, width60) if not stats else None
     if p_att is not None:
         n_both = count(fin_p & np.isfinite(p_att[pos]))
-    t_first, t_last = index[starts], index[ends - 1]
-    t_end = t_last + pd.Timedelta(seconds=step)
+    t_last = index[ends - 1]
+    t_first, t_end = list(index[starts]), list(t_last + pd.Timedelta(seconds=step))   # Timestamps, boxed at once
     peaks_at = []
     rows = []
     for i, (a, b, o) in enumerate(zip(starts.tolist(), ends.tolist(), off.tolist())):
@@ -352,7 +354,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             peak = _nanmax(seg)
         if any_finite:
             ipeak = a + int(seg.argmax() if all_finite else np.nanargmax(seg))
-            total = seg.sum() if n_nan[i] == 0 else np.where(np.isnan(seg), 0.0, seg).sum()
+            total = _sum(seg if n_nan[i] == 0 else np.where(np.isnan(seg), 0.0, seg))
             mean_fade = float(total / (n - n_nan[i]))   # np.nanmean: the sum with NaN as 0 over the count
         else:
             ipeak, mean_fade = a, math.nan
@@ -413,9 +415,9 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             if ok is not None:
                 deep &= ok
             if deep.any():
-                deep_sum = seg[deep].sum()
+                deep_sum = _sum(seg[deep])
                 if deep_sum > 0:
-                    ratio = float(pa[deep].sum() / deep_sum)
+                    ratio = float(_sum(pa[deep]) / deep_sum)
                     if pol == "H" and p_pol == "V":
                         vh = ratio
                     elif pol == "V" and p_pol == "H" and ratio > 0:
