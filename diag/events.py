@@ -312,7 +312,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     seg_nan = att_nan if seg_att is att else _inf_as_nan(seg_att)
 
     # the samples of all events one after the other ("packed"): event i is packed[off[i]:off[i] + length[i]];
-    # maxima, minima and integer counts of every event in one reduction each (exact in any order)
+    # maxima, minima and integer counts of every event in one reduction each (exact in any order; only the sign
+    # of a zero extreme depends on the order, so a zero is taken again per event as before)
     length = ends - starts
     off = np.concatenate([[0], np.cumsum(length)[:-1]])
     pos = np.arange(int(length.sum())) + np.repeat(starts - off, length)
