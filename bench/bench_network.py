@@ -222,7 +222,7 @@ def bench_analysis(report: list[str], repeat: int) -> None:
         t_an, result = _best(lambda: analyze_link(table, sim.link), repeat)
         n_events = len(result.events)
         out = Path(tmp) / "out"
-        t_wr, _ = _best(lambda: write_outputs([result], out), 1)
+        t_wr, _ = _best(lambda done=result: write_outputs([done], out), 1)
         warm = sim.table[sim.table[schema.TIME] < sim.table[schema.TIME].min() + pd.Timedelta(hours=6)]
         write_wide_iso(warm, Path(tmp) / "Warm.csv", floor_dbm=sim.spec.floor_value_dbm)
         del result
@@ -384,7 +384,7 @@ def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int]
             times[n].append(r["seconds"])
         growth = [(n, float(np.mean(times[n]))) for n in sizes]
         if growth:
-            report.append(f"Growth with the number of hops (2 workers; each size run twice, sizes up then down; "
+            report.append("Growth with the number of hops (2 workers; each size run twice, sizes up then down; "
                           "mean of the two):\n")
             n0, s0 = growth[0]
             report.append("| hops (15-min statistics, 2 workers) | seconds | seconds per hop | per-hop time vs "

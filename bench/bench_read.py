@@ -17,7 +17,6 @@ import resource
 import subprocess
 import sys
 import tempfile
-import time
 from pathlib import Path
 
 import numpy as np

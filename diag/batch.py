@@ -226,8 +226,7 @@ def _placeholder_link(link_id: str) -> Link:
 def write_tables(results: list[LinkResult], out_dir: Path) -> list[Path]:
     """``diag.report.write_outputs`` without the PDF: events.csv, findings.json, outage_summary.csv,
     outage_by_cause.csv, byte for byte the same files (for networks where a PDF per hop is not wanted)."""
-    from diag.report import (events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes,
-                             outage_summary_csv_bytes)
+    from diag.report import events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes, outage_summary_csv_bytes
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)

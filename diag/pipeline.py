@@ -17,8 +17,8 @@ import importlib
 import logging
 import os
 import sys
-from concurrent.futures import ThreadPoolExecutor
 from collections.abc import Callable, Iterable, Sequence
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import pandas as pd

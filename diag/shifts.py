@@ -407,7 +407,7 @@ def _trend(values: np.ndarray, index: pd.DatetimeIndex, *, min_span_s: float, fa
                                          is_sorted=index.is_monotonic_increasing)
     if len(levels) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
-    from scipy import stats as sps   # imported here: scipy.stats is slow to import and only the trend needs it
+    from scipy import stats as sps  # imported here: scipy.stats is slow to import and only the trend needs it
 
     t_week = (hours - hours[0]) * 3600.0 / WEEK_S   # whole hours: the same floats as Timedelta.total_seconds()
     slope, intercept, low, high = sps.theilslopes(levels, t_week, alpha=0.95)

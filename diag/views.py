@@ -17,6 +17,7 @@ from diag import schema
 from diag.report.style import CAUSE_LABELS
 from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult
 
+
 def cause_label(cause: str) -> str:
     """Display label of a cause name, from the shared palette (``diag.report.style``, also used by the PDF)."""
     text = str(cause)

@@ -21,8 +21,7 @@ from pypdf import PdfReader
 from diag import batch, schema
 from diag.cli import main as cli_main
 from diag.pipeline import analyze_files
-from diag.report import (events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes,
-                         outage_summary_csv_bytes)
+from diag.report import events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes, outage_summary_csv_bytes
 from diag.simulate import aggregate_statistics, random_scenario, simulate_scenario
 from diag.writers import write_stats
 

@@ -356,8 +356,9 @@ def test_million_rows_through_ingest(tmp_path, capsys):
     every planted defect is found and counted, nothing else is lost.  Bounded: fails rather than hangs."""
     import json
 
-    from diag.cli import main
     from test_hostile_inputs import _bounded
+
+    from diag.cli import main
 
     path = tmp_path / "hop_1m.csv"
     planted = _bench_memory().make_log(path, 1_000_000, seed=3, bad_time_every=1000, duplicate_every=997,

@@ -13,12 +13,12 @@ import hashlib
 import warnings
 
 import pytest
+from test_conservation import _short_spec
 
 from diag import writers
 from diag.cli import main
 from diag.scenarios import load_scenario
 from diag.simulate import aggregate_statistics, simulate_link
-from test_conservation import _short_spec
 
 pytestmark = pytest.mark.filterwarnings("ignore")
 OUTPUTS = ("events.csv", "outage_summary.csv", "outage_by_cause.csv", "findings.json", "report.pdf")

@@ -24,13 +24,13 @@ import pandas as pd
 import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
+from test_conservation import check_outage_accounting
 
 from diag import schema as S
 from diag.errors import InputError
 from diag.links import make_link
 from diag.pipeline import analyze_files, analyze_link
 from diag.report import tables
-from test_conservation import check_outage_accounting
 
 pytestmark = pytest.mark.filterwarnings("ignore")   # RuntimeWarning/DataWarning on odd inputs are allowed
 FUZZ = settings(deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])

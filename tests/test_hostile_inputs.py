@@ -14,7 +14,6 @@ import contextlib
 import gzip
 import io
 import json
-import os
 import signal
 import zipfile
 from pathlib import Path
@@ -38,7 +37,8 @@ def _rows(n: int, fmt, step: int = 60) -> str:
 
 
 def _good(n: int = 50) -> str:
-    return "time,rsl_h_dbm,rsl_v_dbm\n" + _rows(n, lambda i, t: f"{t},{-45 - (i % 7) * 0.3:.1f},{-46 - (i % 5) * 0.2:.1f}\n")
+    return "time,rsl_h_dbm,rsl_v_dbm\n" + _rows(
+        n, lambda i, t: f"{t},{-45 - (i % 7) * 0.3:.1f},{-46 - (i % 5) * 0.2:.1f}\n")
 
 
 def _corpus() -> dict[str, bytes]:
@@ -55,7 +55,8 @@ def _corpus() -> dict[str, bytes]:
     c["mixed_separators.csv"] = ("time,rsl_dbm\n" + _rows(
         30, lambda i, t: f"{t}{';' if i % 2 else ','}{-45 - i % 4}\n")).encode()
     c["ragged_rows.csv"] = ("time,rsl_h_dbm,rsl_v_dbm\n" + _rows(
-        40, lambda i, t: f"{t},-45" + (",-46,99,extra\n" if i % 3 == 0 else ("\n" if i % 3 == 1 else ",-46\n")))).encode()
+        40, lambda i, t: f"{t},-45" + (",-46,99,extra\n" if i % 3 == 0 else ("\n" if i % 3 == 1 else ",-46\n")))
+    ).encode()
     c["mixed_time_formats.csv"] = ("time,rsl_dbm\n" + _rows(
         40, lambda i, t: (f"{t},-45\n" if i % 2 else f"{t[8:10]}/{t[5:7]}/{t[:4]} {t[11:19]},-46\n"))).encode()
     lines = _good(60).splitlines(keepends=True)
@@ -69,7 +70,8 @@ def _corpus() -> dict[str, bytes]:
     c["all_floor.csv"] = ("time,rsl_dbm\n" + _rows(50, lambda i, t: f"{t},-100\n")).encode()
     c["constant.csv"] = ("time,rsl_dbm\n" + _rows(50, lambda i, t: f"{t},-45.0\n")).encode()
     c["single_row.csv"] = b"time,rsl_dbm\n2026-05-01T00:00:00Z,-45\n"
-    c["milliwatts.csv"] = ("time,rx power (mW)\n" + _rows(40, lambda i, t: f"{t},{3.2e-5 * (1 + i % 3):.3e}\n")).encode()
+    c["milliwatts.csv"] = ("time,rx power (mW)\n"
+                           + _rows(40, lambda i, t: f"{t},{3.2e-5 * (1 + i % 3):.3e}\n")).encode()
     c["positive_db_below_mw.csv"] = ("time,rx level\n" + _rows(40, lambda i, t: f"{t},{45 + i % 4}\n")).encode()
     c["absurd_high.csv"] = ("time,rsl_dbm\n" + _rows(40, lambda i, t: f"{t},{50 if i % 5 == 0 else -45}\n")).encode()
     c["absurd_low.csv"] = ("time,rsl_dbm\n" + _rows(40, lambda i, t: f"{t},{-300 if i % 5 == 0 else -45}\n")).encode()

@@ -7,7 +7,6 @@ same values, statuses and UTC times, and the row accounting must name every repe
 from __future__ import annotations
 
 import numpy as np
-import pandas as pd
 import pytest
 
 from diag import schema as S

@@ -18,9 +18,19 @@ import pytest
 from diag import outage, schema
 from diag.errors import InputError
 from diag.links import make_link
-from diag.report import (OUTPUT_FILES, events_csv_bytes, findings_json_bytes, format_availability,
-                         outage_by_cause_csv_bytes, outage_summary_csv_bytes, page_png_bytes, pdf_bytes, safe_cell,
-                         safe_filename, write_outputs)
+from diag.report import (
+    OUTPUT_FILES,
+    events_csv_bytes,
+    findings_json_bytes,
+    format_availability,
+    outage_by_cause_csv_bytes,
+    outage_summary_csv_bytes,
+    page_png_bytes,
+    pdf_bytes,
+    safe_cell,
+    safe_filename,
+    write_outputs,
+)
 from diag.results import ChannelSeries, LinkResult
 
 pypdf = pytest.importorskip("pypdf")

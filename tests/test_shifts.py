@@ -7,7 +7,8 @@ and with the slope that was put in.
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from diag import shifts
 from diag.simulate import Effect, LinkSpec, simulate_link
@@ -110,8 +111,8 @@ def test_path_level_removes_atpc_steps():
 
 
 def test_level_changes_on_link_result_flags_common_step():
-    from diag.results import ChannelSeries, LinkResult
     from diag.links import make_link
+    from diag.results import ChannelSeries, LinkResult
     rng = np.random.default_rng(5)
     n = 3 * 1440
     series = {}

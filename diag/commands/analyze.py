@@ -65,8 +65,8 @@ def links_from_args(args: argparse.Namespace) -> list:
     if missing:
         raise InputError("describe the hop: --links LINKS, or all of --freq-ghz, --length-km, --polarization, "
                          "--threshold-dbm (missing: " + ", ".join("--" + m.replace("_", "-") for m in missing) + ")")
-    values = {"link_id": args.link_id or _default_link_id(args.inputs), "frequency_ghz": args.freq_ghz, "length_km": args.length_km,
-              "polarization": args.polarization, "threshold_dbm": args.threshold_dbm}
+    values = {"link_id": args.link_id or _default_link_id(args.inputs), "frequency_ghz": args.freq_ghz,
+              "length_km": args.length_km, "polarization": args.polarization, "threshold_dbm": args.threshold_dbm}
     for name in OPTIONAL:
         values[name] = getattr(args, name)
     return [make_link(values, where="command-line flags")]

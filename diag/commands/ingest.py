@@ -12,7 +12,6 @@ import json
 import sys
 
 
-
 def register(subparsers) -> None:
     p = subparsers.add_parser("ingest", help="read receive-level logs into the normalised table and report",
                               description="Read receive-level logs (any supported shape) into the normalised "

@@ -31,7 +31,8 @@ from diag.models._util import ArrayLike, as_float_array, like_input
 __all__ = ["rain_distance_factor", "rain_attenuation_001_db", "rain_scaling_coefficients", "rain_attenuation_db",
            "rain_time_percent", "rain_fade_count_10s", "rain_frequency_scaling_db", "rain_polarization_scaling_db",
            "geoclimatic_factor_k", "path_inclination_mrad", "multipath_deep_fade_percent",
-           "multipath_occurrence_percent", "multipath_deep_fade_percent_p530_18", "multipath_fade_percent", "geoclimatic_conversion_db",
+           "multipath_occurrence_percent", "multipath_deep_fade_percent_p530_18", "multipath_fade_percent",
+           "geoclimatic_conversion_db",
            "multipath_fade_percent_year", "rayleigh_tail_percent", "xpd_rain_db", "copolar_attenuation_for_xpd_db",
            "xpd_rain_voltage_factor_db", "xpd_outage_rain_probability", "xpd_outage_clear_air_probability"]
 

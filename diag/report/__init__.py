@@ -10,8 +10,14 @@ from typing import Callable, Iterable
 
 from diag.errors import InputError
 from diag.report.pdf import format_availability, format_minutes, page_png_bytes, pdf_bytes
-from diag.report.tables import (events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes,
-                                outage_summary_csv_bytes, safe_cell, safe_filename)
+from diag.report.tables import (
+    events_csv_bytes,
+    findings_json_bytes,
+    outage_by_cause_csv_bytes,
+    outage_summary_csv_bytes,
+    safe_cell,
+    safe_filename,
+)
 from diag.results import LinkResult
 
 OUTPUT_FILES = ("events.csv", "findings.json", "outage_summary.csv", "outage_by_cause.csv", "report.pdf")
