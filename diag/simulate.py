@@ -40,6 +40,30 @@ Effects (``Effect.kind``) and their physics:
 ``signal_loss``  receiver-floor episode (equipment or power): the level drops abruptly to ``floor_dbm``.
 ``gap``          polling gap: no rows at all for ``duration_s``.
 
+Both directions of one hop (``LinkSpec.directions``): on a single-polarised hop (H or V) the receiver at each
+end logs the signal the other end sends, giving two channels named by direction (``direction_names``, default
+"A>B" = sent from end A, received and logged at end B, and "B>A").  How each cause treats the two directions:
+
+- rain: the same path and the same polarisation, so both directions get the same P.838 attenuation and the same
+  wet-antenna loss (each direction passes through both antennas' radomes).  Go and return differ in frequency by
+  the duplex spacing (a few per cent of the carrier), which changes gamma_R by a few per cent; that difference
+  is ignored here (both use ``frequency_ghz``).
+- multipath: go and return differ in frequency by the duplex spacing, and frequency-selective fading decorrelates
+  them only partly: the LOS part and the K-factor are common and the scatter parts are two Rice/Rayleigh
+  envelopes whose complex scatter has correlation ``correlation`` (default ``DIRECTION_MP_CORRELATION`` = 0.9 on
+  a directions hop instead of 0.3 between H and V).  0.9 is a modelling choice, not a measured figure: strongly
+  but not fully correlated, as for a duplex spacing inside the coherence bandwidth of a clear-air multipath
+  channel (common practice, from memory; P.530 frequency diversity rests on the same partial decorrelation).
+- refractive: the same path, ~equal on both directions (as on H and V).
+- level_shift / drift: an antenna knocked off its alignment (or a polarisation tilt) at one end changes the gain
+  of the one antenna that both transmits and receives there, so the step is common to both directions (common
+  practice).  ``channels`` (level_shift without tilt) limits a step to some directions: a transmitter that drops
+  part of its power lowers only the direction it feeds.
+- signal_loss: an equipment fault (a transmitter off, a receiver failed) loses only the direction it serves:
+  give ``channels`` (default: all channels).
+- ``channel_offset_db`` is the clear-sky level of the second direction relative to the first (two transmitters
+  and receivers are never exactly alike).  No XPD is logged (single polarisation).
+
 Everything is vectorised numpy: a week at 1 s for a dual-polarised hop takes a few seconds.  Same seed,
 same numbers: every random draw comes from a generator seeded by (seed, CRC-32 of the link id, effect
 index).
@@ -78,6 +102,7 @@ __all__ = [
     "channels_for",
     "aggregate_statistics",
     "TRUTH_EVENT_COLUMNS",
+    "DIRECTION_NAMES",
 ]
 
 EFFECT_KINDS = ("rain", "multipath", "refractive", "level_shift", "drift", "signal_loss", "gap")
@@ -93,6 +118,10 @@ _KIND_CAUSE = {
     "gap": schema.NO_DATA,
 }
 FADE_LABEL_DB = 3.0  # a sample is "faded" (gets a cause label) when the total fade exceeds this
+DIRECTION_NAMES = ("A>B", "B>A")  # channel names of a directions hop: sent from the first end, logged at the second
+# complex correlation of the multipath scatter of go and return on a directions hop (a modelling choice: strongly,
+# not fully correlated; see the module docstring)
+DIRECTION_MP_CORRELATION = 0.9
 TRUTH_EVENT_COLUMNS = [
     "link_id",
     "channel",
@@ -165,6 +194,9 @@ class LinkSpec:
     duplicate_fraction: float = 0.0  # rows repeated in the file
     swap_fraction: float = 0.0  # adjacent rows out of order in the file
     effects: tuple = ()
+    # both directions of a single-polarised hop, one channel per direction (see the module docstring)
+    directions: bool = False
+    direction_names: tuple = DIRECTION_NAMES
 
     def __post_init__(self):
         if self.interval_s <= 0 or self.duration_s < self.interval_s:
@@ -184,6 +216,13 @@ class LinkSpec:
             raise InputError(f"link {self.link_id}: floor_dbm must be below threshold_dbm")
         if self.nominal_dbm <= self.threshold_dbm:
             raise InputError(f"link {self.link_id}: nominal_dbm must be above threshold_dbm (no fade margin)")
+        if self.directions:
+            names = tuple(str(name) for name in self.direction_names)
+            object.__setattr__(self, "direction_names", names)  # a TOML list becomes a tuple (frozen dataclass)
+            if self.polarization not in ("H", "V"):
+                raise InputError(f"link {self.link_id}: directions need a single polarisation (H or V)")
+            if len(names) != 2 or names[0] == names[1] or not all(name.strip() for name in names):
+                raise InputError(f"link {self.link_id}: direction_names must be two different names")
         self.to_link()  # validates the links-table fields
 
     @property
@@ -199,7 +238,7 @@ class LinkSpec:
 
     @property
     def channels(self) -> list[str]:
-        return channels_for(self.polarization)
+        return channels_for(self.polarization, self.direction_names if self.directions else None)
 
     def to_link(self) -> Link:
         values = {
@@ -241,7 +280,10 @@ class SimResult:
     file_defects: dict
 
 
-def channels_for(polarization: str) -> list[str]:
+def channels_for(polarization: str, directions: Sequence[str] | None = None) -> list[str]:
+    """Channel names of a simulated hop: H and V (dual), the polarisation (single), or one per direction."""
+    if directions is not None:
+        return [str(name) for name in directions]
     return ["H", "V"] if polarization == "dual" else [polarization]
 
 
@@ -365,7 +407,8 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
     nch = len(channels)
     start = spec.start_utc
     times_ns = start.value + np.round(np.arange(n) * dt * 1e9).astype(np.int64)
-    pol_tilt = [p838.tilt_deg_for_polarization(ch) for ch in channels]
+    # polarisation of each channel: H/V of a dual hop, or the hop's one polarisation for every direction
+    pol_tilt = [p838.tilt_deg_for_polarization(spec.polarization if spec.directions else ch) for ch in channels]
 
     contrib = {cause: np.zeros((nch, n)) for cause in TRUTH_CAUSES}
     rain_rate = np.zeros(n)
@@ -431,6 +474,7 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
             _multipath(
                 rng,
                 effect,
+                DIRECTION_MP_CORRELATION if spec.directions else 0.3,
                 dt,
                 i0,
                 i1,
@@ -464,11 +508,14 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
             if i1 <= i0:
                 continue
             shift = np.zeros(n)
+            wanted = effect.params.get("channels", channels)
             if effect.kind == "level_shift":
                 step = float(effect.params.get("step_db", 3.0))
                 ramp = max(int(round(float(effect.params.get("ramp_s", 0.0)) / dt)), 1)
                 shift[i0:i1] = step * np.clip((np.arange(i1 - i0) + 1) / ramp, 0.0, 1.0)
                 tilt = float(effect.params.get("tilt_deg", 0.0))
+                if tilt and "channels" in effect.params:
+                    raise InputError(f"link {spec.link_id}: a tilted antenna affects every channel (no channels)")
                 extra_tilt[i0:i1] += tilt
                 extra = {"step_db": step, "tilt_deg": tilt, "shift_utc": pd.Timestamp(times_ns[i0], tz="UTC")}
             else:
@@ -477,6 +524,8 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
                 shift[i1:] = shift[i1 - 1]
                 extra = {"db_per_week": rate, "shift_utc": pd.Timestamp(times_ns[i0], tz="UTC")}
             for c in range(nch):
+                if channels[c] not in wanted:
+                    continue
                 contrib[schema.LEVEL_SHIFT][c] += shift
                 add_event(
                     effect,
@@ -524,7 +573,7 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
     measured = _quantise(measured, spec.quantisation_db)
     below_floor = lost | (measured <= floor)
     xpd = None
-    if nch == 2:
+    if spec.polarization == "dual":  # XPD is logged on dual-polarised hops only
         with np.errstate(divide="ignore"):
             static = np.asarray(xpol.combine_xpd_db(spec.xpd_antenna_db, xpol.xpd_from_tilt_db(tilt)))
         xpd = (
@@ -595,14 +644,24 @@ def simulate_link(spec: LinkSpec, *, seed: int = 0) -> SimResult:
 
 
 def _multipath(
-    rng, effect: Effect, dt: float, i0: int, i1: int, nch: int, out: np.ndarray, xpd_delta: np.ndarray, record
+    rng,
+    effect: Effect,
+    default_correlation: float,
+    dt: float,
+    i0: int,
+    i1: int,
+    nch: int,
+    out: np.ndarray,
+    xpd_delta: np.ndarray,
+    record,
 ) -> None:
-    """Rician envelope with a K-factor that falls to k_min in the middle of the window."""
+    """Rician envelope with a K-factor that falls to k_min in the middle of the window; the channels' scatter
+    parts have complex correlation ``correlation`` (default ``default_correlation``)."""
     p = effect.params
     m = i1 - i0
     k_min, k_max = float(p.get("k_min", 0.0)), float(p.get("k_max", 30.0))
     rate_hz = float(p.get("fade_rate_hz", 0.05))
-    rho = float(p.get("correlation", 0.3))
+    rho = float(p.get("correlation", default_correlation))
     s = np.linspace(0.0, 1.0, m)
     plateau = float(p.get("plateau", 0.5))
     edge = max((1.0 - plateau) / 2.0, 1e-9)
