@@ -19,8 +19,10 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
    event (upfades: P.530 §2.3.3; rain and refractive fades never enhance the level) - 0.8; shorter than two
    minutes (rain cells and refractive fades last many minutes; deep multipath fades last seconds, Vigants 1971) -
    0.6; on a dual-polarised hop an H/V correlation under 0.8 over a fade with shape - 0.5 (rain and refraction
-   fade both polarisations together).  15-min statistics: a min-max spread of 10 dB or more with the average
-   fade under a quarter of the minimum's - 1 point; maxima 2 dB above the reference - 0.5.
+   fade both polarisations together; the same holds for the two directions of a hop, whose multipath the duplex
+   frequency spacing partly decorrelates; the evidence then names the two channels).  15-min statistics: a
+   min-max spread of 10 dB or more with the average fade under a quarter of the minimum's - 1 point; maxima 2 dB
+   above the reference - 0.5.
 4. **rain or refractive** - a smooth fade (one with the level 3 dB or more above the reference in or within 5 min
    of it is multipath: rain and refraction do not enhance the level).  Evidence for rain, in order of weight:
    a. V/H attenuation ratio (dual-polarised hops): rain follows ITU-R P.838-3 (A_V/A_H = gamma_V/gamma_H < 1 above
@@ -64,6 +66,7 @@ import pandas as pd
 
 from diag import schema as S
 from diag.baseline import AnalysisConfig
+from diag.events import channel_polarization
 from diag.links import Link
 
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
@@ -98,6 +101,14 @@ def _fmt_duration(seconds: float) -> str:
 
 def _clip(x: float) -> float:
     return float(min(0.99, max(0.05, x)))
+
+
+def _pair_name(row) -> str:
+    """How evidence names a channel and its partner: "H/V" for the two polarisations of a dual-polarised hop,
+    else the channel names (e.g. the two directions "A>B/B>A" of a single-polarised hop)."""
+    channel, partner = str(row.get("channel", "")), str(row.get("partner_channel", ""))
+    pols = {channel_polarization(channel), channel_polarization(partner)}
+    return "H/V" if pols == {"H", "V"} or not partner else f"{channel}/{partner}"
 
 
 def _level_shift(row) -> tuple[str, float, str]:
@@ -178,7 +189,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
             reasons.append("too short for rain or refraction")
         if math.isfinite(corr) and corr < 0.8 and peak - mean_fade >= 3.0:  # (a flat fade has no shape to share)
             score += 0.5
-            reasons.append(f"H/V correlation {corr:.2f}")
+            reasons.append(f"{_pair_name(row)} correlation {corr:.2f}")
         mp_score = score
         if score >= 1.0:
             return (S.MULTIPATH, _clip(0.55 + 0.15 * score),

@@ -52,21 +52,26 @@ FEATURE_COLUMNS = [
 
 
 def channel_polarization(channel: str, link: Link | None = None) -> str | None:
-    """"H" or "V" when the channel name says so (a token H/V/horizontal/vertical), else the link's single pol."""
+    """The polarisation of a channel: the link's when it is single-polarised (H or V), else "H" or "V" when the
+    channel name says so (a token H/V/horizontal/vertical), else None.
+
+    On a single-polarised hop the channel names name the directions or ends ("A>B", "near", "S1>V2"), so a site
+    code that reads like a polarisation token ("V2") must not override the links table."""
+    if link is not None and link.polarization in ("H", "V"):
+        return link.polarization
     tokens = [t for t in re.split(r"[^A-Za-z]+", str(channel).lower()) if t]
     if any(t in ("h", "horizontal", "hor", "hh") for t in tokens):
         return "H"
     if any(t in ("v", "vertical", "ver", "vv") for t in tokens):
         return "V"
-    if link is not None and link.polarization in ("H", "V"):
-        return link.polarization
     return None
 
 
 def _partners(channels: list[str], link: Link | None) -> dict[str, str]:
-    """H<->V pairs of the same path, else the two channels of a two-channel hop (two directions)."""
+    """H<->V pairs of the same path, else the two channels of a two-channel hop (two directions; on a
+    single-polarised hop every channel has the hop's polarisation, so only this second rule pairs them)."""
     out: dict[str, str] = {}
-    pols = {ch: channel_polarization(ch) for ch in channels}
+    pols = {ch: channel_polarization(ch, link) for ch in channels}
     rest = {ch: re.sub(r"(?i)\b(h|v|horizontal|vertical)\b", "", ch).strip(" _-") for ch in channels}
     for a in channels:
         for b in channels:
