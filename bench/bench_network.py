@@ -220,6 +220,7 @@ def bench_analysis(report: list[str], repeat: int) -> None:
         t_read, rr = _best(lambda: read_log(path), repeat)
         table = schema.conform(rr.table.assign(**{schema.LINK: sim.link.link_id}))
         t_an, result = _best(lambda: analyze_link(table, sim.link), repeat)
+        t_an1, _ = _best(lambda: analyze_link(table, sim.link, threads=1), repeat)   # as inside a Dask worker
         n_events = len(result.events)
         out = Path(tmp) / "out"
         t_wr, _ = _best(lambda done=result: write_outputs([done], out), 1)
@@ -233,11 +234,13 @@ def bench_analysis(report: list[str], repeat: int) -> None:
     report.append("| step | seconds | vs reading |")
     report.append("|---|---:|---:|")
     report.append(f"| read_log (CSV -> normalised table) | {t_read:.2f} | 1.00 |")
-    report.append(f"| analyze_link (whole diagnosis + outage) | {t_an:.2f} | {t_an / t_read:.2f} |")
+    report.append(f"| analyze_link (whole diagnosis + outage; independent stages in 2 threads) | {t_an:.2f} | "
+                  f"{t_an / t_read:.2f} |")
+    report.append(f"| analyze_link, one thread (as in a Dask worker) | {t_an1:.2f} | {t_an1 / t_read:.2f} |")
     report.append(f"| write_outputs (CSV, JSON, PDF report) | {t_wr:.2f} | {t_wr / t_read:.2f} |")
-    verdict = "met" if t_an <= t_read else "NOT met"
-    report.append(f"\nTarget \"analysis no slower than reading\": {verdict} (analysis/read = {t_an / t_read:.2f}); "
-                  f"{n_events} events found.\n")
+    verdict = "met" if max(t_an, t_an1) <= t_read else "NOT met"
+    report.append(f"\nTarget \"analysis no slower than reading\": {verdict} (analysis/read = {t_an / t_read:.2f}, "
+                  f"{t_an1 / t_read:.2f} in one thread); {n_events} events found.\n")
     mib = 2**20
     table = mem["table"]
     report.append(f"Memory of this hop's batch task in a fresh process (after a warm-up hop, so libraries are "
