@@ -212,7 +212,11 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
             detail += f"; largest step {float(worst['size_db']):+.1f} dB on {worst['channel']} at {worst['time_utc']}"
             if severity == "low" and float(worst["size_db"]) <= -SHIFT_MEDIUM_DB:
                 severity = "medium"          # margin lost for good until someone restores it
-        actions = ["check antenna alignment (a step on both polarisations points at the antenna or its mount)",
+        # two channels on one polarisation are the hop's two directions (common practice: a step seen in both
+        # directions is the antenna at one end, which transmits and receives; a step in one is that transmitter)
+        both = ("both directions" if link.polarization in ("H", "V") and len(result.series) == 2
+                else "both polarisations")
+        actions = [f"check antenna alignment (a step on {both} points at the antenna or its mount)",
                    "check the hardware of the affected channel: connectors, waveguide/cable, radio output",
                    "compare the clear-sky level with the planned receive level"]
         cautions = list(SITE_CAUTIONS)

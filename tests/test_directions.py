@@ -242,3 +242,46 @@ def test_direction_names_do_not_set_the_polarisation():
     assert len(plain) >= 2 and (plain["cause"] == S.RAIN).all()
     np.testing.assert_allclose(coded["rain_rate_mmh"].to_numpy(float), plain["rain_rate_mmh"].to_numpy(float))
     assert list(coded["cause"]) == list(plain["cause"])
+
+
+def test_step_advice_names_directions_not_polarisations(hop):
+    """A two-direction hop's level-shift advice speaks of directions (common practice: the antenna at one end both
+    transmits and receives, so its misalignment shows in both directions)."""
+    _, res = hop
+    shift = [f for f in res.findings if f["cause"] == "level_shift"]
+    assert shift, [f["cause"] for f in res.findings]
+    text = " ".join(shift[0]["actions"])
+    assert "both directions" in text and "polarisations" not in text
+
+
+def test_scenario_file_describes_a_directions_hop():
+    """A scenario file can ask for both directions and a step on one of them (the TOML keys are LinkSpec's)."""
+    import tomllib
+
+    from diag.scenarios import parse_scenario
+
+    text = """
+    name = "dirs"
+    start = "2026-06-08T00:00:00Z"
+    duration_h = 2
+    interval_s = 1
+    [[link]]
+    link_id = "DX-1"
+    frequency_ghz = 18.0
+    length_km = 8.0
+    polarization = "V"
+    threshold_dbm = -70
+    directions = true
+    direction_names = ["east>west", "west>east"]
+    [[link.level_shift]]
+    at_h = 1
+    step_db = 3
+    channels = ["west>east"]
+    """
+    scen = parse_scenario(tomllib.loads(text))
+    (spec,) = scen.links
+    assert spec.directions and list(spec.channels) == ["east>west", "west>east"]
+    (step,) = spec.effects
+    assert step.kind == "level_shift" and step.params["channels"] == ["west>east"]
+    with pytest.raises(InputError, match="unknown key"):
+        parse_scenario(tomllib.loads(text.replace('channels = ["west>east"]', 'lanes = ["west>east"]')))

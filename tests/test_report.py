@@ -239,3 +239,17 @@ def test_hop_that_could_not_be_analysed_is_listed_not_dropped(tmp_path):
     assert pd.read_csv(tmp_path / "events.csv").empty
     reader = pypdf.PdfReader(str(tmp_path / "report.pdf"))
     assert len(reader.pages) == 3 and "not analysed" in reader.pages[0].extract_text()
+
+
+def test_hop_without_deep_fades_draws_no_empty_legend(tmp_path, caplog):
+    """A hop whose exceedance table holds no positive percentage (nothing faded that deep): the chart says so, and
+    matplotlib is never asked for a legend without entries (it would draw an empty box and log a warning)."""
+    quiet = _sample_result("HOP-QUIET")
+    quiet.statistics = {"channels": {"H": {"exceedance": {
+        "depth_db": [3, 10, 20, 30], "all_percent": [0.0, 0.0, 0.0, 0.0], "multipath_percent": [0.0, 0.0, 0.0, 0.0],
+        "rayleigh_percent": [39.3, 9.5, 1.0, 0.1]}}}}
+    with caplog.at_level("WARNING"):
+        data = pdf_bytes([quiet])
+    assert not [r for r in caplog.records if "No artists with labels" in r.getMessage()]
+    text = " ".join(page.extract_text() for page in pypdf.PdfReader(io.BytesIO(data)).pages)
+    assert "No fade deep enough to plot" in text

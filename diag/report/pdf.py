@@ -549,7 +549,7 @@ def _page_timelines(fig, results: Sequence[LinkResult], state: dict) -> None:
         formatter = mdates.ConciseDateFormatter(locator)
         ax.xaxis.set_major_formatter(formatter)
         ax.xaxis.get_offset_text().set_fontsize(7)
-        if i == 0:
+        if i == 0 and ax.get_legend_handles_labels()[0]:   # an empty legend would draw an empty box
             ax.legend(fontsize=6.5, loc="lower left", ncol=3, frameon=True)
     handles = [Patch(facecolor=style.cause_color(c), edgecolor=style.INK if c == schema.NO_DATA else
                      style.cause_color(c), hatch=style.cause_hatch(c), alpha=0.5 if c != schema.NO_DATA else 1,
@@ -622,7 +622,11 @@ def _distribution(ax, results: Sequence[LinkResult]) -> None:
     ax.set_ylabel("% of observed time exceeded", fontsize=8)
     ax.tick_params(labelsize=7)
     ax.grid(color=style.GRID, lw=0.4, which="both")
-    ax.legend(fontsize=6.5, loc="upper right")
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=6.5, loc="upper right")
+    else:   # no curve to draw or name (nothing faded that deep): say so instead of an empty legend box
+        ax.text(0.5, 0.5, "No fade deep enough to plot in this period.", transform=ax.transAxes, ha="center",
+                va="center", fontsize=8, color=style.INK)
     ax.text(0.0, -0.2, _wrap(f"Hop {r.link.link_id}, channel {channel}; percentages of the observed time. A clear-"
             "air multipath tail falls about 10 dB per decade like the dashed line; a flatter tail points to another "
             "cause (rain, obstruction). The P.530 design curve is for the worst month of an average year.", 125),

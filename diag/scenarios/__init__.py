@@ -61,7 +61,7 @@ _EFFECT_PARAMS = {
     },
     "multipath": {"k_min", "k_max", "fade_rate_hz", "correlation", "repeat_days", "plateau"},
     "refractive": {"depth_db"},
-    "level_shift": {"step_db", "tilt_deg", "ramp_s"},
+    "level_shift": {"step_db", "tilt_deg", "ramp_s", "channels"},
     "drift": {"db_per_week"},
     "signal_loss": {"channels"},
     "gap": set(),
