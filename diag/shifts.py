@@ -246,26 +246,13 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     n = len(blocks)
     if n < 2 * w:
         return []
-    before, after = _window_levels(blocks, w, fade_trim_db=fade_trim_db)
-    diff = after - before
-    mag = np.where(np.isfinite(diff), np.abs(diff), 0.0)
-    candidates: list[int] = []
-    order = np.argsort(-mag, kind="stable")
-    taken = np.zeros(n + 1, dtype=bool)
-    for i in order:
-        if mag[i] < min_step_db:
-            break
-        if taken[max(0, i - w): i + w + 1].any():
-            continue
-        taken[i] = True
-        candidates.append(int(i))
-    # accept the largest candidates first; windows are bounded only by steps already accepted, so a rejected
-    # candidate (the start of a long fade) never shortens the evidence of a real step next to it
-    accepted: list[int] = []   # boundaries (block index) of accepted steps
-    found: dict[int, Step] = {}
-    for i in candidates:       # already in order of decreasing |diff|
-        prev = max([a for a in accepted if a < i], default=0)
-        nxt = min([a for a in accepted if a > i], default=n)
+    edge = max(2, int(round(min_edge_s / (block * interval_s))))
+    m = max(3, int(round(abrupt_s / interval_s)))
+    accepted: dict[int, int] = {}   # boundary (block index) of each accepted step -> its refined sample index
+
+    def judge(i: int, diff: np.ndarray, mag: np.ndarray, prev: int, nxt: int) -> tuple[int, int] | None:
+        """(boundary, refined sample index) of the step at candidate boundary ``i``, or None if it is not one;
+        ``prev`` and ``nxt`` are the neighbouring accepted boundaries (or the record's ends)."""
         # the two windows see the same step anywhere on a plateau of |diff|; its first maximum can sit a whole
         # window away from the step, so judge the candidate at the plateau's centre
         thr = 0.8 * mag[i]
@@ -280,43 +267,100 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
         old = clear_level_dbm(blocks[lo:i], fade_trim_db=fade_trim_db)
         new = clear_level_dbm(blocks[i:hi], fade_trim_db=fade_trim_db)
         if not (math.isfinite(old) and math.isfinite(new)):
-            continue
+            return None
         if abs(new - old) < max(min_step_db, abs(diff[i]) / 2):
-            continue  # not persistent: a long fade, not a step
+            return None  # not persistent: a long fade, not a step
         if max_step_db is not None and abs(new - old) > max_step_db:
-            continue  # a drop to (near) the receiver floor: loss of signal, not a level shift
-        # evidence on each side: one window, or at the very start / end of the record at least min_edge_s
-        edge = max(2, int(round(min_edge_s / (block * interval_s))))
-        if (hi - i) < (edge if hi == n else w) or (i - lo) < (edge if lo == 0 else w):
-            continue
-        if _flat_fraction(blocks[i:hi], new, abs(new - old), fade_trim_db) < min_flat_fraction:
-            continue  # the 'new level' wanders (a long rain fade), not a step
-        # refine at full resolution over the plateau, widened by one block either side
-        span_lo = max(prev * block, (a - 1) * block)
-        span_hi = min(nxt * block, (b + 1) * block, len(values))
+            return None  # a drop to (near) the receiver floor: loss of signal, not a level shift
+        # refine at full resolution over the plateau widened by one window either side: two steps of the same
+        # sign within one persistence window (old/new are then the levels before the first and after the last)
+        # put the plateau between them, so the split between the outer levels may lie a window away from it
+        span_lo = max(prev * block, (a - w) * block)
+        span_hi = min(nxt * block, (b + w) * block, len(values))
         k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
+        # the step's own sides: the clear levels one window either side of the refined time (up to a persistence
+        # window where an accepted step bounds that side).  Over a persistence window a second step of the same
+        # sign (not accepted yet) adds to this one; these levels see this step only, and the remaining part is
+        # found when the segments either side are examined again
+        kb = min(max(int(round(k / block)), prev + 1), nxt - 1)
+        # evidence on each side of the refined time (the plateau's centre can sit far from it when rain fills the
+        # window on one side): one window, or at the very start / end of the record at least min_edge_s
+        lo, hi = max(prev, kb - p), min(nxt, kb + p)
+        if (hi - kb) < (edge if hi == n else w) or (kb - lo) < (edge if lo == 0 else w):
+            return None
+        old = clear_level_dbm(blocks[max(prev, kb - (p if prev in accepted else w)):kb], fade_trim_db=fade_trim_db)
+        new = clear_level_dbm(blocks[kb:min(nxt, kb + (p if nxt in accepted else w))], fade_trim_db=fade_trim_db)
+        if not (math.isfinite(old) and math.isfinite(new)) or abs(new - old) < min_step_db:
+            return None
+        if _flat_fraction(blocks[kb:min(nxt, kb + w)], new, abs(new - old), fade_trim_db) < min_flat_fraction:
+            return None  # the 'new level' wanders (a long rain fade), not a step
         # abruptness: the clear level just before and just after must already differ by most of the step
         # (the nearest samples that are not faded below their side's level: rain right before a step, or
         # masked samples, must not hide it)
-        m = max(3, int(round(abrupt_s / interval_s)))
         span = p * block
         near_old = _near_clear(values[max(prev * block, k - span):k][::-1], old, m, fade_trim_db)
         near_new = _near_clear(values[k:min(nxt * block, k + span)], new, m, fade_trim_db)
         if not (math.isfinite(near_old) and math.isfinite(near_new)):
-            continue
+            return None
         if abs(near_new - near_old) < min_abrupt_fraction * abs(new - old) or \
                 np.sign(near_new - near_old) != np.sign(new - old):
-            continue  # a slow change (the end of a refractive fade, a drift), not a step
-        lo_s = max(prev * block, k - p * block)
-        hi_s = min(nxt * block, k + p * block)
+            return None  # a slow change (the end of a refractive fade, a drift), not a step
+        return kb, k
+
+    # Candidates are tried largest first; windows are bounded only by steps already accepted, so a rejected
+    # candidate (the start of a long fade) never shortens the evidence of a real step next to it.  Once steps are
+    # accepted, each segment between them is examined again with windows cut at its ends: a candidate there may
+    # have been suppressed by (lain within one window of) a larger one, e.g. two steps 3 h apart with a rain fade
+    # between them make the largest two-window difference (their sum) fall between them.
+    segments = [(0, n)]
+    while segments:
+        new_found = False
+        for s, e in segments:
+            if s == 0 and e == n:
+                before, after = _window_levels(blocks, w, fade_trim_db=fade_trim_db)
+            else:
+                seg_before, seg_after = _window_levels(blocks[s:e], w, fade_trim_db=fade_trim_db)
+                before = np.full(n + 1, np.nan)
+                after = np.full(n + 1, np.nan)
+                before[s:e + 1], after[s:e + 1] = seg_before, seg_after
+            diff = after - before
+            mag = np.where(np.isfinite(diff), np.abs(diff), 0.0)
+            candidates: list[int] = []
+            order = np.argsort(-mag, kind="stable")
+            taken = np.zeros(n + 1, dtype=bool)
+            for i in order:
+                if mag[i] < min_step_db:
+                    break
+                if taken[max(0, i - w): i + w + 1].any():
+                    continue
+                taken[i] = True
+                candidates.append(int(i))
+            for i in candidates:       # already in order of decreasing |diff|
+                prev = max([a for a in accepted if a < i], default=0)
+                nxt = min([a for a in accepted if a > i], default=n)
+                if i == prev:
+                    continue
+                got = judge(i, diff, mag, prev, nxt)
+                if got is not None and got[0] not in accepted:
+                    accepted[got[0]] = got[1]
+                    new_found = True
+        bounds = [0, *sorted(accepted), n]
+        segments = [(x, y) for x, y in zip(bounds[:-1], bounds[1:]) if y - x >= 2 * min(w, edge)] \
+            if new_found else []
+    # sizes: trimmed means over up to a persistence window either side, bounded by the neighbouring steps
+    ks = [accepted[kb] for kb in sorted(accepted)]
+    steps = []
+    for j, k in enumerate(ks):
+        lo_s = max(ks[j - 1] if j else 0, k - p * block)
+        hi_s = min(ks[j + 1] if j + 1 < len(ks) else len(values), k + p * block)
         old_s = clear_mean_dbm(values[lo_s:k], fade_trim_db=fade_trim_db)
         new_s = clear_mean_dbm(values[k:hi_s], fade_trim_db=fade_trim_db)
         if not (math.isfinite(old_s) and math.isfinite(new_s)):
-            old_s, new_s = old, new
-        accepted.append(i)
-        found[i] = Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
-                        after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s))
-    steps = [found[i] for i in sorted(found)]
+            kb = sorted(accepted)[j]
+            old_s = clear_level_dbm(blocks[max(0, kb - w):kb], fade_trim_db=fade_trim_db)
+            new_s = clear_level_dbm(blocks[kb:kb + w], fade_trim_db=fade_trim_db)
+        steps.append(Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
+                          after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s)))
     return steps
 
 
