@@ -35,7 +35,12 @@ and the first that fires wins.  Rain-vs-refractive points turn into a confidence
       fades are broad and symmetric; an event under 15 min is too short for refraction; a fade deeper than
       ``DEEP_RAIN_DB`` above 10 GHz with a plausible rain rate points to rain; a shallow fade shorter than
       ``MIN_RAIN_S_PER_KM`` x path length is not rain (multipath, or unknown when both polarisations fade
-      together);
+      together); on a hop of ``SHORT_HOP_KM`` or less, a fade no deeper than ``WET_FADE_MAX_DB`` gets no
+      refractive point from a broad profile or a symmetric onset/recovery: refraction cannot fade so short a hop
+      by several dB (Earth-bulge and ray-tilt geometry, see the constants), while a wet-antenna loss (radome water
+      film, nearly independent of path length) rises with the rain and dries off slowly in a plateau that these
+      tests would read as refractive (the short hop itself is no rain evidence: with no other point the fade is
+      unknown);
    d. coarse samples (1-min logs), where the fast fading itself is not resolved: a level more than 2 dB above the
       reference within 30 min of a fade under 10 dB means two-sided clear-air fading (multipath, confidence 0.5);
       no enhancement above 1 dB within 30 min counts half a point for rain (rain only lowers the level); a shallow
@@ -81,6 +86,17 @@ DEEP_RAIN_DB = 25.0
 # shortest rain fade per km of path: a cell advected at ~15-30 m/s needs about 30 s per km to cross a path obliquely
 # (common practice, from memory)
 MIN_RAIN_S_PER_KM = 30.0
+# hops up to this length cannot fade slowly by refraction: between k = 4/3 and an extreme k = 1/3 the midpoint
+# Earth bulge of a 2-km hop moves by ~0.18 m (d^2/8 x (1/k2 - 1/k1) / 6371 km), ~7 % of the first Fresnel radius
+# (2.45 m at 25 GHz), and a refractivity-gradient change of 1000 N/km tilts the rays at the antennas by
+# d x dG / 2 = 1 mrad (0.06 deg) against beamwidths of 1-3 deg; P.530's multipath occurrence grows as d^3.4
+# (geometry; the extreme k and gradient are from memory, the 2-km limit is a rounded choice, not a published one)
+SHORT_HOP_KM = 2.0
+# wet-antenna loss of both antennas together reaches a few dB, up to about 6-8 dB at 20-40 GHz (from memory: Leijnse
+# et al. 2008; Schleiss et al. 2013; van Leth et al., Atmos. Meas. Tech. 11, 2018); a fade this shallow on a short
+# hop can be the radome water film and light rain alone, whose flat-topped, slowly drying profile the shape tests
+# would read as refractive
+WET_FADE_MAX_DB = 8.0
 
 
 def _f(value) -> float:
@@ -258,6 +274,10 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     if not stats and step_s <= 10.0 and dur < 900.0:  # (at coarser sampling multipath could not be ruled out)
         rain_pts += 1.5
         notes.append("too short for a refractive fade")
+    # on a short hop refraction cannot fade the level by several dB, so a broad or symmetric profile of a fade in
+    # the wet-antenna range is no evidence for it (a wet radome gives a plateau that dries off slowly)
+    wet_film = link.length_km <= SHORT_HOP_KM and peak <= WET_FADE_MAX_DB
+    uncounted = False   # a profile test set aside for that reason (with nothing else, the verdict is unknown)
     if stats:
         ratio = _f(row["avg_to_min_ratio"])
         if math.isfinite(ratio) and dur >= 1800.0:
@@ -271,6 +291,10 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         if half < 0.35:
             rain_pts += 1.0
             notes.append(f"peaked profile ({half:.0%} of the time above half the peak)")
+        elif half > 0.42 and wet_film:
+            uncounted = True
+            notes.append(f"broad profile ({half:.0%} of the time above half the peak) not counted: "
+                         f"{link.length_km:g}-km hop, too short for refractive fading")
         elif half > 0.42:
             refr_pts += 1.0
             notes.append(f"broad profile ({half:.0%} of the time above half the peak)")
@@ -280,6 +304,9 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         if asym >= 1.5:
             rain_pts += 1.0
             notes.append(f"onset {asym:.1f}x faster than the recovery")
+        elif asym <= 1.25 and wet_film:
+            uncounted = True
+            notes.append(f"onset and recovery alike, not counted on a {link.length_km:g}-km hop")
         elif asym <= 1.25:
             refr_pts += 1.0
             notes.append(f"onset and recovery alike ({slope * 60:.2f} and {slope_out * 60:.2f} dB/min)")
@@ -295,6 +322,9 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
         return (S.UNKNOWN, 0.3, f"smooth {shape} fade, peak {peak_rep:.1f} dB: too few samples "
                 f"({dur / step_s:.0f}) to judge its shape and no deciding evidence"
                 + (f" ({', '.join(notes)})" if notes else ""))
+    if total == 0 and uncounted:
+        return (S.UNKNOWN, 0.3, f"smooth {shape} fade, peak {peak_rep:.1f} dB: no deciding evidence ("
+                + ", ".join(notes) + ")")
     gauge_dry = math.isfinite(gauge) and gauge < 0.5
     if gauge_dry and rain_pts >= refr_pts and 0.5 + 0.45 * (rain_pts - refr_pts) / max(total, 3.0) < 0.7:
         # a weak rain call with a dry gauge: take the best non-rain cause (the gauge is a point; say so)
