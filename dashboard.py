@@ -1,8 +1,8 @@
 """diag dashboard: drop in a hop's receive-level logs, see why it faded and what each cause cost.
 
 Run it with ``.venv/bin/streamlit run dashboard.py`` (settings in ``.streamlit/config.toml``: loopback only, upload
-limit).  The page only draws: reading (``diag.ingest``), analysis (``diag.pipeline``), outage accounting and the
-report files (``diag.report``) come from the library; ``diag.views`` shapes the tables the charts take.
+limit).  The page only draws: reading (``diag.read.ingest``), analysis (``diag.pipeline``), outage accounting and the
+report files (``diag.report``) come from the library; ``diag.report.views`` shapes the tables the charts take.
 
 Nothing from an uploaded file is executed or unpickled: uploads are bytes handed to the CSV reader, and results
 stay in this process's memory.  The page writes no file.
@@ -25,9 +25,10 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from diag import __version__, schema, views
+from diag import __version__, schema
 from diag.errors import InputError
 from diag.links import OPTIONAL, Link, make_link, match_link, read_links_table
+from diag.report import views
 
 LOG = logging.getLogger("diag.dashboard")
 ROOT = Path(__file__).resolve().parent
@@ -78,7 +79,7 @@ def _analysis_store() -> tuple[OrderedDict, threading.Lock]:
 @st.cache_data(show_spinner=False, max_entries=64)
 def read_report(name: str, data: bytes, tz: str, mapping_json: str) -> dict:
     """What the reader detected in one file (its report as a dict); raises ``InputError`` for a bad file."""
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     mapping = json.loads(mapping_json) if mapping_json else None
     return read_log(data, name=name, tz=tz or None, mapping=mapping).report.to_dict()
@@ -270,7 +271,7 @@ def _link_without_form(hop: str, base: Link | None) -> Link | None:
 
 
 def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
-    """Correct what the reader detected: a mapping (``diag.ingest`` keys) applied to every file of this upload."""
+    """Correct what the reader detected: a mapping (``diag.read.ingest`` keys) applied to every file of this upload."""
     columns = sorted({c for r in reports.values() for c in [*(r.get("columns") or {}),
                                                             *(r.get("ignored_columns") or [])]})
     current = st.session_state.get("mapping") or {}
@@ -308,7 +309,7 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
         st.session_state.pop("mapping", None)
         st.rerun()
     if applied:
-        from diag.ingest import mapping_from_options
+        from diag.read.ingest import mapping_from_options
 
         lines = [re.sub(r"\s*([=:])\s*", r"\1", line.strip()) for line in signals_text.splitlines() if line.strip()]
         try:

@@ -1,6 +1,7 @@
 """Accuracy of the diagnosis on labelled simulator output, next to a simple rule of thumb.
 
-Scenarios come from :func:`diag.simulate.random_scenario`.  The rules in :mod:`diag.classify` were tuned ONLY on
+Scenarios come from :func:`diag.sim.simulate.random_scenario`.  The rules in :mod:`diag.analysis.classify` were tuned
+ONLY on
 the seeds in ``TUNING_SEEDS``; the figures reported in the README come from ``EVALUATION_SEEDS`` (disjoint, never
 looked at while tuning).  Run::
 
@@ -35,7 +36,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from diag import schema as S  # noqa: E402
 from diag.pipeline import analyze_link  # noqa: E402
-from diag.simulate import aggregate_statistics, random_scenario, simulate_link  # noqa: E402
+from diag.sim.simulate import aggregate_statistics, random_scenario, simulate_link  # noqa: E402
 
 TUNING_SEEDS = (101, 102, 103, 104, 105, 106)
 EVALUATION_SEEDS = (9001, 9002, 9003, 9004, 9005, 9006, 9007, 9008)

@@ -6,7 +6,7 @@ the file (issue 8).  The analysis is timed as it runs by default (independent st
 thread (``threads=1``, as inside a Dask worker), so the gain from the threads is shown apart.  The week is
 simulated (dual-polarised 23 GHz hop with rain, multipath, a level shift and a drop-out) and written as a 1-s
 wide CSV, gzip'd and plain (gzip makes reading slower; the plain CSV is the harder comparison), then read with
-``diag.ingest.read_log`` and analysed; each step is timed ``--repeat`` times (reads and analyses interleaved) and
+``diag.read.ingest.read_log`` and analysed; each step is timed ``--repeat`` times (reads and analyses interleaved) and
 the best run is reported, with the ratios analysis / read printed side by side.  ``--stages`` adds the CPU
 time of each analysis stage.  Run::
 
@@ -22,10 +22,10 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from diag.ingest import read_log  # noqa: E402
 from diag.pipeline import analyze_link  # noqa: E402
-from diag.simulate import Effect, LinkSpec, simulate_link  # noqa: E402
-from diag.writers import write_log  # noqa: E402
+from diag.read.ingest import read_log  # noqa: E402
+from diag.sim.log_shapes import write_log  # noqa: E402
+from diag.sim.simulate import Effect, LinkSpec, simulate_link  # noqa: E402
 
 DAY = 86400.0
 
@@ -42,9 +42,10 @@ def week_spec() -> LinkSpec:
 
 STAGES = (("diag.pipeline", "channel_grids", "grid"), ("diag.pipeline", "add_reference", "reference + steps"),
           ("diag.pipeline", "find_events", "events"), ("diag.pipeline", "classify_events", "causes"),
-          ("diag.pipeline", "paint_series", "paint"), ("diag.stats", "link_statistics", "statistics"),
-          ("diag.crosspol", "cross_polar", "cross-polar"), ("diag.shifts", "level_changes", "level changes"),
-          ("diag.outage", "account_link", "outage"), ("diag.findings", "rank_findings", "findings"))
+          ("diag.pipeline", "paint_series", "paint"), ("diag.analysis.fading_stats", "link_statistics", "statistics"),
+          ("diag.analysis.crosspol", "cross_polar", "cross-polar"),
+          ("diag.analysis.steps", "level_changes", "level changes"),
+          ("diag.analysis.outage", "account_link", "outage"), ("diag.analysis.findings", "rank_findings", "findings"))
 
 
 def stage_cpu(table, link, runs: int) -> dict[str, float]:

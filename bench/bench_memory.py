@@ -8,7 +8,7 @@ accounting of THAT child (``os.wait4`` -> ``ru_maxrss``), so the steps' peaks ar
 
   baseline  import diag (numpy, pandas, pyarrow, scipy ...) and exit: the floor every step pays
   write     generate the log file, vectorised (numpy + pyarrow CSV writer)
-  read      diag.ingest.read_log(file)  -> normalised table (what `diag ingest` does)
+  read      diag.read.ingest.read_log(file)  -> normalised table (what `diag ingest` does)
   analyze   read_log + diag.pipeline.analyze_link + the four table/JSON outputs (what `diag analyze` does, less the
             PDF drawing)
   cli       `python -m diag analyze FILE --freq-ghz ... --out DIR` in-process: everything, PDF included
@@ -109,8 +109,8 @@ def _step(name: str, path: str) -> dict:
     warnings.simplefilter("ignore")
     out: dict = {}
     if name == "baseline":
-        import diag.ingest  # noqa: F401
         import diag.pipeline  # noqa: F401
+        import diag.read.ingest  # noqa: F401
         import diag.report  # noqa: F401
         return out
     if name == "write":
@@ -124,7 +124,7 @@ def _step(name: str, path: str) -> dict:
             out["status"] = rc
             out["outputs"] = {p.name: p.stat().st_size for p in Path(out_dir).iterdir()}
         return out
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     read = read_log(path)
     rep = read.report

@@ -4,7 +4,8 @@ Sections (``--only`` picks some):
 
 ``read``      reader speed: ``bench/bench_read.py`` (diag.read_log vs pandas.read_csv vs pyarrow's CSV reader).
 ``analysis``  one link-week at 1 s, two channels (simulated, written as a wide CSV): time to analyse it
-              (``diag.pipeline.analyze_link``) against the time to read it (``diag.ingest.read_log``); the target is
+              (``diag.pipeline.analyze_link``) against the time to read it (``diag.read.ingest.read_log``); the target
+              is
               analysis no slower than reading.  Writing that hop's outputs (``diag.report.write_outputs``) is timed
               apart.
 ``scaling``   ``diag.batch.run`` on a simulated network of one-week hops: ``--stats-hops`` of 15-minute
@@ -17,7 +18,7 @@ Sections (``--only`` picks some):
 To stay under ~10 minutes on a 2-core machine the default network is scaled down (``--stats-hops 40
 --fast-hops 2``, 3 alternated rounds of 1 and 2 workers, growth 10/20/40 hops); the issue's full size is
 ``--stats-hops 200 --fast-hops 10 --sizes 50 100 200``.  Hops are simulated with
-``diag.simulate`` (``random_scenario``); to keep generation short, ``--distinct`` different hops are simulated and
+``diag.sim.simulate`` (``random_scenario``); to keep generation short, ``--distinct`` different hops are simulated and
 repeated under new hop ids (the analysis cost does not depend on the id).
 
     .venv/bin/python bench/bench_network.py [--only read analysis scaling kfactor] [--markdown FILE]
@@ -79,7 +80,7 @@ def machine() -> str:
 # --- simulated data ---------------------------------------------------------------------------------------------
 def _week_1s(seed: int = 11):
     """One week at 1 s on a dual-polarised 23 GHz hop: two rain storms, one night of multipath."""
-    from diag.simulate import Effect, LinkSpec, simulate_link
+    from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
     spec = LinkSpec("Bench-Week", 23.0, 12.0, "dual", -68.0, nominal_dbm=-38.0, duration_s=7 * DAY_S,
                     start="2031-05-05T00:00:00Z",
@@ -93,8 +94,8 @@ def make_network(folder: Path, n_stats: int, n_fast: int, *, distinct: int = 12,
                  seed: int = 2031) -> list:
     """Write ``n_stats`` one-week hops of 15-min statistics and ``n_fast`` at 1 s into ``folder`` (one CSV file per
     hop, the hop id in the file name); return the links."""
-    from diag.simulate import aggregate_statistics, random_scenario, simulate_scenario
-    from diag.writers import write_stats, write_wide_iso
+    from diag.sim.log_shapes import write_stats, write_wide_iso
+    from diag.sim.simulate import aggregate_statistics, random_scenario, simulate_scenario
 
     folder.mkdir(parents=True, exist_ok=True)
     links = []
@@ -207,10 +208,10 @@ def _hop_memory(path: Path, link, warm_path: Path) -> dict:
 
 
 def bench_analysis(report: list[str], repeat: int) -> None:
-    from diag.ingest import read_log
     from diag.pipeline import analyze_link
+    from diag.read.ingest import read_log
     from diag.report import write_outputs
-    from diag.writers import write_wide_iso
+    from diag.sim.log_shapes import write_wide_iso
 
     sim = _week_1s()
     with tempfile.TemporaryDirectory() as tmp:
@@ -309,10 +310,11 @@ def _warm_up() -> None:
     import scipy.stats  # noqa: F401
 
     import diag.batch  # noqa: F401
-    import diag.ingest  # noqa: F401
     import diag.pipeline  # noqa: F401
+    import diag.read.ingest  # noqa: F401
     import diag.report  # noqa: F401
-    for name in ("stats", "crosspol", "shifts", "outage", "findings"):
+    for name in ("analysis.fading_stats", "analysis.crosspol", "analysis.steps", "analysis.outage",
+                 "analysis.findings"):
         __import__(f"diag.{name}")
 
 
@@ -341,7 +343,7 @@ def _timed_batch(files, links, workers: int, out: Path, hop_pdf: bool = False) -
 
 def bench_scaling(report: list[str], n_stats: int, n_fast: int, sizes: list[int], distinct: int,
                   hop_pdf: bool, n_rounds: int) -> None:
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp) / "logs"

@@ -44,7 +44,7 @@ def write_file(path: Path, rows: int, seed: int = 7) -> int:
 
 # name -> (imports, done before the clock starts; the timed statement)
 READERS = {
-    "diag.read_log": ("from diag.ingest import read_log", "obj = read_log(PATH); n = obj.report.rows_read"),
+    "diag.read_log": ("from diag.read.ingest import read_log", "obj = read_log(PATH); n = obj.report.rows_read"),
     "pandas.read_csv": ("import pandas as pd", "obj = pd.read_csv(PATH); n = len(obj)"),
     "pandas.read_csv + to_datetime": ("import pandas as pd", "obj = pd.read_csv(PATH); "
                                       "obj['Time'] = pd.to_datetime(obj['Time'], format='ISO8601'); n = len(obj)"),

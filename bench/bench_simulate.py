@@ -14,8 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from diag.simulate import Effect, LinkSpec, simulate_link
-from diag.writers import write_log
+from diag.sim.log_shapes import write_log
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 WEEK_S = 7 * 86400
 

@@ -35,7 +35,7 @@ def _run(*args: str, cwd: Path) -> None:
 
 def output_hashes(work: Path) -> dict[str, str]:
     """``{"<case>/<file>": sha256}`` for the demo and every built-in scenario, analysed under ``work``."""
-    from diag.scenarios import builtin_names
+    from diag.sim.scenarios import builtin_names
 
     cases = {"demo_logs": (ROOT / "demo_logs" / "logs", ROOT / "demo_logs" / "links.csv")}
     for name in builtin_names():

@@ -3,7 +3,8 @@
 ``run(inputs, links, out_dir=...)`` is the whole job.  It starts a local Dask cluster (``workers`` processes with one
 thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"``), then
 
-1. submits one *read* task per input file; each task parses its file (``diag.ingest.read_log``), gives every row its
+1. submits one *read* task per input file; each task parses its file (``diag.read.ingest.read_log``), gives every row
+its
    hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links table's only
    row) and keeps the table on the worker, split by hop.  The driver receives only the list of hops in each file
    and the reader's row accounting.
@@ -15,7 +16,7 @@ thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
 
-A Parquet store written by ``ingest --out`` (``diag.store``) may be given instead of (or besides) log files: then
+A Parquet store written by ``ingest --out`` (``diag.read.store``) may be given instead of (or besides) log files: then
 each hop task reads only its own hop's partition from the store, and no data passes through the driver at all.
 
 A hop that cannot be analysed (a file that cannot be read, no row in the links table, no data, an analysis error)
@@ -35,10 +36,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from diag import schema, store
+from diag import schema
 from diag.errors import InputError
-from diag.ingest import expand_paths
 from diag.links import Link, match_link
+from diag.read import store
+from diag.read.ingest import expand_paths
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -126,12 +128,12 @@ def _one_line(exc: BaseException) -> str:
 
 
 def _is_store(path: Path) -> bool:
-    """A store folder (``diag.store``), whose hops are read one by one."""
+    """A store folder (``diag.read.store``), whose hops are read one by one."""
     return path.is_dir() and bool(store.is_store(path))
 
 
 def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
-    """Split the inputs (expanded by ``diag.ingest.expand_paths``) into log files and Parquet stores, which are
+    """Split the inputs (expanded by ``diag.read.ingest.expand_paths``) into log files and Parquet stores, which are
     read hop by hop.  Raises ``InputError`` for a path that does not exist or an empty input."""
     paths = expand_paths(inputs)
     stores = [path for path in paths if _is_store(path)]
@@ -142,7 +144,7 @@ def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list
 
 
 def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     result = read_log(path, tz=tz, mapping=mapping)
     report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
@@ -175,7 +177,7 @@ def _sorted(table: pd.DataFrame) -> pd.DataFrame:
 
 def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
     """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes, and the
-    number of values dropped because an earlier file already held them (same rule as ``diag.ingest.read_logs``:
+    number of values dropped because an earlier file already held them (same rule as ``diag.read.ingest.read_logs``:
     same link, channel, quantity, stat and time -> the first file's value is kept)."""
     parts = [t for t in tables if t is not None and len(t)]
     if not parts:
@@ -249,7 +251,7 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
 
 
 def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
-    from diag.store import read_store
+    from diag.read.store import read_store
 
     table = read_store(store_path, link_id=store_id)
     if store_id != hop:
@@ -308,7 +310,7 @@ def _num(mapping, key: str) -> float:
 
 def bounds(mapping, key: str) -> tuple[float, float]:
     """(low, high) of an outage figure: ``key_lo``/``key_hi`` when the accounting gives bounds (coarse logs,
-    15-min statistics; see ``diag.outage``), else the exact ``key`` twice."""
+    15-min statistics; see ``diag.analysis.outage``), else the exact ``key`` twice."""
     exact, lo, hi = _num(mapping, key), _num(mapping, f"{key}_lo"), _num(mapping, f"{key}_hi")
     if math.isfinite(lo) and math.isfinite(hi):
         return lo, hi
@@ -330,7 +332,8 @@ def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | Non
     """The network table: one row per hop, worst first.
 
     Outage = unavailable time (ITU-T G.826 sense) in minutes.  1-s logs give it exactly (``exact``; low = high);
-    coarser logs and 15-min statistics give bounds (``diag.outage``).  Hops are ranked by the upper bound (worst
+    coarser logs and 15-min statistics give bounds (``diag.analysis.outage``).  Hops are ranked by the upper bound
+    (worst
     case), then the lower bound, then minutes below threshold (upper bound); no number between the bounds is made
     up.  Hops that could not be analysed come last, with their error and no rank."""
     rows = []
@@ -636,7 +639,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     # stores: only the list of hops is read here; each hop task reads its own partition
     store_hops: dict[str, list[tuple[str, str]]] = {}
     for store_path in stores:
-        from diag.store import store_links
+        from diag.read.store import store_links
 
         for store_id in store_links(store_path):
             carried = None if store_id in ("", schema.DEFAULT_LINK_ID) else store_id

@@ -4,10 +4,14 @@
 ``analyze_tables(table, links)``  normalised rows of several hops -> one result per hop found in the table
 ``analyze_files(sources, links=)`` log files (paths, folders, or ``(name, bytes)`` pairs) -> one result per hop
 
-Stages for one hop: regular grid per channel and clear-sky reference (:mod:`diag.baseline`, with the level steps
-of :mod:`diag.shifts`) -> fade events and features (:mod:`diag.events`) -> causes (:mod:`diag.classify`) ->
-per-sample cause on the grid -> fading statistics (:mod:`diag.stats`), cross-polar results (:mod:`diag.crosspol`),
-level changes (:mod:`diag.shifts`), outage (:mod:`diag.outage`), then the ranked findings (:mod:`diag.findings`),
+Stages for one hop: regular grid per channel and clear-sky reference (:mod:`diag.analysis.reference`, with the level
+steps
+of :mod:`diag.analysis.steps`) -> fade events and features (:mod:`diag.analysis.events`) -> causes
+(:mod:`diag.analysis.classify`) ->
+per-sample cause on the grid -> fading statistics (:mod:`diag.analysis.fading_stats`), cross-polar results
+(:mod:`diag.analysis.crosspol`),
+level changes (:mod:`diag.analysis.steps`), outage (:mod:`diag.analysis.outage`), then the ranked findings
+(:mod:`diag.analysis.findings`),
 which read all of these.
 """
 from __future__ import annotations
@@ -24,10 +28,10 @@ from pathlib import Path
 import pandas as pd
 
 from diag import schema as S
-from diag.baseline import AnalysisConfig, add_reference, channel_grids, level_shift_spans
-from diag.classify import classify_events
+from diag.analysis.classify import classify_events
+from diag.analysis.events import find_events, paint_series
+from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
 from diag.errors import InputError
-from diag.events import find_events, paint_series
 from diag.links import Link, match_link
 from diag.results import LinkResult
 
@@ -51,7 +55,7 @@ def _skipped_for_link(link: Link) -> list[str]:
 def _load_gauge(gauge):
     if gauge is None or isinstance(gauge, pd.DataFrame):
         return gauge
-    from diag.gauge import read_gauge
+    from diag.read.gauge import read_gauge
 
     if isinstance(gauge, tuple):
         name, data = gauge
@@ -59,11 +63,16 @@ def _load_gauge(gauge):
     return read_gauge(gauge)
 
 
+_STAGE_MODULES = {"stats": "diag.analysis.fading_stats", "crosspol": "diag.analysis.crosspol",
+                  "shifts": "diag.analysis.steps", "outage": "diag.analysis.outage",
+                  "findings": "diag.analysis.findings"}
+
+
 def _attempt(module: str, function: str, result: LinkResult) -> tuple:
     """``(diag.<module>.<function>(result), None)``, or ``(None, why)`` when it failed (logged); InputError rises.
 
     Touches nothing shared, so the independent stages can run in threads (see :func:`analyze_link`)."""
-    mod = importlib.import_module(f"diag.{module}")
+    mod = importlib.import_module(_STAGE_MODULES[module])
     try:
         return getattr(mod, function)(result), None
     except InputError:
@@ -148,7 +157,7 @@ def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | No
                  ingest: dict | None = None, threads: int | None = None) -> LinkResult:
     """Analyse the normalised rows of ONE hop (see the module docstring for the stages).
 
-    ``gauge``: a rain-gauge table from :func:`diag.gauge.read_gauge`, or a path / ``(name, bytes)`` to read.
+    ``gauge``: a rain-gauge table from :func:`diag.read.gauge.read_gauge`, or a path / ``(name, bytes)`` to read.
     ``threads``: threads for the independent stages (statistics, cross-polar, level changes, outage); None =
     :func:`default_threads`.  The result is the same for any number.
     Raises ``InputError`` when the rows hold no receive level.
@@ -180,7 +189,7 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
     result.skipped = _skipped_for_link(link)
     if gauge_table is not None and len(events):
-        from diag import gauge as gauge_mod
+        from diag.read import gauge as gauge_mod
 
         checked = gauge_mod.check_rain_verdicts(events, gauge_table)
         result.events = pd.concat([events, checked], axis=1)
@@ -224,9 +233,9 @@ def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: Analys
 
 
 def expand_sources(sources: Iterable) -> list:
-    """Paths (expanded by ``diag.ingest.expand_paths``: folders give their logs, stores stay whole) and
+    """Paths (expanded by ``diag.read.ingest.expand_paths``: folders give their logs, stores stay whole) and
     ``(name, bytes)`` pairs, in the order given."""
-    from diag.ingest import expand_paths
+    from diag.read.ingest import expand_paths
 
     out: list = []
     for source in sources:
@@ -245,7 +254,7 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     else to the table's only row (:func:`diag.links.match_link`).  ``progress(done, total, message)`` is called
     after each file read and each hop analysed.
     """
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     items = expand_sources(sources)
     gauge_table = _load_gauge(gauge)

@@ -2,7 +2,7 @@
 
 ``ChannelSeries``  one channel of one hop on a regular time grid, after the clear-sky reference is removed.
 ``LinkResult``     everything the analysis found for one hop; the report writers, the dashboard and ``batch`` read it.
-``OutageResult``   the error-performance accounting of one hop (filled by ``diag.outage``).
+``OutageResult``   the error-performance accounting of one hop (filled by ``diag.analysis.outage``).
 """
 from __future__ import annotations
 

@@ -1,6 +1,6 @@
 """Test support for the STATS tests: a LinkResult built from a simulated hop's ground truth.
 
-The attenuation, cause and event of every sample come from diag.simulate's truth (not from the diagnosis stages),
+The attenuation, cause and event of every sample come from diag.sim.simulate's truth (not from the diagnosis stages),
 so the statistics modules are tested on their own.
 """
 import numpy as np

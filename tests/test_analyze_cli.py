@@ -9,9 +9,9 @@ import pytest
 
 from diag import schema as S
 from diag.cli import main
-from diag.scenarios import load_scenario
-from diag.simulate import simulate_scenario
-from diag.writers import write_scenario
+from diag.sim.log_shapes import write_scenario
+from diag.sim.scenarios import load_scenario
+from diag.sim.simulate import simulate_scenario
 
 
 @pytest.fixture(scope="module")

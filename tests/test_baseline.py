@@ -1,4 +1,4 @@
-"""Clear-sky reference, attenuation and ATPC compensation (diag.baseline) on labelled simulator output.
+"""Clear-sky reference, attenuation and ATPC compensation (diag.analysis.reference) on labelled simulator output.
 
 The simulator's truth (per-sample attenuation by cause) is the reference; the methods themselves are common
 practice for receive-level logs (robust rolling reference: Schleiss & Berne, IEEE GRSL 7:611-615, 2010).
@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.baseline import AnalysisConfig, add_reference, channel_grids, level_shift_spans
-from diag.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
+from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
+from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
 
 DAY = 86400.0
 
@@ -135,7 +135,7 @@ def test_gaps_are_no_data_and_grid_step_from_samples():
 
 def test_gap_free_rows_take_the_slice_path_with_the_same_positions():
     """Rows one step apart from a grid point on are placed as a slice; the values land where rounding puts them."""
-    from diag.baseline import _place, _positions
+    from diag.analysis.reference import _place, _positions
 
     step = 1_000_000_000
     t0 = 1_700_000_000 * step

@@ -2,7 +2,7 @@
 hop, exactly what ``analyze`` gives when run on each hop alone; a hop with a broken file is reported and the rest
 complete; the command line writes the network files and answers bad input with status 2.
 
-Data: ``diag.simulate.random_scenario`` (invented hops), 1 day at 60-s samples aggregated to 15-minute
+Data: ``diag.sim.simulate.random_scenario`` (invented hops), 1 day at 60-s samples aggregated to 15-minute
 min/avg/max statistics (``aggregate_statistics``) and written in the statistics CSV shape, so the test stays fast.
 The reference for "the same results" is the serial path of ``analyze``: ``diag.pipeline.analyze_files`` on the
 hop's own file, then ``diag.report.write_outputs``.
@@ -22,8 +22,8 @@ from diag import batch, schema
 from diag.cli import main as cli_main
 from diag.pipeline import analyze_files
 from diag.report import events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes, outage_summary_csv_bytes
-from diag.simulate import aggregate_statistics, random_scenario, simulate_scenario
-from diag.writers import write_stats
+from diag.sim.log_shapes import write_stats
+from diag.sim.simulate import aggregate_statistics, random_scenario, simulate_scenario
 
 N_HOPS = 20
 BROKEN = "Fenwick-07"      # gets a second file that is not a log at all

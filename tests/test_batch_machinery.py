@@ -176,7 +176,7 @@ def test_single_hop_file_takes_the_hop_named_in_its_file_name(tmp_path, client):
 
 
 def test_store_input_gives_each_hop_task_its_own_partition(network, client, tmp_path):
-    from diag.store import write_store
+    from diag.read.store import write_store
 
     root, logs, links, tables = network
     write_store(pd.concat([tables[lk.link_id] for lk in links[:3]], ignore_index=True), tmp_path / "store")

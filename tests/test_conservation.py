@@ -1,7 +1,7 @@
 """End-to-end conservation (issue 9): nothing is lost and nothing is counted twice, from the file to the outage table.
 
 For every input of the hostile corpus (tests/test_hostile_inputs.py) and every built-in simulator scenario
-(written through diag.writers in several shapes, read back, analysed):
+(written through diag.sim.log_shapes in several shapes, read back, analysed):
 
 * rows:   rows read = rows kept + rows rejected by reason (the reader's report), and the rows read equal the data
           lines in the file, counted here independently (the writer's own count, or Python's csv module);
@@ -13,7 +13,7 @@ For every input of the hostile corpus (tests/test_hostile_inputs.py) and every b
 * causes: the per-cause rows of outage_by_cause add up to the summary (below threshold, unavailable, both bounds),
           the event counts per cause add up to the events found, and no figure exceeds the observed time.
 
-No outside source is needed: these are the project's own accounting rules (shared/CONTRACT.md, diag.normalise's
+No outside source is needed: these are the project's own accounting rules (shared/CONTRACT.md, diag.read.normalise's
 docstring); the ten-second unavailability rule itself is checked against ITU-T G.826 in tests/test_g826.py.
 """
 from __future__ import annotations
@@ -29,20 +29,20 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag import writers
 from diag.errors import InputError
-from diag.ingest import read_log
 from diag.links import make_link
 from diag.pipeline import analyze_files, analyze_link
-from diag.scenarios import load_scenario
-from diag.simulate import Effect, aggregate_statistics, simulate_link
+from diag.read.ingest import read_log
+from diag.sim import log_shapes as writers
+from diag.sim.scenarios import load_scenario
+from diag.sim.simulate import Effect, aggregate_statistics, simulate_link
 from tests.test_hostile_inputs import CORPUS, OPTIONS
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")
 SCENARIOS = ("quick", "rain", "multipath", "refractive", "level_shift", "tilt", "signal_loss")
 SAMPLE_SHAPES = ("wide_iso", "semicolon_local", "epoch", "long")
 WINDOW_S = 3 * 3600          # short spans keep the test fast: 3 h of each hop around its first event
-LEVELS = (S.RSL,)            # the outage accounting counts receive-level channels (diag.outage)
+LEVELS = (S.RSL,)            # the outage accounting counts receive-level channels (diag.analysis.outage)
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -263,7 +263,7 @@ def _short_spec(spec, *, window_s: float = WINDOW_S):
 def check_same_values(written: pd.DataFrame, read: pd.DataFrame, floor_dbm: float, label: str) -> None:
     """Each simulated value comes back once with its status; the one allowed change is the reader's floor band:
     a reading within FLOOR_BAND_DB (1 dB) above the detected receiver floor is taken as loss of signal."""
-    from diag.normalise import FLOOR_BAND_DB
+    from diag.read.normalise import FLOOR_BAND_DB
 
     keys = [S.TIME, S.CHANNEL, S.QUANTITY, S.STAT]
     a = written[keys + [S.VALUE, S.STATUS]].astype({S.CHANNEL: str, S.QUANTITY: str, S.STAT: str, S.STATUS: str})

@@ -1,8 +1,8 @@
-"""Cross-polar analysis (diag.crosspol).
+"""Cross-polar analysis (diag.analysis.crosspol).
 
 Sources: issue 5 accuracy bar (tilt within +-1 deg for tilts of 1-10 deg); REFERENCES.md §6 (tilt loss and XPD:
 XPD = 20 log cot(tilt), loss = -20 log cos(tilt)); REFERENCES.md §3.3 (P.530 rain XPD: f = 23 GHz, CPA = 15 dB gives
-29.27 dB); itur 0.4.0 (ITU-R P.838-3 gamma for the H/V ratio check).  Inputs from diag.simulate, whose antennas
+29.27 dB); itur 0.4.0 (ITU-R P.838-3 gamma for the H/V ratio check).  Inputs from diag.sim.simulate, whose antennas
 have their own XPD (xpd_antenna_db) added in power to the tilt leak.
 """
 import json
@@ -13,8 +13,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from diag import crosspol
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.analysis import crosspol
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 sys.path.insert(0, str(Path(__file__).parent))
 from _stats_support import truth_result  # noqa: E402

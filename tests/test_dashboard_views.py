@@ -1,4 +1,4 @@
-"""diag.views: the tables the dashboard draws, checked against the results they come from.
+"""diag.report.views: the tables the dashboard draws, checked against the results they come from.
 
 These functions compute nothing new; the checks are conservation (nothing invented or lost when thinning a series,
 seconds -> minutes, every event counted once) and the clipping arithmetic.  Where a fact of the trade is used it
@@ -12,8 +12,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from diag import schema, views
+from diag import schema
 from diag.links import Link
+from diag.report import views
 from diag.results import ChannelSeries, LinkResult, OutageResult
 
 LINK = Link("HOP-1", frequency_ghz=18.0, length_km=12.0, polarization="V", threshold_dbm=-70.0)
@@ -146,7 +147,7 @@ def test_event_table_filters_by_cause_and_depth():
 
 
 def test_hourly_fading_converts_seconds_and_keeps_every_hour():
-    # diag.stats' by_hour block (shape as the statistics module writes it)
+    # diag.analysis.fading_stats' by_hour block (shape as the statistics module writes it)
     stats = {"by_hour": {"hour_utc": list(range(24)),
                          "faded_s_by_cause": {"rain": [0.0] * 15 + [1800.0] + [0.0] * 8,
                                               "multipath": [120.0] * 24},
@@ -195,7 +196,7 @@ SUMMARY = {"link_id": "HOP-1", "period_start_utc": "2026-03-02T00:00:00Z", "peri
            "observed_s": 600000.0, "no_data_s": 4800.0, "below_threshold_s": 2400.0, "unavailable_s": 1500.0,
            "ses_available_s": 30.0, "availability_pct": 99.75, "objective_pct": 99.99, "meets_objective": "no",
            "exact": True}
-# a statistics log: exact figures unknown (NaN), bounds given instead (diag.outage's summary keys)
+# a statistics log: exact figures unknown (NaN), bounds given instead (diag.analysis.outage's summary keys)
 BY_CAUSE_BOUNDS = pd.DataFrame({"link_id": "HOP-1", "cause": ["multipath", "signal_loss"], "events": [1, 1],
                                 "below_threshold_s": [np.nan, np.nan], "unavailable_s": [np.nan, np.nan],
                                 "below_threshold_s_lo": [3, 0], "below_threshold_s_hi": [2481, 899],

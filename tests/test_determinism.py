@@ -15,10 +15,10 @@ import warnings
 import pytest
 from test_conservation import _short_spec
 
-from diag import writers
 from diag.cli import main
-from diag.scenarios import load_scenario
-from diag.simulate import aggregate_statistics, simulate_link
+from diag.sim import log_shapes as writers
+from diag.sim.scenarios import load_scenario
+from diag.sim.simulate import aggregate_statistics, simulate_link
 
 pytestmark = pytest.mark.filterwarnings("ignore")
 OUTPUTS = ("events.csv", "outage_summary.csv", "outage_by_cause.csv", "findings.json", "report.pdf")

@@ -1,6 +1,6 @@
 """Both directions of one single-polarised hop (channels named by direction, e.g. "A>B" and "B>A").
 
-The simulator (diag.simulate, ``LinkSpec.directions``) is checked against a standard result for correlated
+The simulator (diag.sim.simulate, ``LinkSpec.directions``) is checked against a standard result for correlated
 complex Gaussian scatter, and the analysis (diag.pipeline.analyze_link) against the simulator's truth: rain,
 multipath, a one-end antenna misalignment, a one-direction transmitter power drop and a one-direction
 transmitter loss.  Physics of the expectations, as the simulator's docstring states it: the same path and the
@@ -17,10 +17,10 @@ import pytest
 
 from diag import schema as S
 from diag.errors import InputError
-from diag.ingest import read_log
 from diag.pipeline import analyze_link
-from diag.simulate import DIRECTION_MP_CORRELATION, Effect, LinkSpec, simulate_link
-from diag.writers import write_epoch, write_semicolon_local, write_wide_iso
+from diag.read.ingest import read_log
+from diag.sim.log_shapes import write_epoch, write_semicolon_local, write_wide_iso
+from diag.sim.simulate import DIRECTION_MP_CORRELATION, Effect, LinkSpec, simulate_link
 
 H = 3600.0
 GO, BACK = "A>B", "B>A"
@@ -258,7 +258,7 @@ def test_scenario_file_describes_a_directions_hop():
     """A scenario file can ask for both directions and a step on one of them (the TOML keys are LinkSpec's)."""
     import tomllib
 
-    from diag.scenarios import parse_scenario
+    from diag.sim.scenarios import parse_scenario
 
     text = """
     name = "dirs"

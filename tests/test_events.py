@@ -1,4 +1,4 @@
-"""Fade segmentation and event features (diag.events).
+"""Fade segmentation and event features (diag.analysis.events).
 
 Outside checks: the V/H attenuation ratio and the implied rain rate of a constant-rate rain event against
 ITU-R P.838-3 as implemented by the reference library itur 0.4.0 (itur.models.itu838); the hysteresis rules are
@@ -12,9 +12,9 @@ import pytest
 from itur.models import itu838
 
 from diag import schema as S
-from diag.baseline import AnalysisConfig, add_reference, channel_grids
-from diag.events import FEATURE_COLUMNS, channel_polarization, find_events, paint_series, segment
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.analysis.events import FEATURE_COLUMNS, channel_polarization, find_events, paint_series, segment
+from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 CFG = AnalysisConfig()
 

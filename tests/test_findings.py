@@ -1,18 +1,21 @@
-"""Ranked findings (diag.findings).
+"""Ranked findings (diag.analysis.findings).
 
 The remedies are the trade's usual ones (common practice, no outside source): rain -> margin, lower band,
 vertical polarisation, adaptive modulation; tilt -> feed realignment; site work carries the work-at-height, RF
-exposure and licensed-practice cautions (project rule).  Inputs: simulated hops with known causes (diag.simulate
-truth, so the test does not depend on the classifier), outage from diag.outage, statistics from diag.stats,
-cross-polar from diag.crosspol and level changes from diag.shifts.
+exposure and licensed-practice cautions (project rule).  Inputs: simulated hops with known causes (diag.sim.simulate
+truth, so the test does not depend on the classifier), outage from diag.analysis.outage, statistics from
+diag.analysis.fading_stats,
+cross-polar from diag.analysis.crosspol and level changes from diag.analysis.steps.
 """
 import json
 import sys
 from pathlib import Path
 
-from diag import crosspol, findings, shifts, stats
-from diag.outage import account_link
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.analysis import crosspol, findings
+from diag.analysis import fading_stats as stats
+from diag.analysis import steps as shifts
+from diag.analysis.outage import account_link
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 sys.path.insert(0, str(Path(__file__).parent))
 from _stats_support import truth_result  # noqa: E402
@@ -71,7 +74,8 @@ def test_quiet_hop_has_no_high_findings():
 
 
 def test_coarse_logs_quote_bounds_not_one_number():
-    # 15-min statistics give outage bounds (diag.outage); the finding must quote "lo to hi", never a made-up value
+    # 15-min statistics give outage bounds (diag.analysis.outage); the finding must quote "lo to hi", never a made-up
+    # value
     import numpy as np
 
     spec = LinkSpec(link_id="coarse", frequency_ghz=23, length_km=12, polarization="H", threshold_dbm=-68,

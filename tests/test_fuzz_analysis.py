@@ -252,7 +252,7 @@ def csv_bytes(draw):
 @FUZZ
 @given(data=csv_bytes(), link=link_strategy(link_id="fuzz", always_plausible=True))
 def test_analyze_files_random_csv(data, link):
-    from diag.ingest import read_log
+    from diag.read.ingest import read_log
 
     link = _make_link(link)
     if link is None:

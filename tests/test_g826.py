@@ -144,7 +144,7 @@ def test_vectorised_matches_literal_reading(codes, run):
 @settings(max_examples=50, deadline=None)
 @given(st.lists(st.booleans(), min_size=1, max_size=150), st.data())
 def test_more_ses_never_means_less_unavailable_time(bits, data):
-    # monotonicity (used by diag.outage for lower/upper bounds): S subset of S' implies U(S) subset of U(S')
+    # monotonicity (used by diag.analysis.outage for lower/upper bounds): S subset of S' implies U(S) subset of U(S')
     ses = np.array(bits)
     extra = np.array(data.draw(st.lists(st.booleans(), min_size=ses.size, max_size=ses.size)))
     more = ses | extra

@@ -1,4 +1,4 @@
-"""Rain-gauge CSV reader and the gauge check of rain verdicts (diag.gauge).
+"""Rain-gauge CSV reader and the gauge check of rain verdicts (diag.read.gauge).
 
 Conventions checked here are the module's documented ones (common practice: accumulation time labels mark the END
 of the interval, as in the OpenRainER gauge data, see tests/data/openrainer/README.md); no outside numbers needed
@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 from diag.errors import InputError
-from diag.gauge import check_rain_verdicts, gauge_rain_over, read_gauge, summarise_gauge_check
+from diag.read.gauge import check_rain_verdicts, gauge_rain_over, read_gauge, summarise_gauge_check
 
 
 def test_rate_column_end_labels(tmp_path):

@@ -11,8 +11,8 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.ingest import read_log, read_logs
-from diag.store import read_parquet, write_parquet
+from diag.read.ingest import read_log, read_logs
+from diag.read.store import read_parquet, write_parquet
 
 
 def _rows(link: str, channels: list[str], n: int = 5) -> pd.DataFrame:

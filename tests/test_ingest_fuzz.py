@@ -12,7 +12,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from diag.errors import InputError
-from diag.ingest import read_log
+from diag.read.ingest import read_log
 from tests.test_ingest_shapes import CASES, check_accounting
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")

@@ -16,7 +16,7 @@ import pytest
 
 from diag import schema as S
 from diag.errors import InputError
-from diag.ingest import read_log, read_logs
+from diag.read.ingest import read_log, read_logs
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")
 
@@ -24,7 +24,7 @@ KEYS = [S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME]
 
 
 def check_accounting(result) -> None:
-    """The invariants every read must satisfy (the module docstring of diag.normalise)."""
+    """The invariants every read must satisfy (the module docstring of diag.read.normalise)."""
     rep, table = result.report, result.table
     assert rep.rows_read == rep.rows_kept + sum(rep.rejected.values())
     v = rep.values
@@ -312,7 +312,7 @@ def test_bad_input_is_one_line_error(data, message, line):
 
 def test_large_wide_file_streams_in_blocks(tmp_path, monkeypatch):
     # more rows than one read block: the block loop must give the same table as reading at once
-    import diag.ingest as ingest
+    import diag.read.ingest as ingest
 
     n = 5000
     t = pd.date_range("2026-12-01", periods=n, freq="s", tz="UTC")

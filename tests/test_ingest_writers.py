@@ -1,7 +1,8 @@
 """Cross-check with the simulator's writers: every log shape it writes reads back to exactly the simulated table.
 
-The simulator (diag.simulate) draws an invented hop with rain, signal loss, gaps and file defects (repeated rows,
-swapped neighbours, blank cells); diag.writers writes it in each export shape.  Reading the file back must give the
+The simulator (diag.sim.simulate) draws an invented hop with rain, signal loss, gaps and file defects (repeated rows,
+swapped neighbours, blank cells); diag.sim.log_shapes writes it in each export shape.  Reading the file back must give
+the
 same values, statuses and UTC times, and the row accounting must name every repeated row.
 """
 from __future__ import annotations
@@ -10,8 +11,9 @@ import numpy as np
 import pytest
 
 from diag import schema as S
-from diag import simulate, writers
-from diag.ingest import read_log
+from diag.read.ingest import read_log
+from diag.sim import log_shapes as writers
+from diag.sim import simulate
 from tests.test_ingest_shapes import check_accounting
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")

@@ -1,15 +1,16 @@
-"""diag.prediction.predict_link and `python -m diag predict` against the models, worked values and itur 0.4.0."""
+"""diag.analysis.prediction.predict_link and `python -m diag predict` against the models, worked values and itur
+0.4.0."""
 import json
 import math
 import warnings
 
 import pytest
 
+from diag.analysis.prediction import MINUTES_PER_YEAR, predict_for_link, predict_link
 from diag.cli import main
 from diag.errors import InputError
 from diag.links import make_link
 from diag.models import p530
-from diag.prediction import MINUTES_PER_YEAR, predict_for_link, predict_link
 
 FULL = ["--freq-ghz", "23", "--length-km", "10", "--r001-mmh", "42", "--geoclimatic-k", "1e-4", "--tx-dbm", "18",
         "--gain-dbi", "38", "--losses-db", "3", "--threshold-dbm", "-75", "--latitude-deg", "50"]

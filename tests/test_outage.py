@@ -1,7 +1,7 @@
-"""Outage accounting (diag.outage) on hand-built series and on simulated hops whose true outage is known.
+"""Outage accounting (diag.analysis.outage) on hand-built series and on simulated hops whose true outage is known.
 
 The counting rule is ITU-T G.826 (12/2002) Annex A (see tests/test_g826.py for its sources).  Truth for the
-simulated hops comes from diag.simulate's per-sample truth: true level = clear-sky level - propagation fade, below
+simulated hops comes from diag.sim.simulate's per-sample truth: true level = clear-sky level - propagation fade, below
 threshold when under ``threshold_dbm`` or during a signal loss; true cause = largest contribution (LEAD's rule).
 """
 from __future__ import annotations
@@ -12,7 +12,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from diag import outage, schema
+from diag import schema
+from diag.analysis import outage
 from diag.links import make_link
 from diag.models import g826
 from diag.results import ChannelSeries, LinkResult
@@ -228,7 +229,7 @@ def test_stats_interval_bounds_cases():
 
 
 # --- simulated hops with known truth ----------------------------------------------------------------------------
-sim = pytest.importorskip("diag.simulate")
+sim = pytest.importorskip("diag.sim.simulate")
 
 
 def _spec(effects, *, polarization="H", duration_s=6 * 3600, interval_s=1.0, link_id="SIM-1"):
@@ -451,7 +452,7 @@ def test_radio_counters_from_15min_log_fall_inside_the_bounds(sim_1s):
         agg = sim.aggregate_statistics(sr.table, interval_s=900, floor_dbm=sr.spec.floor_value_dbm,
                                        threshold_dbm=sr.spec.threshold_dbm)
     except TypeError:
-        pytest.skip("this diag.simulate has no interval counters")
+        pytest.skip("this diag.sim.simulate has no interval counters")
     result = pipeline.analyze_link(agg, sr.link)
     counters = result.outage.summary["radio_counters"]
     assert set(counters) == {"H", "V"}

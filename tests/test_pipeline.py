@@ -13,8 +13,8 @@ from diag.errors import InputError
 from diag.links import make_link
 from diag.pipeline import AnalysisConfig, analyze_files, analyze_link, analyze_tables
 from diag.results import LinkResult
-from diag.simulate import Effect, LinkSpec, simulate_link
-from diag.writers import write_log
+from diag.sim.log_shapes import write_log
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 H = 3600.0
 
@@ -153,8 +153,8 @@ def test_threads_give_the_same_result(sim):
 def test_failed_stages_named_in_stage_order_whatever_the_threads(sim, monkeypatch):
     import time
 
-    import diag.crosspol
-    import diag.stats
+    import diag.analysis.crosspol
+    import diag.analysis.fading_stats
 
     def slow_failure(result):
         time.sleep(0.2)   # finishes after the cross-polar failure in the threaded run
@@ -163,8 +163,8 @@ def test_failed_stages_named_in_stage_order_whatever_the_threads(sim, monkeypatc
     def quick_failure(result):
         raise RuntimeError("cross-polar broke")
 
-    monkeypatch.setattr(diag.stats, "link_statistics", slow_failure)
-    monkeypatch.setattr(diag.crosspol, "cross_polar", quick_failure)
+    monkeypatch.setattr(diag.analysis.fading_stats, "link_statistics", slow_failure)
+    monkeypatch.setattr(diag.analysis.crosspol, "cross_polar", quick_failure)
     serial = analyze_link(sim.table, sim.link, threads=1)
     threaded = analyze_link(sim.table, sim.link, threads=2)
     failed = [text for text in serial.skipped if "failed" in text]

@@ -25,10 +25,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from diag.gauge import check_rain_verdicts, read_gauge
-from diag.ingest import read_log
 from diag.links import make_link
 from diag.pipeline import analyze_link
+from diag.read.gauge import check_rain_verdicts, read_gauge
+from diag.read.ingest import read_log
 
 DATA = Path(__file__).parent / "data" / "openrainer"
 RAIN_LINKS = (249, 264, 306, 347, 525, 142)     # gauge within 2.2 km of the path midpoint

@@ -15,7 +15,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from diag import outage, schema
+from diag import schema
+from diag.analysis import outage
 from diag.errors import InputError
 from diag.links import make_link
 from diag.report import (

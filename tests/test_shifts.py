@@ -1,6 +1,6 @@
-"""Level shifts and drifts (diag.shifts).
+"""Level shifts and drifts (diag.analysis.steps).
 
-Bars from issue 5: step time within +-15 min, size within +-1 dB.  Inputs are synthetic: diag.simulate (labelled
+Bars from issue 5: step time within +-15 min, size within +-1 dB.  Inputs are synthetic: diag.sim.simulate (labelled
 physics-based logs) and hand-built series; the trend check compares with scipy.stats.theilslopes on the same data
 and with the slope that was put in.
 """
@@ -10,8 +10,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from diag import shifts
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.analysis import steps as shifts
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 
 def _level(sim, channel="H"):

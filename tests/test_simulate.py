@@ -12,7 +12,7 @@ from scipy import stats
 from diag import schema
 from diag.errors import InputError
 from diag.models import fading, p530
-from diag.simulate import (
+from diag.sim.simulate import (
     TRUTH_CAUSES,
     Effect,
     LinkSpec,

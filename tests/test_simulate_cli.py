@@ -13,10 +13,10 @@ import pytest
 
 from diag.cli import main
 from diag.errors import DataWarning, InputError
-from diag.ingest import read_log
-from diag.scenarios import builtin_names, load_scenario, parse_scenario
-from diag.simulate import simulate_scenario
-from diag.writers import SHAPES
+from diag.read.ingest import read_log
+from diag.sim.log_shapes import SHAPES
+from diag.sim.scenarios import builtin_names, load_scenario, parse_scenario
+from diag.sim.simulate import simulate_scenario
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_logs"

@@ -1,8 +1,8 @@
-"""Fading statistics (diag.stats) against published theory and reference libraries.
+"""Fading statistics (diag.analysis.fading_stats) against published theory and reference libraries.
 
 Sources: REFERENCES.md §5 (Rayleigh/Rice statistics, computed values), scipy.stats (expon = Rayleigh power, rice),
 REFERENCES.md §3.1 / §3.2 (P.530 rain and multipath check values, computed from the printed formulas), and the
-simulator's documented fading bandwidth (diag.simulate: Rayleigh LCR = sqrt(2 pi) f_m rho e^-rho^2).
+simulator's documented fading bandwidth (diag.sim.simulate: Rayleigh LCR = sqrt(2 pi) f_m rho e^-rho^2).
 """
 import json
 import sys
@@ -13,10 +13,10 @@ import pandas as pd
 import pytest
 from scipy import stats as sps
 
-from diag import stats
+from diag.analysis import fading_stats as stats
 from diag.links import make_link
 from diag.results import ChannelSeries
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 sys.path.insert(0, str(Path(__file__).parent))
 from _stats_support import truth_result  # noqa: E402

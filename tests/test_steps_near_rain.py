@@ -1,6 +1,6 @@
-"""Two level shifts a few hours apart, with and without a rain fade between them (diag.shifts.detect_steps).
+"""Two level shifts a few hours apart, with and without a rain fade between them (diag.analysis.steps.detect_steps).
 
-Truth: the simulator (diag.simulate) puts each step at a known time and size; a level shift is a persistent step of
+Truth: the simulator (diag.sim.simulate) puts each step at a known time and size; a level shift is a persistent step of
 the clear-sky level (common practice), so two steps 3 h apart are two shifts, each with its own time and size,
 whatever fades lie between them.  Bars: time within 10 min, size within 0.5 dB (1-s samples, 0.1-dB noise).
 """
@@ -9,8 +9,8 @@ from __future__ import annotations
 import pandas as pd
 import pytest
 
-from diag import shifts
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.analysis import steps as shifts
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 H = 3600.0
 START = pd.Timestamp("2026-06-01T00:00:00Z")

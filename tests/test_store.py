@@ -7,8 +7,8 @@ import pytest
 
 from diag import schema as S
 from diag.errors import InputError
-from diag.ingest import read_log
-from diag.store import read_parquet, read_store, store_links, write_parquet, write_store
+from diag.read.ingest import read_log
+from diag.read.store import read_parquet, read_store, store_links, write_parquet, write_store
 
 
 def sample_table() -> pd.DataFrame:

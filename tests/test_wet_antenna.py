@@ -1,18 +1,18 @@
-"""Wet-antenna fades on a short hop are not refractive (diag.classify, rule 4c: SHORT_HOP_KM, WET_FADE_MAX_DB).
+"""Wet-antenna fades on a short hop are not refractive (diag.analysis.classify, rule 4c: SHORT_HOP_KM, WET_FADE_MAX_DB).
 
-Truth: the simulator (diag.simulate) puts a radome water film (``wet_antenna_db``, building up over
+Truth: the simulator (diag.sim.simulate) puts a radome water film (``wet_antenna_db``, building up over
 ``wetting_s`` and drying over ``drying_min``) under light constant rain on a 1-km 25-GHz hop, logged each minute
 with 1-dB steps (as the real OpenRainER logs): a flat-topped, nearly symmetric 4-dB fade whose profile the shape
 tests alone read as refractive.  Refraction cannot fade a 1-km hop by several dB (Earth-bulge and ray-tilt
-geometry, see diag.classify), so the verdict must be rain.  Controls: a refractive fade on a 10-km hop, and a
+geometry, see diag.analysis.classify), so the verdict must be rain.  Controls: a refractive fade on a 10-km hop, and a
 12-dB one (deeper than a wet film gives) on a 1.5-km hop, stay refractive.
 """
 from __future__ import annotations
 
 from diag import schema as S
-from diag.classify import SHORT_HOP_KM, WET_FADE_MAX_DB
+from diag.analysis.classify import SHORT_HOP_KM, WET_FADE_MAX_DB
 from diag.pipeline import analyze_link
-from diag.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec, simulate_link
 
 H = 3600.0
 

@@ -1,4 +1,4 @@
-"""Every log shape the writers produce reads back through diag.ingest.read_log with exact row and value
+"""Every log shape the writers produce reads back through diag.read.ingest.read_log with exact row and value
 accounting, and the values come back as simulated (within nothing: the text is the shortest exact form)."""
 
 from __future__ import annotations
@@ -12,10 +12,10 @@ import pytest
 
 from diag import schema
 from diag.errors import DataWarning, InputError
-from diag.ingest import read_log
 from diag.links import read_links_table
-from diag.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
-from diag.writers import SHAPES, write_links_table, write_log, write_long, write_stats, write_truth
+from diag.read.ingest import read_log
+from diag.sim.log_shapes import SHAPES, write_links_table, write_log, write_long, write_stats, write_truth
+from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
 
 SORT = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
 

@@ -98,12 +98,12 @@ def main(args: argparse.Namespace) -> int:
     links = links_from_args(args)
     mapping = None
     if args.map:
-        from diag.ingest import load_mapping
+        from diag.read.ingest import load_mapping
 
         mapping = load_mapping(args.map)
     gauge = None
     if args.gauge:
-        from diag.gauge import read_gauge
+        from diag.read.gauge import read_gauge
 
         gauge = read_gauge(args.gauge, tz=args.tz or "UTC")
     results = analyze_files(args.inputs, links=links, tz=args.tz, mapping=mapping, gauge=gauge,

@@ -42,7 +42,7 @@ def register(subparsers) -> None:
 
 def mapping_from_args(args: argparse.Namespace) -> dict:
     """The mapping file (if any) with the override flags laid over it (parsing lives in the library)."""
-    from diag.ingest import load_mapping, mapping_from_options
+    from diag.read.ingest import load_mapping, mapping_from_options
 
     return mapping_from_options(
         base=load_mapping(args.map), time_cols=args.time_col, time_format=args.time_format,
@@ -72,8 +72,8 @@ def summary_lines(rep: dict) -> list[str]:
 
 
 def run(args: argparse.Namespace) -> int:
-    from diag import store
-    from diag.ingest import read_logs
+    from diag.read import store
+    from diag.read.ingest import read_logs
 
     mapping = mapping_from_args(args)
     result = read_logs(args.files, tz=args.tz, mapping=mapping, link_id=args.link_id)

@@ -1,13 +1,13 @@
 """``python -m diag predict --freq-ghz F --length-km D [...] [--json]``: what the published models expect of a hop.
 
-Only formats the dict returned by ``diag.prediction.predict_link``.
+Only formats the dict returned by ``diag.analysis.prediction.predict_link``.
 """
 from __future__ import annotations
 
 import json
 import sys
 
-from diag.prediction import predict_link
+from diag.analysis.prediction import predict_link
 
 
 def register(subparsers) -> None:

@@ -1,6 +1,7 @@
 """``python -m diag simulate --scenario NAME|FILE --out DIR [--seed N] [--shape SHAPE ...]``.
 
-Labelled synthetic logs and their ground truth (thin layer over :mod:`diag.simulate` and :mod:`diag.writers`).
+Labelled synthetic logs and their ground truth (thin layer over :mod:`diag.sim.simulate` and
+:mod:`diag.sim.log_shapes`).
 """
 
 from __future__ import annotations
@@ -42,9 +43,9 @@ def register(subparsers) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from diag.errors import InputError
-    from diag.scenarios import builtin_names, load_scenario
-    from diag.simulate import simulate_scenario
-    from diag.writers import SHAPES, write_scenario
+    from diag.sim.log_shapes import SHAPES, write_scenario
+    from diag.sim.scenarios import builtin_names, load_scenario
+    from diag.sim.simulate import simulate_scenario
 
     if args.list:
         print("\n".join(builtin_names()))

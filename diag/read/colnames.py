@@ -2,7 +2,8 @@
 
 ``recognise_name`` parses a signal column name (``RSL H (dBm)``, ``RxLevel_V``, ``RSL_min_15min``, ``XPD [dB]``)
 into a ``NameInfo``; ``name_role`` tells the time, link, channel, quantity-name and value columns from their names.
-The phrase tables below are the vocabulary.  Used by ``diag.colplan`` (the column plan) and ``diag.normalise``.
+The phrase tables below are the vocabulary.  Used by ``diag.read.colplan`` (the column plan) and
+``diag.read.normalise``.
 """
 from __future__ import annotations
 

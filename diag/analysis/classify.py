@@ -1,12 +1,14 @@
 """Cause of each fade event, with a confidence and a one-line evidence string that quotes the numbers.
 
-Physics-based rules (no trained model).  The features come from :mod:`diag.events`; the physics behind each test
+Physics-based rules (no trained model).  The features come from :mod:`diag.analysis.events`; the physics behind each
+test
 is in the shared reference sheet, section 8 (rain vs multipath), with sources there.  The rules run in this order
 and the first that fires wins.  Rain-vs-refractive points turn into a confidence 0.5 + 0.45 x (lead / max(total,
 3)), so a verdict resting on little evidence stays near 0.5:
 
 1. **level_shift** - a span of the record whose clear-sky level sits at least ``step_min_db`` below the best
-   level, opened by an abrupt persistent step (:func:`diag.shifts.detect_steps`).  Confidence grows with the step.
+   level, opened by an abrupt persistent step (:func:`diag.analysis.steps.detect_steps`).  Confidence grows with the
+   step.
 2. **signal_loss** - at least half of the event at the receiver floor, and the level in the 30 s before the first
    floor sample was within 6 dB of the reference: the signal vanished abruptly from near clear-sky level, which
    no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last seconds).
@@ -70,8 +72,8 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.baseline import AnalysisConfig
-from diag.events import channel_polarization
+from diag.analysis.events import channel_polarization
+from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
 
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
@@ -352,7 +354,8 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
 
 
 def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None) -> pd.DataFrame:
-    """Fill ``cause``, ``confidence`` and ``evidence`` of an event table from :func:`diag.events.find_events`."""
+    """Fill ``cause``, ``confidence`` and ``evidence`` of an event table from
+    :func:`diag.analysis.events.find_events`."""
     config = config or AnalysisConfig()
     if events.empty:
         return events

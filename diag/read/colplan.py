@@ -1,9 +1,9 @@
 """The column plan: what each column of a log is (time, link, channel, quantity name, signals), and mapping helpers.
 
-``plan_columns`` looks at the header names (through ``diag.colnames``), a sample of the first block's values and
-the mapping file's sections, and returns a ``ColumnPlan``: the ``TimeSpec`` (from ``diag.timestamps``), the link,
+``plan_columns`` looks at the header names (through ``diag.read.colnames``), a sample of the first block's values and
+the mapping file's sections, and returns a ``ColumnPlan``: the ``TimeSpec`` (from ``diag.read.timestamps``), the link,
 channel and quantity-name columns, one ``ValueColumn`` per signal column, the layout, and what was guessed.
-``section`` and ``quantity_name`` read the mapping file.  Used by ``diag.normalise``, which re-exports these names.
+``section`` and ``quantity_name`` read the mapping file.  Used by ``diag.read.normalise``, which re-exports these names.
 """
 from __future__ import annotations
 
@@ -14,9 +14,9 @@ from dataclasses import dataclass
 import pyarrow as pa
 
 from diag import schema as S
-from diag.colnames import _words, name_role, recognise_name
 from diag.errors import InputError
-from diag.timestamps import (
+from diag.read.colnames import _words, name_role, recognise_name
+from diag.read.timestamps import (
     TimeSpec,
     check_tz,
     detect_clock_format,

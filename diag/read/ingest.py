@@ -4,13 +4,13 @@
 ``read_logs(sources, *, tz=None, mapping=None, link_id=None) -> ReadResult``
 
 ``source`` is a path (a CSV/text file, ``.csv.gz`` or any gzip'd text, a ``.parquet`` file written by
-``diag ingest --out``, a store folder written by ``diag.store.write_store``, or a folder whose files -- not
+``diag ingest --out``, a store folder written by ``diag.read.store.write_store``, or a folder whose files -- not
 sub-folders -- are read) or ``bytes`` (a dashboard upload; pass ``name=``).  This is the only module that opens log
 files.  It finds the encoding (UTF-8 with or without BOM, UTF-16 with BOM, else Latin-1), the separator (``,`` ``;``
 tab ``|``), the decimal mark, the header line after any preamble, and streams the rows through pyarrow's CSV reader
-in blocks; ``diag.normalise`` recognises the columns and parses times and values vectorised.
+in blocks; ``diag.read.normalise`` recognises the columns and parses times and values vectorised.
 
-The row and value accounting rule is in ``diag.normalise``'s docstring: every data row is kept or counted under one
+The row and value accounting rule is in ``diag.read.normalise``'s docstring: every data row is kept or counted under one
 named reason, ``rows_read == rows_kept + sum(rejected.values())``; every value of a kept row is one table row.
 
 ``mapping`` overrides detection (a dict, or the path of a TOML file with the same keys)::
@@ -48,10 +48,10 @@ import pyarrow as pa
 import pyarrow.compute  # noqa: F401  (pa.compute)
 import pyarrow.csv as pacsv
 
-from diag import normalise as N
 from diag import schema as S
-from diag import store
 from diag.errors import DataWarning, InputError
+from diag.read import normalise as N
+from diag.read import store
 
 log = logging.getLogger(__name__)
 

@@ -3,8 +3,8 @@
 ``detect_datetime_format`` / ``detect_date_format`` / ``detect_clock_format`` / ``epoch_kind`` / ``iso_has_offset``
 look at sample strings; a ``TimeSpec`` says how to read a row's time; ``parse_times`` reads whole pyarrow columns
 (codes in ``TIME_REASONS`` for stamps that are unreadable, in a DST gap or overlap, or out of range); ``check_tz``
-validates an IANA zone name.  Used by ``diag.colplan`` (the column plan) and, through ``diag.normalise``, by
-``diag.ingest``.
+validates an IANA zone name.  Used by ``diag.read.colplan`` (the column plan) and, through ``diag.read.normalise``, by
+``diag.read.ingest``.
 """
 from __future__ import annotations
 

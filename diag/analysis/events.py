@@ -12,7 +12,8 @@ interval minimum for 15-min statistics):
   second below threshold is inside some event);
 - events of different channels that overlap in time share a ``group_id`` (one physical event seen on H and V).
 
-Level-shift spans from :func:`diag.baseline.level_shift_spans` become events of their own (they may last days and
+Level-shift spans from :func:`diag.analysis.reference.level_shift_spans` become events of their own (they may last
+days and
 contain shorter fades; the per-sample cause is that of the innermost event, see :func:`paint_series`).
 
 Per-event features (units in the column names): start/end, duration, peak and mean fade, slope in and out
@@ -33,7 +34,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.baseline import AnalysisConfig, LevelSpan
+from diag.analysis.reference import AnalysisConfig, LevelSpan
 from diag.links import Link
 from diag.models import p838
 from diag.results import ChannelSeries
@@ -432,7 +433,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
                                                        "H")
         gauge_rate = math.nan
         if gauge is not None and len(gauge):
-            from diag.gauge import gauge_rain_over
+            from diag.read.gauge import gauge_rain_over
 
             got = gauge_rain_over(gauge, t_first[i] - pd.Timedelta(minutes=15),
                                   t_last[i] + pd.Timedelta(minutes=15))

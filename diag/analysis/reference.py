@@ -8,9 +8,9 @@ detectors of Schleiss & Berne, IEEE GRSL 7:611-615, 2010):
 
 1. *Path level*.  The receive level with logged transmit-power changes removed,
    ``RSL - (TSL - median TSL)`` (automatic transmit power control raises TSL during a fade; the path loss is
-   what we want), see :func:`diag.shifts.path_level_dbm`.
+   what we want), see :func:`diag.analysis.steps.path_level_dbm`.
 2. *Steps*.  Persistent abrupt steps of the clear-sky level (a knocked antenna, a slipped feed) are found by
-   :func:`diag.shifts.detect_steps`; the record is cut into segments at the steps, so the reference follows the
+   :func:`diag.analysis.steps.detect_steps`; the record is cut into segments at the steps, so the reference follows the
    new level right after a step and fades on top of a shifted level are measured against that level.
 3. *Reference*.  Within each segment, the path level is summarised per block (``block_s``, default 15 min) by
    its median (blocks under half covered are ignored); the reference at each block is the upper quantile
@@ -400,9 +400,9 @@ def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_d
 def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -> list:
     """Add ``reference_dbm`` and ``attenuation_db`` (and ``attenuation_peak_db`` for statistics) to the frame.
 
-    Returns the steps (:class:`diag.shifts.Step`) at which the reference was cut.
+    Returns the steps (:class:`diag.analysis.steps.Step`) at which the reference was cut.
     """
-    from diag import shifts
+    from diag.analysis import steps as shifts
 
     config = config or AnalysisConfig()
     frame = series.frame

@@ -8,7 +8,7 @@ Entry point :func:`cross_polar` (fills ``LinkResult.cross_polar``).
 - *Clear-sky XPD*: median XPD over samples with status "ok" that are not inside a rain, multipath, refractive or
   signal-loss event and not faded by more than ``clear_max_att_db`` (samples inside a level-shift event count:
   a misalignment is exactly what this check is for).  The clear-sky XPD series is cut at persistent steps
-  (:func:`diag.shifts.detect_steps`) so a tilt that appears mid-record is seen with its time.
+  (:func:`diag.analysis.steps.detect_steps`) so a tilt that appears mid-record is seen with its time.
 - *Tilt*: the measured leak is taken as the power sum of the antennas' own leak and the tilt leak
   (diag.models.xpol.combine_xpd_db: 10^(-XPD/10) = 10^(-XPD_ant/10) + tan^2(tilt)).  **Assumption**: the
   antennas' intrinsic XPD is ``antenna_xpd_db`` (default 35 dB, a typical figure for dual-polarised
@@ -36,8 +36,8 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
+from diag.analysis.steps import detect_steps, in_set
 from diag.models import p838, xpol
-from diag.shifts import detect_steps, in_set
 
 log = logging.getLogger(__name__)
 

@@ -345,7 +345,8 @@ EXCEEDANCE_CURVES = {
 def exceedance_curves(channel_statistics: dict) -> pd.DataFrame:
     """Fade-depth exceedance of one channel as a long table for a log-scale chart.
 
-    From ``LinkResult.statistics["channels"][channel]`` (``diag.stats``): the measured curves, the Rayleigh curve
+    From ``LinkResult.statistics["channels"][channel]`` (``diag.analysis.fading_stats``): the measured curves, the
+    Rayleigh curve
     and the design predictions (ITU-R P.530 multipath for the worst month, P.530 rain for the average year) as the
     statistics module gives them.  Columns: ``depth_db, percent, curve, kind`` (kind "measured", "theory" or
     "prediction").  Zero and missing percentages are dropped (they cannot be drawn on a log scale).
@@ -376,7 +377,7 @@ def exceedance_curves(channel_statistics: dict) -> pd.DataFrame:
 
 
 def hourly_fading(channel_statistics: dict) -> pd.DataFrame:
-    """Faded minutes and fade starts by hour of day (UTC) and cause, from ``diag.stats``' ``by_hour``.
+    """Faded minutes and fade starts by hour of day (UTC) and cause, from ``diag.analysis.fading_stats``' ``by_hour``.
 
     Long table for a stacked bar chart: ``hour, cause, cause_label, faded_min, event_starts`` (all 24 hours for
     every cause that appears).  Multipath fading gathers in still nights and mornings, convective rain in the
@@ -441,7 +442,7 @@ def _interval_text(seconds) -> str:
 
 
 def reader_summary(report: dict) -> pd.DataFrame:
-    """What the reader detected in one file (``diag.ingest`` report dict), as ``What, Found`` rows for display."""
+    """What the reader detected in one file (``diag.read.ingest`` report dict), as ``What, Found`` rows for display."""
     time = report.get("time") or {}
     values = report.get("values") or {}
     rejected = report.get("rejected") or {}

@@ -1,9 +1,11 @@
 """Column recognition and normalisation: raw string columns -> the long table of ``diag.schema``.
 
-``diag.ingest`` opens files and hands string columns (pyarrow arrays, one chunk at a time) to this module.  This
+``diag.read.ingest`` opens files and hands string columns (pyarrow arrays, one chunk at a time) to this module.  This
 module parses values vectorised and assembles the sorted long table (duplicates, physical ranges, receiver floor,
-intervals, row and value accounting).  What each column means is decided by ``diag.colplan`` (the column plan), what
-a header name says is read by ``diag.colnames``, time formats are detected and stamps parsed by ``diag.timestamps``;
+intervals, row and value accounting).  What each column means is decided by ``diag.read.colplan`` (the column plan),
+what
+a header name says is read by ``diag.read.colnames``, time formats are detected and stamps parsed by
+``diag.read.timestamps``;
 their public names are re-exported here (``normalise.plan_columns``, ``normalise.parse_times``, ...).
 
 Column roles come from the header names (and units) plus a look at the values:
@@ -46,9 +48,9 @@ import pyarrow.compute as pc
 
 from diag import schema as S
 
-# used here, and re-exported: diag.ingest and the tests reach them as normalise.<name>
-from diag.colnames import NameInfo, name_role, recognise_name  # noqa: F401
-from diag.colplan import (  # noqa: F401
+# used here, and re-exported: diag.read.ingest and the tests reach them as normalise.<name>
+from diag.read.colnames import NameInfo, name_role, recognise_name  # noqa: F401
+from diag.read.colplan import (  # noqa: F401
     DEFAULT_CHANNEL,
     POWER_UNITS_MW,
     QUANTITY_ALIASES,
@@ -58,7 +60,7 @@ from diag.colplan import (  # noqa: F401
     quantity_name,
     section,
 )
-from diag.timestamps import (  # noqa: F401
+from diag.read.timestamps import (  # noqa: F401
     TIME_MAX,
     TIME_MIN,
     TIME_REASONS,
@@ -359,7 +361,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
 
     Drops exact duplicates and later conflicting duplicates (counted in ``rejected``), counts out-of-order rows,
     applies physical ranges and the receiver floor, sets intervals, and fills ``report`` (an
-    ``diag.ingest.IngestReport``: duplicates, conflicts, floors, values, guesses, warnings)."""
+    ``diag.read.ingest.IngestReport``: duplicates, conflicts, floors, values, guesses, warnings)."""
     if not chunks or sum(len(c.ns) for c in chunks) == 0:
         report.values = {"read": 0, "ok": 0, "signal_lost": 0, "missing": 0, "reasons": {}}
         return S.empty_table()

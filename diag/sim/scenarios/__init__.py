@@ -40,7 +40,7 @@ from pathlib import Path
 import pandas as pd
 
 from diag.errors import InputError
-from diag.simulate import EFFECT_KINDS, Effect, LinkSpec, Scenario
+from diag.sim.simulate import EFFECT_KINDS, Effect, LinkSpec, Scenario
 
 __all__ = ["load_scenario", "parse_scenario", "builtin_names", "BUILTIN_DIR", "LINK_EXTRA_FIELDS"]
 
@@ -200,7 +200,7 @@ def parse_scenario(data: dict, *, where: str = "scenario", default_name: str = "
         effects.sort(key=lambda e: (e.start_s, EFFECT_KINDS.index(e.kind)))
         specs.append(spec.replace(effects=tuple(effects)))
         shape = extra.get("log_shape", "wide_iso")
-        from diag.writers import SHAPES
+        from diag.sim.log_shapes import SHAPES
 
         if shape not in SHAPES:
             raise InputError(f"{what}: log_shape must be one of {', '.join(SHAPES)}", path=where)

@@ -1,4 +1,4 @@
-"""Log writers: the shapes of receive-level exports that ``diag.ingest.read_log`` understands.
+"""Log writers: the shapes of receive-level exports that ``diag.read.ingest.read_log`` understands.
 
 Each writer takes normalised rows (:mod:`diag.schema`; usually ``SimResult.table``) and writes one CSV
 file (gzip-compressed when the path ends in ``.gz``; the gzip header carries no time stamp so the same
@@ -14,7 +14,7 @@ can be checked exactly.
 ``long``             ``time_utc,link_id,channel,quantity,value``: one value per row, several hops per file
 ``stats``            ``period_start_utc,link_id,channel,RSL min (dBm),RSL avg (dBm),RSL max (dBm),...``:
                      interval min/avg/max statistics (e.g. 15 minutes, from
-                     :func:`diag.simulate.aggregate_statistics`)
+                     :func:`diag.sim.simulate.aggregate_statistics`)
 """
 
 from __future__ import annotations
@@ -212,7 +212,7 @@ def _check(table: pd.DataFrame, *, samples: bool) -> None:
     counters_only = set(table.loc[table[schema.STAT] == schema.SAMPLE, schema.QUANTITY]) <= set(_COUNTERS)
     if not samples and not counters_only:
         raise InputError(
-            "writer: the 'stats' shape needs min/avg/max rows (diag.simulate.aggregate_statistics)"
+            "writer: the 'stats' shape needs min/avg/max rows (diag.sim.simulate.aggregate_statistics)"
         )
 
 
@@ -578,7 +578,7 @@ def write_scenario(
     straight into ``logs/`` (statistics as ``<link>_<N>min.csv``, long-shape hops together in
     ``<name>_long.csv``); with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when
     there are several."""
-    from diag.simulate import aggregate_statistics
+    from diag.sim.simulate import aggregate_statistics
 
     out_dir = Path(out_dir)
     results = dict(results)

@@ -7,7 +7,7 @@ Store layout (our own)::
 
 Each part holds the rows of one link and one UTC day plus a hidden ``_row`` column (the row's position in the
 table that was written), so ``read_store`` gives back exactly the table that ``write_store`` got: same columns,
-dtypes (``diag.schema.empty_table()``) and row order.  ``diag.ingest.read_log`` reads both the single file and the
+dtypes (``diag.schema.empty_table()``) and row order.  ``diag.read.ingest.read_log`` reads both the single file and the
 store folder, so ``analyze`` and ``batch`` can skip CSV parsing.
 """
 from __future__ import annotations

@@ -1,0 +1,1 @@
+"""The simulator: labelled synthetic logs for tests, benchmarks and the demo."""
