@@ -138,3 +138,13 @@ def test_code_and_tests_cite_nothing_outside_the_repository():
     own = Path(__file__).resolve()
     paths = [p for p in _text_files() if p.resolve() != own and p.parent.name != "docs" and p not in MARKDOWN]
     assert not _outside_citations(paths)
+
+
+@pytest.mark.xfail(strict=False, reason="some docstrings still point at README sections that moved to docs/ "
+                                        "(method.md §6, validation.md §3/§6/§7); the lead applies the list")
+def test_nothing_points_at_readme_sections_that_moved():
+    stale = re.compile(r"README section|reported in the README|README figures|README table")
+    own = Path(__file__).resolve()
+    found = [f"{p.relative_to(ROOT)}" for p in _text_files()
+             if p.resolve() != own and stale.search(p.read_text(encoding="utf-8", errors="replace"))]
+    assert not found, found
