@@ -88,8 +88,8 @@ def test_relative_links_point_to_existing_files(doc):
     assert not broken, broken
 
 
-def _reference_sections() -> set[str]:
-    text = (ROOT / "docs" / "references.md").read_text(encoding="utf-8")
+def _sections(name: str) -> set[str]:
+    text = (ROOT / "docs" / f"{name}.md").read_text(encoding="utf-8")
     return set(re.findall(r"^#{2,3} §(\d+(?:\.\d+)?)\b", text, flags=re.M))
 
 
@@ -101,15 +101,15 @@ def _text_files():
     yield from (README, DEVELOPERS, ROOT / "dashboard.py")
 
 
-def test_citations_of_the_references_page_name_existing_sections():
-    sections = _reference_sections()
-    assert {"1", "2", "3.1", "3.2", "3.3", "5", "7", "9", "10"} <= sections
-    cited = re.compile(r"references(?:\.md)?,? §(\d+(?:\.\d+)?)", flags=re.I)
+def test_section_citations_name_existing_sections():
+    assert {"1", "2", "3.1", "3.2", "3.3", "5", "7", "9", "10"} <= _sections("references")
+    cited = re.compile(r"\b(references|method|usage|validation|speed)(?:\.md\)?|\.md)?,? §(\d+(?:\.\d+)?)", flags=re.I)
+    sections = {name: _sections(name) for name in ("references", "method", "usage", "validation", "speed")}
     missing = []
     for path in _text_files():
-        for number in cited.findall(path.read_text(encoding="utf-8", errors="replace")):
-            if number not in sections:
-                missing.append(f"{path.relative_to(ROOT)}: §{number}")
+        for name, number in cited.findall(path.read_text(encoding="utf-8", errors="replace")):
+            if number not in sections[name.lower()]:
+                missing.append(f"{path.relative_to(ROOT)}: {name} §{number}")
     assert not missing, missing
 
 
