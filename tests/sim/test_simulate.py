@@ -279,6 +279,7 @@ def test_truth_labels_and_table_schema():
         assert (truth.cause[faded] == largest[faded]).all()
 
 
+@pytest.mark.slow
 def test_same_seed_same_numbers_other_seed_other_numbers():
     scenario = random_scenario(7, n_links=1, duration_h=6)
     a, _ = simulate_scenario(scenario, seed=1)

@@ -1,6 +1,6 @@
 """End-to-end conservation (issue 9): nothing is lost and nothing is counted twice, from the file to the outage table.
 
-For every input of the hostile corpus (tests/test_hostile_inputs.py) and every built-in simulator scenario
+For every input of the hostile corpus (tests/cli/test_hostile_inputs.py) and every built-in simulator scenario
 (written through diag.sim.log_shapes in several shapes, read back, analysed):
 
 * rows:   rows read = rows kept + rows rejected by reason (the reader's report), and the rows read equal the data
@@ -14,7 +14,7 @@ For every input of the hostile corpus (tests/test_hostile_inputs.py) and every b
           the event counts per cause add up to the events found, and no figure exceeds the observed time.
 
 No outside source is needed: these are the project's own accounting rules (shared/CONTRACT.md, diag.read.normalise's
-docstring); the ten-second unavailability rule itself is checked against ITU-T G.826 in tests/test_g826.py.
+docstring); the ten-second unavailability rule itself is checked against ITU-T G.826 in tests/models/test_g826.py.
 """
 from __future__ import annotations
 
@@ -29,14 +29,14 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.errors import InputError
+from diag.errors import DataWarning, InputError
 from diag.links import make_link
 from diag.pipeline import analyze_files, analyze_link
 from diag.read.ingest import read_log
 from diag.sim import log_shapes as writers
 from diag.sim.scenarios import load_scenario
 from diag.sim.simulate import Effect, aggregate_statistics, simulate_link
-from tests.test_hostile_inputs import CORPUS, OPTIONS
+from tests.cli.test_hostile_inputs import CORPUS, OPTIONS
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")
 SCENARIOS = ("quick", "rain", "multipath", "refractive", "level_shift", "tilt", "signal_loss")
@@ -229,7 +229,8 @@ def test_corpus_conservation(tmp_path, name):
     path.write_bytes(data)
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             results = analyze_files([path], links=links, tz=tz)
     except InputError:
         return
@@ -314,7 +315,8 @@ def test_scenario_conservation(tmp_path, scenario, shape):
         assert len(read.table) == len(table), (label, len(read.table), len(table))
         check_same_values(table, read.table, spec.floor_value_dbm, label)
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             (result,) = analyze_files([path], links=[sim.link], tz=sc.tz if shape == "semicolon_local" else None)
         check_outage_accounting(result, read.table, report.get("link_intervals_s") or {}, label)
         if result.outage.summary["exact"]:
@@ -331,7 +333,8 @@ def test_analyze_link_direct_tables():
     sim = simulate_link(spec, seed=5)
     for table in (sim.table, aggregate_statistics(sim.table, interval_s=900, floor_dbm=spec.floor_value_dbm)):
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             result = analyze_link(table, sim.link)
         check_outage_accounting(result, table, {sim.link.link_id: 1.0}, "signal_loss/direct")
 
@@ -344,13 +347,14 @@ def _bench_memory():
     import importlib.util
     from pathlib import Path
 
-    path = Path(__file__).resolve().parents[1] / "bench" / "bench_memory.py"
+    path = Path(__file__).resolve().parents[2] / "bench" / "bench_memory.py"
     spec = importlib.util.spec_from_file_location("bench_memory", path)
     module = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(module)
     return module
 
 
+@pytest.mark.slow
 def test_million_rows_through_ingest(tmp_path, capsys):
     """1 000 000 lines (dual 1-s log with a 6-h gap, floor drop-outs, and planted defects) through `ingest --json`:
     every planted defect is found and counted, nothing else is lost.  Bounded: fails rather than hangs."""
@@ -398,7 +402,8 @@ def test_hop_split_over_overlapping_files(tmp_path):
     for part, path in zip((first, second), paths):
         writers.write_log(part, path, "wide_iso", floor_dbm=spec.floor_value_dbm)
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DataWarning)
+        warnings.simplefilter("ignore", RuntimeWarning)
         (result,) = analyze_files(paths, links=[sim.link])
     reports = result.ingest["files"]
     assert len(reports) == 2

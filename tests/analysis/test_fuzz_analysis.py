@@ -4,9 +4,9 @@
   random levels (inside and outside plausible ranges), statuses, gaps, channels, sampling steps, interval
   statistics, a stray row days to years away, and random link parameters (inside and outside plausible ranges);
 * ``analyze_files`` on random and mutated CSV bytes (reader + analysis together; the reader alone is fuzzed in
-  tests/test_ingest_fuzz.py).
+  tests/read/test_ingest_fuzz.py).
 
-Invariants of a result: the conservation checks of tests/test_conservation.py (analysed time = observed + no data,
+Invariants of a result: the conservation checks of tests/cli/test_conservation.py (analysed time = observed + no data,
 per-cause rows add up, nothing above the observed time), events with causes from the vocabulary, start <= end,
 confidence in [0, 1], no analysis stage failed (the pipeline turns a crashing stage into a "failed (...)" line in
 ``skipped``: on a valid table that is a bug), and the four table/JSON outputs can be written.
@@ -24,15 +24,17 @@ import pandas as pd
 import pytest
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
-from test_conservation import check_outage_accounting
 
 from diag import schema as S
-from diag.errors import InputError
+from diag.errors import DataWarning, InputError
 from diag.links import make_link
 from diag.pipeline import analyze_files, analyze_link
 from diag.report import tables
+from tests.cli.test_conservation import check_outage_accounting
 
-pytestmark = pytest.mark.filterwarnings("ignore")   # RuntimeWarning/DataWarning on odd inputs are allowed
+# RuntimeWarning/DataWarning on odd inputs are allowed
+pytestmark = [pytest.mark.filterwarnings("ignore::diag.errors.DataWarning"),
+              pytest.mark.filterwarnings("ignore::RuntimeWarning")]
 FUZZ = settings(deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 T0 = pd.Timestamp("2026-05-04T00:00:00Z")
 
@@ -170,7 +172,8 @@ def table_strategy(draw, link_id: str = "FZ-1"):
 def _analyze_or_input_error(table, link, label, raise_input_error=False):
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             result = analyze_link(table, link)
     except InputError as exc:
         assert exc.one_line() and "\n" not in exc.one_line()
@@ -196,6 +199,7 @@ def test_analyze_link_random_tables(table, link):
 
 @FUZZ
 @given(table=table_strategy(), data=st.data())
+@pytest.mark.slow
 def test_analyze_link_plausible_hop(table, data):
     """A plausible hop (the usual case) on random data: must give a result, never InputError."""
     link = make_link({"link_id": "FZ-1", "frequency_ghz": 23.0, "length_km": 8.0,
@@ -251,6 +255,7 @@ def csv_bytes(draw):
 
 @FUZZ
 @given(data=csv_bytes(), link=link_strategy(link_id="fuzz", always_plausible=True))
+@pytest.mark.slow
 def test_analyze_files_random_csv(data, link):
     from diag.read.ingest import read_log
 
@@ -259,7 +264,8 @@ def test_analyze_files_random_csv(data, link):
         return
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             results = analyze_files([("fuzz.csv", data)], links=[link])
     except InputError as exc:
         assert exc.one_line() and "\n" not in exc.one_line()
@@ -275,7 +281,7 @@ def test_analyze_files_random_csv(data, link):
 # memory stays bounded on a sparse log (a stray far time stamp must not become a huge regular grid)
 
 
-@pytest.mark.parametrize("far_s", [3 * 86400, 5 * 365 * 86400])
+@pytest.mark.parametrize("far_s", [pytest.param(3 * 86400, marks=pytest.mark.slow), 5 * 365 * 86400])
 def test_sparse_log_bounded_memory(tmp_path, far_s):
     """200 one-second rows plus one row days or years later, analysed in a child process whose address space is
     capped at 3 GiB (resource.setrlimit): status 0 with outputs, or status 2 with one line; never a MemoryError."""
@@ -297,7 +303,7 @@ def test_sparse_log_bounded_memory(tmp_path, far_s):
     proc = subprocess.run([sys.executable, "-m", "diag", "analyze", str(path), "--freq-ghz", "23", "--length-km", "8",
                            "--polarization", "H", "--threshold-dbm", "-72", "--out", str(tmp_path / "out")],
                           capture_output=True, text=True, timeout=300, preexec_fn=limit,
-                          cwd=Path(__file__).resolve().parents[1])
+                          cwd=Path(__file__).resolve().parents[2])
     assert "MemoryError" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr[-2000:]
     assert proc.returncode in (0, 2), proc.stderr[-2000:]
     if proc.returncode == 2:

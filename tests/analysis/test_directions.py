@@ -20,7 +20,7 @@ from diag.errors import InputError
 from diag.pipeline import analyze_link
 from diag.read.ingest import read_log
 from diag.sim.log_shapes import write_epoch, write_semicolon_local, write_wide_iso
-from diag.sim.simulate import DIRECTION_MP_CORRELATION, Effect, LinkSpec, simulate_link
+from diag.sim.simulate import DIRECTION_MP_CORRELATION, Effect, LinkSpec
 
 H = 3600.0
 GO, BACK = "A>B", "B>A"
@@ -47,9 +47,8 @@ def _spec(**changes) -> LinkSpec:
 
 
 @pytest.fixture(scope="module")
-def hop():
-    sim = simulate_link(_spec(), seed=7)
-    return sim, analyze_link(sim.table, sim.link)
+def hop(hops):
+    return hops.analysed(_spec(), seed=7)
 
 
 def _at(seconds: float) -> pd.Timestamp:
@@ -99,14 +98,14 @@ def test_simulated_directions_follow_the_stated_physics(hop):
     assert 0.3 < r < 0.98
 
 
-def test_direction_scatter_power_correlation_is_rho_squared():
+def test_direction_scatter_power_correlation_is_rho_squared(hops):
     # For jointly circular complex Gaussian scatter with complex correlation rho, the power envelopes |x|^2, |y|^2
     # have correlation |rho|^2 (standard result for Rayleigh fading, e.g. Jakes 1974 ch. 1; from memory).  K = 0
     # (pure Rayleigh), 0.2 Hz fading sampled every 5 s: ~8000 nearly independent pairs, std error ~0.01.
     spec = LinkSpec("DIRMP", 8.0, 40.0, "H", -75.0, duration_s=40_000.0, noise_db=0.0, quantisation_db=0.0,
                     directions=True,
                     effects=(Effect("multipath", 0.0, None, {"k_min": 0.0, "k_max": 0.0, "fade_rate_hz": 0.2}),))
-    truth = simulate_link(spec, seed=5).truth_samples
+    truth = hops.sim(spec, seed=5).truth_samples
     power = [10.0 ** (-truth.loc[truth["channel"] == ch, S.MULTIPATH].to_numpy()[::5] / 10.0) for ch in (GO, BACK)]
     r = np.corrcoef(power[0], power[1])[0, 1]
     assert r == pytest.approx(DIRECTION_MP_CORRELATION ** 2, abs=0.04)
@@ -206,10 +205,10 @@ def test_outage_accounting_adds_up(hop):
 @pytest.mark.parametrize("names", [(GO, BACK), ("near", "far")])
 @pytest.mark.parametrize("writer,kwargs", [(write_wide_iso, {}), (write_semicolon_local, {"tz": "Europe/Berlin"}),
                                            (write_epoch, {})])
-def test_direction_columns_round_trip(tmp_path, names, writer, kwargs):
+def test_direction_columns_round_trip(hops, tmp_path, names, writer, kwargs):
     spec = LinkSpec("DIR2", 23.0, 5.0, "H", -70.0, duration_s=900.0, directions=True, direction_names=names,
                     effects=(Effect("signal_loss", 100.0, 60.0, {"channels": [names[1]]}),))
-    sim = simulate_link(spec, seed=1)
+    sim = hops.sim(spec, seed=1)
     path = tmp_path / "DIR2.csv"
     writer(sim.table, path, **kwargs)
     header = path.read_text().splitlines()[0]
@@ -227,14 +226,14 @@ def test_direction_columns_round_trip(tmp_path, names, writer, kwargs):
     assert (got[S.STATUS] == S.SIGNAL_LOST).sum() == 60          # the one-direction loss survives the file
 
 
-def test_direction_names_do_not_set_the_polarisation():
+def test_direction_names_do_not_set_the_polarisation(hops):
     # a site code such as "V2" in a direction name is no polarisation: on a single-polarised hop the links table's
     # polarisation (H here) sets the P.838 coefficients, whatever the channels are called (links-table contract)
     def rain_rows(names):
         spec = LinkSpec("DIR3", 23.0, 6.0, "H", -70.0, nominal_dbm=-35.0, duration_s=4 * H, directions=True,
                         direction_names=names,
                         effects=(Effect("rain", 1.5 * H, 1.0 * H, {"peak_mmh": 40.0, "wet_antenna_db": 0.5}),))
-        sim = simulate_link(spec, seed=3)
+        sim = hops.sim(spec, seed=3)
         events = analyze_link(sim.table, sim.link).events
         return events[events["event_kind"] == "fade"].sort_values(["start_utc", "channel"], kind="stable")
 

@@ -8,23 +8,18 @@ diag.analysis.fading_stats,
 cross-polar from diag.analysis.crosspol and level changes from diag.analysis.steps.
 """
 import json
-import sys
-from pathlib import Path
 
 from diag.analysis import crosspol, findings
 from diag.analysis import fading_stats as stats
 from diag.analysis import steps as shifts
 from diag.analysis.outage import account_link
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
-
-sys.path.insert(0, str(Path(__file__).parent))
-from _stats_support import truth_result  # noqa: E402
+from diag.sim.simulate import Effect, LinkSpec
 
 KEYS = {"title", "detail", "numbers", "actions", "cautions", "severity"}
 
 
-def _analysed(spec, seed=4):
-    result = truth_result(simulate_link(spec, seed=seed))
+def _analysed(hops, spec, seed=4):
+    result = hops.truth(spec, seed=seed)
     result.statistics = stats.link_statistics(result)
     result.cross_polar = crosspol.cross_polar(result)
     result.level_changes = shifts.level_changes(result)
@@ -32,11 +27,11 @@ def _analysed(spec, seed=4):
     return result
 
 
-def test_rain_dominated_hop_gets_rain_first_with_remedies():
+def test_rain_dominated_hop_gets_rain_first_with_remedies(hops):
     spec = LinkSpec(link_id="wet", frequency_ghz=23, length_km=12, polarization="H", threshold_dbm=-68,
                     r001_mmh=40, objective_pct=99.99, duration_s=6 * 3600,
                     effects=(Effect("rain", 3600, 2 * 3600, {"peak_mmh": 90}),))
-    out = findings.rank_findings(_analysed(spec))
+    out = findings.rank_findings(_analysed(hops, spec))
     assert out and KEYS <= set(out[0])
     top = out[0]
     assert top["cause"] == "rain" and top["severity"] == "high"
@@ -49,11 +44,11 @@ def test_rain_dominated_hop_gets_rain_first_with_remedies():
     json.dumps(out)
 
 
-def test_tilt_and_step_get_site_cautions():
+def test_tilt_and_step_get_site_cautions(hops):
     spec = LinkSpec(link_id="tilted", frequency_ghz=18, length_km=8, polarization="dual", threshold_dbm=-80,
                     xpd_required_db=25, duration_s=18 * 3600,
                     effects=(Effect("level_shift", 6 * 3600, None, {"step_db": 5, "tilt_deg": 8}),))
-    out = findings.rank_findings(_analysed(spec))
+    out = findings.rank_findings(_analysed(hops, spec))
     tilt = [f for f in out if f["cause"] == "polarisation_tilt"]
     assert len(tilt) == 1 and tilt[0]["severity"] == "high"        # XPD below the required 25 dB
     assert abs(tilt[0]["numbers"]["tilt_deg"] - 8.0) <= 1.0
@@ -66,21 +61,21 @@ def test_tilt_and_step_get_site_cautions():
     assert all(KEYS <= set(f) for f in out)
 
 
-def test_quiet_hop_has_no_high_findings():
+def test_quiet_hop_has_no_high_findings(hops):
     spec = LinkSpec(link_id="calm", frequency_ghz=15, length_km=5, polarization="V", threshold_dbm=-80,
                     duration_s=3 * 3600)
-    out = findings.rank_findings(_analysed(spec))
+    out = findings.rank_findings(_analysed(hops, spec))
     assert all(f["severity"] != "high" for f in out)
 
 
-def test_coarse_logs_quote_bounds_not_one_number():
+def test_coarse_logs_quote_bounds_not_one_number(hops):
     # 15-min statistics give outage bounds (diag.analysis.outage); the finding must quote "lo to hi", never a made-up
     # value
     import numpy as np
 
     spec = LinkSpec(link_id="coarse", frequency_ghz=23, length_km=12, polarization="H", threshold_dbm=-68,
                     duration_s=6 * 3600, effects=(Effect("rain", 3600, 2 * 3600, {"peak_mmh": 90}),))
-    result = _analysed(spec)
+    result = _analysed(hops, spec)
     by = result.outage.by_cause
     rain = by["cause"] == "rain"
     by.loc[rain, "unavailable_s_lo"] = 600.0

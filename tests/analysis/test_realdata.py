@@ -13,7 +13,7 @@ Gauges sit 0.2-2.2 km from the path midpoints; a convective shower can fade a li
 other way round), so perfect agreement is not expected.  Thresholds are set a little below the figures measured
 when this test was written (listed beside each); they are regression bars, not claims of accuracy elsewhere.
 
-Run ``python tests/test_realdata.py [DIR]`` to print the per-link table (DIR defaults to the excerpt; the full
+Run ``python tests/analysis/test_realdata.py [DIR]`` to print the per-link table (DIR defaults to the excerpt; the full
 15-link subset lives outside the repository).
 """
 from __future__ import annotations
@@ -30,7 +30,9 @@ from diag.pipeline import analyze_link
 from diag.read.gauge import check_rain_verdicts, read_gauge
 from diag.read.ingest import read_log
 
-DATA = Path(__file__).parent / "data" / "openrainer"
+pytestmark = pytest.mark.slow   # module fixtures read and analyse the real links twice (> 3 s)
+
+DATA = Path(__file__).resolve().parents[1] / "data" / "openrainer"
 RAIN_LINKS = (249, 264, 306, 347, 525, 142)     # gauge within 2.2 km of the path midpoint
 NIGHT_LINK = 275                                 # low-lying plain link, clear-air fading on dry nights
 ASSUMED_THRESHOLD_DBM = -90.0                    # not in the data set; only the outage figures depend on it

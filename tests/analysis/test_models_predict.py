@@ -135,7 +135,7 @@ def test_predict_json_agrees_with_itur_on_grid(capsys):
         r = _json(capsys, ["--freq-ghz", str(f), "--length-km", str(d), "--polarization", pol, "--r001-mmh", "35",
                            "--tx-dbm", "18", "--gain-dbi", "38", "--threshold-dbm", str(thr)])
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", RuntimeWarning)
             a01 = itu530.rain_attenuation(0.0, 0.0, d, f, 0.0, 0.01, tau=tau, R001=35.0).value
             a1 = itu530.rain_attenuation(0.0, 0.0, d, f, 0.0, 0.1, tau=tau, R001=35.0).value
             try:
@@ -157,7 +157,7 @@ def test_predict_multipath_agrees_with_itur_deep_fades(capsys):
     itu530 = pytest.importorskip("itur.models.itu530")
     for lat, lon, d, f in ((51.5, -0.13, 30.0, 8.0), (1.3, 103.8, 40.0, 13.0), (40.0, -3.7, 20.0, 18.0)):
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DeprecationWarning)
             p0 = float(itu530.multipath_loss_for_A(lat, lon, 50.0, 50.0, d, f, 0.0).value)
         k = p0 / p530.multipath_occurrence_percent(d, f, 1.0, 0.0, 50.0)
         r = _json(capsys, ["--freq-ghz", str(f), "--length-km", str(d), "--geoclimatic-k", repr(float(k)),
@@ -166,7 +166,7 @@ def test_predict_multipath_agrees_with_itur_deep_fades(capsys):
         margin = r["fade_margin_db"]
         assert margin >= 25 + 1.2 * math.log10(p0)  # deep-fade region
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DeprecationWarning)
             ref = float(itu530.multipath_loss(lat, lon, 50.0, 50.0, d, f, margin).value)
         assert r["multipath_p0_pct"] == pytest.approx(p0, rel=1e-5)
         assert r["multipath_outage_worst_month_pct"] == pytest.approx(ref, rel=1e-5)

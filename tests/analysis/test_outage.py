@@ -1,6 +1,6 @@
 """Outage accounting (diag.analysis.outage) on hand-built series and on simulated hops whose true outage is known.
 
-The counting rule is ITU-T G.826 (12/2002) Annex A (see tests/test_g826.py for its sources).  Truth for the
+The counting rule is ITU-T G.826 (12/2002) Annex A (see tests/models/test_g826.py for its sources).  Truth for the
 simulated hops comes from diag.sim.simulate's per-sample truth: true level = clear-sky level - propagation fade, below
 threshold when under ``threshold_dbm`` or during a signal loss; true cause = largest contribution (LEAD's rule).
 """
@@ -310,8 +310,8 @@ def true_unavailable_by_cause(sr):
 
 
 @pytest.fixture(scope="module")
-def sim_1s():
-    return sim.simulate_link(_spec(EFFECTS, polarization="dual"), seed=7)
+def sim_1s(hops):
+    return hops.sim(_spec(EFFECTS, polarization="dual"), seed=7)
 
 
 def test_simulated_1s_per_cause_within_2_percent_of_truth(sim_1s):
@@ -337,10 +337,10 @@ def test_simulated_1s_per_cause_within_2_percent_of_truth(sim_1s):
     assert res.summary["observed_s"] + res.summary["no_data_s"] == 6 * 3600
 
 
-def test_simulated_coarse_samples_bounds_contain_truth(sim_1s):
+def test_simulated_coarse_samples_bounds_contain_truth(hops, sim_1s):
     # 10-s instantaneous samples of the same hop (every 10th sample); slow causes only, since the bounds assume at
     # most one threshold crossing between two samples (multipath breaks that assumption, which the method says)
-    sr = sim.simulate_link(_spec([EFFECTS[0], EFFECTS[2]], polarization="H"), seed=3)
+    sr = hops.sim(_spec([EFFECTS[0], EFFECTS[2]], polarization="H"), seed=3)
     exact = outage.account_link(result_for(series_from_sim(sr), link=sr.link)).summary
     coarse = []
     for s in series_from_sim(sr):

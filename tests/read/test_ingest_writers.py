@@ -14,7 +14,7 @@ from diag import schema as S
 from diag.read.ingest import read_log
 from diag.sim import log_shapes as writers
 from diag.sim import simulate
-from tests.test_ingest_shapes import check_accounting
+from tests.read.test_ingest_shapes import check_accounting
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")
 KEYS = [S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME]

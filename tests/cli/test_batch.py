@@ -20,10 +20,13 @@ from pypdf import PdfReader
 
 from diag import batch, schema
 from diag.cli import main as cli_main
+from diag.errors import DataWarning
 from diag.pipeline import analyze_files
 from diag.report import events_csv_bytes, findings_json_bytes, outage_by_cause_csv_bytes, outage_summary_csv_bytes
 from diag.sim.log_shapes import write_stats
 from diag.sim.simulate import aggregate_statistics, random_scenario, simulate_scenario
+
+pytestmark = pytest.mark.slow   # module fixtures simulate 20 hops and run them on a 2-worker cluster (> 3 s)
 
 N_HOPS = 20
 BROKEN = "Fenwick-07"      # gets a second file that is not a log at all
@@ -39,7 +42,8 @@ def network(tmp_path_factory):
     logs = root / "logs"
     logs.mkdir()
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")   # "fade rate near the sampling rate" at 60-s simulation steps
+        warnings.simplefilter("ignore", DataWarning)  # "fade rate near the sampling rate" at 60-s simulation steps
+        warnings.simplefilter("ignore", RuntimeWarning)
         scen = random_scenario(808, n_links=N_HOPS, duration_h=24, interval_s=60.0, defects=False)
         sims, _ = simulate_scenario(scen, seed=808)
     links = []
@@ -74,7 +78,8 @@ def test_cluster_gives_the_serial_results_hop_for_hop(network, network_run):
         if link.link_id == BROKEN:
             continue
         with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+            warnings.simplefilter("ignore", DataWarning)
+            warnings.simplefilter("ignore", RuntimeWarning)
             (serial,) = analyze_files([logs / f"{link.link_id}.csv"], links=links)
         got = by_id[link.link_id]
         assert got.error is None, got.error

@@ -18,7 +18,7 @@ from diag.sim.log_shapes import SHAPES
 from diag.sim.scenarios import builtin_names, load_scenario, parse_scenario
 from diag.sim.simulate import simulate_scenario
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "demo_logs"
 
 
@@ -36,6 +36,7 @@ def test_builtin_scenarios_load_and_name_their_causes():
         assert scenario.links and scenario.name == name
 
 
+@pytest.mark.slow
 def test_every_shape_written_and_read_back(tmp_path):
     assert (
         main(["simulate", "--scenario", "quick", "--out", str(tmp_path), "--seed", "3", "--shape", "all"])
@@ -64,6 +65,7 @@ def test_same_seed_same_bytes_other_seed_other_bytes(tmp_path):
     assert a.keys() == c.keys() and a != c
 
 
+@pytest.mark.slow
 def test_demo_logs_regenerate_byte_identical(tmp_path):
     # the exact command from demo_logs/README.md
     readme = (DEMO / "README.md").read_text(encoding="utf-8")
@@ -80,6 +82,7 @@ def test_demo_logs_regenerate_byte_identical(tmp_path):
     assert sum(len(v) for v in committed.values()) < 10_000_000
 
 
+@pytest.mark.slow
 def test_bad_scenarios_give_one_line_and_status_2(tmp_path):
     bad = tmp_path / "bad.toml"
     cases = {

@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 
 from diag.errors import InputError
 from diag.read.ingest import read_log
-from tests.test_ingest_shapes import CASES, check_accounting
+from tests.read.test_ingest_shapes import CASES, check_accounting
 
 pytestmark = pytest.mark.filterwarnings("ignore::diag.errors.DataWarning")
 SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])

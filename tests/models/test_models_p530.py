@@ -67,7 +67,9 @@ def test_rain_against_itur_grid():
             for tau in (0.0, 90.0):  # itur defaults to tau = 45 (circular): pass 0/90 for terrestrial links
                 for p in (0.001, 0.01, 0.1, 1.0):
                     with warnings.catch_warnings():
-                        warnings.simplefilter("ignore")
+                        warnings.simplefilter("ignore", DeprecationWarning)
+                        # itur evaluates log10(f/10)**0.8 for f < 10 GHz too (np.where keeps the other branch)
+                        warnings.filterwarnings("ignore", "invalid value encountered in scalar power", RuntimeWarning)
                         ref = float(itu530.rain_attenuation(lat, lon, d, f, 0.0, p, tau=tau, R001=42.0).value)
                     a001 = p530.rain_attenuation_001_db(d, f, 42.0, tau)
                     same = p530.rain_attenuation_db(p, a001, f, "power_of_log")
@@ -99,7 +101,7 @@ def test_rain_event_count_itur():
     # ITU-Rpy's rain_event_count gives the same N10s for the percentage at which A is exceeded (its own C0 reading)
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DeprecationWarning)
         # itur labels this count "%" (REFERENCES.md §9); the number itself is the count
         ref = float(itu530.rain_event_count(10.0, 10.0, 10.0, 23.0, 0.0, 20.0, tau=0, R001=42.0).value)
     a001 = p530.rain_attenuation_001_db(10.0, 23.0, 42.0, 0.0)
@@ -123,30 +125,48 @@ def test_multipath_worked_example():
     np.testing.assert_allclose(p530.multipath_fade_percent([10.0, 20.0], 1.0), [0.12882, 0.0093756], rtol=1e-3)
 
 
-def test_multipath_shallow_fade_text_wins_over_itur():
-    # ITU-Rpy 0.4.0 misplaces brackets in eqs. (16) and (17) of §2.3.2 (REFERENCES.md §9).  At London's maps
-    # (p0 = 1.4467 %) it returns 1.145 % at A = 10 dB and 0.175 % at 20 dB; the Recommendation's text gives
-    # 0.1693 % and 0.01338 %.  We assert the text's values and record that itur disagrees.
+LONDON_PATH = (51.5, -0.13, 200.0, 100.0, 30.0, 8.0)   # lat, lon, h_e (m), h_r (m), d (km), f (GHz), itur's order
+
+
+def _itur_multipath_percent(itu530, depth_db):
+    with warnings.catch_warnings():
+        # itur 0.4.0 calls numpy/scipy functions that numpy 2 deprecates (DeprecationWarning only)
+        warnings.simplefilter("ignore", DeprecationWarning)
+        return float(itu530.multipath_loss(*LONDON_PATH, depth_db).value)
+
+
+def test_multipath_shallow_fade_follows_the_text():
+    # P.530-17 §2.3.2 eqs. (14)-(17) (shallow-fade interpolation), values computed from the printed equations in
+    # REFERENCES.md §3.2/§9 [C]: at London's maps (p0 = 1.4467 %, from itur's P.530 geoclimatic maps and eq. (7)),
+    # 0.1693 % at A = 10 dB and 0.01338 % at 20 dB.
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
-        p0 = float(itu530.multipath_loss_for_A(51.5, -0.13, 200.0, 100.0, 30.0, 8.0, 0.0).value)
-        itur_10 = float(itu530.multipath_loss(51.5, -0.13, 200.0, 100.0, 30.0, 8.0, 10.0).value)
-        itur_20 = float(itu530.multipath_loss(51.5, -0.13, 200.0, 100.0, 30.0, 8.0, 20.0).value)
+        warnings.simplefilter("ignore", DeprecationWarning)
+        p0 = float(itu530.multipath_loss_for_A(*LONDON_PATH, 0.0).value)
     assert p0 == pytest.approx(1.4467, rel=1e-4)
     ours = p530.multipath_fade_percent(np.array([10.0, 20.0]), p0)
     np.testing.assert_allclose(ours, [0.1693, 0.01338], rtol=1e-3)  # the text's values
-    assert itur_10 == pytest.approx(1.145, rel=1e-3) and itur_20 == pytest.approx(0.175, rel=1e-3)  # the bug
     # deep fades (A >= A_t) use eq. (13), where itur and the text agree
-    assert p530.multipath_fade_percent(30.0, p0) == pytest.approx(
-        float(itu530.multipath_loss(51.5, -0.13, 200.0, 100.0, 30.0, 8.0, 30.0).value), rel=1e-9)
+    assert p530.multipath_fade_percent(30.0, p0) == pytest.approx(_itur_multipath_percent(itu530, 30.0), rel=1e-9)
+
+
+@pytest.mark.xfail(strict=True, raises=AssertionError,
+                   reason="itur 0.4.0 misplaces brackets in P.530-17 §2.3.2 eqs. (16)/(17) (q_t, q_a): it gives 1.145 "
+                          "% and 0.175 % at 10/20 dB (REFERENCES.md §9). Strict: a fixed itur XPASSes, which fails, so "
+                          "this note can go then.")
+def test_itur_shallow_fade_matches_the_text():
+    # the published value (P.530-17 §2.3.2, computed from the printed equations, REFERENCES.md §3.2 [C]) asked of
+    # itur: it fails today because of itur's bracket bug
+    itu530 = pytest.importorskip("itur.models.itu530")
+    assert _itur_multipath_percent(itu530, 10.0) == pytest.approx(0.1693, rel=1e-3)
+    assert _itur_multipath_percent(itu530, 20.0) == pytest.approx(0.01338, rel=1e-3)
 
 
 def test_multipath_deep_fade_against_itur():
     # ITU-Rpy's deep-fade law (P.530-17 eq. (7)) with its own K from maps: ours with the same K must agree exactly
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DeprecationWarning)
         for (lat, lon) in ((51.5, -0.13), (1.3, 103.8)):
             for (d, f, he, hr) in ((20.0, 7.0, 50.0, 80.0), (45.0, 13.0, 300.0, 20.0)):
                 p0_itur = float(itu530.multipath_loss_for_A(lat, lon, he, hr, d, f, 0.0).value)
@@ -212,7 +232,7 @@ def test_xpd_outage_rain_text_wins_over_itur():
     itu530 = pytest.importorskip("itur.models.itu530")
     itu837 = pytest.importorskip("itur.models.itu837")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DeprecationWarning)
         itur_value = float(itu530.XPD_outage_precipitation(51.5, -0.13, 10.0, 23.0, 0.0, 20.0, tau=90).value)
         r001 = float(itu837.rainfall_rate(51.5, -0.13, 0.01).value)
     ours = p530.xpd_outage_rain_probability(p530.rain_attenuation_001_db(10.0, 23.0, r001, 90.0), 23.0, 20.0)
@@ -228,7 +248,7 @@ def test_xpd_outage_clear_air_text_wins_over_itur():
     # p0 for London (1.4467 %) it gives 0.005133 "%", whereas the text gives a different probability.
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DeprecationWarning)
         itur_value = float(itu530.XPD_outage_clear_air(51.5, -0.13, 200.0, 100.0, 30.0, 8.0, 30.0, 20.0).value)
     ours = p530.xpd_outage_clear_air_probability(1.44665, 30.0, 20.0)
     # itur's value equals the formula evaluated with P0 in per cent instead of a fraction
@@ -259,7 +279,7 @@ def test_rain_monotone(d, f, r001, tau):
     # test_rain_long_path_quirk); rarer -> deeper.  R0.01 from 5 mm/h: below ~3.5 mm/h, next to the r = 2.5 cap,
     # A0.01 can fall slightly as R rises (measured on a grid here: 6 GHz/35 km up to R = 3.5 mm/h)
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", RuntimeWarning)
         a = p530.rain_attenuation_001_db(d, f, r001, tau)
         assert p530.rain_attenuation_001_db(d, f, r001 * 1.05, tau) > a
         assert p530.rain_attenuation_001_db(d * 1.05, f, r001, tau) > a

@@ -14,23 +14,23 @@ from diag.links import make_link
 from diag.pipeline import AnalysisConfig, analyze_files, analyze_link, analyze_tables
 from diag.results import LinkResult
 from diag.sim.log_shapes import write_log
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec
 
 H = 3600.0
 
 
 @pytest.fixture(scope="module")
-def sim():
+def sim(hops):
     spec = LinkSpec(link_id="PL-A", frequency_ghz=23.0, length_km=5.0, polarization="dual", threshold_dbm=-70.0,
                     nominal_dbm=-38.0, duration_s=10 * H, objective_pct=99.99,
                     effects=(Effect("rain", 3 * H, H, {"peak_mmh": 60.0}),
                              Effect("signal_loss", 7 * H, 600.0)))
-    return simulate_link(spec, seed=4)
+    return hops.sim(spec, seed=4)
 
 
 @pytest.fixture(scope="module")
-def result(sim):
-    return analyze_link(sim.table, sim.link)
+def result(sim, hops):
+    return hops.analysed(sim.spec, seed=4)[1]
 
 
 def test_result_fields_filled(result, sim):

@@ -5,8 +5,6 @@ REFERENCES.md §3.1 / §3.2 (P.530 rain and multipath check values, computed fro
 simulator's documented fading bandwidth (diag.sim.simulate: Rayleigh LCR = sqrt(2 pi) f_m rho e^-rho^2).
 """
 import json
-import sys
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -16,10 +14,7 @@ from scipy import stats as sps
 from diag.analysis import fading_stats as stats
 from diag.links import make_link
 from diag.results import ChannelSeries
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
-
-sys.path.insert(0, str(Path(__file__).parent))
-from _stats_support import truth_result  # noqa: E402
+from diag.sim.simulate import Effect, LinkSpec
 
 
 def _link(**extra):
@@ -111,12 +106,12 @@ def test_rice_k_estimates_on_rice_samples():
     assert out["k_mle"] == pytest.approx(k, rel=0.15)
 
 
-def test_lcr_fit_recovers_simulated_fading_bandwidth():
+def test_lcr_fit_recovers_simulated_fading_bandwidth(hops):
     # the simulator documents its multipath fade rate as the f_m of the Rayleigh LCR formula
     spec = LinkSpec(link_id="mp", frequency_ghz=8, length_km=40, polarization="H", threshold_dbm=-95,
                     duration_s=6 * 3600, effects=(Effect("multipath", 1800, 5 * 3600,
                                                          {"k_min": 0, "k_max": 0, "fade_rate_hz": 0.05}),))
-    result = truth_result(simulate_link(spec, seed=3))
+    result = hops.truth(spec, seed=3)
     out = stats.lcr_block(result.series["H"])
     assert out["fading_bandwidth_hz"] == pytest.approx(0.05, rel=0.25)
     # identity N_R * tau = P(below) = 1 - exp(-rho^2) (REFERENCES §5): theory columns use the same level scale
@@ -127,10 +122,10 @@ def test_lcr_fit_recovers_simulated_fading_bandwidth():
     assert stats.rice_block(result.series["H"])["k_moments"] < 0.5
 
 
-def test_link_statistics_skips_named_checks_and_is_json():
+def test_link_statistics_skips_named_checks_and_is_json(hops):
     spec = LinkSpec(link_id="r", frequency_ghz=23, length_km=8, polarization="dual", threshold_dbm=-70,
                     duration_s=4 * 3600, effects=(Effect("rain", 3600, 3600, {"peak_mmh": 50}),))
-    result = truth_result(simulate_link(spec, seed=1))
+    result = hops.truth(spec, seed=1)
     out = stats.link_statistics(result)
     json.dumps(out)
     text = " ".join(out["skipped"])
@@ -155,13 +150,13 @@ def test_statistics_log_gives_bounds_and_skips_envelope():
     assert "skipped" in out["rice_k"] and "skipped" in out["lcr_afd"]
 
 
-def test_rice_crossing_fit_recovers_bandwidth_when_k_is_large():
+def test_rice_crossing_fit_recovers_bandwidth_when_k_is_large(hops):
     # a Rician period (K = 5): the Rayleigh formula misreads the crossing rate, the Rice formula
     # (diag.models.fading.rice_level_crossing_rate_hz) with the measured K recovers the simulator's f_m
     spec = LinkSpec(link_id="mpk", frequency_ghz=8, length_km=40, polarization="H", threshold_dbm=-95,
                     duration_s=6 * 3600, effects=(Effect("multipath", 1800, 5 * 3600,
                                                          {"k_min": 5, "k_max": 5, "fade_rate_hz": 0.05}),))
-    result = truth_result(simulate_link(spec, seed=3))
+    result = hops.truth(spec, seed=3)
     out = stats.channel_statistics(result.series["H"], result.link)
     assert out["rice_k"]["k_moments"] == pytest.approx(5.0, rel=0.2)
     assert out["lcr_afd"]["rice_fading_bandwidth_hz"] == pytest.approx(0.05, rel=0.25)

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 
 from diag.models import p838
 
-DATA = Path(__file__).parent / "data" / "ref_p838.csv"
+DATA = Path(__file__).resolve().parents[1] / "data" / "ref_p838.csv"
 
 
 def _rows():

@@ -11,7 +11,7 @@ import pytest
 
 from diag import schema as S
 from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
-from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
+from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
 
 DAY = 86400.0
 
@@ -22,11 +22,11 @@ def _truth(sim, channel):
 
 
 @pytest.fixture(scope="module")
-def rain_atpc():
+def rain_atpc(hops):
     spec = LinkSpec(link_id="T-RAIN", frequency_ghz=23.0, length_km=6.0, polarization="dual", threshold_dbm=-72.0,
                     nominal_dbm=-38.0, duration_s=DAY, atpc=True, atpc_range_db=10.0, quantisation_db=0.1,
                     effects=(Effect("rain", 10 * 3600.0, 3600.0, {"peak_mmh": 40.0, "wet_antenna_db": 1.0}),))
-    sim = simulate_link(spec, seed=3)
+    sim = hops.sim(spec, seed=3)
     series = channel_grids(sim.table)
     for item in series.values():
         add_reference(item)
@@ -73,12 +73,12 @@ def test_without_tsl_the_atpc_fade_would_be_missed(rain_atpc):
     assert (truth[deep] - item.frame["attenuation_db"][deep]).median() == pytest.approx(10.0, abs=0.5)
 
 
-def test_reference_follows_a_level_shift_and_reports_it():
+def test_reference_follows_a_level_shift_and_reports_it(hops):
     spec = LinkSpec(link_id="T-SHIFT", frequency_ghz=18.0, length_km=12.0, polarization="H", threshold_dbm=-75.0,
                     nominal_dbm=-42.0, duration_s=1.5 * DAY,
                     effects=(Effect("level_shift", 0.6 * DAY, None, {"step_db": 5.0}),
                              Effect("rain", 0.6 * DAY + 3 * 3600.0, 1800.0, {"peak_mmh": 30.0})))
-    sim = simulate_link(spec, seed=5)
+    sim = hops.sim(spec, seed=5)
     item = channel_grids(sim.table)["H"]
     add_reference(item)
     spans = level_shift_spans(item)
@@ -98,11 +98,11 @@ def test_reference_follows_a_level_shift_and_reports_it():
     assert rain_window.max() == pytest.approx(rain_peak_truth, abs=0.6)
 
 
-def test_fifteen_minute_statistics_give_peak_attenuation():
+def test_fifteen_minute_statistics_give_peak_attenuation(hops):
     spec = LinkSpec(link_id="T-STATS", frequency_ghz=38.0, length_km=3.0, polarization="V", threshold_dbm=-70.0,
                     nominal_dbm=-40.0, duration_s=DAY,
                     effects=(Effect("rain", 12 * 3600.0, 5400.0, {"peak_mmh": 50.0}),))
-    sim = simulate_link(spec, seed=8)
+    sim = hops.sim(spec, seed=8)
     table = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=spec.floor_value_dbm)
     item = channel_grids(table)["V"]
     assert item.kind == "stats" and item.interval_s == pytest.approx(900.0)

@@ -14,7 +14,7 @@ from itur.models import itu838
 from diag import schema as S
 from diag.analysis.events import FEATURE_COLUMNS, channel_polarization, find_events, paint_series, segment
 from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec
 
 CFG = AnalysisConfig()
 
@@ -70,13 +70,13 @@ def test_channel_polarization(name, expected):
 
 
 @pytest.fixture(scope="module")
-def constant_rain():
+def constant_rain(hops):
     # constant 30 mm/h over the whole 8-km path for 40 min, no wet antenna: A = gamma * L exactly (P.838-3 eq. 1)
     spec = LinkSpec(link_id="E-RAIN", frequency_ghz=23.0, length_km=8.0, polarization="dual", threshold_dbm=-80.0,
                     nominal_dbm=-35.0, duration_s=8 * 3600.0, noise_db=0.05, quantisation_db=0.0,
                     effects=(Effect("rain", 3 * 3600.0, 2400.0, {"profile": "constant", "peak_mmh": 30.0,
                                                                  "wet_antenna_db": 0.0}),))
-    sim = simulate_link(spec, seed=11)
+    sim = hops.sim(spec, seed=11)
     series = channel_grids(sim.table)
     for item in series.values():
         add_reference(item)
@@ -108,11 +108,11 @@ def test_v_over_h_ratio_and_rain_rate_follow_p838(constant_rain):
     assert bool(fades.at["H", "rain_plausible"])
 
 
-def test_multipath_features_show_fast_fading_and_upfades():
+def test_multipath_features_show_fast_fading_and_upfades(hops):
     spec = LinkSpec(link_id="E-MP", frequency_ghz=8.0, length_km=40.0, polarization="H", threshold_dbm=-78.0,
                     nominal_dbm=-45.0, duration_s=6 * 3600.0,
                     effects=(Effect("multipath", 3600.0, 3 * 3600.0, {"k_min": 0.0, "fade_rate_hz": 0.08}),))
-    sim = simulate_link(spec, seed=2)
+    sim = hops.sim(spec, seed=2)
     series = channel_grids(sim.table)
     add_reference(series["H"])
     events = find_events(series, sim.link)

@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 from streamlit.testing.v1 import AppTest
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 APP = str(ROOT / "dashboard.py")
 TIMEOUT_S = 120  # the first run analyses the whole demo network; later runs hit the cache
 
@@ -50,6 +50,7 @@ def _metric_labels(at: AppTest) -> list[str]:
     return [m.label for m in at.metric]
 
 
+@pytest.mark.slow
 def test_demo_network_loads():
     at = _app().run()
     _no_failure(at)
@@ -169,8 +170,8 @@ def test_downloads_are_offered():
     assert all(buttons[n].proto.url for n in ("events.csv", "outage_summary.csv", "outage_by_cause.csv",
                                              "findings.json"))
 
-    # byte identity of these functions with the files write_outputs saves is checked in tests/test_report.py;
-    # tests/test_browser.py downloads events.csv through a real browser and compares it byte for byte.
+    # byte identity of these functions with the files write_outputs saves is checked in tests/report/test_report.py;
+    # tests/ui/test_browser.py downloads events.csv through a real browser and compares it byte for byte.
 
 
 def test_no_temporary_files_left(tmp_path, monkeypatch):

@@ -133,6 +133,7 @@ def test_csv_columns_and_adding_up(written, results):
     assert pd.isna(summary.set_index("link_id").loc["HOP-B", "meets_objective"])   # no objective: blank
 
 
+@pytest.mark.slow
 def test_outputs_are_deterministic(results, written):
     out, _, _ = written
     for maker in (events_csv_bytes, outage_summary_csv_bytes, outage_by_cause_csv_bytes, findings_json_bytes):
@@ -206,6 +207,7 @@ def test_safe_filename(link_id):
     assert name not in (".", "..")
 
 
+@pytest.mark.slow
 def test_hostile_link_ids_and_evidence_are_neutralised(tmp_path):
     results = [_sample_result(HOSTILE_IDS[0]), _sample_result(HOSTILE_IDS[1], evidence="=HYPERLINK(\"x\")"),
                _sample_result(HOSTILE_IDS[2])]
@@ -242,6 +244,7 @@ def test_hop_that_could_not_be_analysed_is_listed_not_dropped(tmp_path):
     assert len(reader.pages) == 3 and "not analysed" in reader.pages[0].extract_text()
 
 
+@pytest.mark.slow
 def test_hop_without_deep_fades_draws_no_empty_legend(tmp_path, caplog):
     """A hop whose exceedance table holds no positive percentage (nothing faded that deep): the chart says so, and
     matplotlib is never asked for a legend without entries (it would draw an empty box and log a warning)."""

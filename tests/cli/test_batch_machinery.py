@@ -2,7 +2,7 @@
 
 The stand-ins are module-level so the worker processes can import them.  What is checked: every hop's result from
 the cluster equals the stand-in run serially on the same rows; failures stay with their hop; files, ranking order
-and progress reports.  (The real pipeline is exercised in tests/test_batch.py.)
+and progress reports.  (The real pipeline is exercised in tests/cli/test_batch.py.)
 """
 from __future__ import annotations
 

@@ -12,7 +12,7 @@ from diag import schema as S
 from diag.cli import main
 from diag.read.store import read_parquet, read_store
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 GOOD = ("Time;Rx level H [dBm];Rx level V [dBm]\n01.12.2026 10:00:00;-45,5;-47,25\n01.12.2026 10:00:01;-99;LOS\n"
         "01.12.2026 10:00:01;-99;LOS\n01.12.2026 10:00:05;-46;\n")
 

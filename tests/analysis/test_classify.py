@@ -16,7 +16,7 @@ import pytest
 from diag import schema as S
 from diag.analysis.classify import STATS_CONFIDENCE_FACTOR
 from diag.pipeline import analyze_link
-from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics, simulate_link
+from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
 
 H = 3600.0
 
@@ -58,12 +58,8 @@ SCENARIOS = {
 
 
 @pytest.fixture(scope="module")
-def analysed():
-    out = {}
-    for cause, spec in SCENARIOS.items():
-        sim = simulate_link(spec, seed=21)
-        out[cause] = (sim, analyze_link(sim.table, sim.link))
-    return out
+def analysed(hops):
+    return {cause: hops.analysed(spec, seed=21) for cause, spec in SCENARIOS.items()}
 
 
 @pytest.mark.parametrize("cause", list(SCENARIOS))

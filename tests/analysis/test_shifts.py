@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from diag.analysis import steps as shifts
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec
 
 
 def _level(sim, channel="H"):
@@ -25,13 +25,13 @@ def _grid(values, start="2026-03-01", step_s=1.0):
     return pd.Series(values, index=idx)
 
 
-def test_step_after_a_refractive_fade_is_timed_and_sized():
+def test_step_after_a_refractive_fade_is_timed_and_sized(hops):
     # a 3-h 10 dB refractive fade ending at 09:00 must not read as a step; the real 5 dB step at 12:00 must
     spec = LinkSpec(link_id="hop-q", frequency_ghz=23, length_km=10, polarization="dual", threshold_dbm=-75,
                     duration_s=2 * 86400,
                     effects=(Effect("refractive", 86400 + 6 * 3600, 3 * 3600, {"depth_db": 10}),
                              Effect("level_shift", 86400 + 12 * 3600, None, {"step_db": 5})))
-    sim = simulate_link(spec, seed=1)
+    sim = hops.sim(spec, seed=1)
     steps = shifts.detect_steps(_level(sim), 1.0)
     assert len(steps) == 1
     true_time = pd.Timestamp("2026-06-02T12:00:00Z")

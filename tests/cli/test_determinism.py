@@ -13,14 +13,16 @@ import hashlib
 import warnings
 
 import pytest
-from test_conservation import _short_spec
 
 from diag.cli import main
+from diag.errors import DataWarning
 from diag.sim import log_shapes as writers
 from diag.sim.scenarios import load_scenario
 from diag.sim.simulate import aggregate_statistics, simulate_link
+from tests.cli.test_conservation import _short_spec
 
-pytestmark = pytest.mark.filterwarnings("ignore")
+pytestmark = [pytest.mark.filterwarnings("ignore::diag.errors.DataWarning"),
+              pytest.mark.filterwarnings("ignore::RuntimeWarning")]
 OUTPUTS = ("events.csv", "outage_summary.csv", "outage_by_cause.csv", "findings.json", "report.pdf")
 
 
@@ -43,7 +45,8 @@ def logs(tmp_path_factory):
 
 def _run(logs, inputs, out, capsys) -> dict[str, bytes]:
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DataWarning)
+        warnings.simplefilter("ignore", RuntimeWarning)
         rc = main(["analyze", *map(str, inputs), "--links", str(logs / "links.csv"), "--out", str(out)])
     err = capsys.readouterr().err
     assert rc == 0, err
@@ -55,7 +58,8 @@ def first(logs, tmp_path_factory):
 
     out = tmp_path_factory.mktemp("first")
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore")
+        warnings.simplefilter("ignore", DataWarning)
+        warnings.simplefilter("ignore", RuntimeWarning)
         rc = main(["analyze", *map(str, sorted((logs / "logs").iterdir())), "--links", str(logs / "links.csv"),
                    "--out", str(out)])
     assert rc == 0
@@ -79,6 +83,7 @@ def test_folder_input_same_bytes(logs, first, tmp_path, capsys):
         assert first[name] == folder[name], name
 
 
+@pytest.mark.slow
 def test_other_process_other_hash_seed_reversed_inputs(logs, first, tmp_path):
     """A separate interpreter with another string-hash seed (set/dict order of str keys changes with it), inputs
     named in reverse order: still the same bytes."""
@@ -89,7 +94,7 @@ def test_other_process_other_hash_seed_reversed_inputs(logs, first, tmp_path):
 
     out = tmp_path / "d"
     env = {**os.environ, "PYTHONHASHSEED": "4242"}
-    root = Path(__file__).resolve().parents[1]
+    root = Path(__file__).resolve().parents[2]
     proc = subprocess.run([sys.executable, "-m", "diag", "analyze",
                            *map(str, sorted((logs / "logs").iterdir())[::-1]), "--links", str(logs / "links.csv"),
                            "--out", str(out)], capture_output=True, text=True, timeout=300, cwd=root, env=env)

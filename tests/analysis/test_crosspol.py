@@ -7,34 +7,29 @@ have their own XPD (xpd_antenna_db) added in power to the tilt leak.
 """
 import json
 import math
-import sys
-from pathlib import Path
 
 import pandas as pd
 import pytest
 
 from diag.analysis import crosspol
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
-
-sys.path.insert(0, str(Path(__file__).parent))
-from _stats_support import truth_result  # noqa: E402
+from diag.sim.simulate import Effect, LinkSpec
 
 
-def _dual(tilt, *, antenna_xpd=35.0, seed=2, rain=True, required=25.0, hours=24):
+def _dual(hops, tilt, *, antenna_xpd=35.0, seed=2, rain=True, required=25.0, hours=24):
     effects = [Effect("level_shift", 3600 * 12, None, {"step_db": 3, "tilt_deg": tilt})]
     if rain:
         effects.append(Effect("rain", 3600 * 5, 3600 * 2, {"peak_mmh": 60}))
     spec = LinkSpec(link_id="xp", frequency_ghz=23, length_km=10, polarization="dual", threshold_dbm=-75,
                     duration_s=hours * 3600, xpd_required_db=required, xpd_antenna_db=antenna_xpd,
                     effects=tuple(effects))
-    return truth_result(simulate_link(spec, seed=seed))
+    return hops.truth(spec, seed=seed)
 
 
 @pytest.mark.parametrize("tilt", [1.0, 3.0, 5.0, 10.0])
 @pytest.mark.parametrize("antenna_xpd", [35.0, 30.0])
-def test_tilt_within_one_degree(tilt, antenna_xpd):
+def test_tilt_within_one_degree(hops, tilt, antenna_xpd):
     # antenna_xpd 30 dB checks the default assumption (35 dB) being wrong by 5 dB: still within the bar
-    out = crosspol.cross_polar(_dual(tilt, antenna_xpd=antenna_xpd, rain=False, hours=18))
+    out = crosspol.cross_polar(_dual(hops, tilt, antenna_xpd=antenna_xpd, rain=False, hours=18))
     assert abs(out["tilt_deg"] - tilt) <= 1.0                    # issue 5: +-1 deg for tilts of 1-10 deg
     seg = out["xpd"][out["tilt_channel"]]["segments"]
     if tilt >= 3.0:   # the XPD step of a 1-deg tilt on a 30-dB antenna (1.2 dB) is below the 1.5-dB step size
@@ -51,8 +46,8 @@ def test_tilt_from_measured_xpd_inverts_power_sum():
     assert crosspol.tilt_from_measured_xpd_deg(36.0, 35.0) == 0.0
 
 
-def test_xpd_flag_and_rain_fit_next_to_p530():
-    out = crosspol.cross_polar(_dual(7.0))
+def test_xpd_flag_and_rain_fit_next_to_p530(hops):
+    out = crosspol.cross_polar(_dual(hops, 7.0))
     h = out["xpd"]["H"]
     assert h["below_required"] is True                  # 7 deg -> XPD about 18 dB < 25 dB required
     rain = h["rain"]
@@ -64,13 +59,13 @@ def test_xpd_flag_and_rain_fit_next_to_p530():
     json.dumps(out)
 
 
-def test_hv_rain_ratio_matches_p838_via_itur():
+def test_hv_rain_ratio_matches_p838_via_itur(hops):
     import itur.models.itu838 as itu838
 
     spec = LinkSpec(link_id="hv", frequency_ghz=23, length_km=10, polarization="dual", threshold_dbm=-90,
                     duration_s=4 * 3600, effects=(Effect("rain", 3600, 3600, {"peak_mmh": 30, "profile": "constant",
                                                                                  "wet_antenna_db": 0.0}),))
-    result = truth_result(simulate_link(spec, seed=1))
+    result = hops.truth(spec, seed=1)
     # drop the XPD column: the H/V path is the fallback when only levels are logged
     for s in result.series.values():
         del s.frame["xpd_db"]
@@ -85,17 +80,17 @@ def test_hv_rain_ratio_matches_p838_via_itur():
     assert any("XPD" in s for s in out["skipped"])
 
 
-def test_cross_polar_level_column_gives_xpd():
-    result = _dual(3.0, rain=False, hours=14)
+def test_cross_polar_level_column_gives_xpd(hops):
+    result = _dual(hops, 3.0, rain=False, hours=14)
     for s in result.series.values():
         s.frame["xpl_dbm"] = s.frame["rsl_dbm"] - s.frame.pop("xpd_db")
     out = crosspol.cross_polar(result)
     assert abs(out["tilt_deg"] - 3.0) <= 1.0
 
 
-def test_single_polarisation_without_xpd_skips_by_name():
+def test_single_polarisation_without_xpd_skips_by_name(hops):
     spec = LinkSpec(link_id="h", frequency_ghz=18, length_km=5, polarization="H", threshold_dbm=-80,
                     duration_s=3600)
-    out = crosspol.cross_polar(truth_result(simulate_link(spec, seed=0)))
+    out = crosspol.cross_polar(hops.truth(spec, seed=0))
     assert out["xpd"] == {} and "hv" not in out
     assert len(out["skipped"]) >= 2 and all(isinstance(s, str) for s in out["skipped"])
