@@ -179,7 +179,7 @@ def test_rice_crossing_fit_recovers_bandwidth_when_k_is_large(hops):
     result = hops.truth(spec, seed=3)
     out = stats.channel_statistics(result.series["H"], result.link)
     # K from ~18 000 correlated 1-s samples: +-20 % (about 4 sd of the moment estimate from the ~1 800 independent
-    # samples 5 h of 0.05-Hz fading holds; sd measured on scipy.stats.rice samples of that size: ~4 %)
+    # samples 5 h of 0.05-Hz fading holds; sd measured on scipy.stats.rice samples of that size: ~5 %)
     assert out["rice_k"]["k_moments"] == pytest.approx(5.0, rel=0.2)
     # f_m: Poisson interval of the -5 dB count (~240 crossings: 3.29/sqrt(n) = 21 %) plus 10 % for 1-s sampling
     n5 = out["lcr_afd"]["crossings"][out["lcr_afd"]["level_db"].index(-5.0)]
