@@ -121,7 +121,43 @@ CORPUS = _corpus()
 OPTIONS = {"dst_spring_local.csv": ["--tz", "Europe/Vienna"], "dst_autumn_local.csv": ["--tz", "Europe/Vienna"]}
 
 
-def test_corpus_is_large_enough():
+# What `ingest --json` must do with each file, worked out from how the file is built above (not copied from a run):
+# status 2 with a word the one-line message must contain, or status 0 with (rows read, rows kept, {reason: rows}).
+REFUSED = {
+    "binary.csv": "binary", "nul_bytes.csv": "binary",            # NUL bytes / random bytes are not text
+    "empty.csv": "empty", "header_only.csv": "no data rows",
+    "gzip_truncated.csv.gz": "truncated",                         # a 60-byte head of a gzip stream
+    "html_export.csv": "HTML", "json_export.csv": "JSON", "spreadsheet.xlsx": "spreadsheet",
+    "no_time_column.csv": "no time column", "no_signal_column.csv": "no signal column",
+}
+READ = {
+    # name: (rows read, rows kept, rejected by reason)
+    "500_channels.csv": (20, 20, {}), "absurd_high.csv": (40, 40, {}), "absurd_low.csv": (40, 40, {}),
+    "all_floor.csv": (50, 50, {}), "blank_column_names.csv": (20, 20, {}), "bom_crlf.csv": (50, 50, {}),
+    "conflicting_duplicates.csv": (61, 60, {"conflicting_duplicate": 1}),   # one repeated time, another value
+    "constant.csv": (50, 50, {}), "cr_only.csv": (50, 50, {}),
+    "dst_autumn_local.csv": (16, 8, {"dst_ambiguous": 8}),     # 02:00-02:59 happens twice on 25 Oct (Vienna)
+    "dst_spring_local.csv": (18, 12, {"dst_nonexistent": 6}),  # 02:00-02:59 does not exist on 29 Mar (Vienna)
+    "duplicate_column_names.csv": (20, 20, {}), "duplicated_times.csv": (70, 60, {"duplicate": 10}),
+    "epoch_ms.csv": (30, 30, {}), "far_dates.csv": (3, 1, {"time_out_of_range": 2}),   # 1970 and 9999
+    "formula_link_names.csv": (60, 60, {}), "fractional_seconds.csv": (50, 50, {}), "gzipped.csv.gz": (50, 50, {}),
+    "latin1_header.csv": (30, 30, {}), "markers.csv": (40, 40, {}), "milliwatts.csv": (40, 40, {}),
+    "mixed_separators.csv": (30, 15, {"bad_time": 15}),        # the ';' half does not split: time cell unreadable
+    "mixed_time_formats.csv": (40, 20, {"bad_time": 20}),      # one format per column: the dd/mm/yyyy half
+    "non_monotonic.csv": (60, 60, {}), "only_blanks.csv": (20, 20, {}), "path_link_names.csv": (60, 60, {}),
+    "positive_db_below_mw.csv": (40, 40, {}), "quoted_newlines.csv": (20, 20, {}),
+    "ragged_rows.csv": (40, 26, {"too_many_fields": 14}),      # rows i % 3 == 0 of 40: 14 carry extra fields
+    "repeated_header.csv": (61, 50, {"bad_time": 1, "duplicate": 10}),   # the 2nd header, then 10 repeated times
+    "separators_only_line.csv": (52, 50, {"bad_time": 2}), "single_row.csv": (1, 1, {}),
+    "some_bad_times.csv": (30, 25, {"bad_time": 5}),          # i % 7 == 0 for i < 30: 5 rows
+    "stray_far_timestamp.csv": (4, 4, {}), "tab_trailing.tsv": (20, 20, {}), "units_in_cells.csv": (20, 20, {}),
+    "utf16.csv": (50, 50, {}), "very_long_line.csv": (10, 10, {}),
+}
+
+
+def test_every_corpus_file_has_an_expected_outcome():
+    assert not set(REFUSED) & set(READ)
+    assert set(REFUSED) | set(READ) == set(CORPUS)
     assert len(CORPUS) >= 40  # issue 9: at least 40 bad or odd inputs
 
 
@@ -172,8 +208,14 @@ def test_ingest_corpus(tmp_path, capsys, name):
         report = json.loads(out)
         rejected = sum(report["rejected"].values())
         assert report["rows_read"] == report["rows_kept"] + rejected, (name, report["rejected"])
+        assert name in READ, f"{name}: read, but it should have been refused"
+        rows_read, rows_kept, reasons = READ[name]
+        assert (report["rows_read"], report["rows_kept"]) == (rows_read, rows_kept), name
+        assert {k: v for k, v in report["rejected"].items() if v} == reasons, name
     else:
         _check_failure(rc, err, name)
+        assert name in REFUSED, f"{name}: refused, but it should have been read"
+        assert REFUSED[name].lower() in err.lower(), (name, err)
     assert _files_under(tmp_path) == before  # ingest without --out writes nothing
 
 
