@@ -322,3 +322,19 @@ def test_multipath_p530_18_worked_value():
     # deep-fade slope 10 dB per decade in this form too
     p20 = p530.multipath_deep_fade_percent_p530_18(20.0, 30.0, 8.0, 10 ** -4.2, 40.0, 200.0, 100.0, 50.0)
     assert p20 == pytest.approx(p0 / 100, rel=1e-12)
+
+
+def test_xpd_outage_rain_exponent_range():
+    # P.530-17 §4.2 step 3 (from memory, see diag.models.p530.xpd_outage_rain_probability): n in [-3, 0].
+    # The REFERENCES.md §3.3 [C] case has n = -2.382: inside, no warning
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        assert p530.xpd_outage_rain_probability(28.261, 23.0, 20.0) == pytest.approx(4.15e-5, rel=2e-3)
+    # C0/I = 45 dB: A_p = 10^((15 + 30 log 23 - 45)/22.6) = 3.02 dB < 0.12 x 28.261 = 3.39 dB -> m < 0 -> n > 0
+    with pytest.raises(ValueError, match=r"\[-3, 0\]"):
+        p530.xpd_outage_rain_probability(28.261, 23.0, 45.0)
+    # C0/I = 10 dB: A_p = 106.9 dB, m = 34.85, n = (-12.7 + sqrt(161.23 - 4 m))/2 = -4.015 (worked here by hand):
+    # below the range, allowed with a warning; P = 10^(n - 2)
+    with pytest.warns(RuntimeWarning, match="n < -3"):
+        p = p530.xpd_outage_rain_probability(28.261, 23.0, 10.0)
+    assert p == pytest.approx(10 ** (-4.015 - 2), rel=1e-3)
