@@ -299,7 +299,7 @@ def multipath_fade_percent(fade_depth_db: ArrayLike, p0_percent: ArrayLike) -> A
     A/800)) (17), p_w = 100 (1 - exp(-10^(-q_a A/20))) (18).
 
     ITU-Rpy 0.4.0 places the brackets of (16) and (17) differently and returns much larger percentages for shallow
-    fades; this follows the Recommendation's text (see tests/test_models_p530.py).
+    fades; this follows the Recommendation's text (see tests/models/test_models_p530.py).
 
     Parameters
     ----------
