@@ -156,3 +156,5 @@ def test_closed_forms_at_k_zero_and_the_published_check_values():
         assert fading.rayleigh_average_fade_duration_s(level, 1.0) == pytest.approx(tau, rel=2e-4)
         assert fading.rice_level_crossing_rate_hz(level, 0.0, 1.0) == pytest.approx(n_r, rel=1e-4)
         assert fading.rice_average_fade_duration_s(level, 0.0, 1.0) == pytest.approx(tau, rel=2e-4)
+        # and the f_m the project's fit infers from such a crossing rate (inverse of N_R) is the 1 Hz put in
+        assert fading.doppler_from_crossing_rate_hz(n_r, level) == pytest.approx(1.0, rel=1e-4)
