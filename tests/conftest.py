@@ -79,7 +79,8 @@ def hops() -> HopFactory:
 
 @pytest.fixture(scope="module")
 def simulated_hop(request, hops):
-    """(sim, analysed result) of one hop.  Default: the built-in "quick" scenario's first link, seed 1; choose
-    another with ``@pytest.mark.parametrize("simulated_hop", [(spec_or_name, seed)], indirect=True)``."""
-    spec, seed = getattr(request, "param", ("quick", 1))
+    """(sim, analysed result) of one hop: ``(spec_or_name, seed)`` from indirect parametrisation
+    (``@pytest.mark.parametrize("simulated_hop", [(spec, seed)], indirect=True)``), else from the module's
+    ``SIMULATED_HOP``, else the built-in "quick" scenario's first link with seed 1."""
+    spec, seed = getattr(request, "param", None) or getattr(request.module, "SIMULATED_HOP", ("quick", 1))
     return hops.analysed(spec, seed)

@@ -19,18 +19,20 @@ from diag.sim.simulate import Effect, LinkSpec
 H = 3600.0
 
 
-@pytest.fixture(scope="module")
-def sim(hops):
-    spec = LinkSpec(link_id="PL-A", frequency_ghz=23.0, length_km=5.0, polarization="dual", threshold_dbm=-70.0,
-                    nominal_dbm=-38.0, duration_s=10 * H, objective_pct=99.99,
-                    effects=(Effect("rain", 3 * H, H, {"peak_mmh": 60.0}),
-                             Effect("signal_loss", 7 * H, 600.0)))
-    return hops.sim(spec, seed=4)
+SIMULATED_HOP = (LinkSpec(link_id="PL-A", frequency_ghz=23.0, length_km=5.0, polarization="dual",
+                          threshold_dbm=-70.0, nominal_dbm=-38.0, duration_s=10 * H, objective_pct=99.99,
+                          effects=(Effect("rain", 3 * H, H, {"peak_mmh": 60.0}),
+                                   Effect("signal_loss", 7 * H, 600.0))), 4)   # (spec, seed): tests/conftest.py
 
 
 @pytest.fixture(scope="module")
-def result(sim, hops):
-    return hops.analysed(sim.spec, seed=4)[1]
+def sim(simulated_hop):
+    return simulated_hop[0]
+
+
+@pytest.fixture(scope="module")
+def result(simulated_hop):
+    return simulated_hop[1]
 
 
 def test_result_fields_filled(result, sim):
