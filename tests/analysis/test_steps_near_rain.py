@@ -10,15 +10,15 @@ import pandas as pd
 import pytest
 
 from diag.analysis import steps as shifts
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec
 
 H = 3600.0
 START = pd.Timestamp("2026-06-01T00:00:00Z")
 
 
-def _steps(effects, seed=1, duration_s=10 * H, min_step_db=1.5):
+def _steps(hops, effects, seed=1, duration_s=10 * H, min_step_db=1.5):
     spec = LinkSpec("R1", 23.0, 10.0, "V", -75.0, duration_s=duration_s, effects=tuple(effects))
-    sim = simulate_link(spec, seed=seed)
+    sim = hops.sim(spec, seed=seed)
     t = sim.table
     rows = t[(t["channel"] == "V") & (t["quantity"] == "rsl_dbm")].set_index("time_utc")
     return shifts.detect_steps(rows["value"].where(rows["status"] == "ok"), 1.0, min_step_db=min_step_db)
@@ -41,22 +41,22 @@ def _check(steps, truth):
 
 @pytest.mark.parametrize("peak_mmh", [0.0, 10.0, 30.0, 60.0])
 @pytest.mark.parametrize("min_step_db", [1.5, 2.0])   # as baseline.add_reference and channel_level_changes call it
-def test_two_steps_three_hours_apart_with_rain_between(peak_mmh, min_step_db):
+def test_two_steps_three_hours_apart_with_rain_between(hops, peak_mmh, min_step_db):
     effects = [_shift(4, 4.0), _shift(7, 3.0)]
     if peak_mmh:
         effects.append(_rain(5, 1.5, peak_mmh))
-    _check(_steps(effects, min_step_db=min_step_db), [(4, -4.0), (7, -3.0)])
+    _check(_steps(hops, effects, min_step_db=min_step_db), [(4, -4.0), (7, -3.0)])
 
 
 @pytest.mark.parametrize("rain_at_h", [2.5, 4.2])    # rain ending 30 min before / starting 12 min after the step
-def test_single_step_with_rain_next_to_it(rain_at_h):
-    _check(_steps([_shift(4, 4.0), _rain(rain_at_h, 1.0, 40.0)]), [(4, -4.0)])
+def test_single_step_with_rain_next_to_it(hops, rain_at_h):
+    _check(_steps(hops, [_shift(4, 4.0), _rain(rain_at_h, 1.0, 40.0)]), [(4, -4.0)])
 
 
-def test_lone_rain_fade_is_no_step():
-    assert _steps([_rain(4, 1.5, 60.0)]) == []
+def test_lone_rain_fade_is_no_step(hops):
+    assert _steps(hops, [_rain(4, 1.5, 60.0)]) == []
 
 
-def test_lone_refractive_fade_is_no_step():
+def test_lone_refractive_fade_is_no_step(hops):
     # a 3-h flat fade that comes back: its start and end are not level shifts
-    assert _steps([Effect("refractive", 3 * H, 3 * H, {"depth_db": 6.0})]) == []
+    assert _steps(hops, [Effect("refractive", 3 * H, 3 * H, {"depth_db": 6.0})]) == []

@@ -11,23 +11,21 @@ from __future__ import annotations
 
 from diag import schema as S
 from diag.analysis.classify import SHORT_HOP_KM, WET_FADE_MAX_DB
-from diag.pipeline import analyze_link
-from diag.sim.simulate import Effect, LinkSpec, simulate_link
+from diag.sim.simulate import Effect, LinkSpec
 
 H = 3600.0
 
 
-def _events(length_km, effects, *, interval_s=60.0, quantisation_db=1.0):
+def _events(hops, length_km, effects, *, interval_s=60.0, quantisation_db=1.0):
     spec = LinkSpec("W1", 25.0, length_km, "V", -75.0, interval_s=interval_s, duration_s=12 * H,
                     quantisation_db=quantisation_db, effects=tuple(effects))
-    sim = simulate_link(spec, seed=3)
-    return analyze_link(sim.table, sim.link).events
+    return hops.analysed(spec, seed=3)[1].events
 
 
-def test_wet_film_plateau_on_short_hop_is_rain():
+def test_wet_film_plateau_on_short_hop_is_rain(hops):
     wet = Effect("rain", 4 * H, 1 * H, {"peak_mmh": 2.0, "profile": "constant", "wet_antenna_db": 5.0,
                                          "wetting_s": 900.0, "drying_min": 15.0})
-    ev = _events(1.0, [wet])
+    ev = _events(hops, 1.0, [wet])
     assert len(ev) == 1
     row = ev.iloc[0]
     assert 3.0 <= row["peak_fade_db"] <= WET_FADE_MAX_DB     # a few dB: the film, ~0.2 dB of path rain
@@ -35,15 +33,15 @@ def test_wet_film_plateau_on_short_hop_is_rain():
     assert "too short for refractive fading" in row["evidence"]
 
 
-def test_refractive_fade_on_long_hop_stays_refractive():
-    ev = _events(10.0, [Effect("refractive", 4 * H, 2 * H, {"depth_db": 5.0})])
+def test_refractive_fade_on_long_hop_stays_refractive(hops):
+    ev = _events(hops, 10.0, [Effect("refractive", 4 * H, 2 * H, {"depth_db": 5.0})])
     assert 10.0 > SHORT_HOP_KM
     assert list(ev["cause"]) == [S.REFRACTIVE], list(ev["evidence"])
 
 
-def test_deep_slow_fade_on_short_hop_keeps_its_shape_evidence():
+def test_deep_slow_fade_on_short_hop_keeps_its_shape_evidence(hops):
     # deeper than a wet film: the broad, symmetric profile still counts (1-s samples, 0.1-dB steps)
-    ev = _events(1.5, [Effect("refractive", 4 * H, 2 * H, {"depth_db": 12.0})], interval_s=1.0,
+    ev = _events(hops, 1.5, [Effect("refractive", 4 * H, 2 * H, {"depth_db": 12.0})], interval_s=1.0,
                  quantisation_db=0.1)
     assert list(ev["cause"]) == [S.REFRACTIVE], list(ev["evidence"])
     assert ev["peak_fade_db"].iloc[0] > WET_FADE_MAX_DB
