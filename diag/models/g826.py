@@ -29,8 +29,9 @@ Choices of our own (not in the Recommendations, which assume a continuous measur
   (the entry was not reached) and counts as SES.
 
 The worst-month conversion (``annual_from_worst_month_percent``) follows ITU-R P.841 with its global parameters
-Q1 = 2.85 and beta = 0.13, as implemented in two independent open-source propagation codes; the Recommendation's
-own text was not read here (treat as from memory until checked).
+Q1 = 2.85 and beta = 0.13, as implemented in open-source propagation codes; the Recommendation's own text was not
+available to check (from memory).  The tests check them against the global relation in its other published form,
+p = 0.30 p_w^1.15 (Q1 = 2.849, beta = 0.1304; also from memory), within 0.5 %.
 """
 from __future__ import annotations
 
@@ -185,7 +186,8 @@ def scale_to_year_s(unavailable_s: npt.ArrayLike, observed_s: npt.ArrayLike):
     return float(result) if result.ndim == 0 else result
 
 
-# ITU-R P.841 global parameters (as implemented in open-source codes; Rec text not read: from memory until checked)
+# ITU-R P.841 global parameters (as implemented in open-source codes; Rec text not available: from memory; consistent
+# within 0.5 % with the inverse form p = 0.30 p_w^1.15, see tests/models/test_g826.py)
 P841_Q1 = 2.85
 P841_BETA = 0.13
 

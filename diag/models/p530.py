@@ -46,8 +46,10 @@ def rain_distance_factor(length_km: ArrayLike, frequency_ghz: ArrayLike, r001_mm
 
     r = 1 / (0.477 d^0.633 R0.01^(0.073 alpha) f^0.123 - 10.579 (1 - exp(-0.024 d)))   (32)
 
-    capped at r = 2.5 (the Recommendation's maximum recommended value, used when the denominator is below 0.4;
-    the cap is from memory of the text and is also applied by ITU-Rpy).
+    capped at r = 2.5 (the Recommendation's maximum recommended value, used when the denominator is below 0.4).
+    The cap is from memory: the Recommendation's text was not available to check.  Checked in source code:
+    ITU-Rpy 0.4.0 (P.530-17) applies min(r, 2.5); the P.530-18 implementations crc-covlib (helper/itur_p530.py)
+    and OFCOM's MATLAB P530.m (github eeveetza/p530) apply no cap.
 
     Parameters
     ----------
@@ -297,7 +299,7 @@ def multipath_fade_percent(fade_depth_db: ArrayLike, p0_percent: ArrayLike) -> A
     A/800)) (17), p_w = 100 (1 - exp(-10^(-q_a A/20))) (18).
 
     ITU-Rpy 0.4.0 places the brackets of (16) and (17) differently and returns much larger percentages for shallow
-    fades; this follows the Recommendation's text (see tests/test_models_p530.py).
+    fades; this follows the Recommendation's text (see tests/models/test_models_p530.py).
 
     Parameters
     ----------
@@ -322,8 +324,10 @@ def geoclimatic_conversion_db(latitude_deg: ArrayLike, length_km: ArrayLike,
     (P.530-17 §2.3.4 step 2, eq. (29)).
 
     Delta G = 10.5 - 5.6 log10(1.1 +- |cos 2 xi|^0.7) - 2.7 log10 d + 1.7 log10(1 + |eps_p|), limited to
-    Delta G <= 10.8 dB; "+" for |xi| <= 45 deg, "-" above.  (The upper limit is read from the text, from memory;
-    some published implementations apply max(10.8, Delta G) instead, which contradicts "<= 10.8 dB".)
+    Delta G <= 10.8 dB; "+" for |xi| <= 45 deg, "-" above.  The upper limit is from memory (the Recommendation's
+    text was not available to check; 10.8 dB = 10 log10 12, the P.841 cap Q <= 12 on the worst-month ratio).
+    Checked in source code: crc-covlib (helper/itur_p530.py) and OFCOM's MATLAB P530.m (github eeveetza/p530),
+    both P.530-18, apply max(10.8, Delta G) instead, i.e. a floor; ITU-Rpy 0.4.0 does not implement §2.3.4.
     """
     xi = np.radians(np.abs(as_float_array(latitude_deg)))
     sign = np.where(np.degrees(xi) <= 45.0, 1.0, -1.0)
@@ -367,7 +371,9 @@ def rayleigh_tail_percent(fade_depth_db: ArrayLike, reference_percent: ArrayLike
 # ------------------------------------------------------------------------------------------------------- XPD §4
 def xpd_rain_voltage_factor_db(frequency_ghz: ArrayLike) -> ArrayLike:
     """V(f) of the rain XPD relation (P.530-17 §4.2, step 2): 12.8 f^0.19 for 8 <= f <= 20 GHz, 22.6 for
-    20 < f <= 35 GHz (the ranges are from memory; outside 8-35 GHz the nearer branch is used with a warning)."""
+    20 < f <= 35 GHz; outside 8-35 GHz the nearer branch is used with a warning.  The two formulas and the switch
+    at 20 GHz match ITU-Rpy 0.4.0 and OFCOM's MATLAB P530.m (github eeveetza/p530), checked in their source; the
+    8 and 35 GHz outer limits are from memory (neither code states them; the Rec text was not available)."""
     f = as_float_array(frequency_ghz)
     if np.any((f < 8) | (f > 35)):
         warnings.warn("the P.530 rain XPD relation is stated for 8 to 35 GHz; extrapolating", RuntimeWarning,
@@ -397,6 +403,9 @@ def copolar_attenuation_for_xpd_db(xpd_db: ArrayLike, frequency_ghz: ArrayLike, 
     return like_input(cpa, xpd_db, frequency_ghz, u0_db)
 
 
+XPD_OUTAGE_N_RANGE = (-3.0, 0.0)   # P.530 §4.2, step 3: valid range of the exponent n (from memory, see below)
+
+
 def xpd_outage_rain_probability(a001_db: ArrayLike, frequency_ghz: ArrayLike, c0_i_db: ArrayLike,
                                 u0_db: ArrayLike = 15.0, xpif_db: ArrayLike = 0.0) -> ArrayLike:
     """Probability (fraction of time, not %) of outage from rain-induced XPD degradation (P.530-17 §4.2).
@@ -404,6 +413,11 @@ def xpd_outage_rain_probability(a001_db: ArrayLike, frequency_ghz: ArrayLike, c0
     A_p = 10^((U - C0/I + XPIF)/V) (112); m = min(23.26 log10(A_p / (0.12 A0.01)), 40) (113);
     n = (-12.7 + sqrt(161.23 - 4 m)) / 2 (114); P_XPR = 10^(n - 2) (115).
     (ITU-Rpy 0.4.0's public wrapper for this drops an argument and returns nonsense; see the tests.)
+
+    Range of n: the step states that valid values of n lie between -3 and 0, and notes that values below -3 can
+    occur, especially with an XPIC, meaning an outage below 1e-5 (from memory: the Recommendation's text was not
+    available to check the wording).  Enforced so: n > 0 (m < 0, i.e. A_p below 0.12 A0.01, outside the method)
+    raises ValueError; n < -3 is returned with a RuntimeWarning.
     """
     f = as_float_array(frequency_ghz)
     u = as_float_array(u0_db) + 30.0 * np.log10(f)
@@ -411,6 +425,12 @@ def xpd_outage_rain_probability(a001_db: ArrayLike, frequency_ghz: ArrayLike, c0
     a_p = 10.0 ** ((u - as_float_array(c0_i_db) + as_float_array(xpif_db)) / v)  # (112)
     m = np.minimum(23.26 * np.log10(a_p / (0.12 * as_float_array(a001_db))), 40.0)  # (113)
     n = (-12.7 + np.sqrt(161.23 - 4.0 * m)) / 2.0  # (114)
+    if np.any(n > XPD_OUTAGE_N_RANGE[1]):
+        raise ValueError("P.530 §4.2 step 3: n must lie in [-3, 0]; here n > 0 because A_p < 0.12 A0.01 (the C0/I "
+                         "needed is lost to rain weaker than that of 1 % of the time): outside the method")
+    if np.any(n < XPD_OUTAGE_N_RANGE[0]):
+        warnings.warn("P.530 §4.2 step 3: n < -3 (possible with an XPIC): XPD outage below 1e-5", RuntimeWarning,
+                      stacklevel=2)
     return like_input(10.0 ** (n - 2.0), a001_db, frequency_ghz, c0_i_db, u0_db, xpif_db)  # (115)
 
 

@@ -1,0 +1,117 @@
+"""Cause classification (diag.analysis.classify) per cause on simulator scenarios with known truth.
+
+The truth is the simulator's per-sample attenuation by cause (the true cause of a faded sample, total fade > 3 dB,
+is its largest contribution).  Each scenario holds one cause on an otherwise quiet hop; the check is the share
+of truly faded seconds whose diagnosed cause is right.  The physics each rule rests on is cited in
+diag/analysis/classify.py (ITU-R P.838-3 for the V/H ratio, P.530 §2.3.3 for multipath enhancements, ...).
+"""
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from diag import schema as S
+from diag.analysis.classify import STATS_CONFIDENCE_FACTOR
+from diag.pipeline import analyze_link
+from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
+
+H = 3600.0
+
+
+def _agreement(result, sim, cause):
+    """Share of truly faded seconds (truth cause == ``cause``) whose diagnosed cause is ``cause``."""
+    hits = total = 0
+    for name, series in result.series.items():
+        tr = sim.truth_samples[(sim.truth_samples["channel"] == name) & (sim.truth_samples["cause"] == cause)]
+        got = series.frame["cause"].reindex(pd.DatetimeIndex(tr["time_utc"]), method="ffill")
+        hits += int((got.to_numpy(dtype=object) == cause).sum())
+        total += len(tr)
+    assert total > 0, "scenario produced no faded samples"
+    return hits / total
+
+
+SCENARIOS = {
+    # a convective storm on a short 23-GHz dual-polarised hop (afternoon)
+    S.RAIN: LinkSpec(link_id="C-RAIN", frequency_ghz=23.0, length_km=4.0, polarization="dual",
+                     threshold_dbm=-72.0, nominal_dbm=-38.0, duration_s=12 * H,
+                     effects=(Effect("rain", 5 * H, 1.5 * H, {"peak_mmh": 45.0, "wet_antenna_db": 1.5}),)),
+    # night-time Rayleigh multipath on a long 8-GHz hop
+    S.MULTIPATH: LinkSpec(link_id="C-MP", frequency_ghz=8.0, length_km=45.0, polarization="H",
+                          threshold_dbm=-76.0, nominal_dbm=-42.0, duration_s=12 * H,
+                          effects=(Effect("multipath", 2 * H, 5 * H, {"k_min": 0.0, "fade_rate_hz": 0.05}),)),
+    # slow 3-h refractive fade, equal on both polarisations
+    S.REFRACTIVE: LinkSpec(link_id="C-REF", frequency_ghz=13.0, length_km=20.0, polarization="dual",
+                           threshold_dbm=-75.0, nominal_dbm=-40.0, duration_s=12 * H,
+                           effects=(Effect("refractive", 4 * H, 3 * H, {"depth_db": 14.0}),)),
+    # a knocked antenna: 5-dB persistent step
+    S.LEVEL_SHIFT: LinkSpec(link_id="C-LS", frequency_ghz=18.0, length_km=10.0, polarization="V",
+                            threshold_dbm=-74.0, nominal_dbm=-40.0, duration_s=24 * H,
+                            effects=(Effect("level_shift", 9 * H, None, {"step_db": 5.0}),)),
+    # equipment drop-out to the floor for 20 min
+    S.SIGNAL_LOSS: LinkSpec(link_id="C-SL", frequency_ghz=15.0, length_km=6.0, polarization="H",
+                            threshold_dbm=-73.0, nominal_dbm=-40.0, duration_s=12 * H,
+                            effects=(Effect("signal_loss", 6 * H, 1200.0),)),
+}
+
+
+@pytest.fixture(scope="module")
+def analysed(hops):
+    return {cause: hops.analysed(spec, seed=21) for cause, spec in SCENARIOS.items()}
+
+
+@pytest.mark.parametrize("cause", list(SCENARIOS))
+def test_each_cause_on_one_second_logs(analysed, cause):
+    sim, result = analysed[cause]
+    # the issue's bar for 1-s logs is a macro F1 of 0.90; a clean single-cause hop must do at least that well
+    assert _agreement(result, sim, cause) >= 0.9
+    called = result.events[result.events["cause"] == cause]
+    assert len(called) >= 1
+    assert called["confidence"].between(0.05, 1.0).all()
+    assert called["confidence"].median() >= 0.6
+    # the evidence quotes numbers (durations, dB, ratios)
+    assert all(re.search(r"\d", text) for text in called["evidence"])
+
+
+def test_rain_evidence_names_the_p838_ratio(analysed):
+    _, result = analysed[S.RAIN]
+    rain = result.events[result.events["cause"] == S.RAIN]
+    assert rain["evidence"].str.contains("V/H attenuation ratio").any()
+    assert rain["evidence"].str.contains("mm/h").any()
+
+
+def test_fifteen_minute_statistics_lower_confidence(analysed):
+    for cause in (S.RAIN, S.REFRACTIVE, S.MULTIPATH):
+        sim, result = analysed[cause]
+        stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
+        result15 = analyze_link(stats, sim.link)
+        called = result15.events[result15.events["cause"] == cause]
+        assert len(called), f"15-min statistics: no {cause} event"
+        # every verdict from 15-min statistics carries the reduced confidence and says so
+        assert called["confidence"].max() <= STATS_CONFIDENCE_FACTOR + 1e-9
+        assert called["evidence"].str.contains("15-min statistics").all()
+        assert _agreement(result15, sim, cause) >= 0.75
+
+
+def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
+    sim, _ = analysed[S.RAIN]
+    start = sim.spec.start_utc
+    times = pd.date_range(start, periods=12 * 4 + 1, freq="15min")
+    wet = pd.DataFrame({"time": times.strftime("%Y-%m-%dT%H:%M:%SZ"),
+                        "rain_mmh": np.where((times >= start + pd.Timedelta(hours=5))
+                                             & (times <= start + pd.Timedelta(hours=7)), 20.0, 0.0)})
+    dry = wet.assign(rain_mmh=0.0)
+    wet_path, dry_path = tmp_path / "wet.csv", tmp_path / "dry.csv"
+    wet.to_csv(wet_path, index=False)
+    dry.to_csv(dry_path, index=False)
+    with_wet = analyze_link(sim.table, sim.link, gauge=wet_path).events
+    with_dry = analyze_link(sim.table, sim.link, gauge=dry_path).events
+    rain_wet = with_wet[with_wet["cause"] == S.RAIN]
+    assert len(rain_wet) and (rain_wet["gauge_verdict"] == "confirmed").all()
+    assert rain_wet["evidence"].str.contains("gauge").all()
+    dry_rows = with_dry[with_dry["start_utc"].isin(rain_wet["start_utc"])]
+    # a dry gauge lowers the confidence of the same events (and the gauge check reports it)
+    assert dry_rows["confidence"].mean() < rain_wet["confidence"].mean()
+    assert set(dry_rows["gauge_verdict"]) <= {"refuted", "consistent", "unclear"}
