@@ -34,7 +34,8 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.reference import AnalysisConfig, LevelSpan
+from diag.analysis.reference import LevelSpan
+from diag.config import AnalysisConfig
 from diag.links import Link
 from diag.models import p838
 from diag.results import ChannelSeries
