@@ -37,6 +37,10 @@ from dataclasses import asdict, dataclass
 import numpy as np
 import pandas as pd
 
+from diag import schema as S
+from diag.config import AnalysisConfig
+from diag.results import ChannelSteps
+
 log = logging.getLogger(__name__)
 
 WEEK_S = 7 * 86400.0
@@ -488,11 +492,82 @@ def path_level_dbm(frame: pd.DataFrame) -> pd.Series:
     return pd.Series(level, index=frame.index, name=name, copy=False)
 
 
+def path_level(frame: pd.DataFrame) -> np.ndarray:
+    """RSL (interval average for statistics) with logged TSL changes removed; NaN unless status is ok.
+
+    The level the clear-sky reference is computed on (TSL referred to the median of its filled values; the
+    grid's ``rsl_dbm`` is already NaN unless status is ok).  :func:`path_level_dbm` is the level the reported
+    level changes are measured on (TSL referred to the median of its logged values)."""
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    if S.TSL in frame.columns:
+        tsl = frame[S.TSL].astype(float)
+        if tsl.notna().any():
+            filled = tsl.ffill().bfill().to_numpy(dtype=float)
+            level = level - (filled - float(np.nanmedian(filled)))
+    return level
+
+
+def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
+                     change_db: float = 4.0) -> bool:
+    """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
+
+    A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
+    multipath activity lowers the average (the mean of a Rayleigh-faded level in dB is 2.5 dB below its mean
+    power) while widening the spread to 10-30 dB.  A step across which the median spread changes by ``change_db``
+    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source).
+    """
+    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
+        return False
+    spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
+    t = step.time_utc
+    window = pd.Timedelta(hours=window_h)
+    before = spread.loc[t - window: t - pd.Timedelta(seconds=1)].median()
+    after = spread.loc[t: t + window].median()
+    if not (np.isfinite(before) and np.isfinite(after)):
+        return False
+    return max(before, after) >= wide_db and abs(after - before) >= change_db
+
+
+def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.ndarray | None = None) -> ChannelSteps:
+    """The steps of one channel's clear-sky level (a :class:`diag.results.ChannelSteps`), detected here only.
+
+    ``reference``: steps from ``config.step_min_db`` on the :func:`path_level` (``level`` when already computed),
+    for 15-min statistics without the starts/ends of fading episodes; the reference stage cuts at them and makes
+    the level-shift events.  ``reported``: steps from ``config.level_change_min_db`` on :func:`path_level_dbm`,
+    the level changes :func:`level_changes` reports.
+    """
+    config = config or AnalysisConfig()
+    frame = series.frame
+    if level is None:
+        level = path_level(frame)
+    steps = []
+    if np.isfinite(level).sum() > 10:
+        try:
+            steps = detect_steps(pd.Series(level, index=frame.index), series.interval_s,
+                                 min_step_db=config.step_min_db)
+        except ValueError as exc:  # too short a record for the windows
+            log.info("no step detection on %s: %s", series.channel, exc)
+            steps = []
+    if series.kind == "stats" and steps:
+        steps = [step for step in steps if not _fading_not_step(frame, step)]
+    try:
+        reported = detect_steps(path_level_dbm(frame), series.interval_s, min_step_db=config.level_change_min_db)
+        error = None
+    except Exception as exc:  # noqa: BLE001 - reported by the level-change stage, which fails as on its own
+        reported, error = None, exc
+    return ChannelSteps(reference=steps, reported=reported, reported_min_db=config.level_change_min_db,
+                        reported_error=error)
+
+
 def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db: float = 2.0,
-                          drift_flag_db_per_week: float = 1.0, **kwargs) -> dict:
-    """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able)."""
+                          drift_flag_db_per_week: float = 1.0, steps: list[Step] | None = None, **kwargs) -> dict:
+    """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able).
+
+    ``steps``: the channel's steps when already detected (``ChannelSeries.steps.reported``); else they are detected
+    here with ``min_step_db`` and ``kwargs``."""
     level = path_level_dbm(frame)
-    steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
+    if steps is None:
+        steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
     clear = _steps_removed(level.to_numpy(), level.index, steps)
     masked = False
     if "cause" in frame:   # the trend uses clear-sky samples only: fades of any other cause are left out
@@ -510,16 +585,30 @@ def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db
             "tsl_compensated": bool("tsl_dbm" in frame.columns and frame["tsl_dbm"].notna().any())}
 
 
-def level_changes(result, *, min_step_db: float = 2.0, common_tolerance_s: float = 1800.0) -> dict:
+def level_changes(result, *, min_step_db: float | None = None, common_tolerance_s: float = 1800.0) -> dict:
     """Level shifts and drifts of every channel of a ``LinkResult`` (fills ``LinkResult.level_changes``).
+
+    The steps are those the reference stage detected (``ChannelSeries.steps.reported``, from
+    ``AnalysisConfig.level_change_min_db``); ``min_step_db`` other than theirs, or a channel without them, detects
+    again with that size (None: the size they were detected with, else the config default).
 
     Steps seen on several channels within ``common_tolerance_s`` of each other are listed under ``"common"``:
     a step common to both polarisations or directions points at the antenna/path, a step on one channel only at
     that channel's radio (common practice, no outside source).
     """
+    known = [series.steps for series in result.series.values() if series.steps is not None]
+    if min_step_db is None:
+        min_step_db = known[0].reported_min_db if known else AnalysisConfig().level_change_min_db
     per_channel = {}
     for name, series in result.series.items():
-        per_channel[name] = channel_level_changes(series.frame, series.interval_s, min_step_db=min_step_db)
+        steps = None
+        found = series.steps
+        if found is not None and found.reported_min_db == min_step_db:
+            if found.reported_error is not None:
+                raise found.reported_error
+            steps = found.reported
+        per_channel[name] = channel_level_changes(series.frame, series.interval_s, min_step_db=min_step_db,
+                                                  steps=steps)
     common = []
     names = list(per_channel)
     if len(names) > 1:
