@@ -36,7 +36,9 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.models import fading, p838
+from diag.links import channel_polarization
+from diag.models import fading, p530, p838
+from diag.numeric import round_sig
 
 log = logging.getLogger(__name__)
 
@@ -53,11 +55,9 @@ def _round(value, digits: int = 4):
     if isinstance(value, (list, tuple, np.ndarray)):
         return [_round(v, digits) for v in value]
     value = float(value)
-    if not math.isfinite(value):
-        return None if math.isnan(value) else (1e300 if value > 0 else -1e300)
-    if value == 0:
-        return 0.0
-    return float(f"{value:.{digits}g}")
+    if math.isinf(value):
+        return 1e300 if value > 0 else -1e300
+    return round_sig(value, digits)
 
 
 # ------------------------------------------------------------------------------------------------- arrays
@@ -207,11 +207,6 @@ def _p530_multipath(link, depths_db, skipped: list[str]) -> dict | None:
     """P.530 multipath prediction (worst month, %) at each depth, via diag.models.p530; None when skipped."""
     if link.geoclimatic_k is None:
         skipped.append("P.530 multipath prediction: needs geoclimatic_k in the links table")
-        return None
-    try:
-        from diag.models import p530
-    except ImportError:  # pragma: no cover - the models package ships p530
-        skipped.append("P.530 multipath prediction: diag.models.p530 not available")
         return None
     return p530_multipath_curve(p530, link, depths_db)
 
@@ -453,11 +448,6 @@ def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     if link.r001_mmh is None:
         skipped.append("P.530 rain prediction: needs r001_mmh in the links table")
         return out
-    try:
-        from diag.models import p530
-    except ImportError:  # pragma: no cover
-        skipped.append("P.530 rain prediction: diag.models.p530 not available")
-        return out
     pred = p530_rain_prediction(p530, link, series.channel)
     out["p530"] = pred
     a001 = pred["a001_db"]
@@ -468,17 +458,9 @@ def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     return out
 
 
-def _polarization_of(link, channel: str) -> str:
-    if channel in ("H", "V"):
-        return channel
-    if link.polarization in ("H", "V"):
-        return link.polarization
-    return "H"
-
-
 def p530_rain_prediction(p530, link, channel: str) -> dict:
     """P.530 §2.4.1 rain attenuation for this hop (diag.models.p530)."""
-    pol = _polarization_of(link, channel)
+    pol = channel_polarization(channel, link, default="H")
     pct = np.asarray(RAIN_PERCENTAGES, dtype=float)
     a001 = p530.rain_attenuation_001_db(link.length_km, link.frequency_ghz, link.r001_mmh,
                                         tilt_deg=p838.tilt_deg_for_polarization(pol))

@@ -369,7 +369,8 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
 
 
 def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
-    """:func:`remove_steps` on a float array (a copy) with its time index."""
+    """The level (a float array, copied) with each step's size subtracted from the step time on (the level as if
+    no step happened); ``index``: its times."""
     out = np.array(values, dtype=float)
     is_sorted = bool(steps) and index.is_monotonic_increasing
     for step in steps:
@@ -378,13 +379,6 @@ def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np
         else:
             out[index >= step.time_utc] -= step.size_db
     return out
-
-
-def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
-    """The level with each step's size subtracted from the step time on (the level as if no step happened)."""
-    values = level_dbm.to_numpy(dtype=float, na_value=np.nan)
-    return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name,
-                     copy=False)
 
 
 def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *, fade_trim_db: float,
