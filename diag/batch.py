@@ -27,7 +27,6 @@ from __future__ import annotations
 import logging
 import math
 import os
-import shutil
 import tempfile
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field, replace
@@ -38,14 +37,14 @@ import pandas as pd
 from diag import schema
 from diag.errors import InputError
 from diag.links import Link, match_link
-from diag.read import store
-from diag.read.hops import hop_table, sorted_table
-from diag.read.ingest import expand_paths
+from diag.read.hops import assign_hops, expand_inputs, hop_table, read_file_table, sorted_table, store_part
 from diag.report.network import (  # noqa: F401 - re-exported: the network table is part of a run
+    COMBINED_FILES,
     RANKING_COLUMNS,
     bounds,
     network_ranking,
     spreadsheet_safe,
+    write_combined,
     write_network_page,
 )
 from diag.results import LinkResult
@@ -57,7 +56,6 @@ WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> lis
 ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
 ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
 
-COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
 _RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
 
 
@@ -129,56 +127,13 @@ def _one_line(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
 
 
-def _is_store(path: Path) -> bool:
-    """A store folder (``diag.read.store``), whose hops are read one by one."""
-    return path.is_dir() and bool(store.is_store(path))
-
-
-def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
-    """Split the inputs (expanded by ``diag.read.ingest.expand_paths``) into log files and Parquet stores, which are
-    read hop by hop.  Raises ``InputError`` for a path that does not exist or an empty input."""
-    paths = expand_paths(inputs)
-    stores = [path for path in paths if _is_store(path)]
-    files = [path for path in paths if not _is_store(path)]
-    return files, stores
-
-
-def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
-    from diag.read.ingest import read_log
-
-    result = read_log(path, tz=tz, mapping=mapping)
-    report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
-    return result.table, report
-
-
-def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
-    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
-    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
-    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
-    ids = [str(x) for x in pd.unique(table[schema.LINK])]
-    renames: dict[str, str] = {}
-    for link_id in ids:
-        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
-        try:
-            hop = match_link(links, carried, file_name=file_name).link_id
-        except InputError:
-            continue
-        if hop != link_id:
-            renames[link_id] = hop
-    if not renames:
-        return table
-    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
-    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
-
-
-# --- worker tasks -----------------------------------------------------------------------------------------------
 def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None) -> _FilePiece:
     name = Path(path).name
     try:
-        table, report = (reader or _default_reader)(path, tz=tz, mapping=mapping)
+        table, report = (reader or read_file_table)(path, tz=tz, mapping=mapping)
         if table.empty:
             raise InputError("no usable rows in the log", path=name)
-        table = _assign_hops(table, links, name)
+        table = assign_hops(table, links, name)
         tables = {str(k): sorted_table(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
         return _FilePiece(name=name, tables=tables, report=report)
     except Exception as exc:  # one bad file must never stop the run
@@ -230,15 +185,6 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
                 for p in sorted(Path(tmp).rglob("*")) if p.is_file()}
 
 
-def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
-    from diag.read.store import read_store
-
-    table = read_store(store_path, link_id=store_id)
-    if store_id != hop:
-        table = schema.conform(table.assign(**{schema.LINK: hop}))
-    return table
-
-
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
@@ -254,7 +200,7 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
                                                          for p in bad)), {})
     try:
         parts = [p.tables.get(link_id) for p in pieces]
-        parts += [_store_part(path, sid, link_id) for path, sid in store_refs]
+        parts += [store_part(path, sid, link_id) for path, sid in store_refs]
         table, dropped = hop_table(parts)
         ingest = {"files": [p.report for p in pieces] + [{"file": path, "layout": "store", "store_link_id": sid}
                                                          for path, sid in store_refs]}
@@ -343,26 +289,6 @@ def _clear_outputs(out: Path, folders: Iterable[str]) -> None:
             path.unlink(missing_ok=True)
         except OSError as exc:
             raise InputError(f"cannot replace an old output file: {exc.strerror}", path=str(path)) from None
-
-
-def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
-    """Concatenate the per-hop CSV files into network-wide ones (header once, hops in ``order``)."""
-    written = []
-    for name in COMBINED_FILES:
-        parts = [out_dir / "hops" / folders[h] / name for h in order if folders.get(h)
-                 and (out_dir / "hops" / folders[h] / name).exists()]
-        if not parts:
-            continue
-        target = out_dir / name
-        with target.open("wb") as dst:
-            for i, part in enumerate(parts):
-                with part.open("rb") as src:
-                    header = src.readline()
-                    if i == 0:
-                        dst.write(header)
-                    shutil.copyfileobj(src, dst)
-        written.append(target)
-    return written
 
 
 def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str | os.PathLike | None = None,
@@ -505,7 +431,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     ranking = network_ranking(ordered, folders)
     if out is not None:
         out.mkdir(parents=True, exist_ok=True)
-        written += _write_combined(out, order, folders)
+        written += write_combined(out, order, folders)
         target = out / "network_ranking.csv"
         spreadsheet_safe(ranking).to_csv(target, index=False, float_format="%.6g")
         written.append(target)

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-__all__ = ["add_reduce", "nanmax", "pearson", "round_sig", "std"]
+__all__ = ["add_reduce", "nanmax", "pearson", "round_figures", "round_sig", "std"]
 
 # what ndarray.sum() calls (the same pairwise summation), without the method's wrapper
 add_reduce = np.add.reduce
@@ -58,3 +58,16 @@ def round_sig(value, digits: int = 4, *, keep_negative_zero: bool = False) -> fl
     if value == 0 and not keep_negative_zero:
         return 0.0
     return float(f"{value:.{digits}g}")
+
+
+def round_figures(value, digits: int = 4):
+    """:func:`round_sig` for the statistics' figures: a list, tuple or array is rounded element by element (a
+    list back), and an infinity becomes +-1e300 (a depth beyond every finite one stays ordered in JSON)."""
+    if value is None:
+        return None
+    if isinstance(value, (list, tuple, np.ndarray)):
+        return [round_figures(v, digits) for v in value]
+    value = float(value)
+    if math.isinf(value):
+        return 1e300 if value > 0 else -1e300
+    return round_sig(value, digits)

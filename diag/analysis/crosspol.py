@@ -36,7 +36,8 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.steps import detect_steps, in_set
+from diag.analysis.step_detection import detect_steps
+from diag.analysis.steps import in_set
 from diag.models import p530, p838, xpol
 from diag.numeric import round_sig as _r
 

@@ -6,6 +6,7 @@ PDF.  Called by :mod:`diag.batch` after a run.
 from __future__ import annotations
 
 import math
+import shutil
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -15,8 +16,10 @@ import pandas as pd
 from diag import schema
 from diag.results import LinkResult
 
-__all__ = ["RANKING_COLUMNS", "bounds", "network_ranking", "spreadsheet_safe", "write_network_page"]
+__all__ = ["COMBINED_FILES", "RANKING_COLUMNS", "bounds", "network_ranking", "spreadsheet_safe", "write_combined",
+           "write_network_page"]
 
+COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
 RANKING_COLUMNS = ["rank", "link_id", "outage_min_lo", "outage_min_hi", "exact", "below_threshold_min_lo",
                    "below_threshold_min_hi", "availability_pct_lo", "availability_pct_hi", "objective_pct",
                    "meets_objective", "main_cause", "main_cause_min_lo", "main_cause_min_hi", "events", "observed_h",
@@ -190,3 +193,23 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
         pdf.savefig(fig)
     return path
+
+
+def write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
+    """Concatenate the per-hop CSV files into network-wide ones (header once, hops in ``order``)."""
+    written = []
+    for name in COMBINED_FILES:
+        parts = [out_dir / "hops" / folders[h] / name for h in order if folders.get(h)
+                 and (out_dir / "hops" / folders[h] / name).exists()]
+        if not parts:
+            continue
+        target = out_dir / name
+        with target.open("wb") as dst:
+            for i, part in enumerate(parts):
+                with part.open("rb") as src:
+                    header = src.readline()
+                    if i == 0:
+                        dst.write(header)
+                    shutil.copyfileobj(src, dst)
+        written.append(target)
+    return written
