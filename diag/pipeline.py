@@ -4,15 +4,18 @@
 ``analyze_tables(table, links)``  normalised rows of several hops -> one result per hop found in the table
 ``analyze_files(sources, links=)`` log files (paths, folders, or ``(name, bytes)`` pairs) -> one result per hop
 
-Stages for one hop: regular grid per channel and clear-sky reference (:mod:`diag.analysis.reference`, with the level
-steps
-of :mod:`diag.analysis.steps`) -> fade events and features (:mod:`diag.analysis.events`) -> causes
-(:mod:`diag.analysis.classify`) ->
-per-sample cause on the grid -> fading statistics (:mod:`diag.analysis.fading_stats`), cross-polar results
-(:mod:`diag.analysis.crosspol`),
-level changes (:mod:`diag.analysis.steps`), outage (:mod:`diag.analysis.outage`), then the ranked findings
-(:mod:`diag.analysis.findings`),
-which read all of these.
+Stages for one hop, in order (each a direct import below):
+
+1. regular grid per channel and clear-sky reference (:mod:`diag.analysis.reference`); the channel's steps are
+   detected once there (:func:`diag.analysis.steps.channel_steps`, kept in ``ChannelSeries.steps``);
+2. fade events (:mod:`diag.analysis.events`) with their features (:mod:`diag.analysis.features`);
+3. causes (:mod:`diag.analysis.classify`), then the per-sample cause painted on the grid;
+4. side by side (threads): fading statistics (:mod:`diag.analysis.fading_stats`), cross-polar results
+   (:mod:`diag.analysis.crosspol`), level changes (:mod:`diag.analysis.steps`, reading the steps of stage 1) and
+   outage (:mod:`diag.analysis.outage`);
+5. the ranked findings (:mod:`diag.analysis.findings`), which read all of these.
+
+Thresholds: :class:`diag.config.AnalysisConfig`.  Files of one hop are assembled by :mod:`diag.read.hops`.
 """
 from __future__ import annotations
 

@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema
+from diag.report import style
 from diag.results import LinkResult
 
 __all__ = ["COMBINED_FILES", "RANKING_COLUMNS", "bounds", "network_ranking", "spreadsheet_safe", "write_combined",
@@ -109,22 +110,6 @@ def spreadsheet_safe(table: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-_FALLBACK_COLOURS = {"rain": "#2f6db5", "multipath": "#d9822b", "refractive": "#6a9f3b", "level_shift": "#8e5ea2",
-                     "signal_loss": "#c23b3b", "unknown": "#8c8c8c"}
-
-
-def _cause_colours() -> tuple[dict[str, str], dict[str, str]]:
-    """Cause colours and labels from the report's palette (``diag.report.style``), with a fallback."""
-    try:
-        from diag.report import style
-    except ImportError:
-        return dict(_FALLBACK_COLOURS), {}
-    palette = getattr(style, "CAUSE_COLORS", None)
-    labels = getattr(style, "CAUSE_LABELS", None)
-    return ({**_FALLBACK_COLOURS, **(palette if isinstance(palette, dict) else {})},
-            dict(labels) if isinstance(labels, dict) else {})
-
-
 def _short(text: str, width: int) -> str:
     """Shorten in the middle so hop ids that differ only at the end stay distinct."""
     text = str(text)
@@ -142,7 +127,7 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     from matplotlib.backends.backend_pdf import PdfPages
     from matplotlib.figure import Figure
 
-    colours, names = _cause_colours()
+    colours, names = style.CAUSE_COLORS, style.CAUSE_LABELS
     ok = ranking[ranking["error"] == ""].head(top)
     failed = ranking[ranking["error"] != ""]
     by_id = {r.link.link_id: r for r in results}

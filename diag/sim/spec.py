@@ -70,23 +70,24 @@ class Effect:
             raise InputError(f"{self.kind}: duration must be positive")
 
 
-@dataclass(frozen=True)
-class LinkSpec:
-    """A hop to simulate: the links-table fields, the simulation-only fields and its effects."""
+LINK_FIELDS = ("link_id", "frequency_ghz", "length_km", "polarization", "threshold_dbm") + OPTIONAL
+_DEFAULT_NOMINAL_DBM = -40.0   # clear-sky receive level when none is given (with ATPC: at the ATPC minimum power)
+_DEFAULT_ATPC_TX_DBM = 20.0    # maximum transmit power (ATPC top) when none is given
 
-    link_id: str
-    frequency_ghz: float
-    length_km: float
-    polarization: str  # "H", "V" or "dual"
-    threshold_dbm: float
-    nominal_dbm: float = -40.0  # clear-sky receive level (with ATPC: at the ATPC minimum power)
-    tx_dbm: float | None = None  # maximum transmit power (ATPC top); default 20 dBm
-    antenna_gain_dbi: float | None = None
-    antenna_height_m: float | None = None
-    geoclimatic_k: float | None = None
-    r001_mmh: float | None = None
-    objective_pct: float | None = None
-    xpd_required_db: float | None = None
+
+@dataclass(frozen=True, init=False)
+class LinkSpec:
+    """A hop to simulate: the hop itself (``link``, a :class:`diag.links.Link`), the simulation-only fields and its
+    effects.
+
+    Built from the links-table fields, positionally or by name as a scenario file gives them
+    (``LinkSpec("HOP", 23.0, 5.0, "H", -70.0, nominal_dbm=-38.0, duration_s=...)``), or from a Link
+    (``LinkSpec(link=..., duration_s=...)``).  The Link's fields read through (``spec.frequency_ghz`` is
+    ``spec.link.frequency_ghz``).  Defaults: ``nominal_dbm`` -40 dBm (the clear-sky level; with ATPC at the ATPC
+    minimum power), ``tx_dbm`` 20 dBm with ATPC (the ATPC top).
+    """
+
+    link: Link
     # simulation-only
     tilt_deg: float = 0.0  # polarisation tilt present from the start
     xpd_antenna_db: float = 35.0  # antennas' own cross-polar discrimination (dual-polarised hops)
@@ -108,38 +109,80 @@ class LinkSpec:
     directions: bool = False
     direction_names: tuple = DIRECTION_NAMES
 
-    def __post_init__(self):
+    def __init__(self, link_id: str | None = None, frequency_ghz: float | None = None, length_km: float | None = None,
+                 polarization: str | None = None, threshold_dbm: float | None = None,
+                 nominal_dbm: float | None = None, tx_dbm: float | None = None,
+                 antenna_gain_dbi: float | None = None, antenna_height_m: float | None = None,
+                 geoclimatic_k: float | None = None, r001_mmh: float | None = None,
+                 objective_pct: float | None = None, xpd_required_db: float | None = None, *,
+                 link: Link | None = None, **simulation):
+        given = {"link_id": link_id, "frequency_ghz": frequency_ghz, "length_km": length_km,
+                 "polarization": polarization, "threshold_dbm": threshold_dbm, "nominal_dbm": nominal_dbm,
+                 "tx_dbm": tx_dbm, "antenna_gain_dbi": antenna_gain_dbi, "antenna_height_m": antenna_height_m,
+                 "geoclimatic_k": geoclimatic_k, "r001_mmh": r001_mmh, "objective_pct": objective_pct,
+                 "xpd_required_db": xpd_required_db}
+        unknown = set(simulation) - _SIMULATION_FIELDS
+        if unknown:
+            raise TypeError(f"LinkSpec got unexpected field(s) {', '.join(sorted(unknown))}")
+        for name in _SIMULATION_FIELDS:
+            default = LinkSpec.__dataclass_fields__[name].default
+            object.__setattr__(self, name, simulation.get(name, default))
+        if link is not None:
+            if any(value is not None for value in given.values()):
+                raise TypeError("LinkSpec takes either a link or its fields, not both")
+            values = link.to_dict()
+        else:
+            values = dict(given)
+        if values["nominal_dbm"] is None:
+            values["nominal_dbm"] = _DEFAULT_NOMINAL_DBM
+        if values["tx_dbm"] is None and self.atpc:
+            values["tx_dbm"] = _DEFAULT_ATPC_TX_DBM
+        self._check(values)
+        object.__setattr__(self, "link", make_link(values, where=f"scenario link {values['link_id']}"))
+
+    def __getattr__(self, name: str):
+        """The Link's fields read through (``spec.frequency_ghz``)."""
+        if name in LINK_FIELDS:
+            return getattr(self.link, name)
+        raise AttributeError(f"{type(self).__name__!r} object has no attribute {name!r}")
+
+    def _check(self, values: dict) -> None:
+        """The simulation-only fields, and how they sit with the hop's (the hop's own fields are checked by
+        :func:`diag.links.make_link`)."""
+        link_id = values["link_id"]
         if self.interval_s <= 0 or self.duration_s < self.interval_s:
-            raise InputError(f"link {self.link_id}: interval_s must be positive and not above duration_s")
+            raise InputError(f"link {link_id}: interval_s must be positive and not above duration_s")
         if self.duration_s / self.interval_s > 50_000_000:
-            raise InputError(f"link {self.link_id}: more than 50 million samples; shorten or coarsen")
+            raise InputError(f"link {link_id}: more than 50 million samples; shorten or coarsen")
         for name in ("blank_fraction", "drop_fraction", "duplicate_fraction", "swap_fraction"):
             if not 0.0 <= getattr(self, name) < 0.5:
-                raise InputError(f"link {self.link_id}: {name} must be in [0, 0.5)")
+                raise InputError(f"link {link_id}: {name} must be in [0, 0.5)")
         for name in ("noise_db", "quantisation_db", "atpc_range_db"):
             value = getattr(self, name)
             if not (value >= 0.0 and math.isfinite(value)):
-                raise InputError(f"link {self.link_id}: {name} must be a finite number >= 0")
+                raise InputError(f"link {link_id}: {name} must be a finite number >= 0")
         if not 0.0 <= self.tilt_deg < 45.0:
-            raise InputError(f"link {self.link_id}: tilt_deg must be in [0, 45)")
-        if self.floor_value_dbm >= self.threshold_dbm:
-            raise InputError(f"link {self.link_id}: floor_dbm must be below threshold_dbm")
-        if self.nominal_dbm <= self.threshold_dbm:
-            raise InputError(f"link {self.link_id}: nominal_dbm must be above threshold_dbm (no fade margin)")
+            raise InputError(f"link {link_id}: tilt_deg must be in [0, 45)")
+        if self._floor_value(values["threshold_dbm"]) >= values["threshold_dbm"]:
+            raise InputError(f"link {link_id}: floor_dbm must be below threshold_dbm")
+        if values["nominal_dbm"] <= values["threshold_dbm"]:
+            raise InputError(f"link {link_id}: nominal_dbm must be above threshold_dbm (no fade margin)")
         if self.directions:
             names = tuple(str(name) for name in self.direction_names)
             object.__setattr__(self, "direction_names", names)  # a TOML list becomes a tuple (frozen dataclass)
-            if self.polarization not in ("H", "V"):
-                raise InputError(f"link {self.link_id}: directions need a single polarisation (H or V)")
+            if values["polarization"] not in ("H", "V"):
+                raise InputError(f"link {link_id}: directions need a single polarisation (H or V)")
             if len(names) != 2 or names[0] == names[1] or not all(name.strip() for name in names):
-                raise InputError(f"link {self.link_id}: direction_names must be two different names")
-        self.to_link()  # validates the links-table fields
+                raise InputError(f"link {link_id}: direction_names must be two different names")
+
+    def _floor_value(self, threshold_dbm) -> float:
+        if self.floor_dbm is not None:
+            return float(self.floor_dbm)
+        return min(-99.0, math.floor(threshold_dbm) - 10.0)
 
     @property
     def floor_value_dbm(self) -> float:
-        if self.floor_dbm is not None:
-            return float(self.floor_dbm)
-        return min(-99.0, math.floor(self.threshold_dbm) - 10.0)
+        return self._floor_value(self.link.threshold_dbm)
 
     @property
     def start_utc(self) -> pd.Timestamp:
@@ -151,16 +194,24 @@ class LinkSpec:
         return channels_for(self.polarization, self.direction_names if self.directions else None)
 
     def to_link(self) -> Link:
-        values = {
-            name: getattr(self, name)
-            for name in ("link_id", "frequency_ghz", "length_km", "polarization", "threshold_dbm") + OPTIONAL
-        }
-        if values["tx_dbm"] is None and self.atpc:
-            values["tx_dbm"] = 20.0
-        return make_link(values, where=f"scenario link {self.link_id}")
+        return self.link
 
     def replace(self, **changes) -> "LinkSpec":
-        return dataclasses.replace(self, **changes)
+        """A copy with some fields changed: simulation fields, and the Link's fields by name (or ``link=``)."""
+        link_changes = {name: changes.pop(name) for name in LINK_FIELDS if name in changes}
+        link = changes.pop("link", self.link)
+        if link_changes:
+            link = dataclasses.replace(link, **link_changes)
+        current = {name: getattr(self, name) for name in _SIMULATION_FIELDS}
+        return LinkSpec(link=link, **{**current, **changes})
+
+
+_SIMULATION_FIELDS = frozenset(f.name for f in dataclasses.fields(LinkSpec)) - {"link"}
+
+
+def spec_field_names() -> set[str]:
+    """Every key a hop of a scenario may give: the Link's fields and the simulation-only fields."""
+    return set(LINK_FIELDS) | set(_SIMULATION_FIELDS)
 
 
 @dataclass(frozen=True)
