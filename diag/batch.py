@@ -27,20 +27,26 @@ from __future__ import annotations
 import logging
 import math
 import os
-import shutil
 import tempfile
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 from diag import schema
 from diag.errors import InputError
 from diag.links import Link, match_link
-from diag.read import store
-from diag.read.ingest import expand_paths
+from diag.read.hops import assign_hops, expand_inputs, hop_table, read_file_table, sorted_table, store_part
+from diag.report.network import (  # noqa: F401 - re-exported: the network table is part of a run
+    COMBINED_FILES,
+    RANKING_COLUMNS,
+    bounds,
+    network_ranking,
+    spreadsheet_safe,
+    write_combined,
+    write_network_page,
+)
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -50,12 +56,6 @@ WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> lis
 ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
 ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
 
-RANKING_COLUMNS = ["rank", "link_id", "outage_min_lo", "outage_min_hi", "exact", "below_threshold_min_lo",
-                   "below_threshold_min_hi", "availability_pct_lo", "availability_pct_hi", "objective_pct",
-                   "meets_objective", "main_cause", "main_cause_min_lo", "main_cause_min_hi", "events", "observed_h",
-                   "no_data_h", "folder", "error"]
-COMBINED_FILES = ("events.csv", "outage_summary.csv", "outage_by_cause.csv")
-_SORT = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
 _RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
 
 
@@ -127,79 +127,14 @@ def _one_line(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
 
 
-def _is_store(path: Path) -> bool:
-    """A store folder (``diag.read.store``), whose hops are read one by one."""
-    return path.is_dir() and bool(store.is_store(path))
-
-
-def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
-    """Split the inputs (expanded by ``diag.read.ingest.expand_paths``) into log files and Parquet stores, which are
-    read hop by hop.  Raises ``InputError`` for a path that does not exist or an empty input."""
-    paths = expand_paths(inputs)
-    stores = [path for path in paths if _is_store(path)]
-    files = [path for path in paths if not _is_store(path)]
-    return files, stores
-
-
-
-
-def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
-    from diag.read.ingest import read_log
-
-    result = read_log(path, tz=tz, mapping=mapping)
-    report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
-    return result.table, report
-
-
-def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
-    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
-    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
-    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
-    ids = [str(x) for x in pd.unique(table[schema.LINK])]
-    renames: dict[str, str] = {}
-    for link_id in ids:
-        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
-        try:
-            hop = match_link(links, carried, file_name=file_name).link_id
-        except InputError:
-            continue
-        if hop != link_id:
-            renames[link_id] = hop
-    if not renames:
-        return table
-    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
-    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
-
-
-def _sorted(table: pd.DataFrame) -> pd.DataFrame:
-    return table.sort_values(_SORT, kind="mergesort").reset_index(drop=True)
-
-
-def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
-    """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes, and the
-    number of values dropped because an earlier file already held them (same rule as ``diag.read.ingest.read_logs``:
-    same link, channel, quantity, stat and time -> the first file's value is kept)."""
-    parts = [t for t in tables if t is not None and len(t)]
-    if not parts:
-        return schema.empty_table(), 0
-    if len(parts) == 1:
-        return _sorted(schema.conform(parts[0])), 0
-    table = _sorted(schema.concat(parts))   # keeps the key columns categorical (diag.schema)
-    dup = table.duplicated(subset=_SORT, keep="first").to_numpy()
-    if dup.any():
-        table = table[~dup].reset_index(drop=True)
-    return table, int(dup.sum())
-
-
-# --- worker tasks -----------------------------------------------------------------------------------------------
 def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None) -> _FilePiece:
     name = Path(path).name
     try:
-        table, report = (reader or _default_reader)(path, tz=tz, mapping=mapping)
+        table, report = (reader or read_file_table)(path, tz=tz, mapping=mapping)
         if table.empty:
             raise InputError("no usable rows in the log", path=name)
-        table = _assign_hops(table, links, name)
-        tables = {str(k): _sorted(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
+        table = assign_hops(table, links, name)
+        tables = {str(k): sorted_table(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
         return _FilePiece(name=name, tables=tables, report=report)
     except Exception as exc:  # one bad file must never stop the run
         try:
@@ -250,15 +185,6 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
                 for p in sorted(Path(tmp).rglob("*")) if p.is_file()}
 
 
-def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
-    from diag.read.store import read_store
-
-    table = read_store(store_path, link_id=store_id)
-    if store_id != hop:
-        table = schema.conform(table.assign(**{schema.LINK: hop}))
-    return table
-
-
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
@@ -274,7 +200,7 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
                                                          for p in bad)), {})
     try:
         parts = [p.tables.get(link_id) for p in pieces]
-        parts += [_store_part(path, sid, link_id) for path, sid in store_refs]
+        parts += [store_part(path, sid, link_id) for path, sid in store_refs]
         table, dropped = hop_table(parts)
         ingest = {"files": [p.report for p in pieces] + [{"file": path, "layout": "store", "store_link_id": sid}
                                                          for path, sid in store_refs]}
@@ -298,176 +224,6 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
     if not keep_series:
         result = replace(result, series={})
     return _HopOutcome(result, files)
-
-
-# --- network table and page -------------------------------------------------------------------------------------
-def _num(mapping, key: str) -> float:
-    try:
-        return float(mapping.get(key))
-    except (TypeError, ValueError):
-        return math.nan
-
-
-def bounds(mapping, key: str) -> tuple[float, float]:
-    """(low, high) of an outage figure: ``key_lo``/``key_hi`` when the accounting gives bounds (coarse logs,
-    15-min statistics; see ``diag.analysis.outage``), else the exact ``key`` twice."""
-    exact, lo, hi = _num(mapping, key), _num(mapping, f"{key}_lo"), _num(mapping, f"{key}_hi")
-    if math.isfinite(lo) and math.isfinite(hi):
-        return lo, hi
-    return exact, exact
-
-
-def _cause_minutes(by_cause: pd.DataFrame | None, cause: str) -> tuple[float, float]:
-    if by_cause is None or not len(by_cause) or "cause" not in by_cause:
-        return 0.0, 0.0
-    lo = hi = 0.0
-    for _, row in by_cause[by_cause["cause"] == cause].iterrows():
-        a, b = bounds(row, "unavailable_s")
-        lo += a if math.isfinite(a) else 0.0
-        hi += b if math.isfinite(b) else 0.0
-    return lo / 60, hi / 60
-
-
-def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | None = None) -> pd.DataFrame:
-    """The network table: one row per hop, worst first.
-
-    Outage = unavailable time (ITU-T G.826 sense) in minutes.  1-s logs give it exactly (``exact``; low = high);
-    coarser logs and 15-min statistics give bounds (``diag.analysis.outage``).  Hops are ranked by the upper bound
-    (worst
-    case), then the lower bound, then minutes below threshold (upper bound); no number between the bounds is made
-    up.  Hops that could not be analysed come last, with their error and no rank."""
-    rows = []
-    for res in results:
-        link_id = res.link.link_id
-        row = {"link_id": link_id, "folder": (folders or {}).get(link_id, ""), "error": res.error or ""}
-        if res.error is None and res.outage is not None:
-            s = res.outage.summary or {}
-            minutes = {c: _cause_minutes(res.outage.by_cause, c) for c in schema.CAUSES}
-            main = max(minutes, key=lambda c: (minutes[c][1], minutes[c][0]))
-            if minutes[main][1] <= 0:
-                main = ""
-            lo, hi = bounds(s, "unavailable_s")
-            blo, bhi = bounds(s, "below_threshold_s")
-            alo, ahi = bounds(s, "availability_pct")
-            meets = s.get("meets_objective")
-            row.update(outage_min_lo=lo / 60, outage_min_hi=hi / 60,
-                       exact=bool(math.isfinite(_num(s, "unavailable_s")) and lo == hi),
-                       below_threshold_min_lo=blo / 60, below_threshold_min_hi=bhi / 60,
-                       availability_pct_lo=alo, availability_pct_hi=ahi, objective_pct=_num(s, "objective_pct"),
-                       meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
-                       else str(meets),
-                       main_cause=main, main_cause_min_lo=minutes[main][0] if main else 0.0,
-                       main_cause_min_hi=minutes[main][1] if main else 0.0, events=int(len(res.events)),
-                       observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
-        elif res.error is None:
-            row["error"] = "analysis returned no outage accounting"
-        rows.append(row)
-    table = pd.DataFrame(rows, columns=[c for c in RANKING_COLUMNS if c != "rank"])
-    ok = table["error"] == ""
-    good = table[ok].sort_values(["outage_min_hi", "outage_min_lo", "below_threshold_min_hi", "link_id"],
-                                 ascending=[False, False, False, True], kind="mergesort", na_position="last")
-    good.insert(0, "rank", np.arange(1, len(good) + 1))
-    bad = table[~ok].sort_values("link_id", kind="mergesort")
-    bad.insert(0, "rank", pd.NA)
-    out = pd.concat([good, bad], ignore_index=True) if len(bad) else good.reset_index(drop=True)
-    out["rank"] = out["rank"].astype("Int64")
-    return out[RANKING_COLUMNS]
-
-
-def _spreadsheet_safe(table: pd.DataFrame) -> pd.DataFrame:
-    """Text cells a spreadsheet would run as a formula get a leading apostrophe (``diag.report.safe_cell``)."""
-    from diag.report.tables import safe_cell
-
-    out = table.copy()
-    for col in ("link_id", "folder", "main_cause", "error", "meets_objective"):
-        out[col] = out[col].map(safe_cell).astype(object)
-    return out
-
-
-_FALLBACK_COLOURS = {"rain": "#2f6db5", "multipath": "#d9822b", "refractive": "#6a9f3b", "level_shift": "#8e5ea2",
-                     "signal_loss": "#c23b3b", "unknown": "#8c8c8c"}
-
-
-def _cause_colours() -> tuple[dict[str, str], dict[str, str]]:
-    """Cause colours and labels from the report's palette (``diag.report.style``), with a fallback."""
-    try:
-        from diag.report import style
-    except ImportError:
-        return dict(_FALLBACK_COLOURS), {}
-    palette = getattr(style, "CAUSE_COLORS", None)
-    labels = getattr(style, "CAUSE_LABELS", None)
-    return ({**_FALLBACK_COLOURS, **(palette if isinstance(palette, dict) else {})},
-            dict(labels) if isinstance(labels, dict) else {})
-
-
-def _short(text: str, width: int) -> str:
-    """Shorten in the middle so hop ids that differ only at the end stay distinct."""
-    text = str(text)
-    if len(text) <= width:
-        return text
-    head = (width - 2) // 2
-    return f"{text[:head]}..{text[-(width - 2 - head):]}"
-
-
-def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
-    """One A4-landscape PDF page: outage minutes by cause for the worst hops, the ranking, and failed hops."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
-    from matplotlib.backends.backend_pdf import PdfPages
-    from matplotlib.figure import Figure
-
-    colours, names = _cause_colours()
-    ok = ranking[ranking["error"] == ""].head(top)
-    failed = ranking[ranking["error"] != ""]
-    by_id = {r.link.link_id: r for r in results}
-    fig = Figure(figsize=(11.69, 8.27))
-    fig.text(0.04, 0.955, "Network outage ranking", fontsize=16, weight="bold")
-    fig.text(0.04, 0.925, f"{len(ranking)} hops: {int((ranking['error'] == '').sum())} analysed, {len(failed)} "
-             "could not be analysed.  Outage = unavailable time (ITU-T G.826 sense), by cause.", fontsize=9)
-    ax = fig.add_axes((0.17, 0.57, 0.79, 0.31))
-    labels = list(ok["link_id"])[::-1]
-    shown = [f"{_short(h, 30)} " for h in labels]
-    left = np.zeros(len(labels))
-    for cause in schema.CAUSES:
-        minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
-                                             cause)[1] for h in labels])
-        if labels and minutes.sum() > 0:
-            ax.barh(range(len(labels)), minutes, left=left, color=colours.get(cause, "#888888"),
-                    label=names.get(cause, cause))
-            left += minutes
-    ax.set_yticks(range(len(labels)), shown)
-    ax.set_ylim(-0.6, max(len(labels), 1) - 0.4)
-    ax.set_xlabel("outage [min] (upper bound where the log gives bounds)")
-    ax.set_title(f"Worst {len(labels)} hops", fontsize=10, loc="left")
-    ax.tick_params(axis="y", labelsize=6 if len(labels) > 12 else 7)
-    if left.sum() > 0:
-        ax.legend(fontsize=7, loc="lower right")
-    else:
-        ax.text(0.5, 0.5, "no outage on any analysed hop", transform=ax.transAxes, ha="center", fontsize=9)
-    lines = ["rank  hop                         outage min       avail. %   objective  main cause"]
-    for row in ok.itertuples():
-        minutes = f"{row.outage_min_hi:.1f}" if row.exact else f"{row.outage_min_lo:.0f}-{row.outage_min_hi:.0f}"
-        avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if row.exact
-                 else f">={row.availability_pct_lo:.3f}")
-        met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
-        lines.append(f"{int(row.rank):>4}  {_short(row.link_id, 26):<26}  {minutes:>12}  {avail:>12}  "
-                     f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
-    if len(ok) and not ok["exact"].all():
-        lines.append("a-b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper bound")
-    fig.text(0.04, 0.50, "\n".join(lines), fontsize=6.5, family="monospace", va="top")
-    if len(failed):
-        text = ["Hops not analysed (fix and rerun):"] + [f"  {_short(r.link_id, 26)}: {_short(r.error, 140)}"
-                                                      for r in failed.head(8).itertuples()]
-        if len(failed) > 8:
-            text.append(f"  ... and {len(failed) - 8} more (network_ranking.csv)")
-        fig.text(0.04, 0.19, "\n".join(text), fontsize=6.5, family="monospace", va="top", color="#a02020")
-    fig.text(0.04, 0.03, "Per-hop outputs: hops/<hop>/.  Advice that involves work on towers or near radiating "
-             "antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
-    path = Path(path)
-    with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
-        pdf.savefig(fig)
-    return path
 
 
 # --- the run ----------------------------------------------------------------------------------------------------
@@ -533,26 +289,6 @@ def _clear_outputs(out: Path, folders: Iterable[str]) -> None:
             path.unlink(missing_ok=True)
         except OSError as exc:
             raise InputError(f"cannot replace an old output file: {exc.strerror}", path=str(path)) from None
-
-
-def _write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:
-    """Concatenate the per-hop CSV files into network-wide ones (header once, hops in ``order``)."""
-    written = []
-    for name in COMBINED_FILES:
-        parts = [out_dir / "hops" / folders[h] / name for h in order if folders.get(h)
-                 and (out_dir / "hops" / folders[h] / name).exists()]
-        if not parts:
-            continue
-        target = out_dir / name
-        with target.open("wb") as dst:
-            for i, part in enumerate(parts):
-                with part.open("rb") as src:
-                    header = src.readline()
-                    if i == 0:
-                        dst.write(header)
-                    shutil.copyfileobj(src, dst)
-        written.append(target)
-    return written
 
 
 def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str | os.PathLike | None = None,
@@ -695,9 +431,9 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     ranking = network_ranking(ordered, folders)
     if out is not None:
         out.mkdir(parents=True, exist_ok=True)
-        written += _write_combined(out, order, folders)
+        written += write_combined(out, order, folders)
         target = out / "network_ranking.csv"
-        _spreadsheet_safe(ranking).to_csv(target, index=False, float_format="%.6g")
+        spreadsheet_safe(ranking).to_csv(target, index=False, float_format="%.6g")
         written.append(target)
         written.append(write_network_page(ordered, ranking, out / "network_report.pdf"))
     return BatchResult(results=ordered, ranking=ranking, files=written, reads=[m for m in reads if m])

@@ -9,8 +9,11 @@ from __future__ import annotations
 import csv
 import io
 import math
-from dataclasses import asdict, dataclass, fields
+import re
+from dataclasses import asdict, dataclass
 from pathlib import Path
+
+import numpy as np
 
 from diag.errors import InputError
 
@@ -19,8 +22,9 @@ OPTIONAL = ("nominal_dbm", "tx_dbm", "antenna_gain_dbi", "antenna_height_m", "ge
             "objective_pct", "xpd_required_db")
 POLARIZATIONS = ("H", "V", "dual")
 
-# plausibility ranges: outside them the value is almost certainly a unit or typing mistake
-_RANGES = {
+# plausibility ranges of the hop fields: outside them the value is almost certainly a unit or typing mistake (the
+# one definition: the prediction and the dashboard check against these too)
+PLAUSIBLE_RANGES = {
     "frequency_ghz": (1.0, 100.0),
     "length_km": (0.01, 200.0),
     "threshold_dbm": (-120.0, -20.0),
@@ -33,6 +37,15 @@ _RANGES = {
     "objective_pct": (50.0, 100.0),
     "xpd_required_db": (0.0, 60.0),
 }
+_RANGES = PLAUSIBLE_RANGES
+
+
+def in_plausible_range(name: str, values) -> np.ndarray:
+    """Whether each value of the hop field ``name`` lies in its plausibility range (:data:`PLAUSIBLE_RANGES`,
+    bounds included; NaN is outside); vectorised."""
+    lo, hi = PLAUSIBLE_RANGES[name]
+    x = np.asarray(values, dtype=float)
+    return (x >= lo) & (x <= hi)
 
 
 @dataclass(frozen=True)
@@ -139,8 +152,21 @@ def read_links_table(path_or_text: str | Path, *, text: str | None = None) -> li
     return links
 
 
-def link_field_names() -> list[str]:
-    return [f.name for f in fields(Link)]
+def channel_polarization(channel: str, link: Link | None = None, default: str | None = None) -> str | None:
+    """The polarisation of a channel: the link's when it is single-polarised (H or V), else "H" or "V" when the
+    channel name says so (a token H/V/horizontal/vertical), else ``default``.  The one rule for a channel's
+    polarisation (events, fading statistics and classification use it).
+
+    On a single-polarised hop the channel names name the directions or ends ("A>B", "near", "S1>V2"), so a site
+    code that reads like a polarisation token ("V2") must not override the links table."""
+    if link is not None and link.polarization in ("H", "V"):
+        return link.polarization
+    tokens = [t for t in re.split(r"[^A-Za-z]+", str(channel).lower()) if t]
+    if any(t in ("h", "horizontal", "hor", "hh") for t in tokens):
+        return "H"
+    if any(t in ("v", "vertical", "ver", "vv") for t in tokens):
+        return "V"
+    return default
 
 
 def match_link(links: list[Link], link_id: str | None, *, file_name: str | None = None) -> Link:

@@ -4,20 +4,22 @@
 ``analyze_tables(table, links)``  normalised rows of several hops -> one result per hop found in the table
 ``analyze_files(sources, links=)`` log files (paths, folders, or ``(name, bytes)`` pairs) -> one result per hop
 
-Stages for one hop: regular grid per channel and clear-sky reference (:mod:`diag.analysis.reference`, with the level
-steps
-of :mod:`diag.analysis.steps`) -> fade events and features (:mod:`diag.analysis.events`) -> causes
-(:mod:`diag.analysis.classify`) ->
-per-sample cause on the grid -> fading statistics (:mod:`diag.analysis.fading_stats`), cross-polar results
-(:mod:`diag.analysis.crosspol`),
-level changes (:mod:`diag.analysis.steps`), outage (:mod:`diag.analysis.outage`), then the ranked findings
-(:mod:`diag.analysis.findings`),
-which read all of these.
+Stages for one hop, in order (each a direct import below):
+
+1. regular grid per channel and clear-sky reference (:mod:`diag.analysis.reference`); the channel's steps are
+   detected once there (:func:`diag.analysis.steps.channel_steps`, kept in ``ChannelSeries.steps``);
+2. fade events (:mod:`diag.analysis.events`) with their features (:mod:`diag.analysis.features`);
+3. causes (:mod:`diag.analysis.classify`), then the per-sample cause painted on the grid;
+4. side by side (threads): fading statistics (:mod:`diag.analysis.fading_stats`), cross-polar results
+   (:mod:`diag.analysis.crosspol`), level changes (:mod:`diag.analysis.steps`, reading the steps of stage 1) and
+   outage (:mod:`diag.analysis.outage`);
+5. the ranked findings (:mod:`diag.analysis.findings`), which read all of these.
+
+Thresholds: :class:`diag.config.AnalysisConfig`.  Files of one hop are assembled by :mod:`diag.read.hops`.
 """
 from __future__ import annotations
 
 import contextlib
-import importlib
 import logging
 import os
 import sys
@@ -28,11 +30,16 @@ from pathlib import Path
 import pandas as pd
 
 from diag import schema as S
+from diag.analysis import crosspol, fading_stats, findings, outage, steps
 from diag.analysis.classify import classify_events
 from diag.analysis.events import find_events, paint_series
-from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
+from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
+from diag.config import AnalysisConfig
 from diag.errors import InputError
 from diag.links import Link, match_link
+from diag.read.gauge import check_rain_verdicts, read_gauge
+from diag.read.hops import hop_table
+from diag.read.ingest import expand_paths, read_log
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -55,45 +62,43 @@ def _skipped_for_link(link: Link) -> list[str]:
 def _load_gauge(gauge):
     if gauge is None or isinstance(gauge, pd.DataFrame):
         return gauge
-    from diag.read.gauge import read_gauge
-
     if isinstance(gauge, tuple):
         name, data = gauge
         return read_gauge(data, name=name)
     return read_gauge(gauge)
 
 
-_STAGE_MODULES = {"stats": "diag.analysis.fading_stats", "crosspol": "diag.analysis.crosspol",
-                  "shifts": "diag.analysis.steps", "outage": "diag.analysis.outage",
-                  "findings": "diag.analysis.findings"}
-
-
-def _attempt(module: str, function: str, result: LinkResult) -> tuple:
-    """``(diag.<module>.<function>(result), None)``, or ``(None, why)`` when it failed (logged); InputError rises.
+def _attempt(label: str, stage: Callable[[LinkResult], object], result: LinkResult) -> tuple:
+    """``(stage(result), None)``, or ``(None, why)`` when it failed (logged); InputError rises.  ``label`` names the
+    stage in the log and in ``result.skipped``.
 
     Touches nothing shared, so the independent stages can run in threads (see :func:`analyze_link`)."""
-    mod = importlib.import_module(_STAGE_MODULES[module])
     try:
-        return getattr(mod, function)(result), None
+        return stage(result), None
     except InputError:
         raise
     except Exception as exc:  # one analysis step must not sink the hop: say it was skipped, log the details
-        log.warning("%s.%s failed on %s: %s", module, function, result.link.link_id, " ".join(str(exc).split()))
-        log.info("details of the %s.%s failure", module, function, exc_info=True)  # shown with -v only
+        log.warning("%s failed on %s: %s", label, result.link.link_id, " ".join(str(exc).split()))
+        log.info("details of the %s failure", label, exc_info=True)  # shown with -v only
+        module = label.split(".")[0]
         return None, f"{module}: failed ({type(exc).__name__}: {' '.join(str(exc).split())[:120]})"
 
 
-def _call(module: str, function: str, result: LinkResult):
-    """Call ``diag.<module>.<function>(result)``; a failure is logged and named in ``result.skipped``."""
-    value, why = _attempt(module, function, result)
+def _call(label: str, stage: Callable[[LinkResult], object], result: LinkResult):
+    """``stage(result)``; a failure is logged and named in ``result.skipped``."""
+    value, why = _attempt(label, stage, result)
     if why is not None:
         result.skipped.append(why)
     return value
 
 
-# stages that read the painted series and events and write nothing shared: they may run side by side
-_INDEPENDENT = (("stats", "link_statistics"), ("crosspol", "cross_polar"), ("shifts", "level_changes"),
-                ("outage", "account_link"))
+# stages that read the painted series and events and write nothing shared: they may run side by side.  The labels
+# ("module.function", the module's short name first) name a failed stage in ``LinkResult.skipped``; each stage is
+# looked up in its module when called (so a benchmark may wrap the module's function).
+_INDEPENDENT = (("stats.link_statistics", lambda result: fading_stats.link_statistics(result)),
+                ("crosspol.cross_polar", lambda result: crosspol.cross_polar(result)),
+                ("shifts.level_changes", lambda result: steps.level_changes(result)),
+                ("outage.account_link", lambda result: outage.account_link(result)))
 
 
 def default_threads() -> int:
@@ -113,10 +118,10 @@ def _independent_stages(result: LinkResult, threads: int) -> list:
     """Values of the ``_INDEPENDENT`` stages, in their order; failures named in ``result.skipped`` in that order
     (so the outputs do not depend on which thread finished first)."""
     if threads <= 1:
-        attempts = [_attempt(module, function, result) for module, function in _INDEPENDENT]
+        attempts = [_attempt(label, stage, result) for label, stage in _INDEPENDENT]
     else:
         with ThreadPoolExecutor(max_workers=threads, thread_name_prefix="diag-stage") as pool:
-            futures = [pool.submit(_attempt, module, function, result) for module, function in _INDEPENDENT]
+            futures = [pool.submit(_attempt, label, stage, result) for label, stage in _INDEPENDENT]
             attempts = [future.result() for future in futures]
     values = []
     for value, why in attempts:
@@ -189,9 +194,7 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
     result.skipped = _skipped_for_link(link)
     if gauge_table is not None and len(events):
-        from diag.read import gauge as gauge_mod
-
-        checked = gauge_mod.check_rain_verdicts(events, gauge_table)
+        checked = check_rain_verdicts(events, gauge_table)
         result.events = pd.concat([events, checked], axis=1)
     elif gauge_table is None:
         result.skipped.append("rain-gauge check of the rain verdicts (no gauge file given)")
@@ -203,7 +206,7 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     result.level_changes = level_changes or {}
     _merge_skipped(result, result.level_changes)
     result.outage = outage
-    result.findings = _call("findings", "rank_findings", result) or []
+    result.findings = _call("findings.rank_findings", lambda res: findings.rank_findings(res), result) or []
     return result
 
 
@@ -235,8 +238,6 @@ def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: Analys
 def expand_sources(sources: Iterable) -> list:
     """Paths (expanded by ``diag.read.ingest.expand_paths``: folders give their logs, stores stay whole) and
     ``(name, bytes)`` pairs, in the order given."""
-    from diag.read.ingest import expand_paths
-
     out: list = []
     for source in sources:
         out.extend([source] if isinstance(source, tuple) else expand_paths([os.fspath(source)]))
@@ -254,8 +255,6 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     else to the table's only row (:func:`diag.links.match_link`).  ``progress(done, total, message)`` is called
     after each file read and each hop analysed.
     """
-    from diag.read.ingest import read_log
-
     items = expand_sources(sources)
     gauge_table = _load_gauge(gauge)
     links = list(links)
@@ -291,8 +290,6 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
             progress(done, len(hop_ids), f"analysing {link_id}")
         # files of one hop: concatenated, sorted, a value found in two files kept once (the first file's), as
         # read_logs and batch do; how many were dropped goes into the ingest report
-        from diag.batch import hop_table
-
         table, dropped = hop_table(pieces[link_id])
         ingest = {"files": reports[link_id]}
         if dropped:

@@ -1,5 +1,6 @@
 """Result types passed between stages (dataclasses; units in the field names).
 
+``ChannelSteps``   the steps of one channel's clear-sky level, detected once (filled by ``diag.analysis.steps``).
 ``ChannelSeries``  one channel of one hop on a regular time grid, after the clear-sky reference is removed.
 ``LinkResult``     everything the analysis found for one hop; the report writers, the dashboard and ``batch`` read it.
 ``OutageResult``   the error-performance accounting of one hop (filled by ``diag.analysis.outage``).
@@ -14,6 +15,25 @@ from diag.links import Link
 
 # status values on the regular grid: the normalised statuses plus "no_data" for grid points with no row
 GRID_NO_DATA = "no_data"
+
+
+@dataclass
+class ChannelSteps:
+    """Steps of one channel's clear-sky level (:class:`diag.analysis.steps.Step` lists), found by one call,
+    :func:`diag.analysis.steps.channel_steps`, in the reference stage and read by the later stages.
+
+    Two sizes are kept because the two uses differ (both thresholds come from ``diag.config.AnalysisConfig``):
+    ``reference`` (from ``step_min_db``, on the level of :func:`diag.analysis.steps.path_level`; for 15-min
+    statistics the starts/ends of fading episodes left out) cuts the reference and makes the level-shift events;
+    ``reported`` (from ``level_change_min_db``, on :func:`diag.analysis.steps.path_level_dbm`) is the list of level
+    changes reported.  ``reported_error``: the exception the second detection raised (reported by the
+    level-change stage, which then fails as it would have on its own).
+    """
+
+    reference: list
+    reported: list | None
+    reported_min_db: float
+    reported_error: BaseException | None = None
 
 
 @dataclass
@@ -37,6 +57,7 @@ class ChannelSeries:
     interval_s: float
     kind: str  # "sample" (instantaneous samples) or "stats" (interval min/avg/max)
     frame: pd.DataFrame
+    steps: ChannelSteps | None = None   # set by the reference stage (diag.analysis.reference.add_reference)
 
 
 @dataclass

@@ -73,7 +73,7 @@ import pandas as pd
 
 from diag import schema as S
 from diag.analysis.events import channel_polarization
-from diag.analysis.reference import AnalysisConfig
+from diag.config import AnalysisConfig
 from diag.links import Link
 
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]

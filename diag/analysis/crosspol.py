@@ -36,8 +36,10 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.steps import detect_steps, in_set
-from diag.models import p838, xpol
+from diag.analysis.step_detection import detect_steps
+from diag.analysis.steps import in_set
+from diag.models import p530, p838, xpol
+from diag.numeric import round_sig as _r
 
 log = logging.getLogger(__name__)
 
@@ -46,15 +48,6 @@ ANTENNA_XPD_RANGE_DB = (30.0, 40.0)
 HV_IMBALANCE_FLAG_DB = 3.0             # common practice: a clear-sky H/V difference above this is worth a look
 HV_RATIO_TOLERANCE = 0.15              # |observed - P.838| ratio difference still called consistent (common practice)
 _NOT_CLEAR = (S.RAIN, S.MULTIPATH, S.REFRACTIVE, S.SIGNAL_LOSS)
-
-
-def _r(value, digits: int = 4):
-    if value is None:
-        return None
-    value = float(value)
-    if not math.isfinite(value):
-        return None
-    return float(f"{value:.{digits}g}") if value != 0 else 0.0
 
 
 def _xpd_source(frame: pd.DataFrame) -> str | None:
@@ -132,10 +125,6 @@ def _positions(index: pd.Index, times) -> np.ndarray:
 
 
 def _p530_xpd(frequency_ghz: float) -> dict | None:
-    try:
-        from diag.models import p530
-    except ImportError:  # pragma: no cover
-        return None
     u = float(p530.xpd_rain_db(1.0, frequency_ghz))            # U = U0 + 30 log10 f (CPA = 1 dB gives U)
     v = float(p530.xpd_rain_voltage_factor_db(frequency_ghz))   # V(f)
     return {"u_db": _r(u), "v_db": _r(v), "source": "ITU-R P.530-17 §4 via diag.models.p530"}

@@ -34,9 +34,12 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.reference import AnalysisConfig, LevelSpan
-from diag.links import Link
+from diag.analysis import features as F
+from diag.analysis.reference import LevelSpan
+from diag.config import AnalysisConfig
+from diag.links import Link, channel_polarization
 from diag.models import p838
+from diag.numeric import nanmax as _nanmax
 from diag.results import ChannelSeries
 
 __all__ = ["segment", "find_events", "paint_series", "channel_polarization", "FEATURE_COLUMNS"]
@@ -50,22 +53,6 @@ FEATURE_COLUMNS = [
     "step_db", "gauge_rain_mmh", "fast_std_db", "half_peak_fraction", "noise_diff_db", "near_floor_fraction",
     "upfade_context_db",
 ]
-
-
-def channel_polarization(channel: str, link: Link | None = None) -> str | None:
-    """The polarisation of a channel: the link's when it is single-polarised (H or V), else "H" or "V" when the
-    channel name says so (a token H/V/horizontal/vertical), else None.
-
-    On a single-polarised hop the channel names name the directions or ends ("A>B", "near", "S1>V2"), so a site
-    code that reads like a polarisation token ("V2") must not override the links table."""
-    if link is not None and link.polarization in ("H", "V"):
-        return link.polarization
-    tokens = [t for t in re.split(r"[^A-Za-z]+", str(channel).lower()) if t]
-    if any(t in ("h", "horizontal", "hor", "hh") for t in tokens):
-        return "H"
-    if any(t in ("v", "vertical", "ver", "vv") for t in tokens):
-        return "V"
-    return None
 
 
 def _partners(channels: list[str], link: Link | None) -> dict[str, str]:
@@ -121,324 +108,43 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
     return starts, ends
 
 
-class _RainModel:
-    """ITU-R P.838-3 coefficients of one hop, computed once (eq. (1) inverted per event in plain floats)."""
-
-    def __init__(self, frequency_ghz: float, length_km: float):
-        self.length_km = float(length_km)
-        self.frequency_ghz = float(frequency_ghz)
-        kh, ah = p838.coefficients_horizontal(frequency_ghz)
-        kv, av = p838.coefficients_vertical(frequency_ghz)
-        self.coef = {"H": (float(kh), float(ah)), "V": (float(kv), float(av))}
-
-    def rate_mmh(self, att_db: float, pol: str | None) -> float:
-        """Path-average rain rate for ``att_db`` under uniform rain: R = (A / (k L))^(1/alpha), P.838-3 eq. (1)."""
-        if not (math.isfinite(att_db) and att_db > 0):
-            return 0.0
-        k, alpha = self.coef["V" if pol == "V" else "H"]
-        return float((att_db / (k * self.length_km)) ** (1.0 / alpha))
-
-    def v_over_h(self, rate_mmh: float) -> float:
-        """A_V / A_H = gamma_V / gamma_H at ``rate_mmh`` (NaN for no rain)."""
-        if not (math.isfinite(rate_mmh) and rate_mmh > 0):
-            return math.nan
-        (kh, ah), (kv, av) = self.coef["H"], self.coef["V"]
-        return float(kv * rate_mmh ** av / (kh * rate_mmh ** ah))
-
-
-def _running_mean(x: np.ndarray, width: int) -> np.ndarray:
-    """Centred running mean over ``width`` samples ignoring NaN (cumulative sums: O(n))."""
-    if width <= 1 or x.size < 3:
-        return x
-    width = min(width, x.size)
-    ok = np.isfinite(x)
-    csum = np.concatenate([[0.0], np.cumsum(np.where(ok, x, 0.0))])
-    ccount = np.concatenate([[0], np.cumsum(ok)])
-    half = width // 2
-    n = x.size
-    # window [i - half, i - half + width) clipped to [0, n]: the sums at its ends by slicing edge-padded sums
-    # (the same values a clipped index gather picks, without the gathers)
-    lo_c = np.concatenate([np.repeat(csum[:1], half), csum])[:n]
-    hi_c = np.concatenate([csum, np.repeat(csum[-1:], width)])[width - half:width - half + n]
-    lo_n = np.concatenate([np.repeat(ccount[:1], half), ccount])[:n]
-    hi_n = np.concatenate([ccount, np.repeat(ccount[-1:], width)])[width - half:width - half + n]
-    num = hi_c - lo_c
-    den = hi_n - lo_n
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(den > 0, num / den, np.nan)
-
-
-class _RunningMeans:
-    """:func:`_running_mean` of one series evaluated only where asked (the event samples): the cumulative sum is
-    built once and shared by every width; each value is the same subtraction and division, so the same bits (the
-    count of valid samples in a window is an exact integer however it is found: here by binary search over the
-    few positions without a value)."""
-
-    def __init__(self, x: np.ndarray, ok: np.ndarray | None = None):
-        self.x = x
-        ok = np.isfinite(x) if ok is None else ok
-        self.csum = np.empty(x.size + 1)
-        self.csum[0] = 0.0
-        np.cumsum(np.where(ok, x, 0.0), out=self.csum[1:])
-        self.gaps = np.flatnonzero(~ok)
-
-    def at(self, idx: np.ndarray, width: int) -> np.ndarray:
-        """``_running_mean(x, width)[idx]``."""
-        x = self.x
-        if width <= 1 or x.size < 3:
-            return x[idx]
-        width = min(width, x.size)
-        half = width // 2
-        lo = np.clip(idx - half, 0, x.size)
-        hi = np.clip(idx - half + width, 0, x.size)
-        num = self.csum[hi] - self.csum[lo]
-        den = (hi - lo) - (np.searchsorted(self.gaps, hi) - np.searchsorted(self.gaps, lo))
-        with np.errstate(invalid="ignore", divide="ignore"):
-            return np.where(den > 0, num / den, np.nan)
-
-
-def _noise_diff(att: np.ndarray, floor: np.ndarray, config: AnalysisConfig) -> float:
-    """Std of sample-to-sample differences in clear air (|attenuation| < fade_end_db): the noise of the log."""
-    with np.errstate(invalid="ignore"):
-        calm = np.abs(att) < config.fade_end_db
-    # differences only where both samples are calm (then both are finite and so is their difference)
-    idx = np.flatnonzero(calm[1:] & calm[:-1])
-    if idx.size < 10:
-        return math.nan
-    if idx.size > 200_000:
-        idx = idx[:: idx.size // 200_000 + 1]
-    return float(np.std(att[idx + 1] - att[idx]))
-
-
-def _nanmax(x: np.ndarray, default: float = math.nan) -> float:
-    x = x[np.isfinite(x)]
-    return float(x.max()) if x.size else default
-
-
-# The per-event helpers below repeat numpy's own steps without its wrappers (the events of a week are many short
-# arrays, where the wrappers cost more than the arithmetic), so every feature keeps its bits.  _sum is what
-# ndarray.sum() calls (the same pairwise summation).
-_sum = np.add.reduce
-
-def _window_max(x_nan: np.ndarray, lo: int, hi: int, default: float = math.nan) -> float:
-    """``_nanmax(x[lo:hi], default)`` with ``x_nan`` = x whose non-finite values are NaN (fmax skips NaN).  A
-    largest value of zero is taken again by :func:`_nanmax`: whether +0.0 or -0.0 comes out depends on the order
-    of the comparisons; any other largest value has one bit pattern."""
-    part = x_nan[max(lo, 0):hi]
-    if not part.size:
-        return default
-    v = float(np.fmax.reduce(part))
-    if v == 0.0:
-        return _nanmax(part, default)
-    return default if v != v else v
-
-
-def _window_max_neg(x_nan: np.ndarray, lo: int, hi: int, default: float = math.nan) -> float:
-    """``_nanmax(-x[lo:hi], default)``: minus the smallest finite value (negation is exact; zero as above)."""
-    part = x_nan[max(lo, 0):hi]
-    if not part.size:
-        return default
-    v = float(np.fmin.reduce(part))
-    if v == 0.0:
-        return _nanmax(-part, default)
-    return default if v != v else -v
-
-
-def _std(x: np.ndarray) -> float:
-    """``float(np.std(x))`` of a 1-D float array by numpy's steps (sum, divide, subtract, square, sum, divide,
-    square root): the same bits."""
-    n = x.size
-    d = x - _sum(x) / n
-    d *= d
-    return math.sqrt(_sum(d) / n)
-
-
-def _pearson(x: np.ndarray, y: np.ndarray) -> float:
-    """``float(np.corrcoef(x, y)[0, 1])`` of two 1-D float arrays by the steps of numpy.cov / numpy.corrcoef (the
-    same row means, the same BLAS product, the same scaling, division and clipping): the same bits."""
-    rows = np.empty((2, x.size))
-    rows[0] = x
-    rows[1] = y
-    rows -= (_sum(rows, axis=1) / x.size)[:, None]   # rows.mean(axis=1): the row sums over the count
-    c = np.dot(rows, rows.T)
-    c *= np.true_divide(1, x.size - 1)
-    r = float(c[0, 1] / np.sqrt(c[0, 0]) / np.sqrt(c[1, 1]))
-    return 1.0 if r > 1.0 else -1.0 if r < -1.0 else r
-
-
-def _finite(x: np.ndarray) -> np.ndarray:
-    """``x[np.isfinite(x)]`` (``x`` itself when all are finite)."""
-    ok = np.isfinite(x)
-    return x if ok.all() else x[ok]
-
-
-def _inf_as_nan(x: np.ndarray) -> np.ndarray:
-    inf = np.isinf(x)
-    return np.where(inf, np.nan, x) if inf.any() else x
-
-
 def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, partner: ChannelSeries | None,
                     gauge: pd.DataFrame | None) -> list[dict]:
+    """The fade events of one channel with their features (rows of the events table; see the module docstring)."""
     frame = series.frame
     step = series.interval_s
     stats = series.kind == "stats"
-    floor = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
+    floor = F.channel_floor(frame)
     att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
     seg_att = frame["attenuation_peak_db"].to_numpy(dtype=float, na_value=np.nan) if stats else att
     level_low = frame["rsl_min_dbm" if stats else "rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
-    with np.errstate(invalid="ignore"):
-        below = (level_low < link.threshold_dbm) | floor
+    below = F.link_below(level_low, floor, link)
     starts, ends = segment(seg_att, floor, below, step, config)
     if starts.size == 0:
         return []
-    # the receiver's lowest reading; a level pinned within 2 dB of it is the floor even when the log gives values
-    lowest = float(np.nanmin(level_low)) if np.isfinite(level_low).any() else math.nan
-    with np.errstate(invalid="ignore"):
-        near_floor = floor | (level_low <= lowest + 2.0)
+    arr = F.channel_arrays(series, config, partner, floor=floor, att=att, seg_att=seg_att, level_low=level_low,
+                           below=below)
+    packed = F.pack_events(arr, starts, ends)
     pol = channel_polarization(series.channel, link)
-    rain = _RainModel(link.frequency_ghz, link.length_km)
-    p_att = None
-    if partner is not None and len(partner.frame) == len(frame):
-        p_att = partner.frame["attenuation_peak_db" if stats else "attenuation_db"].to_numpy(
-            dtype=float, na_value=np.nan)
     p_pol = channel_polarization(partner.channel, link) if partner is not None else None
-    ctx = max(1, int(round(config.context_s / step)))
-    wide = max(1, int(round(1800.0 / step)))   # +-30 min around the event
-    pre = max(1, int(round(30.0 / step)))      # 30 s before the first floor sample
-    att_ok = np.isfinite(att)
-    means = _RunningMeans(att, att_ok)   # 5-min and 1-min running means, evaluated over the event samples only
-    width300, width60 = max(1, int(round(300.0 / step))), max(1, int(round(60.0 / step)))
-    noise_diff = _noise_diff(att, floor, config)
+    coefficients = p838.hv_coefficients(link.frequency_ghz)
+    length_km = float(link.length_km)
     index = frame.index
-    if stats:
-        spread_all = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
-                      - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
-    reference = None
-    att_nan = _inf_as_nan(att)
-    seg_nan = att_nan if seg_att is att else _inf_as_nan(seg_att)
-
-    # the samples of all events one after the other ("packed"): event i is packed[off[i]:off[i] + length[i]];
-    # maxima, minima and integer counts of every event in one reduction each (exact in any order; only the sign
-    # of a zero extreme depends on the order, so a zero is taken again per event as before)
-    length = ends - starts
-    off = np.concatenate([[0], np.cumsum(length)[:-1]])
-    pos = np.arange(int(length.sum())) + np.repeat(starts - off, length)
-    seg_p = seg_nan[pos]
-    fin_p = np.isfinite(seg_p)
-
-    def count(mask_p):
-        return np.add.reduceat(mask_p, off, dtype=np.int64).tolist()
-
-    n_fin = count(fin_p)
-    n_nan = count(np.isnan(seg_att[pos])) if seg_nan is not seg_att else [n - f for n, f in
-                                                                           zip(length.tolist(), n_fin)]
-    floor_p = floor[pos]
-    n_floor = count(floor_p)
-    n_valid = count(fin_p | floor_p)
-    n_below = count(below[pos])
-    n_near = count(near_floor[pos])
-    floor_at = np.flatnonzero(floor_p)
-    first_floor = pos[floor_at[np.minimum(np.searchsorted(floor_at, off), max(floor_at.size - 1, 0))]].tolist() \
-        if floor_at.size else [0] * len(off)
-    peak_all = np.fmax.reduceat(seg_p, off).tolist()
-    att_p = seg_p if seg_nan is att_nan else att_nan[pos]
-    low_all = np.fmin.reduceat(att_p, off).tolist()
-    att_raw_p = att[pos]
-    resid_p = att_raw_p - means.at(pos, width300)
-    fast_p = att_raw_p - means.at(pos, width60) if not stats else None
-    if p_att is not None:
-        n_both = count(fin_p & np.isfinite(p_att[pos]))
     t_last = index[ends - 1]
     t_first, t_end = list(index[starts]), list(t_last + pd.Timedelta(seconds=step))   # Timestamps, boxed at once
+    spread_all = arr.spread_all
     peaks_at = []
     rows = []
-    for i, (a, b, o) in enumerate(zip(starts.tolist(), ends.tolist(), off.tolist())):
-        seg = seg_att[a:b]
+    for i, (a, b) in enumerate(zip(starts.tolist(), ends.tolist())):
         n = b - a
-        any_finite, all_finite = n_fin[i] > 0, n_fin[i] == n
-        peak = peak_all[i]
-        if peak == 0.0 or peak != peak:
-            peak = _nanmax(seg)
-        if any_finite:
-            ipeak = a + int(seg.argmax() if all_finite else np.nanargmax(seg))
-            total = _sum(seg if n_nan[i] == 0 else np.where(np.isnan(seg), 0.0, seg))
-            mean_fade = float(total / (n - n_nan[i]))   # np.nanmean: the sum with NaN as 0 over the count
-        else:
-            ipeak, mean_fade = a, math.nan
+        peak, ipeak, mean_fade, slope_in, slope_out = F.fade_shape(arr, packed, i, a, b)
         peaks_at.append(ipeak)
-        # slopes: from the start to the first point at 80 % of the peak, from the last such point to the end
-        if any_finite and peak > 0:
-            hi_idx = np.flatnonzero(seg >= 0.8 * peak)
-            i_in, i_out = a + int(hi_idx[0]), a + int(hi_idx[-1])
-            if all_finite:
-                first, last = seg[0], seg[-1]
-            else:
-                finite_at = np.flatnonzero(np.isfinite(seg))
-                first, last = seg[finite_at[0]], seg[finite_at[-1]]
-            slope_in = (seg_att[i_in] - first) / max((i_in - a) * step, step)
-            slope_out = (seg_att[i_out] - last) / max((b - 1 - i_out) * step, step)
-        else:
-            slope_in = slope_out = math.nan
-        src = att[a:b] if not stats else seg
-        diffs = _finite(src[1:] - src[:-1])   # np.diff
-        variability = _std(diffs) if diffs.size > 1 else math.nan
-        resid = _finite(resid_p[o:o + n])
-        roughness = float(_std(resid) / peak) if resid.size > 1 and peak > 0 else math.nan
-        if not stats:
-            fast = _finite(fast_p[o:o + n])
-            fast_std = _std(fast) if fast.size > 1 else math.nan
-        else:
-            fast_std = math.nan
-        # fraction of the valid samples at half the peak or more (NaN compares False)
-        half = (np.count_nonzero(seg_p[o:o + n] >= 0.5 * peak) / n_fin[i]) if any_finite and peak > 0 else math.nan
-        low = low_all[i]
-        up_in = 0.0 if low != low else (-low if low != 0.0 else _nanmax(-att[a:b], 0.0))
-        up_before = _window_max_neg(att_nan, a - ctx, a, 0.0)
-        up_after = _window_max_neg(att_nan, b, b + ctx, 0.0)
-        up_context = max(_window_max_neg(att_nan, a - wide, a, 0.0), _window_max_neg(att_nan, b, b + wide, 0.0))
-        floor_frac = n_floor[i] / n
-        pre_floor = math.nan
-        peak_reported = peak
-        if n_floor[i]:  # deepest fade in the 30 s before the first floor sample (NaN: no valid sample there)
-            pre_floor = _window_max(att_nan, first_floor[i] - pre, first_floor[i])
-            if reference is None:
-                reference = frame["reference_dbm"].to_numpy(dtype=float)
-            ref = reference[a:b]
-            lower_bound = float(np.nanmax(ref) - link.threshold_dbm) if np.isfinite(ref).any() else math.nan
-            peak_reported = max(peak if math.isfinite(peak) else -math.inf, lower_bound)
-        rate = rain.rate_mmh(peak, pol)
-        rate_mean = rain.rate_mmh(mean_fade, pol)
-        corr = ratio = vh = math.nan
-        if p_att is not None:
-            pa = p_att[a:b]
-            if n_both[i] == n:
-                ok, x, y = None, seg, pa
-            else:
-                ok = np.isfinite(seg) & np.isfinite(pa)
-                x, y = seg[ok], pa[ok]
-            if x.size >= 3 and _std(x) > 0 and _std(y) > 0:
-                corr = _pearson(x, y)
-            deep = seg >= max(config.fade_start_db, 0.5 * peak)
-            if ok is not None:
-                deep &= ok
-            if deep.any():
-                deep_sum = _sum(seg[deep])
-                if deep_sum > 0:
-                    ratio = float(_sum(pa[deep]) / deep_sum)
-                    if pol == "H" and p_pol == "V":
-                        vh = ratio
-                    elif pol == "V" and p_pol == "H" and ratio > 0:
-                        vh = 1.0 / ratio
-        rate_h = rate if pol != "V" else rain.rate_mmh(peak / vh if vh and math.isfinite(vh) and vh > 0 else peak,
-                                                       "H")
-        gauge_rate = math.nan
-        if gauge is not None and len(gauge):
-            from diag.read.gauge import gauge_rain_over
-
-            got = gauge_rain_over(gauge, t_first[i] - pd.Timedelta(minutes=15),
-                                  t_last[i] + pd.Timedelta(minutes=15))
-            if got["peak_mmh"] is not None and got["coverage"] >= 0.5:
-                gauge_rate = float(got["peak_mmh"])
+        variability, roughness, fast_std, half = F.fade_texture(arr, packed, i, a, b, peak)
+        up_in, up_before, up_after, up_context = F.upfades(arr, packed, i, a, b)
+        pre_floor, peak_reported = F.floor_depths(arr, packed, i, a, b, peak, link.threshold_dbm)
+        corr, ratio, vh = F.partner_features(arr, packed, i, a, b, peak, pol, p_pol, config)
+        rate, rate_mean, expected_vh, plausible = F.rain_features(coefficients, length_km, peak, mean_fade, vh,
+                                                                  pol, config)
         rows.append({
             "link_id": link.link_id, "channel": series.channel, "start_utc": t_first[i], "end_utc": t_end[i],
             "duration_s": float(n * step), "peak_fade_db": float(peak_reported) if math.isfinite(peak_reported)
@@ -448,23 +154,21 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "peak_fade_db_finite": peak, "mean_fade_db": mean_fade, "time_to_peak_s": float((ipeak - a) * step),
             "slope_in_db_s": float(slope_in), "slope_out_db_s": float(slope_out), "variability_db": variability,
             "roughness": roughness, "upfade_within_db": up_in, "upfade_before_db": up_before,
-            "upfade_after_db": up_after, "hour_utc": 0, "floor_fraction": floor_frac,
-            "pre_floor_fade_db": pre_floor, "below_threshold_s": float(n_below[i] * step),
-            "valid_fraction": n_valid[i] / n, "partner_corr": corr, "partner_ratio": ratio,
-            "v_over_h_ratio": vh, "expected_v_over_h": rain.v_over_h(rate_h),
-            "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean,
-            "rain_plausible": bool(0 < rate <= config.rain_plausible_max_mmh),
+            "upfade_after_db": up_after, "hour_utc": 0, "floor_fraction": packed.n_floor[i] / n,
+            "pre_floor_fade_db": pre_floor, "below_threshold_s": float(packed.n_below[i] * step),
+            "valid_fraction": packed.n_valid[i] / n, "partner_corr": corr, "partner_ratio": ratio,
+            "v_over_h_ratio": vh, "expected_v_over_h": expected_vh,
+            "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean, "rain_plausible": plausible,
             "spread_db": float(np.nanmedian(spread_all[a:b])) if stats and np.isfinite(spread_all[a:b]).any()
             else math.nan,
             "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if stats and peak > 0 else math.nan,
-            "step_db": math.nan, "gauge_rain_mmh": gauge_rate, "fast_std_db": fast_std,
-            "half_peak_fraction": half, "noise_diff_db": noise_diff,
-            "near_floor_fraction": n_near[i] / n, "upfade_context_db": up_context,
+            "step_db": math.nan, "gauge_rain_mmh": F.gauge_rate(gauge, t_first[i], t_last[i]),
+            "fast_std_db": fast_std, "half_peak_fraction": half, "noise_diff_db": arr.noise_diff,
+            "near_floor_fraction": packed.n_near[i] / n, "upfade_context_db": up_context,
         })
     for row, hour in zip(rows, index[np.asarray(peaks_at)].hour.tolist()):
         row["hour_utc"] = int(hour)
     return rows
-
 
 def _span_row(span: LevelSpan, series: ChannelSeries, link: Link) -> dict:
     row = {name: math.nan for name in FEATURE_COLUMNS}

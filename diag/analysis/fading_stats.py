@@ -28,7 +28,6 @@ Pure functions; no I/O.
 """
 from __future__ import annotations
 
-import functools
 import logging
 import math
 
@@ -36,118 +35,23 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.models import fading, p838
+from diag.analysis.multipath_stats import (  # noqa: F401 - part of the statistics of a channel
+    LCR_LEVELS_DB,
+    MLE_MAX_SAMPLES,
+    lcr_block,
+    multipath_periods,
+    rice_block,
+)
+from diag.analysis.stat_arrays import StatArrays
+from diag.links import channel_polarization
+from diag.models import fading, p530, p838
+from diag.numeric import round_figures as _round
 
 log = logging.getLogger(__name__)
 
 DEFAULT_DEPTHS_DB = (3.0, 5.0, 10.0, 15.0, 20.0, 25.0, 30.0, 35.0, 40.0)
-LCR_LEVELS_DB = (-5.0, -10.0, -15.0, -20.0, -25.0, -30.0)
 RAIN_PERCENTAGES = (1.0, 0.1, 0.01, 0.001)
-MLE_MAX_SAMPLES = 3000   # the likelihood fit uses at most this many evenly spaced samples (speed)
 FADED_DB = 3.0   # a sample counts as faded above this attenuation (the same 3 dB used for truth labels)
-
-
-def _round(value, digits: int = 4):
-    if value is None:
-        return None
-    if isinstance(value, (list, tuple, np.ndarray)):
-        return [_round(v, digits) for v in value]
-    value = float(value)
-    if not math.isfinite(value):
-        return None if math.isnan(value) else (1e300 if value > 0 else -1e300)
-    if value == 0:
-        return 0.0
-    return float(f"{value:.{digits}g}")
-
-
-# ------------------------------------------------------------------------------------------------- arrays
-def _equals(column: pd.Series, value: str) -> np.ndarray:
-    """``(column == value).to_numpy(dtype=bool, na_value=False)``; for a categorical column one integer compare of
-    its codes (a missing value has code -1, which no category has)."""
-    if isinstance(column.dtype, pd.CategoricalDtype):
-        hit = np.flatnonzero(np.asarray(column.cat.categories == value))
-        codes = column.cat.codes.to_numpy()
-        return codes == hit[0] if hit.size else np.zeros(codes.size, dtype=bool)
-    return (column == value).to_numpy(dtype=bool, na_value=False)
-
-
-_UNITS_PER_SECOND = {"s": 1, "ms": 10 ** 3, "us": 10 ** 6, "ns": 10 ** 9}
-
-
-class _Arrays:
-    """The numpy views of one channel's frame the statistics need (string columns converted once)."""
-
-    def __init__(self, series):
-        frame = series.frame
-        n = len(frame)
-        if "status" in frame:
-            self.ok = _equals(frame["status"], S.OK)
-            self.lost = _equals(frame["status"], S.SIGNAL_LOST)
-        else:
-            self.ok, self.lost = np.ones(n, dtype=bool), np.zeros(n, dtype=bool)
-        att = (frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan) if "attenuation_db" in frame
-               else np.full(n, np.nan))
-        self.observed = (self.ok & np.isfinite(att)) | self.lost
-        self.att = np.where(self.lost, np.inf, att) if self.lost.any() else att   # at the floor: deeper than any depth
-        if "cause" in frame and isinstance(frame["cause"].dtype, pd.CategoricalDtype):
-            codes = frame["cause"].cat.codes.to_numpy()   # -1 = missing: given the code after the last category
-            names = [str(c) for c in frame["cause"].cat.categories]
-            if (codes < 0).any():
-                codes = np.where(codes < 0, len(names), codes.astype(np.int64))
-            names = names + [""]
-        elif "cause" in frame:
-            codes, uniques = pd.factorize(frame["cause"], use_na_sentinel=False)
-            names = [str(x) if isinstance(x, str) else "" for x in uniques]
-        else:
-            codes, names = np.zeros(n, dtype=np.int64), [""]
-        self.cause_codes = np.asarray(codes)   # small integers (int8 when from a categorical)
-        self.cause_names = names
-        self.n = n
-        self.is_mp = self.is_cause(S.MULTIPATH)
-        self.is_rain = self.is_cause(S.RAIN)
-        self.is_none = self.is_cause("")
-        self.level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
-        self._epoch = None   # UTC hours from the epoch time in the index unit (cheaper than .hour)
-        if isinstance(frame.index, pd.DatetimeIndex):
-            index = frame.index.tz_convert("UTC") if frame.index.tz is not None else frame.index
-            self._epoch = index.asi8
-            self._per_hour = 3600 * _UNITS_PER_SECOND[index.unit]
-        self.relative_cache: dict = {}
-
-    @functools.cached_property
-    def hours(self) -> np.ndarray:
-        """UTC hour (0-23) of every sample (floor divisions nest: the same hours as via whole seconds)."""
-        if self._epoch is None:
-            return np.zeros(self.n, dtype=np.int64)
-        return (self._epoch // self._per_hour) % 24
-
-    def hours_of(self, mask: np.ndarray) -> np.ndarray:
-        """``hours[mask]``, computed for those samples only."""
-        if self._epoch is None:
-            return np.zeros(int(np.count_nonzero(mask)), dtype=np.int64)
-        return (self._epoch[mask] // self._per_hour) % 24
-
-    def count_by_hour(self, mask: np.ndarray) -> np.ndarray:
-        """``np.bincount(hours[mask], minlength=24)``: on a time-ordered index, counted per run of samples of one
-        clock hour (exact integers) instead of per sample."""
-        t, per = self._epoch, self._per_hour
-        # time-ordered, and no NaT (the smallest integer, so it could only come first)
-        if t is None or not self.n or t[0] == np.iinfo(np.int64).min or not (t[1:] >= t[:-1]).all():
-            return np.bincount(self.hours_of(mask), minlength=24)
-        edges = np.arange(t[0] // per + 1, t[-1] // per + 1) * per
-        starts = np.concatenate([[0], np.searchsorted(t, edges)])
-        starts = starts[np.concatenate([starts[1:] > starts[:-1], [True]])]   # hours without a sample: no run
-        runs = np.add.reduceat(mask, starts, dtype=np.int64)
-        return np.bincount((t[starts] // per) % 24, weights=runs, minlength=24).astype(np.int64)
-
-    def is_cause(self, cause: str) -> np.ndarray:
-        hits = [i for i, name in enumerate(self.cause_names) if name == cause]
-        if not hits:
-            return np.zeros(self.n, dtype=bool)
-        out = self.cause_codes == hits[0]
-        for code in hits[1:]:
-            out |= self.cause_codes == code
-        return out
 
 
 # ------------------------------------------------------------------------------------------------- exceedance
@@ -208,11 +112,6 @@ def _p530_multipath(link, depths_db, skipped: list[str]) -> dict | None:
     if link.geoclimatic_k is None:
         skipped.append("P.530 multipath prediction: needs geoclimatic_k in the links table")
         return None
-    try:
-        from diag.models import p530
-    except ImportError:  # pragma: no cover - the models package ships p530
-        skipped.append("P.530 multipath prediction: diag.models.p530 not available")
-        return None
     return p530_multipath_curve(p530, link, depths_db)
 
 
@@ -231,7 +130,7 @@ def p530_multipath_curve(p530, link, depths_db) -> dict:
 
 def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -> dict:
     frame = series.frame
-    arrays = arrays or _Arrays(series)
+    arrays = arrays or StatArrays(series)
     att, observed = arrays.att, arrays.observed
     n_obs = int(observed.sum())
     out = {"depth_db": list(depths_db), "observed_s": _round(n_obs * series.interval_s, 8),
@@ -269,167 +168,9 @@ def exceedance_block(series, link, depths_db, skipped: list[str], arrays=None) -
     return out
 
 
-# --------------------------------------------------------------------------------------- multipath periods
-def multipath_periods(arrays: _Arrays, interval_s: float, *, merge_s: float = 600.0,
-                      pad_s: float = 120.0) -> list[tuple[int, int]]:
-    """Index spans [a, b) of multipath activity: samples classified multipath, joined across quiet stretches
-    shorter than ``merge_s`` and padded by ``pad_s`` (a multipath event only marks the faded part; the envelope
-    statistics need the whole fading period around it).  Samples of other causes are masked later."""
-    idx = np.flatnonzero(arrays.is_mp)
-    if idx.size == 0:
-        return []
-    gap = max(1, int(round(merge_s / interval_s)))
-    pad = int(round(pad_s / interval_s))
-    breaks = np.flatnonzero(np.diff(idx) > gap) + 1
-    n = arrays.n
-    return [(max(0, int(part[0]) - pad), min(n, int(part[-1]) + 1 + pad)) for part in np.split(idx, breaks)]
-
-
-def _relative_db(arrays: _Arrays, interval_s: float, local_mean_s: float, periods) -> np.ndarray:
-    """Level relative to the centred rolling mean power over ``local_mean_s`` [dB] inside ``periods`` (NaN
-    outside: nothing reads it there); -inf at the floor, NaN where no level.  Computed once per channel and
-    periods (cached on ``arrays``)."""
-    key = (interval_s, local_mean_s, tuple(periods))
-    if key not in arrays.relative_cache:
-        arrays.relative_cache[key] = _relative_db_uncached(arrays, interval_s, local_mean_s, periods)
-    return arrays.relative_cache[key]
-
-
-def _relative_db_uncached(arrays: _Arrays, interval_s: float, local_mean_s: float, periods) -> np.ndarray:
-    window = max(5, int(round(local_mean_s / interval_s)))
-    rel = np.full(arrays.n, np.nan)
-    for a, b in periods:
-        # the mean over [a, b) needs the samples a window either side (the same windows as over the whole series;
-        # the running sum starts here, so the last bits may differ from a whole-series rolling mean)
-        lo, hi = max(0, a - window), min(arrays.n, b + window)
-        power = np.where(arrays.ok[lo:hi], 10.0 ** (arrays.level[lo:hi] / 10.0), np.nan)
-        mean = pd.Series(power).rolling(window, center=True, min_periods=max(3, window // 4)).mean().to_numpy()
-        with np.errstate(divide="ignore", invalid="ignore"):
-            part = 10.0 * np.log10(power[a - lo:b - lo] / mean[a - lo:b - lo])
-        rel[a:b] = np.where(arrays.lost[a:b], -np.inf, part)
-    return rel
-
-
-def _period_mask(arrays: _Arrays, periods) -> np.ndarray:
-    """Samples inside the multipath periods that are not part of another cause's event."""
-    mask = np.zeros(arrays.n, dtype=bool)
-    for a, b in periods:
-        mask[a:b] = arrays.is_none[a:b] | arrays.is_mp[a:b]
-    return mask
-
-
-def _thin(n: int, most: int) -> np.ndarray:
-    """Evenly spaced indices, at most ``most`` of ``n`` (neighbouring fading samples are correlated anyway)."""
-    return np.arange(n) if n <= most else np.linspace(0, n - 1, most).astype(int)
-
-
-def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, arrays=None) -> dict:
-    """Rice K (moments and MLE) over the channel's multipath periods; envelope relative to the local mean."""
-    arrays = arrays or _Arrays(series)
-    if series.kind != "sample":
-        return {"skipped": "statistics log: the envelope is not sampled"}
-    periods = multipath_periods(arrays, series.interval_s)
-    if not periods:
-        return {"skipped": "no samples classified multipath"}
-    rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
-    mask = _period_mask(arrays, periods)
-    per_period = []
-    for a, b in (periods[:20] if len(periods) > 1 else []):
-        part = rel[a:b][mask[a:b] & np.isfinite(rel[a:b])]
-        if part.size >= min_samples:
-            env = fading.envelope_from_level_db(part)
-            per_period.append({"start_utc": series.frame.index[a].isoformat(),
-                               "end_utc": series.frame.index[b - 1].isoformat(), "samples": int(part.size),
-                               "k_moments": _round(fading.rice_k_moments(env))})
-    use = mask & np.isfinite(rel)
-    lost = int(np.count_nonzero(mask & arrays.lost))
-    if use.sum() < min_samples:
-        return {"skipped": f"fewer than {min_samples} multipath samples with a level"}
-    env = fading.envelope_from_level_db(rel[use])
-    k_mom = fading.rice_k_moments(env)
-    fit = fading.fit_rice(env[_thin(env.size, MLE_MAX_SAMPLES)], method="mle")
-    out = {"samples": int(use.sum()), "periods": len(periods), "k_moments": _round(k_mom),
-           "mle_samples": int(min(env.size, MLE_MAX_SAMPLES)),
-           "k_moments_db": _round(10 * math.log10(k_mom)) if 0 < k_mom < math.inf else None,
-           "k_mle": _round(fit.k_factor), "k_mle_db": _round(fit.k_factor_db) if fit.k_factor > 0 else None,
-           "per_period": per_period, "local_mean_s": local_mean_s,
-           "method": "multipath periods = multipath events joined across gaps < 10 min, padded 2 min; "
-                     "envelope = 10^(L/20), L = level relative to the centred rolling mean power; K by moments "
-                     "(Abdi et al. 2001) and by maximum likelihood (diag.models.fading)"}
-    notes = []
-    if lost:
-        notes.append(f"{lost} samples at the receiver floor left out (censored): K is biased high")
-    if series.interval_s > 1.0:
-        notes.append(f"{series.interval_s:g}-s sampling: fast fading is undersampled")
-    if notes:
-        out["note"] = "; ".join(notes)
-    return out
-
-
-def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, min_crossings: int = 3,
-              arrays=None, rice_k: float | None = None) -> dict:
-    """Level-crossing rate and average fade duration over multipath periods vs Rayleigh with a fitted f_m (and
-    vs Rice with the measured ``rice_k`` when given)."""
-    arrays = arrays or _Arrays(series)
-    if series.kind != "sample":
-        return {"skipped": "statistics log: crossings cannot be counted"}
-    periods = multipath_periods(arrays, series.interval_s)
-    if not periods:
-        return {"skipped": "no samples classified multipath"}
-    rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
-    mask = _period_mask(arrays, periods) & ~np.isnan(rel)
-    dt = series.interval_s
-    total_s = float(mask.sum() * dt)
-    if total_s <= 0:
-        return {"skipped": "no multipath samples with a level"}
-    # counted over the masked samples only; a crossing needs two neighbouring samples both in the mask
-    at = np.flatnonzero(mask)
-    level = rel[at]
-    both = at[1:] == at[:-1] + 1
-    lv = np.asarray(levels_db, dtype=float)
-    crossings = np.zeros(len(lv))
-    below_s = np.zeros(len(lv))
-    for j, lev in enumerate(lv):
-        below = level < lev
-        below_s[j] = np.count_nonzero(below) * dt
-        crossings[j] = np.count_nonzero(both & below[1:] & ~below[:-1])   # downward crossings
-    rate = crossings / total_s
-    use = crossings >= min_crossings
-    out = {"level_db": lv.tolist(), "observed_s": _round(total_s, 8), "crossings": crossings.astype(int).tolist(),
-           "crossing_rate_hz": _round(rate),
-           "afd_s": _round(np.where(crossings > 0, below_s / np.maximum(crossings, 1), np.nan))}
-    if use.sum() == 0:
-        out["fit"] = f"no level with >= {min_crossings} crossings: fading bandwidth not fitted"
-        return out
-    fm_each = np.asarray(fading.doppler_from_crossing_rate_hz(rate[use], lv[use]), dtype=float)
-    weights = crossings[use]
-    fm = float(np.exp(np.sum(weights * np.log(fm_each)) / np.sum(weights)))   # count-weighted geometric mean
-    out["fading_bandwidth_hz"] = _round(fm)
-    out["rayleigh_crossing_rate_hz"] = _round(np.asarray(fading.rayleigh_level_crossing_rate_hz(lv, fm)))
-    out["rayleigh_afd_s"] = _round(np.asarray(fading.rayleigh_average_fade_duration_s(lv, fm)))
-    out["method"] = ("levels relative to the local mean power over the multipath periods; f_m = count-weighted "
-                     "geometric mean of the f_m that reproduce each observed crossing rate (Rayleigh N_R, "
-                     "diag.models.fading)")
-    if rice_k is not None and math.isfinite(rice_k) and rice_k > 0:
-        # the same fit under the Rice law with the K measured over these periods (N_R is linear in f_m)
-        unit = np.asarray(fading.rice_level_crossing_rate_hz(lv[use], rice_k, 1.0), dtype=float)
-        fm_rice = float(np.exp(np.sum(weights * np.log(rate[use] / unit)) / np.sum(weights)))
-        out["rice_k_used"] = _round(rice_k)
-        out["rice_fading_bandwidth_hz"] = _round(fm_rice)
-        out["rice_crossing_rate_hz"] = _round(np.asarray(fading.rice_level_crossing_rate_hz(lv, rice_k, fm_rice)))
-        out["rice_afd_s"] = _round(np.asarray(fading.rice_average_fade_duration_s(lv, rice_k, fm_rice)))
-    if fm * dt > 0.2:
-        out["note"] = (f"fitted f_m = {fm:.3g} Hz against {dt:g}-s sampling: crossings are missed, rates are "
-                       "lower bounds")
-    elif dt > 10.0:
-        out["note"] = (f"{dt:g}-s sampling resolves only slow fading; Rayleigh/Rice crossing theory assumes the "
-                       "envelope is sampled well above its fading bandwidth, so read these as slow-fading rates")
-    return out
-
-
 # --------------------------------------------------------------------------------------------------- rain
 def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
-    arrays = arrays or _Arrays(series)
+    arrays = arrays or StatArrays(series)
     att, observed = arrays.att, arrays.observed
     is_rain = arrays.is_rain & observed
     n_obs = int(observed.sum())
@@ -453,11 +194,6 @@ def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     if link.r001_mmh is None:
         skipped.append("P.530 rain prediction: needs r001_mmh in the links table")
         return out
-    try:
-        from diag.models import p530
-    except ImportError:  # pragma: no cover
-        skipped.append("P.530 rain prediction: diag.models.p530 not available")
-        return out
     pred = p530_rain_prediction(p530, link, series.channel)
     out["p530"] = pred
     a001 = pred["a001_db"]
@@ -468,17 +204,9 @@ def rain_block(series, link, skipped: list[str], arrays=None) -> dict:
     return out
 
 
-def _polarization_of(link, channel: str) -> str:
-    if channel in ("H", "V"):
-        return channel
-    if link.polarization in ("H", "V"):
-        return link.polarization
-    return "H"
-
-
 def p530_rain_prediction(p530, link, channel: str) -> dict:
     """P.530 §2.4.1 rain attenuation for this hop (diag.models.p530)."""
-    pol = _polarization_of(link, channel)
+    pol = channel_polarization(channel, link, default="H")
     pct = np.asarray(RAIN_PERCENTAGES, dtype=float)
     a001 = p530.rain_attenuation_001_db(link.length_km, link.frequency_ghz, link.r001_mmh,
                                         tilt_deg=p838.tilt_deg_for_polarization(pol))
@@ -489,7 +217,7 @@ def p530_rain_prediction(p530, link, channel: str) -> dict:
 
 # ------------------------------------------------------------------------------------------------ by hour
 def hourly_block(series, events: pd.DataFrame | None, arrays=None) -> dict:
-    arrays = arrays or _Arrays(series)
+    arrays = arrays or StatArrays(series)
     att, observed = arrays.att, arrays.observed
     faded = observed & (att > FADED_DB)
     out: dict = {"hour_utc": list(range(24)), "faded_s_by_cause": {}, "observed_s": []}
@@ -521,7 +249,7 @@ def channel_statistics(series, link, events: pd.DataFrame | None = None, *, dept
     when events were classified)."""
     skipped = [] if skipped is None else skipped
     out = {"channel": series.channel, "kind": series.kind, "interval_s": series.interval_s}
-    arrays = _Arrays(series)
+    arrays = StatArrays(series)
     out["exceedance"] = exceedance_block(series, link, depths_db, skipped, arrays)
     rice = rice_block(series, arrays=arrays)
     lcr = lcr_block(series, arrays=arrays, rice_k=rice.get("k_moments"))

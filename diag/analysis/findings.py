@@ -16,12 +16,11 @@ not instructions.  Every action that involves the site carries the field-work ca
 """
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pandas as pd
 
 from diag import schema as S
+from diag.numeric import round_sig as _num
 
 CAUTION_HEIGHT = ("Work at height: tower and mast work only by trained, certified climbers with fall-arrest "
                   "equipment and a rescue plan; do not climb in wind, ice or lightning.")
@@ -47,16 +46,6 @@ _CAUSE_TEXT = {
     S.SIGNAL_LOSS: ("Equipment signal loss", "signal-loss episode(s)"),
     S.UNKNOWN: ("Fades of unknown cause", "unclassified fade event(s)"),
 }
-
-
-def _num(value, digits: int = 4):
-    try:
-        value = float(value)
-    except (TypeError, ValueError):
-        return None
-    if not math.isfinite(value):
-        return None
-    return float(f"{value:.{digits}g}") if value != 0 else 0.0
 
 
 def _pct(share: float) -> str:

@@ -18,7 +18,9 @@ import math
 import warnings
 
 from diag.errors import InputError
+from diag.links import PLAUSIBLE_RANGES
 from diag.models import budget, p525, p530, p838
+from diag.numeric import round_sig
 
 log = logging.getLogger(__name__)
 
@@ -27,12 +29,13 @@ __all__ = ["predict_link", "predict_for_link", "MINUTES_PER_YEAR"]
 MINUTES_PER_YEAR = 365 * 24 * 60  # 525 600
 _WORST_MONTH_MINUTES = 30 * 24 * 60
 
+# the hop fields' ranges are those of the links table (diag.links.PLAUSIBLE_RANGES); the rest are the prediction's own
 _RANGES = {
-    "frequency_ghz": (1.0, 100.0), "length_km": (0.01, 200.0), "r001_mmh": (0.0, 300.0),
-    "geoclimatic_k": (1e-9, 1e-1), "dn1": (-2000.0, 500.0), "sa_m": (0.0, 2000.0), "tx_dbm": (-30.0, 50.0),
-    "antenna_gain_dbi": (0.0, 65.0), "rx_antenna_gain_dbi": (0.0, 65.0), "losses_db": (0.0, 100.0),
-    "threshold_dbm": (-120.0, -20.0), "nominal_dbm": (-120.0, 10.0), "height_tx_m": (-500.0, 9000.0),
-    "height_rx_m": (-500.0, 9000.0), "latitude_deg": (-90.0, 90.0),
+    **{name: PLAUSIBLE_RANGES[name] for name in ("frequency_ghz", "length_km", "r001_mmh", "geoclimatic_k", "tx_dbm",
+                                                 "antenna_gain_dbi", "threshold_dbm", "nominal_dbm")},
+    "dn1": (-2000.0, 500.0), "sa_m": (0.0, 2000.0), "rx_antenna_gain_dbi": PLAUSIBLE_RANGES["antenna_gain_dbi"],
+    "losses_db": (0.0, 100.0), "height_tx_m": (-500.0, 9000.0), "height_rx_m": (-500.0, 9000.0),
+    "latitude_deg": (-90.0, 90.0),
 }
 
 
@@ -52,12 +55,7 @@ def _check(name: str, value):
 
 
 def _rounded(value, digits: int = 6):
-    if value is None:
-        return None
-    value = float(value)
-    if not math.isfinite(value):
-        return None
-    return float(f"{value:.{digits}g}")
+    return round_sig(value, digits, keep_negative_zero=True)
 
 
 def predict_link(frequency_ghz: float, length_km: float, *, polarization: str = "H", r001_mmh: float | None = None,

@@ -34,35 +34,14 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
+from diag.analysis.steps import channel_steps, path_level
+from diag.config import AnalysisConfig
 from diag.errors import InputError
 from diag.results import GRID_NO_DATA, ChannelSeries
 
 log = logging.getLogger(__name__)
 
-__all__ = ["AnalysisConfig", "channel_grids", "add_reference", "level_shift_spans", "LevelSpan"]
-
-
-@dataclass(frozen=True)
-class AnalysisConfig:
-    """Tunable settings of the analysis (defaults suit 1-s and 15-min logs of 6-80 GHz hops).
-
-    Fade segmentation (hysteresis): an event starts where the attenuation reaches ``fade_start_db`` and extends
-    both ways while it stays at or above ``fade_end_db``; events closer than ``min_separation_s`` are merged;
-    events shorter than ``min_duration_s`` are dropped unless they hold a below-threshold or signal-lost sample.
-    """
-
-    fade_start_db: float = 3.0
-    fade_end_db: float = 1.5
-    min_duration_s: float = 3.0
-    min_separation_s: float = 60.0
-    block_s: float = 900.0
-    reference_window_h: float = 24.0
-    reference_quantile: float = 0.75
-    min_block_coverage: float = 0.5
-    step_min_db: float = 1.5
-    context_s: float = 300.0          # window before/after an event for upfades
-    rain_plausible_max_mmh: float = 200.0   # path-average rain rate above this is not rain (common practice)
-    merge_gap_s: float = 0.0          # cross-channel grouping tolerance (0 = overlap only)
+__all__ = ["channel_grids", "add_reference", "level_shift_spans", "LevelSpan"]
 
 
 @dataclass(frozen=True)
@@ -313,17 +292,6 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
 
 
 # ------------------------------------------------------------------------------------------------- reference
-def path_level(frame: pd.DataFrame) -> np.ndarray:
-    """RSL (interval average for statistics) with logged TSL changes removed; NaN unless status is ok."""
-    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
-    if S.TSL in frame.columns:
-        tsl = frame[S.TSL].astype(float)
-        if tsl.notna().any():
-            filled = tsl.ffill().bfill().to_numpy(dtype=float)
-            level = level - (filled - float(np.nanmedian(filled)))
-    return level
-
-
 def _block_medians(values: np.ndarray, block: int, min_coverage: float) -> np.ndarray:
     if block <= 1:
         return values.copy()
@@ -376,48 +344,18 @@ def _segment_reference(values: np.ndarray, block: int, config: AnalysisConfig, i
     return np.interp(np.arange(n, dtype=float), centres[ok], ref_blocks[ok])
 
 
-def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
-                     change_db: float = 4.0) -> bool:
-    """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
-
-    A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
-    multipath activity lowers the average (the mean of a Rayleigh-faded level in dB is 2.5 dB below its mean
-    power) while widening the spread to 10-30 dB.  A step across which the median spread changes by ``change_db``
-    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source).
-    """
-    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
-        return False
-    spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
-    t = step.time_utc
-    window = pd.Timedelta(hours=window_h)
-    before = spread.loc[t - window: t - pd.Timedelta(seconds=1)].median()
-    after = spread.loc[t: t + window].median()
-    if not (np.isfinite(before) and np.isfinite(after)):
-        return False
-    return max(before, after) >= wide_db and abs(after - before) >= change_db
-
-
 def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -> list:
     """Add ``reference_dbm`` and ``attenuation_db`` (and ``attenuation_peak_db`` for statistics) to the frame.
 
-    Returns the steps (:class:`diag.analysis.steps.Step`) at which the reference was cut.
+    Sets ``series.steps`` (:func:`diag.analysis.steps.channel_steps`, the channel's only step detection) and
+    returns the steps (:class:`diag.analysis.steps.Step`) at which the reference was cut.
     """
-    from diag.analysis import steps as shifts
-
     config = config or AnalysisConfig()
     frame = series.frame
     level = path_level(frame)
     interval_s = series.interval_s
-    steps = []
-    if np.isfinite(level).sum() > 10:
-        try:
-            steps = shifts.detect_steps(pd.Series(level, index=frame.index), interval_s,
-                                        min_step_db=config.step_min_db)
-        except ValueError as exc:  # too short a record for the windows
-            log.info("no step detection on %s: %s", series.channel, exc)
-            steps = []
-    if series.kind == "stats" and steps:
-        steps = [step for step in steps if not _fading_not_step(frame, step)]
+    series.steps = channel_steps(series, config, level=level)
+    steps = series.steps.reference
     cuts = [0] + sorted(int(frame.index.searchsorted(step.time_utc)) for step in steps) + [len(frame)]
     block = max(1, int(round(config.block_s / interval_s)))
     reference = np.full(len(frame), np.nan)
@@ -433,14 +371,13 @@ def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -
         frame["attenuation_peak_db"] = reference - (low + offset)
         high = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
         frame["attenuation_low_db"] = reference - (high + offset)
-    series.steps = steps  # kept for the level-shift events
     return steps
 
 
 def level_shift_spans(series: ChannelSeries, config: AnalysisConfig | None = None) -> list[LevelSpan]:
     """Segments (between detected steps) whose reference sits at least ``step_min_db`` below the best segment."""
     config = config or AnalysisConfig()
-    steps = getattr(series, "steps", None) or []
+    steps = series.steps.reference if series.steps is not None else []
     if not steps:
         return []
     frame = series.frame

@@ -2,28 +2,11 @@
 
 A *level shift* is a step in the clear-sky level that persists (hours to days): a knocked antenna, a feed that
 slipped, a change of hardware or of transmit power.  Fades are transient and only ever lower the level (rain) or
-swing it both ways around its mean (multipath), so the detector works on robust statistics of blocks of samples:
+swing it both ways around its mean (multipath), so the detector works on robust statistics of blocks of samples.
 
-1. the level (with logged transmit-power changes removed, when ATPC is logged) is cut into blocks of about
-   ``block_s`` seconds; each block is summarised by its median (robust against short fades);
-2. at every block boundary the *clear-sky level* of the ``window_s`` before and after is compared.  The clear-sky
-   level of a window is a trimmed median: the median of the samples no more than ``fade_trim_db`` below the
-   window's upper quartile (fades are cut away, noise is not);
-3. boundaries where the difference exceeds ``min_step_db`` and is a local maximum within ``window_s`` are
-   candidates.  They are tried largest first, each judged at the centre of its plateau of near-peak difference;
-   the evidence windows are bounded only by steps already accepted.  A candidate is kept when (a) the new level
-   persists over ``persist_s`` (up to the next accepted step; at least one window, or ``min_edge_s`` at the
-   start/end of the record) by at least half the step, (b) it is not larger than ``max_step_db`` (a drop to the
-   receiver floor is a loss of signal, not a shift), (c) it is flat (most blocks after it sit near the new level,
-   blocks faded below it left out; a long rain fade wanders), and (d) it is abrupt: the nearest unfaded samples
-   just before and after the refined time already differ by ``min_abrupt_fraction`` of the step (the slow end of
-   a refractive fade or a drift is not);
-4. the step time is refined at full resolution over the plateau where the two-window difference stays within
-   80 % of its peak: each sample is put on the old or new side of the mid level, and the split minimising a
-   weighted count of samples on the wrong side is found with cumulative sums (exact, O(n)); a sample on the low
-   side counts little where a fade could explain it (rain just before a downward step does not move the split).
-
-Step sizes are trimmed means of the samples near each side's clear level (1-dB quantisation averages out).
+Detection (:mod:`diag.analysis.step_detection`, :func:`detect_steps`) runs once per channel, in the reference
+stage (:func:`channel_steps`, kept in ``ChannelSeries.steps``); the level changes reported (:func:`level_changes`)
+read those steps.
 The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected steps
 have been removed and (in :func:`channel_level_changes`, when causes are known) the samples of fade events masked,
 in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
@@ -31,341 +14,32 @@ in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
 from __future__ import annotations
 
 import logging
-import math
-from dataclasses import asdict, dataclass
 
 import numpy as np
 import pandas as pd
+
+from diag import schema as S
+from diag.analysis.step_detection import (  # noqa: F401 - Step and the clear levels are part of this stage's API
+    Step,
+    _clear_rows,
+    clear_level_dbm,
+    clear_mean_dbm,
+    detect_steps,
+)
+from diag.config import AnalysisConfig
+from diag.results import ChannelSteps
 
 log = logging.getLogger(__name__)
 
 WEEK_S = 7 * 86400.0
 _FADE_CAUSES = ("rain", "multipath", "refractive", "signal_loss", "unknown")
-_FADE_WEIGHT = 0.05   # cost of a sample that a fade can explain, against 1 for one that nothing explains
-MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
 TREND_MIN_SPAN_S = 2 * 86400.0   # trend_db_per_week defaults, also used by channel_level_changes
 TREND_TRIM_DB = 3.0
 
 
-@dataclass(frozen=True)
-class Step:
-    """One persistent step of the clear-sky level."""
-
-    time_utc: pd.Timestamp      # first sample at the new level
-    size_db: float              # new level - old level (negative = the level dropped)
-    before_dbm: float           # clear-sky level over the window before
-    after_dbm: float            # clear-sky level over the window after
-    persist_s: float            # how long the new level was seen to persist (bounded by the record / next step)
-
-    def to_dict(self) -> dict:
-        out = asdict(self)
-        out["time_utc"] = self.time_utc.isoformat()
-        return {k: (round(v, 3) if isinstance(v, float) else v) for k, v in out.items()}
-
-
-def clear_level_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
-    """Trimmed median of a window: samples more than ``fade_trim_db`` below the upper quartile are dropped.
-
-    NaN when fewer than 3 finite values.  Common practice (no outside source): fades are one-sided in rain, so an
-    upper-quantile anchored trim keeps the clear-sky samples and drops the faded ones.
-    """
-    x = values[np.isfinite(values)]
-    if x.size < 3:
-        return math.nan
-    q75 = np.quantile(x, 0.75)
-    kept = x[x >= q75 - fade_trim_db]
-    return float(np.median(kept))
-
-
-def clear_mean_dbm(values: np.ndarray, *, fade_trim_db: float = 3.0) -> float:
-    """Mean of the samples within ``MEAN_TRIM_DB`` (1.5 dB) of the window's trimmed median (:func:`clear_level_dbm`).
-
-    A mean, unlike a median, averages coarse quantisation (1-dB steps dithered by noise) out, so step sizes are not
-    rounded to the quantisation step; fades and upfades beyond the trim are left out.
-    """
-    med = clear_level_dbm(values, fade_trim_db=fade_trim_db)
-    if not math.isfinite(med):
-        return math.nan
-    x = values[np.isfinite(values)]
-    kept = x[np.abs(x - med) <= MEAN_TRIM_DB]
-    return float(kept.mean()) if kept.size else med
-
-
-def _row_quantile(sorted_rows: np.ndarray, count: np.ndarray, q: float, start=0) -> np.ndarray:
-    """Quantile q (linear interpolation, as numpy's default) of each row of a row-sorted matrix whose ``count``
-    entries from column ``start`` on (0, or one offset per row) are the finite values."""
-    pos = q * np.maximum(count - 1, 0)
-    lo = np.floor(pos).astype(int)
-    hi = np.minimum(lo + 1, np.maximum(count - 1, 0))
-    rows = np.arange(sorted_rows.shape[0])
-    v_lo = sorted_rows[rows, np.minimum(start + lo, sorted_rows.shape[1] - 1)]
-    v_hi = sorted_rows[rows, np.minimum(start + hi, sorted_rows.shape[1] - 1)]
-    out = v_lo + (pos - lo) * (v_hi - v_lo)
-    return np.where(count > 0, out, np.nan)
-
-
-def _clear_rows(matrix: np.ndarray, *, fade_trim_db: float, min_count: int = 3) -> np.ndarray:
-    """:func:`clear_level_dbm` of every row of ``matrix`` at once (vectorised; NaN = no value)."""
-    srt = np.sort(matrix, axis=1)                   # NaN sort last
-    finite = np.isfinite(srt)
-    count = finite.sum(axis=1)
-    q75 = _row_quantile(srt, count, 0.75)
-    # exact without a second sort: the kept values (>= q75 - trim) are the sorted row from column ``start`` (the
-    # number of values below the threshold) on, so their median is read from ``srt`` at that offset
-    with np.errstate(invalid="ignore"):
-        low = srt < (q75 - fade_trim_db)[:, None]
-    start = low.sum(axis=1)
-    if np.isneginf(srt[:, :1]).any():             # -inf sorts first: only then can a low value be non-finite
-        count2 = count - (low & finite).sum(axis=1)     # finite values kept
-    else:
-        count2 = count - start
-    count2[np.isnan(q75)] = 0                       # nothing is kept under a NaN threshold
-    med = _row_quantile(srt, count2, 0.5, start)
-    med[count < min_count] = np.nan
-    return med
-
-
-def _block_levels(level: np.ndarray, block: int, *, fade_trim_db: float) -> np.ndarray:
-    """Clear-sky level of consecutive blocks of ``block`` samples (NaN when under half the block is valid)."""
-    if block == 1:
-        return level.astype(float).copy()
-    n_blocks = len(level) // block + (1 if len(level) % block else 0)
-    if n_blocks * block == len(level):
-        padded = level                      # whole blocks: no NaN padding to add
-    else:
-        padded = np.full(n_blocks * block, np.nan)
-        padded[: len(level)] = level
-    return _clear_rows(padded.reshape(n_blocks, block), fade_trim_db=fade_trim_db,
-                       min_count=max(1, block // 2))
-
-
-def _window_levels(blocks: np.ndarray, w: int, *, fade_trim_db: float) -> tuple[np.ndarray, np.ndarray]:
-    """For each boundary i (between block i-1 and i): clear level of blocks [i-w, i) and [i, i+w)."""
-    n = len(blocks)
-    padded = np.concatenate([np.full(w, np.nan), blocks, np.full(w, np.nan)])
-    windows = np.lib.stride_tricks.sliding_window_view(padded, w)   # windows[j] = padded[j:j+w]
-    levels = _clear_rows(np.ascontiguousarray(windows), fade_trim_db=fade_trim_db)
-    before = np.full(n + 1, np.nan)
-    after = np.full(n + 1, np.nan)
-    before[1:n] = levels[1:n]            # blocks[i-w:i] = padded[i:i+w]
-    after[1:n] = levels[w + 1: w + n]    # blocks[i:i+w] = padded[i+w:i+2w]
-    return before, after
-
-
-def _flat_fraction(blocks: np.ndarray, level: float, step_db: float, fade_trim_db: float = 3.0) -> float:
-    """Fraction of the valid blocks within max(1 dB, step/4) of ``level``; blocks faded more than ``fade_trim_db``
-    below the level (rain on top of the new level) are left out."""
-    x = blocks[np.isfinite(blocks)]
-    x = x[x >= level - max(fade_trim_db, step_db / 4.0)]
-    if x.size == 0:
-        return 0.0
-    return float(np.mean(np.abs(x - level) <= max(1.0, step_db / 4.0)))
-
-
-def _near_clear(values: np.ndarray, level: float, m: int, fade_trim_db: float) -> float:
-    """Median of the first ``m`` values (in the given order) that are finite and not faded more than
-    ``fade_trim_db`` below ``level``; NaN when there are none."""
-    ok = np.isfinite(values) & (values >= level - fade_trim_db)
-    picked = values[ok][:m]
-    return float(np.median(picked)) if picked.size else math.nan
-
-
-def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *, fade_trim_db: float) -> int:
-    """Index in [lo, hi] of the first sample at the new level.
-
-    Each sample is put on the old or the new side of the mid level.  Fades only lower the level, so a sample on
-    the LOW side is explainable on either side of a step (weight ``_FADE_WEIGHT``), while a sample on the HIGH
-    side of the wrong half is not (weight 1): a rain fade just before a downward step or just after an upward
-    step cannot pull the split into the fade.  The split minimising the weighted count is found with cumulative
-    sums (exact, O(n)).  ``fade_trim_db`` is unused (kept for the call signature).
-    """
-    lo, hi = max(0, lo), min(len(level), hi)
-    if hi - lo < 2:
-        return lo
-    x = level[lo:hi]
-    ok = np.isfinite(x)
-    mid = 0.5 * (before + after)
-    down = after < before
-    new_side = ok & ((x < mid) if down else (x > mid))
-    old_side = ok & ~new_side
-    w_new_before = _FADE_WEIGHT if down else 1.0    # a low sample before a downward step may be a fade
-    w_old_after = 1.0 if down else _FADE_WEIGHT     # a low sample after an upward step may be a fade
-    # cost(k) = w_new_before * #new-side samples before k + w_old_after * #old-side samples from k on
-    before_cost = np.concatenate([[0.0], np.cumsum(new_side * w_new_before)])
-    after_cost = np.concatenate([np.cumsum((old_side * w_old_after)[::-1])[::-1], [0.0]])
-    return lo + int(np.argmin(before_cost + after_cost))
-
-
-def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
-                 window_s: float = 7200.0, persist_s: float = 6 * 3600.0,
-                 fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6, abrupt_s: float = 600.0,
-                 min_abrupt_fraction: float = 0.6, max_step_db: float | None = 40.0,
-                 min_edge_s: float = 3600.0) -> list[Step]:
-    """Persistent steps of the clear-sky level of one channel.
-
-    Parameters
-    ----------
-    level_dbm : pd.Series
-        Receive level [dBm] (or a path-loss-like level, transmit changes removed) on a regular time grid, indexed
-        by UTC time; NaN where there is no valid sample (gaps, receiver at its floor).
-    interval_s : float
-        Grid step [s].
-    min_step_db : float
-        Smallest step reported [dB].
-    block_s, window_s : float
-        Block length for the robust block levels and the window either side of a candidate step [s].
-    persist_s : float
-        How long the new level must persist [s] (shortened to what the record holds, but never below one window).
-    fade_trim_db : float
-        Samples more than this far below a window's upper quartile count as faded and are ignored [dB].
-    min_flat_fraction : float
-        Share of the blocks after the step that must sit within max(1 dB, step/4) of the new level (a long rain
-        fade wanders; a step is flat).
-    min_edge_s : float
-        Near the start or end of the record a step needs only this much evidence on that side (instead of a
-        full window), so a step an hour before the record ends is still found.
-    max_step_db : float or None
-        Larger steps are not level shifts: a drop of more than this is a loss of signal (the receiver sits at or
-        near its floor), e.g. a far-end transmitter off for a day (common practice; None = no limit).
-    abrupt_s, min_abrupt_fraction : float
-        Abruptness check: the clear level over ``abrupt_s`` before and after the refined time must differ by at
-        least this fraction of the step (rejects the slow end of a refractive fade and drifts).
-
-    Returns
-    -------
-    list of Step, in time order.  An empty list for a record shorter than two windows.
-    """
-    if interval_s <= 0:
-        raise ValueError("interval_s must be positive")
-    values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
-    index = level_dbm.index
-    block = max(1, int(round(block_s / interval_s)))
-    w = max(2, int(round(window_s / (block * interval_s))))
-    p = max(w, int(round(persist_s / (block * interval_s))))
-    blocks = _block_levels(values, block, fade_trim_db=fade_trim_db)
-    n = len(blocks)
-    if n < 2 * w:
-        return []
-    edge = max(2, int(round(min_edge_s / (block * interval_s))))
-    m = max(3, int(round(abrupt_s / interval_s)))
-    accepted: dict[int, int] = {}   # boundary (block index) of each accepted step -> its refined sample index
-
-    def judge(i: int, diff: np.ndarray, mag: np.ndarray, prev: int, nxt: int) -> tuple[int, int] | None:
-        """(boundary, refined sample index) of the step at candidate boundary ``i``, or None if it is not one;
-        ``prev`` and ``nxt`` are the neighbouring accepted boundaries (or the record's ends)."""
-        # the two windows see the same step anywhere on a plateau of |diff|; its first maximum can sit a whole
-        # window away from the step, so judge the candidate at the plateau's centre
-        thr = 0.8 * mag[i]
-        a = i
-        while a - 1 > prev and mag[a - 1] >= thr and np.sign(diff[a - 1]) == np.sign(diff[i]):
-            a -= 1
-        b = i
-        while b + 1 < nxt and mag[b + 1] >= thr and np.sign(diff[b + 1]) == np.sign(diff[i]):
-            b += 1
-        i = (a + b + 1) // 2
-        lo, hi = max(prev, i - p), min(nxt, i + p)
-        old = clear_level_dbm(blocks[lo:i], fade_trim_db=fade_trim_db)
-        new = clear_level_dbm(blocks[i:hi], fade_trim_db=fade_trim_db)
-        if not (math.isfinite(old) and math.isfinite(new)):
-            return None
-        if abs(new - old) < max(min_step_db, abs(diff[i]) / 2):
-            return None  # not persistent: a long fade, not a step
-        if max_step_db is not None and abs(new - old) > max_step_db:
-            return None  # a drop to (near) the receiver floor: loss of signal, not a level shift
-        # refine at full resolution over the plateau widened by one window either side: two steps of the same
-        # sign within one persistence window (old/new are then the levels before the first and after the last)
-        # put the plateau between them, so the split between the outer levels may lie a window away from it
-        span_lo = max(prev * block, (a - w) * block)
-        span_hi = min(nxt * block, (b + w) * block, len(values))
-        k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
-        # the step's own sides: the clear levels one window either side of the refined time (up to a persistence
-        # window where an accepted step bounds that side).  Over a persistence window a second step of the same
-        # sign (not accepted yet) adds to this one; these levels see this step only, and the remaining part is
-        # found when the segments either side are examined again
-        kb = min(max(int(round(k / block)), prev + 1), nxt - 1)
-        # evidence on each side of the refined time (the plateau's centre can sit far from it when rain fills the
-        # window on one side): one window, or at the very start / end of the record at least min_edge_s
-        lo, hi = max(prev, kb - p), min(nxt, kb + p)
-        if (hi - kb) < (edge if hi == n else w) or (kb - lo) < (edge if lo == 0 else w):
-            return None
-        old = clear_level_dbm(blocks[max(prev, kb - (p if prev in accepted else w)):kb], fade_trim_db=fade_trim_db)
-        new = clear_level_dbm(blocks[kb:min(nxt, kb + (p if nxt in accepted else w))], fade_trim_db=fade_trim_db)
-        if not (math.isfinite(old) and math.isfinite(new)) or abs(new - old) < min_step_db:
-            return None
-        if _flat_fraction(blocks[kb:min(nxt, kb + w)], new, abs(new - old), fade_trim_db) < min_flat_fraction:
-            return None  # the 'new level' wanders (a long rain fade), not a step
-        # abruptness: the clear level just before and just after must already differ by most of the step
-        # (the nearest samples that are not faded below their side's level: rain right before a step, or
-        # masked samples, must not hide it)
-        span = p * block
-        near_old = _near_clear(values[max(prev * block, k - span):k][::-1], old, m, fade_trim_db)
-        near_new = _near_clear(values[k:min(nxt * block, k + span)], new, m, fade_trim_db)
-        if not (math.isfinite(near_old) and math.isfinite(near_new)):
-            return None
-        if abs(near_new - near_old) < min_abrupt_fraction * abs(new - old) or \
-                np.sign(near_new - near_old) != np.sign(new - old):
-            return None  # a slow change (the end of a refractive fade, a drift), not a step
-        return kb, k
-
-    # Candidates are tried largest first; windows are bounded only by steps already accepted, so a rejected
-    # candidate (the start of a long fade) never shortens the evidence of a real step next to it.  Once steps are
-    # accepted, each segment between them is examined again with windows cut at its ends: a candidate there may
-    # have been suppressed by (lain within one window of) a larger one, e.g. two steps 3 h apart with a rain fade
-    # between them make the largest two-window difference (their sum) fall between them.
-    segments = [(0, n)]
-    while segments:
-        new_found = False
-        for s, e in segments:
-            if s == 0 and e == n:
-                before, after = _window_levels(blocks, w, fade_trim_db=fade_trim_db)
-            else:
-                seg_before, seg_after = _window_levels(blocks[s:e], w, fade_trim_db=fade_trim_db)
-                before = np.full(n + 1, np.nan)
-                after = np.full(n + 1, np.nan)
-                before[s:e + 1], after[s:e + 1] = seg_before, seg_after
-            diff = after - before
-            mag = np.where(np.isfinite(diff), np.abs(diff), 0.0)
-            candidates: list[int] = []
-            order = np.argsort(-mag, kind="stable")
-            taken = np.zeros(n + 1, dtype=bool)
-            for i in order:
-                if mag[i] < min_step_db:
-                    break
-                if taken[max(0, i - w): i + w + 1].any():
-                    continue
-                taken[i] = True
-                candidates.append(int(i))
-            for i in candidates:       # already in order of decreasing |diff|
-                prev = max([a for a in accepted if a < i], default=0)
-                nxt = min([a for a in accepted if a > i], default=n)
-                if i == prev:
-                    continue
-                got = judge(i, diff, mag, prev, nxt)
-                if got is not None and got[0] not in accepted:
-                    accepted[got[0]] = got[1]
-                    new_found = True
-        bounds = [0, *sorted(accepted), n]
-        segments = [(x, y) for x, y in zip(bounds[:-1], bounds[1:]) if y - x >= 2 * min(w, edge)] \
-            if new_found else []
-    # sizes: trimmed means over up to a persistence window either side, bounded by the neighbouring steps
-    ks = [accepted[kb] for kb in sorted(accepted)]
-    steps = []
-    for j, k in enumerate(ks):
-        lo_s = max(ks[j - 1] if j else 0, k - p * block)
-        hi_s = min(ks[j + 1] if j + 1 < len(ks) else len(values), k + p * block)
-        old_s = clear_mean_dbm(values[lo_s:k], fade_trim_db=fade_trim_db)
-        new_s = clear_mean_dbm(values[k:hi_s], fade_trim_db=fade_trim_db)
-        if not (math.isfinite(old_s) and math.isfinite(new_s)):
-            kb = sorted(accepted)[j]
-            old_s = clear_level_dbm(blocks[max(0, kb - w):kb], fade_trim_db=fade_trim_db)
-            new_s = clear_level_dbm(blocks[kb:kb + w], fade_trim_db=fade_trim_db)
-        steps.append(Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
-                          after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s)))
-    return steps
-
-
 def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
-    """:func:`remove_steps` on a float array (a copy) with its time index."""
+    """The level (a float array, copied) with each step's size subtracted from the step time on (the level as if
+    no step happened); ``index``: its times."""
     out = np.array(values, dtype=float)
     is_sorted = bool(steps) and index.is_monotonic_increasing
     for step in steps:
@@ -374,13 +48,6 @@ def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np
         else:
             out[index >= step.time_utc] -= step.size_db
     return out
-
-
-def remove_steps(level_dbm: pd.Series, steps: list[Step]) -> pd.Series:
-    """The level with each step's size subtracted from the step time on (the level as if no step happened)."""
-    values = level_dbm.to_numpy(dtype=float, na_value=np.nan)
-    return pd.Series(_steps_removed(values, level_dbm.index, steps), index=level_dbm.index, name=level_dbm.name,
-                     copy=False)
 
 
 def _hourly_clear_levels(values: np.ndarray, index: pd.DatetimeIndex, *, fade_trim_db: float,
@@ -488,11 +155,82 @@ def path_level_dbm(frame: pd.DataFrame) -> pd.Series:
     return pd.Series(level, index=frame.index, name=name, copy=False)
 
 
+def path_level(frame: pd.DataFrame) -> np.ndarray:
+    """RSL (interval average for statistics) with logged TSL changes removed; NaN unless status is ok.
+
+    The level the clear-sky reference is computed on (TSL referred to the median of its filled values; the
+    grid's ``rsl_dbm`` is already NaN unless status is ok).  :func:`path_level_dbm` is the level the reported
+    level changes are measured on (TSL referred to the median of its logged values)."""
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    if S.TSL in frame.columns:
+        tsl = frame[S.TSL].astype(float)
+        if tsl.notna().any():
+            filled = tsl.ffill().bfill().to_numpy(dtype=float)
+            level = level - (filled - float(np.nanmedian(filled)))
+    return level
+
+
+def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
+                     change_db: float = 4.0) -> bool:
+    """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
+
+    A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
+    multipath activity lowers the average (the mean of a Rayleigh-faded level in dB is 2.5 dB below its mean
+    power) while widening the spread to 10-30 dB.  A step across which the median spread changes by ``change_db``
+    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source).
+    """
+    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
+        return False
+    spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
+    t = step.time_utc
+    window = pd.Timedelta(hours=window_h)
+    before = spread.loc[t - window: t - pd.Timedelta(seconds=1)].median()
+    after = spread.loc[t: t + window].median()
+    if not (np.isfinite(before) and np.isfinite(after)):
+        return False
+    return max(before, after) >= wide_db and abs(after - before) >= change_db
+
+
+def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.ndarray | None = None) -> ChannelSteps:
+    """The steps of one channel's clear-sky level (a :class:`diag.results.ChannelSteps`), detected here only.
+
+    ``reference``: steps from ``config.step_min_db`` on the :func:`path_level` (``level`` when already computed),
+    for 15-min statistics without the starts/ends of fading episodes; the reference stage cuts at them and makes
+    the level-shift events.  ``reported``: steps from ``config.level_change_min_db`` on :func:`path_level_dbm`,
+    the level changes :func:`level_changes` reports.
+    """
+    config = config or AnalysisConfig()
+    frame = series.frame
+    if level is None:
+        level = path_level(frame)
+    steps = []
+    if np.isfinite(level).sum() > 10:
+        try:
+            steps = detect_steps(pd.Series(level, index=frame.index), series.interval_s,
+                                 min_step_db=config.step_min_db)
+        except ValueError as exc:  # too short a record for the windows
+            log.info("no step detection on %s: %s", series.channel, exc)
+            steps = []
+    if series.kind == "stats" and steps:
+        steps = [step for step in steps if not _fading_not_step(frame, step)]
+    try:
+        reported = detect_steps(path_level_dbm(frame), series.interval_s, min_step_db=config.level_change_min_db)
+        error = None
+    except Exception as exc:  # noqa: BLE001 - reported by the level-change stage, which fails as on its own
+        reported, error = None, exc
+    return ChannelSteps(reference=steps, reported=reported, reported_min_db=config.level_change_min_db,
+                        reported_error=error)
+
+
 def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db: float = 2.0,
-                          drift_flag_db_per_week: float = 1.0, **kwargs) -> dict:
-    """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able)."""
+                          drift_flag_db_per_week: float = 1.0, steps: list[Step] | None = None, **kwargs) -> dict:
+    """Steps and trend of one channel's ``ChannelSeries.frame`` (JSON-able).
+
+    ``steps``: the channel's steps when already detected (``ChannelSeries.steps.reported``); else they are detected
+    here with ``min_step_db`` and ``kwargs``."""
     level = path_level_dbm(frame)
-    steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
+    if steps is None:
+        steps = detect_steps(level, interval_s, min_step_db=min_step_db, **kwargs)
     clear = _steps_removed(level.to_numpy(), level.index, steps)
     masked = False
     if "cause" in frame:   # the trend uses clear-sky samples only: fades of any other cause are left out
@@ -510,16 +248,30 @@ def channel_level_changes(frame: pd.DataFrame, interval_s: float, *, min_step_db
             "tsl_compensated": bool("tsl_dbm" in frame.columns and frame["tsl_dbm"].notna().any())}
 
 
-def level_changes(result, *, min_step_db: float = 2.0, common_tolerance_s: float = 1800.0) -> dict:
+def level_changes(result, *, min_step_db: float | None = None, common_tolerance_s: float = 1800.0) -> dict:
     """Level shifts and drifts of every channel of a ``LinkResult`` (fills ``LinkResult.level_changes``).
+
+    The steps are those the reference stage detected (``ChannelSeries.steps.reported``, from
+    ``AnalysisConfig.level_change_min_db``); ``min_step_db`` other than theirs, or a channel without them, detects
+    again with that size (None: the size they were detected with, else the config default).
 
     Steps seen on several channels within ``common_tolerance_s`` of each other are listed under ``"common"``:
     a step common to both polarisations or directions points at the antenna/path, a step on one channel only at
     that channel's radio (common practice, no outside source).
     """
+    known = [series.steps for series in result.series.values() if series.steps is not None]
+    if min_step_db is None:
+        min_step_db = known[0].reported_min_db if known else AnalysisConfig().level_change_min_db
     per_channel = {}
     for name, series in result.series.items():
-        per_channel[name] = channel_level_changes(series.frame, series.interval_s, min_step_db=min_step_db)
+        steps = None
+        found = series.steps
+        if found is not None and found.reported_min_db == min_step_db:
+            if found.reported_error is not None:
+                raise found.reported_error
+            steps = found.reported
+        per_channel[name] = channel_level_changes(series.frame, series.interval_s, min_step_db=min_step_db,
+                                                  steps=steps)
     common = []
     names = list(per_channel)
     if len(names) > 1:

@@ -9,6 +9,7 @@ Polarisation is described by the tilt angle ``tilt_deg`` of the electric field f
 """
 from __future__ import annotations
 
+import math
 import warnings
 
 import numpy as np
@@ -16,7 +17,8 @@ import numpy as np
 from diag.models._util import ArrayLike, as_float_array, like_input
 
 __all__ = ["coefficients_horizontal", "coefficients_vertical", "rain_coefficients", "tilt_deg_for_polarization",
-           "specific_attenuation_db_per_km", "rain_rate_from_attenuation_mmh"]
+           "specific_attenuation_db_per_km", "rain_rate_from_attenuation_mmh", "hv_coefficients",
+           "rain_rate_for_coefficients_mmh", "v_over_h_ratio"]
 
 # P.838-3 Table 1 (kH), Table 2 (kV): a_j, b_j, c_j for j = 1..4, then m_k, c_k
 _KH = ((-5.33980, -0.35351, -0.23789, -0.94158), (-0.10008, 1.26970, 0.86036, 0.64552),
@@ -174,3 +176,56 @@ def rain_rate_from_attenuation_mmh(attenuation_db: ArrayLike, length_km: ArrayLi
                                  as_float_array(elevation_deg))
     rate = (att / length / k) ** (1.0 / alpha)  # eq. (1): gamma = A / L = k R^alpha
     return like_input(rate, attenuation_db, length_km, frequency_ghz, tilt_deg, elevation_deg)
+
+
+def hv_coefficients(frequency_ghz: float) -> dict[str, tuple[float, float]]:
+    """``{"H": (k_H, alpha_H), "V": (k_V, alpha_V)}`` of one frequency as Python floats (ITU-R P.838-3 eqs. (2),
+    (3), Tables 1-4), for the per-event inversions below."""
+    kh, ah = coefficients_horizontal(frequency_ghz)
+    kv, av = coefficients_vertical(frequency_ghz)
+    return {"H": (float(kh), float(ah)), "V": (float(kv), float(av))}
+
+
+def rain_rate_for_coefficients_mmh(attenuation_db: ArrayLike, length_km: float, k: float, alpha: float) -> ArrayLike:
+    """Path-average rain rate for an attenuation under uniform rain, R = (A / (k L))^(1/alpha) [mm/h], with the
+    coefficients already known (:func:`hv_coefficients`); 0 where A is not a positive finite number.
+
+    One value is worked in Python floats (C ``pow``): numpy's vector ``power`` may differ from it in the last bit,
+    and the per-event features keep their bits.
+
+    References
+    ----------
+    ITU-R P.838-3 (03/2005), eq. (1), solved for R (A = gamma_R L).
+    """
+    if np.ndim(attenuation_db) == 0:
+        att = float(attenuation_db)
+        if not (math.isfinite(att) and att > 0):
+            return 0.0
+        return float((att / (k * length_km)) ** (1.0 / alpha))
+    att = as_float_array(attenuation_db)
+    rate = np.zeros(att.shape)
+    ok = np.isfinite(att) & (att > 0)
+    rate[ok] = (att[ok] / (k * length_km)) ** (1.0 / alpha)
+    return like_input(rate, attenuation_db)
+
+
+def v_over_h_ratio(rain_rate_mmh: ArrayLike, coefficients: dict[str, tuple[float, float]]) -> ArrayLike:
+    """Expected ratio of the vertical to the horizontal rain attenuation of one path, A_V / A_H = gamma_V / gamma_H
+    = k_V R^alpha_V / (k_H R^alpha_H), at a rain rate (NaN where R is not a positive finite number);
+    ``coefficients`` from :func:`hv_coefficients`.  One value is worked in Python floats (see above).
+
+    References
+    ----------
+    ITU-R P.838-3 (03/2005), eq. (1) for both polarisations.
+    """
+    (kh, ah), (kv, av) = coefficients["H"], coefficients["V"]
+    if np.ndim(rain_rate_mmh) == 0:
+        rate = float(rain_rate_mmh)
+        if not (math.isfinite(rate) and rate > 0):
+            return math.nan
+        return float(kv * rate ** av / (kh * rate ** ah))
+    rate = as_float_array(rain_rate_mmh)
+    out = np.full(rate.shape, np.nan)
+    ok = np.isfinite(rate) & (rate > 0)
+    out[ok] = kv * rate[ok] ** av / (kh * rate[ok] ** ah)
+    return like_input(out, rain_rate_mmh)

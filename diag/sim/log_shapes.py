@@ -14,14 +14,14 @@ can be checked exactly.
 ``long``             ``time_utc,link_id,channel,quantity,value``: one value per row, several hops per file
 ``stats``            ``period_start_utc,link_id,channel,RSL min (dBm),RSL avg (dBm),RSL max (dBm),...``:
                      interval min/avg/max statistics (e.g. 15 minutes, from
-                     :func:`diag.sim.simulate.aggregate_statistics`)
+                     :func:`diag.sim.aggregate.aggregate_statistics`)
+
+The text encoding of the columns is in :mod:`diag.sim.log_text`; the links table and the ground truth files are
+written by :mod:`diag.sim.truth_files`.
 """
 
 from __future__ import annotations
 
-import gzip
-import io
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable, Mapping
 
@@ -32,6 +32,20 @@ import pyarrow.compute as pc
 
 from diag import schema
 from diag.errors import InputError
+from diag.sim.log_text import (
+    _LABEL,
+    _LONG_NAME,
+    WriteInfo,
+    _check,
+    _columns_by_time,
+    _format_values,
+    _one_link,
+    _pivot,
+    _row_order,
+    _time_text,
+    _write_lines,
+)
+from diag.sim.truth_files import truth_segments, write_links_table, write_truth
 
 __all__ = [
     "SHAPES",
@@ -49,198 +63,7 @@ __all__ = [
 ]
 
 SHAPES = ("wide_iso", "semicolon_local", "epoch", "long", "stats")
-_LABEL = {  # quantity -> (wide_iso name, semicolon name, epoch name, unit)
-    schema.RSL: ("RSL", "Rx level", "RxLevel", "dBm"),
-    schema.TSL: ("TSL", "Tx level", "TxLevel", "dBm"),
-    schema.XPD: ("XPD", "XPD", "XPD", "dB"),
-    schema.XPL: ("XPL", "Xpol level", "XpolLevel", "dBm"),
-    schema.SES: ("SES", "SES", "SES", "s"),
-    schema.UAS: ("UAS", "UAS", "UAS", "s"),
-}
-_LONG_NAME = {schema.RSL: "RSL", schema.TSL: "TSL", schema.XPD: "XPD", schema.XPL: "XPL"}
 
-
-@dataclass(frozen=True)
-class WriteInfo:
-    """What a writer wrote: data lines (header excluded), how many of them are repeats and how many adjacent
-    pairs
-    were swapped, and the number of value cells."""
-
-    path: Path
-    shape: str
-    rows: int
-    duplicate_rows: int
-    swapped_pairs: int
-    values: int
-
-
-# ------------------------------------------------------------------------------------------------------------
-# helpers
-
-
-def _format_values(
-    values: np.ndarray,
-    status: np.ndarray,
-    floor_dbm: float | None,
-    *,
-    decimal: str = ".",
-    floor_applies: bool = True,
-) -> pa.Array:
-    """Cells as text: numbers in their shortest form, the floor reading for signal_lost, "" for missing."""
-    out = np.where(status == schema.OK, values, np.nan)
-    if floor_applies and floor_dbm is not None:
-        out = np.where(status == schema.SIGNAL_LOST, floor_dbm, out)
-    out = np.round(out, 4)
-    text = pc.cast(pa.array(out, from_pandas=True), pa.string())
-    text = pc.if_else(pc.is_null(text), "", text)
-    if decimal != ".":
-        text = pc.replace_substring(text, ".", decimal)
-    return text
-
-
-def _time_text(times_ns: np.ndarray, fmt: str, tz: str = "UTC") -> pa.Array:
-    """Whole-second stamps as text in ``fmt`` (a strftime pattern) on the clock of zone ``tz``.
-
-    Logs repeat few dates and at most 86400 clock times, so each distinct date and time of day is formatted
-    once and the text assembled with ``take`` (much faster than formatting every stamp)."""
-    times_ns = np.asarray(times_ns, dtype=np.int64)
-    if len(times_ns) == 0:
-        return pa.array([], pa.string())
-    index = pd.DatetimeIndex(times_ns.astype("datetime64[ns]")).tz_localize("UTC")
-    if tz != "UTC":
-        index = index.tz_convert(tz)
-    wall_s = index.tz_localize(None).asi8 // 1_000_000_000  # seconds on the local wall clock
-    day, second = np.divmod(wall_s, 86400)
-    days, day_index = np.unique(day, return_inverse=True)
-    seconds, second_index = np.unique(second, return_inverse=True)
-    time_part = "%H:%M:%S"
-    if time_part not in fmt:
-        raise ValueError(f"time format {fmt!r} lacks {time_part}")
-    before, after = fmt.split(time_part, 1)
-    epoch = pd.Timestamp("1970-01-01")
-    day_text = pa.array([(epoch + pd.Timedelta(days=int(d))).strftime(before) for d in days], pa.string())
-    clock = pa.array(
-        [f"{s // 3600:02d}:{s // 60 % 60:02d}:{s % 60:02d}{after}" for s in seconds.tolist()], pa.string()
-    )
-    return pc.binary_join_element_wise(
-        day_text.take(pa.array(day_index)), clock.take(pa.array(second_index)), ""
-    )
-
-
-def _row_order(times_ns: np.ndarray, defects: Mapping | None) -> tuple[np.ndarray, int, int]:
-    """Row order for sorted unique ``times_ns`` with the defects applied: (index array, duplicates, swaps)."""
-    order = np.arange(len(times_ns))
-    if not defects or len(times_ns) == 0:
-        return order, 0, 0
-    n = len(times_ns)
-    swaps = np.asarray(defects.get("swap_times", []), dtype="datetime64[ns]").view(np.int64)
-    pos = np.searchsorted(times_ns, swaps)
-    pos = np.unique(pos[(pos < n - 1) & (times_ns[np.minimum(pos, n - 1)] == swaps)])
-    pos = pos[np.concatenate([[True], np.diff(pos) > 1])] if len(pos) else pos  # disjoint pairs only
-    order[pos], order[pos + 1] = order[pos + 1], order[pos].copy()
-    dups = np.asarray(defects.get("duplicate_times", []), dtype="datetime64[ns]").view(np.int64)
-    hit = np.searchsorted(times_ns, dups)
-    hit = np.unique(hit[(hit < n) & (times_ns[np.minimum(hit, n - 1)] == dups)])
-    repeat = np.ones(n, dtype=np.int64)
-    repeat[hit] += 1
-    order = np.repeat(order, repeat[order])
-    return order, int(len(hit)), int(len(pos))
-
-
-def _pivot(table: pd.DataFrame, keys: list[str], signal: list[str]) -> tuple[pd.DataFrame, list[tuple]]:
-    """Wide frame indexed by ``keys`` (time first) with one (value, status) column pair per ``signal``
-    combination; the signal columns in a stable order."""
-    frame = table[keys + signal + [schema.VALUE, schema.STATUS]].copy()
-    frame[schema.STATUS] = frame[schema.STATUS].astype(object)
-    wide = frame.pivot(index=keys, columns=signal, values=[schema.VALUE, schema.STATUS])
-    columns = sorted({col[1:] for col in wide.columns}, key=_signal_sort_key)
-    return wide, columns
-
-
-def _columns_by_time(table: pd.DataFrame) -> tuple[np.ndarray, list[tuple[str, str, np.ndarray, np.ndarray]]]:
-    """One hop's sample rows as columns on the sorted distinct times: (times_ns, [(channel, quantity, values,
-    statuses)]) with status "missing" where a column has no row at a time (numpy only: no pandas pivot)."""
-    t_ns = table[schema.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
-    times, row_of = np.unique(t_ns, return_inverse=True)
-    channel, channels = pd.factorize(table[schema.CHANNEL])
-    quantity, quantities = pd.factorize(table[schema.QUANTITY])
-    status, statuses = pd.factorize(table[schema.STATUS])
-    status_labels = np.append(np.asarray(statuses, dtype=object), schema.MISSING)
-    value = table[schema.VALUE].to_numpy(dtype=float)
-    combo = channel * len(quantities) + quantity
-    out = []
-    for code in np.unique(combo):
-        mask = combo == code
-        values = np.full(len(times), np.nan)
-        codes = np.full(len(times), len(statuses), dtype=np.int64)
-        values[row_of[mask]] = value[mask]
-        codes[row_of[mask]] = status[mask]
-        out.append(
-            (
-                str(channels[code // len(quantities)]),
-                str(quantities[code % len(quantities)]),
-                values,
-                status_labels[codes],
-            )
-        )
-    out.sort(key=lambda item: _signal_sort_key((item[0], item[1])))
-    return times, out
-
-
-_QUANTITY_ORDER = {schema.RSL: 0, schema.TSL: 1, schema.XPD: 2, schema.XPL: 3, schema.SES: 4, schema.UAS: 5}
-_COUNTERS = (schema.ES, schema.SES, schema.UAS)
-_STAT_ORDER = {schema.SAMPLE: 0, schema.MIN: 1, schema.AVG: 2, schema.MAX: 3}
-
-
-def _signal_sort_key(col: tuple) -> tuple:
-    if len(col) == 3:
-        channel, quantity, stat = col
-        return (_QUANTITY_ORDER.get(quantity, 9), channel, _STAT_ORDER.get(stat, 9))
-    if len(col) == 2 and col[0] in _QUANTITY_ORDER:  # (quantity, stat)
-        return (_QUANTITY_ORDER.get(col[0], 9), _STAT_ORDER.get(col[1], 9))
-    channel, quantity = col
-    return (_QUANTITY_ORDER.get(quantity, 9), channel)
-
-
-def _check(table: pd.DataFrame, *, samples: bool) -> None:
-    missing = [c for c in schema.COLUMNS if c not in table.columns]
-    if missing:
-        raise InputError(f"writer: table lacks column(s) {', '.join(missing)}")
-    stats = set(table[schema.STAT].unique())
-    if samples and stats - {schema.SAMPLE}:
-        raise InputError("writer: this shape writes samples; use the 'stats' shape for interval statistics")
-    counters_only = set(table.loc[table[schema.STAT] == schema.SAMPLE, schema.QUANTITY]) <= set(_COUNTERS)
-    if not samples and not counters_only:
-        raise InputError(
-            "writer: the 'stats' shape needs min/avg/max rows (diag.sim.simulate.aggregate_statistics)"
-        )
-
-
-def _write_lines(path: Path, header: str, columns: list[pa.Array], sep: str, order: np.ndarray) -> None:
-    if columns:
-        joined = pc.binary_join_element_wise(*columns, sep)
-        lines = joined.take(pa.array(order)).to_pylist() if len(order) else []
-    else:
-        lines = []
-    text = header + "\n" + ("\n".join(lines) + "\n" if lines else "")
-    data = text.encode("utf-8")
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    if path.suffix == ".gz":
-        buffer = io.BytesIO()
-        with gzip.GzipFile(filename="", mode="wb", fileobj=buffer, mtime=0, compresslevel=6) as handle:
-            handle.write(data)
-        data = buffer.getvalue()
-    path.write_bytes(data)
-
-
-def _one_link(table: pd.DataFrame) -> str:
-    links = table[schema.LINK].unique()
-    if len(links) > 1:
-        raise InputError(
-            "writer: this shape holds one hop per file; use the 'long' or 'stats' shape for several"
-        )
-    return str(links[0]) if len(links) else ""
 
 
 # ------------------------------------------------------------------------------------------------------------
@@ -475,100 +298,6 @@ def write_log(
     raise InputError(f"writer: unknown shape {shape!r}; use one of {', '.join(SHAPES)}")
 
 
-# ------------------------------------------------------------------------------------------------------------
-# links table, ground truth and whole scenarios
-
-
-def _iso(values) -> list[str]:
-    stamps = pd.to_datetime(pd.Series(values), utc=True)
-    return [("" if pd.isna(v) else v.strftime("%Y-%m-%dT%H:%M:%SZ")) for v in stamps]
-
-
-def write_links_table(links, path: str | Path) -> Path:
-    """A links table CSV (``diag.links`` columns: required first, then every optional one; empty when
-    unknown)."""
-    from diag.links import OPTIONAL, REQUIRED
-
-    rows = [",".join(REQUIRED + OPTIONAL)]
-    for link in links:
-        cells = []
-        for name in REQUIRED + OPTIONAL:
-            value = getattr(link, name)
-            cells.append("" if value is None else (f"{value:g}" if isinstance(value, float) else str(value)))
-        rows.append(",".join(cells))
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
-    return path
-
-
-def truth_segments(result) -> pd.DataFrame:
-    """Run-length segments of the per-sample true cause of one simulated hop (faded runs only).
-
-    Columns ``link_id, channel, start_utc, end_utc`` (end exclusive: start of the next sample), ``cause``,
-    ``samples``, ``peak_fade_db``."""
-    truth = result.truth_samples
-    dt = pd.Timedelta(seconds=result.spec.interval_s)
-    out = []
-    for channel, part in truth.groupby("channel", sort=True):
-        cause = part["cause"].to_numpy(dtype=object)
-        fade = part["total_fade_db"].to_numpy(dtype=float)
-        times = part["time_utc"].reset_index(drop=True)
-        change = np.flatnonzero(np.r_[True, cause[1:] != cause[:-1]])
-        ends = np.r_[change[1:], len(cause)]
-        for a, b in zip(change, ends):
-            if cause[a] == "":
-                continue
-            out.append(
-                {
-                    "link_id": result.spec.link_id,
-                    "channel": channel,
-                    "start_utc": times[a],
-                    "end_utc": times[b - 1] + dt,
-                    "cause": cause[a],
-                    "samples": int(b - a),
-                    "peak_fade_db": round(float(fade[a:b].max()), 2),
-                }
-            )
-    return pd.DataFrame(
-        out, columns=["link_id", "channel", "start_utc", "end_utc", "cause", "samples", "peak_fade_db"]
-    )
-
-
-def write_truth(results, out_dir: str | Path, *, samples: bool = True) -> list[Path]:
-    """Ground truth beside the logs: ``truth_events.csv``, ``truth_labels.csv`` (run-length cause
-    segments) and, when ``samples``, ``truth_samples.parquet`` (every sample's contribution per cause)."""
-    out_dir = Path(out_dir)
-    out_dir.mkdir(parents=True, exist_ok=True)
-    results = list(results.values()) if isinstance(results, Mapping) else list(results)
-    events = pd.concat(
-        [r.truth_events for r in results if not r.truth_events.empty]
-        or [pd.DataFrame(columns=results[0].truth_events.columns if results else [])],
-        ignore_index=True,
-    )
-    for column in ("start_utc", "end_utc", "shift_utc"):
-        if column in events:
-            events[column] = _iso(events[column])
-    for column in events.columns:
-        if events[column].dtype.kind == "f":
-            events[column] = events[column].round(3)
-    paths = [out_dir / "truth_events.csv", out_dir / "truth_labels.csv"]
-    events.to_csv(paths[0], index=False, lineterminator="\n")
-    labels = pd.concat([truth_segments(r) for r in results], ignore_index=True)
-    labels["start_utc"] = _iso(labels["start_utc"])
-    labels["end_utc"] = _iso(labels["end_utc"])
-    labels.to_csv(paths[1], index=False, lineterminator="\n")
-    if samples:
-        frames = []
-        for r in results:
-            frame = r.truth_samples.copy()
-            frame.insert(1, "link_id", r.spec.link_id)
-            frames.append(frame)
-        paths.append(out_dir / "truth_samples.parquet")
-        pd.concat(frames, ignore_index=True).to_parquet(paths[-1], index=False)
-    return paths
-
-
 def write_scenario(
     results, scenario, out_dir: str | Path, *, shapes: Iterable[str] | None = None, truth_samples: bool = True
 ) -> list[Path]:
@@ -578,7 +307,7 @@ def write_scenario(
     straight into ``logs/`` (statistics as ``<link>_<N>min.csv``, long-shape hops together in
     ``<name>_long.csv``); with ``shapes`` every hop is written in each of them, into ``logs/<shape>/`` when
     there are several."""
-    from diag.sim.simulate import aggregate_statistics
+    from diag.sim.aggregate import aggregate_statistics
 
     out_dir = Path(out_dir)
     results = dict(results)

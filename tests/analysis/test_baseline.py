@@ -10,7 +10,8 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
+from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
+from diag.config import AnalysisConfig
 from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
 
 DAY = 86400.0

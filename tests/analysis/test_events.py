@@ -13,7 +13,8 @@ from itur.models import itu838
 
 from diag import schema as S
 from diag.analysis.events import FEATURE_COLUMNS, channel_polarization, find_events, paint_series, segment
-from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids
+from diag.analysis.reference import add_reference, channel_grids
+from diag.config import AnalysisConfig
 from diag.sim.simulate import Effect, LinkSpec
 
 CFG = AnalysisConfig()

@@ -236,7 +236,7 @@ def test_ranking_csv_is_spreadsheet_safe(tmp_path):
     link = make_link({"link_id": "=HYPERLINK(1)", "frequency_ghz": 18, "length_km": 5, "polarization": "H",
                       "threshold_dbm": -70})
     ranking = batch.network_ranking([batch.failed_result(link, "@boom")])
-    safe = batch._spreadsheet_safe(ranking)
+    safe = batch.spreadsheet_safe(ranking)
     assert safe.loc[0, "link_id"] == "'=HYPERLINK(1)" and safe.loc[0, "error"] == "'@boom"
 
 

@@ -34,13 +34,13 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import fields
 from pathlib import Path
 
 import pandas as pd
 
 from diag.errors import InputError
 from diag.sim.simulate import EFFECT_KINDS, Effect, LinkSpec, Scenario
+from diag.sim.spec import spec_field_names
 
 __all__ = ["load_scenario", "parse_scenario", "builtin_names", "BUILTIN_DIR", "LINK_EXTRA_FIELDS"]
 
@@ -67,7 +67,7 @@ _EFFECT_PARAMS = {
     "gap": set(),
 }
 _TIME_KEYS = {"at", "at_h", "at_min", "at_s", "duration_s", "duration_min", "duration_h", "duration_d"}
-_SPEC_FIELDS = {f.name for f in fields(LinkSpec)} - {"effects"}
+_SPEC_FIELDS = spec_field_names() - {"effects"}
 
 
 def builtin_names() -> list[str]:

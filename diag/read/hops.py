@@ -1,0 +1,99 @@
+"""Hop assembly: the inputs of a many-hop run (log files and stores), each file's rows given their hop, and one
+hop's normalised table assembled from the pieces of several files (or store partitions).
+
+Used by :func:`diag.pipeline.analyze_files` and by :mod:`diag.batch`'s tasks, so both keep the same rule for a value
+found in two files.  (The hop-matching rule itself is :func:`diag.links.match_link`.)
+"""
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from diag import schema
+from diag.errors import InputError
+from diag.links import Link, match_link
+from diag.read import store
+from diag.read.ingest import expand_paths
+
+__all__ = ["SORT_COLUMNS", "assign_hops", "expand_inputs", "hop_table", "read_file_table", "sorted_table",
+           "store_part"]
+
+SORT_COLUMNS = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
+_SORT = SORT_COLUMNS
+
+
+def sorted_table(table: pd.DataFrame) -> pd.DataFrame:
+    return table.sort_values(_SORT, kind="mergesort").reset_index(drop=True)
+
+
+def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
+    """One hop's normalised table from its pieces (in input order), sorted as ``diag.schema`` prescribes, and the
+    number of values dropped because an earlier file already held them (same rule as ``diag.read.ingest.read_logs``:
+    same link, channel, quantity, stat and time -> the first file's value is kept)."""
+    parts = [t for t in tables if t is not None and len(t)]
+    if not parts:
+        return schema.empty_table(), 0
+    if len(parts) == 1:
+        return sorted_table(schema.conform(parts[0])), 0
+    table = sorted_table(schema.concat(parts))   # keeps the key columns categorical (diag.schema)
+    dup = table.duplicated(subset=_SORT, keep="first").to_numpy()
+    if dup.any():
+        table = table[~dup].reset_index(drop=True)
+    return table, int(dup.sum())
+
+
+def _is_store(path: Path) -> bool:
+    """A store folder (``diag.read.store``), whose hops are read one by one."""
+    return path.is_dir() and bool(store.is_store(path))
+
+
+def expand_inputs(inputs: Sequence[str | os.PathLike]) -> tuple[list[Path], list[Path]]:
+    """Split the inputs (expanded by ``diag.read.ingest.expand_paths``) into log files and Parquet stores, which are
+    read hop by hop.  Raises ``InputError`` for a path that does not exist or an empty input."""
+    paths = expand_paths(inputs)
+    stores = [path for path in paths if _is_store(path)]
+    files = [path for path in paths if not _is_store(path)]
+    return files, stores
+
+
+def read_file_table(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, dict]:
+    from diag.read.ingest import read_log
+
+    result = read_log(path, tz=tz, mapping=mapping)
+    report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
+    return result.table, report
+
+
+def assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
+    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
+    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
+    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
+    ids = [str(x) for x in pd.unique(table[schema.LINK])]
+    renames: dict[str, str] = {}
+    for link_id in ids:
+        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
+        try:
+            hop = match_link(links, carried, file_name=file_name).link_id
+        except InputError:
+            continue
+        if hop != link_id:
+            renames[link_id] = hop
+    if not renames:
+        return table
+    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
+    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
+
+
+# --- worker tasks -----------------------------------------------------------------------------------------------
+
+
+def store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
+    from diag.read.store import read_store
+
+    table = read_store(store_path, link_id=store_id)
+    if store_id != hop:
+        table = schema.conform(table.assign(**{schema.LINK: hop}))
+    return table

@@ -1,0 +1,62 @@
+"""diag.numeric: each bit-exact helper gives the same bits as the numpy function it repeats (numpy is the reference
+library: np.sum, np.std, np.corrcoef, np.nanmax); round_sig against Python's own "%g" formatting."""
+import math
+
+import numpy as np
+import pytest
+
+from diag.numeric import add_reduce, nanmax, pearson, round_sig, std
+
+SIZES = [2, 3, 7, 8, 9, 100, 129, 1000, 4097]
+
+
+def _arrays(seed: int):
+    rng = np.random.default_rng(seed)
+    for n in SIZES:
+        yield rng.normal(-50.0, 7.0, n), rng.normal(3.0, 0.01, n) * rng.normal(1.0, 5.0, n)
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_add_reduce_is_np_sum_bit_for_bit(seed):
+    for x, y in _arrays(seed):
+        assert add_reduce(x) == np.sum(x)
+        assert add_reduce(x * y) == np.sum(x * y)
+        rows = np.vstack([x, y])
+        assert np.array_equal(add_reduce(rows, axis=1), np.sum(rows, axis=1))
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_std_is_np_std_bit_for_bit(seed):
+    for x, y in _arrays(seed):
+        assert std(x) == float(np.std(x))
+        assert std(y) == float(np.std(y))
+    assert std(np.full(5, 2.5)) == float(np.std(np.full(5, 2.5))) == 0.0
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_pearson_is_np_corrcoef_bit_for_bit(seed):
+    for x, y in _arrays(seed):
+        assert pearson(x, y) == float(np.corrcoef(x, y)[0, 1])
+        assert pearson(x, 2.0 * x + 1.0) == float(np.corrcoef(x, 2.0 * x + 1.0)[0, 1])
+        assert pearson(x, -x) == float(np.corrcoef(x, -x)[0, 1])
+    # a value numpy clips into [-1, 1] is clipped the same way
+    x = np.array([1.0, 2.0, 3.0])
+    assert -1.0 <= pearson(x, x) <= 1.0 and pearson(x, x) == float(np.corrcoef(x, x)[0, 1])
+
+
+def test_nanmax_is_np_nanmax_over_finite_values():
+    x = np.array([np.nan, -3.0, np.inf, 7.5, -np.inf, 2.0])
+    assert nanmax(x) == float(np.nanmax(x[np.isfinite(x)])) == 7.5
+    assert math.isnan(nanmax(np.array([np.nan, np.inf])))
+    assert nanmax(np.array([]), default=0.0) == 0.0
+
+
+def test_round_sig_matches_g_formatting():
+    for value in (123.456789, -0.000123456, 98765.4321, 1e-12, 3.0):
+        for digits in (2, 4, 6):
+            assert round_sig(value, digits) == float(f"{value:.{digits}g}")
+    assert round_sig(0.00012345678) == 0.0001235
+    assert round_sig(None) is None and round_sig("abc") is None
+    assert round_sig(math.nan) is None and round_sig(math.inf) is None
+    assert math.copysign(1.0, round_sig(-0.0)) == 1.0
+    assert math.copysign(1.0, round_sig(-0.0, keep_negative_zero=True)) == -1.0
