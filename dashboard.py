@@ -25,7 +25,7 @@ import altair as alt
 import pandas as pd
 import streamlit as st
 
-from diag import __version__, schema
+from diag import __version__, glossary, schema
 from diag.errors import InputError
 from diag.links import OPTIONAL, Link, make_link, match_link, read_links_table
 from diag.report import views
@@ -37,9 +37,7 @@ LOG_SUFFIXES = (".csv", ".csv.gz", ".txt", ".tsv", ".gz")
 MAX_CACHED_ANALYSES = 4   # the demo network holds ~90 MB of results
 QUANTITY_CHOICES = ["rsl", "tsl", "xpd", "xpl", "es", "ses", "uas"]
 
-SAFETY_NOTE = ("Before any work on site: climbing and work near antennas is hazardous. Follow the local codes for "
-               "work at height and fall protection, respect the RF exposure limits (switch the transmitter off or "
-               "stay out of the exclusion zone), and leave the work to trained, licensed staff.")
+SAFETY_NOTE = glossary.SAFETY_SHORT
 
 
 # --- data in and cached analysis --------------------------------------------------------------------------------
@@ -373,11 +371,11 @@ def overview(result, hop: dict) -> None:
     verdict = {True: "meets the objective", False: "**misses the objective**"}.get(
         hop["meets_objective"], "objective: " + (hop["meets_text"] or "not given"))
     c1.caption(verdict + (f" ({objective:g} %)" if objective is not None and delta is None else ""))
-    c2.metric("Unavailable time", views.range_text(hop["unavailable_min"], "{:.1f}", " min"),
-              help="ITU-T G.826 rule: 10 consecutive severely errored seconds start unavailable time")
-    c3.metric("Time below threshold", views.range_text(hop["below_threshold_min"], "{:.1f}", " min"))
-    c4.metric("Main cause", hop["dominant_cause_label"],
-              help="cause with the most unavailable time (time below threshold for coarse logs)")
+    c2.metric(glossary.OUTAGE + " h:mm:ss", views.duration_range_text(hop["unavailable_min"]),
+              help=glossary.definition("outage"))
+    c3.metric(glossary.BELOW_THRESHOLD + " h:mm:ss", views.duration_range_text(hop["below_threshold_min"]),
+              help=glossary.definition("below_threshold"))
+    c4.metric(glossary.MAIN_CAUSE, hop["main_cause_label"], help=glossary.definition("main_cause"))
     if hop["period_start_utc"]:
         gap = views.no_data_share(result)
         st.caption(f"Analysed period (UTC): {hop['period_start_utc']} → {hop['period_end_utc']}"
@@ -385,7 +383,9 @@ def overview(result, hop: dict) -> None:
 
     left, right = st.columns([3, 2], gap="large")
     with left:
-        st.markdown("##### Outage by cause")
+        st.markdown("##### " + glossary.BELOW_THRESHOLD + " by cause")
+        st.caption("Every second under the receiver threshold, whether or not it was outage; the outage "
+                   "(unavailable time, ITU-T G.826) of each cause is in the table below the chart.")
         table = views.outage_minutes_by_cause(result)
         if len(table) == 0:
             st.success("No fade event in this period.")
@@ -394,16 +394,15 @@ def overview(result, hop: dict) -> None:
             st.dataframe(table[["cause_label", "events"]], hide_index=True,
                          column_config={"cause_label": "Cause", "events": "Fade events"})
         else:
-            table["label"] = [views.range_text((lo, hi), "{:.1f}", " min") for lo, hi in
+            table["label"] = [views.duration_range_text((lo, hi)) for lo, hi in
                               zip(table["below_threshold_lo_min"], table["below_threshold_hi_min"])]
             base = alt.Chart(table).encode(
                 y=alt.Y("cause_label:N", sort=None, title=None, axis=alt.Axis(labelLimit=220)),
                 tooltip=[alt.Tooltip("cause_label:N", title="cause"), alt.Tooltip("events:Q", title="events"),
-                         alt.Tooltip("label:N", title="below threshold"),
-                         alt.Tooltip("unavailable_hi_min:Q", format=".1f", title="unavailable (min, upper)")])
+                         alt.Tooltip("label:N", title=glossary.BELOW_THRESHOLD + " (h:mm:ss)")])
             color = alt.Color("cause_label:N", scale=cause_scale(), legend=None)
             upper = base.mark_bar(opacity=0.35).encode(x=alt.X("below_threshold_hi_min:Q",
-                                                               title="minutes below threshold"), color=color)
+                                                               title=glossary.BELOW_THRESHOLD + " [min]"), color=color)
             lower = base.mark_bar().encode(x="below_threshold_lo_min:Q", color=color)
             text = base.mark_text(align="left", dx=4).encode(x="below_threshold_hi_min:Q", text="label:N")
             st.altair_chart((upper + lower + text).properties(height=44 * len(table) + 50), width="stretch")
@@ -411,9 +410,9 @@ def overview(result, hop: dict) -> None:
                 st.caption("Solid: time certainly below threshold; light: the most it can have been (coarse logs).")
             shown = pd.DataFrame({
                 "Cause": table["cause_label"], "Fade events": table["events"],
-                "Below threshold": table["label"],
-                "Unavailable": [views.range_text((lo, hi), "{:.1f}", " min") for lo, hi in
-                                zip(table["unavailable_lo_min"], table["unavailable_hi_min"])]})
+                glossary.BELOW_THRESHOLD + " h:mm:ss": table["label"],
+                glossary.OUTAGE + " h:mm:ss": [views.duration_range_text((lo, hi)) for lo, hi in
+                                               zip(table["unavailable_lo_min"], table["unavailable_hi_min"])]})
             st.dataframe(shown, hide_index=True, width="stretch")
     with right:
         st.markdown("##### What to look at first")
@@ -827,7 +826,7 @@ def main() -> None:
         st.markdown("#### Network")
         st.dataframe(views.network_table(results), hide_index=True, width="stretch",
                      height=fit_height(len(results), 420),
-                     column_config={"Objective %": st.column_config.NumberColumn(format="%.3f")})
+                     column_config={"Objective [%]": st.column_config.NumberColumn(format="%.3f")})
     network = views.network_table(results)
     by_id = {r.link.link_id: r for r in results}
     order = [h for h in network["Hop"] if h in by_id] or list(by_id)

@@ -239,30 +239,34 @@ def test_hop_overview_reads_the_summary():
     hop = views.hop_overview(result)
     assert hop["availability_pct"] == (99.75, 99.75) and hop["meets_objective"] is False
     assert hop["unavailable_min"] == (25.0, 25.0) and hop["below_threshold_min"] == (40.0, 40.0)
-    assert hop["dominant_cause"] == "rain" and hop["dominant_cause_label"] == views.cause_label("rain")
+    assert hop["main_cause"] == "rain" and hop["main_cause_label"] == views.cause_label("rain")
     assert views.range_text(hop["availability_pct"], "{:.4f}", " %") == "99.7500 %"
     assert views.no_data_share(result) == pytest.approx(4800.0 / 604800.0)
     table = views.network_table([_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS), result, _result()])
     assert table["Hop"].tolist() == ["HOP-1"] * 3
-    assert table["Availability %"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
-    assert table["Meets objective"].tolist()[:2] == ["undetermined", "NO"]
+    assert table["Availability [%]"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
+    # verdict words and durations from diag.glossary (issue 16: one vocabulary; "NO" became "NOT met", minutes
+    # became h:mm:ss)
+    assert table["Objective met"].tolist()[:2] == ["undetermined", "NOT met"]
+    assert table["Outage (unavailable time) h:mm:ss"].tolist()[:2] == ["0:00:00 – 1:00:00", "0:25:00"]
+    assert views.duration_text(376200) == "4 d 08:30:00" and views.duration_text(59.6) == "0:01:00"
 
 
-def test_dominant_cause_prefers_the_outage_modules_verdict():
-    named = dict(SUMMARY, dominant_cause="multipath")
-    assert views.dominant_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
-    # fades that never reached the threshold cost nothing: the headline says so instead of naming a cause
-    quiet = dict(SUMMARY, below_threshold_s=0.0, unavailable_s=0.0, availability_pct=100.0, dominant_cause="rain")
-    assert views.hop_overview(_result(by_cause=BY_CAUSE, summary=quiet))["dominant_cause_label"] == "no outage"
+def test_main_cause_is_the_outage_modules_and_no_outage_without_unavailable_time():
+    # issue 16: one word for a hop without outage everywhere ("no outage", diag.glossary), whatever its fades
+    named = dict(SUMMARY, main_cause="multipath")
+    assert views.main_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
+    quiet = dict(SUMMARY, below_threshold_s=0.0, unavailable_s=0.0, availability_pct=100.0, main_cause="no outage")
+    assert views.hop_overview(_result(by_cause=BY_CAUSE, summary=quiet))["main_cause_label"] == "no outage"
 
 
-def test_dominant_cause_falls_back_to_event_count():
+def test_main_cause_without_a_named_one_is_the_most_unavailable_time():
     events = _events([("2026-03-02 00:00:00", "2026-03-02 00:00:05", "multipath", 8.0)] * 2
                      + [("2026-03-02 03:00:00", "2026-03-02 03:10:00", "rain", 9.0)])
     zero = BY_CAUSE.assign(below_threshold_s=0.0, unavailable_s=0.0, events=0)
-    assert views.dominant_cause(_result(events=events, by_cause=zero, summary=SUMMARY)) == "multipath"
-    assert views.dominant_cause(_result()) is None
-    assert views.hop_overview(_result())["dominant_cause_label"] == "no fades"
+    assert views.main_cause(_result(events=events, by_cause=zero, summary=SUMMARY)) == "no outage"
+    assert views.main_cause(_result(by_cause=BY_CAUSE, summary=SUMMARY)) == "rain"
+    assert views.hop_overview(_result())["main_cause_label"] == "no outage"
 
 
 def test_top_findings_normalises_keys():

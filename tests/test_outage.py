@@ -77,7 +77,7 @@ def test_hand_built_counts_and_causes():
     assert bc.loc["multipath", "below_threshold_s"] == 5 and bc.loc["multipath", "unavailable_s"] == 0
     assert bc.loc["unknown", "below_threshold_s"] == 3
     check_adds_up(res)
-    assert s["dominant_cause"] == "rain"
+    assert s["main_cause"] == "rain"      # was "dominant_cause" (issue 16: the glossary's "main cause")
 
 
 def test_threshold_is_strict_and_signal_lost_counts_as_below():

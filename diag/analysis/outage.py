@@ -25,6 +25,8 @@ Counting rules (see README section "outage"):
 * **Cause**: each below-threshold second takes the cause of the fade event covering it (``frame["cause"]``).  An
   unavailable second that is not itself covered by an event takes the dominant cause of its unavailable period;
   "unknown" where there is none.  Every second has exactly one cause, so the per-cause rows add up exactly.
+  The hop's **main cause** is the cause with the most unavailable time (upper bound), "no outage" without any
+  (``diag.glossary``).
 
 Bounds (logs coarser than one second, and interval min/avg/max statistics) are described in ``_sample_masks`` and
 ``_stats_masks``; the exact columns are then NaN and the ``*_lo`` / ``*_hi`` fields carry the bounds.
@@ -38,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.errors import InputError
 from diag.models import g826
 from diag.results import ChannelSeries, LinkResult, OutageResult
@@ -728,8 +730,8 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
     }, columns=by_cause_cols)
     ranked = by_cause.sort_values(["unavailable_s_hi", "below_threshold_s_hi"], ascending=False, kind="stable")
     top = ranked.iloc[0]
-    summary["dominant_cause"] = (str(top["cause"]) if top["unavailable_s_hi"] > 0 or top["below_threshold_s_hi"] > 0
-                                 else "")
+    # main cause (diag.glossary): the cause with the most outage (upper bound); "no outage" without unavailable time
+    summary["main_cause"] = str(top["cause"]) if top["unavailable_s_hi"] > 0 else glossary.NO_OUTAGE
 
     # --- notes: method and caveats (plain words, shown in the report) ---
     notes.append("Counting: a second below the receiver threshold ({:g} dBm) or with loss of signal is taken as a "
@@ -751,9 +753,8 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
                      f"{summary['observed_days']:.1f} days of observed time.")
     notes.append("A week is not a year: the yearly figures scale the observed outage linearly (as if every week "
                  "were like this one) and, alternatively, treat the observed period as the worst month and convert "
-                 "with ITU-R P.841 (global Q1 = 2.85, beta = 0.13; parameters from open-source implementations, "
-                 "not checked against the Recommendation). Rain and multipath are seasonal; only a year or more "
-                 "of data supports an annual figure.")
+                 "with ITU-R P.841's global parameters (Q1 = 2.85, beta = 0.13). Rain and multipath are seasonal; "
+                 "only a year or more of data supports an annual figure.")
     if not counters:
         notes.append("The log carries no ES/SES/UAS counters from the radio: the level-based figures could not be "
                      "cross-checked.")

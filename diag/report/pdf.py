@@ -18,19 +18,16 @@ from typing import Callable, Iterable, Sequence
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.report import style
 from diag.results import LinkResult
 
 PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
 MAX_TABLE_ROWS = 14
 MAX_TIMELINES = 5
-SAFETY_TEXT = ("Safety: some actions mean work on towers and near radiating antennas. Follow the local codes for work "
-               "at height and fall protection, respect the RF exposure limits (switch the transmitter off or stay "
-               "outside the exclusion zone) and leave such work to trained, licensed staff.")
+SAFETY_TEXT = glossary.SAFETY_SHORT
 
-_SHORT = {schema.RAIN: "Rain", schema.MULTIPATH: "Multipath", schema.REFRACTIVE: "Refractive",
-          schema.LEVEL_SHIFT: "Level shift", schema.SIGNAL_LOSS: "Signal loss", schema.UNKNOWN: "Unknown"}
+_SHORT = glossary.CAUSE_SHORT
 
 __all__ = ["build_figures", "pdf_bytes", "write_pdf", "format_availability", "format_minutes", "SAFETY_TEXT"]
 
@@ -97,8 +94,7 @@ def _duration(seconds: float) -> str:
 def _verdict(summary: dict | None) -> str:
     if not summary:
         return "—"
-    return {"yes": "met", "no": "NOT met", "undetermined": "undetermined"}.get(summary.get("meets_objective", ""),
-                                                                             "no objective")
+    return glossary.verdict_label(summary.get("meets_objective", ""))
 
 
 def _wrap(text: str, width: int) -> str:
@@ -132,10 +128,10 @@ def _headline_rows(results: Sequence[LinkResult]) -> list[list[str]]:
         share = 100 * nod / (obs + nod) if obs + nod > 0 else 0.0
         nodata = (f"{_duration(nod)} ({share:.2f} %)" if 0 < share < 0.1 else f"{_duration(nod)} ({share:.1f} %)"
                   ) if obs + nod > 0 else "—"
-        main = s.get("dominant_cause") or ""
+        main = s.get("main_cause") or glossary.NO_OUTAGE
         rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", format_availability(s),
                      objective, _verdict(s), format_minutes(s, "unavailable_s"),
-                     format_minutes(s, "below_threshold_s"), _SHORT.get(main, main) if main else "none",
+                     format_minutes(s, "below_threshold_s"), _SHORT.get(main, main),
                      nodata])
     return rows
 
@@ -324,7 +320,8 @@ def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
                        key=lambda r: -(r.outage.summary.get("unavailable_s_hi") or 0))
         for r in worst[:4]:
             s = r.outage.summary
-            main = s.get("dominant_cause")
+            main = s.get("main_cause")
+            main = None if main == glossary.NO_OUTAGE else main
             lines.append(_wrap(f"• {r.link.link_id}: outage {format_minutes(s)}"
                                + (f", mostly {style.cause_label(main).lower()}" if main else "")
                                + f"; availability {format_availability(s)}.", 125))
@@ -374,8 +371,8 @@ def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float) -> b
             cell.set_facecolor("#EFEFEF")
     fig.text(0.06, top - 0.03 - height, _wrap(
         "A week is not a year: rain and multipath are seasonal, so these yearly figures are rough extrapolations, "
-        "not predictions. The worst-month conversion uses ITU-R P.841 global parameters (not yet checked against "
-        "the Recommendation). Only a year or more of data supports an annual figure.", 135),
+        "not predictions (how they are made: method notes). Only a year or more of data supports an annual "
+        "figure.", 135),
         fontsize=6.8, va="top", style="italic")
     return True
 
@@ -677,8 +674,9 @@ def _page_findings(fig, results: Sequence[LinkResult], state: dict) -> None:
         "Each outage second is attributed to the cause of the fade covering it; the causes add up to the total.",
         "Coarse logs (15-min min/avg/max statistics, sparse samples) give a lower and an upper bound, never one "
         "invented number.",
-        "A week is not a year: yearly figures are only an extrapolation. Rain and multipath are seasonal; the "
-        "worst-month conversion (ITU-R P.841) uses parameters not yet checked against the Recommendation.",
+        "A week is not a year: yearly figures are only an extrapolation, scaled linearly (as if every week were "
+        "like this one) or with the observed period taken as the worst month and converted to an average year "
+        "with ITU-R P.841's global parameters (Q1 = 2.85, beta = 0.13). Rain and multipath are seasonal.",
     ]
     for r in results:
         if r.outage is not None and r.link.objective_pct is None:

@@ -13,15 +13,15 @@ from collections.abc import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.report.style import CAUSE_LABELS
 from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult
 
 
 def cause_label(cause: str) -> str:
-    """Display label of a cause name, from the shared palette (``diag.report.style``, also used by the PDF)."""
+    """Display label of a cause name (``diag.glossary``, also used by the PDF and the CSV readers' labels)."""
     text = str(cause)
-    return CAUSE_LABELS.get(text, text.replace("_", " ").capitalize() or "None")
+    return CAUSE_LABELS.get(text, text.replace("_", " ").capitalize() or glossary.NO_OUTAGE)
 
 
 def _utc(value) -> pd.Timestamp | None:
@@ -186,23 +186,17 @@ def outage_minutes_by_cause(result: LinkResult, *, include_zero: bool = False) -
     return out[columns].reset_index(drop=True)
 
 
-def dominant_cause(result: LinkResult) -> str | None:
-    """The outage module's dominant cause when it names one; else the cause with the most unavailable time, else
-    the most time below threshold, else the most fade events (upper bounds for coarse logs).  None when the hop had
-    no fade event at all."""
+def main_cause(result: LinkResult) -> str:
+    """The hop's main cause (``diag.glossary``): the cause with the most outage (unavailable time, upper bound for
+    coarse logs), as the outage module names it; ``glossary.NO_OUTAGE`` when the hop had no unavailable time."""
     summary = result.outage.summary if result.outage is not None else {}
-    named = summary.get("dominant_cause")
-    if named and str(named) in schema.CAUSES:
+    named = summary.get("main_cause")
+    if named and (str(named) in schema.CAUSES or str(named) == glossary.NO_OUTAGE):
         return str(named)
     table = outage_minutes_by_cause(result)
-    if len(table):
-        for column in ("unavailable_hi_min", "below_threshold_hi_min", "events"):
-            if table[column].max() > 0:
-                return str(table.loc[table[column].idxmax(), "cause"])
-    events = result.events
-    if events is not None and len(events):
-        return str(events["cause"].astype(str).value_counts().index[0])
-    return None
+    if len(table) and table["unavailable_hi_min"].max() > 0:
+        return str(table.loc[table["unavailable_hi_min"].idxmax(), "cause"])
+    return glossary.NO_OUTAGE
 
 
 MEETS = {"yes": True, "true": True, "no": False, "false": False}
@@ -225,12 +219,9 @@ def hop_overview(result: LinkResult) -> dict:
         low, high = _bounds(summary, f"{key}_s")
         return (None if low is None else low / 60.0, None if high is None else high / 60.0)
 
-    cause = dominant_cause(result)
+    cause = main_cause(result)
     below = minutes("below_threshold")
-    if cause and below[1] == 0:
-        label = "no outage"          # fades happened, none reached the threshold: no cause "cost" anything
-    else:
-        label = cause_label(cause) if cause else "no fades"
+    label = glossary.main_cause_label(cause)
     return {
         "link_id": result.link.link_id,
         "period_start_utc": summary.get("period_start_utc"),
@@ -246,8 +237,8 @@ def hop_overview(result: LinkResult) -> dict:
         "below_threshold_min": below,
         "unavailable_min": minutes("unavailable"),
         "events": 0 if result.events is None else int(len(result.events)),
-        "dominant_cause": cause,
-        "dominant_cause_label": label,
+        "main_cause": cause,
+        "main_cause_label": label,
         "error": result.error,
     }
 
@@ -262,26 +253,53 @@ def range_text(pair: tuple[float | None, float | None], fmt: str = "{:.1f}", uni
     return f"{fmt.format(low)}–{fmt.format(high)}{unit}"
 
 
+def duration_text(seconds: float | None) -> str:
+    """A duration as h:mm:ss (``glossary``'s rule for every duration on screen); days as "3 d 04:05:06"."""
+    if seconds is None or not math.isfinite(float(seconds)):
+        return "–"
+    total = int(round(float(seconds)))
+    sign = "-" if total < 0 else ""
+    total = abs(total)
+    days, rest = divmod(total, 86400)
+    h, rest = divmod(rest, 3600)
+    m, s = divmod(rest, 60)
+    if days:
+        return f"{sign}{days} d {h:02d}:{m:02d}:{s:02d}"
+    return f"{sign}{h}:{m:02d}:{s:02d}"
+
+
+def duration_range_text(pair_min: tuple[float | None, float | None]) -> str:
+    """Bounds in minutes as h:mm:ss, "0:00:00" exact, "0:00:00 – 0:15:00" for bounds."""
+    low, high = pair_min
+    if low is None and high is None:
+        return "–"
+    if low is None or high is None or low == high:
+        return duration_text(60.0 * (low if low is not None else high))
+    return f"{duration_text(60.0 * low)} – {duration_text(60.0 * high)}"
+
+
+NETWORK_COLUMNS = ["Hop", "Availability [%]", "Objective [%]", glossary.TERMS["meets_objective"].label,
+                   glossary.OUTAGE + " h:mm:ss", glossary.BELOW_THRESHOLD + " h:mm:ss", "Fade events",
+                   glossary.MAIN_CAUSE]
+
+
 def network_table(results: Sequence[LinkResult]) -> pd.DataFrame:
-    """One row per hop for the network list, worst availability (lower bound) first, failed hops last."""
+    """One row per hop for the network list, worst availability (lower bound) first, failed hops last.  Labels
+    and verdict words come from ``diag.glossary``; durations as h:mm:ss."""
     rows = []
     for result in results:
         item = hop_overview(result)
-        rows.append({
-            "Hop": item["link_id"],
-            "Availability %": range_text(item["availability_pct"], "{:.4f}"),
-            "Objective %": item["objective_pct"],
-            "Meets objective": {True: "yes", False: "NO"}.get(item["meets_objective"],
-                                                              item["meets_text"] or "–"),
-            "Unavailable min": range_text(item["unavailable_min"]),
-            "Below threshold min": range_text(item["below_threshold_min"]),
-            "Fade events": item["events"],
-            "Main cause": item["dominant_cause_label"] if not item["error"] else f"not analysed: {item['error']}",
-            "_sort": item["availability_pct"][0],
-        })
-    table = pd.DataFrame(rows, columns=["Hop", "Availability %", "Objective %", "Meets objective",
-                                        "Unavailable min", "Below threshold min", "Fade events", "Main cause",
-                                        "_sort"])
+        rows.append(dict(zip(NETWORK_COLUMNS, [
+            item["link_id"],
+            range_text(item["availability_pct"], "{:.4f}"),
+            item["objective_pct"],
+            glossary.verdict_label(item["meets_text"]),
+            duration_range_text(item["unavailable_min"]),
+            duration_range_text(item["below_threshold_min"]),
+            item["events"],
+            item["main_cause_label"] if not item["error"] else f"{glossary.NOT_ANALYSED}: {item['error']}",
+        ]), _sort=item["availability_pct"][0]))
+    table = pd.DataFrame(rows, columns=NETWORK_COLUMNS + ["_sort"])
     table = table.sort_values("_sort", na_position="last", kind="stable")
     return table.drop(columns="_sort").reset_index(drop=True)
 
