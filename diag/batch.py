@@ -36,7 +36,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.errors import InputError
 from diag.links import Link, match_link
 from diag.read import store
@@ -356,7 +356,7 @@ def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | Non
                        availability_pct_lo=alo, availability_pct_hi=ahi, objective_pct=_num(s, "objective_pct"),
                        meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
                        else str(meets),
-                       main_cause=main, main_cause_min_lo=minutes[main][0] if main else 0.0,
+                       main_cause=main or glossary.NO_OUTAGE, main_cause_min_lo=minutes[main][0] if main else 0.0,
                        main_cause_min_hi=minutes[main][1] if main else 0.0, events=int(len(res.events)),
                        observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
         elif res.error is None:
@@ -450,9 +450,9 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
         minutes = f"{row.outage_min_hi:.1f}" if row.exact else f"{row.outage_min_lo:.0f}-{row.outage_min_hi:.0f}"
         avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if row.exact
                  else f">={row.availability_pct_lo:.3f}")
-        met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
+        met = glossary.verdict_label(str(row.meets_objective)) if row.meets_objective else "-"
         lines.append(f"{int(row.rank):>4}  {_short(row.link_id, 26):<26}  {minutes:>12}  {avail:>12}  "
-                     f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
+                     f"{met:>9}  {names.get(row.main_cause, row.main_cause) or glossary.NO_OUTAGE}")
     if len(ok) and not ok["exact"].all():
         lines.append("a-b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper bound")
     fig.text(0.04, 0.50, "\n".join(lines), fontsize=6.5, family="monospace", va="top")
