@@ -87,8 +87,9 @@ def test_upload_with_links_table_produces_the_overview():
     assert at.number_input(key="f_TESTHOP").value == 23.0
     assert at.number_input(key="t_TESTHOP").value == -70.0
     # the 20-min fade at -80 dBm is below the -70 dBm threshold: the overview reports time below threshold
-    below = next(m for m in at.metric if m.label == "Time below threshold")
-    assert below.value not in ("–", "0.0 min")
+    # (labels from diag.glossary, durations h:mm:ss since issue 16)
+    below = next(m for m in at.metric if m.label == "Time below threshold h:mm:ss")
+    assert below.value not in ("–", "0:00:00")
 
 
 def test_upload_without_links_table_asks_for_parameters():
