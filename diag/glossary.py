@@ -24,7 +24,7 @@ __all__ = ["Term", "TERMS", "TRADE_TERMS", "CAUSE_LABELS", "CAUSE_CODES", "CAUSE
            "NO_DATA_LABEL", "NOT_ANALYSED", "cause_label", "cause_code", "verdict_label", "main_cause_label",
            "label", "definition", "allowed_cause_values", "allowed_main_cause_values", "FIELD_LABELS",
            "field_label", "SAFETY_CAUTIONS", "SAFETY_SHORT", "LICENCE_CAUTION", "HEIGHT_CAUTION",
-           "RF_CAUTION"]
+           "RF_CAUTION", "ELECTRICAL_CAUTION"]
 
 
 @dataclass(frozen=True)
@@ -194,6 +194,8 @@ RF_CAUTION = ("RF exposure: keep out of the antenna's main beam; mute or switch 
 LICENCE_CAUTION = ("Follow local codes, the site owner's rules and licensed practice; changes to frequency, "
                    "polarisation, transmit power or antennas need the licence holder's (and where required the "
                    "regulator's) approval.")
+ELECTRICAL_CAUTION = ("Electrical safety: power and earthing checks only by qualified staff, following the equipment "
+                      "maker's instructions and local electrical codes.")
 SAFETY_CAUTIONS = (HEIGHT_CAUTION, RF_CAUTION, LICENCE_CAUTION)
 SAFETY_SHORT = ("Safety: some actions mean work on towers and near radiating antennas. Follow the local codes for work "
                 "at height and fall protection, respect the RF exposure limits (switch the transmitter off or stay "

@@ -121,3 +121,21 @@ def test_command_line_messages_use_glossary_words(demo_run):
     _, messages = demo_run
     for pattern in SYNONYMS:
         assert not re.search(pattern, messages, flags=re.IGNORECASE), pattern
+
+
+def test_every_field_action_carries_the_safety_cautions(demo_run):
+    # the owner's rule (common practice of the trade): advice that may send someone up a tower or near radiating
+    # antennas carries work-at-height and RF-exposure cautions and defers to local codes and licensed practice;
+    # rain actions included (issue 16).  The wording is diag.glossary's, the one place it is written.
+    out, _ = demo_run
+    doc = json.loads((out / "findings.json").read_text(encoding="utf-8"))
+    seen = 0
+    for link in doc["links"]:
+        for finding in link["findings"]:
+            if finding["cause"] == "unknown" or not finding["actions"]:
+                continue                 # "look at the level plot" is desk work
+            seen += 1
+            for caution in glossary.SAFETY_CAUTIONS:
+                assert caution in finding["cautions"], (finding["title"], caution[:30])
+    assert seen >= 5
+    assert any(f["cause"] == "rain" for link in doc["links"] for f in link["findings"])
