@@ -53,7 +53,8 @@ _TERM_LIST = [
          "Severely errored seconds outside unavailable time (short dips that did not last ten seconds)."),
     Term("availability", "Availability",
          "100 % minus the outage share of the observed time (time with data)."),
-    Term("objective", "Availability objective", "The availability the hop is meant to reach (links table)."),
+    Term("objective", "Availability objective",
+         "The share of time the hop must be available (links table), e.g. 99.99 %, which allows 52.6 min a year."),
     Term("meets_objective", "Objective met",
          "yes, no, or undetermined when the log is too coarse: the outage bounds straddle the objective."),
     Term("main_cause", "Main cause",
@@ -120,8 +121,6 @@ TRADE_TERMS = {
            "the receiver threshold is taken as an SES.",
     "G.826 / G.828": "ITU-T Recommendations for error performance and availability of digital paths; their "
                      "Annex A defines unavailable time by the ten-second rule.",
-    "Unavailable time (outage)": TERMS["outage"].definition,
-    "Availability objective": "The share of time the hop must be available, e.g. 99.99 % (52.6 min a year).",
     "P.530": "ITU-R Recommendation P.530: the prediction of fading on line-of-sight hops (rain, multipath).",
     "A0.01": "Rain attenuation exceeded for 0.01 % of an average year (P.530); compared with the fade margin.",
     "P.838": "ITU-R P.838: rain attenuation per km from rain rate, frequency and polarisation.",
@@ -136,8 +135,8 @@ TRADE_TERMS = {
                  "at night and in the morning in calm weather.",
     "Rice K-factor": "Power ratio of the steady to the scattered part of the received signal; 0 is Rayleigh "
                      "fading, large K is a steady signal.",
-    "Level-crossing rate / average fade duration": "How often per second the level crosses a depth downwards, and "
-                                                   "how long it stays below it on average.",
+    "LCR / AFD": "Level-crossing rate and average fade duration: how often per second the level crosses a depth "
+                 "downwards, and how long it stays below it on average.",
     "Level shift": "A lasting step of the clear-sky level (antenna moved, hardware changed), not a fade.",
 }
 

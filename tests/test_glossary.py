@@ -139,3 +139,18 @@ def test_every_field_action_carries_the_safety_cautions(demo_run):
                 assert caution in finding["cautions"], (finding["title"], caution[:30])
     assert seen >= 5
     assert any(f["cause"] == "rain" for link in doc["links"] for f in link["findings"])
+
+
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler-utils (pdftotext) not installed")
+def test_pdf_lists_every_hops_findings_level_shifts_included(demo_run):
+    # issue 16: the PDF had cut the findings to one, and the demo's 6.4 dB pointing step was in no PDF text
+    out, _ = demo_run
+    text = " ".join(subprocess.run(["pdftotext", str(out / "report.pdf"), "-"], capture_output=True, text=True,
+                                   check=True).stdout.split())
+    doc = json.loads((out / "findings.json").read_text(encoding="utf-8"))
+    for link in doc["links"]:
+        assert link["link"]["link_id"] in text
+        for finding in link["findings"][:3]:
+            assert finding["title"] in text, finding["title"]
+    assert "-6.4 dB" in text
+    assert "Glossary" in text and "more findings in findings.json" not in text
