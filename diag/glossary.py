@@ -173,6 +173,7 @@ FIELD_LABELS = {
     "deepest_fade_db": TERMS["deepest_fade_db"].label,
     "peak_fade_db": TERMS["peak_fade_db"].label,
     "a001_db": "P.530 A0.01 (average year) [dB]",
+    "percent_of_period_above_a001": "Time beyond the P.530 A0.01 in the period [%]",
     "fade_margin_db": "Fade margin [dB]",
     "unavailable_s": OUTAGE,
     "below_threshold_s": BELOW_THRESHOLD,

@@ -140,7 +140,7 @@ def test_event_table_filters_by_cause_and_depth():
     ])
     assert len(views.event_table(events)) == 3
     only = views.event_table(events, causes=["multipath"], min_peak_fade_db=10.0)
-    assert only["Peak fade dB"].tolist() == [18.0]
+    assert only["Deepest fade [dB]"].tolist() == [18.0]       # "Peak fade dB" before issue 16 (glossary label)
     assert only["Cause"].tolist() == [views.cause_label("multipath")]
     assert list(only.columns) == views.EVENT_TABLE_COLUMNS
     assert len(views.event_table(events.iloc[:0])) == 0
@@ -177,16 +177,43 @@ def test_exceedance_curves_keep_measured_theory_and_predictions():
     assert len(views.exceedance_curves({})) == 0
 
 
-def test_key_figures_flatten_nested_results():
-    data = {"rice_k": {"k_factor_db": 3.21, "n_samples": 500}, "curve": list(range(50)), "skipped": None,
-            "note": "drop me", "range": [1.0, 2.5]}
+def test_key_figures_flatten_nested_results_with_human_labels_and_units():
+    # issue 16: no raw keys ("k moments db", "afd s"), units shown, no exponent notation, durations h:mm:ss
+    data = {"rice_k": {"k_moments_db": 3.2914, "samples": 176341}, "curve": list(range(50)), "skipped": None,
+            "note": "drop me", "range_db": [1.0, 2.5], "observed_s": 176341.0, "imbalance_flag": False,
+            "afd_s": 8.498}
     out = views.key_figures(data, skip=("note",))
-    table = dict(zip(out["Item"], out["Value"]))
-    assert table["rice k › k factor db"] == "3.21"
-    assert table["curve"] == "50 entries"
-    assert table["range"] == "1, 2.5"
-    assert table["skipped"] == "–"
-    assert "note" not in table
+    table = dict(zip(out["Figure"], out["Value"]))
+    assert table["Rice k › Rice K, moment estimate [dB]"] == "3.3 dB"
+    assert table["Rice k › Samples"] == "176,341"
+    assert table["Curve"] == "50 values"
+    assert table["Range [dB]"] == "1.0 dB, 2.5 dB"
+    assert table["Skipped"] == "–"
+    assert table["Observed time"] == "2 d 00:59:01"
+    assert table["H/V levels differ by more than the flag"] == "no"
+    assert table["Average fade duration [s]"] == "8.5 s"
+    assert "note" not in " ".join(table) and not any("_" in k for k in table)
+    assert not any("e+" in v for v in table.values())
+
+
+def test_crossing_table_one_row_per_level():
+    lcr = {"level_db": [-5.0, -10.0], "crossings": [10, 4], "crossing_rate_hz": [0.01, 0.004],
+           "rayleigh_crossing_rate_hz": [0.012, 0.005], "afd_s": [8.0, 4.0], "rayleigh_afd_s": [9.0, 5.0],
+           "undersampled": [False, True]}
+    out = views.crossing_table(lcr)
+    assert out["LCR measured [1/h]"].tolist() == pytest.approx([36.0, 14.4])
+    assert out["Sampling"].tolist() == ["adequate", "too coarse: rate and duration biased"]
+
+
+def test_episodes_group_short_events_of_one_cause():
+    # 30 one-second multipath fades a minute apart, then a rain fade 3 h later: two episodes, with counts
+    rows = [(f"2026-03-02 00:{m:02d}:00", f"2026-03-02 00:{m:02d}:01", "multipath", 5.0 + m / 10) for m in range(30)]
+    rows.append(("2026-03-02 03:40:00", "2026-03-02 04:00:00", "rain", 12.0))
+    out = views.episodes(_events(rows))
+    assert out["events"].tolist() == [30, 1]
+    assert out["cause"].tolist() == ["multipath", "rain"]
+    assert out.loc[0, "peak_fade_db"] == pytest.approx(7.9) and out.loc[0, "faded_s"] == pytest.approx(30.0)
+    assert views.episodes(_events(rows), gap_s=30.0)["events"].max() == 1
 
 
 # --- overview -------------------------------------------------------------------------------------------------------

@@ -92,7 +92,7 @@ def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2
 
 
 def event_spans(events: pd.DataFrame, *, channel: str | None = None, start=None, end=None,
-                max_spans: int = 300) -> pd.DataFrame:
+                max_spans: int = 300, min_width=None) -> pd.DataFrame:
     """Fade events overlapping ``[start, end]`` (clipped to it), for shading the timeline by cause.
 
     When more than ``max_spans`` events overlap the window, the longest ``max_spans`` are kept (a week of 1-s
@@ -126,6 +126,12 @@ def event_spans(events: pd.DataFrame, *, channel: str | None = None, start=None,
         out["end_utc"] = out["end_utc"].clip(upper=_utc(end))
     if len(out) > max_spans:
         out = out.nlargest(max_spans, "duration_s", keep="first").sort_values("start_utc")
+    if min_width is not None and len(out):
+        # a span narrower than a screen pixel would vanish: draw it at least ``min_width`` wide (centred)
+        width = out["end_utc"] - out["start_utc"]
+        pad = ((pd.Timedelta(min_width) - width) / 2).clip(lower=pd.Timedelta(0))
+        out["start_utc"] = out["start_utc"] - pad
+        out["end_utc"] = out["end_utc"] + pad
     out["cause_label"] = out["cause"].map(cause_label)
     return out[columns].reset_index(drop=True)
 
@@ -319,7 +325,7 @@ def top_findings(result: LinkResult, limit: int = 5) -> list[dict]:
 
 
 # --- event list -------------------------------------------------------------------------------------------------
-EVENT_TABLE_COLUMNS = ["Start (UTC)", "End (UTC)", "Duration s", "Peak fade dB", "Cause", "Confidence", "Channel",
+EVENT_TABLE_COLUMNS = ["Start (UTC)", "End (UTC)", "Duration", "Deepest fade [dB]", "Cause", "Confidence", "Channel",
                        "Evidence"]
 
 
@@ -340,8 +346,8 @@ def event_table(events: pd.DataFrame, *, causes: Iterable[str] | None = None,
     out = pd.DataFrame({
         "Start (UTC)": pd.to_datetime(frame["start_utc"], utc=True),
         "End (UTC)": pd.to_datetime(frame["end_utc"], utc=True),
-        "Duration s": pd.to_numeric(frame["duration_s"], errors="coerce"),
-        "Peak fade dB": peak,
+        "Duration": pd.to_numeric(frame["duration_s"], errors="coerce").map(duration_text),
+        "Deepest fade [dB]": peak,
         "Cause": frame["cause"].astype(str).map(cause_label),
         "Confidence": confidence,
         "Channel": frame["channel"].astype(str) if "channel" in frame else "",
@@ -418,35 +424,122 @@ def hourly_fading(channel_statistics: dict) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=columns)
 
 
+def format_value(key: str, value) -> str:
+    """One figure as a person reads it: unit from the key's suffix, sensible rounding, durations h:mm:ss, no
+    exponent notation, yes/no for flags (``diag.glossary`` labels the key)."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(format_value(key, v) for v in value)
+    if not isinstance(value, (int, float)):
+        return str(value)
+    v = float(value)
+    if key.endswith("_s") and not key.endswith(("_per_s",)):
+        return duration_text(v) if abs(v) >= 60 else f"{v:.3g} s"
+    unit = next((u for suffix, u in (("_dbm", " dBm"), ("_db_per_week", " dB/week"), ("_db", " dB"),
+                                      ("_deg", "°"), ("_hz", " Hz"), ("_pct", " %"), ("_percent", " %"),
+                                      ("_mmh", " mm/h"), ("_ghz", " GHz"), ("_km", " km"))
+                 if key.endswith(suffix)), "")
+    if isinstance(value, int) or v.is_integer() and abs(v) >= 100:
+        return f"{v:,.0f}{unit}"
+    if unit in (" dB", " dBm", "°", " dB/week"):
+        return f"{v:.1f}{unit}" if abs(v) >= 0.1 or v == 0 else f"{v:.2f}{unit}"
+    if abs(v) >= 1000:
+        return f"{v:,.0f}{unit}"
+    if abs(v) >= 0.001 or v == 0:
+        return f"{v:.3g}{unit}"
+    return f"{v:.2e}".replace("e-0", " × 10^-").replace("e-", " × 10^-") + unit
+
+
 def key_figures(data, *, skip: Iterable[str] = (), max_list: int = 6) -> pd.DataFrame:
-    """A nested JSON-able dict (statistics, cross-polar results) flattened to ``Item, Value`` rows for display.
+    """A nested JSON-able dict (statistics, cross-polar results) flattened to ``Figure, Value`` rows for display:
+    each key's human label and unit (``diag.glossary.field_label``), values rounded (:func:`format_value`).
 
     Nested keys are joined with " › "; long lists (curves, segment lists) are summarised by their length instead
-    of being printed.
+    of being printed (the per-level crossing table is :func:`crossing_table`).
     """
     skip = set(skip)
     rows: list[dict] = []
 
-    def walk(prefix: str, value) -> None:
+    def walk(prefix: str, key: str, value) -> None:
+        label = glossary.field_label(key) if key else ""
+        name = f"{prefix} › {label}" if prefix and label else (label or prefix)
         if isinstance(value, dict):
-            for key, item in value.items():
-                if key in skip:
+            for sub, item in value.items():
+                if sub in skip:
                     continue
-                walk(f"{prefix} › {key}" if prefix else str(key), item)
+                walk(name, str(sub), item)
         elif isinstance(value, (list, tuple)) and (len(value) > max_list or any(isinstance(v, (dict, list))
                                                                                   for v in value)):
-            rows.append({"Item": prefix.replace("_", " "), "Value": f"{len(value)} entries"})
+            rows.append({"Figure": name, "Value": f"{len(value)} values"})
         else:
-            if isinstance(value, float):
-                text = f"{value:.4g}"
-            elif isinstance(value, (list, tuple)):
-                text = ", ".join(f"{v:.4g}" if isinstance(v, float) else str(v) for v in value)
-            else:
-                text = "–" if value is None else str(value)
-            rows.append({"Item": prefix.replace("_", " "), "Value": text})
+            rows.append({"Figure": name, "Value": format_value(key, value)})
 
-    walk("", data)
-    return pd.DataFrame(rows, columns=["Item", "Value"])
+    for key, value in (data or {}).items():
+        if key not in skip:
+            walk("", str(key), value)
+    return pd.DataFrame(rows, columns=["Figure", "Value"])
+
+
+def crossing_table(lcr_afd: dict) -> pd.DataFrame:
+    """Level-crossing rate and average fade duration per level (``diag.analysis.fading_stats``' ``lcr_afd``), one
+    row per level with the Rayleigh and Rice references beside the measurement, and the per-level sampling note
+    when the statistics module gives one (``undersampled`` list)."""
+    levels = lcr_afd.get("level_db") or []
+    columns = {"Level [dB]": levels,
+               "Crossings": lcr_afd.get("crossings"),
+               "LCR measured [1/h]": lcr_afd.get("crossing_rate_hz"),
+               "LCR Rayleigh [1/h]": lcr_afd.get("rayleigh_crossing_rate_hz"),
+               "LCR Rice [1/h]": lcr_afd.get("rice_crossing_rate_hz"),
+               "AFD measured [s]": lcr_afd.get("afd_s"),
+               "AFD Rayleigh [s]": lcr_afd.get("rayleigh_afd_s"),
+               "AFD Rice [s]": lcr_afd.get("rice_afd_s")}
+    out = pd.DataFrame({k: v for k, v in columns.items() if isinstance(v, list) and len(v) == len(levels)})
+    for column in [c for c in out.columns if "[1/h]" in c]:
+        out[column] = pd.to_numeric(out[column], errors="coerce") * 3600.0
+    notes = lcr_afd.get("undersampled")
+    if isinstance(notes, list) and len(notes) == len(levels):
+        out["Sampling"] = ["too coarse: rate and duration biased" if n else "adequate" for n in notes]
+    return out
+
+
+EPISODE_GAP_S = 1800.0   # events of one cause closer than this form one episode (a night of multipath, a storm)
+
+
+def episodes(events: pd.DataFrame, *, channel: str | None = None, gap_s: float = EPISODE_GAP_S) -> pd.DataFrame:
+    """Fade events grouped into episodes: events of the same cause (and channel) less than ``gap_s`` apart.
+
+    A night of clear-air multipath holds hundreds of short events; a person reads it as one episode with a count.
+    Columns: ``start_utc, end_utc, cause, cause_label, channel, events, peak_fade_db, faded_s`` (faded_s: the
+    summed duration of the events), sorted by start."""
+    columns = ["start_utc", "end_utc", "cause", "cause_label", "channel", "events", "peak_fade_db", "faded_s"]
+    if events is None or len(events) == 0:
+        return pd.DataFrame({name: [] for name in columns})
+    frame = events
+    if channel is not None and "channel" in frame:
+        frame = frame[frame["channel"].astype(str) == str(channel)]
+    if len(frame) == 0:
+        return pd.DataFrame({name: [] for name in columns})
+    work = pd.DataFrame({
+        "start_utc": pd.to_datetime(frame["start_utc"], utc=True).to_numpy(),
+        "end_utc": pd.to_datetime(frame["end_utc"], utc=True).to_numpy(),
+        "cause": frame["cause"].astype(str).to_numpy(),
+        "channel": frame["channel"].astype(str).to_numpy() if "channel" in frame else "",
+        "peak_fade_db": pd.to_numeric(frame["peak_fade_db"], errors="coerce").to_numpy(),
+        "duration_s": pd.to_numeric(frame["duration_s"], errors="coerce").to_numpy(),
+    }).sort_values(["cause", "channel", "start_utc"], kind="stable")
+    gap = pd.Timedelta(seconds=gap_s)
+    group_end = work.groupby(["cause", "channel"], sort=False)["end_utc"].transform(lambda e: e.cummax().shift())
+    new = (work["start_utc"] - group_end > gap) | group_end.isna()
+    work["episode"] = new.cumsum()
+    out = work.groupby("episode", sort=False).agg(
+        start_utc=("start_utc", "min"), end_utc=("end_utc", "max"), cause=("cause", "first"),
+        channel=("channel", "first"), events=("cause", "size"), peak_fade_db=("peak_fade_db", "max"),
+        faded_s=("duration_s", "sum"))
+    out["cause_label"] = out["cause"].map(cause_label)
+    return out.sort_values("start_utc", kind="stable")[columns].reset_index(drop=True)
 
 
 # --- reader report ----------------------------------------------------------------------------------------------

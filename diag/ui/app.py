@@ -19,12 +19,21 @@ from pathlib import Path
 
 import streamlit as st
 
-from diag import schema
+from diag import glossary, schema
 from diag.errors import InputError
 from diag.links import Link, match_link, read_links_table
 from diag.report import views
 from diag.ui.charts import cross_polar, event_list, fading_statistics, level_timeline, overview
-from diag.ui.forms import _link_without_form, fit_height, input_check, link_form, md, show_input_error, sidebar
+from diag.ui.forms import (
+    SPREADSHEET_SUFFIXES,
+    _link_without_form,
+    fit_height,
+    input_check,
+    link_form,
+    md,
+    show_input_error,
+    sidebar,
+)
 
 LOG = logging.getLogger("diag.dashboard")
 ROOT = Path(__file__).resolve().parents[2]
@@ -157,7 +166,8 @@ def downloads(key: str, results) -> None:
 
 
 def main() -> None:
-    st.set_page_config(page_title="diag · hop fade diagnosis", page_icon=":material/cell_tower:", layout="wide")
+    # the icon is drawn here (no file, nothing fetched from another host: the page works offline)
+    st.set_page_config(page_title="diag · hop fade diagnosis", page_icon=page_icon(), layout="wide")
     st.markdown("## Why did the hop fade?")
     st.caption("Receive-level logs in; fade events, their causes and the outage each cause cost out — rain, "
                "clear-air multipath, refractive fading, level shifts, equipment signal loss.")
@@ -172,7 +182,14 @@ def main() -> None:
         st.caption("Showing the bundled demo network (invented hops). Choose “My files” in the sidebar to "
                    "analyse your own logs.")
     else:
-        sources = tuple((f.name, f.getvalue()) for f in (choice["logs"] or []))
+        uploads = list(choice["logs"] or [])
+        for f in uploads:
+            if f.name.lower().endswith(SPREADSHEET_SUFFIXES):
+                st.error(f"{md(f.name)} is a spreadsheet workbook, which diag does not read: open it, save the "
+                         "sheet as CSV (comma- or semicolon-separated text) and upload that file.",
+                         icon=":material/warning:")
+        sources = tuple((f.name, f.getvalue()) for f in uploads
+                        if not f.name.lower().endswith(SPREADSHEET_SUFFIXES))
         links_text, links_name = None, ""
         if choice["links"] is not None:
             links_name = choice["links"].name
@@ -232,7 +249,9 @@ def main() -> None:
         st.caption("Pre-filled from the links table when one is given; change a value and press the button to "
                    "analyse again.")
         names = list(hops)
-        pick = st.selectbox("Hop", names, key="param_hop") if len(names) > 1 else names[0]
+        pick = st.selectbox("Hop", names, key="param_hop", on_change=_follow, args=("param_hop", "hop"),
+                            help="follows the Hop chosen below, and the other way round") \
+            if len(names) > 1 else names[0]
         for hop in names:
             link = link_form(hop, hops[hop]) if hop == pick else _link_without_form(hop, hops[hop])
             if link is not None:
@@ -266,13 +285,26 @@ def main() -> None:
 
     if len(results) > 1:
         st.markdown("#### Network")
+        cols = views.NETWORK_COLUMNS
         st.dataframe(views.network_table(results), hide_index=True, width="stretch",
-                     height=fit_height(len(results), 420),
-                     column_config={"Objective [%]": st.column_config.NumberColumn(format="%.3f")})
+                     height=fit_height(len(results), 420), column_config={
+                         cols[1]: st.column_config.TextColumn("Availability %",
+                                                              help=glossary.definition("availability")),
+                         cols[2]: st.column_config.NumberColumn("Objective %", format="%.3f", width="small",
+                                                                help=glossary.definition("objective")),
+                         cols[3]: st.column_config.TextColumn(cols[3],
+                                                              help=glossary.definition("meets_objective")),
+                         cols[4]: st.column_config.TextColumn("Outage h:mm:ss", help=glossary.definition("outage")),
+                         cols[5]: st.column_config.TextColumn("Below threshold h:mm:ss",
+                                                              help=glossary.definition("below_threshold")),
+                         cols[6]: st.column_config.NumberColumn("Events", width="small",
+                                                                help="fade events found on the hop"),
+                         cols[7]: st.column_config.TextColumn(cols[7], help=glossary.definition("main_cause"))})
     network = views.network_table(results)
     by_id = {r.link.link_id: r for r in results}
     order = [h for h in network["Hop"] if h in by_id] or list(by_id)
-    hop_id = st.selectbox("Hop", order, key="hop", help="worst availability first") if len(order) > 1 else order[0]
+    hop_id = st.selectbox("Hop", order, key="hop", help="worst availability first", on_change=_follow,
+                          args=("hop", "param_hop")) if len(order) > 1 else order[0]
     result = by_id[hop_id]
     hop = views.hop_overview(result)
     link = result.link
@@ -295,6 +327,29 @@ def main() -> None:
         input_check(reports, errors)
     st.divider()
     downloads(key, results)
+
+
+def _follow(source: str, target: str) -> None:
+    """Widget callback: the two Hop selectors (parameters, results) follow each other.  Runs before the next rerun,
+    so the other selector is not drawn yet and may be set; a hop it does not list is left alone."""
+    value = st.session_state.get(source)
+    if value is not None:
+        st.session_state[target] = value
+
+
+def page_icon():
+    """A small tower-and-waves icon drawn with Pillow (Streamlit serves it from this server)."""
+    from PIL import Image, ImageDraw
+
+    image = Image.new("RGBA", (64, 64), (0, 0, 0, 0))
+    draw = ImageDraw.Draw(image)
+    ink = (27, 94, 122, 255)
+    draw.line([(32, 14), (18, 60)], fill=ink, width=5)
+    draw.line([(32, 14), (46, 60)], fill=ink, width=5)
+    draw.line([(24, 40), (40, 40)], fill=ink, width=4)
+    for r in (10, 18):
+        draw.arc([32 - r, 14 - r, 32 + r, 14 + r], start=200, end=340, fill=ink, width=3)
+    return image
 
 
 def run() -> None:

@@ -40,7 +40,8 @@ def sidebar() -> dict:
     choice: dict = {"mode": mode, "logs": [], "links": None}
     if mode == "My files":
         choice["logs"] = st.sidebar.file_uploader(
-            "Receive-level logs", type=["csv", "gz", "txt", "tsv"], accept_multiple_files=True, key="logs",
+            "Receive-level logs", type=["csv", "gz", "txt", "tsv", *(x.lstrip(".") for x in SPREADSHEET_SUFFIXES)],
+            accept_multiple_files=True, key="logs",
             help="Exports of the radios' management system in any layout the reader knows; .csv.gz accepted.")
         choice["links"] = st.sidebar.file_uploader(
             "Links table (optional)", type=["csv", "txt"], key="links_file",
