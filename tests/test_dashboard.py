@@ -209,3 +209,39 @@ def test_config_limits_uploads_and_binds_to_loopback():
     assert 1 <= config["server"]["maxUploadSize"] <= 200
     assert config["browser"]["gatherUsageStats"] is False
     assert config["server"]["headless"] is True
+
+
+def test_hop_selectors_follow_each_other():
+    # issue 16: the parameters' Hop selector and the results' Hop selector used to be independent
+    at = _app().run()
+    hops = at.selectbox(key="hop").options
+    assert len(hops) > 2
+    at.selectbox(key="hop").set_value(hops[2]).run()
+    _no_failure(at)
+    assert at.selectbox(key="param_hop").value == hops[2]
+    at.selectbox(key="param_hop").set_value(hops[1]).run()
+    _no_failure(at)
+    assert at.selectbox(key="hop").value == hops[1]
+    assert any(m.value == f"### Hop {hops[1]}" for m in at.markdown)
+
+
+def test_spreadsheet_upload_says_why_in_words():
+    # issue 16: an .xlsx upload showed only a red icon; the reason was on hover
+    at = _app()
+    at.session_state["mode"] = "My files"
+    at.run()
+    at.file_uploader(key="logs").set_value(("week.xlsx", b"PK\x03\x04 not a csv", "application/octet-stream"))
+    at.run()
+    _no_failure(at)
+    assert any("week.xlsx" in e.value and "save the sheet as CSV" in e.value for e in at.error)
+
+
+def test_page_icon_is_drawn_locally():
+    # issue 16: the icon was fetched from an outside host and failed offline; now an image made in-process
+    from PIL import Image
+
+    from diag.ui.app import page_icon
+
+    assert isinstance(page_icon(), Image.Image)
+    source = (ROOT / "diag" / "ui" / "app.py").read_text()
+    assert "page_icon=page_icon()" in source and "http" not in source.split("def page_icon")[1].split("def ")[0]
