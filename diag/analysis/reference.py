@@ -411,8 +411,13 @@ def add_reference(series: ChannelSeries, config: AnalysisConfig | None = None) -
     steps = []
     if np.isfinite(level).sum() > 10:
         try:
+            high = None
+            if series.kind == "stats" and "rsl_max_dbm" in frame.columns:   # interval maxima place the step
+                shift = level - frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)   # ATPC correction
+                high = pd.Series(frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
+                                 + np.where(np.isfinite(shift), shift, 0.0), index=frame.index)
             steps = shifts.detect_steps(pd.Series(level, index=frame.index), interval_s,
-                                        min_step_db=config.step_min_db)
+                                        min_step_db=config.step_min_db, high_dbm=high)
         except ValueError as exc:  # too short a record for the windows
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []
