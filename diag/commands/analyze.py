@@ -48,6 +48,9 @@ def register(subparsers) -> None:
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
     parser.add_argument("--map", metavar="MAPPING", help="mapping file (TOML) overriding column detection")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    from diag.commands.ingest import add_reader_overrides
+
+    add_reader_overrides(parser, with_link_id=False)    # the same reader flags as ingest (issue 16)
     parser.set_defaults(func=main)
 
 
@@ -96,11 +99,9 @@ def main(args: argparse.Namespace) -> int:
     from diag.report import write_outputs
 
     links = links_from_args(args)
-    mapping = None
-    if args.map:
-        from diag.read.ingest import load_mapping
+    from diag.commands.ingest import mapping_from_args
 
-        mapping = load_mapping(args.map)
+    mapping = mapping_from_args(args) or None     # the mapping file with the reader override flags laid over it
     gauge = None
     if args.gauge:
         from diag.read.gauge import read_gauge
