@@ -17,7 +17,8 @@ _FLAG_HELP = {
     "nominal_dbm": "expected clear-sky receive level [dBm]",
     "tx_dbm": "transmit power [dBm]",
     "antenna_gain_dbi": "antenna gain, each end [dBi]",
-    "antenna_height_m": "antenna height above ground [m]",
+    "antenna_height_m": "antenna altitude above sea level, both ends [m] (ground height + site altitude; ITU-R "
+                        "P.530 uses it)",
     "geoclimatic_k": "P.530 geoclimatic factor K",
     "r001_mmh": "rain rate exceeded 0.01 %% of the year [mm/h]",
     "objective_pct": "availability objective [%%]",
