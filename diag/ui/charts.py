@@ -291,9 +291,9 @@ def event_list(result) -> None:
                             key=f"ev_causes_{hop}")
     depth = c2.number_input(glossary.label("peak_fade_db") + " at least", min_value=0.0, max_value=80.0,
                             value=0.0, step=1.0, key=f"ev_depth_{hop}")
-    grouped = c3.toggle("Group into episodes", value=len(events) > 50, key=f"ev_group_{hop}",
-                        help="Events of one cause less than 30 min apart form one episode (a night of multipath, "
-                             "a storm), listed once with its event count.")
+    grouped = c3.toggle("Episodes", value=len(events) > 50, key=f"ev_group_{hop}",
+                        help="Group the events: those of one cause less than 30 min apart form one episode (a night "
+                             "of multipath, a storm), listed once with its event count.")
     table = views.event_table(events, causes=chosen, min_peak_fade_db=depth)
     if grouped:
         kept = events[events["cause"].astype(str).isin(chosen)
