@@ -65,7 +65,7 @@ def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
     fig.text(0.06, top, "Headline per hop", fontsize=11, weight="bold", va="top")
     ax = fig.add_axes([0.05, top - 0.02 - table_h, 0.90, table_h])
     ax.axis("off")
-    header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Verdict",
+    header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Objective\nmet",
               "Outage\n(unavailable)", "Below\nthreshold", "Main cause", "No data"]
     table = ax.table(cellText=rows or [["—"] * len(header)], colLabels=header, bbox=[0, 0, 1, 1],
                      cellLoc="center", colLoc="center",
