@@ -3,6 +3,7 @@
 Required fields: ``link_id, frequency_ghz, length_km, polarization`` (H, V or dual), ``threshold_dbm``.
 Optional: ``nominal_dbm, tx_dbm, antenna_gain_dbi, antenna_height_m, geoclimatic_k, r001_mmh, objective_pct,
 xpd_required_db``.  A missing optional field is ``None``; the analysis names the checks it had to skip.
+``antenna_height_m`` is the antennas' altitude above sea level (ground height + site altitude), as ITU-R P.530 uses it.
 """
 from __future__ import annotations
 
@@ -31,7 +32,7 @@ PLAUSIBLE_RANGES = {
     "nominal_dbm": (-120.0, 10.0),
     "tx_dbm": (-30.0, 50.0),
     "antenna_gain_dbi": (0.0, 65.0),
-    "antenna_height_m": (0.0, 1000.0),
+    "antenna_height_m": (-500.0, 9000.0),   # altitude above sea level (ground + site): high sites exist
     "geoclimatic_k": (1e-9, 1e-1),
     "r001_mmh": (0.0, 300.0),
     "objective_pct": (50.0, 100.0),

@@ -19,18 +19,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from diag import glossary
 from diag import schema as S
 from diag.numeric import round_sig as _num
 
-CAUTION_HEIGHT = ("Work at height: tower and mast work only by trained, certified climbers with fall-arrest "
-                  "equipment and a rescue plan; do not climb in wind, ice or lightning.")
-CAUTION_RF = ("RF exposure: keep out of the antenna's main beam; mute or switch off the transmitters (both ends "
-              "where needed) before working at the antenna, and respect the RF exposure limits that apply on site.")
-CAUTION_CODES = ("Follow local codes, the site owner's rules and licensed practice; changes to frequency, "
-                 "polarisation, transmit power or antennas need the licence holder's (and where required the "
-                 "regulator's) approval.")
-CAUTION_ELECTRICAL = ("Electrical safety: power and earthing checks only by qualified staff, following the "
-                      "equipment maker's instructions and local electrical codes.")
+# the cautions are worded once, in diag.glossary (every field action carries them)
+CAUTION_HEIGHT = glossary.HEIGHT_CAUTION
+CAUTION_RF = glossary.RF_CAUTION
+CAUTION_CODES = glossary.LICENCE_CAUTION
+CAUTION_ELECTRICAL = glossary.ELECTRICAL_CAUTION
 SITE_CAUTIONS = [CAUTION_HEIGHT, CAUTION_RF, CAUTION_CODES]
 
 TILT_FINDING_DEG = 2.0        # common practice: a residual polarisation tilt above ~2 deg is worth realigning
@@ -171,7 +168,7 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
         if a001 is not None and margin is not None:
             detail += f"; fade margin {margin:.1f} dB against a P.530 A0.01 of {a001:.1f} dB"
             numbers["margin_minus_a001_db"] = _num(margin - a001)
-        cautions = [CAUTION_CODES]
+        cautions = list(SITE_CAUTIONS)   # new antennas, more power, a second path: all mean site work
     elif cause == S.MULTIPATH:
         slope = _first_channel_stat(result, "exceedance", "multipath_tail", "slope_db_per_decade")
         p0 = _first_channel_stat(result, "exceedance", "multipath_tail", "p0_percent")
@@ -213,7 +210,7 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
         actions = ["check equipment alarms and logs of both ends for the episode times",
                    "check power supply and batteries, earthing and the indoor/outdoor unit connection",
                    "a drop on one direction only points at that direction's transmitter or receiver"]
-        cautions = [CAUTION_ELECTRICAL, CAUTION_HEIGHT, CAUTION_RF]
+        cautions = [CAUTION_ELECTRICAL, *SITE_CAUTIONS]
     else:
         actions = ["look at these events in the level plot; add a rain gauge file to confirm or refute rain"]
     score = unav * 1.0 + below * 0.1 + n_events * 0.01

@@ -15,14 +15,18 @@ Counting rules (see README section "outage"):
   count as available).  A data gap of ten seconds or more restarts the rule; a shorter one (a missed poll, a blank
   reading) is bridged.  **SES in available time** are the SES outside it.
 * **Availability** = 100 (1 - unavailable / observed) over the observed time only.
-* **Link level**: a second is SES if any traffic channel of the hop is (both polarisations of a dual-polarised hop,
-  or both directions); it is observed if any channel has data.  The 10-second rule is then applied to that combined
-  mask.  By the rule's monotonicity this is never less than the union of the per-direction unavailable times that
-  G.826 Annex A prescribes for a bidirectional path (it can be a few seconds more when short SES bursts on the two
-  channels interleave).
+* **Link level** (ITU-T G.826 (12/2002) Annex A, A.2): each traffic channel of the hop (each direction, each
+  polarisation) gets its own ten-second rule, and the hop is unavailable when any channel is (the union of the
+  per-channel unavailable times).  A second is SES at hop level if any channel is, and SES are counted only in the
+  hop's available time; a second is observed if any channel has data.  Short SES bursts that alternate between the
+  two directions therefore stay SES in available time (300 s of alternating 5-s bursts: 0 s unavailable, 300 SES).
+  Interval statistics (bounds only) keep the combined record for the upper bound (never less than the union, so
+  still a valid bound); the lower bound is the same either way (whole intervals of at least ten seconds).
 * **Cause**: each below-threshold second takes the cause of the fade event covering it (``frame["cause"]``).  An
   unavailable second that is not itself covered by an event takes the dominant cause of its unavailable period;
   "unknown" where there is none.  Every second has exactly one cause, so the per-cause rows add up exactly.
+  The hop's **main cause** is the cause with the most unavailable time (upper bound), "no outage" without any
+  (``diag.glossary``).
 
 Bounds (logs coarser than one second, and interval min/avg/max statistics) are described in ``_sample_masks`` and
 ``_stats_masks``; the exact columns are then NaN and the ``*_lo`` / ``*_hi`` fields carry the bounds.
@@ -36,7 +40,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.errors import InputError
 from diag.models import g826
 from diag.results import ChannelSeries, LinkResult, OutageResult
@@ -407,6 +411,15 @@ def _cap_per_block(u_hi: np.ndarray, hi: np.ndarray, block: np.ndarray, consecut
     return trimmed
 
 
+def _union_unavailable(parts: list[tuple[np.ndarray, np.ndarray]]) -> tuple[np.ndarray, np.ndarray]:
+    """Hop-level unavailable masks: the union of each channel's (ITU-T G.826 (12/2002) Annex A, A.2: a
+    bidirectional path is unavailable when either direction is).  Exact channels keep lower is upper."""
+    lo = np.logical_or.reduce([p[0] for p in parts])
+    if all(p[0] is p[1] for p in parts):
+        return lo, lo
+    return lo, np.logical_or.reduce([p[1] for p in parts])
+
+
 def _unavailable_causes(unav: np.ndarray, cause: np.ndarray) -> np.ndarray:
     """Cause per unavailable second: the covering event's; otherwise the dominant cause of its period."""
     out = cause.copy()
@@ -424,9 +437,12 @@ def _by_cause(mask: np.ndarray, cause: np.ndarray) -> np.ndarray:
     return np.bincount(cause[mask].astype(np.int64), minlength=len(CAUSES)).astype(np.int64)
 
 
-def _figures(m: _Masks, consecutive_s: int) -> dict:
-    """All counts of one mask set, with per-cause arrays for below / unavailable (lo and hi)."""
-    u_lo, u_hi = _unavailable(m, consecutive_s)
+def _figures(m: _Masks, consecutive_s: int, unavailable: tuple[np.ndarray, np.ndarray] | None = None) -> dict:
+    """All counts of one mask set, with per-cause arrays for below / unavailable (lo and hi).
+
+    ``unavailable``: the (lower, upper) unavailable masks when they come from elsewhere (the hop-level union of the
+    per-channel masks, G.826 Annex A); by default the ten-second rule runs on ``m`` itself."""
+    u_lo, u_hi = _unavailable(m, consecutive_s) if unavailable is None else unavailable
     obs = m.observed
     below_lo = int(np.count_nonzero(m.lo & obs))
     below_hi = int(np.count_nonzero(m.hi & obs))
@@ -676,8 +692,10 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
                              f"second (at most {MAX_SECONDS / 86400:.0f} days); split the log into shorter periods")
         rotation: dict[int, int] = {}
         masks = [_channel_masks(s, t0, n, threshold, rotation, stats_average) for s in series]
-        channel_figures = [_figures(m, consecutive_s) for m in masks]
-        f = _figures(_combine(masks), consecutive_s)
+        channel_unav = [_unavailable(m, consecutive_s) for m in masks]
+        channel_figures = [_figures(m, consecutive_s, u) for m, u in zip(masks, channel_unav)]
+        hop_unav = _union_unavailable(channel_unav) if all(m.kind != "stats" for m in masks) else None
+        f = _figures(_combine(masks), consecutive_s, hop_unav)
         kinds = [(m.kind, m.interval_s) for m in masks]
 
     per_channel_rows = []
@@ -712,16 +730,17 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
     }, columns=by_cause_cols)
     ranked = by_cause.sort_values(["unavailable_s_hi", "below_threshold_s_hi"], ascending=False, kind="stable")
     top = ranked.iloc[0]
-    summary["dominant_cause"] = (str(top["cause"]) if top["unavailable_s_hi"] > 0 or top["below_threshold_s_hi"] > 0
-                                 else "")
+    # main cause (diag.glossary): the cause with the most outage (upper bound); "no outage" without unavailable time
+    summary["main_cause"] = str(top["cause"]) if top["unavailable_s_hi"] > 0 else glossary.NO_OUTAGE
 
     # --- notes: method and caveats (plain words, shown in the report) ---
     notes.append("Counting: a second below the receiver threshold ({:g} dBm) or with loss of signal is taken as a "
                  "severely errored second; unavailable time follows the ITU-T G.826/G.828 ten-second rule; "
                  "data gaps are excluded and never counted as outage.".format(threshold))
     if len(series) > 1:
-        notes.append("Hop level: a second counts as severely errored if any channel ({}) is; the ten-second rule "
-                     "is applied to that combined record.".format(", ".join(s.channel for s in series)))
+        notes.append("Hop level: each channel ({}) gets its own ten-second rule and the hop is unavailable when "
+                     "any channel is (ITU-T G.826 Annex A); a second is severely errored if any channel is, and "
+                     "counted only in available time.".format(", ".join(s.channel for s in series)))
     if not exact:
         notes.append("Coarse data: outage is given as a lower and an upper bound, not one number. Method: "
                      + f["method"] + ".")
@@ -734,9 +753,8 @@ def account_link(result: LinkResult, *, consecutive_s: int = g826.CONSECUTIVE_S,
                      f"{summary['observed_days']:.1f} days of observed time.")
     notes.append("A week is not a year: the yearly figures scale the observed outage linearly (as if every week "
                  "were like this one) and, alternatively, treat the observed period as the worst month and convert "
-                 "with ITU-R P.841 (global Q1 = 2.85, beta = 0.13; parameters from open-source implementations, "
-                 "not checked against the Recommendation). Rain and multipath are seasonal; only a year or more "
-                 "of data supports an annual figure.")
+                 "with ITU-R P.841's global parameters (Q1 = 2.85, beta = 0.13). Rain and multipath are seasonal; "
+                 "only a year or more of data supports an annual figure.")
     if not counters:
         notes.append("The log carries no ES/SES/UAS counters from the radio: the level-based figures could not be "
                      "cross-checked.")

@@ -33,6 +33,7 @@ import numpy as np
 import pandas as pd
 
 _FADE_WEIGHT = 0.05   # cost of a sample that a fade can explain, against 1 for one that nothing explains
+_DEEP_MARGIN_DB = 1.0  # a sample this far below both levels of a step is a fade (beyond clear-air noise)
 MEAN_TRIM_DB = 1.5   # clear_mean_dbm keeps samples this close to the trimmed median (1-dB steps + noise)
 
 
@@ -159,37 +160,54 @@ def _near_clear(values: np.ndarray, level: float, m: int, fade_trim_db: float) -
     return float(np.median(picked)) if picked.size else math.nan
 
 
-def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *, fade_trim_db: float) -> int:
+def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *, fade_trim_db: float,
+            high: np.ndarray | None = None) -> int:
     """Index in [lo, hi] of the first sample at the new level.
 
     Each sample is put on the old or the new side of the mid level.  Fades only lower the level, so a sample on
     the LOW side is explainable on either side of a step (weight ``_FADE_WEIGHT``), while a sample on the HIGH
     side of the wrong half is not (weight 1): a rain fade just before a downward step or just after an upward
     step cannot pull the split into the fade.  The split minimising the weighted count is found with cumulative
-    sums (exact, O(n)).  ``fade_trim_db`` is unused (kept for the call signature).
+    sums (exact, O(n)).  A sample more than ``_DEEP_MARGIN_DB`` below the lower of the two levels is a fade on
+    either side and counts for neither (weight 0); among equally good splits the latest is taken: the level moved where
+    the first unfaded sample at the new level is, not at the start of a fade next to the step (issue 16).
+
+    ``high``: the interval maxima of a statistics log.  Fades only lower the level, so an interval's maximum shows
+    which clear level it saw: the side of each interval is read from its maximum.  An interval whose maximum is on
+    the old side but whose level is on the new one holds the step itself (or a fade on the old level): when the
+    split lands right after such an interval, the step is placed at that interval's start, the interval that
+    contains it.
     """
     lo, hi = max(0, lo), min(len(level), hi)
     if hi - lo < 2:
         return lo
-    x = level[lo:hi]
+    x = level[lo:hi] if high is None else np.where(np.isfinite(high[lo:hi]), high[lo:hi], level[lo:hi])
     ok = np.isfinite(x)
     mid = 0.5 * (before + after)
     down = after < before
-    new_side = ok & ((x < mid) if down else (x > mid))
-    old_side = ok & ~new_side
+    # below both levels (beyond the noise): a fade on either level, no evidence for either side
+    deep = ok & (x < min(before, after) - _DEEP_MARGIN_DB)
+    new_side = ok & ~deep & ((x < mid) if down else (x > mid))
+    old_side = ok & ~deep & ~new_side
     w_new_before = _FADE_WEIGHT if down else 1.0    # a low sample before a downward step may be a fade
     w_old_after = 1.0 if down else _FADE_WEIGHT     # a low sample after an upward step may be a fade
     # cost(k) = w_new_before * #new-side samples before k + w_old_after * #old-side samples from k on
     before_cost = np.concatenate([[0.0], np.cumsum(new_side * w_new_before)])
     after_cost = np.concatenate([np.cumsum((old_side * w_old_after)[::-1])[::-1], [0.0]])
-    return lo + int(np.argmin(before_cost + after_cost))
+    cost = before_cost + after_cost
+    k = int(np.flatnonzero(cost <= cost.min() + 1e-9)[-1])
+    if high is not None and k > 0:
+        v = level[lo + k - 1]
+        if np.isfinite(v) and old_side[k - 1] and ((v < mid) if down else (v > mid)):
+            k -= 1          # the interval just before shows both levels: the step lies inside it
+    return lo + k
 
 
 def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float = 2.0, block_s: float = 300.0,
                  window_s: float = 7200.0, persist_s: float = 6 * 3600.0,
                  fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6, abrupt_s: float = 600.0,
                  min_abrupt_fraction: float = 0.6, max_step_db: float | None = 40.0,
-                 min_edge_s: float = 3600.0) -> list[Step]:
+                 min_edge_s: float = 3600.0, high_dbm: pd.Series | None = None) -> list[Step]:
     """Persistent steps of the clear-sky level of one channel.
 
     Parameters
@@ -213,6 +231,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     min_edge_s : float
         Near the start or end of the record a step needs only this much evidence on that side (instead of a
         full window), so a step an hour before the record ends is still found.
+    high_dbm : pd.Series, optional
+        Interval maxima of a statistics log on the same grid (transmit changes removed like ``level_dbm``): they
+        place the step in time (see ``_refine``); detection and sizes still use ``level_dbm``.
     max_step_db : float or None
         Larger steps are not level shifts: a drop of more than this is a loss of signal (the receiver sits at or
         near its floor), e.g. a far-end transmitter off for a day (common practice; None = no limit).
@@ -227,6 +248,10 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     if interval_s <= 0:
         raise ValueError("interval_s must be positive")
     values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
+    high = (None if high_dbm is None else
+            np.asarray(pd.Series(high_dbm).to_numpy(dtype=float, na_value=np.nan), dtype=float))
+    if high is not None and high.shape != values.shape:
+        raise ValueError("high_dbm must be on the grid of level_dbm")
     index = level_dbm.index
     block = max(1, int(round(block_s / interval_s)))
     w = max(2, int(round(window_s / (block * interval_s))))
@@ -267,6 +292,9 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
         span_lo = max(prev * block, (a - w) * block)
         span_hi = min(nxt * block, (b + w) * block, len(values))
         k = _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db)
+        # statistics logs: the interval maxima place the step in time (the checks below keep using the averages)
+        k_time = k if high is None else _refine(values, span_lo, span_hi, old, new, fade_trim_db=fade_trim_db,
+                                                high=high)
         # the step's own sides: the clear levels one window either side of the refined time (up to a persistence
         # window where an accepted step bounds that side).  Over a persistence window a second step of the same
         # sign (not accepted yet) adds to this one; these levels see this step only, and the remaining part is
@@ -294,7 +322,7 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
         if abs(near_new - near_old) < min_abrupt_fraction * abs(new - old) or \
                 np.sign(near_new - near_old) != np.sign(new - old):
             return None  # a slow change (the end of a refractive fade, a drift), not a step
-        return kb, k
+        return kb, k_time
 
     # Candidates are tried largest first; windows are bounded only by steps already accepted, so a rejected
     # candidate (the start of a long fade) never shortens the evidence of a real step next to it.  Once steps are

@@ -206,8 +206,13 @@ def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.nda
     steps = []
     if np.isfinite(level).sum() > 10:
         try:
+            high = None
+            if series.kind == "stats" and "rsl_max_dbm" in frame.columns:   # interval maxima place the step
+                shift = level - frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)   # ATPC correction
+                high = pd.Series(frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
+                                 + np.where(np.isfinite(shift), shift, 0.0), index=frame.index)
             steps = detect_steps(pd.Series(level, index=frame.index), series.interval_s,
-                                 min_step_db=config.step_min_db)
+                                 min_step_db=config.step_min_db, high_dbm=high)
         except ValueError as exc:  # too short a record for the windows
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []

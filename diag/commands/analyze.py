@@ -17,7 +17,8 @@ _FLAG_HELP = {
     "nominal_dbm": "expected clear-sky receive level [dBm]",
     "tx_dbm": "transmit power [dBm]",
     "antenna_gain_dbi": "antenna gain, each end [dBi]",
-    "antenna_height_m": "antenna height above ground [m]",
+    "antenna_height_m": "antenna altitude above sea level, both ends [m] (ground height + site altitude; ITU-R "
+                        "P.530 uses it)",
     "geoclimatic_k": "P.530 geoclimatic factor K",
     "r001_mmh": "rain rate exceeded 0.01 %% of the year [mm/h]",
     "objective_pct": "availability objective [%%]",
@@ -48,6 +49,9 @@ def register(subparsers) -> None:
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
     parser.add_argument("--map", metavar="MAPPING", help="mapping file (TOML) overriding column detection")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    from diag.commands.ingest import add_reader_overrides
+
+    add_reader_overrides(parser, with_link_id=False)    # the same reader flags as ingest (issue 16)
     parser.set_defaults(func=main)
 
 
@@ -96,11 +100,9 @@ def main(args: argparse.Namespace) -> int:
     from diag.report import write_outputs
 
     links = links_from_args(args)
-    mapping = None
-    if args.map:
-        from diag.read.ingest import load_mapping
+    from diag.commands.ingest import mapping_from_args
 
-        mapping = load_mapping(args.map)
+    mapping = mapping_from_args(args) or None     # the mapping file with the reader override flags laid over it
     gauge = None
     if args.gauge:
         from diag.read.gauge import read_gauge

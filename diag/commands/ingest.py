@@ -21,12 +21,19 @@ def register(subparsers) -> None:
     p.add_argument("--map", metavar="MAPPING", help="mapping file (TOML) overriding detection")
     p.add_argument("--out", metavar="PATH", help="write the table: PATH.parquet = one file, else a store folder")
     p.add_argument("--json", action="store_true", help="print the detection and accounting report as JSON")
-    g = p.add_argument_group("overrides (win over --map)")
+    add_reader_overrides(p)
+    p.set_defaults(func=run)
+
+
+def add_reader_overrides(p, *, with_link_id: bool = True) -> None:
+    """The reader's override flags (shared by ``ingest`` and ``analyze``; ``analyze`` has its own --link-id)."""
+    g = p.add_argument_group("reader overrides (win over --map)")
     g.add_argument("--time-col", action="append", metavar="NAME", help="time column; twice for date and time")
     g.add_argument("--time-format", metavar="FMT", help="strftime format, or iso, epoch_s, epoch_ms")
     g.add_argument("--time-marks", choices=("start", "end"), help="stamp marks interval start or end")
     g.add_argument("--link-col", metavar="NAME", help="column holding the link id")
-    g.add_argument("--link-id", metavar="ID", help="link id for files that name none")
+    if with_link_id:
+        g.add_argument("--link-id", metavar="ID", help="link id for files that name none")
     g.add_argument("--channel-col", metavar="NAME", help="column holding the channel (long layout)")
     g.add_argument("--signal-col", action="append", metavar="NAME=QUANTITY[:CHANNEL[:STAT[:INTERVAL_S]]]",
                    help="a signal column, e.g. 'Level A=rsl:A' or 'Lo=rsl:H:min:900' (repeatable; then only these)")
@@ -37,7 +44,6 @@ def register(subparsers) -> None:
     g.add_argument("--decimal", choices=(".", ","), help="decimal mark")
     g.add_argument("--encoding", metavar="NAME", help="text encoding, e.g. utf-8, latin-1")
     g.add_argument("--header-line", type=int, metavar="N", help="1-based line holding the column names")
-    p.set_defaults(func=run)
 
 
 def mapping_from_args(args: argparse.Namespace) -> dict:

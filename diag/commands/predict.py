@@ -25,14 +25,18 @@ def register(subparsers) -> None:
     k.add_argument("--dn1", type=float, metavar="DN1", help="refractivity gradient dN1 [N-units/km] (with --sa)")
     p.add_argument("--sa", type=float, metavar="M", help="terrain roughness s_a [m] (with --dn1)")
     p.add_argument("--tx-dbm", type=float, metavar="P", help="transmit power [dBm]")
-    p.add_argument("--gain-dbi", type=float, metavar="G", help="antenna gain, each end [dBi]")
+    p.add_argument("--antenna-gain-dbi", "--gain-dbi", dest="gain_dbi", type=float, metavar="G",
+                   help="antenna gain, each end [dBi] (--gain-dbi: the older name)")
     p.add_argument("--rx-gain-dbi", type=float, metavar="G", help="receive antenna gain if it differs [dBi]")
     p.add_argument("--losses-db", type=float, default=0.0, metavar="L",
                    help="total fixed losses: feeders, branching, radomes, gases [dB] (default 0)")
     p.add_argument("--threshold-dbm", type=float, metavar="T", help="receiver threshold [dBm]")
     p.add_argument("--nominal-dbm", type=float, metavar="N", help="planned clear-sky level, if no budget [dBm]")
+    p.add_argument("--antenna-height-m", type=float, metavar="H",
+                   help="both antennas' altitude above sea level [m] (ground height + site altitude), as analyze "
+                        "and the links table take it; --height-tx-m / --height-rx-m set each end")
     p.add_argument("--height-tx-m", type=float, metavar="H", help="one antenna's altitude above sea level [m]")
-    p.add_argument("--height-rx-m", type=float, metavar="H", help="the other antenna's altitude [m]")
+    p.add_argument("--height-rx-m", type=float, metavar="H", help="the other antenna's altitude above sea level [m]")
     p.add_argument("--latitude-deg", type=float, metavar="LAT", help="path latitude (multipath average year)")
     p.add_argument("--json", action="store_true", help="print the predictions as JSON")
     p.set_defaults(func=run)
@@ -49,8 +53,10 @@ def run(args) -> int:
         args.freq_ghz, args.length_km, polarization="dual" if args.polarization == "DUAL" else args.polarization,
         r001_mmh=args.r001_mmh, geoclimatic_k=args.geoclimatic_k, dn1=args.dn1, sa_m=args.sa, tx_dbm=args.tx_dbm,
         antenna_gain_dbi=args.gain_dbi, rx_antenna_gain_dbi=args.rx_gain_dbi, losses_db=args.losses_db,
-        threshold_dbm=args.threshold_dbm, nominal_dbm=args.nominal_dbm, height_tx_m=args.height_tx_m,
-        height_rx_m=args.height_rx_m, latitude_deg=args.latitude_deg)
+        threshold_dbm=args.threshold_dbm, nominal_dbm=args.nominal_dbm,
+        height_tx_m=args.height_tx_m if args.height_tx_m is not None else args.antenna_height_m,
+        height_rx_m=args.height_rx_m if args.height_rx_m is not None else args.antenna_height_m,
+        latitude_deg=args.latitude_deg)
     if args.json:
         json.dump(result, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")

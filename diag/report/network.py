@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.report import style
 from diag.results import LinkResult
 
@@ -82,7 +82,7 @@ def network_ranking(results: Sequence[LinkResult], folders: dict[str, str] | Non
                        availability_pct_lo=alo, availability_pct_hi=ahi, objective_pct=_num(s, "objective_pct"),
                        meets_objective="" if meets is None or (isinstance(meets, float) and math.isnan(meets))
                        else str(meets),
-                       main_cause=main, main_cause_min_lo=minutes[main][0] if main else 0.0,
+                       main_cause=main or glossary.NO_OUTAGE, main_cause_min_lo=minutes[main][0] if main else 0.0,
                        main_cause_min_hi=minutes[main][1] if main else 0.0, events=int(len(res.events)),
                        observed_h=_num(s, "observed_s") / 3600, no_data_h=_num(s, "no_data_s") / 3600)
         elif res.error is None:
@@ -139,13 +139,23 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
     labels = list(ok["link_id"])[::-1]
     shown = [f"{_short(h, 30)} " for h in labels]
     left = np.zeros(len(labels))
+    pairs = {cause: np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage
+                                               else None, cause) for h in labels]).reshape(-1, 2)
+             for cause in schema.CAUSES}
+    # certain minutes (lower bound) as solid bars, the rest up to the upper bound as hatched outlines after them:
+    # a 0-15 min range never looks like 15 certain minutes
     for cause in schema.CAUSES:
-        minutes = np.asarray([_cause_minutes(by_id[h].outage.by_cause if h in by_id and by_id[h].outage else None,
-                                             cause)[1] for h in labels])
+        minutes = pairs[cause][:, 0]
         if labels and minutes.sum() > 0:
             ax.barh(range(len(labels)), minutes, left=left, color=colours.get(cause, "#888888"),
                     label=names.get(cause, cause))
             left += minutes
+    for cause in schema.CAUSES:
+        extra = pairs[cause][:, 1] - pairs[cause][:, 0]
+        if labels and extra.sum() > 0:
+            ax.barh(range(len(labels)), extra, left=left, facecolor="none", hatch="////", linewidth=0.8,
+                    edgecolor=colours.get(cause, "#888888"), label=f"{names.get(cause, cause)}: possible (upper bound)")
+            left += extra
     ax.set_yticks(range(len(labels)), shown)
     ax.set_ylim(-0.6, max(len(labels), 1) - 0.4)
     ax.set_xlabel("outage [min] (upper bound where the log gives bounds)")
@@ -155,23 +165,37 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
         ax.legend(fontsize=7, loc="lower right")
     else:
         ax.text(0.5, 0.5, "no outage on any analysed hop", transform=ax.transAxes, ha="center", fontsize=9)
-    lines = ["rank  hop                         outage min       avail. %   objective  main cause"]
+    rows = []
     for row in ok.itertuples():
-        minutes = f"{row.outage_min_hi:.1f}" if row.exact else f"{row.outage_min_lo:.0f}-{row.outage_min_hi:.0f}"
-        avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if row.exact
-                 else f">={row.availability_pct_lo:.3f}")
-        met = {"yes": "met", "no": "NOT met", "undetermined": "unclear"}.get(str(row.meets_objective), "-")
-        lines.append(f"{int(row.rank):>4}  {_short(row.link_id, 26):<26}  {minutes:>12}  {avail:>12}  "
-                     f"{met:>9}  {names.get(row.main_cause, row.main_cause)}")
+        same = row.exact or row.outage_min_lo == row.outage_min_hi
+        minutes = f"{row.outage_min_hi:.1f}" if same else f"{row.outage_min_lo:.0f} – {row.outage_min_hi:.0f}"
+        avail = ("" if pd.isna(row.availability_pct_lo) else f"{row.availability_pct_lo:.3f}" if same
+                 else f"{row.availability_pct_lo:.3f} – {row.availability_pct_hi:.3f}")
+        met = glossary.verdict_label(str(row.meets_objective)) if row.meets_objective else "–"
+        rows.append([f"{int(row.rank)}", _short(row.link_id, 34), minutes, avail, met,
+                     names.get(row.main_cause, row.main_cause) or glossary.NO_OUTAGE])
+    if rows:
+        row_h = min(0.022, 0.30 / (len(rows) + 1))          # 20 hops and the failed list still fit the page
+        tab = fig.add_axes((0.04, 0.455 - row_h * (len(rows) + 1), 0.92, row_h * (len(rows) + 1)))
+        tab.axis("off")
+        table = tab.table(cellText=rows, colLabels=["Rank", "Hop", "Outage [min]", "Availability [%]",
+                                                    glossary.TERMS["meets_objective"].label, glossary.MAIN_CAUSE],
+                          bbox=[0, 0, 1, 1], cellLoc="left", colWidths=[0.06, 0.30, 0.14, 0.2, 0.12, 0.18])
+        table.auto_set_font_size(False)
+        table.set_fontsize(8 if len(rows) <= 12 else 7)
+        for (r, _), cell in table.get_celld().items():
+            cell.set_edgecolor("#D0D0D0")
+            if r == 0:
+                cell.set_text_props(weight="bold")
     if len(ok) and not ok["exact"].all():
-        lines.append("a-b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper bound")
-    fig.text(0.04, 0.50, "\n".join(lines), fontsize=6.5, family="monospace", va="top")
+        fig.text(0.04, 0.47, "a – b: lower and upper bound (15-min statistics or coarse logs); ranked by the upper "
+                 "bound", fontsize=7.5, style="italic")
     if len(failed):
         text = ["Hops not analysed (fix and rerun):"] + [f"  {_short(r.link_id, 26)}: {_short(r.error, 140)}"
                                                       for r in failed.head(8).itertuples()]
         if len(failed) > 8:
             text.append(f"  ... and {len(failed) - 8} more (network_ranking.csv)")
-        fig.text(0.04, 0.19, "\n".join(text), fontsize=6.5, family="monospace", va="top", color="#a02020")
+        fig.text(0.04, 0.14, "\n".join(text), fontsize=7, va="top", color="#a02020")
     fig.text(0.04, 0.03, "Per-hop outputs: hops/<hop>/.  Advice that involves work on towers or near radiating "
              "antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
     path = Path(path)

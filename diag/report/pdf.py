@@ -1,175 +1,53 @@
-"""The management report: a PDF of three pages made with matplotlib (no other PDF stack).
+"""The management report: a PDF made with matplotlib (no other PDF stack).  This module draws; the sentences
+are in ``diag.report.pdf_text`` and the words in ``diag.glossary``.
 
-Page 1  headline table per hop (availability against objective, outage minutes, main cause), outage minutes by
-        cause per hop, key findings, caution.
-Page 2  timeline of each hop: receive level, threshold, fades shaded by cause (colour + hatch), data gaps.
-Page 3  fade-depth distribution against Rayleigh and the design prediction, findings with recommended actions,
-        data gaps, method notes, the safety caution.
+Page 1  headline table per hop (availability against objective, outage, main cause), outage by cause per hop, key
+        points, yearly outlook, caution.
+Page 2  timeline of each hop: receive level, threshold, fades shaded by cause (colour + hatch + mark), data gaps.
+Page 3  fade-depth distribution against Rayleigh and the design prediction, data gaps, method notes.
+Page 4  every hop's findings (up to three each, level shifts included) with their actions and the cautions
+        (more pages when many hops have findings).
+Last    glossary of the words and trade terms the report uses.
 
 Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of the run in the text.
 """
 from __future__ import annotations
 
 import io
-import math
-import textwrap
 from typing import Callable, Iterable, Sequence
 
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.report import style
+from diag.report.pdf_text import (
+    HEADLINE_NOTE,
+    MAX_TABLE_ROWS,
+    SAFETY_TEXT,
+    _finite,
+    _first_action,
+    _headline_rows,
+    _overview_sentence,
+    _period,
+    _top_findings,
+    _wrap,
+    cautions_text,
+    counters_lines,
+    findings_by_hop,
+    format_availability,
+    format_minutes,
+    gaps_lines,
+    glossary_entries,
+    method_notes,
+)
 from diag.results import LinkResult
 
 PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
-MAX_TABLE_ROWS = 14
 MAX_TIMELINES = 5
-SAFETY_TEXT = ("Safety: some actions mean work on towers and near radiating antennas. Follow the local codes for work "
-               "at height and fall protection, respect the RF exposure limits (switch the transmitter off or stay "
-               "outside the exclusion zone) and leave such work to trained, licensed staff.")
-
-_SHORT = {schema.RAIN: "Rain", schema.MULTIPATH: "Multipath", schema.REFRACTIVE: "Refractive",
-          schema.LEVEL_SHIFT: "Level shift", schema.SIGNAL_LOSS: "Signal loss", schema.UNKNOWN: "Unknown"}
+MAX_FINDINGS_PAGES = 4
 
 __all__ = ["build_figures", "pdf_bytes", "write_pdf", "format_availability", "format_minutes", "SAFETY_TEXT"]
-
-
-# ------------------------------------------------------------------------------------------------ formatting
-def _finite(x) -> bool:
-    try:
-        return x is not None and math.isfinite(float(x))
-    except (TypeError, ValueError):
-        return False
-
-
-def _pct(value: float) -> str:
-    decimals = 4 if value >= 99.9 else 3 if value >= 99.0 else 2
-    return f"{value:.{decimals}f}"
-
-
-def format_availability(summary: dict | None) -> str:
-    """Availability as printed in the report: "99.9876 %" (exact) or "99.10 – 99.95 %" (bounds), "n/a" if none."""
-    if not summary:
-        return "n/a"
-    if summary.get("exact") and _finite(summary.get("availability_pct")):
-        return f"{_pct(float(summary['availability_pct']))} %"
-    lo, hi = summary.get("availability_pct_lo"), summary.get("availability_pct_hi")
-    if _finite(lo) and _finite(hi):
-        if abs(float(hi) - float(lo)) < 1e-12:
-            return f"{_pct(float(lo))} %"
-        return f"{_pct(float(lo))} – {_pct(float(hi))} %"
-    return "n/a"
-
-
-def _minutes(seconds: float) -> str:
-    m = float(seconds) / 60.0
-    if m == 0:
-        return "0"
-    if m < 10:
-        return f"{m:.1f}"
-    return f"{m:.0f}"
-
-
-def format_minutes(summary: dict | None, key: str = "unavailable_s") -> str:
-    """Minutes for a summary figure: "12.5 min" or "2.0 – 15 min" (bounds)."""
-    if not summary:
-        return "n/a"
-    if summary.get("exact") and _finite(summary.get(key)):
-        return f"{_minutes(summary[key])} min"
-    lo, hi = summary.get(f"{key}_lo"), summary.get(f"{key}_hi")
-    if _finite(lo) and _finite(hi):
-        if lo == hi:
-            return f"{_minutes(lo)} min"
-        return f"{_minutes(lo)} – {_minutes(hi)} min"
-    return "n/a"
-
-
-def _duration(seconds: float) -> str:
-    seconds = float(seconds)
-    if seconds < 120:
-        return f"{seconds:.0f} s"
-    if seconds < 7200:
-        return f"{seconds / 60:.0f} min"
-    return f"{seconds / 3600:.1f} h"
-
-
-def _verdict(summary: dict | None) -> str:
-    if not summary:
-        return "—"
-    return {"yes": "met", "no": "NOT met", "undetermined": "undetermined"}.get(summary.get("meets_objective", ""),
-                                                                             "no objective")
-
-
-def _wrap(text: str, width: int) -> str:
-    return "\n".join(textwrap.wrap(" ".join(str(text).split()), width=width)) or ""
-
-
-def _period(results: Sequence[LinkResult]) -> str:
-    starts, ends = [], []
-    for r in results:
-        if r.outage is not None and r.outage.summary.get("period_start_utc"):
-            starts.append(r.outage.summary["period_start_utc"])
-            ends.append(r.outage.summary["period_end_utc"])
-    if not starts:
-        return "period unknown"
-    fmt = lambda s: s.replace("T", " ")[:16]  # noqa: E731
-    return f"{fmt(min(starts))} to {fmt(max(ends))} UTC"
-
-
-# ------------------------------------------------------------------------------------------------ page 1
-def _headline_rows(results: Sequence[LinkResult]) -> list[list[str]]:
-    rows = []
-    for r in results[:MAX_TABLE_ROWS]:
-        link = r.link
-        s = r.outage.summary if r.outage is not None else None
-        objective = f"{link.objective_pct:g} %" if link.objective_pct is not None else "none given"
-        if r.error or s is None:
-            rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", "not analysed",
-                         objective, "—", "—", "—", "—", "—"])
-            continue
-        obs, nod = s.get("observed_s", 0) or 0, s.get("no_data_s", 0) or 0
-        share = 100 * nod / (obs + nod) if obs + nod > 0 else 0.0
-        nodata = (f"{_duration(nod)} ({share:.2f} %)" if 0 < share < 0.1 else f"{_duration(nod)} ({share:.1f} %)"
-                  ) if obs + nod > 0 else "—"
-        main = s.get("dominant_cause") or ""
-        rows.append([link.link_id, f"{link.frequency_ghz:g} GHz, {link.length_km:g} km", format_availability(s),
-                     objective, _verdict(s), format_minutes(s, "unavailable_s"),
-                     format_minutes(s, "below_threshold_s"), _SHORT.get(main, main) if main else "none",
-                     nodata])
-    return rows
-
-
-def _overview_sentence(results: Sequence[LinkResult]) -> str:
-    """One or two plain sentences: how many hops missed the objective, total outage and its main causes."""
-    judged = [r for r in results if r.outage is not None]
-    missed = [r for r in judged if r.outage.summary.get("meets_objective") == "no"]
-    unsure = [r for r in judged if r.outage.summary.get("meets_objective") == "undetermined"]
-    with_objective = [r for r in judged if r.outage.summary.get("meets_objective") in ("yes", "no", "undetermined")]
-    parts = []
-    if with_objective:
-        parts.append(f"{len(missed)} of {len(with_objective)} hop(s) missed their availability objective"
-                     + (f" and {len(unsure)} cannot be judged from the coarse data" if unsure else "") + ".")
-    totals = {c: [0.0, 0.0] for c in style.CAUSE_ORDER}
-    for r in judged:
-        bc = r.outage.by_cause
-        if bc is None or bc.empty:
-            continue
-        for _, row in bc.iterrows():
-            if row["cause"] in totals:
-                totals[row["cause"]][0] += float(row["unavailable_s_lo"])
-                totals[row["cause"]][1] += float(row["unavailable_s_hi"])
-    lo = sum(v[0] for v in totals.values())
-    hi = sum(v[1] for v in totals.values())
-    if hi <= 0:
-        parts.append("No hop had unavailable time in the period.")
-    else:
-        total = f"{_minutes(lo)} min" if lo == hi else f"between {_minutes(lo)} and {_minutes(hi)} min"
-        ranked = sorted(((v[1], c) for c, v in totals.items() if v[1] > 0), reverse=True)[:2]
-        causes = " and ".join(f"{style.cause_label(c).lower()} ({_minutes(v)} min"
-                              + ("" if totals[c][0] == totals[c][1] else " at most") + ")" for v, c in ranked)
-        parts.append(f"Total outage {total}, mostly {causes}.")
-    return " ".join(parts)
 
 
 def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
@@ -187,7 +65,7 @@ def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
     fig.text(0.06, top, "Headline per hop", fontsize=11, weight="bold", va="top")
     ax = fig.add_axes([0.05, top - 0.02 - table_h, 0.90, table_h])
     ax.axis("off")
-    header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Verdict",
+    header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Objective\nmet",
               "Outage\n(unavailable)", "Below\nthreshold", "Main cause", "No data"]
     table = ax.table(cellText=rows or [["—"] * len(header)], colLabels=header, bbox=[0, 0, 1, 1],
                      cellLoc="center", colLoc="center",
@@ -206,9 +84,7 @@ def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
             elif text == "met":
                 cell.set_text_props(color=style.OK_TEXT)
     y = top - 0.03 - table_h
-    note = ("Availability is counted over the time with data (ITU-T G.826 ten-second rule). A range a – b is given "
-            "where the log is too coarse for an exact count (15-min statistics, sparse samples): the true value lies "
-            "between the two figures.")
+    note = HEADLINE_NOTE
     if len(results) > MAX_TABLE_ROWS:
         note = f"{len(results) - MAX_TABLE_ROWS} more hop(s) in outage_summary.csv. " + note
     fig.text(0.06, y, _wrap(note, 135), fontsize=6.8, va="top", style="italic")
@@ -285,33 +161,6 @@ def _bar_by_cause(ax, results: Sequence[LinkResult]) -> None:
                     textcoords="offset points", fontsize=6.5, style="italic", va="top")  # below the legend
 
 
-def _top_findings(results: Sequence[LinkResult], limit: int) -> list[tuple[str, dict]]:
-    """Round-robin over hops, worst outage first, so every hop's first finding comes before any second one."""
-    results = sorted(results, key=lambda r: -(float(r.outage.summary.get("unavailable_s_hi") or 0)
-                                              if r.outage is not None else 0.0))
-    out: list[tuple[str, dict]] = []
-    depth = 0
-    while len(out) < limit:
-        added = False
-        for r in results:
-            if depth < len(r.findings):
-                out.append((r.link.link_id, r.findings[depth]))
-                added = True
-                if len(out) >= limit:
-                    break
-        if not added:
-            break
-        depth += 1
-    return out
-
-
-def _first_action(finding: dict) -> str:
-    actions = finding.get("actions") or []
-    if isinstance(actions, str):
-        return actions
-    return str(actions[0]) if actions else ""
-
-
 def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
     fig.text(0.06, top, "Key points", fontsize=11, weight="bold", va="top")
     lines = []
@@ -324,7 +173,8 @@ def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
                        key=lambda r: -(r.outage.summary.get("unavailable_s_hi") or 0))
         for r in worst[:4]:
             s = r.outage.summary
-            main = s.get("dominant_cause")
+            main = s.get("main_cause")
+            main = None if main == glossary.NO_OUTAGE else main
             lines.append(_wrap(f"• {r.link.link_id}: outage {format_minutes(s)}"
                                + (f", mostly {style.cause_label(main).lower()}" if main else "")
                                + f"; availability {format_availability(s)}.", 125))
@@ -374,8 +224,8 @@ def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float) -> b
             cell.set_facecolor("#EFEFEF")
     fig.text(0.06, top - 0.03 - height, _wrap(
         "A week is not a year: rain and multipath are seasonal, so these yearly figures are rough extrapolations, "
-        "not predictions. The worst-month conversion uses ITU-R P.841 global parameters (not yet checked against "
-        "the Recommendation). Only a year or more of data supports an annual figure.", 135),
+        "not predictions (how they are made: method notes). Only a year or more of data supports an annual "
+        "figure.", 135),
         fontsize=6.8, va="top", style="italic")
     return True
 
@@ -633,8 +483,8 @@ def _distribution(ax, results: Sequence[LinkResult]) -> None:
             fontsize=6.8, transform=ax.transAxes, va="top")
 
 
-def _page_findings(fig, results: Sequence[LinkResult], state: dict) -> None:
-    fig.text(0.06, 0.965, "Findings, actions and method", fontsize=15, weight="bold", va="top")
+def _page_method(fig, results: Sequence[LinkResult], state: dict) -> None:
+    fig.text(0.06, 0.965, "Fade depths, data gaps and method", fontsize=15, weight="bold", va="top")
     if state.get("outlook_done", True):
         _distribution(fig.add_axes([0.1, 0.66, 0.84, 0.26]), results)
         y = 0.56
@@ -644,64 +494,63 @@ def _page_findings(fig, results: Sequence[LinkResult], state: dict) -> None:
         top = 0.655
         _outlook(fig, results, top=top, bottom=0.0)
         y = top - 0.02 - 0.02 * (n + 1.8) - 0.07
-    blocks: list[tuple[str, list[str]]] = []
-    items = []
-    for link_id, f in _top_findings(results, 6):
-        actions = f.get("actions") or []
-        actions = [actions] if isinstance(actions, str) else list(actions)
-        text = f"• {link_id}: {f.get('title', '')}."
-        if f.get("detail"):
-            text += f" {f['detail']}"
-        line = _wrap(text, 135)
-        if actions:
-            line += "\n" + _wrap("    Action: " + "; ".join(str(a) for a in actions[:2]), 135)
-        items.append(line)
-    blocks.append(("Findings and recommended actions", items or ["No findings were produced for these hops."]))
-    gaps = []
-    for r in results:
-        s = r.outage.summary if r.outage is not None else None
-        if s and (s.get("no_data_s") or 0) > 0:
-            total = (s.get("observed_s") or 0) + s["no_data_s"]
-            share = 100 * s["no_data_s"] / total
-            gaps.append(f"{r.link.link_id}: {_duration(s['no_data_s'])} without data "
-                        f"({share:.2f} % of the period), excluded from availability." if share < 0.1 else
-                        f"{r.link.link_id}: {_duration(s['no_data_s'])} without data "
-                        f"({share:.1f} % of the period), excluded from availability.")
-        elif r.error:
-            gaps.append(f"{r.link.link_id}: not analysed ({r.error}).")
-    blocks.append(("Data gaps", gaps or ["No gaps in the analysed period."]))
-    method = [
-        "A second below the receiver threshold (or with loss of signal) counts as a severely errored second (SES). "
-        "Unavailable time begins with ten consecutive SES and ends with ten consecutive clear seconds "
-        "(ITU-T G.826 / G.828). Data gaps are never counted as outage.",
-        "Each outage second is attributed to the cause of the fade covering it; the causes add up to the total.",
-        "Coarse logs (15-min min/avg/max statistics, sparse samples) give a lower and an upper bound, never one "
-        "invented number.",
-        "A week is not a year: yearly figures are only an extrapolation. Rain and multipath are seasonal; the "
-        "worst-month conversion (ITU-R P.841) uses parameters not yet checked against the Recommendation.",
-    ]
-    for r in results:
-        if r.outage is not None and r.link.objective_pct is None:
-            method.append("Hops without an availability objective in the links table are not judged against one.")
-            break
-    blocks.append(("Method notes", [_wrap("• " + m, 135) for m in method]))
-    counters = []
-    for r in results:
-        rc = (r.outage.summary.get("radio_counters") or {}) if r.outage is not None else {}
-        for channel, c in sorted(rc.items()):
-            if "radio_uas_count" in c:
-                agree = "agrees with" if c.get("uas_count_within_bounds") else "differs from"
-                counters.append(f"{r.link.link_id} {channel}: the radio counted {c['radio_uas_count']:.0f} "
-                                f"unavailable s; this {agree} the level-based {c['level_based_uas_count_lo']:.0f}"
-                                + ("" if c["level_based_uas_count_lo"] == c["level_based_uas_count_hi"]
-                                   else f"–{c['level_based_uas_count_hi']:.0f}") + " s.")
+    blocks: list[tuple[str, list[str]]] = [("Data gaps", gaps_lines(results))]
+    counters = counters_lines(results)
     if counters:
         blocks.append(("The radios' own counters", [_wrap(line, 135) for line in counters]))
-    blocks.append(("Safety", [_wrap(SAFETY_TEXT.replace("Safety: some", "Some"), 135)]))
+    blocks.append(("Method notes", [_wrap("• " + m, 135) for m in method_notes(results)]))
     _draw_blocks(fig, blocks, top=y, bottom=0.03)
 
 
-_LINE_H = 0.0135
+def _findings_pages(results: Sequence[LinkResult]) -> list[list[tuple[str, list[str]]]]:
+    """The findings per hop cut into pages: a hop's block is never split; the cautions close the last page."""
+    blocks = [(hop, lines) for hop, lines in findings_by_hop(results)]
+    caution = ("Safety for every action above", [_wrap("• " + c, 135) for c in cautions_text(results)])
+    pages: list[list[tuple[str, list[str]]]] = [[]]
+    room = 0.90 - 0.03
+    used = 0.0
+    for block in blocks:
+        h = _block_height(block[1])
+        if pages[-1] and used + h > room:
+            if len(pages) == MAX_FINDINGS_PAGES:
+                pages[-1].append(("More", ["… more hops' findings in findings.json"]))
+                break
+            pages.append([])
+            used = 0.0
+        pages[-1].append(block)
+        used += h
+    if used + _block_height(caution[1]) > room:
+        pages.append([])
+    pages[-1].append(caution)
+    return pages
+
+
+def _page_findings(fig, blocks: list[tuple[str, list[str]]], first: bool) -> None:
+    title = "Findings and recommended actions, per hop" + ("" if first else " (continued)")
+    fig.text(0.06, 0.965, title, fontsize=15, weight="bold", va="top")
+    if first:
+        fig.text(0.06, 0.935, "Up to three findings per hop, most important first; all of them in findings.json.",
+                 fontsize=8, va="top", style="italic")
+    _draw_blocks(fig, blocks, top=0.91, bottom=0.03)
+
+
+def _page_glossary(fig, results: Sequence[LinkResult], state: dict) -> None:
+    fig.text(0.06, 0.965, "Glossary", fontsize=15, weight="bold", va="top")
+    fig.text(0.06, 0.935, "The words of this report, and the trade terms it uses.", fontsize=8, va="top",
+             style="italic")
+    entries = glossary_entries()
+    y = 0.91
+    size = 6.9 if len(entries) > 30 else 7.3
+    for term, text in entries:
+        body = _wrap(text, 105)
+        fig.text(0.06, y, term, fontsize=size, weight="bold", va="top")
+        fig.text(0.30, y, body, fontsize=size, va="top", linespacing=1.2)
+        y -= 0.0125 * (body.count("\n") + 1) + 0.005
+        if y < 0.03:
+            break
+
+
+_LINE_H = 0.0113   # one line of 7.3-pt text at linespacing 1.25 on an A4 page, with a little air
 
 
 def _block_height(lines: list[str]) -> float:
@@ -709,20 +558,17 @@ def _block_height(lines: list[str]) -> float:
 
 
 def _draw_blocks(fig, blocks: list[tuple[str, list[str]]], *, top: float, bottom: float) -> None:
-    """Text blocks from ``top`` down.  The first block (findings) gives way: every later block (data gaps, method,
-    safety) is always printed in full, the findings are cut with a pointer to findings.json."""
-    reserved = sum(_block_height(lines) for _, lines in blocks[1:])
+    """Text blocks from ``top`` down, each a bold title and its lines (callers size the pages; a block that would
+    run past ``bottom`` is cut with a pointer to findings.json)."""
     y = top
-    for index, (title, lines) in enumerate(blocks):
-        limit = bottom + reserved if index == 0 else bottom
+    for title, lines in blocks:
         fig.text(0.06, y, title, fontsize=10, weight="bold", va="top")
         y -= 0.022
         for line in lines:
             n_lines = line.count("\n") + 1
-            if index == 0 and y - _LINE_H * n_lines - 0.02 < limit:
-                fig.text(0.06, y, "… more findings in findings.json", fontsize=7, va="top", style="italic")
-                y -= _LINE_H + 0.004
-                break
+            if y - _LINE_H * n_lines < bottom:
+                fig.text(0.06, y, "… more in findings.json", fontsize=7, va="top", style="italic")
+                return
             fig.text(0.06, y, line, fontsize=7.3, va="top", linespacing=1.25)
             y -= _LINE_H * n_lines + 0.004
         y -= 0.012
@@ -736,10 +582,17 @@ def build_figures(results: Iterable[LinkResult]) -> list:
     results = list(results)
     pages = []
     state: dict = {}
-    for painter in (_page_summary, _page_timelines, _page_findings):
+    for painter in (_page_summary, _page_timelines, _page_method):
         fig = Figure(figsize=PAGE_SIZE_IN)
         painter(fig, results, state)
         pages.append(fig)
+    for number, blocks in enumerate(_findings_pages(results)):
+        fig = Figure(figsize=PAGE_SIZE_IN)
+        _page_findings(fig, blocks, number == 0)
+        pages.append(fig)
+    fig = Figure(figsize=PAGE_SIZE_IN)
+    _page_glossary(fig, results, state)
+    pages.append(fig)
     return pages
 
 

@@ -6,7 +6,7 @@ never the only cue: every cause also has a hatch pattern and a text label.
 """
 from __future__ import annotations
 
-from diag import schema
+from diag import glossary, schema
 
 CAUSE_ORDER = (schema.RAIN, schema.MULTIPATH, schema.REFRACTIVE, schema.LEVEL_SHIFT, schema.SIGNAL_LOSS,
                schema.UNKNOWN)
@@ -32,26 +32,10 @@ CAUSE_HATCHES = {
     schema.NO_DATA: "..",
 }
 
-CAUSE_LABELS = {
-    schema.RAIN: "Rain",
-    schema.MULTIPATH: "Clear-air multipath",
-    schema.REFRACTIVE: "Slow refractive fading",
-    schema.LEVEL_SHIFT: "Level shift / alignment",
-    schema.SIGNAL_LOSS: "Equipment signal loss",
-    schema.UNKNOWN: "Unknown cause",
-    schema.NO_DATA: "No data (gap)",
-}
+CAUSE_LABELS = glossary.CAUSE_LABELS      # labels and two-letter marks are defined once, in diag.glossary
 
 # short marks printed on timelines above each group of fades, so a black-and-white print still names the cause
-CAUSE_MARKS = {
-    schema.RAIN: "RN",
-    schema.MULTIPATH: "MP",
-    schema.REFRACTIVE: "RF",
-    schema.LEVEL_SHIFT: "LS",
-    schema.SIGNAL_LOSS: "SL",
-    schema.UNKNOWN: "?",
-    schema.NO_DATA: "",
-}
+CAUSE_MARKS = glossary.CAUSE_CODES
 
 # neutral colours for lines and text
 INK = "#1A1A1A"
@@ -74,4 +58,4 @@ def cause_hatch(cause: str) -> str:
 
 
 def cause_label(cause: str) -> str:
-    return CAUSE_LABELS.get(cause, str(cause))
+    return glossary.cause_label(cause)

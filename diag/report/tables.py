@@ -15,7 +15,7 @@ from typing import Any, Iterable
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.results import LinkResult
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
@@ -23,7 +23,7 @@ _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
 SUMMARY_EXTRA = ["exact", "below_threshold_s_lo", "below_threshold_s_hi", "unavailable_s_lo", "unavailable_s_hi",
                  "ses_available_s_lo", "ses_available_s_hi", "availability_pct_lo", "availability_pct_hi",
-                 "dominant_cause", "method"]
+                 "main_cause", "method"]
 BY_CAUSE_EXTRA = ["below_threshold_s_lo", "below_threshold_s_hi", "unavailable_s_lo", "unavailable_s_hi"]
 
 __all__ = ["safe_cell", "safe_filename", "events_frame", "outage_summary_frame", "outage_by_cause_frame",
@@ -124,7 +124,8 @@ def _summary_row(result: LinkResult) -> dict:
     row["link_id"] = result.link.link_id
     row["objective_pct"] = result.link.objective_pct if result.link.objective_pct is not None else np.nan
     if result.outage is None:
-        row.update(meets_objective="", exact=False, dominant_cause="", period_start_utc="", period_end_utc="",
+        row.update(meets_objective="", exact=False, main_cause=glossary.NOT_ANALYSED, period_start_utc="",
+                   period_end_utc="",
                    method=f"not analysed: {result.error}" if result.error else "not analysed")
         return row
     for key in row:
@@ -134,7 +135,7 @@ def _summary_row(result: LinkResult) -> dict:
 
 
 def outage_summary_frame(results: Iterable[LinkResult]) -> pd.DataFrame:
-    """One row per hop: ``schema.OUTAGE_SUMMARY_COLUMNS`` then the bounds, dominant cause and method."""
+    """One row per hop: ``schema.OUTAGE_SUMMARY_COLUMNS`` then the bounds, main cause and method."""
     rows = [_summary_row(r) for r in results]
     frame = pd.DataFrame(rows, columns=schema.OUTAGE_SUMMARY_COLUMNS + SUMMARY_EXTRA)
     for column in ("availability_pct", "availability_pct_lo", "availability_pct_hi"):
@@ -224,11 +225,24 @@ def _link_json(result: LinkResult) -> dict:
     return out
 
 
+def glossary_json() -> dict:
+    """The words of the outputs (``diag.glossary``): each term's label and definition, the cause labels and marks,
+    and the machine values of the verdict and main-cause fields, so findings.json explains itself."""
+    return {
+        "terms": {t.key: {"label": t.label, "definition": t.definition} for t in glossary.TERMS.values()},
+        "causes": {c: {"label": glossary.CAUSE_LABELS[c], "mark": glossary.CAUSE_CODES[c]}
+                   for c in list(schema.CAUSES) + [schema.NO_DATA]},
+        "meets_objective_values": {v: glossary.VERDICT_LABELS[v] for v in glossary.VERDICTS},
+        "main_cause_values": sorted(glossary.allowed_main_cause_values()),
+    }
+
+
 def findings_json_bytes(results: Iterable[LinkResult]) -> bytes:
     """``findings.json``: per hop the statistics, cross-polar results, level changes, ranked findings with actions
     and cautions, skipped checks, reader report and the outage accounting (NaN written as null)."""
     from diag import __version__
 
-    doc = {"tool": "diag", "version": __version__, "links": [_link_json(r) for r in results]}
+    doc = {"tool": "diag", "version": __version__, "glossary": glossary_json(),
+           "links": [_link_json(r) for r in results]}
     text = json.dumps(json_safe(doc), indent=2, ensure_ascii=False, allow_nan=False)
     return (text + "\n").encode("utf-8")

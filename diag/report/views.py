@@ -13,15 +13,15 @@ from collections.abc import Iterable, Sequence
 import numpy as np
 import pandas as pd
 
-from diag import schema
+from diag import glossary, schema
 from diag.report.style import CAUSE_LABELS
 from diag.results import GRID_NO_DATA, ChannelSeries, LinkResult
 
 
 def cause_label(cause: str) -> str:
-    """Display label of a cause name, from the shared palette (``diag.report.style``, also used by the PDF)."""
+    """Display label of a cause name (``diag.glossary``, also used by the PDF and the CSV readers' labels)."""
     text = str(cause)
-    return CAUSE_LABELS.get(text, text.replace("_", " ").capitalize() or "None")
+    return CAUSE_LABELS.get(text, text.replace("_", " ").capitalize() or glossary.NO_OUTAGE)
 
 
 def _utc(value) -> pd.Timestamp | None:
@@ -92,7 +92,7 @@ def timeline(series: ChannelSeries, *, start=None, end=None, max_points: int = 2
 
 
 def event_spans(events: pd.DataFrame, *, channel: str | None = None, start=None, end=None,
-                max_spans: int = 300) -> pd.DataFrame:
+                max_spans: int = 300, min_width=None) -> pd.DataFrame:
     """Fade events overlapping ``[start, end]`` (clipped to it), for shading the timeline by cause.
 
     When more than ``max_spans`` events overlap the window, the longest ``max_spans`` are kept (a week of 1-s
@@ -126,6 +126,12 @@ def event_spans(events: pd.DataFrame, *, channel: str | None = None, start=None,
         out["end_utc"] = out["end_utc"].clip(upper=_utc(end))
     if len(out) > max_spans:
         out = out.nlargest(max_spans, "duration_s", keep="first").sort_values("start_utc")
+    if min_width is not None and len(out):
+        # a span narrower than a screen pixel would vanish: draw it at least ``min_width`` wide (centred)
+        width = out["end_utc"] - out["start_utc"]
+        pad = ((pd.Timedelta(min_width) - width) / 2).clip(lower=pd.Timedelta(0))
+        out["start_utc"] = out["start_utc"] - pad
+        out["end_utc"] = out["end_utc"] + pad
     out["cause_label"] = out["cause"].map(cause_label)
     return out[columns].reset_index(drop=True)
 
@@ -186,23 +192,17 @@ def outage_minutes_by_cause(result: LinkResult, *, include_zero: bool = False) -
     return out[columns].reset_index(drop=True)
 
 
-def dominant_cause(result: LinkResult) -> str | None:
-    """The outage module's dominant cause when it names one; else the cause with the most unavailable time, else
-    the most time below threshold, else the most fade events (upper bounds for coarse logs).  None when the hop had
-    no fade event at all."""
+def main_cause(result: LinkResult) -> str:
+    """The hop's main cause (``diag.glossary``): the cause with the most outage (unavailable time, upper bound for
+    coarse logs), as the outage module names it; ``glossary.NO_OUTAGE`` when the hop had no unavailable time."""
     summary = result.outage.summary if result.outage is not None else {}
-    named = summary.get("dominant_cause")
-    if named and str(named) in schema.CAUSES:
+    named = summary.get("main_cause")
+    if named and (str(named) in schema.CAUSES or str(named) == glossary.NO_OUTAGE):
         return str(named)
     table = outage_minutes_by_cause(result)
-    if len(table):
-        for column in ("unavailable_hi_min", "below_threshold_hi_min", "events"):
-            if table[column].max() > 0:
-                return str(table.loc[table[column].idxmax(), "cause"])
-    events = result.events
-    if events is not None and len(events):
-        return str(events["cause"].astype(str).value_counts().index[0])
-    return None
+    if len(table) and table["unavailable_hi_min"].max() > 0:
+        return str(table.loc[table["unavailable_hi_min"].idxmax(), "cause"])
+    return glossary.NO_OUTAGE
 
 
 MEETS = {"yes": True, "true": True, "no": False, "false": False}
@@ -225,12 +225,9 @@ def hop_overview(result: LinkResult) -> dict:
         low, high = _bounds(summary, f"{key}_s")
         return (None if low is None else low / 60.0, None if high is None else high / 60.0)
 
-    cause = dominant_cause(result)
+    cause = main_cause(result)
     below = minutes("below_threshold")
-    if cause and below[1] == 0:
-        label = "no outage"          # fades happened, none reached the threshold: no cause "cost" anything
-    else:
-        label = cause_label(cause) if cause else "no fades"
+    label = glossary.main_cause_label(cause)
     return {
         "link_id": result.link.link_id,
         "period_start_utc": summary.get("period_start_utc"),
@@ -246,8 +243,8 @@ def hop_overview(result: LinkResult) -> dict:
         "below_threshold_min": below,
         "unavailable_min": minutes("unavailable"),
         "events": 0 if result.events is None else int(len(result.events)),
-        "dominant_cause": cause,
-        "dominant_cause_label": label,
+        "main_cause": cause,
+        "main_cause_label": label,
         "error": result.error,
     }
 
@@ -262,26 +259,53 @@ def range_text(pair: tuple[float | None, float | None], fmt: str = "{:.1f}", uni
     return f"{fmt.format(low)}–{fmt.format(high)}{unit}"
 
 
+def duration_text(seconds: float | None) -> str:
+    """A duration as h:mm:ss (``glossary``'s rule for every duration on screen); days as "3 d 04:05:06"."""
+    if seconds is None or not math.isfinite(float(seconds)):
+        return "–"
+    total = int(round(float(seconds)))
+    sign = "-" if total < 0 else ""
+    total = abs(total)
+    days, rest = divmod(total, 86400)
+    h, rest = divmod(rest, 3600)
+    m, s = divmod(rest, 60)
+    if days:
+        return f"{sign}{days} d {h:02d}:{m:02d}:{s:02d}"
+    return f"{sign}{h}:{m:02d}:{s:02d}"
+
+
+def duration_range_text(pair_min: tuple[float | None, float | None]) -> str:
+    """Bounds in minutes as h:mm:ss, "0:00:00" exact, "0:00:00 – 0:15:00" for bounds."""
+    low, high = pair_min
+    if low is None and high is None:
+        return "–"
+    if low is None or high is None or low == high:
+        return duration_text(60.0 * (low if low is not None else high))
+    return f"{duration_text(60.0 * low)} – {duration_text(60.0 * high)}"
+
+
+NETWORK_COLUMNS = ["Hop", "Availability [%]", "Objective [%]", glossary.TERMS["meets_objective"].label,
+                   glossary.OUTAGE + " h:mm:ss", glossary.BELOW_THRESHOLD + " h:mm:ss", "Fade events",
+                   glossary.MAIN_CAUSE]
+
+
 def network_table(results: Sequence[LinkResult]) -> pd.DataFrame:
-    """One row per hop for the network list, worst availability (lower bound) first, failed hops last."""
+    """One row per hop for the network list, worst availability (lower bound) first, failed hops last.  Labels
+    and verdict words come from ``diag.glossary``; durations as h:mm:ss."""
     rows = []
     for result in results:
         item = hop_overview(result)
-        rows.append({
-            "Hop": item["link_id"],
-            "Availability %": range_text(item["availability_pct"], "{:.4f}"),
-            "Objective %": item["objective_pct"],
-            "Meets objective": {True: "yes", False: "NO"}.get(item["meets_objective"],
-                                                              item["meets_text"] or "–"),
-            "Unavailable min": range_text(item["unavailable_min"]),
-            "Below threshold min": range_text(item["below_threshold_min"]),
-            "Fade events": item["events"],
-            "Main cause": item["dominant_cause_label"] if not item["error"] else f"not analysed: {item['error']}",
-            "_sort": item["availability_pct"][0],
-        })
-    table = pd.DataFrame(rows, columns=["Hop", "Availability %", "Objective %", "Meets objective",
-                                        "Unavailable min", "Below threshold min", "Fade events", "Main cause",
-                                        "_sort"])
+        rows.append(dict(zip(NETWORK_COLUMNS, [
+            item["link_id"],
+            range_text(item["availability_pct"], "{:.4f}"),
+            item["objective_pct"],
+            glossary.verdict_label(item["meets_text"]),
+            duration_range_text(item["unavailable_min"]),
+            duration_range_text(item["below_threshold_min"]),
+            item["events"],
+            item["main_cause_label"] if not item["error"] else f"{glossary.NOT_ANALYSED}: {item['error']}",
+        ]), _sort=item["availability_pct"][0]))
+    table = pd.DataFrame(rows, columns=NETWORK_COLUMNS + ["_sort"])
     table = table.sort_values("_sort", na_position="last", kind="stable")
     return table.drop(columns="_sort").reset_index(drop=True)
 
@@ -301,7 +325,7 @@ def top_findings(result: LinkResult, limit: int = 5) -> list[dict]:
 
 
 # --- event list -------------------------------------------------------------------------------------------------
-EVENT_TABLE_COLUMNS = ["Start (UTC)", "End (UTC)", "Duration s", "Peak fade dB", "Cause", "Confidence", "Channel",
+EVENT_TABLE_COLUMNS = ["Start (UTC)", "End (UTC)", "Duration", "Deepest fade [dB]", "Cause", "Confidence", "Channel",
                        "Evidence"]
 
 
@@ -322,8 +346,8 @@ def event_table(events: pd.DataFrame, *, causes: Iterable[str] | None = None,
     out = pd.DataFrame({
         "Start (UTC)": pd.to_datetime(frame["start_utc"], utc=True),
         "End (UTC)": pd.to_datetime(frame["end_utc"], utc=True),
-        "Duration s": pd.to_numeric(frame["duration_s"], errors="coerce"),
-        "Peak fade dB": peak,
+        "Duration": pd.to_numeric(frame["duration_s"], errors="coerce").map(duration_text),
+        "Deepest fade [dB]": peak,
         "Cause": frame["cause"].astype(str).map(cause_label),
         "Confidence": confidence,
         "Channel": frame["channel"].astype(str) if "channel" in frame else "",
@@ -400,35 +424,122 @@ def hourly_fading(channel_statistics: dict) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=columns)
 
 
+def format_value(key: str, value) -> str:
+    """One figure as a person reads it: unit from the key's suffix, sensible rounding, durations h:mm:ss, no
+    exponent notation, yes/no for flags (``diag.glossary`` labels the key)."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "–"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(format_value(key, v) for v in value)
+    if not isinstance(value, (int, float)):
+        return str(value)
+    v = float(value)
+    if key.endswith("_s") and not key.endswith(("_per_s",)):
+        return duration_text(v) if abs(v) >= 60 else f"{v:.3g} s"
+    unit = next((u for suffix, u in (("_dbm", " dBm"), ("_db_per_week", " dB/week"), ("_db", " dB"),
+                                      ("_deg", "°"), ("_hz", " Hz"), ("_pct", " %"), ("_percent", " %"),
+                                      ("_mmh", " mm/h"), ("_ghz", " GHz"), ("_km", " km"))
+                 if key.endswith(suffix)), "")
+    if isinstance(value, int) or v.is_integer() and abs(v) >= 100:
+        return f"{v:,.0f}{unit}"
+    if unit in (" dB", " dBm", "°", " dB/week"):
+        return f"{v:.1f}{unit}" if abs(v) >= 0.1 or v == 0 else f"{v:.2f}{unit}"
+    if abs(v) >= 1000:
+        return f"{v:,.0f}{unit}"
+    if abs(v) >= 0.001 or v == 0:
+        return f"{v:.3g}{unit}"
+    return f"{v:.2e}".replace("e-0", " × 10^-").replace("e-", " × 10^-") + unit
+
+
 def key_figures(data, *, skip: Iterable[str] = (), max_list: int = 6) -> pd.DataFrame:
-    """A nested JSON-able dict (statistics, cross-polar results) flattened to ``Item, Value`` rows for display.
+    """A nested JSON-able dict (statistics, cross-polar results) flattened to ``Figure, Value`` rows for display:
+    each key's human label and unit (``diag.glossary.field_label``), values rounded (:func:`format_value`).
 
     Nested keys are joined with " › "; long lists (curves, segment lists) are summarised by their length instead
-    of being printed.
+    of being printed (the per-level crossing table is :func:`crossing_table`).
     """
     skip = set(skip)
     rows: list[dict] = []
 
-    def walk(prefix: str, value) -> None:
+    def walk(prefix: str, key: str, value) -> None:
+        label = glossary.field_label(key) if key else ""
+        name = f"{prefix} › {label}" if prefix and label else (label or prefix)
         if isinstance(value, dict):
-            for key, item in value.items():
-                if key in skip:
+            for sub, item in value.items():
+                if sub in skip:
                     continue
-                walk(f"{prefix} › {key}" if prefix else str(key), item)
+                walk(name, str(sub), item)
         elif isinstance(value, (list, tuple)) and (len(value) > max_list or any(isinstance(v, (dict, list))
                                                                                   for v in value)):
-            rows.append({"Item": prefix.replace("_", " "), "Value": f"{len(value)} entries"})
+            rows.append({"Figure": name, "Value": f"{len(value)} values"})
         else:
-            if isinstance(value, float):
-                text = f"{value:.4g}"
-            elif isinstance(value, (list, tuple)):
-                text = ", ".join(f"{v:.4g}" if isinstance(v, float) else str(v) for v in value)
-            else:
-                text = "–" if value is None else str(value)
-            rows.append({"Item": prefix.replace("_", " "), "Value": text})
+            rows.append({"Figure": name, "Value": format_value(key, value)})
 
-    walk("", data)
-    return pd.DataFrame(rows, columns=["Item", "Value"])
+    for key, value in (data or {}).items():
+        if key not in skip:
+            walk("", str(key), value)
+    return pd.DataFrame(rows, columns=["Figure", "Value"])
+
+
+def crossing_table(lcr_afd: dict) -> pd.DataFrame:
+    """Level-crossing rate and average fade duration per level (``diag.analysis.fading_stats``' ``lcr_afd``), one
+    row per level with the Rayleigh and Rice references beside the measurement, and the per-level sampling note
+    when the statistics module gives one (``undersampled`` list)."""
+    levels = lcr_afd.get("level_db") or []
+    columns = {"Level [dB]": levels,
+               "Crossings": lcr_afd.get("crossings"),
+               "LCR measured [1/h]": lcr_afd.get("crossing_rate_hz"),
+               "LCR Rayleigh [1/h]": lcr_afd.get("rayleigh_crossing_rate_hz"),
+               "LCR Rice [1/h]": lcr_afd.get("rice_crossing_rate_hz"),
+               "AFD measured [s]": lcr_afd.get("afd_s"),
+               "AFD Rayleigh [s]": lcr_afd.get("rayleigh_afd_s"),
+               "AFD Rice [s]": lcr_afd.get("rice_afd_s")}
+    out = pd.DataFrame({k: v for k, v in columns.items() if isinstance(v, list) and len(v) == len(levels)})
+    for column in [c for c in out.columns if "[1/h]" in c]:
+        out[column] = pd.to_numeric(out[column], errors="coerce") * 3600.0
+    notes = lcr_afd.get("undersampled")
+    if isinstance(notes, list) and len(notes) == len(levels):
+        out["Sampling"] = ["too coarse: rate and duration biased" if n else "adequate" for n in notes]
+    return out
+
+
+EPISODE_GAP_S = 1800.0   # events of one cause closer than this form one episode (a night of multipath, a storm)
+
+
+def episodes(events: pd.DataFrame, *, channel: str | None = None, gap_s: float = EPISODE_GAP_S) -> pd.DataFrame:
+    """Fade events grouped into episodes: events of the same cause (and channel) less than ``gap_s`` apart.
+
+    A night of clear-air multipath holds hundreds of short events; a person reads it as one episode with a count.
+    Columns: ``start_utc, end_utc, cause, cause_label, channel, events, peak_fade_db, faded_s`` (faded_s: the
+    summed duration of the events), sorted by start."""
+    columns = ["start_utc", "end_utc", "cause", "cause_label", "channel", "events", "peak_fade_db", "faded_s"]
+    if events is None or len(events) == 0:
+        return pd.DataFrame({name: [] for name in columns})
+    frame = events
+    if channel is not None and "channel" in frame:
+        frame = frame[frame["channel"].astype(str) == str(channel)]
+    if len(frame) == 0:
+        return pd.DataFrame({name: [] for name in columns})
+    work = pd.DataFrame({
+        "start_utc": pd.to_datetime(frame["start_utc"], utc=True).to_numpy(),
+        "end_utc": pd.to_datetime(frame["end_utc"], utc=True).to_numpy(),
+        "cause": frame["cause"].astype(str).to_numpy(),
+        "channel": frame["channel"].astype(str).to_numpy() if "channel" in frame else "",
+        "peak_fade_db": pd.to_numeric(frame["peak_fade_db"], errors="coerce").to_numpy(),
+        "duration_s": pd.to_numeric(frame["duration_s"], errors="coerce").to_numpy(),
+    }).sort_values(["cause", "channel", "start_utc"], kind="stable")
+    gap = pd.Timedelta(seconds=gap_s)
+    group_end = work.groupby(["cause", "channel"], sort=False)["end_utc"].transform(lambda e: e.cummax().shift())
+    new = (work["start_utc"] - group_end > gap) | group_end.isna()
+    work["episode"] = new.cumsum()
+    out = work.groupby("episode", sort=False).agg(
+        start_utc=("start_utc", "min"), end_utc=("end_utc", "max"), cause=("cause", "first"),
+        channel=("channel", "first"), events=("cause", "size"), peak_fade_db=("peak_fade_db", "max"),
+        faded_s=("duration_s", "sum"))
+    out["cause_label"] = out["cause"].map(cause_label)
+    return out.sort_values("start_utc", kind="stable")[columns].reset_index(drop=True)
 
 
 # --- reader report ----------------------------------------------------------------------------------------------

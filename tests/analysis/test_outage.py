@@ -77,7 +77,7 @@ def test_hand_built_counts_and_causes():
     assert bc.loc["multipath", "below_threshold_s"] == 5 and bc.loc["multipath", "unavailable_s"] == 0
     assert bc.loc["unknown", "below_threshold_s"] == 3
     check_adds_up(res)
-    assert s["dominant_cause"] == "rain"
+    assert s["main_cause"] == "rain"      # was "dominant_cause" (issue 16: the glossary's "main cause")
 
 
 def test_threshold_is_strict_and_signal_lost_counts_as_below():
@@ -141,16 +141,49 @@ def test_unavailable_seconds_without_event_take_the_period_cause():
     check_adds_up(res)
 
 
-def test_link_level_any_channel_rule():
+def test_link_level_union_of_channel_unavailable_times():
+    # ITU-T G.826 (12/2002) Annex A, A.2: a bidirectional path is unavailable when either direction is, each
+    # direction with its own ten-second rule.  6 SES on H then 5 SES on V: neither direction has ten consecutive
+    # SES, so nothing is unavailable and the 11 seconds are SES in available time.  (Until issue 16 the rule ran on
+    # the combined "any channel" record and gave 11 s unavailable here.)
     n = 120
     h = np.full(n, -40.0)
     v = np.full(n, -40.0)
-    h[10:16] = -80.0                         # 6 SES on H
-    v[16:21] = -80.0                         # then 5 SES on V: 11 consecutive at hop level
+    h[10:16] = -80.0
+    v[16:21] = -80.0
     res = outage.account_link(result_for([series_1s(h, channel="H"), series_1s(v, channel="V")]))
     per = res.per_channel.set_index("channel")
     assert per.loc["H", "unavailable_s"] == 0 and per.loc["V", "unavailable_s"] == 0
-    assert res.summary["below_threshold_s"] == 11 and res.summary["unavailable_s"] == 11
+    assert res.summary["below_threshold_s"] == 11 and res.summary["unavailable_s"] == 0
+    assert res.summary["ses_available_s"] == 11
+    check_adds_up(res)
+    # one direction with 12 consecutive SES: the hop is unavailable for them (union), whatever the other does
+    v[40:52] = -80.0
+    res = outage.account_link(result_for([series_1s(h, channel="H"), series_1s(v, channel="V")]))
+    assert res.summary["unavailable_s"] == 12 and res.summary["ses_available_s"] == 11
+    check_adds_up(res)
+
+
+def test_interleaved_5s_bursts_in_two_directions_are_available_time():
+    # the case of issue 16: SES bursts of 5 s alternating between the two directions for 300 s.  Per G.826 Annex A
+    # (each direction's ten-second rule, union of the unavailable times) the hop has 0 s unavailable and 300 SES in
+    # available time; the old "any direction is SES" record would have called all 300 s unavailable.
+    n = 400
+    a = np.full(n, -40.0)
+    b = np.full(n, -40.0)
+    t = np.arange(n)
+    burst = (t >= 50) & (t < 350)
+    a[burst & (((t - 50) // 5) % 2 == 0)] = -80.0
+    b[burst & (((t - 50) // 5) % 2 == 1)] = -80.0
+    assert np.count_nonzero(a < -70) == 150 and np.count_nonzero(b < -70) == 150
+    res = outage.account_link(result_for([series_1s(a, channel="A>B"), series_1s(b, channel="B>A")]))
+    s = res.summary
+    assert s["below_threshold_s"] == 300
+    assert s["unavailable_s"] == 0
+    assert s["ses_available_s"] == 300
+    assert s["availability_pct"] == 100.0
+    # the same answer from the published rule itself (diag.models.g826)
+    assert not g826.bidirectional_unavailable_mask(a < -70, b < -70).any()
     check_adds_up(res)
 
 

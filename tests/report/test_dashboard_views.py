@@ -140,7 +140,7 @@ def test_event_table_filters_by_cause_and_depth():
     ])
     assert len(views.event_table(events)) == 3
     only = views.event_table(events, causes=["multipath"], min_peak_fade_db=10.0)
-    assert only["Peak fade dB"].tolist() == [18.0]
+    assert only["Deepest fade [dB]"].tolist() == [18.0]       # "Peak fade dB" before issue 16 (glossary label)
     assert only["Cause"].tolist() == [views.cause_label("multipath")]
     assert list(only.columns) == views.EVENT_TABLE_COLUMNS
     assert len(views.event_table(events.iloc[:0])) == 0
@@ -177,16 +177,43 @@ def test_exceedance_curves_keep_measured_theory_and_predictions():
     assert len(views.exceedance_curves({})) == 0
 
 
-def test_key_figures_flatten_nested_results():
-    data = {"rice_k": {"k_factor_db": 3.21, "n_samples": 500}, "curve": list(range(50)), "skipped": None,
-            "note": "drop me", "range": [1.0, 2.5]}
+def test_key_figures_flatten_nested_results_with_human_labels_and_units():
+    # issue 16: no raw keys ("k moments db", "afd s"), units shown, no exponent notation, durations h:mm:ss
+    data = {"rice_k": {"k_moments_db": 3.2914, "samples": 176341}, "curve": list(range(50)), "skipped": None,
+            "note": "drop me", "range_db": [1.0, 2.5], "observed_s": 176341.0, "imbalance_flag": False,
+            "afd_s": 8.498}
     out = views.key_figures(data, skip=("note",))
-    table = dict(zip(out["Item"], out["Value"]))
-    assert table["rice k › k factor db"] == "3.21"
-    assert table["curve"] == "50 entries"
-    assert table["range"] == "1, 2.5"
-    assert table["skipped"] == "–"
-    assert "note" not in table
+    table = dict(zip(out["Figure"], out["Value"]))
+    assert table["Rice k › Rice K, moment estimate [dB]"] == "3.3 dB"
+    assert table["Rice k › Samples"] == "176,341"
+    assert table["Curve"] == "50 values"
+    assert table["Range [dB]"] == "1.0 dB, 2.5 dB"
+    assert table["Skipped"] == "–"
+    assert table["Observed time"] == "2 d 00:59:01"
+    assert table["H/V levels differ by more than the flag"] == "no"
+    assert table["Average fade duration [s]"] == "8.5 s"
+    assert "note" not in " ".join(table) and not any("_" in k for k in table)
+    assert not any("e+" in v for v in table.values())
+
+
+def test_crossing_table_one_row_per_level():
+    lcr = {"level_db": [-5.0, -10.0], "crossings": [10, 4], "crossing_rate_hz": [0.01, 0.004],
+           "rayleigh_crossing_rate_hz": [0.012, 0.005], "afd_s": [8.0, 4.0], "rayleigh_afd_s": [9.0, 5.0],
+           "undersampled": [False, True]}
+    out = views.crossing_table(lcr)
+    assert out["LCR measured [1/h]"].tolist() == pytest.approx([36.0, 14.4])
+    assert out["Sampling"].tolist() == ["adequate", "too coarse: rate and duration biased"]
+
+
+def test_episodes_group_short_events_of_one_cause():
+    # 30 one-second multipath fades a minute apart, then a rain fade 3 h later: two episodes, with counts
+    rows = [(f"2026-03-02 00:{m:02d}:00", f"2026-03-02 00:{m:02d}:01", "multipath", 5.0 + m / 10) for m in range(30)]
+    rows.append(("2026-03-02 03:40:00", "2026-03-02 04:00:00", "rain", 12.0))
+    out = views.episodes(_events(rows))
+    assert out["events"].tolist() == [30, 1]
+    assert out["cause"].tolist() == ["multipath", "rain"]
+    assert out.loc[0, "peak_fade_db"] == pytest.approx(7.9) and out.loc[0, "faded_s"] == pytest.approx(30.0)
+    assert views.episodes(_events(rows), gap_s=30.0)["events"].max() == 1
 
 
 # --- overview -------------------------------------------------------------------------------------------------------
@@ -239,30 +266,34 @@ def test_hop_overview_reads_the_summary():
     hop = views.hop_overview(result)
     assert hop["availability_pct"] == (99.75, 99.75) and hop["meets_objective"] is False
     assert hop["unavailable_min"] == (25.0, 25.0) and hop["below_threshold_min"] == (40.0, 40.0)
-    assert hop["dominant_cause"] == "rain" and hop["dominant_cause_label"] == views.cause_label("rain")
+    assert hop["main_cause"] == "rain" and hop["main_cause_label"] == views.cause_label("rain")
     assert views.range_text(hop["availability_pct"], "{:.4f}", " %") == "99.7500 %"
     assert views.no_data_share(result) == pytest.approx(4800.0 / 604800.0)
     table = views.network_table([_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS), result, _result()])
     assert table["Hop"].tolist() == ["HOP-1"] * 3
-    assert table["Availability %"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
-    assert table["Meets objective"].tolist()[:2] == ["undetermined", "NO"]
+    assert table["Availability [%]"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
+    # verdict words and durations from diag.glossary (issue 16: one vocabulary; "NO" became "NOT met", minutes
+    # became h:mm:ss)
+    assert table["Objective met"].tolist()[:2] == ["undetermined", "NOT met"]
+    assert table["Outage (unavailable time) h:mm:ss"].tolist()[:2] == ["0:00:00 – 1:00:00", "0:25:00"]
+    assert views.duration_text(376200) == "4 d 08:30:00" and views.duration_text(59.6) == "0:01:00"
 
 
-def test_dominant_cause_prefers_the_outage_modules_verdict():
-    named = dict(SUMMARY, dominant_cause="multipath")
-    assert views.dominant_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
-    # fades that never reached the threshold cost nothing: the headline says so instead of naming a cause
-    quiet = dict(SUMMARY, below_threshold_s=0.0, unavailable_s=0.0, availability_pct=100.0, dominant_cause="rain")
-    assert views.hop_overview(_result(by_cause=BY_CAUSE, summary=quiet))["dominant_cause_label"] == "no outage"
+def test_main_cause_is_the_outage_modules_and_no_outage_without_unavailable_time():
+    # issue 16: one word for a hop without outage everywhere ("no outage", diag.glossary), whatever its fades
+    named = dict(SUMMARY, main_cause="multipath")
+    assert views.main_cause(_result(by_cause=BY_CAUSE, summary=named)) == "multipath"
+    quiet = dict(SUMMARY, below_threshold_s=0.0, unavailable_s=0.0, availability_pct=100.0, main_cause="no outage")
+    assert views.hop_overview(_result(by_cause=BY_CAUSE, summary=quiet))["main_cause_label"] == "no outage"
 
 
-def test_dominant_cause_falls_back_to_event_count():
+def test_main_cause_without_a_named_one_is_the_most_unavailable_time():
     events = _events([("2026-03-02 00:00:00", "2026-03-02 00:00:05", "multipath", 8.0)] * 2
                      + [("2026-03-02 03:00:00", "2026-03-02 03:10:00", "rain", 9.0)])
     zero = BY_CAUSE.assign(below_threshold_s=0.0, unavailable_s=0.0, events=0)
-    assert views.dominant_cause(_result(events=events, by_cause=zero, summary=SUMMARY)) == "multipath"
-    assert views.dominant_cause(_result()) is None
-    assert views.hop_overview(_result())["dominant_cause_label"] == "no fades"
+    assert views.main_cause(_result(events=events, by_cause=zero, summary=SUMMARY)) == "no outage"
+    assert views.main_cause(_result(by_cause=BY_CAUSE, summary=SUMMARY)) == "rain"
+    assert views.hop_overview(_result())["main_cause_label"] == "no outage"
 
 
 def test_top_findings_normalises_keys():

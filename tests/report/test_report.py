@@ -155,8 +155,14 @@ def test_findings_json_is_strict_json(results):
 def test_pdf_pages_and_availability_figures(written, results):
     out, _, _ = written
     reader = pypdf.PdfReader(str(out / "report.pdf"))
-    assert len(reader.pages) == 3
+    # summary, timelines, fade depths and method, findings per hop (one page here), glossary (issue 16 added the
+    # last two; the report had 3 pages before)
+    assert len(reader.pages) == 5
     text = " ".join(" ".join(page.extract_text().split()) for page in reader.pages)
+    glossary_page = " ".join(reader.pages[-1].extract_text().split())
+    for term in ("XPD", "SES", "G.826", "A0.01", "P.530", "Fade margin", "Outage (unavailable time)"):
+        assert term in glossary_page, term
+    assert "not yet checked" not in text
     for r in results:
         figure = format_availability(r.outage.summary)
         assert figure != "n/a"
@@ -241,7 +247,7 @@ def test_hop_that_could_not_be_analysed_is_listed_not_dropped(tmp_path):
     assert summary.loc[0, "link_id"] == "BROKEN" and "cannot read broken.csv" in summary.loc[0, "method"]
     assert pd.read_csv(tmp_path / "events.csv").empty
     reader = pypdf.PdfReader(str(tmp_path / "report.pdf"))
-    assert len(reader.pages) == 3 and "not analysed" in reader.pages[0].extract_text()
+    assert len(reader.pages) == 5 and "not analysed" in reader.pages[0].extract_text()   # 3 before issue 16
 
 
 @pytest.mark.slow

@@ -2,7 +2,8 @@
 
 Playwright (from PyPI) drives /usr/bin/chromium through its executable path; it never downloads a browser of its
 own.  The test opens the page, waits for the demo network's overview, switches to "My files", uploads one demo
-log and the demo links table, waits for that hop's overview, and saves screenshots under test-output/.  Every
+log and the demo links table, waits for that hop's overview, and saves screenshots under test-output/ (every tab of
+three demo hops, for a person to look at).  Every
 wait is bounded; the server is stopped at the end whatever happens.
 
 Skipped (with the reason) only when /usr/bin/chromium is absent and the CI variable is not set; under CI it must
@@ -67,6 +68,35 @@ def _settle(page) -> None:
     expect(page.locator('[data-testid="stStatusWidget"]')).to_have_count(0, timeout=PAGE_WAIT_MS)
 
 
+TABS = ("Overview", "Level timeline", "Fade events", "Fading statistics", "Cross-polar", "Input check")
+
+
+def _screenshot_every_tab(page, tag: str) -> None:
+    """A full-page PNG of every tab of the hop on screen (test-output/, git-ignored), for a person to look at."""
+    from playwright.sync_api import expect
+
+    for tab in TABS:
+        page.get_by_role("tab", name=tab).click()
+        _settle(page)
+        expect(page.get_by_role("tab", name=tab, selected=True)).to_be_visible()
+        page.wait_for_timeout(700)          # charts draw after the run ends
+        assert page.locator('[data-testid="stException"]').count() == 0
+        name = tab.lower().replace(" ", "_").replace("-", "_")
+        page.screenshot(path=str(OUT / f"tab_{tag}_{name}.png"), full_page=True)
+    page.get_by_role("tab", name=TABS[0]).click()
+
+
+def _pick_hop(page, hop: str) -> None:
+    """Choose ``hop`` in the page's main Hop selector."""
+    from playwright.sync_api import expect
+
+    box = page.locator('[data-testid="stSelectbox"]').filter(has=page.get_by_text("Hop", exact=True)).last
+    box.click()
+    page.get_by_role("option", name=hop, exact=True).click()
+    expect(page.locator("h3", has_text=f"Hop {hop}")).to_be_visible(timeout=PAGE_WAIT_MS)
+    _settle(page)
+
+
 @pytest.fixture()
 def server():
     if not CHROMIUM.exists():
@@ -119,6 +149,10 @@ def test_dashboard_in_chromium(server):
             _settle(page)
             assert page.locator('[data-testid="stException"]').count() == 0
             page.screenshot(path=str(OUT / "dashboard_demo.png"))
+            _screenshot_every_tab(page, "demo")
+            for hop in ("HM-RIDGE-LAKESIDE", "HM-BEACON-MILL"):      # 1-s multipath hop; 15-min dual-pol hop
+                _pick_hop(page, hop)
+                _screenshot_every_tab(page, hop)
 
             # 2. upload one demo log and the links table: that hop's overview appears
             page.get_by_text("My files", exact=True).click()

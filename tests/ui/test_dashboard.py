@@ -88,8 +88,9 @@ def test_upload_with_links_table_produces_the_overview():
     assert at.number_input(key="f_TESTHOP").value == 23.0
     assert at.number_input(key="t_TESTHOP").value == -70.0
     # the 20-min fade at -80 dBm is below the -70 dBm threshold: the overview reports time below threshold
-    below = next(m for m in at.metric if m.label == "Time below threshold")
-    assert below.value not in ("–", "0.0 min")
+    # (labels from diag.glossary, durations h:mm:ss since issue 16)
+    below = next(m for m in at.metric if m.label == "Time below threshold h:mm:ss")
+    assert below.value not in ("–", "0:00:00")
 
 
 def test_upload_without_links_table_asks_for_parameters():
@@ -186,7 +187,8 @@ def test_page_never_evaluates_or_unpickles():
     # import no pickle-like loader (common practice for handling untrusted files).
     banned_calls = {"eval", "exec", "compile", "__import__"}
     banned_modules = {"pickle", "marshal", "shelve", "dill", "cloudpickle", "joblib"}
-    for path in (ROOT / "dashboard.py", ROOT / "diag" / "report" / "views.py"):
+    pages = sorted((ROOT / "diag" / "ui").glob("*.py"))        # the page's modules since issue 16
+    for path in (ROOT / "dashboard.py", ROOT / "diag" / "report" / "views.py", *pages):
         tree = ast.parse(path.read_text())
         for node in ast.walk(tree):
             if isinstance(node, ast.Call) and isinstance(node.func, ast.Name):
@@ -196,7 +198,7 @@ def test_page_never_evaluates_or_unpickles():
             if isinstance(node, ast.ImportFrom):
                 assert (node.module or "").split(".")[0] not in banned_modules, path.name
             if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute):
-                assert node.func.attr not in {"read_pickle", "loads"} or path.name == "dashboard.py" and \
+                assert node.func.attr not in {"read_pickle", "loads"} or path.name == "app.py" and \
                     node.func.attr == "loads" and ast.unparse(node.func.value) == "json", ast.unparse(node)
 
 
@@ -208,3 +210,39 @@ def test_config_limits_uploads_and_binds_to_loopback():
     assert 1 <= config["server"]["maxUploadSize"] <= 200
     assert config["browser"]["gatherUsageStats"] is False
     assert config["server"]["headless"] is True
+
+
+def test_hop_selectors_follow_each_other():
+    # issue 16: the parameters' Hop selector and the results' Hop selector used to be independent
+    at = _app().run()
+    hops = at.selectbox(key="hop").options
+    assert len(hops) > 2
+    at.selectbox(key="hop").set_value(hops[2]).run()
+    _no_failure(at)
+    assert at.selectbox(key="param_hop").value == hops[2]
+    at.selectbox(key="param_hop").set_value(hops[1]).run()
+    _no_failure(at)
+    assert at.selectbox(key="hop").value == hops[1]
+    assert any(m.value == f"### Hop {hops[1]}" for m in at.markdown)
+
+
+def test_spreadsheet_upload_says_why_in_words():
+    # issue 16: an .xlsx upload showed only a red icon; the reason was on hover
+    at = _app()
+    at.session_state["mode"] = "My files"
+    at.run()
+    at.file_uploader(key="logs").set_value(("week.xlsx", b"PK\x03\x04 not a csv", "application/octet-stream"))
+    at.run()
+    _no_failure(at)
+    assert any("week.xlsx" in e.value and "save the sheet as CSV" in e.value for e in at.error)
+
+
+def test_page_icon_is_drawn_locally():
+    # issue 16: the icon was fetched from an outside host and failed offline; now an image made in-process
+    from PIL import Image
+
+    from diag.ui.app import page_icon
+
+    assert isinstance(page_icon(), Image.Image)
+    source = (ROOT / "diag" / "ui" / "app.py").read_text()
+    assert "page_icon=page_icon()" in source and "http" not in source.split("def page_icon")[1].split("def ")[0]
