@@ -2,10 +2,10 @@
 
 Scenarios come from :func:`diag.sim.simulate.random_scenario`.  The rules in :mod:`diag.analysis.classify` were tuned
 ONLY on
-the seeds in ``TUNING_SEEDS``; the figures reported in the README come from ``EVALUATION_SEEDS`` (disjoint, never
+the seeds in ``TUNING_SEEDS``; the figures in docs/validation.md §3 come from ``EVALUATION_SEEDS`` (disjoint, never
 looked at while tuning).  Run::
 
-    .venv/bin/python bench/bench_accuracy.py            # evaluation seeds (the README table)
+    .venv/bin/python bench/bench_accuracy.py            # evaluation seeds (docs/validation.md §3)
     .venv/bin/python bench/bench_accuracy.py --tuning   # tuning seeds
 
 Measures, per run:

@@ -8,7 +8,7 @@ Entry point :func:`link_statistics` (fills ``LinkResult.statistics``).  Per chan
   bound and the interval minimum an upper bound on the time fraction.
   Next to it: the Rayleigh law P(fade > A) = 1 - exp(-10^(-A/10)) (continuous Rayleigh fading relative to the mean
   power), the fitted deep-fade slope of the multipath curve in dB per decade of probability (Rayleigh: 10 dB per
-  decade; REFERENCES §5) with the implied occurrence factor p0 = p(A)·10^(A/10), and the ITU-R P.530 multipath
+  decade; docs/references.md §5) with the implied occurrence factor p0 = p(A)·10^(A/10), and the ITU-R P.530 multipath
   prediction for the hop (diag.models.p530, needs ``geoclimatic_k``; worst-month percentages).
 - **Rice K-factor** over multipath periods (samples of events classified ``multipath``), envelope relative to the
   local mean power (a centred rolling mean over ``local_mean_s``), by moments and by maximum likelihood

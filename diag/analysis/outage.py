@@ -3,7 +3,7 @@
 ``account_link(result)`` reads ``result.series`` (one ``ChannelSeries`` per channel on a regular grid), the hop's
 receiver threshold and availability objective, and returns a ``diag.results.OutageResult``.
 
-Counting rules (see README section "outage"):
+Counting rules (see docs/method.md §6):
 
 * A second is **below threshold** when the receive level is strictly below ``link.threshold_dbm`` or the radio
   reported loss of signal (status "signal_lost").  Statuses "missing" and "no_data" are **no data**: excluded from

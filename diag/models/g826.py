@@ -16,7 +16,7 @@ EN/LZT 720 0008, "An unavailable state ... is declared at the onset of P consecu
 considered to be part of the unavailable time ... Q consecutive seconds with no SES ... part of the available
 time"; "The counting of ES and SES is stopped for both directions as soon as at least one of the directions is in
 the unavailable state") and a G.832 MIB description ("unavailable at the onset of 10 consecutive ... SES ...
-includes the initial 10 seconds to enter ... but not the 10 seconds to exit").  See REFERENCES.md section 7.
+includes the initial 10 seconds to enter ... but not the 10 seconds to exit").  See docs/references.md §7.
 
 Choices of our own (not in the Recommendations, which assume a continuous measurement):
 
@@ -39,7 +39,7 @@ import numpy as np
 import numpy.typing as npt
 
 CONSECUTIVE_S = 10              # G.826 Annex A: ten consecutive seconds to enter or leave unavailable time
-SECONDS_PER_YEAR = 365 * 86400  # 365-day year, as in REFERENCES.md section 7 (99.99 % -> 52.56 min)
+SECONDS_PER_YEAR = 365 * 86400  # 365-day year, as in docs/references.md §7 (99.99 % -> 52.56 min)
 
 __all__ = ["CONSECUTIVE_S", "SECONDS_PER_YEAR", "unavailable_mask", "bidirectional_unavailable_mask",
            "available_count", "unavailable_periods", "availability_percent",
@@ -162,7 +162,7 @@ def availability_percent(unavailable_s: npt.ArrayLike, observed_s: npt.ArrayLike
 def objective_minutes_per_year(objective_pct: npt.ArrayLike):
     """Unavailability allowed per 365-day year by an availability objective [min].
 
-    (100 - objective) / 100 * 525 600 min; 99.99 % gives 52.56 min (REFERENCES.md section 7, computed).
+    (100 - objective) / 100 * 525 600 min; 99.99 % gives 52.56 min (docs/references.md §7, computed).
     """
     obj = np.asarray(objective_pct, dtype=float)
     result = (100.0 - obj) / 100.0 * SECONDS_PER_YEAR / 60.0

@@ -4,7 +4,7 @@ Tilt and XPD: the co- and cross-polar levels of a rotated feed are built HERE fr
 simulator.  A linearly polarised wave E = (1, 0) meets a feed rotated by theta whose ports respond to
 u = (cos t, sin t) and v = (-sin t, cos t), each with the antenna's own cross-polar response c (|c| = 10^(-XPD_a/20),
 taken in quadrature, c = j|c|, the case in which the two leaks add in power exactly):
-co = u.E + c v.E = cos t - c sin t,  cross = v.E + c u.E = -sin t + c cos t  (REFERENCES.md §6: polarisation loss
+co = u.E + c v.E = cos t - c sin t,  cross = v.E + c u.E = -sin t + c cos t  (docs/references.md §6: polarisation loss
 factor cos^2 t, leak sin^2 t; Balanis, Antenna Theory, 3rd ed. §2.12.2).  Tolerance: +-10 % of the tilt or
 +-0.3 deg, whichever is larger (issue 17).
 Rain XPD: built here from the P.530-17 §4.2 relation XPD = U - V log10(CPA) with a U0 other than the project's
@@ -101,7 +101,7 @@ def test_tilt_when_the_antennas_are_worse_than_assumed(tilt):
 
 
 def test_tilt_from_measured_xpd_inverts_a_quadrature_leak():
-    # a 5-deg feed on 35-dB antennas, co and cross built from Jones vectors (module docstring); REFERENCES §6:
+    # a 5-deg feed on 35-dB antennas, co and cross built from Jones vectors (module docstring); docs/references.md §6:
     # 20 log cot(5 deg) = 21.16 dB for a perfect antenna
     co, cross = _rotated_feed_levels(5.0, 35.0)
     # (the co level carries |c|^2 sin^2 t too: the power-sum inversion is exact to terms of order |c|^2 tan^2 t)
@@ -112,13 +112,14 @@ def test_tilt_from_measured_xpd_inverts_a_quadrature_leak():
 
 
 def test_xpd_flag_and_rain_fit_next_to_p530():
-    # a 7-deg feed (XPD 20 log cot 7 = 18.2 dB, REFERENCES §6) against 25 dB required, and rain depolarising with
-    # U0 = 12 dB, 3 dB below the P.530 default the analysis compares with (U0 = 15)
+    # a 7-deg feed (XPD 20 log cot 7 = 18.2 dB, docs/references.md §6) against 25 dB required, and rain
+    # depolarising with U0 = 12 dB, 3 dB below the P.530 default the analysis compares with (U0 = 15)
     out = crosspol.cross_polar(_feed_result(7.0, 35.0, rain_u0_db=12.0))
     h = out["xpd"]["H"]
     assert h["below_required"] is True
     rain = h["rain"]
-    # P.530 values (diag.models.p530): U - V log10(15) = 29.27 dB at 23 GHz (REFERENCES §3.3, computed from the Rec)
+    # P.530 values (diag.models.p530): U - V log10(15) = 29.27 dB at 23 GHz (docs/references.md §3.3, computed
+    # from the Rec)
     assert rain["p530"]["u_db"] - rain["p530"]["v_db"] * math.log10(15) == pytest.approx(29.27, abs=0.02)
     # the equiprobable fit finds the U0 put into the data: 3 dB below P.530 at every CPA, within the 0.1-dB
     # readout and noise of the levels (0.5 dB)

@@ -23,11 +23,11 @@ def _json(capsys, argv):
 
 def test_worked_link(capsys):
     r = _json(capsys, FULL)
-    # free-space loss: REFERENCES.md §1 [C] 23 GHz, 10 km -> 139.682 dB; level = 18 + 2*38 - 3 - FSL
+    # free-space loss: docs/references.md §1 [C] 23 GHz, 10 km -> 139.682 dB; level = 18 + 2*38 - 3 - FSL
     assert r["free_space_loss_db"] == pytest.approx(139.682, abs=1e-3)
     assert r["expected_level_dbm"] == pytest.approx(18 + 76 - 3 - 139.682, abs=1e-3)
     assert r["fade_margin_db"] == pytest.approx(r["expected_level_dbm"] + 75, abs=1e-4)
-    # rain: REFERENCES.md §3.1 [C] 23 GHz, 10 km, R0.01 = 42, H: A0.01 = 33.942 dB, A(0.1 %) = 12.822 dB
+    # rain: docs/references.md §3.1 [C] 23 GHz, 10 km, R0.01 = 42, H: A0.01 = 33.942 dB, A(0.1 %) = 12.822 dB
     assert r["rain_attenuation_0p01pct_db"] == pytest.approx(33.942, rel=1e-3)
     assert r["rain_attenuation_0p1pct_db"] == pytest.approx(12.822, rel=1e-3)
     # unavailability: eq. (34) inverted at the margin; minutes = % of 525 600
@@ -104,7 +104,7 @@ def test_dual_uses_worse_polarization_and_link_object():
                       "geoclimatic_k": "1e-4", "antenna_height_m": "120"})
     r = predict_for_link(link)
     assert r["rain_polarization"] == "V"
-    assert r["rain_attenuation_0p01pct_db"] == pytest.approx(28.261, rel=1e-3)  # REFERENCES.md §3.1 [C], V
+    assert r["rain_attenuation_0p01pct_db"] == pytest.approx(28.261, rel=1e-3)  # docs/references.md §3.1 [C], V
     assert r["fade_margin_db"] == pytest.approx(18 + 76 - 139.682 + 75, abs=1e-3)
 
 

@@ -164,7 +164,7 @@ def test_with_gauge_given_verdicts_follow_it(table_with_gauge):
     assert _share(t, "confirmed", "rain_events", RAIN_LINKS) >= 0.90
 
 
-if __name__ == "__main__":   # print the agreement table (README figures)
+if __name__ == "__main__":   # print the agreement table (docs/validation.md §6)
     base = Path(sys.argv[1]) if len(sys.argv) > 1 and sys.argv[1] != "--gauge" else DATA
     meta = pd.read_csv(base / "links_metadata.csv")
     out = agreement(base, list(pd.unique(meta["cml_id"])), gauge_in_analysis="--gauge" in sys.argv)

@@ -1,7 +1,7 @@
 """Fading statistics (diag.analysis.fading_stats) against published theory and reference libraries.
 
-Sources: REFERENCES.md §5 (Rayleigh/Rice statistics, computed values), scipy.stats (expon = Rayleigh power, rice),
-REFERENCES.md §3.1 / §3.2 (P.530 rain and multipath check values, computed from the printed formulas).  The two
+Sources: docs/references.md §5 (Rayleigh/Rice statistics, computed values), scipy.stats (expon = Rayleigh power, rice),
+docs/references.md §3.1 / §3.2 (P.530 rain and multipath check values, computed from the printed formulas).  The two
 tests on simulated multipath periods are simulator consistency checks only; the crossing-rate / fade-duration
 theory is checked against an independent process in tests/models/test_fading_sum_of_sinusoids.py.
 """
@@ -51,7 +51,7 @@ def test_exceedance_counts_floor_and_excludes_gaps():
 def test_rayleigh_reference_matches_references_and_scipy():
     s = _series(np.zeros(10))
     out = stats.exceedance_block(s, _link(), (10.0, 20.0, 30.0, 40.0), [])
-    # REFERENCES §5 [C]: Rayleigh P(y < -F dB) = 0.095163 / 0.0099502 / 9.995e-4 / 9.9995e-5
+    # docs/references.md §5 [C]: Rayleigh P(y < -F dB) = 0.095163 / 0.0099502 / 9.995e-4 / 9.9995e-5
     assert out["rayleigh_percent"] == pytest.approx([9.5163, 0.99502, 0.09995, 0.0099995], rel=1e-3)
     # scipy.stats: the Rayleigh power ratio is exponential with unit mean
     assert out["rayleigh_percent"][1] == pytest.approx(100 * sps.expon.cdf(10 ** (-20 / 10)), rel=1e-3)
@@ -64,7 +64,7 @@ def test_rayleigh_samples_give_ten_db_per_decade_tail():
     s = _series(att, cause=["multipath"] * len(att))
     out = stats.exceedance_block(s, _link(), stats.DEFAULT_DEPTHS_DB, [])
     tail = out["multipath_tail"]
-    # REFERENCES §5: deep Rayleigh fades fall 10 dB per decade of probability; p0 -> 100 % (p ~ 10^(-A/10))
+    # docs/references.md §5: deep Rayleigh fades fall 10 dB per decade of probability; p0 -> 100 % (p ~ 10^(-A/10))
     assert tail["slope_db_per_decade"] == pytest.approx(10.0, abs=0.7)
     assert tail["p0_percent"] == pytest.approx(100.0, rel=0.15)
     # and the observed curve sits on the Rayleigh law at 20 dB within sampling error
@@ -73,7 +73,7 @@ def test_rayleigh_samples_give_ten_db_per_decade_tail():
 
 
 def test_p530_multipath_prediction_matches_formula():
-    # REFERENCES §3.2: p_w = K d^3.4 (1+|eps|)^-1.03 f^0.8 10^(-0.00076 hL - A/10); with eps = 0 (one antenna
+    # docs/references.md §3.2: p_w = K d^3.4 (1+|eps|)^-1.03 f^0.8 10^(-0.00076 hL - A/10); with eps = 0 (one antenna
     # height in the links table) and hL = antenna_height_m. Check values: K = 1.0012e-4, d = 30 km, f = 8 GHz.
     link = make_link({"link_id": "m", "frequency_ghz": 8.0, "length_km": 30.0, "polarization": "V",
                       "threshold_dbm": -80, "geoclimatic_k": 1.0012e-4, "antenna_height_m": 100.0})
@@ -86,7 +86,7 @@ def test_p530_multipath_prediction_matches_formula():
 
 
 def test_p530_rain_prediction_matches_reference_case():
-    # REFERENCES §3.1 [C]: d = 10 km, f = 23 GHz, R0.01 = 42 mm/h, H: A0.01 = 33.942 dB; A(0.1 %) = 12.822 dB
+    # docs/references.md §3.1 [C]: d = 10 km, f = 23 GHz, R0.01 = 42 mm/h, H: A0.01 = 33.942 dB; A(0.1 %) = 12.822 dB
     # (the C0 reading of the ITU reference code, which diag.models.p530 pins)
     link = _link(r001_mmh=42.0)
     out = stats.rain_block(_series(np.zeros(10)), link, [])
@@ -95,7 +95,7 @@ def test_p530_rain_prediction_matches_reference_case():
 
 
 def test_rice_k_estimates_on_rice_samples():
-    # Rice envelopes from scipy.stats.rice with K = 5: nu^2 = K/(K+1), 2 sigma^2 = 1/(K+1) (REFERENCES §5)
+    # Rice envelopes from scipy.stats.rice with K = 5: nu^2 = K/(K+1), 2 sigma^2 = 1/(K+1) (docs/references.md §5)
     k = 5.0
     sigma = np.sqrt(1 / (2 * (k + 1)))
     nu = np.sqrt(k / (k + 1))

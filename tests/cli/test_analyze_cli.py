@@ -1,5 +1,5 @@
 """``python -m diag analyze``: status 0 on demo-like inputs with the contract outputs, status 2 with one line on bad
-input (CONTRACT.md: commands and exit status; output file columns from diag.schema)."""
+input (docs/usage.md §1: commands and exit status; output file columns from diag.schema)."""
 from __future__ import annotations
 
 import csv

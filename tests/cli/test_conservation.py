@@ -9,11 +9,11 @@ For every input of the hostile corpus (tests/cli/test_hostile_inputs.py) and eve
           table's own status counts agree, and the reasons add up to signal_lost + missing;
 * time:   analysed period (period_end - period_start) = observed + no-data time; the period and the observed time
           are recomputed here from the normalised table (a second is observed when some receive-level channel
-          has a reading "ok" or "signal_lost" in it: the counting rule of the project's README section "outage");
+          has a reading "ok" or "signal_lost" in it: the counting rule of docs/method.md §6);
 * causes: the per-cause rows of outage_by_cause add up to the summary (below threshold, unavailable, both bounds),
           the event counts per cause add up to the events found, and no figure exceeds the observed time.
 
-No outside source is needed: these are the project's own accounting rules (shared/CONTRACT.md, diag.read.normalise's
+No outside source is needed: these are the project's own accounting rules (docs/usage.md §1-§3, diag.read.normalise's
 docstring); the ten-second unavailability rule itself is checked against ITU-T G.826 in tests/models/test_g826.py.
 """
 from __future__ import annotations

@@ -5,7 +5,7 @@ write the same bytes to events.csv, outage_summary.csv, outage_by_cause.csv, fin
 is written with fixed metadata and no creation date, see diag/report/pdf.py).  The same bytes again when the logs
 are given as their folder, and from a separate interpreter with another PYTHONHASHSEED reading the files named in
 reverse order: output order may depend neither on the order of the inputs nor on hash order.  The project's own
-contract (shared/CONTRACT.md); no outside source needed.
+contract (docs/usage.md §1-§3); no outside source needed.
 """
 from __future__ import annotations
 

@@ -5,7 +5,7 @@ succeed (status 0) with a report whose row accounting adds up (rows read = kept 
 status 2 and ONE line on stderr naming the file; never a traceback, never a hang (each call runs under an alarm),
 never a file written outside the output folder.  The inputs that read cleanly also go through `analyze`.
 
-No outside source is needed here: the rules are the project's own contract (../shared/CONTRACT.md), and the
+No outside source is needed here: the rules are the project's own contract (docs/usage.md §1-§3), and the
 conventions (mW vs dBm, receiver floors at -99/-100/-128 dBm) are common practice of the trade.
 """
 from __future__ import annotations

@@ -1,6 +1,6 @@
 """One set of option names across commands (issue 16): the same flag for the same quantity, old names kept.
 
-Consistency checks of our own command-line surface (../shared/CONTRACT.md); no outside source needed.
+Consistency checks of our own command-line surface (docs/usage.md §1-§3); no outside source needed.
 """
 from __future__ import annotations
 

@@ -149,7 +149,7 @@ def test_rice_crossings_and_fade_durations_match_the_rician_closed_form(rice):
 
 
 def test_closed_forms_at_k_zero_and_the_published_check_values():
-    # Rice with K = 0 is Rayleigh (Rice 1944); REFERENCES.md §5 [C]: f_m = 1 Hz, -10 dB: N = 0.71723 /s,
+    # Rice with K = 0 is Rayleigh (Rice 1944); docs/references.md §5 [C]: f_m = 1 Hz, -10 dB: N = 0.71723 /s,
     # tau = 0.13268 s; -20 dB: 0.24817 /s, 0.04009 s (computed from Rappaport (5.80)/(5.84))
     for level, n_r, tau in ((-10.0, 0.71723, 0.13268), (-20.0, 0.24817, 0.04009)):
         assert fading.rayleigh_level_crossing_rate_hz(level, 1.0) == pytest.approx(n_r, rel=1e-4)

@@ -1,6 +1,6 @@
 """ITU-T G.826 / G.828 availability rule on hand-built second masks at the boundaries.
 
-Source of the rule (REFERENCES.md section 7): ITU-T G.826 (12/2002) Annex A, as quoted in an equipment reference
+Source of the rule (docs/references.md §7): ITU-T G.826 (12/2002) Annex A, as quoted in an equipment reference
 manual (Ericsson EN/LZT 720 0008: unavailable state declared at the onset of 10 consecutive SES, those seconds part
 of the unavailable time; available again at the onset of 10 consecutive non-SES seconds, those part of the available
 time; ES/SES not counted in unavailable time) and a G.832 MIB description saying the same.
@@ -151,7 +151,7 @@ def test_more_ses_never_means_less_unavailable_time(bits, data):
     assert not (g826.unavailable_mask(ses) & ~g826.unavailable_mask(more)).any()
 
 
-# --- objectives: REFERENCES.md section 7 [C] values for a 365-day year -------------------------------------------
+# --- objectives: docs/references.md §7 [C] values for a 365-day year -------------------------------------------
 @pytest.mark.parametrize("objective, minutes", [(99.9, 525.6), (99.95, 262.8), (99.99, 52.56), (99.995, 26.28),
                                                 (99.999, 5.256)])
 def test_objective_minutes_per_year(objective, minutes):

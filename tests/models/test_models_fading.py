@@ -14,7 +14,7 @@ LN10_10 = math.log(10) / 10
 
 
 def _scipy_rice(k):
-    # REFERENCES.md §5: rice(b = nu/sigma, scale = sigma), nu^2 = K Omega/(K+1), 2 sigma^2 = Omega/(K+1), Omega = 1
+    # docs/references.md §5: rice(b = nu/sigma, scale = sigma), nu^2 = K Omega/(K+1), 2 sigma^2 = Omega/(K+1), Omega = 1
     nu, sigma = math.sqrt(k / (k + 1)), math.sqrt(1 / (2 * (k + 1)))
     return stats.rice(nu / sigma, scale=sigma)
 
@@ -50,7 +50,7 @@ def test_pdf_integrates_to_one():
 
 
 def test_reference_sheet_values():
-    # REFERENCES.md §5 [C]: Rayleigh P(y < -F) for F = 10/20/30/40 dB; the 10 dB-per-decade tail
+    # docs/references.md §5 [C]: Rayleigh P(y < -F) for F = 10/20/30/40 dB; the 10 dB-per-decade tail
     np.testing.assert_allclose(fading.rayleigh_cdf_db([-10, -20, -30, -40]),
                                [0.095163, 0.0099502, 9.995e-4, 9.9995e-5], rtol=1e-4)
     # Rice K = 5: 0.0096417 at -10 dB, 4.5363e-4 at -20 dB; K = 10: 7.3870e-4, 7.791e-6
@@ -115,7 +115,7 @@ def test_k_from_rsl_levels():
 
 
 def test_lcr_afd_reference_sheet():
-    # REFERENCES.md §5 [C]: f_m = 1 Hz, rho = -10 dB: N = 0.71723 /s, tau = 0.13268 s; -20 dB: 0.24817 /s, 0.04009 s
+    # docs/references.md §5 [C]: f_m = 1 Hz, rho = -10 dB: N = 0.71723/s, tau = 0.13268 s; -20 dB: 0.24817/s, 0.04009 s
     assert fading.rayleigh_level_crossing_rate_hz(-10.0, 1.0) == pytest.approx(0.71723, rel=1e-4)
     assert fading.rayleigh_average_fade_duration_s(-10.0, 1.0) == pytest.approx(0.13268, rel=1e-4)
     assert fading.rayleigh_level_crossing_rate_hz(-20.0, 1.0) == pytest.approx(0.24817, rel=1e-4)

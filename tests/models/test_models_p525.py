@@ -19,9 +19,9 @@ def test_wavelength_common_practice():
 
 
 @pytest.mark.parametrize("d, f, expected", [
-    # REFERENCES.md §1 [C] exact 20 log(4 pi d / lambda): 23 GHz, 10 km -> 139.682 dB
+    # docs/references.md §1 [C] exact 20 log(4 pi d / lambda): 23 GHz, 10 km -> 139.682 dB
     (10.0, 23.0, 139.682),
-    # REFERENCES.md §1 [C] (rounded formula 92.45 + 20 log f + 20 log d): 38 GHz/5 km 138.025, 18 GHz/20 km 143.576;
+    # docs/references.md §1 [C] (rounded 92.45 + 20 log f + 20 log d): 38 GHz/5 km 138.025, 18 GHz/20 km 143.576;
     # the exact form is 0.003 dB lower, hence the 0.005 dB tolerance
     (5.0, 38.0, 138.025), (20.0, 18.0, 143.576)])
 def test_free_space_loss_reference(d, f, expected):
@@ -44,7 +44,7 @@ def test_six_db_per_doubling():
 
 
 def test_fresnel_reference():
-    # REFERENCES.md §1 [C]: 23 GHz, d1 = d2 = 5 km -> 5.708 m exact (5.704 m with P.530's 17.3 constant);
+    # docs/references.md §1 [C]: 23 GHz, d1 = d2 = 5 km -> 5.708 m exact (5.704 m with P.530's 17.3 constant);
     # 6 GHz, 25/25 km -> 24.97 m with 17.3 (exact 24.99)
     assert p525.fresnel_radius_m(5.0, 5.0, 23.0) == pytest.approx(5.708, abs=0.001)
     assert p525.fresnel_radius_m(25.0, 25.0, 6.0) == pytest.approx(24.97, rel=2e-3)

@@ -1,6 +1,6 @@
 """ITU-R P.530 rain, multipath and XPD predictions (diag.models.p530) against worked values and itur 0.4.0.
 
-Worked values marked [C] come from /work/shared/REFERENCES.md §3, computed from the Recommendation's formulas
+Worked values marked [C] come from docs/references.md §3, computed from the Recommendation's formulas
 (P.530-17/-18) by hand-written code independent of this module.
 """
 import math
@@ -18,7 +18,7 @@ P = np.array([1.0, 0.1, 0.01, 0.001])
 
 
 @pytest.mark.parametrize("tau, gamma, r, a001, chosen, itur_reading", [
-    # REFERENCES.md §3.1 [C]: d = 10 km, f = 23 GHz, R0.01 = 42 mm/h, el = 0
+    # docs/references.md §3.1 [C]: d = 10 km, f = 23 GHz, R0.01 = 42 mm/h, el = 0
     (0.0, 5.8522, 0.5800, 33.942, [3.587, 12.822, 33.877, 66.159], [3.470, 12.784, 33.876, 64.573]),
     (90.0, 4.6949, 0.6020, 28.261, [2.987, 10.676, 28.206, 55.085], [2.889, 10.644, 28.206, 53.765])])
 def test_rain_worked_example(tau, gamma, r, a001, chosen, itur_reading):
@@ -55,7 +55,7 @@ def test_rain_inverse_round_trip():
 
 
 def test_rain_against_itur_grid():
-    # itur 0.4.0 implements P.530-17 §2.4.1 with the other C0 reading (REFERENCES.md §9), so:
+    # itur 0.4.0 implements P.530-17 §2.4.1 with the other C0 reading (docs/references.md §9), so:
     # (1) with c0_reading="power_of_log" we must agree to float rounding (rtol 1e-9);
     # (2) with our default reading the difference is the C0 term only; measured over f = 6..80 GHz and
     #     p = 0.001..1 % it stays below 4.4 %, largest at p = 1 % and 80 GHz, so the tolerance is 5 %.
@@ -89,7 +89,7 @@ def test_distance_factor_cap():
 def test_rain_event_count_and_scalings():
     # N10s = 1 + 1313 p^0.945 (P.530-17 §2.4.6, as coded in ITU-Rpy): p = 0.01 % -> 1 + 1313 * 0.01^0.945
     assert p530.rain_fade_count_10s(0.01) == pytest.approx(1 + 1313 * 0.01 ** 0.945, rel=1e-12)
-    # REFERENCES.md §3.1 [C]: 20 dB at 18 GHz scales to 29.50 dB at 23 GHz (§2.4.3); A_H = 30 gives A_V = 24.66
+    # docs/references.md §3.1 [C]: 20 dB at 18 GHz scales to 29.50 dB at 23 GHz (§2.4.3); A_H = 30 gives A_V = 24.66
     assert p530.rain_frequency_scaling_db(20.0, 18.0, 23.0) == pytest.approx(29.50, abs=0.01)
     assert p530.rain_polarization_scaling_db(30.0, "V") == pytest.approx(24.66, abs=0.01)
     assert p530.rain_polarization_scaling_db(p530.rain_polarization_scaling_db(30.0, "V"), "H") == pytest.approx(30.0)
@@ -102,7 +102,7 @@ def test_rain_event_count_itur():
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)
-        # itur labels this count "%" (REFERENCES.md §9); the number itself is the count
+        # itur labels this count "%" (docs/references.md §9); the number itself is the count
         ref = float(itu530.rain_event_count(10.0, 10.0, 10.0, 23.0, 0.0, 20.0, tau=0, R001=42.0).value)
     a001 = p530.rain_attenuation_001_db(10.0, 23.0, 42.0, 0.0)
     p = p530.rain_time_percent(20.0, a001, 23.0, "power_of_log")
@@ -111,7 +111,7 @@ def test_rain_event_count_itur():
 
 
 def test_multipath_worked_example():
-    # REFERENCES.md §3.2 [C]: dN1 = -400, s_a = 20, d = 30 km, f = 8 GHz, he = 200 m, hr = 100 m
+    # docs/references.md §3.2 [C]: dN1 = -400, s_a = 20, d = 30 km, f = 8 GHz, he = 200 m, hr = 100 m
     k = p530.geoclimatic_factor_k(-400.0, 20.0)
     assert k == pytest.approx(1.0012e-4, rel=1e-3)
     eps = p530.path_inclination_mrad(200.0, 100.0, 30.0)
@@ -137,7 +137,7 @@ def _itur_multipath_percent(itu530, depth_db):
 
 def test_multipath_shallow_fade_follows_the_text():
     # P.530-17 §2.3.2 eqs. (14)-(17) (shallow-fade interpolation), values computed from the printed equations in
-    # REFERENCES.md §3.2/§9 [C]: at London's maps (p0 = 1.4467 %, from itur's P.530 geoclimatic maps and eq. (7)),
+    # docs/references.md §3.2/§9 [C]: at London's maps (p0 = 1.4467 %, from itur's P.530 geoclimatic maps and eq. (7)),
     # 0.1693 % at A = 10 dB and 0.01338 % at 20 dB.
     itu530 = pytest.importorskip("itur.models.itu530")
     with warnings.catch_warnings():
@@ -152,10 +152,10 @@ def test_multipath_shallow_fade_follows_the_text():
 
 @pytest.mark.xfail(strict=True, raises=AssertionError,
                    reason="itur 0.4.0 misplaces brackets in P.530-17 §2.3.2 eqs. (16)/(17) (q_t, q_a): it gives 1.145 "
-                          "% and 0.175 % at 10/20 dB (REFERENCES.md §9). Strict: a fixed itur XPASSes, which fails, so "
-                          "this note can go then.")
+                          "% and 0.175 % at 10/20 dB (docs/references.md §9). Strict: a fixed itur XPASSes, which "
+                          "fails, so this note can go then.")
 def test_itur_shallow_fade_matches_the_text():
-    # the published value (P.530-17 §2.3.2, computed from the printed equations, REFERENCES.md §3.2 [C]) asked of
+    # the published value (P.530-17 §2.3.2, computed from the printed equations, docs/references.md §3.2 [C]) asked of
     # itur: it fails today because of itur's bracket bug
     itu530 = pytest.importorskip("itur.models.itu530")
     assert _itur_multipath_percent(itu530, 10.0) == pytest.approx(0.1693, rel=1e-3)
@@ -188,7 +188,7 @@ def test_multipath_continuity_at_transition():
 
 
 def test_worst_month_to_year():
-    # REFERENCES.md §3.2 [C]: xi = 50 deg, same path: Delta G = 8.118 dB, factor 0.1543
+    # docs/references.md §3.2 [C]: xi = 50 deg, same path: Delta G = 8.118 dB, factor 0.1543
     eps = p530.path_inclination_mrad(200.0, 100.0, 30.0)
     dg = p530.geoclimatic_conversion_db(50.0, 30.0, eps)
     assert dg == pytest.approx(8.118, abs=1e-3)
@@ -214,7 +214,7 @@ def test_rayleigh_tail_rule():
 
 
 def test_rain_xpd_relation():
-    # REFERENCES.md §3.3 [C]: f = 23, CPA = 15 -> 29.27 dB; f = 11, CPA = 10 -> 26.06; f = 18, CPA = 20 -> 23.82
+    # docs/references.md §3.3 [C]: f = 23, CPA = 15 -> 29.27 dB; f = 11, CPA = 10 -> 26.06; f = 18, CPA = 20 -> 23.82
     np.testing.assert_allclose(p530.xpd_rain_db([15.0, 10.0, 20.0], [23.0, 11.0, 18.0]), [29.27, 26.06, 23.82],
                                atol=0.01)
     cpa = np.array([2.0, 10.0, 30.0])
@@ -224,11 +224,11 @@ def test_rain_xpd_relation():
 
 
 def test_xpd_outage_rain_text_wins_over_itur():
-    # REFERENCES.md §3.3 [C]: V-pol case of §3.1 (A0.01 = 28.261 dB), C0/I = 20 dB, XPIF = 0:
+    # docs/references.md §3.3 [C]: V-pol case of §3.1 (A0.01 = 28.261 dB), C0/I = 20 dB, XPIF = 0:
     # Ap = 38.58, m = 24.56, n = -2.382, P_XPR = 4.15e-5 (a probability)
     assert p530.xpd_outage_rain_probability(28.261, 23.0, 20.0) == pytest.approx(4.15e-5, rel=2e-3)
     # ITU-Rpy 0.4.0's public XPD_outage_precipitation wrapper drops `el`, so its arguments shift and it returns
-    # about 46 "%" for this kind of link (REFERENCES.md §9).  We record the disagreement and keep the text.
+    # about 46 "%" for this kind of link (docs/references.md §9).  We record the disagreement and keep the text.
     itu530 = pytest.importorskip("itur.models.itu530")
     itu837 = pytest.importorskip("itur.models.itu837")
     with warnings.catch_warnings():
@@ -241,7 +241,7 @@ def test_xpd_outage_rain_text_wins_over_itur():
 
 
 def test_xpd_outage_clear_air_text_wins_over_itur():
-    # REFERENCES.md §3.3 [C]: p0 = 10.311 % (P0 = 0.10311), XPD_g = 30, C0/I = 20: eta = 0.03574, Q = 6.151,
+    # docs/references.md §3.3 [C]: p0 = 10.311 % (P0 = 0.10311), XPD_g = 30, C0/I = 20: eta = 0.03574, Q = 6.151,
     # M = 21.15, P_XP = 7.91e-4
     assert p530.xpd_outage_clear_air_probability(10.311, 30.0, 20.0) == pytest.approx(7.91e-4, rel=2e-3)
     # ITU-Rpy 0.4.0 feeds P0 in per cent (the text says P0 = p_w/100) and labels the result per cent; with its
@@ -315,7 +315,7 @@ def test_rain_percent_round_trip(log_p, f, a001):
 
 
 def test_multipath_p530_18_worked_value():
-    # REFERENCES.md §3.2 [C]: P.530-18 with K = 10^-4.2, dN75 = 40, h_t = 50 m, d = 30 km, f = 8 GHz,
+    # docs/references.md §3.2 [C]: P.530-18 with K = 10^-4.2, dN75 = 40, h_t = 50 m, d = 30 km, f = 8 GHz,
     # he = 200 m, hr = 100 m: h_c = 91.18 m, v_sr = 8.6e-4, p0 = 27.52 %
     p0 = p530.multipath_deep_fade_percent_p530_18(0.0, 30.0, 8.0, 10 ** -4.2, 40.0, 200.0, 100.0, 50.0)
     assert p0 == pytest.approx(27.52, rel=1e-3)
@@ -326,7 +326,7 @@ def test_multipath_p530_18_worked_value():
 
 def test_xpd_outage_rain_exponent_range():
     # P.530-17 §4.2 step 3 (from memory, see diag.models.p530.xpd_outage_rain_probability): n in [-3, 0].
-    # The REFERENCES.md §3.3 [C] case has n = -2.382: inside, no warning
+    # The docs/references.md §3.3 [C] case has n = -2.382: inside, no warning
     with warnings.catch_warnings():
         warnings.simplefilter("error", RuntimeWarning)
         assert p530.xpd_outage_rain_probability(28.261, 23.0, 20.0) == pytest.approx(4.15e-5, rel=2e-3)

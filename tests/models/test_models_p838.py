@@ -33,7 +33,7 @@ def test_reference_rows(row):
 
 
 @pytest.mark.parametrize("f, kh, ah, kv, av", [
-    # REFERENCES.md §2 table [C] (computed from the P.838-3 regressions, matching itur 0.4.0)
+    # docs/references.md §2 table [C] (computed from the P.838-3 regressions, matching itur 0.4.0)
     (6, 7.0559e-4, 1.5900, 4.8782e-4, 1.5728), (11, 0.017719, 1.2140, 0.017307, 1.1617),
     (15, 0.044815, 1.1233, 0.050082, 1.0440), (18, 0.070784, 1.0818, 0.077076, 1.0025),
     (23, 0.12864, 1.0214, 0.12836, 0.9630), (38, 0.40011, 0.8816, 0.38440, 0.8552)])
@@ -45,7 +45,7 @@ def test_reference_sheet_coefficients(f, kh, ah, kv, av):
 
 
 def test_gamma_reference_sheet():
-    # REFERENCES.md §2 [C]: 23 GHz, R = 50 mm/h -> H 6.9929, V 5.5532; 38 GHz -> H 12.587, V 10.909 dB/km
+    # docs/references.md §2 [C]: 23 GHz, R = 50 mm/h -> H 6.9929, V 5.5532; 38 GHz -> H 12.587, V 10.909 dB/km
     assert p838.specific_attenuation_db_per_km(50, 23, 0) == pytest.approx(6.9929, rel=1e-3)
     assert p838.specific_attenuation_db_per_km(50, 23, 90) == pytest.approx(5.5532, rel=1e-3)
     assert p838.specific_attenuation_db_per_km(50, 38, 0) == pytest.approx(12.587, rel=1e-3)
@@ -81,7 +81,7 @@ def test_circular_is_between_h_and_v():
 
 
 def test_h_attenuates_more_than_v_above_10_ghz():
-    # REFERENCES.md §8 [C]: kH > kV and aH > aV above 10 GHz makes H fade more in heavy rain
+    # docs/references.md §8 [C]: kH > kV and aH > aV above 10 GHz makes H fade more in heavy rain
     f = np.array([12.0, 18.0, 23.0, 38.0, 60.0])
     assert np.all(p838.specific_attenuation_db_per_km(60, f, 0) > p838.specific_attenuation_db_per_km(60, f, 90))
 

@@ -11,7 +11,7 @@ from diag.models import xpol
 
 
 @pytest.mark.parametrize("tilt, loss, xpd", [
-    # REFERENCES.md §6 [C] from the polarisation loss factor cos^2(tilt) (Balanis, Antenna Theory, 3rd ed. §2.12.2)
+    # docs/references.md §6 [C] from the polarisation loss factor cos^2(tilt) (Balanis, Antenna Theory, 3rd ed. §2.12.2)
     (1, 0.0013, 35.16), (3, 0.0119, 25.61), (5, 0.0331, 21.16), (10, 0.1330, 15.07), (45, 3.010, 0.0)])
 def test_reference_sheet_values(tilt, loss, xpd):
     assert xpol.copolar_loss_db(tilt) == pytest.approx(loss, abs=1e-3 * max(loss, 1) + 1e-4)

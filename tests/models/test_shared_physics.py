@@ -2,7 +2,7 @@
 (diag.models.p838), the links table's plausibility ranges and a channel's polarisation (diag.links), and the rain
 plausibility rule (diag.analysis.features).
 
-Sources: ITU-R P.838-3 (03/2005) eq. (1) with the coefficient values of ../shared/REFERENCES.md §2 table [C]
+Sources: ITU-R P.838-3 (03/2005) eq. (1) with the coefficient values of docs/references.md §2 table [C]
 (computed from the P.838-3 regressions, matching itur 0.4.0), the same values test_models_p838 checks.
 """
 import math
@@ -16,7 +16,7 @@ from diag.errors import InputError
 from diag.links import PLAUSIBLE_RANGES, channel_polarization, in_plausible_range, make_link
 from diag.models import p838
 
-# f [GHz], k_H, alpha_H, k_V, alpha_V (P.838-3 regressions, REFERENCES.md §2 table [C])
+# f [GHz], k_H, alpha_H, k_V, alpha_V (P.838-3 regressions, docs/references.md §2 table [C])
 COEFFICIENTS = [(11, 0.017719, 1.2140, 0.017307, 1.1617), (18, 0.070784, 1.0818, 0.077076, 1.0025),
                 (23, 0.12864, 1.0214, 0.12836, 0.9630), (38, 0.40011, 0.8816, 0.38440, 0.8552)]
 

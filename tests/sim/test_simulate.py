@@ -42,7 +42,7 @@ def _multipath_only(k: float, *, seconds: int = 40_000, rate_hz: float = 0.2, se
 @pytest.mark.parametrize("k_factor", [0.0, 2.0, 8.0])
 def test_multipath_envelope_follows_scipy_rice(k_factor):
     # Source: scipy.stats.rice with b = nu/sigma, scale = sigma, nu^2 = K/(K+1), 2 sigma^2 = 1/(K+1) for unit
-    # mean power (REFERENCES §5, [C]).  Samples 5 s apart are independent for a 0.2 Hz Gaussian spectrum
+    # mean power (docs/references.md §5, [C]).  Samples 5 s apart are independent for a 0.2 Hz Gaussian spectrum
     # (autocorrelation exp(-2 pi^2 f^2 tau^2) ~ 1e-9), so the KS p-value is meaningful.
     fade_db = _multipath_only(k_factor)[::5]
     envelope = 10.0 ** (-fade_db / 20.0)
@@ -61,7 +61,7 @@ def test_multipath_envelope_follows_scipy_rice(k_factor):
 def test_rayleigh_fade_depth_tail_is_10_db_per_decade():
     # Rayleigh (K = 0): P(fade deeper than F dB) = 1 - exp(-10^(-F/10)) ~ 10^(-F/10), the "10 dB per decade"
     # tail
-    # (REFERENCES §5 [C]: 0.095163 at 10 dB, 0.0099502 at 20 dB).
+    # (docs/references.md §5 [C]: 0.095163 at 10 dB, 0.0099502 at 20 dB).
     fade_db = _multipath_only(0.0, seconds=200_000, rate_hz=0.25, seed=11)[::4]
     p10, p20, p25 = (np.mean(fade_db > f) for f in (10.0, 20.0, 25.0))
     assert p10 == pytest.approx(0.095163, rel=0.05)
@@ -140,7 +140,7 @@ def test_constant_rain_equals_p838_times_length(frequency_ghz):
         gamma = float(itu838.rain_specific_attenuation(rate, frequency_ghz, 0.0, tau).value)
         np.testing.assert_allclose(rain, gamma * length_km, rtol=1e-9)
     if frequency_ghz == 23.0:
-        # REFERENCES §2 [C]: gamma(23 GHz, 50 mm/h) = 6.9929 (H) and 5.5532 (V) dB/km
+        # docs/references.md §2 [C]: gamma(23 GHz, 50 mm/h) = 6.9929 (H) and 5.5532 (V) dB/km
         assert truth.loc[inside & (truth.channel == "H"), "rain"].iloc[0] == pytest.approx(
             6.9929 * 7.5, rel=1e-4
         )
@@ -168,7 +168,7 @@ def test_storm_fades_h_more_than_v_at_23_ghz_and_degrades_xpd():
     v = truth.loc[truth.channel == "V"].reset_index(drop=True)
     wet = h.rain_rate_mmh > 1.0
     assert wet.sum() > 600
-    # kH R^aH > kV R^aV at 23 GHz for R > 1 mm/h (P.838-3 Tables 1-4; REFERENCES §2 table)
+    # kH R^aH > kV R^aV at 23 GHz for R > 1 mm/h (P.838-3 Tables 1-4; docs/references.md §2 table)
     assert (h.rain[wet] > v.rain[wet]).all()
     # a realistic storm: onset within the storm window, a dry start and end
     assert h.rain_rate_mmh.iloc[:3600].max() == 0.0 and h.rain_rate_mmh.max() == pytest.approx(40.0)
@@ -184,7 +184,7 @@ def test_storm_fades_h_more_than_v_at_23_ghz_and_degrades_xpd():
 
 
 def test_tilt_lowers_xpd_to_20_log_cot_and_costs_copolar_loss():
-    # XPD = 20 log cot(tilt), co-polar loss -20 log cos(tilt) (REFERENCES §6 [C]: 10 deg -> 15.07 dB, 0.1330
+    # XPD = 20 log cot(tilt), co-polar loss -20 log cos(tilt) (docs/references.md §6 [C]: 10 deg -> 15.07 dB, 0.1330
     # dB)
     step_at = 3600.0
     spec = LinkSpec(
