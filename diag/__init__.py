@@ -1,7 +1,8 @@
 """diag: why a microwave hop faded, and how much outage each cause cost.
 
-Pipeline (one module per stage, see DEVELOPERS.md): ingest -> normalise -> links -> models -> baseline -> events
--> classify -> stats -> outage -> report; simulate feeds tests and the demo; batch runs many hops on Dask.
+Pipeline (packages in stage order, see DEVELOPERS.md): read -> analysis (reference, steps, events, classify,
+fading statistics, cross-polar, outage, findings) -> report; models holds the published equations; sim feeds tests
+and the demo; pipeline runs one hop's stages; batch runs many hops on Dask.
 """
 from diag.errors import InputError
 from diag.links import Link, read_links_table
