@@ -12,7 +12,7 @@ import pandas as pd
 import streamlit as st
 
 from diag import glossary, schema
-from diag.report import views
+from diag.report import views, views_fading, views_reader
 from diag.ui.forms import fit_height, md
 
 TIME_AXIS = alt.Axis(format="%d %b %H:%M", labelOverlap=True)
@@ -85,7 +85,7 @@ def overview(result, hop: dict) -> None:
               help=glossary.definition("below_threshold"))
     c4.metric(glossary.MAIN_CAUSE, hop["main_cause_label"], help=glossary.definition("main_cause"))
     if hop["period_start_utc"]:
-        gap = views.no_data_share(result)
+        gap = views_reader.no_data_share(result)
         period = [str(t).replace("T", " ").replace("Z", "")[:16] for t in (hop["period_start_utc"],
                                                                           hop["period_end_utc"])]
         st.caption(f"Analysed period: {period[0]} → {period[1]} UTC"
@@ -353,8 +353,8 @@ _RAIN_KEYS = ("rain_s", "deepest_rain_fade_db", "percent_of_period_above_a001")
 
 
 def _figures_table(part: dict, keys: tuple[str, ...]) -> pd.DataFrame:
-    """Chosen figures of a statistics block with their glossary labels and units (``views.key_figures``)."""
-    return views.key_figures({k: part[k] for k in keys if k in part})
+    """Chosen figures of a statistics block with their glossary labels and units (``views_fading.key_figures``)."""
+    return views_fading.key_figures({k: part[k] for k in keys if k in part})
 
 
 def fading_statistics(result) -> None:
@@ -369,7 +369,7 @@ def fading_statistics(result) -> None:
     left, right = st.columns([3, 2], gap="large")
     with left:
         st.markdown("##### Fade depth exceeded")
-        curves = views.exceedance_curves(stats)
+        curves = views_fading.exceedance_curves(stats)
         if len(curves):
             names_in = list(dict.fromkeys(curves["curve"]))
             kind_of = dict(zip(curves["curve"], curves["kind"]))
@@ -412,20 +412,22 @@ def fading_statistics(result) -> None:
             figures = _figures_table(rain, _RAIN_KEYS)
             a001 = (rain.get("p530") or {}).get("a001_db")
             if a001 is not None:
-                figures.loc[len(figures)] = [glossary.field_label("a001_db"), views.format_value("a001_db", a001)]
+                figures.loc[len(figures)] = [glossary.field_label("a001_db"),
+                                             views_fading.format_value("a001_db", a001)]
             st.dataframe(figures, hide_index=True, width="stretch")
             st.caption("Deepest rain fade here is from the interval averages (15-min logs) or the samples; the "
                        "event list's deepest fade uses the interval minimum and can be deeper.")
     lcr = stats.get("lcr_afd") or {}
     if lcr and set(lcr) != {"skipped"}:
         st.markdown("##### Level crossings and fade durations")
-        table = views.crossing_table(lcr)
+        table = views_fading.crossing_table(lcr)
         st.dataframe(table, hide_index=True, width="stretch", height=fit_height(len(table)), column_config={
             c: st.column_config.NumberColumn(format="%.1f" if "[1/h]" in c or "[s]" in c else "%g")
             for c in table.columns if c != "Sampling"})
         bits = []
         if lcr.get("fading_bandwidth_hz") is not None:
-            bits.append(f"fading bandwidth {views.format_value('fading_bandwidth_hz', lcr['fading_bandwidth_hz'])}")
+            bandwidth = views_fading.format_value('fading_bandwidth_hz', lcr['fading_bandwidth_hz'])
+            bits.append(f"fading bandwidth {bandwidth}")
         if lcr.get("rice_k_used") is not None:
             bits.append(f"Rice K used {lcr['rice_k_used']:.2f}")
         st.caption("LCR: level-crossing rate (downward crossings per hour); AFD: average fade duration below the "
@@ -434,7 +436,7 @@ def fading_statistics(result) -> None:
     elif lcr:
         st.caption(f"Level crossings and fade durations not computed: {md(lcr['skipped'])}")
     st.markdown("##### Fading by hour of day (UTC)")
-    hourly = views.hourly_fading(stats)
+    hourly = views_fading.hourly_fading(stats)
     if len(hourly) and hourly["faded_min"].sum() > 0:
         present = list(dict.fromkeys(hourly["cause"]))
         st.altair_chart(alt.Chart(hourly).mark_bar().encode(
@@ -505,6 +507,6 @@ def cross_polar(result) -> None:
     if xp.get("hv"):
         st.markdown("##### H and V compared")
         hv = xp["hv"]
-        st.dataframe(views.key_figures({k: hv[k] for k in ("clear_sky_imbalance_db", "imbalance_flag",
+        st.dataframe(views_fading.key_figures({k: hv[k] for k in ("clear_sky_imbalance_db", "imbalance_flag",
                                                               "imbalance_flag_db") if k in hv}),
                      hide_index=True, width="stretch")

@@ -10,7 +10,7 @@ import streamlit as st
 from diag import __version__
 from diag.errors import InputError
 from diag.links import OPTIONAL, Link, make_link
-from diag.report import views
+from diag.report import views_reader
 
 QUANTITY_CHOICES = ["rsl", "tsl", "xpd", "xpl", "es", "ses", "uas"]
 # spreadsheet workbooks are not read: offered in the uploader so the reason can be said in words, not an icon
@@ -178,11 +178,11 @@ def input_check(reports: dict[str, dict], errors: dict[str, str], *, expanded_ed
         with st.container(border=True):
             st.markdown(f"**{md(name)}**")
             left, right = st.columns([3, 2])
-            summary = views.reader_summary(report)
+            summary = views_reader.reader_summary(report)
             left.dataframe(summary, hide_index=True, width="stretch", height=fit_height(len(summary), 600))
-            roles = views.column_roles(report)
+            roles = views_reader.column_roles(report)
             right.dataframe(roles, hide_index=True, width="stretch", height=fit_height(len(roles), 320))
-            rejected = views.rejected_rows(report)
+            rejected = views_reader.rejected_rows(report)
             if len(rejected):
                 right.dataframe(rejected, hide_index=True, width="stretch", height=fit_height(len(rejected), 250))
             for guess in report.get("guesses") or []:

@@ -14,7 +14,7 @@ from hypothesis import strategies as st
 
 from diag import schema
 from diag.links import Link
-from diag.report import views
+from diag.report import views, views_fading, views_reader
 from diag.results import ChannelSeries, LinkResult, OutageResult
 
 LINK = Link("HOP-1", frequency_ghz=18.0, length_km=12.0, polarization="V", threshold_dbm=-70.0)
@@ -152,12 +152,12 @@ def test_hourly_fading_converts_seconds_and_keeps_every_hour():
                          "faded_s_by_cause": {"rain": [0.0] * 15 + [1800.0] + [0.0] * 8,
                                               "multipath": [120.0] * 24},
                          "event_starts_by_cause": {"rain": [0] * 15 + [2] + [0] * 8, "multipath": [1] * 24}}}
-    out = views.hourly_fading(stats)
+    out = views_fading.hourly_fading(stats)
     assert len(out) == 48 and set(out["hour"]) == set(range(24))
     assert out["cause"].iloc[0] == "rain"                                   # CAUSES order, not dict order
     assert out[(out.hour == 15) & (out.cause == "rain")]["faded_min"].item() == 30.0
     assert out["event_starts"].sum() == 2 + 24                              # every fade start counted once
-    assert len(views.hourly_fading({})) == 0
+    assert len(views_fading.hourly_fading({})) == 0
 
 
 def test_exceedance_curves_keep_measured_theory_and_predictions():
@@ -165,7 +165,7 @@ def test_exceedance_curves_keep_measured_theory_and_predictions():
                             "rayleigh_percent": [39.42, 9.516, 0.995], "multipath_percent": [0.0, 0.0, 0.0],
                             "p530_multipath": {"percent_worst_month": [16.0, 3.6, 0.72]}},
              "rain": {"p530": {"percent_of_year": [1.0, 0.1, 0.01], "attenuation_db": [2.4, 8.7, 23.0]}}}
-    out = views.exceedance_curves(stats)
+    out = views_fading.exceedance_curves(stats)
     # zero percentages cannot be drawn on a log axis: dropped, never turned into a tiny number
     assert (out["percent"] > 0).all()
     assert set(out["kind"]) == {"measured", "theory", "prediction"}
@@ -174,7 +174,7 @@ def test_exceedance_curves_keep_measured_theory_and_predictions():
     # Rayleigh: P(fade > 10 dB) = 1 - exp(-10^(-10/10)) = 9.516 % (textbook Rayleigh CDF), carried unchanged
     assert out[(out.kind == "theory") & (out.depth_db == 10.0)]["percent"].item() == pytest.approx(9.516)
     assert len(out[out.curve == "measured, all fades"]) == 2
-    assert len(views.exceedance_curves({})) == 0
+    assert len(views_fading.exceedance_curves({})) == 0
 
 
 def test_key_figures_flatten_nested_results_with_human_labels_and_units():
@@ -182,7 +182,7 @@ def test_key_figures_flatten_nested_results_with_human_labels_and_units():
     data = {"rice_k": {"k_moments_db": 3.2914, "samples": 176341}, "curve": list(range(50)), "skipped": None,
             "note": "drop me", "range_db": [1.0, 2.5], "observed_s": 176341.0, "imbalance_flag": False,
             "afd_s": 8.498}
-    out = views.key_figures(data, skip=("note",))
+    out = views_fading.key_figures(data, skip=("note",))
     table = dict(zip(out["Figure"], out["Value"]))
     assert table["Rice k › Rice K, moment estimate [dB]"] == "3.3 dB"
     assert table["Rice k › Samples"] == "176,341"
@@ -200,7 +200,7 @@ def test_crossing_table_one_row_per_level():
     lcr = {"level_db": [-5.0, -10.0], "crossings": [10, 4], "crossing_rate_hz": [0.01, 0.004],
            "rayleigh_crossing_rate_hz": [0.012, 0.005], "afd_s": [8.0, 4.0], "rayleigh_afd_s": [9.0, 5.0],
            "undersampled": [False, True]}
-    out = views.crossing_table(lcr)
+    out = views_fading.crossing_table(lcr)
     assert out["LCR measured [1/h]"].tolist() == pytest.approx([36.0, 14.4])
     assert out["Sampling"].tolist() == ["adequate", "too coarse: rate and duration biased"]
 
@@ -268,7 +268,7 @@ def test_hop_overview_reads_the_summary():
     assert hop["unavailable_min"] == (25.0, 25.0) and hop["below_threshold_min"] == (40.0, 40.0)
     assert hop["main_cause"] == "rain" and hop["main_cause_label"] == views.cause_label("rain")
     assert views.range_text(hop["availability_pct"], "{:.4f}", " %") == "99.7500 %"
-    assert views.no_data_share(result) == pytest.approx(4800.0 / 604800.0)
+    assert views_reader.no_data_share(result) == pytest.approx(4800.0 / 604800.0)
     table = views.network_table([_result(by_cause=BY_CAUSE_BOUNDS, summary=SUMMARY_BOUNDS), result, _result()])
     assert table["Hop"].tolist() == ["HOP-1"] * 3
     assert table["Availability [%]"].tolist()[:2] == ["83.3333–100.0000", "99.7500"]   # worst lower bound first
@@ -323,13 +323,13 @@ REPORT = {"file": "a.csv", "encoding": "utf-8", "separator": ",", "decimal": "."
 
 
 def test_reader_summary_shows_detection_and_accounting():
-    table = dict(zip(*views.reader_summary(REPORT).to_dict("list").values()))
+    table = dict(zip(*views_reader.reader_summary(REPORT).to_dict("list").values()))
     assert table["Rows"] == "21,590 read, 21,568 kept, 22 not kept"       # read = kept + rejected
     assert table["Data"] == "instantaneous samples, every 1 s"
     assert table["Gaps (no data)"] == "3 gaps, 2 min in all"
     assert "-88.7 dBm" in table["Receiver floor"]
-    roles = views.column_roles(REPORT)
+    roles = views_reader.column_roles(REPORT)
     assert roles["Read as"].tolist() == ["time", "rsl_dbm/sample", "ignored"]
-    rejected = views.rejected_rows(REPORT)
+    rejected = views_reader.rejected_rows(REPORT)
     assert rejected["Count"].tolist() == [22, 2, 1]
     assert rejected["Count"][rejected["Of"].str.startswith("rows")].sum() == REPORT["rows_read"] - REPORT["rows_kept"]
