@@ -23,7 +23,7 @@ from diag import glossary, schema
 from diag.errors import InputError
 from diag.links import Link, match_link, read_links_table
 from diag.report import views
-from diag.ui.charts import cross_polar, event_list, fading_statistics, level_timeline, overview
+from diag.ui.charts import event_list, level_timeline, overview
 from diag.ui.forms import (
     SPREADSHEET_SUFFIXES,
     _link_without_form,
@@ -34,6 +34,7 @@ from diag.ui.forms import (
     show_input_error,
     sidebar,
 )
+from diag.ui.stat_charts import cross_polar, fading_statistics
 
 LOG = logging.getLogger("diag.dashboard")
 ROOT = Path(__file__).resolve().parents[2]
