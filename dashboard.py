@@ -309,7 +309,7 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
         st.session_state.pop("mapping", None)
         st.rerun()
     if applied:
-        from diag.read.ingest import mapping_from_options
+        from diag.read.mapping import mapping_from_options
 
         lines = [re.sub(r"\s*([=:])\s*", r"\1", line.strip()) for line in signals_text.splitlines() if line.strip()]
         try:

@@ -98,7 +98,7 @@ def main(args: argparse.Namespace) -> int:
     links = links_from_args(args)
     mapping = None
     if args.map:
-        from diag.read.ingest import load_mapping
+        from diag.read.mapping import load_mapping
 
         mapping = load_mapping(args.map)
     gauge = None

@@ -57,7 +57,7 @@ def main(args: argparse.Namespace) -> int:
     links = read_links_table(args.links)
     mapping = None
     if args.map:
-        from diag.read.ingest import load_mapping
+        from diag.read.mapping import load_mapping
 
         mapping = load_mapping(args.map)   # checked here: a bad mapping is one error, not one per file
     result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,

@@ -42,7 +42,7 @@ def register(subparsers) -> None:
 
 def mapping_from_args(args: argparse.Namespace) -> dict:
     """The mapping file (if any) with the override flags laid over it (parsing lives in the library)."""
-    from diag.read.ingest import load_mapping, mapping_from_options
+    from diag.read.mapping import load_mapping, mapping_from_options
 
     return mapping_from_options(
         base=load_mapping(args.map), time_cols=args.time_col, time_format=args.time_format,

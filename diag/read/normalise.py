@@ -5,8 +5,7 @@ module parses values vectorised and assembles the sorted long table (duplicates,
 intervals, row and value accounting).  What each column means is decided by ``diag.read.colplan`` (the column plan),
 what
 a header name says is read by ``diag.read.colnames``, time formats are detected and stamps parsed by
-``diag.read.timestamps``;
-their public names are re-exported here (``normalise.plan_columns``, ``normalise.parse_times``, ...).
+``diag.read.timestamps``.
 
 Column roles come from the header names (and units) plus a look at the values:
 
@@ -47,32 +46,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from diag import schema as S
-
-# used here, and re-exported: diag.read.ingest and the tests reach them as normalise.<name>
-from diag.read.colnames import NameInfo, name_role, recognise_name  # noqa: F401
-from diag.read.colplan import (  # noqa: F401
-    DEFAULT_CHANNEL,
-    POWER_UNITS_MW,
-    QUANTITY_ALIASES,
-    ColumnPlan,
-    ValueColumn,
-    plan_columns,
-    quantity_name,
-    section,
-)
-from diag.read.timestamps import (  # noqa: F401
-    TIME_MAX,
-    TIME_MIN,
-    TIME_REASONS,
-    TimeSpec,
-    check_tz,
-    detect_clock_format,
-    detect_date_format,
-    detect_datetime_format,
-    epoch_kind,
-    iso_has_offset,
-    parse_times,
-)
+from diag.read.colnames import recognise_name
+from diag.read.colplan import DEFAULT_CHANNEL, POWER_UNITS_MW, ColumnPlan, section
 
 # value status codes used internally (int8), in the order of schema.STATUSES
 _OK, _LOST, _MISSING = 0, 1, 2
