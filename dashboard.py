@@ -27,7 +27,8 @@ import streamlit as st
 
 from diag import __version__, schema
 from diag.errors import InputError
-from diag.links import OPTIONAL, Link, make_link, match_link, read_links_table
+from diag.links import OPTIONAL, Link, make_link, read_links_table
+from diag.read.hops import NAMED_SOURCES, assign_hops
 from diag.report import views
 
 LOG = logging.getLogger("diag.dashboard")
@@ -781,7 +782,9 @@ def main() -> None:
             base = None
             if links:
                 try:
-                    base = match_link(links, hop, file_name=name)
+                    found = assign_hops([hop], links, file_name=name,
+                                        names_hop=report.get("link_source") in NAMED_SOURCES).hops[hop]
+                    base = next(link for link in links if link.link_id == found)
                 except InputError:
                     base = None
             hops.setdefault(base.link_id if base else hop, base)

@@ -38,8 +38,9 @@ import pandas as pd
 
 from diag import schema
 from diag.errors import InputError
-from diag.links import Link, match_link
+from diag.links import Link
 from diag.read import store
+from diag.read.hops import NAMED_SOURCES, assign_hops, hop_of_file_name
 from diag.read.ingest import expand_paths
 from diag.results import LinkResult
 
@@ -151,20 +152,16 @@ def _default_reader(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, 
     return result.table, report
 
 
-def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
-    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
-    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
-    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
+def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str, report: dict | None = None) -> pd.DataFrame:
+    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses (``diag.read.hops.assign_hops``);
+    rows of a hop the links table lacks keep their id: that hop then fails with the reason."""
     ids = [str(x) for x in pd.unique(table[schema.LINK])]
-    renames: dict[str, str] = {}
-    for link_id in ids:
-        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
-        try:
-            hop = match_link(links, carried, file_name=file_name).link_id
-        except InputError:
-            continue
-        if hop != link_id:
-            renames[link_id] = hop
+    assigned = assign_hops(ids, links, file_name=file_name,
+                           names_hop=(report or {}).get("link_source", "column") in NAMED_SOURCES,
+                           keep_unlisted=True)
+    if report is not None and assigned.warnings:
+        report.setdefault("warnings", []).extend(assigned.warnings)
+    renames = {k: v for k, v in assigned.hops.items() if k != v}
     if not renames:
         return table
     links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
@@ -198,12 +195,12 @@ def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | Non
         table, report = (reader or _default_reader)(path, tz=tz, mapping=mapping)
         if table.empty:
             raise InputError("no usable rows in the log", path=name)
-        table = _assign_hops(table, links, name)
+        table = _assign_hops(table, links, name, report)
         tables = {str(k): _sorted(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
         return _FilePiece(name=name, tables=tables, report=report)
     except Exception as exc:  # one bad file must never stop the run
         try:
-            hop = match_link(links, None, file_name=name).link_id
+            hop = hop_of_file_name(links, name) or (links[0].link_id if len(links) == 1 else None)
         except InputError:
             hop = None
         return _FilePiece(name=name, tables={}, report={}, error=_one_line(exc), hop_of_error=hop)
@@ -622,7 +619,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             meta = fut.result()
         except Exception as exc:  # the task itself could not run (a worker died, environments differ ...)
             try:
-                hop = match_link(links, None, file_name=files[i].name).link_id
+                hop = hop_of_file_name(links, files[i].name) or (links[0].link_id if len(links) == 1 else None)
             except InputError:
                 hop = None
             meta = {"file": files[i].name, "hops": {}, "rows": 0, "error": _one_line(exc), "hop_of_error": hop,
@@ -642,9 +639,8 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         from diag.read.store import store_links
 
         for store_id in store_links(store_path):
-            carried = None if store_id in ("", schema.DEFAULT_LINK_ID) else store_id
             try:
-                hop = match_link(links, carried, file_name=str(store_path)).link_id
+                hop = assign_hops([store_id], links, file_name=str(store_path)).hops[store_id]
             except InputError:
                 hop = store_id
             store_hops.setdefault(hop, []).append((str(store_path), store_id))

@@ -141,19 +141,3 @@ def read_links_table(path_or_text: str | Path, *, text: str | None = None) -> li
 
 def link_field_names() -> list[str]:
     return [f.name for f in fields(Link)]
-
-
-def match_link(links: list[Link], link_id: str | None, *, file_name: str | None = None) -> Link:
-    """The link a log belongs to: by id, else by file name containing an id, else the table's only row."""
-    by_id = {link.link_id: link for link in links}
-    if link_id and link_id in by_id:
-        return by_id[link_id]
-    if file_name:
-        stem = Path(file_name).name
-        hits = [link for link in links if link.link_id and link.link_id in stem]
-        if len(hits) >= 1:
-            return max(hits, key=lambda item: len(item.link_id))
-    if len(links) == 1:
-        return links[0]
-    raise InputError(f"no link in the links table matches {link_id or file_name!r}; add a row for it",
-                     path=file_name)

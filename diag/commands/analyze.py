@@ -47,6 +47,9 @@ def register(subparsers) -> None:
     parser.add_argument("--tz", default=None, metavar="ZONE",
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
     parser.add_argument("--map", metavar="MAPPING", help="mapping file (TOML) overriding column detection")
+    parser.add_argument("--only-listed", action="store_true",
+                        help="analyse only the hops of the links table; rows of other hops are skipped and counted "
+                             "(unlisted_hop) instead of being an error")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     parser.set_defaults(func=main)
 
@@ -96,11 +99,11 @@ def main(args: argparse.Namespace) -> int:
     from diag.report import write_outputs
 
     links = links_from_args(args)
-    mapping = None
-    if args.map:
-        from diag.read.mapping import load_mapping
+    from diag.read.mapping import load_mapping, only_listed
 
-        mapping = load_mapping(args.map)
+    mapping = load_mapping(args.map) if args.map else None
+    if args.only_listed:
+        mapping = only_listed(mapping, links)
     gauge = None
     if args.gauge:
         from diag.read.gauge import read_gauge

@@ -45,6 +45,7 @@ from diag.errors import DataWarning, InputError
 from diag.read import normalise as N
 from diag.read import store
 from diag.read.colplan import ColumnPlan, plan_columns, section
+from diag.read.hops import hop_of_file_name
 from diag.read.ingest_report import IngestReport, ReadResult, summarise
 from diag.read.mapping import load_mapping
 from diag.read.sniff import SAMPLE_BYTES, Dialect, Source, decode_head, file_stem, open_stream, read_head, sniff
@@ -55,7 +56,7 @@ log = logging.getLogger(__name__)
 BLOCK_BYTES = 8 * 1024 * 1024
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
 ROW_REASONS = ("malformed_row", "too_many_fields", "bad_time", "dst_nonexistent", "dst_ambiguous",
-               "time_out_of_range", "unknown_quantity", "duplicate", "conflicting_duplicate")
+               "time_out_of_range", "unknown_quantity", "unlisted_hop", "duplicate", "conflicting_duplicate")
 MAX_RAGGED_ROWS = 200_000   # rows with another field count than the header looked at again; more: malformed_row
 
 __all__ = ["IngestReport", "ReadResult", "read_log", "read_logs", "expand_paths", "folder_files", "ROW_REASONS"]
@@ -234,6 +235,10 @@ def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id)
     else:
         report.link_source = "file_name" if src.stem != S.DEFAULT_LINK_ID else "default"
         default_link = src.stem
+        only = lsec.get("only")
+        if only is not None:   # --only-listed: the hop the file name names (diag.read.hops), else the only one
+            hop = hop_of_file_name(only, src.label)
+            default_link = hop or (str(only[0]) if len(only) == 1 else default_link)
         if report.link_source == "file_name":
             report.guesses.append(f"link id taken from the file name: '{default_link}' (override with --link-id)")
     table = N.assemble(chunks, keys, plan, report, rejected, default_link, mapping, header_line)

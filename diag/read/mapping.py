@@ -105,3 +105,12 @@ def mapping_from_options(*, base: dict | None = None, time_cols: list[str] | Non
             raise InputError("the header line is 1-based")
         sec("file")["header_line"] = int(header_line)
     return {k: v for k, v in mapping.items() if v != {}}
+
+
+def only_listed(mapping: dict | None, links) -> dict:
+    """``mapping`` with ``[link] only`` set to the links table's ids (``--only-listed``): the reader rejects the
+    rows of other hops under ``unlisted_hop`` (``diag.read.hops``)."""
+    out = {k: (dict(v) if isinstance(v, dict) else v) for k, v in (mapping or {}).items()}
+    out.setdefault("link", {})
+    out["link"]["only"] = [str(getattr(x, "link_id", x)) for x in links]
+    return out

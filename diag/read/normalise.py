@@ -356,6 +356,18 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             report.warnings.append(f"rows with unrecognised quantity names skipped: {names} (map them with "
                                    f"[signals] in a mapping file)")
             ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
+    # --only-listed (the mapping's [link] only): rows of hops not in the links table are rejected and counted
+    only = section(mapping, "link").get("only")
+    if only is not None:
+        listed = {str(x) for x in only}
+        unlisted = np.array([(t[0] or default_link) not in listed for t in keys.tuples], dtype=bool)
+        bad = unlisted[key]
+        if bad.any():
+            rejected["unlisted_hop"] += int(bad.sum())
+            names = sorted({keys.tuples[k][0] or default_link for k in np.unique(key[bad])})
+            report.warnings.append(f"{int(bad.sum())} rows of hop(s) not in the links table skipped (unlisted_hop): "
+                                   f"{names[:10]}{' ...' if len(names) > 10 else ''}")
+            ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
     # out-of-order rows (file order, per key)
     placed = rownum >= 0     # rows re-read after a field-count mismatch have no known place (rownum -1)
     if placed.all() and bool(np.all(key[1:] >= key[:-1])):   # keys already grouped in file order: no sort copies

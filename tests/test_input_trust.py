@@ -1,0 +1,117 @@
+"""Trusting the input (issue 15): no silent reassignment, no silent guess, validated tables and flags, bounded
+resources, atomic outputs.  Each numbered case of the issue is one or more tests here, named ``test_case<N>_...``.
+
+No outside source is needed: the rules are the project's own contract (../shared/CONTRACT.md and the accounting
+rule in diag.read.normalise).  Calendar facts (a month field is 1..12; a 15-min log steps 900 s) are common
+practice.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import warnings
+
+import pytest
+
+from diag.cli import main
+from diag.errors import DataWarning, InputError
+from diag.links import make_link
+from diag.read.ingest import read_log
+
+T0 = dt.datetime(2026, 3, 2, tzinfo=dt.timezone.utc)
+LINKS_HEADER = "link_id,frequency_ghz,length_km,polarization,threshold_dbm\n"
+
+
+def _stamp(i: int, step_s: int = 60) -> str:
+    return (T0 + dt.timedelta(seconds=i * step_s)).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _long_log(ids: list[str], n: int = 120, step_s: int = 60) -> str:
+    rows = ["time,link_id,rsl_dbm"]
+    for i in range(n):
+        for k, hop in enumerate(ids):
+            rows.append(f"{_stamp(i, step_s)},{hop},{-45 - k - (i % 5) * 0.2:.1f}")
+    return "\n".join(rows) + "\n"
+
+
+def _wide_log(n: int = 120, step_s: int = 60) -> str:
+    return "time,rsl_dbm\n" + "".join(f"{_stamp(i, step_s)},{-45 - (i % 5) * 0.2:.1f}\n" for i in range(n))
+
+
+def _link(link_id: str, **kw):
+    values = {"link_id": link_id, "frequency_ghz": 23, "length_km": 10, "polarization": "V", "threshold_dbm": -70}
+    values.update(kw)
+    return make_link(values)
+
+
+def _accounted(report) -> bool:
+    return report.rows_read == report.rows_kept + sum(report.rejected.values())
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# case 1: data of one hop reported as another's
+
+def test_case1_unlisted_hop_in_long_log_is_an_error_naming_it(tmp_path):
+    from diag.pipeline import analyze_files
+
+    path = tmp_path / "network.csv"
+    path.write_text(_long_log(["HOP-A", "HOP-X"]))
+    with pytest.raises(InputError, match="HOP-X") as info:
+        analyze_files([path], links=[_link("HOP-A")])
+    assert "--only-listed" in info.value.one_line()
+
+
+def test_case1_only_listed_counts_unlisted_rows(tmp_path):
+    from diag.read.mapping import only_listed
+
+    path = tmp_path / "network.csv"
+    path.write_text(_long_log(["HOP-A", "HOP-X"], n=50))
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DataWarning)
+        read = read_log(path, mapping=only_listed(None, [_link("HOP-A")]))
+    rep = read.report
+    assert rep.rejected == {"unlisted_hop": 50} and rep.rows_read == 100 and _accounted(rep)
+    assert rep.links == ["HOP-A"]
+
+
+def test_case1_only_listed_on_the_command_line(tmp_path, capsys):
+    log = tmp_path / "network.csv"
+    log.write_text(_long_log(["HOP-A", "HOP-X"], n=240))
+    links = tmp_path / "links.csv"
+    links.write_text(LINKS_HEADER + "HOP-A,23,10,V,-70\n")
+    assert main(["analyze", str(log), "--links", str(links), "--out", str(tmp_path / "o1"), "--quiet"]) == 2
+    assert "HOP-X" in capsys.readouterr().err
+    assert main(["analyze", str(log), "--links", str(links), "--out", str(tmp_path / "o2"), "--quiet",
+                 "--only-listed"]) == 0
+    out = capsys.readouterr().out
+    assert "HOP-A" in out and "HOP-X" not in out
+
+
+def test_case1_file_name_never_overrides_the_ids_the_log_names(tmp_path):
+    from diag.pipeline import analyze_files
+
+    path = tmp_path / "HOP-A_export.csv"
+    path.write_text(_long_log(["HOP-B", "HOP-C"]))
+    with pytest.raises(InputError, match="HOP-C"):
+        analyze_files([path], links=[_link("HOP-A"), _link("HOP-B")])
+
+
+def test_case1_file_name_matching_is_by_whole_word_and_never_ambiguous():
+    from diag.read.hops import assign_hops, hop_of_file_name
+
+    links = [_link("1"), _link("2")]
+    assert hop_of_file_name(links, "link_12.csv") is None          # not read as hop 1
+    with pytest.raises(InputError, match="several hops"):
+        hop_of_file_name(links, "1_2.csv")
+    with pytest.raises(InputError, match="names no hop"):
+        assign_hops(["link_12"], links, file_name="link_12.csv", names_hop=False)
+    assert hop_of_file_name([_link("HOP-A"), _link("HOP-A-2")], "HOP-A-2_week.csv") == "HOP-A-2"
+
+
+def test_case1_single_row_table_for_another_hop_warns_naming_both(tmp_path):
+    from diag.pipeline import analyze_files
+
+    path = tmp_path / "export.csv"
+    path.write_text(_long_log(["HM-QUARRY-FERRY"], n=240))
+    with pytest.warns(DataWarning, match="HOP1.*HM-QUARRY-FERRY"):
+        results = analyze_files([path], links=[_link("HOP1")])
+    assert [r.link.link_id for r in results] == ["HOP1"]
