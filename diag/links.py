@@ -141,3 +141,25 @@ def read_links_table(path_or_text: str | Path, *, text: str | None = None) -> li
 
 def link_field_names() -> list[str]:
     return [f.name for f in fields(Link)]
+
+
+def polarisation_guesses(link: Link, channels) -> list[str]:
+    """What polarisation the analysis takes for each channel of a dual-polarised hop when the links table cannot
+    say it per channel: from a channel name token (H/V), or none found (P.838 coefficients then fall back to
+    horizontal where a polarisation is needed).  Each with its override.  A single-polarised hop's polarisation is
+    the links table's: nothing is guessed."""
+    if link.polarization in ("H", "V"):
+        return []
+    from diag.analysis.events import channel_polarization
+
+    out = []
+    for channel in channels:
+        pol = channel_polarization(str(channel), link)
+        if pol is None:
+            out.append(f"channel '{channel}' of dual-polarised hop {link.link_id}: polarisation not known from its "
+                       f"name; H assumed where one is needed (name the channels H and V, e.g. with --signal-col "
+                       f"or [signals] channel)")
+        else:
+            out.append(f"channel '{channel}' of hop {link.link_id} taken as {pol}-polarised from its name (rename "
+                       f"the channel with --signal-col or [signals] channel if wrong)")
+    return out

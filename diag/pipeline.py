@@ -33,7 +33,7 @@ from diag.analysis.classify import classify_events
 from diag.analysis.events import find_events, paint_series
 from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
 from diag.errors import DataWarning, InputError
-from diag.links import Link
+from diag.links import Link, polarisation_guesses
 from diag.read.hops import NAMED_SOURCES, assign_hops
 from diag.results import LinkResult
 
@@ -189,6 +189,9 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     events = classify_events(events, link, config=config)
     paint_series(series, events)
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
+    pol_guesses = polarisation_guesses(link, sorted(series))
+    if pol_guesses:   # the channel polarisations the links table could not give (issue 15 case 4)
+        result.ingest = {**result.ingest, "polarisation_guesses": pol_guesses}
     result.skipped = _skipped_for_link(link)
     if gauge_table is not None and len(events):
         from diag.read import gauge as gauge_mod

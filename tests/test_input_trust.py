@@ -8,6 +8,8 @@ practice.
 from __future__ import annotations
 
 import datetime as dt
+import subprocess
+import sys
 import warnings
 
 import pytest
@@ -41,6 +43,11 @@ def _link(link_id: str, **kw):
     values = {"link_id": link_id, "frequency_ghz": 23, "length_km": 10, "polarization": "V", "threshold_dbm": -70}
     values.update(kw)
     return make_link(values)
+
+
+def _cli(*args: str, timeout: float = 120) -> subprocess.CompletedProcess:
+    """The command line in a child process (where what reaches stderr is the point)."""
+    return subprocess.run([sys.executable, "-m", "diag", *args], capture_output=True, text=True, timeout=timeout)
 
 
 def _accounted(report) -> bool:
@@ -115,3 +122,74 @@ def test_case1_single_row_table_for_another_hop_warns_naming_both(tmp_path):
     with pytest.warns(DataWarning, match="HOP1.*HM-QUARRY-FERRY"):
         results = analyze_files([path], links=[_link("HOP1")])
     assert [r.link.link_id for r in results] == ["HOP1"]
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# cases 2 and 3: month-first dates, UTC assumed silently; case 4 (library side): the polarisation taken
+
+def _slash_log(first: dt.datetime, n: int, step_s: int, month_first: bool = True, sep: str = ";") -> str:
+    fmt = "%m/%d/%Y %H:%M" if month_first else "%d/%m/%Y %H:%M"
+    rows = [f"Time{sep}RSL (dBm)"]
+    for i in range(n):
+        rows.append(f"{(first + dt.timedelta(seconds=i * step_s)).strftime(fmt)}{sep}-45.{i % 10}")
+    return "\n".join(rows) + "\n"
+
+
+def test_case2_month_first_week_is_read_month_first():
+    data = _slash_log(dt.datetime(2026, 11, 1), 7 * 96, 900).encode()
+    rep = read_log(data, name="week.csv").report
+    assert rep.start_utc == "2026-11-01T00:00:00Z" and rep.end_utc == "2026-11-07T23:45:00Z"
+    assert rep.gap_count == 0
+    guess = [g for g in rep.guesses if "time format read as" in g]
+    assert guess and "'%m/%d/%Y %H:%M'" in guess[0] and "--time-format" in guess[0] and "steps regular" in guess[0]
+    assert not rep.method_notes
+
+
+def test_case2_day_first_still_read_day_first():
+    data = _slash_log(dt.datetime(2026, 1, 11), 7 * 96, 900, month_first=False).encode()
+    rep = read_log(data, name="week.csv").report
+    assert rep.start_utc == "2026-01-11T00:00:00Z" and rep.end_utc == "2026-01-17T23:45:00Z"
+
+
+def test_case2_repeated_dst_hour_of_a_month_first_log_is_dst_ambiguous():
+    # US clocks go back on Sunday 1 November 2026 at 02:00 (common practice: first Sunday of November)
+    stamps = []
+    t = dt.datetime(2026, 10, 31, 0, 0)
+    while t < dt.datetime(2026, 11, 2):
+        stamps.append(t)
+        if t == dt.datetime(2026, 11, 1, 1, 45) and len([s for s in stamps if s.hour == 1 and s.day == 1]) == 4:
+            stamps.extend(dt.datetime(2026, 11, 1, 1, m) for m in (0, 15, 30, 45))   # the repeated hour
+        t += dt.timedelta(minutes=15)
+    data = ("Time;RSL (dBm)\n" + "".join(f"{s.strftime('%m/%d/%Y %H:%M')};-45.{i % 9}\n"
+                                          for i, s in enumerate(stamps))).encode()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DataWarning)
+        rep = read_log(data, name="dst.csv", tz="America/New_York").report
+    assert rep.rejected.get("dst_ambiguous") == 8 and "duplicate" not in rep.rejected and _accounted(rep)
+
+
+def test_case2_a_true_tie_is_said_on_stderr_and_kept_for_the_method_notes(capsys, tmp_path):
+    path = tmp_path / "oneday.csv"
+    path.write_text(_slash_log(dt.datetime(2026, 2, 1), 96, 900, month_first=False))
+    with pytest.warns(DataWarning, match="the evidence ties"):
+        rep = read_log(path).report
+    assert rep.method_notes and "the evidence ties" in rep.method_notes[0]
+    run = _cli("ingest", str(path))
+    assert run.returncode == 0 and "diag: warning:" in run.stderr and "the evidence ties" in run.stderr
+
+
+def test_case3_utc_for_offsetless_stamps_is_a_listed_guess():
+    rep = read_log(_wide_log().replace("Z,", ",").encode(), name="x.csv").report
+    assert any("no UTC offset" in g and "--tz" in g for g in rep.guesses)
+    assert not any("no UTC offset" in g for g in read_log(_wide_log().encode(), name="x.csv").report.guesses)
+    rep = read_log(_wide_log().replace("Z,", ",").encode(), name="x.csv", tz="Europe/Vienna").report
+    assert not any("no UTC offset" in g for g in rep.guesses)
+
+
+def test_case4_polarisation_taken_for_a_channel_is_listed(tmp_path):
+    from diag.links import polarisation_guesses
+
+    dual = _link("D", polarization="dual")
+    got = polarisation_guesses(dual, ["H", "main"])
+    assert "'H'" in got[0] and "H-polarised" in got[0] and "not known" in got[1] and "--signal-col" in got[1]
+    assert polarisation_guesses(_link("S", polarization="V"), ["main"]) == []

@@ -221,6 +221,10 @@ def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id)
     report.time = {"columns": list(plan.time.columns), "format": plan.time.fmt or plan.time.kind,
                    "zone": plan.time.tz or ("offset in the stamps" if plan.time.has_offset else "UTC"),
                    "marks": "end" if plan.time.marks_end else "start"}
+    if plan.time.kind not in ("epoch_s", "epoch_ms") and not plan.time.has_offset and not plan.time.tz:
+        report.guesses.append("time stamps carry no UTC offset: read as UTC (give --tz ZONE, e.g. Europe/Vienna, "
+                              "when they are local time)")
+    report.method_notes = [g for g in report.guesses if "the evidence ties" in g]
     if rows_seen and rejected["bad_time"] == rows_seen:
         line, val = first_bad_time[0]
         raise InputError(f"no row has a readable time in {list(plan.time.columns)} (first value '{val}'); give "
@@ -369,6 +373,7 @@ def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str |
         rep.conflicting_duplicates += r.report.conflicting_duplicates
         rep.out_of_order_rows += r.report.out_of_order_rows
         rep.guesses += [f"{r.report.file}: {g}" for g in r.report.guesses]
+        rep.method_notes += [f"{r.report.file}: {g}" for g in r.report.method_notes]
         rep.warnings += [f"{r.report.file}: {w}" for w in r.report.warnings]
     if len(table):
         table = table.sort_values([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable")

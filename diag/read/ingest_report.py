@@ -31,6 +31,7 @@ class IngestReport:
     ignored_columns: list[str] = field(default_factory=list)
     time: dict = field(default_factory=dict)              # columns, format, zone, marks
     guesses: list[str] = field(default_factory=list)      # what was guessed and how to override it
+    method_notes: list[str] = field(default_factory=list)  # guesses the evidence could not settle (for the PDF)
     links: list[str] = field(default_factory=list)
     link_source: str | None = None                        # "column", "argument", "mapping", "file_name", "default"
     channels: list[str] = field(default_factory=list)
