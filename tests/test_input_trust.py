@@ -193,3 +193,39 @@ def test_case4_polarisation_taken_for_a_channel_is_listed(tmp_path):
     got = polarisation_guesses(dual, ["H", "main"])
     assert "'H'" in got[0] and "H-polarised" in got[0] and "not known" in got[1] and "--signal-col" in got[1]
     assert polarisation_guesses(_link("S", polarization="V"), ["main"]) == []
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# cases 5 and 6: a time-of-day column with an offset; the 1980-2100 range on every time path
+
+def test_case5_date_column_and_time_of_day_with_offset_or_z():
+    body = "".join(f"02.03.2026;{h:02d}:00:00+01:00;-44,{h % 10}\n" for h in range(24))
+    data = ("Datum;Uhrzeit;RSL (dBm)\n" + body + "03.03.2026;00:00:00Z;-44,0\n").encode("latin-1")
+    rep = read_log(data, name="export.csv").report
+    assert rep.rows_kept == 25 and not rep.rejected
+    assert rep.start_utc == "2026-03-01T23:00:00Z" and rep.end_utc == "2026-03-03T00:00:00Z"
+    assert not any("no UTC offset" in g for g in rep.guesses)
+
+
+@pytest.mark.parametrize("stamp", ["2026-03-02T{h:02d}:00:00Z", "2026-03-02T{h:02d}:00:00", "2026-03-02 {h:02d}:00",
+                                   "02/03/2026 {h:02d}:00"])
+def test_case6_range_check_on_every_time_path(stamp):
+    stray = stamp.replace("2026", "2150").format(h=0)
+    data = ("time,rsl_dbm\n" + "".join(f"{stamp.format(h=h)},-44.{h % 10}\n" for h in range(24))
+            + f"{stray},-44\n").encode()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DataWarning)
+        rep = read_log(data, name="x.csv").report
+    assert rep.rejected == {"time_out_of_range": 1} and rep.rows_kept == 24 and _accounted(rep)
+    assert rep.end_utc.startswith("2026-03")
+
+
+def test_case6_one_stray_row_does_not_sink_the_analysis(tmp_path):
+    from diag.pipeline import analyze_files
+
+    path = tmp_path / "HOP-A.csv"
+    path.write_text(_wide_log(n=600) + "2150-01-01T00:00:00Z,-45.0\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DataWarning)
+        results = analyze_files([path], links=[_link("HOP-A")])
+    assert results[0].ingest["files"][0]["rejected"] == {"time_out_of_range": 1}

@@ -285,7 +285,7 @@ def _time_spec(samples: list[list[str]], cols: tuple, fmt: str | None, zone: str
         if d is None or c is None:
             raise InputError(f"cannot read the date/time columns {cols} (give --time-format)", path=label,
                              line=header_line)
-        return TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone, guess=guess)
+        return TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone, guess=guess, has_offset=c.endswith("%z"))
     ek = epoch_kind(samples[0])
     if ek:
         return TimeSpec(cols, ek, tz=zone)

@@ -200,10 +200,13 @@ def detect_date_reading(values: list[str]) -> tuple[str | None, str | None]:
 
 
 def detect_clock_format(values: list[str]) -> str | None:
+    """Format of a time-of-day column; ``...%z`` when the times carry a UTC offset or ``Z`` (``01:00:00+01:00``)."""
     vals = _sample_strings(values, 60)
     if not vals:
         return None
     ok = _try_formats(vals, _TIMES)
+    if not ok and sum(1 for v in vals if _ISO_OFFSET_RE.search(v)) >= 0.5 * len(vals):
+        ok = _try_formats(vals, [f + "%z" for f in _TIMES if "%p" not in f])
     return ok[0] if ok else None
 
 
@@ -280,8 +283,8 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
             else:
                 ns[naive], code[naive] = _finish_utc(t.dt.tz_localize("UTC"), int(naive.sum()))
         return ns, code
-    else:
-        t = pd.to_datetime(ser, format=spec.fmt, errors="coerce")
+    else:   # a format with %z: offsets may change within the file (DST), so read straight to UTC
+        t = pd.to_datetime(ser, format=spec.fmt, errors="coerce", utc="%z" in (spec.fmt or ""))
     if getattr(t.dt, "tz", None) is not None:
         return _finish_utc(t.dt.tz_convert("UTC"), n)
     if spec.tz:
@@ -299,7 +302,12 @@ def _iso_fast(text: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
         if ts.null_count:
             return None
         ns = ts.cast(pa.int64()).to_numpy(zero_copy_only=False).astype(np.int64, copy=False)
-        return ns, np.zeros(len(ns), dtype=np.int8)
+        # the plausible range holds on this path too (one stray 2150 stamp must not stretch the grid)
+        lo, hi = TIME_MIN.tz_localize("UTC").value, TIME_MAX.tz_localize("UTC").value
+        oor = (ns < lo) | (ns >= hi)
+        if oor.any():
+            ns = np.where(oor, 0, ns)
+        return ns, oor.astype(np.int8) * 4
     return None
 
 
