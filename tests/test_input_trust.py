@@ -229,3 +229,61 @@ def test_case6_one_stray_row_does_not_sink_the_analysis(tmp_path):
         warnings.simplefilter("ignore", DataWarning)
         results = analyze_files([path], links=[_link("HOP-A")])
     assert results[0].ingest["files"][0]["rejected"] == {"time_out_of_range": 1}
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# cases 7, 8, 9: links-table and flag validation
+
+def _links_file(tmp_path, text: str):
+    path = tmp_path / "links.csv"
+    path.write_text(text)
+    return path
+
+
+def test_case7_threshold_above_nominal_is_refused(tmp_path):
+    from diag.links import read_links_table
+
+    path = _links_file(tmp_path, LINKS_HEADER.strip() + ",nominal_dbm\nHOP-A,23,10,V,-40,-45\n")
+    with pytest.raises(InputError, match="below nominal_dbm") as info:
+        read_links_table(path)
+    assert info.value.line == 2
+    with pytest.raises(InputError, match="below nominal_dbm"):
+        _link("x", threshold_dbm=-70, nominal_dbm=-70)
+
+
+@pytest.mark.parametrize("text, fragment, line", [
+    ("link_id,frequency_ghz,length_km,polarization,threshold_dbm,frequency_ghz\nA,23,10,V,-70,38\n",
+     "more than once", 1),
+    ('link_id,frequency_ghz,length_km,polarization,threshold_dbm\nA,"1,000",10,V,-70\n', "thousands", 2),
+    ("link_id;frequency_ghz;length_km;polarization;threshold_dbm\nA;1.000,5;10;V;-70\n", "thousands", 2),
+    ("# links of the north ring\n\n# fields in SI units\nlink_id,frequency_ghz,length_km,polarization,"
+     "threshold_dbm\nA,23,10,V,-70\nB,23,abc,V,-70\n", "not a number", 6),
+    ("link_id,frequency_ghz,length_km,polarization,threshold_dbm\nA\x07,23,10,V,-70\n", "control character", 2),
+])
+def test_case8_links_table_slips(tmp_path, text, fragment, line):
+    from diag.links import read_links_table
+
+    with pytest.raises(InputError, match=fragment) as info:
+        read_links_table(_links_file(tmp_path, text))
+    assert info.value.line == line
+
+
+def test_case8_decimal_comma_in_a_semicolon_table_still_reads(tmp_path):
+    from diag.links import read_links_table
+
+    links = read_links_table(_links_file(tmp_path, "link_id;frequency_ghz;length_km;polarization;threshold_dbm\n"
+                                                   "A;7,125;10,5;V;-70\n"))
+    assert links[0].frequency_ghz == 7.125 and links[0].length_km == 10.5
+
+
+@pytest.mark.parametrize("kwargs, fragment", [
+    ({"floor": "inf"}, "receiver range"), ({"floor": "nan"}, "receiver range"), ({"floor": "-5"}, "receiver range"),
+    ({"interval_s": -900}, "finite number of seconds"), ({"interval_s": float("nan")}, "finite number of seconds"),
+    ({"interval_s": 1e12}, "finite number of seconds"), ({"signal_cols": ["Lo=rsl:H:min:inf"]}, "finite"),
+])
+def test_case9_nonsense_flags_refused(kwargs, fragment):
+    from diag.read.mapping import mapping_from_options
+
+    with pytest.raises(InputError, match=fragment):
+        mapping_from_options(**kwargs)
+    assert mapping_from_options(floor="-99", interval_s=900)["floor"]["dbm"] == -99.0

@@ -48,7 +48,17 @@ from diag.read.colplan import ColumnPlan, plan_columns, section
 from diag.read.hops import hop_of_file_name
 from diag.read.ingest_report import IngestReport, ReadResult, summarise
 from diag.read.mapping import load_mapping
-from diag.read.sniff import SAMPLE_BYTES, Dialect, Source, decode_head, file_stem, open_stream, read_head, sniff
+from diag.read.sniff import (
+    SAMPLE_BYTES,
+    Dialect,
+    Source,
+    decode_head,
+    file_stem,
+    open_stream,
+    read_head,
+    require_regular_file,
+    sniff,
+)
 from diag.read.timestamps import TIME_REASONS, check_tz, parse_times
 
 log = logging.getLogger(__name__)
@@ -274,6 +284,7 @@ def _classify(source, name: str | None) -> Source:
         raise InputError("file not found", path=label)
     if path.is_dir():
         return Source(label, file_stem(path.name), path, None)
+    require_regular_file(path, label)   # a FIFO or a device would block or never end
     try:
         with open(path, "rb") as fh:
             magic = fh.read(4)

@@ -7,7 +7,9 @@ import codecs
 import csv
 import gzip
 import io
+import os
 import re
+import stat
 import statistics
 import zlib
 from dataclasses import dataclass
@@ -25,6 +27,22 @@ SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
 SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 SNIFF_LINES = 400           # lines looked at to find separator and header
 HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
+
+
+def require_regular_file(path: Path | str, label: str | None = None) -> None:
+    """InputError unless ``path`` is a regular file (a FIFO, a device or a socket would block or never end).
+    Checked with ``os.stat`` before any open; a link to a regular file is fine (reading follows it)."""
+    try:
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        raise InputError("file not found", path=label or str(path)) from None
+    except OSError as exc:
+        raise InputError(f"cannot read ({exc.strerror or exc})", path=label or str(path)) from None
+    if not stat.S_ISREG(mode):
+        kind = ("a folder" if stat.S_ISDIR(mode) else "a named pipe (FIFO)" if stat.S_ISFIFO(mode)
+                else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "a socket" if stat.S_ISSOCK(mode)
+                else "not a regular file")
+        raise InputError(f"not a regular file ({kind}); give a log file", path=label or str(path))
 
 
 @dataclass
