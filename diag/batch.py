@@ -461,10 +461,16 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
         fig.text(0.04, 0.19, "\n".join(text), fontsize=6.5, family="monospace", va="top", color="#a02020")
     fig.text(0.04, 0.03, "Per-hop outputs: hops/<hop>/.  Advice that involves work on towers or near radiating "
              "antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
-    path = Path(path)
-    with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
-        pdf.savefig(fig)
-    return path
+    for text_obj in fig.findobj(matplotlib.text.Text):   # hop ids are user text: a "$" must print, not typeset
+        text_obj.set_parse_math(False)
+
+    def build(tmp: Path) -> None:
+        with PdfPages(tmp, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
+            pdf.savefig(fig)
+
+    from diag.outputs import replace_file
+
+    return replace_file(Path(path), build)   # made beside, renamed into place: never a truncated page
 
 
 # --- the run ----------------------------------------------------------------------------------------------------

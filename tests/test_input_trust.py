@@ -287,3 +287,158 @@ def test_case9_nonsense_flags_refused(kwargs, fragment):
     with pytest.raises(InputError, match=fragment):
         mapping_from_options(**kwargs)
     assert mapping_from_options(floor="-99", interval_s=900)["floor"]["dbm"] == -99.0
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# cases 12, 13, 14: atomic outputs, non-regular files, status 2 (never 1) with one line
+
+@pytest.fixture()
+def hop(tmp_path):
+    """A small clean log of HOP-A and its one-row links table."""
+    log = tmp_path / "HOP-A.csv"
+    log.write_text(_wide_log(n=300))
+    links = tmp_path / "links.csv"
+    links.write_text(LINKS_HEADER + "HOP-A,23,10,V,-70\n")
+    return tmp_path, log, links
+
+
+def _status(capsys, *argv: str) -> tuple[int, str]:
+    code = main(list(argv))
+    err = capsys.readouterr().err.strip()
+    return code, err
+
+
+def _one_error_line(err: str) -> bool:
+    lines = [ln for ln in err.splitlines() if not ln.startswith("diag: warning:")]
+    return len(lines) == 1 and lines[0].startswith("diag: error:") and "Traceback" not in err
+
+
+def test_case12_symlink_in_out_is_replaced_never_followed(hop, capsys):
+    root, log, links = hop
+    victim = root / "victim.txt"
+    victim.write_text("keep me")
+    out = root / "out"
+    out.mkdir()
+    (out / "events.csv").symlink_to(victim)
+    code, _ = _status(capsys, "analyze", str(log), "--links", str(links), "--out", str(out), "--quiet")
+    assert code == 0 and victim.read_text() == "keep me"
+    assert not (out / "events.csv").is_symlink() and (out / "events.csv").read_text().startswith("link_id")
+    assert sorted(p.name for p in root.iterdir()) == ["HOP-A.csv", "links.csv", "out", "victim.txt"]  # no temp left
+
+
+def test_case12_outputs_made_beside_then_moved_a_failure_leaves_the_old_run_whole(hop, capsys, monkeypatch):
+    root, log, links = hop
+    out = root / "out"
+    assert _status(capsys, "analyze", str(log), "--links", str(links), "--out", str(out), "--quiet")[0] == 0
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+    import diag.report as report
+
+    def broken_pdf(results):   # the PDF stage dies after the CSV files were made
+        raise MemoryError
+    monkeypatch.setattr(report, "pdf_bytes", broken_pdf)
+    log.write_text(_wide_log(n=300).replace("-45.", "-47."))
+    code, err = _status(capsys, "analyze", str(log), "--links", str(links), "--out", str(out), "--quiet")
+    assert code == 2 and {p.name: p.read_bytes() for p in out.iterdir()} == before
+    assert sorted(p.name for p in root.iterdir()) == ["HOP-A.csv", "links.csv", "out"]
+
+
+def test_case12_store_replaced_only_when_the_new_one_is_complete(hop, capsys, monkeypatch):
+    root, log, _ = hop
+    from diag.read import store
+
+    out = root / "store"
+    assert _status(capsys, "ingest", str(log), "--out", str(out))[0] == 0
+    marker = (out / store.MARKER).read_bytes()
+    real = store.write_store
+
+    def dies_halfway(table, directory):
+        real(table, directory)
+        raise OSError(28, "No space left on device")
+    monkeypatch.setattr(store, "write_store", dies_halfway)
+    code, err = _status(capsys, "ingest", str(log), "--out", str(out))
+    assert code == 2 and "No space left" in err and (out / store.MARKER).read_bytes() == marker
+    assert store.read_store(out).shape[0] == 300
+    assert sorted(p.name for p in root.iterdir()) == ["HOP-A.csv", "links.csv", "store"]
+
+
+@pytest.mark.skipif(not hasattr(__import__("os"), "mkfifo"), reason="needs named pipes")
+@pytest.mark.parametrize("where", ["log", "gauge", "links", "map"])
+def test_case13_fifo_is_refused_never_opened(hop, capsys, where):
+    import os
+
+    root, log, links = hop
+    fifo = root / "pipe.csv"
+    os.mkfifo(fifo)
+    args = {"log": ["analyze", str(fifo), "--links", str(links)],
+            "gauge": ["analyze", str(log), "--links", str(links), "--gauge", str(fifo)],
+            "links": ["analyze", str(log), "--links", str(fifo)],
+            "map": ["analyze", str(log), "--links", str(links), "--map", str(fifo)]}[where]
+    code, err = _status(capsys, *args, "--out", str(root / "out"), "--quiet")   # would block forever if opened
+    assert code == 2 and _one_error_line(err) and "not a regular file" in err
+
+
+def _case14(root, log, links) -> dict[str, list[str]]:
+    (root / "afile").write_text("x")
+    (root / "dir.parquet").mkdir()
+    (root / "bin.toml").write_bytes(bytes(range(256)))
+    maps = {"hl": '[file]\nheader_line = "abc"\n', "sep": '[file]\nseparator = "ab"\n', "ivx": 'interval_s = "x"\n',
+            "ivinf": "interval_s = inf\n", "ivbig": "interval_s = 1e12\n", "sect": 'file = "x"\n',
+            "fmt": '[time]\nformat = "%"\n', "zone": '[time]\nzone = "Mars/Olympus"\n'}
+    for name, body in maps.items():
+        (root / f"{name}.toml").write_text(body)
+    (root / "g_range.csv").write_text("time,rain_mmh\n2026-03-02T00:00:00Z,0\n2150-03-02T00:05:00Z,1\n")
+    (root / "g_mixed.csv").write_text("time,rain_mmh\n2026-03-02T00:00:00+01:00,0\n2026-03-02T00:05:00+02:00,1\n"
+                                      "2026-03-02T00:10:00,1\n")
+    a = ["analyze", str(log), "--links", str(links), "--quiet", "--out"]
+    cases = {"out_is_file": a + [str(root / "afile")],
+             "parquet_out_is_folder": ["ingest", str(log), "--out", str(root / "dir.parquet")],
+             "binary_map": ["ingest", str(log), "--map", str(root / "bin.toml")],
+             "sep_flag": ["ingest", str(log), "--sep", "::"],
+             "time_format_flag": ["ingest", str(log), "--time-format", "%"],
+             "gauge_out_of_range": a + [str(root / "o1"), "--gauge", str(root / "g_range.csv")],
+             "gauge_mixed_offsets": a + [str(root / "o2"), "--gauge", str(root / "g_mixed.csv")],
+             "store_name_too_long": ["ingest", str(log), "--out", str(root / ("s" * 300))],
+             "interval_flag_nan": ["ingest", str(log), "--interval-s", "nan"],
+             "floor_flag_inf": ["ingest", str(log), "--floor-dbm", "inf"]}
+    for name in maps:
+        cases[f"map_{name}"] = ["ingest", str(log), "--map", str(root / f"{name}.toml")]
+    return cases
+
+
+CASE14 = ["out_is_file", "parquet_out_is_folder", "binary_map", "sep_flag", "time_format_flag", "gauge_out_of_range",
+          "gauge_mixed_offsets", "store_name_too_long", "interval_flag_nan", "floor_flag_inf", "map_hl", "map_sep",
+          "map_ivx", "map_ivinf", "map_ivbig", "map_sect", "map_fmt", "map_zone"]
+
+
+@pytest.mark.parametrize("case", CASE14)
+def test_case14_status_2_with_one_line(hop, capsys, case):
+    root, log, links = hop
+    code, err = _status(capsys, *_case14(root, log, links)[case])
+    assert code == 2 and _one_error_line(err), err
+    assert not (root / "o1").exists() and not (root / "o2").exists()
+
+
+def test_case14_tampered_store_is_status_2(hop, capsys):
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    root, log, _ = hop
+    out = root / "store"
+    assert _status(capsys, "ingest", str(log), "--out", str(out))[0] == 0
+    part = next(out.glob("link=*/day=*/part.parquet"))
+    pq.write_table(pa.table({"a": [1, 2]}), part)
+    code, err = _status(capsys, "ingest", str(out))
+    assert code == 2 and _one_error_line(err) and "store" in err
+
+
+def test_case14_batch_with_a_dollar_id_writes_a_whole_network_page(tmp_path, capsys):
+    log = tmp_path / "net.csv"
+    log.write_text(_long_log(["$\\foo{$"], n=200))
+    links = tmp_path / "links.csv"
+    links.write_text(LINKS_HEADER + "$\\foo{$,23,10,V,-70\n")
+    code, err = _status(capsys, "batch", str(log), "--links", str(links), "--out", str(tmp_path / "o"), "--workers",
+                        "1", "--quiet", "--no-hop-pdf")
+    assert code == 0, err
+    from pypdf import PdfReader
+
+    assert len(PdfReader(tmp_path / "o" / "network_report.pdf").pages) == 1

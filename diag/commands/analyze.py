@@ -95,12 +95,13 @@ def _progress(quiet: bool):
 
 
 def main(args: argparse.Namespace) -> int:
+    from diag.outputs import check_out_path
     from diag.pipeline import analyze_files
+    from diag.read.mapping import load_mapping, only_listed
     from diag.report import write_outputs
 
+    check_out_path(args.out)   # before the analysis: a bad --out is one line now, not after minutes
     links = links_from_args(args)
-    from diag.read.mapping import load_mapping, only_listed
-
     mapping = load_mapping(args.map) if args.map else None
     if args.only_listed:
         mapping = only_listed(mapping, links)

@@ -57,6 +57,9 @@ def main(args: argparse.Namespace) -> int:
         raise InputError("give either --workers (a local cluster) or --scheduler (an existing one), not both")
     if args.scheduler and "://" not in args.scheduler:
         raise InputError(f"--scheduler must be an address like tcp://host:8786, not {args.scheduler!r}")
+    from diag.outputs import check_out_path
+
+    check_out_path(args.out)
     links = read_links_table(args.links)
     from diag.read.mapping import load_mapping, only_listed
 

@@ -35,7 +35,7 @@ def require_regular_file(path: Path | str, label: str | None = None) -> None:
     try:
         mode = os.stat(path).st_mode
     except FileNotFoundError:
-        raise InputError("file not found", path=label or str(path)) from None
+        raise InputError("cannot read (file not found)", path=label or str(path)) from None
     except OSError as exc:
         raise InputError(f"cannot read ({exc.strerror or exc})", path=label or str(path)) from None
     if not stat.S_ISREG(mode):
