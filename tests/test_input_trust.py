@@ -11,6 +11,7 @@ import datetime as dt
 import subprocess
 import sys
 import warnings
+from pathlib import Path
 
 import pytest
 
@@ -442,3 +443,40 @@ def test_case14_batch_with_a_dollar_id_writes_a_whole_network_page(tmp_path, cap
     from pypdf import PdfReader
 
     assert len(PdfReader(tmp_path / "o" / "network_report.pdf").pages) == 1
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# case 11: the simulator writes only under --out
+
+@pytest.mark.parametrize("shape", ["wide_iso", "stats", "long"])
+def test_case11_simulate_never_writes_outside_out(tmp_path, capsys, shape):
+    scen = tmp_path / "evil.toml"
+    scen.write_text(f'''name = "../../escape"
+description = "hostile ids"
+start = "2026-06-08T00:00:00Z"
+duration_h = 1
+interval_s = 10
+
+[[link]]
+link_id = "../../../outside"
+frequency_ghz = 23.0
+length_km = 6.0
+polarization = "V"
+threshold_dbm = -70
+log_shape = "{shape}"
+
+[[link]]
+link_id = "/tmp/abs_{shape}"
+frequency_ghz = 13.0
+length_km = 20.0
+polarization = "V"
+threshold_dbm = -76
+log_shape = "{shape}"
+''')
+    out = tmp_path / "a" / "b" / "out"
+    code = main(["simulate", "--scenario", str(scen), "--out", str(out), "--no-truth-samples"])
+    assert code == 0, capsys.readouterr().err
+    files = [p for p in tmp_path.rglob("*") if p.is_file() and p != scen]
+    assert files and all(out.resolve() in p.resolve().parents for p in files)
+    assert not Path(f"/tmp/abs_{shape}.csv").exists()
+    assert any(p.suffix == ".csv" for p in (out / "logs").rglob("*"))
