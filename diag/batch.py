@@ -42,6 +42,7 @@ from diag.links import Link
 from diag.read import store
 from diag.read.hops import NAMED_SOURCES, assign_hops, hop_of_file_name
 from diag.read.ingest import expand_paths
+from diag.read.ingest_report import hop_view
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -273,8 +274,8 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
         parts = [p.tables.get(link_id) for p in pieces]
         parts += [_store_part(path, sid, link_id) for path, sid in store_refs]
         table, dropped = hop_table(parts)
-        ingest = {"files": [p.report for p in pieces] + [{"file": path, "layout": "store", "store_link_id": sid}
-                                                         for path, sid in store_refs]}
+        ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
+                  + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
         if dropped:
             ingest["overlap_values_dropped"] = dropped
         del parts

@@ -35,6 +35,7 @@ from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids
 from diag.errors import DataWarning, InputError
 from diag.links import Link, polarisation_guesses
 from diag.read.hops import NAMED_SOURCES, assign_hops
+from diag.read.ingest_report import hop_view
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -296,7 +297,7 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
             if link_id != link.link_id:
                 part = part.assign(**{S.LINK: link.link_id})
             pieces.setdefault(link.link_id, []).append(part)
-            reports.setdefault(link.link_id, []).append(report)
+            reports.setdefault(link.link_id, []).append(hop_view(report, str(link_id)))   # O(1) per hop
             names.setdefault(link.link_id, []).append(name)
     results = []
     hop_ids = [link.link_id for link in links if link.link_id in pieces]

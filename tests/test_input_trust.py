@@ -480,3 +480,61 @@ log_shape = "{shape}"
     assert files and all(out.resolve() in p.resolve().parents for p in files)
     assert not Path(f"/tmp/abs_{shape}.csv").exists()
     assert any(p.suffix == ".csv" for p in (out / "logs").rglob("*"))
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# case 10: resource bounds (enforced here; memory against input size is measured in bench/bench_input_bounds.py)
+
+def test_case10_gzip_bomb_stops_at_the_decompressed_bound(monkeypatch):
+    import gzip
+
+    from diag.read import limits
+
+    monkeypatch.setattr(limits, "MAX_DECOMPRESSED_BYTES", 2_000_000)
+    line = b"2026-03-02T00:00:00Z,-45.0\n"
+    bomb = gzip.compress(b"time,rsl_dbm\n" + line * (20_000_000 // len(line)), mtime=0)
+    assert len(bomb) < 100_000
+    with pytest.raises(InputError, match="decompresses to more than 2 MB"):
+        read_log(bomb, name="bomb.csv.gz")
+    from diag.read.gauge import read_gauge
+
+    with pytest.raises(InputError, match="decompresses"):
+        read_gauge(gzip.compress(b"time,rain_mmh\n" + b"2026-03-02T00:00:00Z,1\n" * 200_000, mtime=0),
+                   name="g.csv.gz")
+
+
+def test_case10_hops_per_file_and_channels_per_hop_are_bounded(monkeypatch):
+    from diag.read import limits
+
+    monkeypatch.setattr(limits, "MAX_HOPS_PER_FILE", 50)
+    with pytest.raises(InputError, match="more than 50 hops"):
+        read_log(_long_log([f"H{i}" for i in range(60)], n=2).encode(), name="many.csv")
+    assert read_log(_long_log([f"H{i}" for i in range(50)], n=2).encode(), name="ok.csv").report.rows_kept == 100
+    monkeypatch.setattr(limits, "MAX_CHANNELS_PER_HOP", 8)
+    wide = "time," + ",".join(f"RSL c{i} (dBm)" for i in range(9)) + "\n" + "".join(
+        f"{_stamp(i)}," + ",".join("-45" for _ in range(9)) + "\n" for i in range(5))
+    with pytest.raises(InputError, match="channels"):
+        read_log(wide.encode(), name="wide.csv")
+    long_ = "time,link_id,channel,rsl_dbm\n" + "".join(f"{_stamp(0)},A,c{i},-45\n" for i in range(9))
+    with pytest.raises(InputError, match="channels"):
+        read_log(long_.encode(), name="long.csv")
+
+
+def test_case10_report_per_hop_does_not_grow_with_the_hops_in_the_file(tmp_path):
+    import json
+
+    from diag.pipeline import analyze_files
+    from diag.read.ingest_report import hop_view
+
+    sizes = {}
+    for n in (2, 400):
+        rep = read_log(_long_log([f"H{i:03d}" for i in range(n)], n=3).encode(), name="net.csv").report.to_dict()
+        view = hop_view(rep, "H000")
+        assert view["links"] == ["H000"] and view["hops_in_file"] == n and view["rows_read"] == 3 * n
+        sizes[n] = (len(json.dumps(view)), len(json.dumps(rep)))
+    assert sizes[400][0] < 1.2 * sizes[2][0]      # the hop's part: independent of the ids in the file
+    assert sizes[400][1] > 5 * sizes[2][1]        # (the whole report, once copied per hop, grows with them)
+    path = tmp_path / "net3.csv"
+    path.write_text(_long_log(["H0", "H1", "H2"], n=240))
+    results = analyze_files([path], links=[_link("H0"), _link("H1"), _link("H2")])
+    assert [r.ingest["files"][0]["links"] for r in results] == [["H0"], ["H1"], ["H2"]]

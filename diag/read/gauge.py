@@ -54,9 +54,12 @@ def _read_text(source, name: str | None) -> tuple[str, str]:
     if where.endswith(".gz") or raw[:2] == b"\x1f\x8b":
         import gzip
 
+        from diag.read.limits import MAX_DECOMPRESSED_BYTES, BoundedReader
+
         try:
-            raw = gzip.decompress(raw)
-        except OSError:
+            with gzip.GzipFile(fileobj=io.BytesIO(raw)) as fh:
+                raw = BoundedReader(fh, MAX_DECOMPRESSED_BYTES, where).read()   # a bomb stops at the bound
+        except (OSError, EOFError):
             raise InputError("gauge file is not valid gzip", path=where) from None
     try:
         text = raw.decode("utf-8-sig")

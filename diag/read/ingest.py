@@ -42,8 +42,8 @@ import pyarrow.csv as pacsv
 
 from diag import schema as S
 from diag.errors import DataWarning, InputError
+from diag.read import limits, store
 from diag.read import normalise as N
-from diag.read import store
 from diag.read.colplan import ColumnPlan, plan_columns, section
 from diag.read.hops import hop_of_file_name
 from diag.read.ingest_report import IngestReport, ReadResult, summarise
@@ -115,6 +115,22 @@ def _ragged_rows(texts: list[str], sep: str, ncols: int) -> tuple[list[list[str]
     return rows, np.array(absent, dtype=bool).reshape(len(rows), ncols), too_long
 
 
+def check_key_bounds(tuples: list[tuple], label: str) -> None:
+    """``InputError`` when the (link, channel, quantity-name) keys seen so far exceed the hops-per-file or the
+    channels-per-hop bound (``diag.read.limits``): checked as the blocks stream in, before memory grows."""
+    links = {t[0] for t in tuples}
+    if len(links) > limits.MAX_HOPS_PER_FILE:
+        raise InputError(f"more than {limits.MAX_HOPS_PER_FILE} hops (link ids) in one file, the limit "
+                         f"(DIAG_MAX_HOPS_PER_FILE); split the file", path=label)
+    per_link: dict[str, set] = {}
+    for t in tuples:
+        per_link.setdefault(t[0], set()).add(t[1])
+    worst = max(per_link.items(), key=lambda kv: len(kv[1]))
+    if len(worst[1]) > limits.MAX_CHANNELS_PER_HOP:
+        raise InputError(f"hop {worst[0] or '(unnamed)'!r} has more than {limits.MAX_CHANNELS_PER_HOP} channels, "
+                         f"the limit (DIAG_MAX_CHANNELS_PER_HOP)", path=label)
+
+
 class _RetryLatin1(Exception):
     pass
 
@@ -159,6 +175,10 @@ def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id)
             return
         if plan is None:
             plan = plan_columns(batch, names, mapping, tz, src.label, header_line)
+            if len(plan.values) > limits.MAX_VALUE_COLUMNS:
+                raise InputError(f"{len(plan.values)} signal columns, more than the limit of "
+                                 f"{limits.MAX_VALUE_COLUMNS} (DIAG_MAX_VALUE_COLUMNS)", path=src.label,
+                                 line=header_line)
         cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
         ns, tcode = parse_times(cols, plan.time)
         for code, reason in enumerate(TIME_REASONS, start=1):
@@ -170,7 +190,10 @@ def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id)
         kb = batch.take(pa.array(np.flatnonzero(keep))) if not keep.all() else batch
         m = kb.num_rows
         getcol = lambda c: kb.column(kb.schema.get_field_index(c)) if c else None  # noqa: E731
+        known = len(keys.tuples)
         key = keys.encode([getcol(plan.link_col), getcol(plan.channel_col), getcol(plan.qname_col)], m)
+        if len(keys.tuples) != known:
+            check_key_bounds(keys.tuples, src.label)
         vals = np.empty((m, len(plan.values)), dtype=np.float64)
         reas = np.empty((m, len(plan.values)), dtype=np.int8)
         for j, vc in enumerate(plan.values):

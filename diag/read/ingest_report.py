@@ -151,3 +151,26 @@ def summarise(table: pd.DataFrame, report: IngestReport) -> None:
                    for g in gaps[:MAX_LISTED]]
     if len(gaps) > MAX_LISTED:
         report.warnings.append(f"{len(gaps)} gaps; the first {MAX_LISTED} are listed")
+
+
+PER_LINK_LISTS = ("gaps", "conflicts")   # list items carrying a "link_id" (or a "key" starting with it)
+
+
+def hop_view(report: dict, log_ids) -> dict:
+    """The part of a file's report (``IngestReport.to_dict()``) that concerns some of its hops (``log_ids``: the
+    link ids as the log writes them): file-level facts whole, per-link entries (``links``, ``link_intervals_s``,
+    gaps, conflicts) only for those hops; ``hops_in_file`` keeps the count.  Its size does not grow with the
+    number of hops in the file, so a report repeated per hop stays linear in the input (issue 15, case 10)."""
+    ids = {str(i) for i in ([log_ids] if isinstance(log_ids, str) else log_ids)}
+    if len(report.get("links") or []) <= 1 and not report.get("files"):
+        return report    # one hop in the file: the whole report is the hop's
+    out = {k: v for k, v in report.items() if k not in ("links", "link_intervals_s", "files", *PER_LINK_LISTS)}
+    out["hops_in_file"] = len(report.get("links") or [])
+    out["links"] = [i for i in report.get("links") or [] if i in ids]
+    out["link_intervals_s"] = {k: v for k, v in (report.get("link_intervals_s") or {}).items() if k in ids}
+    for name in PER_LINK_LISTS:
+        items = report.get(name) or []
+        out[name] = [g for g in items if str(g.get("link_id", str(g.get("key", "")).split("/")[0])) in ids]
+    if report.get("files"):
+        out["files"] = [hop_view(f, ids) for f in report["files"] if ids & set(f.get("links") or [])]
+    return out

@@ -46,6 +46,8 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from diag import schema as S
+from diag.errors import InputError
+from diag.read import limits
 from diag.read.colnames import recognise_name
 from diag.read.colplan import DEFAULT_CHANNEL, POWER_UNITS_MW, ColumnPlan, section
 
@@ -442,6 +444,14 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
                 channel = f"{t[1]}-{ch}"
             series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
                            ns[s:e], vals[s:e, j], reas[s:e, j]])   # views: edited in place below
+    # channels per hop (wide layouts name channels in the column names): bounded (diag.read.limits)
+    per_hop: dict[str, set] = {}
+    for sr in series:
+        per_hop.setdefault(sr[0], set()).add(sr[1])
+    for hop, chans in per_hop.items():
+        if len(chans) > limits.MAX_CHANNELS_PER_HOP:
+            raise InputError(f"hop {hop!r} has {len(chans)} channels, more than the limit of "
+                             f"{limits.MAX_CHANNELS_PER_HOP} (DIAG_MAX_CHANNELS_PER_HOP)", path=report.file)
     # physical range
     for sr in series:
         lo, hi = RANGES.get(sr[2], (-np.inf, np.inf))

@@ -19,8 +19,10 @@ import pyarrow as pa
 
 from diag import schema as S
 from diag.errors import InputError
+from diag.read import limits
 from diag.read.colnames import name_role, recognise_name
 from diag.read.colplan import section
+from diag.read.limits import BoundedReader
 
 SAMPLE_BYTES = 256 * 1024
 SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
@@ -100,10 +102,13 @@ def _read_upto(fh, n: int) -> bytes:
 
 
 def open_stream(src: Source):
+    """The source's bytes as a stream; a gzip'd one decompressed, bounded by ``limits.MAX_DECOMPRESSED_BYTES``."""
     if src.data is not None:
         raw = pa.BufferReader(src.data)
-        return pa.CompressedInputStream(raw, "gzip") if src.gz else raw
-    return pa.input_stream(str(src.path), compression="gzip" if src.gz else None)
+        stream = pa.CompressedInputStream(raw, "gzip") if src.gz else raw
+    else:
+        stream = pa.input_stream(str(src.path), compression="gzip" if src.gz else None)
+    return BoundedReader(stream, limits.MAX_DECOMPRESSED_BYTES, src.label) if src.gz else stream
 
 
 def decode_head(head: bytes, complete: bool, label: str) -> tuple[str, str]:
