@@ -27,8 +27,9 @@ import streamlit as st
 
 from diag import __version__, schema
 from diag.errors import InputError
-from diag.links import OPTIONAL, Link, make_link, read_links_table
+from diag.links import OPTIONAL, Link, make_link, polarisation_from_channels, read_links_table
 from diag.read.hops import NAMED_SOURCES, assign_hops
+from diag.read.sniff import file_stem
 from diag.report import views
 
 LOG = logging.getLogger("diag.dashboard")
@@ -225,8 +226,10 @@ def link_form(hop: str, base: Link | None) -> Link | None:
         length = c2.number_input("Length (km)", min_value=0.01, max_value=200.0, step=0.1,
                                  value=values.get("length_km"), key=f"d_{hop}")
         pols = ["H", "V", "dual"]
-        pol = c3.selectbox("Polarisation", pols, index=pols.index(values.get("polarization") or "V"),
-                           key=f"p_{hop}")
+        known = values.get("polarization") or polarisation_from_channels(
+            st.session_state.get("hop_channels", {}).get(hop, []))   # from the channels, else asked: never assumed
+        pol = c3.selectbox("Polarisation", pols, index=pols.index(known) if known in pols else None,
+                           placeholder="choose H, V or dual", key=f"p_{hop}")
         thr = c4.number_input("Receiver threshold (dBm)", min_value=-120.0, max_value=-20.0, step=0.5,
                               value=values.get("threshold_dbm"), key=f"t_{hop}")
         c5, c6, c7, c8 = st.columns(4)
@@ -249,7 +252,8 @@ def link_form(hop: str, base: Link | None) -> Link | None:
 
 def _make(hop: str, values: dict, *, show: bool) -> Link | None:
     missing = [label for label, name in (("frequency", "frequency_ghz"), ("length", "length_km"),
-                                         ("threshold", "threshold_dbm")) if values.get(name) is None]
+                                         ("polarisation", "polarization"), ("threshold", "threshold_dbm"))
+               if values.get(name) is None]
     if missing:
         if show:
             st.info(f"Hop **{md(hop)}**: enter the {', '.join(missing)} to analyse it.")
@@ -778,7 +782,8 @@ def main() -> None:
     hops: dict[str, Link | None] = {}
     for name, report in reports.items():
         for hop in [i for i in report.get("links") or [] if i and i != schema.DEFAULT_LINK_ID] \
-                or [Path(name).name.split(".")[0]]:
+                or [file_stem(name)]:   # as the reader names it: never an empty id ('.csv')
+            st.session_state.setdefault("hop_channels", {})[hop] = report.get("channels") or []
             base = None
             if links:
                 try:
@@ -801,7 +806,7 @@ def main() -> None:
                 chosen_links.append(link)
     if len(chosen_links) < len(hops):
         missing = [h for h in hops if h not in {link.link_id for link in chosen_links}]
-        st.info(f"Analysis starts once every hop has its frequency, length and threshold (still missing: "
+        st.info(f"Analysis starts once every hop has its frequency, length, polarisation and threshold (still missing: "
                 f"{md(', '.join(missing))}). Several files of one hop that name no hop: give them one hop id under "
                 "“Correct the detection” below, or upload a links table.")
         st.markdown("#### What the reader found")

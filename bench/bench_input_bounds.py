@@ -77,7 +77,12 @@ def main() -> None:
         print(f"{n:>8} {size:>8.2f} {peak:>13.1f} {peak / peak0:>9.2f} {n / n0:>9.0f} {info['new_bytes']:>21} "
               f"{info['new_bytes'] / info0['new_bytes']:>11.1f} {old if old >= 0 else '-':>14} "
               f"{(old / info0['old_bytes']) if old >= 0 else float('nan'):>10.1f} {info['s']:>7.2f}")
-    print("peak RSS includes the interpreter and libraries (about the 1k figure); growth beyond it is what scales.")
+    print("peak RSS includes the interpreter and libraries (about the 1k figure); growth beyond it is what scales:")
+    for n, _size, peak, _info, _wall in rows[1:]:
+        if len(rows) > 2 and n != rows[1][0]:
+            print(f"  RSS above the {n0} figure: {peak - peak0:.1f} MiB at {n} ids, "
+                  f"{(peak - peak0) / max(rows[1][2] - peak0, 1e-9):.1f} times that at {rows[1][0]} ids "
+                  f"(ids ratio {n / rows[1][0]:.0f})")
 
 
 if __name__ == "__main__":

@@ -195,3 +195,12 @@ def polarisation_guesses(link: Link, channels) -> list[str]:
             out.append(f"channel '{channel}' of hop {link.link_id} taken as {pol}-polarised from its name (rename "
                        f"the channel with --signal-col or [signals] channel if wrong)")
     return out
+
+
+def polarisation_from_channels(channels) -> str | None:
+    """The hop polarisation the channel names say: "dual" when both H and V channels are named, "H" or "V" when
+    only one is, else None (then it must be asked, never assumed: issue 15 case 4)."""
+    from diag.analysis.events import channel_polarization
+
+    pols = {channel_polarization(str(c)) for c in channels} - {None}
+    return "dual" if pols == {"H", "V"} else (pols.pop() if len(pols) == 1 else None)

@@ -538,3 +538,25 @@ def test_case10_report_per_hop_does_not_grow_with_the_hops_in_the_file(tmp_path)
     path.write_text(_long_log(["H0", "H1", "H2"], n=240))
     results = analyze_files([path], links=[_link("H0"), _link("H1"), _link("H2")])
     assert [r.ingest["files"][0]["links"] for r in results] == [["H0"], ["H1"], ["H2"]]
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# cases 4 and 15: what the dashboard relies on (library side; the page itself is tests/test_dashboard.py)
+
+def test_case4_polarisation_comes_from_the_channels_or_is_none():
+    from diag.links import polarisation_from_channels
+
+    assert polarisation_from_channels(["H", "V"]) == "dual"
+    assert polarisation_from_channels(["RSL V near", "RSL V far"]) == "V"
+    assert polarisation_from_channels(["main"]) is None     # never assumed (the form then asks)
+
+
+def test_case15_upload_named_dot_csv_and_a_1e12_interval():
+    from diag.read.mapping import mapping_from_options
+    from diag.read.sniff import file_stem
+
+    assert file_stem(".csv") == "link" and file_stem("x/.csv.gz") == "link"
+    rep = read_log(_wide_log().encode(), name=".csv").report
+    assert rep.links == ["link"]
+    with pytest.raises(InputError, match="finite number of seconds"):
+        mapping_from_options(signal_cols=["Lo=rsl:H:min:1e12"])

@@ -156,6 +156,18 @@ def summarise(table: pd.DataFrame, report: IngestReport) -> None:
 PER_LINK_LISTS = ("gaps", "conflicts")   # list items carrying a "link_id" (or a "key" starting with it)
 
 
+_SETS: dict[int, tuple[list, frozenset]] = {}
+
+
+def _as_set(items: list) -> frozenset:
+    """A set of ``items``, kept while the same list object is asked about (one file's report, hop after hop)."""
+    hit = _SETS.get(id(items))
+    if hit is None or hit[0] is not items:
+        _SETS.clear()
+        hit = _SETS[id(items)] = (items, frozenset(items))
+    return hit[1]
+
+
 def hop_view(report: dict, log_ids) -> dict:
     """The part of a file's report (``IngestReport.to_dict()``) that concerns some of its hops (``log_ids``: the
     link ids as the log writes them): file-level facts whole, per-link entries (``links``, ``link_intervals_s``,
@@ -165,9 +177,11 @@ def hop_view(report: dict, log_ids) -> dict:
     if len(report.get("links") or []) <= 1 and not report.get("files"):
         return report    # one hop in the file: the whole report is the hop's
     out = {k: v for k, v in report.items() if k not in ("links", "link_intervals_s", "files", *PER_LINK_LISTS)}
-    out["hops_in_file"] = len(report.get("links") or [])
-    out["links"] = [i for i in report.get("links") or [] if i in ids]
-    out["link_intervals_s"] = {k: v for k, v in (report.get("link_intervals_s") or {}).items() if k in ids}
+    links = report.get("links") or []
+    out["hops_in_file"] = len(links)
+    out["links"] = [i for i in sorted(ids) if i in _as_set(links)]   # lookups only: O(1) per hop, not O(hops)
+    intervals = report.get("link_intervals_s") or {}
+    out["link_intervals_s"] = {k: intervals[k] for k in sorted(ids) if k in intervals}
     for name in PER_LINK_LISTS:
         items = report.get(name) or []
         out[name] = [g for g in items if str(g.get("link_id", str(g.get("key", "")).split("/")[0])) in ids]
