@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema
-from diag.errors import InputError
+from diag.errors import InputError, one_line_warnings
 from diag.links import Link
 from diag.read import store
 from diag.read.hops import NAMED_SOURCES, assign_hops, hop_of_file_name
@@ -190,6 +190,7 @@ def hop_table(tables: Iterable[pd.DataFrame]) -> tuple[pd.DataFrame, int]:
 
 
 # --- worker tasks -----------------------------------------------------------------------------------------------
+@one_line_warnings   # worker warnings: one line each, no Python source lines (issue 15 case 16)
 def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None) -> _FilePiece:
     name = Path(path).name
     try:
@@ -257,6 +258,7 @@ def _store_part(store_path: str, store_id: str, hop: str) -> pd.DataFrame:
     return table
 
 
+@one_line_warnings
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.

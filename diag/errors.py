@@ -29,3 +29,35 @@ class InputError(ValueError):
 
 class DataWarning(UserWarning):
     """Something in the data the caller should know about (out-of-order rows, DST ambiguity ...)."""
+
+
+def format_warning_line(message) -> str:
+    """A warning as the command line shows it: one line, no source location or code."""
+    return f"diag: warning: {' '.join(str(message).split())[:400]}\n"
+
+
+def one_line_warnings(function):
+    """Decorator for tasks run in worker processes (``diag.batch``): warnings raised inside are written to stderr
+    as ``format_warning_line`` gives them (one line each, once per message), not with Python's file, line number
+    and source line."""
+    import functools
+    import sys
+    import warnings
+
+    @functools.wraps(function)
+    def run(*args, **kwargs):
+        with warnings.catch_warnings():
+            warnings.simplefilter("default")
+            seen: set[str] = set()
+
+            def show(message, category, filename, lineno, file=None, line=None):
+                text = format_warning_line(message)
+                if text not in seen:
+                    seen.add(text)
+                    try:
+                        (file or sys.stderr).write(text)
+                    except (OSError, ValueError):
+                        pass
+            warnings.showwarning = show
+            return function(*args, **kwargs)
+    return run

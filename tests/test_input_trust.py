@@ -560,3 +560,19 @@ def test_case15_upload_named_dot_csv_and_a_1e12_interval():
     assert rep.links == ["link"]
     with pytest.raises(InputError, match="finite number of seconds"):
         mapping_from_options(signal_cols=["Lo=rsl:H:min:1e12"])
+
+
+# ---------------------------------------------------------------------------------------------------------------
+# case 16: worker warnings on batch output, one line each
+
+def test_case16_batch_worker_warnings_are_one_line_each(tmp_path):
+    log = tmp_path / "HOP-A.csv"
+    log.write_text(_wide_log(n=300) + f"{_stamp(400)},-45,99,extra\n{_stamp(401)}\n")
+    links = tmp_path / "links.csv"
+    links.write_text(LINKS_HEADER + "HOP-A,23,10,V,-70\n")
+    run = _cli("batch", str(log), "--links", str(links), "--out", str(tmp_path / "o"), "--workers", "1",
+               "--no-hop-pdf", "--quiet", timeout=300)
+    assert run.returncode == 0, run.stderr
+    warned = [ln for ln in run.stderr.splitlines() if "warning" in ln.lower()]
+    assert warned and all(ln.startswith("diag: warning: ") for ln in warned), run.stderr
+    assert ".py:" not in run.stderr and "read_log(" not in run.stderr and len(warned) == len(set(warned))
