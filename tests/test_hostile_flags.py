@@ -12,7 +12,7 @@ import datetime as dt
 import json
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from diag.cli import main
@@ -83,6 +83,8 @@ def _check(code: int, err: str) -> None:
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow,
                                                                   HealthCheck.function_scoped_fixture])
 @given(text=mapping_text())
+@example(text='[file]\nheader_line = "abc"\n')   # status 1 before issue 15
+@example(text="interval_s = 1e12\n")
 def test_any_mapping_file_gives_status_0_or_2(log_file, tmp_path_factory, capsys, text):
     path = tmp_path_factory.mktemp("map") / "m.toml"
     path.write_text(text, encoding="utf-8")
@@ -92,6 +94,9 @@ def test_any_mapping_file_gives_status_0_or_2(log_file, tmp_path_factory, capsys
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow,
                                                                   HealthCheck.function_scoped_fixture])
 @given(flags=st.lists(st.tuples(st.sampled_from(FLAGS), FLAG_VALUES), max_size=4))
+@example(flags=[("--sep", "::")])                 # status 1 before issue 15
+@example(flags=[("--time-format", "%")])
+@example(flags=[("--signal-col", "Lo=rsl:H:min:inf")])
 def test_any_override_flags_give_status_0_or_2(log_file, capsys, flags):
     argv = ["ingest", str(log_file)]
     for flag, value in flags:

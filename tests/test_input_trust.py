@@ -154,9 +154,9 @@ def test_case2_day_first_still_read_day_first():
 
 def test_case2_repeated_dst_hour_of_a_month_first_log_is_dst_ambiguous():
     # US clocks go back on Sunday 1 November 2026 at 02:00 (common practice: first Sunday of November)
-    stamps = []
-    t = dt.datetime(2026, 10, 31, 0, 0)
-    while t < dt.datetime(2026, 11, 2):
+    stamps = []   # every day number <= 12: only the steps and the span tell month-first from day-first
+    t = dt.datetime(2026, 11, 1, 0, 0)
+    while t < dt.datetime(2026, 11, 4):
         stamps.append(t)
         if t == dt.datetime(2026, 11, 1, 1, 45) and len([s for s in stamps if s.hour == 1 and s.day == 1]) == 4:
             stamps.extend(dt.datetime(2026, 11, 1, 1, m) for m in (0, 15, 30, 45))   # the repeated hour
@@ -337,7 +337,9 @@ def test_case12_outputs_made_beside_then_moved_a_failure_leaves_the_old_run_whol
     def broken_pdf(results):   # the PDF stage dies after the CSV files were made
         raise MemoryError
     monkeypatch.setattr(report, "pdf_bytes", broken_pdf)
-    log.write_text(_wide_log(n=300).replace("-45.", "-47."))
+    faded = _wide_log(n=300).splitlines()
+    faded[101:140] = [f"{_stamp(i - 1)},-80.0" for i in range(101, 140)]   # a deep fade: new events.csv rows
+    log.write_text("\n".join(faded) + "\n")
     code, err = _status(capsys, "analyze", str(log), "--links", str(links), "--out", str(out), "--quiet")
     assert code == 2 and {p.name: p.read_bytes() for p in out.iterdir()} == before
     assert sorted(p.name for p in root.iterdir()) == ["HOP-A.csv", "links.csv", "out"]
