@@ -35,9 +35,11 @@ from pathlib import Path
 import pandas as pd
 
 from diag import schema
-from diag.errors import InputError
-from diag.links import Link, match_link
-from diag.read.hops import assign_hops, expand_inputs, hop_table, read_file_table, sorted_table, store_part
+from diag.errors import InputError, one_line_warnings
+from diag.links import Link
+from diag.read.hop_match import NAMED_SOURCES, assign_hops, hop_of_file_name
+from diag.read.hops import expand_inputs, hop_table, read_file_table, sorted_table, store_part
+from diag.read.ingest_report import hop_view
 from diag.report.network import (  # noqa: F401 - re-exported: the network table is part of a run
     COMBINED_FILES,
     RANKING_COLUMNS,
@@ -127,18 +129,37 @@ def _one_line(exc: BaseException) -> str:
     return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
 
 
+def _assign_hops(table: pd.DataFrame, links: list[Link], file_name: str, report: dict | None = None) -> pd.DataFrame:
+    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses (``diag.read.hop_match.assign_hops``);
+    rows of a hop the links table lacks keep their id: that hop then fails with the reason."""
+    ids = [str(x) for x in pd.unique(table[schema.LINK])]
+    assigned = assign_hops(ids, links, file_name=file_name,
+                           names_hop=(report or {}).get("link_source", "column") in NAMED_SOURCES,
+                           keep_unlisted=True)
+    if report is not None and assigned.warnings:
+        report.setdefault("warnings", []).extend(assigned.warnings)
+    renames = {k: v for k, v in assigned.hops.items() if k != v}
+    if not renames:
+        return table
+    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
+    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
+
+
+
+# --- worker tasks -----------------------------------------------------------------------------------------------
+@one_line_warnings   # worker warnings: one line each, no Python source lines (issue 15 case 16)
 def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None) -> _FilePiece:
     name = Path(path).name
     try:
         table, report = (reader or read_file_table)(path, tz=tz, mapping=mapping)
         if table.empty:
             raise InputError("no usable rows in the log", path=name)
-        table = assign_hops(table, links, name)
+        table = _assign_hops(table, links, name, report)
         tables = {str(k): sorted_table(g) for k, g in table.groupby(schema.LINK, sort=True, observed=True)}
         return _FilePiece(name=name, tables=tables, report=report)
     except Exception as exc:  # one bad file must never stop the run
         try:
-            hop = match_link(links, None, file_name=name).link_id
+            hop = hop_of_file_name(links, name) or (links[0].link_id if len(links) == 1 else None)
         except InputError:
             hop = None
         return _FilePiece(name=name, tables={}, report={}, error=_one_line(exc), hop_of_error=hop)
@@ -185,6 +206,7 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
                 for p in sorted(Path(tmp).rglob("*")) if p.is_file()}
 
 
+@one_line_warnings
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
@@ -202,8 +224,8 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
         parts = [p.tables.get(link_id) for p in pieces]
         parts += [store_part(path, sid, link_id) for path, sid in store_refs]
         table, dropped = hop_table(parts)
-        ingest = {"files": [p.report for p in pieces] + [{"file": path, "layout": "store", "store_link_id": sid}
-                                                         for path, sid in store_refs]}
+        ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
+                  + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
         if dropped:
             ingest["overlap_values_dropped"] = dropped
         del parts
@@ -358,7 +380,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             meta = fut.result()
         except Exception as exc:  # the task itself could not run (a worker died, environments differ ...)
             try:
-                hop = match_link(links, None, file_name=files[i].name).link_id
+                hop = hop_of_file_name(links, files[i].name) or (links[0].link_id if len(links) == 1 else None)
             except InputError:
                 hop = None
             meta = {"file": files[i].name, "hops": {}, "rows": 0, "error": _one_line(exc), "hop_of_error": hop,
@@ -378,9 +400,8 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         from diag.read.store import store_links
 
         for store_id in store_links(store_path):
-            carried = None if store_id in ("", schema.DEFAULT_LINK_ID) else store_id
             try:
-                hop = match_link(links, carried, file_name=str(store_path)).link_id
+                hop = assign_hops([store_id], links, file_name=str(store_path)).hops[store_id]
             except InputError:
                 hop = store_id
             store_hops.setdefault(hop, []).append((str(store_path), store_id))

@@ -8,7 +8,6 @@ xpd_required_db``.  A missing optional field is ``None``; the analysis names the
 from __future__ import annotations
 
 import csv
-import io
 import math
 import re
 from dataclasses import asdict, dataclass
@@ -16,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from diag.errors import InputError
+from diag.errors import InputError, require_regular_file
 
 REQUIRED = ("link_id", "frequency_ghz", "length_km", "polarization", "threshold_dbm")
 OPTIONAL = ("nominal_dbm", "tx_dbm", "antenna_gain_dbi", "antenna_height_m", "geoclimatic_k", "r001_mmh",
@@ -80,9 +79,13 @@ def _number(name: str, raw, *, where: str, line: int | None, required: bool) -> 
         if required:
             raise InputError(f"links table: '{name}' is required but empty", path=where, line=line)
         return None
+    text = str(raw).strip()
+    if isinstance(raw, str) and (("," in text and "." in text) or re.fullmatch(r"[-+]?\d{1,3}( \d{3})+", text)):
+        raise InputError(f"links table: '{name}' = {text[:40]!r} looks like a number with a thousands separator; "
+                         f"write it without one (e.g. 1000 or 1.5)", path=where, line=line)
     try:
-        value = float(str(raw).strip().replace(",", ".")) if isinstance(raw, str) else float(raw)
-    except ValueError:
+        value = float(text.replace(",", ".")) if isinstance(raw, str) else float(raw)
+    except (ValueError, OverflowError):
         raise InputError(f"links table: '{name}' is not a number: {str(raw)[:40]!r}", path=where,
                          line=line) from None
     if not math.isfinite(value):
@@ -115,6 +118,10 @@ def make_link(values: dict, *, where: str = "link parameters", line: int | None 
         kwargs[name] = _number(name, values.get(name), where=where, line=line, required=True)
     for name in OPTIONAL:
         kwargs[name] = _number(name, values.get(name), where=where, line=line, required=False)
+    if kwargs["nominal_dbm"] is not None and not kwargs["threshold_dbm"] < kwargs["nominal_dbm"]:
+        raise InputError(f"links table: threshold_dbm {kwargs['threshold_dbm']:g} must be below nominal_dbm "
+                         f"{kwargs['nominal_dbm']:g} (the receiver threshold is the weakest level it works at)",
+                         path=where, line=line)
     return Link(**kwargs)
 
 
@@ -122,6 +129,7 @@ def read_links_table(path_or_text: str | Path, *, text: str | None = None) -> li
     """Read a links table CSV (comma or semicolon separated).  Raises ``InputError`` on any bad row."""
     where = str(path_or_text)
     if text is None:
+        require_regular_file(path_or_text, where)
         try:
             raw = Path(path_or_text).read_bytes()
         except OSError as exc:
@@ -130,19 +138,40 @@ def read_links_table(path_or_text: str | Path, *, text: str | None = None) -> li
             text = raw.decode("utf-8-sig")
         except UnicodeDecodeError:
             text = raw.decode("latin-1")
-    lines = [ln for ln in text.splitlines() if ln.strip() and not ln.lstrip().startswith("#")]
+    # physical line numbers: blank and comment lines are skipped but still counted
+    lines = [(number, ln) for number, ln in enumerate(text.splitlines(), start=1)
+             if ln.strip() and not ln.lstrip().startswith("#")]
     if not lines:
         raise InputError("links table is empty", path=where)
-    sep = ";" if lines[0].count(";") > lines[0].count(",") else ","
-    reader = csv.DictReader(io.StringIO("\n".join(lines)), delimiter=sep)
-    header = [h.strip().lower() for h in (reader.fieldnames or [])]
+    for number, ln in lines:
+        bad = next((ch for ch in ln if ord(ch) < 32 and ch != "\t" or ord(ch) == 127), None)
+        if bad is not None:
+            raise InputError(f"links table: control character U+{ord(bad):04X} in the line; remove it", path=where,
+                             line=number)
+    first = lines[0][1]
+    sep = ";" if first.count(";") > first.count(",") else ","
+    rows = list(csv.reader([ln for _, ln in lines], delimiter=sep))
+    header = [h.strip().lower() for h in rows[0]]
+    dup = sorted({h for h in header if h and header.count(h) > 1})
+    if dup:
+        raise InputError(f"links table: column(s) {', '.join(dup)} appear more than once", path=where,
+                         line=lines[0][0])
     missing = [name for name in REQUIRED if name not in header]
     if missing:
-        raise InputError(f"links table lacks column(s) {', '.join(missing)}", path=where, line=1)
-    reader.fieldnames = header
+        raise InputError(f"links table lacks column(s) {', '.join(missing)}", path=where, line=lines[0][0])
     links: list[Link] = []
     seen: set[str] = set()
-    for number, row in enumerate(reader, start=2):
+    for (number, _), fields_ in zip(lines[1:], rows[1:]):
+        if len(fields_) > len(header) and any(f.strip() for f in fields_[len(header):]):
+            raise InputError(f"links table: {len(fields_)} fields, the header has {len(header)}", path=where,
+                             line=number)
+        row = dict(zip(header, fields_))
+        if sep == ",":   # a comma inside a quoted field of a comma-separated table: "1,000" is 1000 or 1.0?
+            for name, value in row.items():
+                if name in _RANGES and re.fullmatch(r"\s*[-+]?\d{1,3}(,\d{3})+\s*", value or ""):
+                    raise InputError(f"links table: '{name}' = {value.strip()!r} may hold a thousands separator or "
+                                     f"a decimal comma; write it with a decimal point and no separator",
+                                     path=where, line=number)
         link = make_link(row, where=where, line=number)
         if link.link_id in seen:
             raise InputError(f"links table: link_id {link.link_id!r} appears twice", path=where, line=number)
@@ -170,17 +199,28 @@ def channel_polarization(channel: str, link: Link | None = None, default: str | 
     return default
 
 
-def match_link(links: list[Link], link_id: str | None, *, file_name: str | None = None) -> Link:
-    """The link a log belongs to: by id, else by file name containing an id, else the table's only row."""
-    by_id = {link.link_id: link for link in links}
-    if link_id and link_id in by_id:
-        return by_id[link_id]
-    if file_name:
-        stem = Path(file_name).name
-        hits = [link for link in links if link.link_id and link.link_id in stem]
-        if len(hits) >= 1:
-            return max(hits, key=lambda item: len(item.link_id))
-    if len(links) == 1:
-        return links[0]
-    raise InputError(f"no link in the links table matches {link_id or file_name!r}; add a row for it",
-                     path=file_name)
+def polarisation_guesses(link: Link, channels) -> list[str]:
+    """What polarisation the analysis takes for each channel of a dual-polarised hop when the links table cannot
+    say it per channel: from a channel name token (H/V), or none found (P.838 coefficients then fall back to
+    horizontal where a polarisation is needed).  Each with its override.  A single-polarised hop's polarisation is
+    the links table's: nothing is guessed."""
+    if link.polarization in ("H", "V"):
+        return []
+    out = []
+    for channel in channels:
+        pol = channel_polarization(str(channel), link)
+        if pol is None:
+            out.append(f"channel '{channel}' of dual-polarised hop {link.link_id}: polarisation not known from its "
+                       f"name; H assumed where one is needed (name the channels H and V, e.g. with --signal-col "
+                       f"or [signals] channel)")
+        else:
+            out.append(f"channel '{channel}' of hop {link.link_id} taken as {pol}-polarised from its name (rename "
+                       f"the channel with --signal-col or [signals] channel if wrong)")
+    return out
+
+
+def polarisation_from_channels(channels) -> str | None:
+    """The hop polarisation the channel names say: "dual" when both H and V channels are named, "H" or "V" when
+    only one is, else None (then it must be asked, never assumed: issue 15 case 4)."""
+    pols = {channel_polarization(str(c)) for c in channels} - {None}
+    return "dual" if pols == {"H", "V"} else (pols.pop() if len(pols) == 1 else None)

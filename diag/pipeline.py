@@ -23,6 +23,7 @@ import contextlib
 import logging
 import os
 import sys
+import warnings
 from collections.abc import Callable, Iterable, Sequence
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
@@ -35,11 +36,13 @@ from diag.analysis.classify import classify_events
 from diag.analysis.events import find_events, paint_series
 from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
 from diag.config import AnalysisConfig
-from diag.errors import InputError
-from diag.links import Link, match_link
+from diag.errors import DataWarning, InputError
+from diag.links import Link, polarisation_guesses
 from diag.read.gauge import check_rain_verdicts, read_gauge
+from diag.read.hop_match import NAMED_SOURCES, assign_hops
 from diag.read.hops import hop_table
 from diag.read.ingest import expand_paths, read_log
+from diag.read.ingest_report import hop_view
 from diag.results import LinkResult
 
 log = logging.getLogger(__name__)
@@ -192,6 +195,9 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     events = classify_events(events, link, config=config)
     paint_series(series, events)
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
+    pol_guesses = polarisation_guesses(link, sorted(series))
+    if pol_guesses:   # the channel polarisations the links table could not give (issue 15 case 4)
+        result.ingest = {**result.ingest, "polarisation_guesses": pol_guesses}
     result.skipped = _skipped_for_link(link)
     if gauge_table is not None and len(events):
         checked = check_rain_verdicts(events, gauge_table)
@@ -212,15 +218,20 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
 
 def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: AnalysisConfig | None = None,
                    gauge=None, progress: Progress | None = None) -> list[LinkResult]:
-    """Analyse every hop of a normalised table; rows are matched to ``links`` by ``link_id`` (a table with one
-    link id and a links table of one row match each other whatever the id)."""
+    """Analyse every hop of a normalised table; rows are matched to ``links`` by ``link_id``
+    (:func:`diag.read.hop_match.assign_hops`: a table with one link id and a links table of one row match each other
+    whatever the id, with a warning naming both)."""
     gauge_table = _load_gauge(gauge)
     ids = list(pd.unique(table[S.LINK])) if len(table) else []
     if not ids:
         raise InputError("no rows to analyse")
     jobs = []
+    by_id = {link.link_id: link for link in links}
+    assigned = assign_hops([str(i) for i in ids], links)
+    for message in assigned.warnings:
+        warnings.warn(message, DataWarning, stacklevel=2)
     for link_id in ids:
-        link = match_link(list(links), str(link_id))
+        link = by_id[assigned.hops[str(link_id)]]
         part = table[table[S.LINK] == link_id]
         if link_id != link.link_id:
             part = part.assign(**{S.LINK: link.link_id})
@@ -251,13 +262,14 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
                   progress: Progress | None = None) -> list[LinkResult]:
     """Read log files (paths, folders or ``(name, bytes)`` pairs), match each to its hop, analyse every hop.
 
-    A log's rows are matched to ``links`` by the link id they carry, else by the file name containing a link id,
-    else to the table's only row (:func:`diag.links.match_link`).  ``progress(done, total, message)`` is called
-    after each file read and each hop analysed.
+    A log's rows are matched to ``links`` by the rule of :mod:`diag.read.hop_match` (the ids the log names must be
+    listed; a log that names none: the id its file name contains, else the table's only row).
+    ``progress(done, total, message)`` is called after each file read and each hop analysed.
     """
     items = expand_sources(sources)
     gauge_table = _load_gauge(gauge)
     links = list(links)
+    by_id = {link.link_id: link for link in links}
     pieces: dict[str, list[pd.DataFrame]] = {}
     reports: dict[str, list[dict]] = {}
     names: dict[str, list[str]] = {}
@@ -274,15 +286,18 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
         report = read.report.to_dict() if hasattr(read.report, "to_dict") else dict(read.report or {})
         if table.empty:
             raise InputError("no usable rows in the log", path=name)
-        for link_id, part in table.groupby(S.LINK, sort=False):
-            carried = None if link_id in ("", S.DEFAULT_LINK_ID) else str(link_id)
-            link = match_link(links, carried, file_name=name)
+        assigned = assign_hops([str(i) for i in pd.unique(table[S.LINK])], links, file_name=name,
+                               names_hop=report.get("link_source") in NAMED_SOURCES)
+        for message in assigned.warnings:
+            warnings.warn(f"{name}: {message}", DataWarning, stacklevel=2)
+            report.setdefault("warnings", []).append(message)
+        for link_id, part in table.groupby(S.LINK, sort=False, observed=True):
+            link = by_id[assigned.hops[str(link_id)]]
             if link_id != link.link_id:
                 part = part.assign(**{S.LINK: link.link_id})
             pieces.setdefault(link.link_id, []).append(part)
-            reports.setdefault(link.link_id, []).append(report)
+            reports.setdefault(link.link_id, []).append(hop_view(report, str(link_id)))   # O(1) per hop
             names.setdefault(link.link_id, []).append(name)
-    by_id = {link.link_id: link for link in links}
     results = []
     hop_ids = [link.link_id for link in links if link.link_id in pieces]
     for done, link_id in enumerate(hop_ids):

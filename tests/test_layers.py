@@ -1,7 +1,7 @@
 """The package tree shows the pipeline: no import from a lower stage to a higher one, and no import circle.
 
 Stage order (DEVELOPERS.md, docs/architecture.py): base modules (errors, schema, links, results, config, glossary,
-numeric) -> models -> read -> analysis -> report -> sim -> pipeline/outputs -> batch -> commands/cli -> ui.
+numeric, outputs) -> models -> read -> analysis -> report -> sim -> pipeline -> batch -> commands/cli -> ui.
 A module may import its own stage and any lower one, at top level or inside a function.  A project rule (issue 13),
 no outside source needed.
 """
@@ -11,8 +11,8 @@ import ast
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-STAGES = (("errors", "schema", "links", "results", "config", "glossary", "numeric"), ("models",), ("read",),
-          ("analysis",), ("report",), ("sim",), ("pipeline", "outputs"), ("batch",),
+STAGES = (("errors", "schema", "links", "results", "config", "glossary", "numeric", "outputs"), ("models",),
+          ("read",), ("analysis",), ("report",), ("sim",), ("pipeline",), ("batch",),
           ("commands", "cli", "__main__"), ("ui",))
 
 

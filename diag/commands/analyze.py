@@ -48,6 +48,9 @@ def register(subparsers) -> None:
     parser.add_argument("--tz", default=None, metavar="ZONE",
                         help="time zone of logs whose timestamps carry none (e.g. Europe/Lisbon); default UTC")
     parser.add_argument("--map", metavar="MAPPING", help="mapping file (TOML) overriding column detection")
+    parser.add_argument("--only-listed", action="store_true",
+                        help="analyse only the hops of the links table; rows of other hops are skipped and counted "
+                             "(unlisted_hop) instead of being an error")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     from diag.commands.ingest import add_reader_overrides
 
@@ -96,13 +99,18 @@ def _progress(quiet: bool):
 
 
 def main(args: argparse.Namespace) -> int:
+    from diag.outputs import check_out_path
     from diag.pipeline import analyze_files
+    from diag.read.mapping import only_listed
     from diag.report import write_outputs
 
+    check_out_path(args.out)   # before the analysis: a bad --out is one line now, not after minutes
     links = links_from_args(args)
     from diag.commands.ingest import mapping_from_args
 
     mapping = mapping_from_args(args) or None     # the mapping file with the reader override flags laid over it
+    if args.only_listed:
+        mapping = only_listed(mapping, links)
     gauge = None
     if args.gauge:
         from diag.read.gauge import read_gauge

@@ -32,6 +32,9 @@ def register(subparsers) -> None:
     parser.add_argument("--no-hop-pdf", action="store_true",
                         help="skip each hop's report.pdf (the slow part for big networks); the CSV/JSON files and "
                              "the network page are still written")
+    parser.add_argument("--only-listed", action="store_true",
+                        help="analyse only the hops of the links table; rows of other hops are skipped and counted "
+                             "(unlisted_hop)")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     parser.set_defaults(func=main)
 
@@ -54,12 +57,15 @@ def main(args: argparse.Namespace) -> int:
         raise InputError("give either --workers (a local cluster) or --scheduler (an existing one), not both")
     if args.scheduler and "://" not in args.scheduler:
         raise InputError(f"--scheduler must be an address like tcp://host:8786, not {args.scheduler!r}")
-    links = read_links_table(args.links)
-    mapping = None
-    if args.map:
-        from diag.read.ingest import load_mapping
+    from diag.outputs import check_out_path
 
-        mapping = load_mapping(args.map)   # checked here: a bad mapping is one error, not one per file
+    check_out_path(args.out)
+    links = read_links_table(args.links)
+    from diag.read.mapping import load_mapping, only_listed
+
+    mapping = load_mapping(args.map) if args.map else None   # checked here: one error, not one per file
+    if args.only_listed:
+        mapping = only_listed(mapping, links)
     result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,
                        tz=args.tz, mapping=mapping, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf)
     ranking = result.ranking

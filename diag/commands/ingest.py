@@ -48,7 +48,7 @@ def add_reader_overrides(p, *, with_link_id: bool = True) -> None:
 
 def mapping_from_args(args: argparse.Namespace) -> dict:
     """The mapping file (if any) with the override flags laid over it (parsing lives in the library)."""
-    from diag.read.ingest import load_mapping, mapping_from_options
+    from diag.read.mapping import load_mapping, mapping_from_options
 
     return mapping_from_options(
         base=load_mapping(args.map), time_cols=args.time_col, time_format=args.time_format,
@@ -81,14 +81,21 @@ def run(args: argparse.Namespace) -> int:
     from diag.read import store
     from diag.read.ingest import read_logs
 
+    if args.out:   # checked before reading: a bad --out is one line now, not after the whole read
+        from diag.outputs import check_out_path
+
+        check_out_path(args.out, folder=not args.out.lower().endswith(".parquet"))
     mapping = mapping_from_args(args)
     result = read_logs(args.files, tz=args.tz, mapping=mapping, link_id=args.link_id)
     written = None
-    if args.out:
+    if args.out:   # built beside --out, then renamed into place: an old store goes only once the new one is whole
+        from diag.outputs import replace_dir, replace_file
+
         if args.out.lower().endswith(".parquet"):
-            written = store.write_parquet(result.table, args.out)
+            written = replace_file(args.out, lambda tmp: store.write_parquet(result.table, tmp))
         else:
-            written = store.write_store(result.table, args.out)
+            written = replace_dir(args.out, lambda tmp: store.write_store(result.table, tmp),
+                                  may_replace=lambda p: store.is_store(p) or not any(p.iterdir()))
     rep = result.report.to_dict()
     if args.json:
         if written is not None:

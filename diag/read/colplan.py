@@ -21,6 +21,7 @@ from diag.read.timestamps import (
     check_tz,
     detect_clock_format,
     detect_date_format,
+    detect_date_reading,
     detect_datetime_format,
     epoch_kind,
     iso_has_offset,
@@ -186,6 +187,8 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
     spec = dataclasses.replace(spec, marks_end=marks_end)
     if spec.guess:
         guesses.append(spec.guess)
+        if "the evidence ties" in spec.guess:
+            warn.append(spec.guess)
     for c in spec.columns:
         roles[c] = "time"
     if link_col:
@@ -277,12 +280,12 @@ def _time_spec(samples: list[list[str]], cols: tuple, fmt: str | None, zone: str
             return TimeSpec(cols, "iso", has_offset=iso_has_offset(samples[0]), tz=zone)
         return TimeSpec(cols, "format", fmt=f, tz=zone)
     if len(cols) == 2:
-        d = detect_date_format(samples[0])
+        d, guess = detect_date_reading(samples[0])
         c = detect_clock_format(samples[1])
         if d is None or c is None:
             raise InputError(f"cannot read the date/time columns {cols} (give --time-format)", path=label,
                              line=header_line)
-        return TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone)
+        return TimeSpec(cols, "format", fmt=f"{d} {c}", tz=zone, guess=guess, has_offset=c.endswith("%z"))
     ek = epoch_kind(samples[0])
     if ek:
         return TimeSpec(cols, ek, tz=zone)

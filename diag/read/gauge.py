@@ -28,7 +28,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from diag.errors import InputError
+from diag.errors import InputError, require_regular_file
 
 log = logging.getLogger(__name__)
 
@@ -44,6 +44,7 @@ def _read_text(source, name: str | None) -> tuple[str, str]:
         where = name or "gauge file"
     else:
         where = name or str(source)
+        require_regular_file(source, where)   # a FIFO or a device would block
         try:
             raw = Path(source).read_bytes()
         except OSError as exc:
@@ -51,9 +52,12 @@ def _read_text(source, name: str | None) -> tuple[str, str]:
     if where.endswith(".gz") or raw[:2] == b"\x1f\x8b":
         import gzip
 
+        from diag.read.limits import MAX_DECOMPRESSED_BYTES, BoundedReader
+
         try:
-            raw = gzip.decompress(raw)
-        except OSError:
+            with gzip.GzipFile(fileobj=io.BytesIO(raw)) as fh:
+                raw = BoundedReader(fh, MAX_DECOMPRESSED_BYTES, where).read()   # a bomb stops at the bound
+        except (OSError, EOFError):
             raise InputError("gauge file is not valid gzip", path=where) from None
     try:
         text = raw.decode("utf-8-sig")
@@ -151,7 +155,14 @@ def read_gauge(source, *, name: str | None = None, tz: str = "UTC", label: str =
         values.append(value)
     if not times:
         raise InputError("gauge file has a header but no rows", path=where)
-    stamp = pd.to_datetime(pd.Series(times), errors="coerce", utc=False, format="mixed")
+    try:
+        stamp = pd.to_datetime(pd.Series(times), errors="coerce", utc=False, format="mixed")
+    except (ValueError, TypeError, OverflowError):
+        # stamps with different UTC offsets (a DST change) are fine when every stamp has one
+        if not all(re.search(r"(Z|[+-]\d{2}:?\d{2})$", s.strip()) for s in times):
+            raise InputError("gauge file: some stamps carry a UTC offset and some do not; give all or none",
+                             path=where) from None
+        stamp = pd.to_datetime(pd.Series(times), errors="coerce", utc=True, format="mixed")
     bad = stamp.isna().to_numpy()
     if bad.any():
         i = int(np.argmax(bad))
@@ -163,6 +174,13 @@ def read_gauge(source, *, name: str | None = None, tz: str = "UTC", label: str =
             stamp = stamp.dt.tz_convert("UTC")
     except (TypeError, ValueError) as exc:
         raise InputError(f"gauge file: mixed or bad time zones ({str(exc)[:60]})", path=where) from None
+    from diag.read.timestamps import TIME_MAX, TIME_MIN
+
+    out_of_range = ((stamp < TIME_MIN.tz_localize("UTC")) | (stamp >= TIME_MAX.tz_localize("UTC"))).to_numpy()
+    if out_of_range.any():
+        i = int(np.argmax(out_of_range))
+        raise InputError(f"gauge file: time {times[i][:30]!r} outside {TIME_MIN.year}-{TIME_MAX.year}", path=where,
+                         line=first + 2 + i)
     frame = pd.DataFrame({"t": stamp.to_numpy(), "v": values}).dropna(subset=["t"])
     frame = frame.sort_values("t").drop_duplicates("t", keep="first")
     if len(frame) < 2 and interval_s is None:

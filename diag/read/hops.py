@@ -1,8 +1,8 @@
-"""Hop assembly: the inputs of a many-hop run (log files and stores), each file's rows given their hop, and one
-hop's normalised table assembled from the pieces of several files (or store partitions).
+"""Hop assembly: the inputs of a many-hop run (log files and stores), and one hop's normalised table assembled
+from the pieces of several files (or store partitions).
 
 Used by :func:`diag.pipeline.analyze_files` and by :mod:`diag.batch`'s tasks, so both keep the same rule for a value
-found in two files.  (The hop-matching rule itself is :func:`diag.links.match_link`.)
+found in two files.  (Which hop a file's rows belong to is :mod:`diag.read.hop_match`.)
 """
 from __future__ import annotations
 
@@ -13,12 +13,10 @@ from pathlib import Path
 import pandas as pd
 
 from diag import schema
-from diag.errors import InputError
-from diag.links import Link, match_link
 from diag.read import store
 from diag.read.ingest import expand_paths
 
-__all__ = ["SORT_COLUMNS", "assign_hops", "expand_inputs", "hop_table", "read_file_table", "sorted_table",
+__all__ = ["SORT_COLUMNS", "expand_inputs", "hop_table", "read_file_table", "sorted_table",
            "store_part"]
 
 SORT_COLUMNS = [schema.LINK, schema.CHANNEL, schema.QUANTITY, schema.STAT, schema.TIME]
@@ -65,26 +63,6 @@ def read_file_table(path: str, *, tz=None, mapping=None) -> tuple[pd.DataFrame, 
     result = read_log(path, tz=tz, mapping=mapping)
     report = result.report.to_dict() if hasattr(result.report, "to_dict") else dict(result.report or {})
     return result.table, report
-
-
-def assign_hops(table: pd.DataFrame, links: list[Link], file_name: str) -> pd.DataFrame:
-    """Give each row its hop by the rule ``diag.pipeline.analyze_files`` uses: the link id the rows carry (unless it
-    is empty or the reader's default), else a link id contained in the file name, else the links table's only row
-    (``diag.links.match_link``).  Rows that match nothing keep their id; that hop then fails with the reason."""
-    ids = [str(x) for x in pd.unique(table[schema.LINK])]
-    renames: dict[str, str] = {}
-    for link_id in ids:
-        carried = None if link_id in ("", schema.DEFAULT_LINK_ID) else link_id
-        try:
-            hop = match_link(links, carried, file_name=file_name).link_id
-        except InputError:
-            continue
-        if hop != link_id:
-            renames[link_id] = hop
-    if not renames:
-        return table
-    links_now = table[schema.LINK].astype("str").map(lambda v: renames.get(v, v))
-    return schema.conform(table.assign(**{schema.LINK: links_now.to_numpy(dtype=object)}))
 
 
 # --- worker tasks -----------------------------------------------------------------------------------------------

@@ -5,10 +5,12 @@
 
 ``source`` is a path (a CSV/text file, ``.csv.gz`` or any gzip'd text, a ``.parquet`` file written by
 ``diag ingest --out``, a store folder written by ``diag.read.store.write_store``, or a folder whose files -- not
-sub-folders -- are read) or ``bytes`` (a dashboard upload; pass ``name=``).  This is the only module that opens log
-files.  It finds the encoding (UTF-8 with or without BOM, UTF-16 with BOM, else Latin-1), the separator (``,`` ``;``
-tab ``|``), the decimal mark, the header line after any preamble, and streams the rows through pyarrow's CSV reader
-in blocks; ``diag.read.normalise`` recognises the columns and parses times and values vectorised.
+sub-folders -- are read) or ``bytes`` (a dashboard upload; pass ``name=``).  This module and ``diag.read.sniff`` are
+the only ones that open log files: ``sniff`` finds the encoding (UTF-8 with or without BOM, UTF-16 with BOM, else
+Latin-1), the separator (``,`` ``;`` tab ``|``), the decimal mark and the header line after any preamble; this
+module streams the rows through pyarrow's CSV reader in blocks; ``diag.read.normalise`` recognises the columns and
+parses times and values vectorised.  ``diag.read.mapping`` reads the overrides, ``diag.read.ingest_report`` holds
+the report and the table summary.
 
 The row and value accounting rule is in ``diag.read.normalise``'s docstring: every data row is kept or counted under one
 named reason, ``rows_read == rows_kept + sum(rejected.values())``; every value of a kept row is one table row.
@@ -26,21 +28,11 @@ named reason, ``rows_read == rows_kept + sum(rejected.values())``; every value o
 """
 from __future__ import annotations
 
-import codecs
 import csv
-import dataclasses
-import gzip
-import io
 import logging
-import math
-import re
-import statistics
-import tomllib
 import warnings
-import zlib
-from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Iterable
 
 import numpy as np
 import pandas as pd
@@ -49,459 +41,44 @@ import pyarrow.compute  # noqa: F401  (pa.compute)
 import pyarrow.csv as pacsv
 
 from diag import schema as S
-from diag.errors import DataWarning, InputError
+from diag.errors import DataWarning, InputError, require_regular_file
+from diag.read import limits, store
 from diag.read import normalise as N
-from diag.read import store
+from diag.read.colplan import ColumnPlan, plan_columns, section
+from diag.read.hop_match import hop_of_file_name
+from diag.read.ingest_report import IngestReport, ReadResult, summarise
+from diag.read.mapping import load_mapping
+from diag.read.sniff import (
+    SAMPLE_BYTES,
+    Dialect,
+    Source,
+    decode_head,
+    file_stem,
+    open_stream,
+    read_head,
+    sniff,
+)
+from diag.read.timestamps import TIME_REASONS, check_tz, parse_times
 
 log = logging.getLogger(__name__)
 
-SAMPLE_BYTES = 256 * 1024
 BLOCK_BYTES = 8 * 1024 * 1024
-SEPARATORS = ("\t", ";", "|", ",")     # tie-break order
-SEP_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 LOG_SUFFIXES = {".csv", ".txt", ".tsv", ".log", ".dat", ".gz", ".parquet", ".psv", ""}
 ROW_REASONS = ("malformed_row", "too_many_fields", "bad_time", "dst_nonexistent", "dst_ambiguous",
-               "time_out_of_range", "unknown_quantity", "duplicate", "conflicting_duplicate")
+               "time_out_of_range", "unknown_quantity", "unlisted_hop", "duplicate", "conflicting_duplicate")
 MAX_RAGGED_ROWS = 200_000   # rows with another field count than the header looked at again; more: malformed_row
-SNIFF_LINES = 400           # lines looked at to find separator and header
-HEADER_SEARCH_LINES = 200   # the header is looked for among the first lines
-MAX_LISTED = 200   # gaps / conflicts listed in the report (counts are always complete)
 
+__all__ = ["IngestReport", "ReadResult", "read_log", "read_logs", "expand_paths", "folder_files", "ROW_REASONS"]
 
-
-# ---------------------------------------------------------------------------------------------------------------
-# result types
-
-@dataclass
-class IngestReport:
-    """What the reader found and did (JSON-able through ``to_dict``)."""
-
-    file: str = ""
-    files: list[dict] = field(default_factory=list)       # per-file reports (read_logs / folders)
-    encoding: str | None = None
-    separator: str | None = None
-    decimal: str | None = None
-    header_line: int | None = None                        # 1-based line of the column names
-    layout: str | None = None                             # "wide", "long", "long-named", "parquet", "several"
-    columns: dict[str, str] = field(default_factory=dict)  # column -> detected role
-    ignored_columns: list[str] = field(default_factory=list)
-    time: dict = field(default_factory=dict)              # columns, format, zone, marks
-    guesses: list[str] = field(default_factory=list)      # what was guessed and how to override it
-    links: list[str] = field(default_factory=list)
-    link_source: str | None = None                        # "column", "argument", "mapping", "file_name", "default"
-    channels: list[str] = field(default_factory=list)
-    quantities: list[str] = field(default_factory=list)
-    kind: str | None = None                               # "sample", "stats" or "mixed"
-    interval_s: float | None = None                       # typical row step (shortest over the links)
-    link_intervals_s: dict[str, float] = field(default_factory=dict)
-    start_utc: str | None = None
-    end_utc: str | None = None
-    rows_read: int = 0
-    rows_kept: int = 0
-    rejected: dict[str, int] = field(default_factory=dict)
-    duplicates: int = 0
-    conflicting_duplicates: int = 0
-    conflicts: list[dict] = field(default_factory=list)    # first few conflicting rows
-    out_of_order_rows: int = 0
-    values: dict = field(default_factory=dict)             # read, ok, signal_lost, missing, reasons
-    floors: dict = field(default_factory=dict)             # quantity -> {dbm, how}
-    gap_count: int = 0
-    gap_seconds: float = 0.0
-    gaps: list[dict] = field(default_factory=list)         # {link_id, start_utc, end_utc, seconds}
-    overlap_values_dropped: int = 0                        # read_logs: same value in two files
-    warnings: list[str] = field(default_factory=list)
-
-    def to_dict(self) -> dict:
-        return _jsonable(dataclasses.asdict(self))
-
-
-@dataclass
-class ReadResult:
-    table: pd.DataFrame
-    report: IngestReport
-
-
-def _jsonable(x: Any) -> Any:
-    if isinstance(x, dict):
-        return {str(k): _jsonable(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_jsonable(v) for v in x]
-    if isinstance(x, (np.integer,)):
-        return int(x)
-    if isinstance(x, (np.floating, float)):
-        v = float(x)
-        return v if math.isfinite(v) else None
-    return x
-
-
-# ---------------------------------------------------------------------------------------------------------------
-# mapping
-
-def load_mapping(mapping: dict | str | Path | None) -> dict:
-    """A mapping dict from a dict or a TOML file (keys as in the module docstring)."""
-    if mapping is None:
-        return {}
-    if isinstance(mapping, dict):
-        return mapping
-    path = Path(mapping)
-    try:
-        with open(path, "rb") as fh:
-            data = tomllib.load(fh)
-    except OSError as exc:
-        raise InputError(f"cannot read mapping file ({exc.strerror})", path=str(path)) from exc
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputError(f"mapping file is not valid TOML ({exc})", path=str(path),
-                         line=int(m.group(1)) if m else None) from exc
-    return data
-
-
-
-def mapping_from_options(*, base: dict | None = None, time_cols: list[str] | None = None,
-                         time_format: str | None = None, time_marks: str | None = None, link_col: str | None = None,
-                         channel_col: str | None = None, signal_cols: list[str] | None = None,
-                         floor: str | float | None = None, interval_s: float | None = None,
-                         separator: str | None = None, decimal: str | None = None, encoding: str | None = None,
-                         header_line: int | None = None) -> dict:
-    """A mapping dict from override options (the ``ingest`` flags; the dashboard's form), laid over ``base``.
-
-    ``signal_cols`` items read ``NAME=QUANTITY[:CHANNEL[:STAT[:INTERVAL_S]]]`` (e.g. ``"Level A=rsl:A"``,
-    ``"Lo=rsl:H:min:900"``); ``floor`` is a number in dBm or ``"none"``.  Bad options raise InputError."""
-    mapping = {k: (dict(v) if isinstance(v, dict) else v) for k, v in (base or {}).items()}
-
-    def sec(name: str) -> dict:
-        mapping.setdefault(name, {})
-        return mapping[name]
-
-    if time_cols:
-        if len(time_cols) > 2:
-            raise InputError("at most two time columns (date column, then time-of-day column)")
-        sec("time")["columns"] = list(time_cols)
-    if time_format:
-        sec("time")["format"] = time_format
-    if time_marks:
-        if time_marks not in ("start", "end"):
-            raise InputError(f"time marks '{time_marks}' must be 'start' or 'end'")
-        sec("time")["marks"] = time_marks
-    if link_col:
-        sec("link")["column"] = link_col
-    if channel_col:
-        sec("channel")["column"] = channel_col
-    if signal_cols:
-        signals = {}
-        for item in signal_cols:
-            if "=" not in item:
-                raise InputError(f"signal column '{item}': expected NAME=QUANTITY[:CHANNEL[:STAT[:INTERVAL_S]]]")
-            name, rest = item.rsplit("=", 1)
-            parts = rest.split(":")
-            spec: dict = {"quantity": N.quantity_name(parts[0])}
-            if len(parts) > 1 and parts[1]:
-                spec["channel"] = parts[1]
-            if len(parts) > 2 and parts[2]:
-                spec["stat"] = parts[2]
-            if len(parts) > 3 and parts[3]:
-                try:
-                    spec["interval_s"] = float(parts[3])
-                except ValueError as exc:
-                    raise InputError(f"signal column '{item}': interval '{parts[3]}' is not a number") from exc
-            signals[name.strip()] = spec
-        mapping["signals"] = signals
-    if floor is not None and str(floor).strip() != "":
-        if str(floor).strip().lower() == "none":
-            sec("floor")["dbm"] = "none"
-        else:
-            try:
-                sec("floor")["dbm"] = float(floor)
-            except ValueError as exc:
-                raise InputError(f"floor '{floor}' is not a number in dBm or 'none'") from exc
-    if interval_s is not None:
-        if not interval_s > 0:
-            raise InputError("the statistics interval must be positive")
-        mapping["interval_s"] = float(interval_s)
-    if separator:
-        sec("file")["separator"] = "\t" if separator.lower() in ("tab", "\\t") else separator
-    if decimal:
-        if decimal not in (".", ","):
-            raise InputError("decimal mark must be '.' or ','")
-        sec("file")["decimal"] = decimal
-    if encoding:
-        sec("file")["encoding"] = encoding
-    if header_line is not None:
-        if header_line < 1:
-            raise InputError("the header line is 1-based")
-        sec("file")["header_line"] = int(header_line)
-    return {k: v for k, v in mapping.items() if v != {}}
-
-
-# ---------------------------------------------------------------------------------------------------------------
-# opening
-
-@dataclass
-class _Source:
-    label: str              # for messages
-    stem: str               # file name without suffixes (default link id)
-    path: Path | None
-    data: bytes | None
-    gz: bool = False
-
-
-def _stem(name: str) -> str:
-    base = Path(name).name
-    for suf in (".gz", ".csv", ".txt", ".tsv", ".log", ".dat", ".psv", ".parquet"):
-        if base.lower().endswith(suf):
-            base = base[: -len(suf)]
-    return base or S.DEFAULT_LINK_ID
-
-
-def _head(src: _Source, n: int) -> bytes:
-    if src.data is not None:
-        if src.gz:
-            try:
-                with gzip.GzipFile(fileobj=io.BytesIO(src.data)) as fh:
-                    return _read_upto(fh, n)
-            except (OSError, EOFError, zlib.error) as exc:
-                raise InputError("gzip data truncated or damaged", path=src.label) from exc
-        return src.data[:n]
-    try:
-        if src.gz:
-            with gzip.open(src.path, "rb") as fh:
-                return _read_upto(fh, n)
-    except (OSError, EOFError, zlib.error) as exc:
-        raise InputError("gzip data truncated or damaged", path=src.label) from exc
-    try:
-        with open(src.path, "rb") as fh:
-            return fh.read(n)
-    except (OSError, EOFError) as exc:
-        raise InputError(f"cannot read ({getattr(exc, 'strerror', None) or exc})", path=src.label) from exc
-
-
-def _read_upto(fh, n: int) -> bytes:
-    out = b""
-    try:
-        while len(out) < n:
-            chunk = fh.read(n - len(out))
-            if not chunk:
-                break
-            out += chunk
-    except EOFError:
-        if not out:
-            raise  # truncated before any data: the caller names it
-        # truncated gzip: take what decompressed
-    return out
-
-
-def _stream(src: _Source):
-    if src.data is not None:
-        raw = pa.BufferReader(src.data)
-        return pa.CompressedInputStream(raw, "gzip") if src.gz else raw
-    return pa.input_stream(str(src.path), compression="gzip" if src.gz else None)
-
-
-def _decode(head: bytes, complete: bool, label: str) -> tuple[str, str]:
-    """(text, encoding) of the first bytes."""
-    if not head.strip():
-        raise InputError("empty file (no data)", path=label)
-    kind = _foreign_format(head)
-    if kind:
-        raise InputError(f"not a delimited text log ({kind}); export the log as CSV", path=label)
-    if head.startswith(codecs.BOM_UTF8):
-        try:
-            return _decode_with(head[3:], "utf-8", complete, label), "utf-8-sig"
-        except UnicodeDecodeError:
-            return head.decode("latin-1"), "latin-1"   # a BOM, then bytes that are not UTF-8
-    for bom, enc in ((codecs.BOM_UTF16_LE, "utf-16-le"), (codecs.BOM_UTF16_BE, "utf-16-be")):
-        if head.startswith(bom):
-            try:
-                return _decode_with(head[2:], enc, complete, label), "utf-16"
-            except UnicodeDecodeError as exc:
-                raise InputError("starts with a UTF-16 mark but is not UTF-16 text", path=label) from exc
-    if b"\x00" in head[:4096]:
-        raise InputError("not a text log (binary data)", path=label)
-    ctrl = sum(1 for b in head[:4096] if b < 9 or 13 < b < 32)
-    if ctrl > max(4, len(head[:4096]) // 50):
-        raise InputError("not a text log (binary data)", path=label)
-    try:
-        return _decode_with(head, "utf-8", complete, label), "utf-8"
-    except UnicodeDecodeError:
-        return head.decode("latin-1"), "latin-1"
-
-
-_SIGNATURES = ((b"PK\x03\x04", "a zip archive or a spreadsheet workbook such as XLSX"),
-               (b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1", "an old-style office document such as XLS"),
-               (b"%PDF", "a PDF document"), (b"\x89PNG", "an image"), (b"\xff\xd8\xff", "an image"),
-               (b"SQLite format 3", "an SQLite database"), (b"BZh", "bzip2 data"), (b"\xfd7zXZ", "xz data"),
-               (b"7z\xbc\xaf", "a 7z archive"))
-
-
-def _foreign_format(head: bytes) -> str | None:
-    """Name a well-known non-CSV format from the first bytes (None when it may be a delimited text)."""
-    for magic, kind in _SIGNATURES:
-        if head.startswith(magic):
-            return kind
-    text = head.lstrip(codecs.BOM_UTF8).lstrip()[:200]
-    if text[:1] in (b"{", b"[") and re.match(rb'^[\[{]\s*("|\{|\[|\]|\}|\d|-|true|false|null)', text):
-        return "looks like JSON"
-    if text[:1] == b"<" and re.match(rb"^<(\?xml|!doctype|html|[a-zA-Z][\w:.-]*[\s>/])", text, re.I):
-        return "looks like HTML or XML"
-    return None
-
-
-def _decode_with(data: bytes, enc: str, complete: bool, label: str) -> str:
-    dec = codecs.getincrementaldecoder(enc)()
-    text = dec.decode(data, final=complete)
-    if "\x00" in text:
-        raise InputError("not a text log (binary data)", path=label)
-    return text
-
-
-# ---------------------------------------------------------------------------------------------------------------
-# sniffing
-
-@dataclass
-class _Dialect:
-    separator: str
-    decimal: str
-    header_index: int          # 0-based physical line
-    names: list[str]
-    extra_trailing: bool = False
-
-
-def _split(lines: list[str], sep: str) -> list[list[str]]:
-    out = []
-    for ln in lines:
-        try:
-            out.append(next(csv.reader([ln], delimiter=sep, quotechar='"')))
-        except (csv.Error, StopIteration):
-            out.append([ln])
-    return out
-
-
-def _header_score(fields: list[str]) -> int:
-    score = 0
-    for f in fields:
-        f = f.strip()
-        if not f or re.fullmatch(r"[-+\d.,:/ TZ]+", f):
-            continue
-        if N.name_role(f) is not None:
-            score += 2
-        else:
-            info = N.recognise_name(f)
-            if info.quantity is not None:
-                score += 1 if info.guessed else 2
-    return score
-
-
-_NUMERICISH = re.compile(r"^[-+]?[\d.,:/ TZ+-]+$")
-
-
-def _sniff(text: str, complete: bool, label: str, mapping: dict) -> _Dialect:
-    lines = text.splitlines()
-    if not complete and len(lines) > 1:
-        lines = lines[:-1]           # the last line may be cut off
-    fsec = N.section(mapping, "file")
-    nonempty = [i for i, ln in enumerate(lines) if ln.strip()][:SNIFF_LINES]
-    if not nonempty:
-        raise InputError("empty file (no data)", path=label)
-    tail = nonempty[-40:]
-    candidates = []
-    seps = [fsec["separator"]] if fsec.get("separator") else list(SEPARATORS)
-    seps = ["\t" if s in ("tab", "\\t") else s for s in seps]
-    for sep in seps:
-        split = _split([lines[i] for i in nonempty], sep)
-        counts = [len(r) for r in split]
-        tail_counts = counts[-len(tail):]
-        k = statistics.mode(tail_counts)
-        consistency = tail_counts.count(k) / len(tail_counts)
-        if k < 2 and not fsec.get("separator"):
-            continue
-        # header: the line with k (or k-1 with a trailing empty data field) fields that names the most columns
-        best_i, best_score = None, -1
-        trailing = all(r[-1].strip() == "" for r, c in zip(split[-len(tail):], tail_counts) if c == k) and k > 2
-        for j, (r, c) in enumerate(zip(split[:HEADER_SEARCH_LINES], counts)):
-            if c == k or (trailing and c == k - 1):
-                sc = _header_score(r)
-                if sc > best_score:
-                    best_i, best_score = j, sc
-        if best_score <= 0:
-            # ragged files: the header may have another field count than most data rows
-            for j, (r, c) in enumerate(zip(split[:HEADER_SEARCH_LINES], counts)):
-                if c >= 2:
-                    sc = _header_score(r)
-                    if sc > best_score:
-                        best_i, best_score = j, sc
-            if best_score > 0:
-                hc = counts[best_i]
-                consistency = sum(1 for c in counts[best_i + 1:] if c == hc) / max(1, len(counts) - best_i - 1)
-        candidates.append((best_score > 0, consistency >= 0.8, best_score, consistency, k,
-                           -SEPARATORS.index(sep) if sep in SEPARATORS else 0, sep, best_i, split))
-    if not candidates:
-        raise InputError("no column separator found (expected , ; tab or |)", path=label)
-    candidates.sort(reverse=True)
-    _, _, score, consistency, k, _, sep, best_i, split = candidates[0]
-    header_j = best_i
-    if fsec.get("header_line"):
-        hl = int(fsec["header_line"]) - 1
-        if hl < 0 or hl >= len(lines):
-            raise InputError(f"mapping header_line {hl + 1} is beyond the file", path=label)
-        header_index = hl
-        names = _split([lines[hl]], sep)[0]
-    else:
-        if header_j is None or score <= 0:
-            # no recognisable name: the first line of the last consistent block that is not all numbers
-            header_j = None
-            for j in range(len(split) - 1, -1, -1):
-                if len(split[j]) != k:
-                    break
-                if not all(_NUMERICISH.match(f.strip() or "0") for f in split[j]):
-                    header_j = j
-            if header_j is None:
-                raise InputError("no header line with column names found", path=label,
-                                 line=nonempty[0] + 1)
-        header_index = nonempty[header_j]
-        names = split[header_j]
-    names = [n.strip().strip('"').strip() for n in names]
-    extra = False
-    data_rows = [r for r in split[header_j + 1:]] if header_j is not None else []
-    if data_rows and len(names) == k - 1 and all(r[-1].strip() == "" for r in data_rows if len(r) == k):
-        names.append("")
-        extra = True
-    seen: dict[str, int] = {}
-    clean = []
-    for i, n in enumerate(names):
-        n = n or f"column_{i + 1}"
-        if n in seen:
-            seen[n] += 1
-            n = f"{n} ({seen[n]})"
-        else:
-            seen[n] = 1
-        clean.append(n)
-    decimal = fsec.get("decimal") or _decimal(data_rows, sep)
-    return _Dialect(sep, decimal, header_index, clean, extra)
-
-
-def _decimal(rows: list[list[str]], sep: str) -> str:
-    comma = dot = 0
-    for r in rows[:400]:
-        for f in r:
-            f = f.strip()
-            if re.fullmatch(r"[-+]?\d+,\d+", f):
-                comma += 1
-            elif re.fullmatch(r"[-+]?\d+\.\d+", f):
-                dot += 1
-    return "," if comma > dot else "."
-
-
-# ---------------------------------------------------------------------------------------------------------------
-# plan: what each column is
 
 # ---------------------------------------------------------------------------------------------------------------
 # reading one CSV-like source
 
 
-def _read_csv(src: _Source, *, tz: str | None, mapping: dict, link_id: str | None) -> ReadResult:
-    head = _head(src, SAMPLE_BYTES)
+def _read_csv(src: Source, *, tz: str | None, mapping: dict, link_id: str | None) -> ReadResult:
+    head = read_head(src, SAMPLE_BYTES)
     complete = len(head) < SAMPLE_BYTES
-    fsec = N.section(mapping, "file")
+    fsec = section(mapping, "file")
     if fsec.get("encoding"):
         enc = str(fsec["encoding"])
         try:
@@ -509,8 +86,8 @@ def _read_csv(src: _Source, *, tz: str | None, mapping: dict, link_id: str | Non
         except LookupError as exc:
             raise InputError(f"unknown encoding '{enc}'", path=src.label) from exc
     else:
-        text, enc = _decode(head, complete, src.label)
-    dialect = _sniff(text, complete, src.label, mapping)
+        text, enc = decode_head(head, complete, src.label)
+    dialect = sniff(text, complete, src.label, mapping)
     try:
         return _read_rows(src, enc, dialect, tz=tz, mapping=mapping, link_id=link_id)
     except _RetryLatin1:
@@ -537,11 +114,27 @@ def _ragged_rows(texts: list[str], sep: str, ncols: int) -> tuple[list[list[str]
     return rows, np.array(absent, dtype=bool).reshape(len(rows), ncols), too_long
 
 
+def check_key_bounds(tuples: list[tuple], label: str) -> None:
+    """``InputError`` when the (link, channel, quantity-name) keys seen so far exceed the hops-per-file or the
+    channels-per-hop bound (``diag.read.limits``): checked as the blocks stream in, before memory grows."""
+    links = {t[0] for t in tuples}
+    if len(links) > limits.MAX_HOPS_PER_FILE:
+        raise InputError(f"more than {limits.MAX_HOPS_PER_FILE} hops (link ids) in one file, the limit "
+                         f"(DIAG_MAX_HOPS_PER_FILE); split the file", path=label)
+    per_link: dict[str, set] = {}
+    for t in tuples:
+        per_link.setdefault(t[0], set()).add(t[1])
+    worst = max(per_link.items(), key=lambda kv: len(kv[1]))
+    if len(worst[1]) > limits.MAX_CHANNELS_PER_HOP:
+        raise InputError(f"hop {worst[0] or '(unnamed)'!r} has more than {limits.MAX_CHANNELS_PER_HOP} channels, "
+                         f"the limit (DIAG_MAX_CHANNELS_PER_HOP)", path=label)
+
+
 class _RetryLatin1(Exception):
     pass
 
 
-def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_id) -> ReadResult:
+def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id) -> ReadResult:
     header_line = dialect.header_index + 1
     names = dialect.names
     ragged: list[str] = []          # rows whose field count differs from the header's (kept for a second look)
@@ -569,9 +162,9 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     chunks: list[N.RowBlock] = []
     rejected = dict.fromkeys(ROW_REASONS, 0)
     first_bad_time: list = []
-    plan: N.ColumnPlan | None = None
+    plan: ColumnPlan | None = None
     rows_seen = 0
-    lsec = N.section(mapping, "link")
+    lsec = section(mapping, "link")
 
     def process(batch: pa.RecordBatch, absent: np.ndarray | None = None) -> None:
         """Parse one block of string columns; ``absent`` marks cells a short row did not have."""
@@ -580,10 +173,14 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
         if n == 0:
             return
         if plan is None:
-            plan = N.plan_columns(batch, names, mapping, tz, src.label, header_line)
+            plan = plan_columns(batch, names, mapping, tz, src.label, header_line)
+            if len(plan.values) > limits.MAX_VALUE_COLUMNS:
+                raise InputError(f"{len(plan.values)} signal columns, more than the limit of "
+                                 f"{limits.MAX_VALUE_COLUMNS} (DIAG_MAX_VALUE_COLUMNS)", path=src.label,
+                                 line=header_line)
         cols = [batch.column(batch.schema.get_field_index(c)) for c in plan.time.columns]
-        ns, tcode = N.parse_times(cols, plan.time)
-        for code, reason in enumerate(N.TIME_REASONS, start=1):
+        ns, tcode = parse_times(cols, plan.time)
+        for code, reason in enumerate(TIME_REASONS, start=1):
             rejected[reason] += int((tcode == code).sum())
         if not first_bad_time and (tcode == 1).any():
             i = int(np.flatnonzero(tcode == 1)[0])
@@ -592,7 +189,10 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
         kb = batch.take(pa.array(np.flatnonzero(keep))) if not keep.all() else batch
         m = kb.num_rows
         getcol = lambda c: kb.column(kb.schema.get_field_index(c)) if c else None  # noqa: E731
+        known = len(keys.tuples)
         key = keys.encode([getcol(plan.link_col), getcol(plan.channel_col), getcol(plan.qname_col)], m)
+        if len(keys.tuples) != known:
+            check_key_bounds(keys.tuples, src.label)
         vals = np.empty((m, len(plan.values)), dtype=np.float64)
         reas = np.empty((m, len(plan.values)), dtype=np.int8)
         for j, vc in enumerate(plan.values):
@@ -609,7 +209,7 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
 
     reader = None
     try:
-        reader = pacsv.open_csv(_stream(src), read_options=read_opts, parse_options=parse_opts,
+        reader = pacsv.open_csv(open_stream(src), read_options=read_opts, parse_options=parse_opts,
                                 convert_options=conv_opts)
         for batch in reader:
             process(batch)
@@ -653,6 +253,10 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     report.time = {"columns": list(plan.time.columns), "format": plan.time.fmt or plan.time.kind,
                    "zone": plan.time.tz or ("offset in the stamps" if plan.time.has_offset else "UTC"),
                    "marks": "end" if plan.time.marks_end else "start"}
+    if plan.time.kind not in ("epoch_s", "epoch_ms") and not plan.time.has_offset and not plan.time.tz:
+        report.guesses.append("time stamps carry no UTC offset: read as UTC (give --tz ZONE, e.g. Europe/Vienna, "
+                              "when they are local time)")
+    report.method_notes = [g for g in report.guesses if "the evidence ties" in g]
     if rows_seen and rejected["bad_time"] == rows_seen:
         line, val = first_bad_time[0]
         raise InputError(f"no row has a readable time in {list(plan.time.columns)} (first value '{val}'); give "
@@ -667,12 +271,16 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
     else:
         report.link_source = "file_name" if src.stem != S.DEFAULT_LINK_ID else "default"
         default_link = src.stem
+        only = lsec.get("only")
+        if only is not None:   # --only-listed: the hop the file name names (diag.read.hops), else the only one
+            hop = hop_of_file_name(only, src.label)
+            default_link = hop or (str(only[0]) if len(only) == 1 else default_link)
         if report.link_source == "file_name":
             report.guesses.append(f"link id taken from the file name: '{default_link}' (override with --link-id)")
     table = N.assemble(chunks, keys, plan, report, rejected, default_link, mapping, header_line)
     report.rejected = {k: v for k, v in rejected.items() if v}
     report.rows_kept = rows_read - sum(report.rejected.values())
-    _summarise(table, report)
+    summarise(table, report)
     if ragged or unexamined:
         report.warnings.append(f"{len(ragged) + unexamined} rows had another number of fields than the header: "
                                f"short rows kept (absent cells missing), {rejected['too_many_fields']} longer rows "
@@ -685,98 +293,26 @@ def _read_rows(src: _Source, enc: str, dialect: _Dialect, *, tz, mapping, link_i
 
 
 # ---------------------------------------------------------------------------------------------------------------
-# summary of a table (shared by CSV, Parquet and concatenated reads)
-
-def _iso(ns: int) -> str:
-    return pd.Timestamp(int(ns), tz="UTC").isoformat().replace("+00:00", "Z")
-
-
-def _link_stamps(table: pd.DataFrame, ns: np.ndarray) -> list[tuple[str, np.ndarray]]:
-    """[(link id, its sorted distinct stamps)] per link, by link id.  The table is sorted by link, channel,
-    quantity, stat, time, so each (channel, quantity, stat) block is already sorted and distinct; when every block
-    of a link holds the same stamps (a wide log: every row has every column) the first block IS the union: no sort
-    of all rows."""
-    codes = [table[c].cat.codes.to_numpy() if isinstance(table[c].dtype, pd.CategoricalDtype)
-             else pd.factorize(table[c])[0] for c in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT)]
-    change = np.zeros(len(ns), dtype=bool)
-    change[0] = True
-    for c in codes:
-        change[1:] |= c[1:] != c[:-1]
-    starts = np.flatnonzero(change)
-    del change
-    ends = np.append(starts[1:], len(ns))
-    by_link: dict = {}
-    for a, b, k in zip(starts.tolist(), ends.tolist(), codes[0][starts].tolist()):
-        by_link.setdefault(k, []).append((a, b))
-    out = []
-    for blocks in by_link.values():
-        a0, b0 = blocks[0]
-        first = ns[a0:b0]
-        same = all(b - a == b0 - a0 and np.array_equal(ns[a:b], first) for a, b in blocks[1:])
-        if same and bool(np.all(first[1:] > first[:-1])):
-            t = first
-        else:
-            t = N.sorted_unique(np.concatenate([ns[a:b] for a, b in blocks]))
-        out.append((str(table[S.LINK].iloc[a0]), t))
-    return sorted(out, key=lambda item: item[0])
-
-
-def _summarise(table: pd.DataFrame, report: IngestReport) -> None:
-    report.links = S.present(table[S.LINK]) if len(table) else []
-    report.channels = S.present(table[S.CHANNEL]) if len(table) else []
-    report.quantities = S.present(table[S.QUANTITY]) if len(table) else []
-    if not len(table):
-        report.kind = None
-        return
-    levels = S.is_in(table[S.QUANTITY], [S.RSL, S.XPL, S.TSL, S.XPD])
-    stats = S.present(table[S.STAT][levels] if levels.any() else table[S.STAT])   # one column only
-    report.kind = "stats" if S.SAMPLE not in stats else ("sample" if len(stats) == 1 else "mixed")
-    ns = table[S.TIME].to_numpy(dtype="datetime64[ns]").view(np.int64)
-    report.start_utc, report.end_utc = _iso(ns.min()), _iso(ns.max())
-    gaps = []
-    steps, stepped = [], []
-    for lk, t in _link_stamps(table, ns):
-        if len(t) < 2:
-            continue
-        step = N.mode_step_ns(t)     # (its own diff array is freed before ours is made)
-        d = np.diff(t)
-        steps.append(step)
-        stepped.append(lk)
-        big = np.flatnonzero(d > 1.5 * step)
-        for i in big:
-            start = int(t[i] + step)
-            gaps.append((lk, start, int(t[i + 1]), (int(t[i + 1]) - start) / 1e9))
-    # typical row step: the links' common step, or the shortest when they differ (see link_intervals_s)
-    report.link_intervals_s = {lk: st / 1e9 for lk, st in zip(stepped, steps)}
-    report.interval_s = float(min(steps)) / 1e9 if steps else None
-    report.gap_count = len(gaps)
-    report.gap_seconds = float(sum(g[3] for g in gaps))
-    report.gaps = [{"link_id": g[0], "start_utc": _iso(g[1]), "end_utc": _iso(g[2]), "seconds": g[3]}
-                   for g in gaps[:MAX_LISTED]]
-    if len(gaps) > MAX_LISTED:
-        report.warnings.append(f"{len(gaps)} gaps; the first {MAX_LISTED} are listed")
-
-
-# ---------------------------------------------------------------------------------------------------------------
 # public API
 
-def _classify(source, name: str | None) -> _Source:
+def _classify(source, name: str | None) -> Source:
     if isinstance(source, (bytes, bytearray, memoryview)):
         data = bytes(source)
         label = name or "upload"
-        return _Source(label, _stem(label), None, data, gz=data[:2] == b"\x1f\x8b")
+        return Source(label, file_stem(label), None, data, gz=data[:2] == b"\x1f\x8b")
     path = Path(source)
     label = name or str(path)
     if not path.exists():
         raise InputError("file not found", path=label)
     if path.is_dir():
-        return _Source(label, _stem(path.name), path, None)
+        return Source(label, file_stem(path.name), path, None)
+    require_regular_file(path, label)   # a FIFO or a device would block or never end
     try:
         with open(path, "rb") as fh:
             magic = fh.read(4)
     except OSError as exc:
         raise InputError(f"cannot read ({exc.strerror})", path=label) from exc
-    return _Source(label, _stem(path.name), path, None, gz=magic[:2] == b"\x1f\x8b")
+    return Source(label, file_stem(path.name), path, None, gz=magic[:2] == b"\x1f\x8b")
 
 
 def folder_files(path: str | Path) -> list[Path]:
@@ -812,7 +348,7 @@ def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | N
              mapping: dict | str | Path | None = None, link_id: str | None = None) -> ReadResult:
     """Read one log (file, bytes, .csv.gz, .parquet, store folder, or a folder of logs) into the normalised table."""
     mapping = load_mapping(mapping)
-    tz = N.check_tz(tz, name)
+    tz = check_tz(tz, name)
     src = _classify(source, name)
     if src.path is not None and src.path.is_dir():
         if store.is_store(src.path):
@@ -821,7 +357,7 @@ def read_log(source: str | Path | bytes, *, name: str | None = None, tz: str | N
         if not files:
             raise InputError("folder holds no log files", path=src.label)
         return read_logs(files, tz=tz, mapping=mapping, link_id=link_id)
-    head = src.data[:4] if src.data is not None else _head(_Source(src.label, src.stem, src.path, None), 4)
+    head = src.data[:4] if src.data is not None else read_head(Source(src.label, src.stem, src.path, None), 4)
     if head == b"PAR1":
         tab = store.read_parquet(src.data if src.data is not None else src.path, name=src.label)
         return _from_table(tab, src.label, "parquet")
@@ -836,7 +372,7 @@ def _from_table(table: pd.DataFrame, label: str, layout: str) -> ReadResult:
     st = table[S.STATUS].value_counts().to_dict() if len(table) else {}
     rep.values = {"read": len(table), "ok": int(st.get(S.OK, 0)), "signal_lost": int(st.get(S.SIGNAL_LOST, 0)),
                   "missing": int(st.get(S.MISSING, 0)), "reasons": {}}
-    _summarise(table, rep)
+    summarise(table, rep)
     return ReadResult(table, rep)
 
 
@@ -870,6 +406,7 @@ def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str |
         rep.conflicting_duplicates += r.report.conflicting_duplicates
         rep.out_of_order_rows += r.report.out_of_order_rows
         rep.guesses += [f"{r.report.file}: {g}" for g in r.report.guesses]
+        rep.method_notes += [f"{r.report.file}: {g}" for g in r.report.method_notes]
         rep.warnings += [f"{r.report.file}: {w}" for w in r.report.warnings]
     if len(table):
         table = table.sort_values([S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.TIME], kind="stable")
@@ -887,5 +424,5 @@ def read_logs(sources: Iterable, *, tz: str | None = None, mapping: dict | str |
     for r in results:
         for k, v in r.report.values.get("reasons", {}).items():
             rep.values["reasons"][k] = rep.values["reasons"].get(k, 0) + v
-    _summarise(table, rep)
+    summarise(table, rep)
     return ReadResult(table, rep)

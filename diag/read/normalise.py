@@ -5,8 +5,7 @@ module parses values vectorised and assembles the sorted long table (duplicates,
 intervals, row and value accounting).  What each column means is decided by ``diag.read.colplan`` (the column plan),
 what
 a header name says is read by ``diag.read.colnames``, time formats are detected and stamps parsed by
-``diag.read.timestamps``;
-their public names are re-exported here (``normalise.plan_columns``, ``normalise.parse_times``, ...).
+``diag.read.timestamps``.
 
 Column roles come from the header names (and units) plus a look at the values:
 
@@ -47,32 +46,10 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from diag import schema as S
-
-# used here, and re-exported: diag.read.ingest and the tests reach them as normalise.<name>
-from diag.read.colnames import NameInfo, name_role, recognise_name  # noqa: F401
-from diag.read.colplan import (  # noqa: F401
-    DEFAULT_CHANNEL,
-    POWER_UNITS_MW,
-    QUANTITY_ALIASES,
-    ColumnPlan,
-    ValueColumn,
-    plan_columns,
-    quantity_name,
-    section,
-)
-from diag.read.timestamps import (  # noqa: F401
-    TIME_MAX,
-    TIME_MIN,
-    TIME_REASONS,
-    TimeSpec,
-    check_tz,
-    detect_clock_format,
-    detect_date_format,
-    detect_datetime_format,
-    epoch_kind,
-    iso_has_offset,
-    parse_times,
-)
+from diag.errors import InputError
+from diag.read import limits
+from diag.read.colnames import recognise_name
+from diag.read.colplan import DEFAULT_CHANNEL, POWER_UNITS_MW, ColumnPlan, section
 
 # value status codes used internally (int8), in the order of schema.STATUSES
 _OK, _LOST, _MISSING = 0, 1, 2
@@ -381,6 +358,18 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             report.warnings.append(f"rows with unrecognised quantity names skipped: {names} (map them with "
                                    f"[signals] in a mapping file)")
             ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
+    # --only-listed (the mapping's [link] only): rows of hops not in the links table are rejected and counted
+    only = section(mapping, "link").get("only")
+    if only is not None:
+        listed = {str(x) for x in only}
+        unlisted = np.array([(t[0] or default_link) not in listed for t in keys.tuples], dtype=bool)
+        bad = unlisted[key]
+        if bad.any():
+            rejected["unlisted_hop"] += int(bad.sum())
+            names = sorted({keys.tuples[k][0] or default_link for k in np.unique(key[bad])})
+            report.warnings.append(f"{int(bad.sum())} rows of hop(s) not in the links table skipped (unlisted_hop): "
+                                   f"{names[:10]}{' ...' if len(names) > 10 else ''}")
+            ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
     # out-of-order rows (file order, per key)
     placed = rownum >= 0     # rows re-read after a field-count mismatch have no known place (rownum -1)
     if placed.all() and bool(np.all(key[1:] >= key[:-1])):   # keys already grouped in file order: no sort copies
@@ -455,6 +444,14 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
                 channel = f"{t[1]}-{ch}"
             series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
                            ns[s:e], vals[s:e, j], reas[s:e, j]])   # views: edited in place below
+    # channels per hop (wide layouts name channels in the column names): bounded (diag.read.limits)
+    per_hop: dict[str, set] = {}
+    for sr in series:
+        per_hop.setdefault(sr[0], set()).add(sr[1])
+    for hop, chans in per_hop.items():
+        if len(chans) > limits.MAX_CHANNELS_PER_HOP:
+            raise InputError(f"hop {hop!r} has {len(chans)} channels, more than the limit of "
+                             f"{limits.MAX_CHANNELS_PER_HOP} (DIAG_MAX_CHANNELS_PER_HOP)", path=report.file)
     # physical range
     for sr in series:
         lo, hi = RANGES.get(sr[2], (-np.inf, np.inf))

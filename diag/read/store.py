@@ -103,7 +103,7 @@ def read_parquet(source: str | Path | bytes, *, name: str | None = None) -> pd.D
     except InputError as exc:
         exc.path = exc.path or label
         raise
-    except (OSError, pa.ArrowException) as exc:
+    except (OSError, pa.ArrowException, KeyError, ValueError, TypeError) as exc:
         raise InputError(f"not a readable Parquet file ({' '.join(str(exc).split())[:120]})", path=label) from exc
 
 
@@ -160,7 +160,7 @@ def read_store(directory: str | Path, *, link_id: str | None = None) -> pd.DataF
         meta = json.loads((directory / MARKER).read_text())
     except (OSError, ValueError) as exc:
         raise InputError("store marker file is unreadable", path=str(directory / MARKER)) from exc
-    if meta.get("format") != FORMAT:
+    if not isinstance(meta, dict) or meta.get("format") != FORMAT:
         raise InputError("store marker names another format", path=str(directory / MARKER))
     pattern = f"link={quote(str(link_id), safe='')}" if link_id is not None else "link=*"
     parts = sorted(directory.glob(f"{pattern}/day=*/part.parquet"))
@@ -172,11 +172,18 @@ def read_store(directory: str | Path, *, link_id: str | None = None) -> pd.DataF
             tabs.append(pq.read_table(p))
         except (OSError, pa.ArrowException) as exc:
             raise InputError("unreadable store part", path=str(p)) from exc
-    tab = pa.concat_tables(tabs, promote_options="default")
-    order = np.argsort(tab.column(_ROW).to_numpy(), kind="stable")
-    tab = tab.take(pa.array(order)).drop_columns([_ROW])
-    if link_id is None and meta.get("rows") is not None and int(meta["rows"]) != tab.num_rows:
-        raise InputError(f"store holds {tab.num_rows} rows, marker says {meta['rows']} (incomplete copy?)",
-                         path=str(directory))
-    return _to_frame(tab)
+    try:   # parts that parse but are not what write_store wrote (tampered, another program's): one clear line
+        tab = pa.concat_tables(tabs, promote_options="default")
+        order = np.argsort(tab.column(_ROW).to_numpy(), kind="stable")
+        tab = tab.take(pa.array(order)).drop_columns([_ROW])
+        if link_id is None and meta.get("rows") is not None and int(meta["rows"]) != tab.num_rows:
+            raise InputError(f"store holds {tab.num_rows} rows, marker says {meta['rows']} (incomplete copy?)",
+                             path=str(directory))
+        return _to_frame(tab)
+    except InputError as exc:
+        exc.path = exc.path or str(directory)
+        raise
+    except (KeyError, ValueError, TypeError, pa.ArrowException) as exc:
+        raise InputError(f"store parts do not hold the normalised table ({' '.join(str(exc).split())[:100]}); "
+                         f"write the store again with 'diag ingest --out'", path=str(directory)) from exc
 

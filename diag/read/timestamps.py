@@ -88,16 +88,54 @@ def _sample_strings(values, limit: int = 400) -> list[str]:
     return out
 
 
-def _median_step(values: list[str], fmt: str) -> float:
+def _evidence(values: list[str], fmt: str) -> tuple[int, int, int, float]:
+    """How well ``fmt`` reads the stamps, in file order: (stamps read, steps between successive distinct stamps,
+    steps equal to the commonest step, span in seconds).  A regular log read the right way has (nearly) every step
+    equal; read the wrong way (day and month swapped) its steps jump by months at each day change and its span
+    grows from days to months."""
     ts = []
     for v in values:
         try:
             ts.append(_dt.datetime.strptime(v, fmt).replace(tzinfo=_dt.timezone.utc).timestamp())
         except ValueError:
             pass
-    d = np.abs(np.diff(np.asarray(ts, dtype=float)))
+    x = np.asarray(ts, dtype=float)
+    d = np.abs(np.diff(x))
     d = d[d > 0]
-    return float(np.median(d)) if d.size else math.inf
+    if not d.size:
+        return len(ts), 0, 0, 0.0
+    steps, counts = np.unique(d, return_counts=True)
+    return len(ts), int(d.size), int(counts.max()), float(x.max() - x.min())
+
+
+def _day_text(seconds: float) -> str:
+    return f"{seconds / 86400:.3g} d" if seconds >= 86400 else f"{seconds / 3600:.3g} h"
+
+
+def choose_reading(values: list[str], formats: list[str], what: str) -> tuple[str, str | None, bool]:
+    """Pick among formats that all read the sample (day-first against month-first ...) by counted evidence:
+    the most stamps read (a month field over 12 fails the wrong reading), then the most regular steps, then the
+    shortest span.  -> (format, guess text naming the evidence and the override, tie).  On a true tie (the
+    evidence cannot tell, e.g. every stamp on one day) the day-first reading is taken and ``tie`` is True."""
+    ev = {f: _evidence(values, f) for f in formats}
+    day_first = {f: 0 if "%d" in f.split("%m")[0] else 1 for f in formats}
+    order = sorted(formats, key=lambda f: (-ev[f][0], -ev[f][2], ev[f][3], day_first[f]))
+    best = order[0]
+    key = lambda f: (ev[f][0], ev[f][2], ev[f][3])  # noqa: E731
+    tie = any(key(f) == key(best) for f in order[1:])
+
+    def text(f: str) -> str:
+        n, steps, regular, span = ev[f]
+        return f"'{f}': {n} of {len(values)} stamps read, {regular} of {steps} steps regular, span {_day_text(span)}"
+
+    others = "; ".join(text(f) for f in order[1:])
+    if tie:
+        guess = (f"{what}: the evidence ties ({text(best)}; {others}); read as '{best}' (day first); check it and "
+                 f"override with --time-format or [time] format in the mapping file")
+    else:
+        guess = (f"{what} read as {text(best)} (against {others}); override with --time-format or [time] format "
+                 f"in the mapping file")
+    return best, guess, tie
 
 
 def _candidates(v: str) -> list[str]:
@@ -136,41 +174,39 @@ def detect_datetime_format(values: list[str]) -> tuple[str, str | None, str | No
         return None
     if len(ok) == 1:
         return ("format", ok[0], None)
-    # several readings: keep those reading the most of the sample, then prefer the smallest time step
-    ok = _try_formats(vals, ok) or ok
-    counts = {f: _count_parsed(vals, f) for f in ok}
-    ok = [f for f in ok if counts[f] == max(counts.values())]
-    if len(ok) == 1:
-        return ("format", ok[0], None)
-    steps = {fmt: _median_step(vals, fmt) for fmt in ok}
-    best = min(ok, key=lambda f: (steps[f], 0 if "%d" in f.split("%m")[0] else 1))
-    others = [f for f in ok if f != best]
-    tied = [f for f in others if steps[f] == steps[best]]
-    guess = None
-    if tied or len(vals) < 3:
-        guess = (f"time format guessed as '{best}' (also readable as {', '.join(repr(f) for f in others)}); "
-                 f"override with --time-format or [time] format in the mapping file")
+    # several readings (day-first / month-first ...): counted evidence decides (choose_reading)
+    best, guess, _ = choose_reading(vals, ok, "time format")
     return ("format", best, guess)
 
 
 def detect_date_format(values: list[str]) -> str | None:
-    vals = _sample_strings(values, 60)
+    return detect_date_reading(values)[0]
+
+
+def detect_date_reading(values: list[str]) -> tuple[str | None, str | None]:
+    """(format of a date column, guess text when several readings fit; see ``choose_reading``)."""
+    vals = _sample_strings(values, 400)
     if not vals:
-        return None
-    ok = _try_formats(vals, _DATES)
+        return None, None
+    ok = _try_formats(vals[:60], _DATES)
     if not ok:
-        return None
+        return None, None
     if len(ok) > 1:
-        steps = {f: _median_step(vals, f) for f in ok}
-        ok.sort(key=lambda f: (steps[f], 0 if "%d" in f.split("%m")[0] else 1))
-    return ok[0]
+        ok = _try_formats(vals, ok) or ok
+    if len(ok) == 1:
+        return ok[0], None
+    best, guess, _ = choose_reading(vals, ok, "date format")
+    return best, guess
 
 
 def detect_clock_format(values: list[str]) -> str | None:
+    """Format of a time-of-day column; ``...%z`` when the times carry a UTC offset or ``Z`` (``01:00:00+01:00``)."""
     vals = _sample_strings(values, 60)
     if not vals:
         return None
     ok = _try_formats(vals, _TIMES)
+    if not ok and sum(1 for v in vals if _ISO_OFFSET_RE.search(v)) >= 0.5 * len(vals):
+        ok = _try_formats(vals, [f + "%z" for f in _TIMES if "%p" not in f])
     return ok[0] if ok else None
 
 
@@ -247,8 +283,8 @@ def parse_times(cols: list[pa.Array], spec: TimeSpec) -> tuple[np.ndarray, np.nd
             else:
                 ns[naive], code[naive] = _finish_utc(t.dt.tz_localize("UTC"), int(naive.sum()))
         return ns, code
-    else:
-        t = pd.to_datetime(ser, format=spec.fmt, errors="coerce")
+    else:   # a format with %z: offsets may change within the file (DST), so read straight to UTC
+        t = pd.to_datetime(ser, format=spec.fmt, errors="coerce", utc="%z" in (spec.fmt or ""))
     if getattr(t.dt, "tz", None) is not None:
         return _finish_utc(t.dt.tz_convert("UTC"), n)
     if spec.tz:
@@ -266,7 +302,12 @@ def _iso_fast(text: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
         if ts.null_count:
             return None
         ns = ts.cast(pa.int64()).to_numpy(zero_copy_only=False).astype(np.int64, copy=False)
-        return ns, np.zeros(len(ns), dtype=np.int8)
+        # the plausible range holds on this path too (one stray 2150 stamp must not stretch the grid)
+        lo, hi = TIME_MIN.tz_localize("UTC").value, TIME_MAX.tz_localize("UTC").value
+        oor = (ns < lo) | (ns >= hi)
+        if oor.any():
+            ns = np.where(oor, 0, ns)
+        return ns, oor.astype(np.int8) * 4
     return None
 
 

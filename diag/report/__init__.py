@@ -8,7 +8,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Callable, Iterable
 
-from diag.errors import InputError
 from diag.report.pdf import format_availability, format_minutes, page_png_bytes, pdf_bytes
 from diag.report.tables import (
     events_csv_bytes,
@@ -34,24 +33,12 @@ def write_outputs(results: Iterable[LinkResult], out_dir, *,
     ``progress(done, total, message)`` is called after each file.  Raises ``InputError`` when the folder cannot be
     created or written.
     """
+    from diag.outputs import files_into
+
     results = list(results)
-    out = Path(out_dir)
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"cannot create the output folder: {exc.strerror}", path=str(out)) from None
     makers = {"events.csv": events_csv_bytes, "findings.json": findings_json_bytes,
               "outage_summary.csv": outage_summary_csv_bytes, "outage_by_cause.csv": outage_by_cause_csv_bytes,
               "report.pdf": pdf_bytes}
-    written = []
-    for i, name in enumerate(OUTPUT_FILES):
-        path = out / name
-        data = makers[name](results)
-        try:
-            path.write_bytes(data)
-        except OSError as exc:
-            raise InputError(f"cannot write {name}: {exc.strerror}", path=str(path)) from None
-        written.append(path)
-        if progress is not None:
-            progress(i + 1, len(OUTPUT_FILES), f"wrote {name}")
-    return written
+    # all five made in a temporary folder beside out_dir, then moved into place (diag.outputs)
+    return files_into(out_dir, {name: (lambda make=makers[name]: make(results)) for name in OUTPUT_FILES},
+                      progress=progress)

@@ -120,7 +120,17 @@ def _short(text: str, width: int) -> str:
 
 
 def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
-    """One A4-landscape PDF page: outage minutes by cause for the worst hops, the ranking, and failed hops."""
+    """One A4-landscape PDF page: outage minutes by cause for the worst hops, the ranking, and failed hops.
+
+    Hop ids are user text: mathtext is off for the whole page (tick labels are made only when the page is drawn,
+    so switching it off per text object is not enough), so a "$" prints instead of being typeset."""
+    import matplotlib
+
+    with matplotlib.rc_context({"text.parse_math": False}):
+        return _write_network_page(results, ranking, path, top=top)
+
+
+def _write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, path: Path, *, top: int = 20) -> Path:
     import matplotlib
 
     matplotlib.use("Agg", force=False)
@@ -198,10 +208,16 @@ def write_network_page(results: Sequence[LinkResult], ranking: pd.DataFrame, pat
         fig.text(0.04, 0.14, "\n".join(text), fontsize=7, va="top", color="#a02020")
     fig.text(0.04, 0.03, "Per-hop outputs: hops/<hop>/.  Advice that involves work on towers or near radiating "
              "antennas: follow local codes for work at height and RF exposure limits.", fontsize=7)
-    path = Path(path)
-    with PdfPages(path, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
-        pdf.savefig(fig)
-    return path
+    for text_obj in fig.findobj(matplotlib.text.Text):   # hop ids are user text: a "$" must print, not typeset
+        text_obj.set_parse_math(False)
+
+    def build(tmp: Path) -> None:
+        with PdfPages(tmp, metadata={"Title": "Network outage ranking", "Creator": "diag"}) as pdf:
+            pdf.savefig(fig)
+
+    from diag.outputs import replace_file
+
+    return replace_file(Path(path), build)   # made beside, renamed into place: never a truncated page
 
 
 def write_combined(out_dir: Path, order: list[str], folders: dict[str, str]) -> list[Path]:

@@ -317,6 +317,11 @@ def write_scenario(
         unknown = [s for s in shape_list if s not in SHAPES]
         if unknown:
             raise InputError(f"unknown log shape(s) {', '.join(unknown)}; use {', '.join(SHAPES)} or all")
+    from diag.report.tables import safe_filename  # file names from ids: never a path (as 'analyze' names files)
+
+    clash = [i for i in results if sum(safe_filename(j) == safe_filename(i) for j in results) > 1]
+    if clash:
+        raise InputError(f"link ids {', '.join(map(repr, clash[:4]))} give the same file name; rename them")
     written = [write_links_table([r.link for r in results.values()], out_dir / "links.csv")]
     plan: dict[str, list[str]] = {}
     for link_id in results:
@@ -338,13 +343,15 @@ def write_scenario(
                     threshold_dbm=results[i].spec.threshold_dbm if counters else None,
                 )
                 info = write_stats(
-                    stats, folder / f"{i}_{tag}.csv", floors_dbm={i: results[i].spec.floor_value_dbm}
+                    stats,
+                    folder / (safe_filename(f"{i}_{tag}") + ".csv"),
+                    floors_dbm={i: results[i].spec.floor_value_dbm},
                 )
                 written.append(info.path)
         elif shape == "long":
             info = write_long(
                 [results[i].table for i in ids],
-                folder / f"{scenario.name}_long.csv",
+                folder / (safe_filename(scenario.name, default="scenario") + "_long.csv"),
                 defects={i: results[i].file_defects for i in ids},
                 floors_dbm={i: results[i].spec.floor_value_dbm for i in ids},
             )
@@ -353,7 +360,7 @@ def write_scenario(
             for i in ids:
                 r = results[i]
                 suffix = ".csv.gz" if outputs.get(i, {}).get("gzip", False) else ".csv"
-                name = f"{i}{suffix}"  # the reader takes a one-hop file's link id from its name
+                name = safe_filename(i) + suffix  # the reader takes a one-hop file's link id from its name
                 info = write_log(
                     r.table,
                     folder / name,

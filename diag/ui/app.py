@@ -21,7 +21,9 @@ import streamlit as st
 
 from diag import glossary, schema
 from diag.errors import InputError
-from diag.links import Link, match_link, read_links_table
+from diag.links import Link, read_links_table
+from diag.read.hop_match import NAMED_SOURCES, assign_hops
+from diag.read.sniff import file_stem
 from diag.report import views
 from diag.ui.charts import event_list, level_timeline, overview
 from diag.ui.forms import (
@@ -236,11 +238,14 @@ def main() -> None:
     hops: dict[str, Link | None] = {}
     for name, report in reports.items():
         for hop in [i for i in report.get("links") or [] if i and i != schema.DEFAULT_LINK_ID] \
-                or [Path(name).name.split(".")[0]]:
+                or [file_stem(name)]:   # as the reader names it: never an empty id ('.csv')
+            st.session_state.setdefault("hop_channels", {})[hop] = report.get("channels") or []
             base = None
             if links:
                 try:
-                    base = match_link(links, hop, file_name=name)
+                    found = assign_hops([hop], links, file_name=name,
+                                        names_hop=report.get("link_source") in NAMED_SOURCES).hops[hop]
+                    base = next(link for link in links if link.link_id == found)
                 except InputError:
                     base = None
             hops.setdefault(base.link_id if base else hop, base)
@@ -259,7 +264,7 @@ def main() -> None:
                 chosen_links.append(link)
     if len(chosen_links) < len(hops):
         missing = [h for h in hops if h not in {link.link_id for link in chosen_links}]
-        st.info(f"Analysis starts once every hop has its frequency, length and threshold (still missing: "
+        st.info(f"Analysis starts once every hop has its frequency, length, polarisation and threshold (still missing: "
                 f"{md(', '.join(missing))}). Several files of one hop that name no hop: give them one hop id under "
                 "“Correct the detection” below, or upload a links table.")
         st.markdown("#### What the reader found")

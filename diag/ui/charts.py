@@ -1,4 +1,4 @@
-"""The dashboard's result screens: overview, level timeline, fade events, fading statistics, cross-polar.
+"""The dashboard's result screens: overview, level timeline, fade events (statistics screens: ``stat_charts``).
 
 Every number on screen has a human label and a unit (``diag.glossary``), durations are h:mm:ss, and the tables are
 shaped by ``diag.report.views`` (tested there).  Only draws.

@@ -9,7 +9,7 @@ import streamlit as st
 
 from diag import __version__
 from diag.errors import InputError
-from diag.links import OPTIONAL, Link, make_link
+from diag.links import OPTIONAL, Link, make_link, polarisation_from_channels
 from diag.report import views_reader
 
 QUANTITY_CHOICES = ["rsl", "tsl", "xpd", "xpl", "es", "ses", "uas"]
@@ -67,7 +67,10 @@ def link_form(hop: str, base: Link | None) -> Link | None:
         length = c2.number_input("Length (km)", min_value=0.01, max_value=200.0, step=0.1,
                                  value=values.get("length_km"), key=f"d_{hop}")
         pols = ["H", "V", "dual"]
-        pol = c3.selectbox("Polarisation", pols, index=pols.index(values.get("polarization") or "V"),
+        known = values.get("polarization") or polarisation_from_channels(
+            st.session_state.get("hop_channels", {}).get(hop, []))   # from the channels, else asked: never assumed
+        pol = c3.selectbox("Polarisation", pols, index=pols.index(known) if known in pols else None,
+                           placeholder="choose H, V or dual",
                            key=f"p_{hop}")
         thr = c4.number_input("Receiver threshold (dBm)", min_value=-120.0, max_value=-20.0, step=0.5,
                               value=values.get("threshold_dbm"), key=f"t_{hop}")
@@ -91,7 +94,8 @@ def link_form(hop: str, base: Link | None) -> Link | None:
 
 def _make(hop: str, values: dict, *, show: bool) -> Link | None:
     missing = [label for label, name in (("frequency", "frequency_ghz"), ("length", "length_km"),
-                                         ("threshold", "threshold_dbm")) if values.get(name) is None]
+                                         ("polarisation", "polarization"), ("threshold", "threshold_dbm"))
+               if values.get(name) is None]
     if missing:
         if show:
             st.info(f"Hop **{md(hop)}**: enter the {', '.join(missing)} to analyse it.")
@@ -152,7 +156,7 @@ def mapping_editor(reports: dict[str, dict], errors: dict[str, str]) -> None:
         st.session_state.pop("mapping", None)
         st.rerun()
     if applied:
-        from diag.read.ingest import mapping_from_options
+        from diag.read.mapping import mapping_from_options
 
         lines = [re.sub(r"\s*([=:])\s*", r"\1", line.strip()) for line in signals_text.splitlines() if line.strip()]
         try:

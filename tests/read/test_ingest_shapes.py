@@ -225,7 +225,7 @@ def test_ambiguous_day_month_is_reported_as_guess(tmp_path):
     p.write_text("Time,RSL (dBm)\n01/12/2026 10:00:00,-40\n01/12/2026 10:00:01,-41\n01/12/2026 10:00:02,-42\n")
     r = read_log(p)
     assert r.table[S.TIME].iloc[0] == pd.Timestamp("2026-12-01T10:00:00Z")   # day-first default
-    assert any("time format guessed" in g and "--time-format" in g for g in r.report.guesses)
+    assert any("the evidence ties" in g and "--time-format" in g for g in r.report.guesses)
     r2 = read_log(p, mapping={"time": {"format": "%m/%d/%Y %H:%M:%S"}})
     assert r2.table[S.TIME].iloc[0] == pd.Timestamp("2026-01-12T10:00:00Z")
     check_accounting(r2)

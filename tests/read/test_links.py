@@ -2,7 +2,8 @@
 import pytest
 
 from diag.errors import InputError
-from diag.links import match_link, read_links_table
+from diag.links import read_links_table
+from diag.read.hop_match import assign_hops
 
 
 def test_links_table_reads_required_and_optional(tmp_path):
@@ -36,8 +37,10 @@ def test_match_link_by_id_file_name_and_single_row(tmp_path):
     path.write_text("link_id,frequency_ghz,length_km,polarization,threshold_dbm\n"
                     "hop-a,23,10,H,-70\nhop-ab,23,10,H,-70\n")
     links = read_links_table(path)
-    assert match_link(links, "hop-a").link_id == "hop-a"
-    assert match_link(links, None, file_name="/x/hop-ab_week.csv").link_id == "hop-ab"
+    assert assign_hops(["hop-a"], links).hops == {"hop-a": "hop-a"}
+    assert assign_hops(["hop-ab_week"], links, file_name="/x/hop-ab_week.csv", names_hop=False).hops == {
+        "hop-ab_week": "hop-ab"}
     with pytest.raises(InputError):
-        match_link(links, "nope")
-    assert match_link(links[:1], "nope").link_id == "hop-a"
+        assign_hops(["nope"], links)
+    one = assign_hops(["nope"], links[:1])
+    assert one.hops == {"nope": "hop-a"} and "nope" in one.warnings[0] and "hop-a" in one.warnings[0]

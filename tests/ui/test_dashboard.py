@@ -101,6 +101,8 @@ def test_upload_without_links_table_asks_for_parameters():
     at.number_input(key="f_hop7").set_value(18.0)
     at.number_input(key="d_hop7").set_value(10.0)
     at.number_input(key="t_hop7").set_value(-72.0)
+    assert at.selectbox(key="p_hop7").value is None   # the channels do not say it: asked, never pre-filled
+    at.selectbox(key="p_hop7").set_value("V")
     at.form_submit_button[0].click().run()
     _no_failure(at)
     assert any(m.value == "### Hop hop7" for m in at.markdown)
