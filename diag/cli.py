@@ -7,15 +7,16 @@ nothing reaches the user as a traceback.
 from __future__ import annotations
 
 import argparse
-import importlib
 import logging
 import os
 import sys
 import warnings
 
+from diag.commands import analyze, batch, ingest, predict, simulate
 from diag.errors import InputError
 
-COMMANDS = ("ingest", "predict", "simulate", "analyze", "batch")
+# the commands in the order --help lists them; each module imports its heavy dependencies inside its handler
+COMMANDS = (ingest, predict, simulate, analyze, batch)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -31,13 +32,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="diag", description="Why did the microwave hop fade, and what did each cause cost.")
     parser.add_argument("-v", "--verbose", action="store_true", help="log progress and diagnostics to stderr")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for name in COMMANDS:
-        try:
-            module = importlib.import_module(f"diag.commands.{name}")
-        except ModuleNotFoundError as exc:
-            if exc.name == f"diag.commands.{name}":
-                continue  # command not built yet
-            raise
+    for module in COMMANDS:
         module.register(sub)
     return parser
 

@@ -15,6 +15,7 @@ Two quantities are never mixed up:
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from diag import schema
@@ -260,3 +261,18 @@ def allowed_cause_values() -> set[str]:
 
 def allowed_main_cause_values() -> set[str]:
     return set(schema.CAUSES) | {NO_OUTAGE}
+
+
+def duration_text(seconds: float | None) -> str:
+    """A duration as h:mm:ss (the rule for every duration a person reads); days as "3 d 04:05:06"."""
+    if seconds is None or not math.isfinite(float(seconds)):
+        return "–"
+    total = int(round(float(seconds)))
+    sign = "-" if total < 0 else ""
+    total = abs(total)
+    days, rest = divmod(total, 86400)
+    h, rest = divmod(rest, 3600)
+    m, s = divmod(rest, 60)
+    if days:
+        return f"{sign}{days} d {h:02d}:{m:02d}:{s:02d}"
+    return f"{sign}{h}:{m:02d}:{s:02d}"

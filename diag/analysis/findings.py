@@ -16,6 +16,8 @@ not instructions.  Every action that involves the site carries the field-work ca
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 
@@ -43,6 +45,17 @@ _CAUSE_TEXT = {
     S.SIGNAL_LOSS: ("Equipment signal loss", "signal-loss episode(s)"),
     S.UNKNOWN: ("Fades of unknown cause", "unclassified fade event(s)"),
 }
+
+
+def _loss_text(loss_db) -> str:
+    """A small loss in dB with the digits it supports (two significant figures, at least 0.01 dB shown)."""
+    try:
+        value = float(loss_db)
+    except (TypeError, ValueError):
+        return "unknown"
+    if not math.isfinite(value):
+        return "unknown"
+    return "under 0.01 dB" if value < 0.01 else f"{value:.2g} dB"
 
 
 def _pct(share: float) -> str:
@@ -145,12 +158,14 @@ def _cause_finding(cause: str, figures: dict, result, total_unav: float, objecti
             numbers.update({"below_threshold_s_lo": _num(b_lo), "below_threshold_s_hi": _num(below),
                             "unavailable_s_lo": _num(u_lo), "unavailable_s_hi": _num(unav)})
             numbers["below_threshold_s"] = numbers["unavailable_s"] = None
-            detail += (f" took the hop below threshold for {b_lo:.0f} to {below:.0f} s ({u_lo:.0f} to {unav:.0f} s "
+            dur = glossary.duration_text
+            detail += (f" took the hop below threshold for {dur(b_lo)} to {dur(below)} ({dur(u_lo)} to {dur(unav)} "
                        "unavailable; bounds from coarse statistics")
             detail += (f", at most {_pct(share)} of the hop's worst-case unavailable time)"
                        if total_unav > 0 else ")")
         else:
-            detail += f" took the hop below threshold for {below:.0f} s ({unav:.0f} s unavailable"
+            detail += (f" took the hop below threshold for {glossary.duration_text(below)} "
+                       f"({glossary.duration_text(unav)} unavailable")
             detail += f", {_pct(share)} of the hop's unavailable time)" if total_unav > 0 else ")"
     else:
         detail += " without taking the hop below threshold"
@@ -233,7 +248,7 @@ def _tilt_finding(result) -> dict | None:
                "clear_xpd_db": block.get("clear_xpd_db"), "xpd_required_db": block.get("xpd_required_db"),
                "copolar_loss_db": loss, "assumption": block.get("assumption")}
     detail = (f"clear-sky XPD {block.get('clear_xpd_db')} dB on {channel} implies a polarisation tilt of about "
-              f"{tilt:.1f} deg (co-polar loss {loss} dB)")
+              f"{tilt:.1f} deg (co-polar loss {_loss_text(loss)})")
     if below:
         detail += f"; below the required {block.get('xpd_required_db')} dB"
     severity = "high" if below else ("medium" if tilt >= 5.0 else "low")

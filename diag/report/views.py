@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from diag import glossary, schema
+from diag.glossary import duration_text  # noqa: F401  (the views' duration format is the glossary's)
 from diag.report.style import CAUSE_LABELS
 from diag.results import ChannelSeries, LinkResult
 
@@ -257,21 +258,6 @@ def range_text(pair: tuple[float | None, float | None], fmt: str = "{:.1f}", uni
     if low is None or high is None or low == high:
         return fmt.format(low if low is not None else high) + unit
     return f"{fmt.format(low)}–{fmt.format(high)}{unit}"
-
-
-def duration_text(seconds: float | None) -> str:
-    """A duration as h:mm:ss (``glossary``'s rule for every duration on screen); days as "3 d 04:05:06"."""
-    if seconds is None or not math.isfinite(float(seconds)):
-        return "–"
-    total = int(round(float(seconds)))
-    sign = "-" if total < 0 else ""
-    total = abs(total)
-    days, rest = divmod(total, 86400)
-    h, rest = divmod(rest, 3600)
-    m, s = divmod(rest, 60)
-    if days:
-        return f"{sign}{days} d {h:02d}:{m:02d}:{s:02d}"
-    return f"{sign}{h}:{m:02d}:{s:02d}"
 
 
 def duration_range_text(pair_min: tuple[float | None, float | None]) -> str:
