@@ -131,17 +131,12 @@ def test_docs_cite_nothing_outside_the_repository():
     assert not _outside_citations([*MARKDOWN, ROOT / "docs" / "architecture.py"])
 
 
-@pytest.mark.xfail(strict=False, reason="code and test comments still cite the old outside reference sheet and "
-                                        "contract; the replacement list (docs/references.md §N, docs/usage.md "
-                                        "§1-§3) is applied by the lead")
 def test_code_and_tests_cite_nothing_outside_the_repository():
     own = Path(__file__).resolve()
     paths = [p for p in _text_files() if p.resolve() != own and p.parent.name != "docs" and p not in MARKDOWN]
     assert not _outside_citations(paths)
 
 
-@pytest.mark.xfail(strict=False, reason="some docstrings still point at README sections that moved to docs/ "
-                                        "(method.md §6, validation.md §3/§6/§7); the lead applies the list")
 def test_nothing_points_at_readme_sections_that_moved():
     stale = re.compile(r"README section|reported in the README|README figures|README table")
     own = Path(__file__).resolve()

@@ -2,7 +2,7 @@
 
 Physics-based rules (no trained model).  The features come from :mod:`diag.analysis.events`; the physics behind each
 test
-is in the shared reference sheet, section 8 (rain vs multipath), with sources there.  The rules run in this order
+is in docs/references.md §8 (rain vs multipath), with sources there.  The rules run in this order
 and the first that fires wins.  Rain-vs-refractive points turn into a confidence 0.5 + 0.45 x (lead / max(total,
 3)), so a verdict resting on little evidence stays near 0.5:
 

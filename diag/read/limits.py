@@ -1,4 +1,4 @@
-"""Resource bounds of the reader (issue 15, case 10), stated in the README section "Limits" and enforced with a
+"""Resource bounds of the reader (issue 15, case 10), stated in the README's "Limits" section and enforced with a
 one-line ``InputError`` (status 2).  Each can be raised for a trusted big job through an environment variable.
 
 - ``MAX_DECOMPRESSED_BYTES``: bytes a gzip'd log (or gauge file) may expand to: 500 MB by default, five times the

@@ -5,7 +5,7 @@ Each input must end with status 0 or 2 (one error line, never a traceback); on s
 read = ok + signal lost + missing) and nothing is written outside ``--out``.  Inputs are written by the test itself.
 Memory against input size is measured in ``bench/bench_input_bounds.py``, not timed here.
 
-No outside source is needed: the rules are the project's own contract (../shared/CONTRACT.md); the shapes are
+No outside source is needed: the rules are the project's own contract (docs/usage.md §1-§3); the shapes are
 common practice of network-management exports (separators, decimal commas, local time, markers such as LOS).
 """
 from __future__ import annotations

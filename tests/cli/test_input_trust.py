@@ -1,7 +1,7 @@
 """Trusting the input (issue 15): no silent reassignment, no silent guess, validated tables and flags, bounded
 resources, atomic outputs.  Each numbered case of the issue is one or more tests here, named ``test_case<N>_...``.
 
-No outside source is needed: the rules are the project's own contract (../shared/CONTRACT.md and the accounting
+No outside source is needed: the rules are the project's own contract (docs/usage.md §1-§3 and the accounting
 rule in diag.read.normalise).  Calendar facts (a month field is 1..12; a 15-min log steps 900 s) are common
 practice.
 """
