@@ -44,6 +44,7 @@ from diag import schema as S
 from diag.errors import DataWarning, InputError, require_regular_file
 from diag.read import limits, store
 from diag.read import normalise as N
+from diag.read import values as V
 from diag.read.colplan import ColumnPlan, plan_columns, section
 from diag.read.hop_match import hop_of_file_name
 from diag.read.ingest_report import IngestReport, ReadResult, summarise
@@ -196,10 +197,10 @@ def _read_rows(src: Source, enc: str, dialect: Dialect, *, tz, mapping, link_id)
         vals = np.empty((m, len(plan.values)), dtype=np.float64)
         reas = np.empty((m, len(plan.values)), dtype=np.int8)
         for j, vc in enumerate(plan.values):
-            vals[:, j], reas[:, j] = N.parse_values(getcol(vc.name), dialect.decimal)
+            vals[:, j], reas[:, j] = V.parse_values(getcol(vc.name), dialect.decimal)
             if absent is not None:
                 gone = absent[keep, names.index(vc.name)]
-                reas[gone, j] = N.R_ABSENT
+                reas[gone, j] = V.R_ABSENT
                 vals[gone, j] = np.nan
         rownum = rows_seen + np.flatnonzero(keep).astype(np.int64)
         if absent is not None:

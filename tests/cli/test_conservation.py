@@ -264,7 +264,7 @@ def _short_spec(spec, *, window_s: float = WINDOW_S):
 def check_same_values(written: pd.DataFrame, read: pd.DataFrame, floor_dbm: float, label: str) -> None:
     """Each simulated value comes back once with its status; the one allowed change is the reader's floor band:
     a reading within FLOOR_BAND_DB (1 dB) above the detected receiver floor is taken as loss of signal."""
-    from diag.read.normalise import FLOOR_BAND_DB
+    from diag.read.values import FLOOR_BAND_DB
 
     keys = [S.TIME, S.CHANNEL, S.QUANTITY, S.STAT]
     a = written[keys + [S.VALUE, S.STATUS]].astype({S.CHANNEL: str, S.QUANTITY: str, S.STAT: str, S.STATUS: str})
