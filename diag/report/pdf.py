@@ -13,7 +13,9 @@ Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of 
 """
 from __future__ import annotations
 
+import contextlib
 import io
+import logging
 from typing import Callable, Iterable, Sequence
 
 import numpy as np
@@ -47,7 +49,8 @@ PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
 MAX_TIMELINES = 5
 MAX_FINDINGS_PAGES = 4
 
-__all__ = ["build_figures", "pdf_bytes", "write_pdf", "format_availability", "format_minutes", "SAFETY_TEXT"]
+__all__ = ["build_figures", "pdf_bytes", "pdf_safe", "write_pdf", "format_availability", "format_minutes",
+           "SAFETY_TEXT"]
 
 
 def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
@@ -596,9 +599,63 @@ def build_figures(results: Iterable[LinkResult]) -> list:
     return pages
 
 
-# text.parse_math off: link ids and findings are user text, and a "$" in them must print, not start mathtext
-_RC = {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6,
-       "path.simplify": True, "text.parse_math": False}
+# text.parse_math off: link ids and findings are user text, and a "$" in them must print, not start mathtext.
+# The PDF uses the PDF standard Helvetica (core font, WinAnsi encoding): nothing to embed or subset per document
+# and cheap text layout (about a third of the cost of a report went to TrueType subsetting and glyph layout).
+# Characters WinAnsi lacks are replaced deliberately (``pdf_safe``); tick labels use the ASCII minus for that reason.
+_RC = {"pdf.fonttype": 3, "pdf.use14corefonts": True, "font.family": "sans-serif", "font.sans-serif": ["Helvetica"],
+       "axes.unicode_minus": False, "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+       "text.parse_math": False}
+# the PNG preview is drawn by Agg, which needs a TrueType font
+_RC_PNG = {"font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+           "text.parse_math": False}
+
+# what the PDF prints for characters its WinAnsi (cp1252) fonts lack; anything else outside it prints as "?"
+PDF_REPLACEMENTS = {"\u2212": "-", "\u2265": ">=", "\u2264": "<=", "\u2192": "->", "\u2190": "<-",
+                    "\u2248": "~", "\u00b1": "+/-", "\u2260": "!=", "\u2009": " ", "\u202f": " ",
+                    "\u2032": "'", "\u2033": '"', "\u0394": "delta ", "\u03c3": "sigma"}
+_TRANSLATE = str.maketrans(PDF_REPLACEMENTS)
+
+
+def pdf_safe(text: str) -> str:
+    """``text`` as the PDF's core fonts can print it: the replacements above, then "?" for anything else."""
+    if text.isascii():
+        return text
+    text = text.translate(_TRANSLATE)
+    try:
+        text.encode("cp1252")
+        return text
+    except UnicodeEncodeError:
+        return "".join(c if _in_cp1252(c) else "?" for c in text)
+
+
+def _in_cp1252(char: str) -> bool:
+    try:
+        char.encode("cp1252")
+        return True
+    except UnicodeEncodeError:
+        return False
+
+
+def _make_pdf_safe(fig) -> None:
+    from matplotlib.text import Text
+
+    for artist in fig.findobj(Text):
+        text = artist.get_text()
+        if not text.isascii():
+            artist.set_text(pdf_safe(text))
+
+
+@contextlib.contextmanager
+def _quiet_font_lookup():
+    """matplotlib warns that the core Helvetica has weight "medium", not "normal": expected, so not shown."""
+    logger = logging.getLogger("matplotlib.font_manager")
+    level = logger.level
+    logger.setLevel(logging.ERROR)
+    try:
+        yield
+    finally:
+        logger.setLevel(level)
 
 
 def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
@@ -607,12 +664,13 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
     from matplotlib.backends.backend_pdf import PdfPages
 
     buffer = io.BytesIO()
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC), _quiet_font_lookup():
         pages = build_figures(results)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,
                                         "ModDate": None}) as pdf:
             for i, fig in enumerate(pages):
+                _make_pdf_safe(fig)
                 pdf.savefig(fig)
                 if progress is not None:
                     progress(i + 1, len(pages), f"report page {i + 1}")
@@ -630,7 +688,7 @@ def page_png_bytes(results: Iterable[LinkResult], page: int = 0, *, dpi: int = 8
     import matplotlib
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC_PNG):
         fig = build_figures(results)[page]
         FigureCanvasAgg(fig)
         buffer = io.BytesIO()
