@@ -14,6 +14,7 @@ Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of 
 from __future__ import annotations
 
 import contextlib
+import functools
 import io
 import logging
 from typing import Callable, Iterable, Sequence
@@ -239,15 +240,11 @@ def _envelope(index: pd.DatetimeIndex, values: np.ndarray, bins: int = 1200):
     n = len(values)
     if n <= 2 * bins:
         return index, values, values
-    edges = np.linspace(0, n, bins + 1).astype(int)
-    lo, hi, t = [], [], []
-    for a, b in zip(edges[:-1], edges[1:]):
-        chunk = values[a:b]
-        finite = chunk[np.isfinite(chunk)]
-        t.append(index[a])
-        lo.append(finite.min() if finite.size else np.nan)
-        hi.append(finite.max() if finite.size else np.nan)
-    return pd.DatetimeIndex(t), np.array(lo), np.array(hi)
+    starts = np.linspace(0, n, bins + 1).astype(int)[:-1]       # strictly increasing: n > 2 * bins
+    with np.errstate(invalid="ignore"):
+        lo = np.fmin.reduceat(values, starts)     # fmin/fmax skip NaN; a bin with no finite value stays NaN
+        hi = np.fmax.reduceat(values, starts)
+    return pd.DatetimeIndex(index[starts]), lo, hi
 
 
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
@@ -638,12 +635,54 @@ def _in_cp1252(char: str) -> bool:
 
 
 def _make_pdf_safe(fig) -> None:
-    from matplotlib.text import Text
+    """Apply ``pdf_safe`` to every text of a page: figure texts, titles, labels, legends, tables and fixed tick
+    labels (hop names). Walks the artists it knows rather than ``fig.findobj``, which would create every tick."""
+    from matplotlib.ticker import FixedFormatter
 
-    for artist in fig.findobj(Text):
+    texts = list(fig.texts)
+    legends = list(fig.legends)
+    for ax in fig.axes:
+        texts += list(ax.texts) + [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
+        if ax.get_legend() is not None:
+            legends.append(ax.get_legend())
+        for table in ax.tables:
+            texts += [cell.get_text() for cell in table.get_celld().values()]
+        for axis in (ax.xaxis, ax.yaxis):
+            formatter = axis.get_major_formatter()
+            if isinstance(formatter, FixedFormatter):
+                formatter.seq = [pdf_safe(str(label)) for label in formatter.seq]
+    for legend in legends:
+        texts += list(legend.get_texts()) + [legend.get_title()]
+    for artist in texts:
         text = artist.get_text()
         if not text.isascii():
             artist.set_text(pdf_safe(text))
+
+
+@functools.lru_cache(maxsize=None)
+def _core_font_name(filename: str) -> str:
+    from matplotlib._afm import AFM
+
+    with open(filename, "rb") as fh:
+        return AFM(fh).get_fontname()
+
+
+def _reuse_font_metrics(pages) -> None:
+    """Name each core font from metrics parsed once per process, not once per document (matplotlib re-reads the
+    font's AFM file, kerning table and all, for every PDF it writes; only the font's name is used)."""
+    file = getattr(pages, "_file", None)
+    if file is None or not hasattr(file, "_write_afm_font"):
+        return
+    from matplotlib.backends.backend_pdf import Name
+
+    def write_afm_font(filename):
+        fontdict = {"Type": Name("Font"), "Subtype": Name("Type1"), "BaseFont": Name(_core_font_name(filename)),
+                    "Encoding": Name("WinAnsiEncoding")}
+        obj = file.reserveObject("font dictionary")
+        file.writeObject(obj, fontdict)
+        return obj
+
+    file._write_afm_font = write_afm_font
 
 
 @contextlib.contextmanager
@@ -669,6 +708,7 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,
                                         "ModDate": None}) as pdf:
+            _reuse_font_metrics(pdf)
             for i, fig in enumerate(pages):
                 _make_pdf_safe(fig)
                 pdf.savefig(fig)
