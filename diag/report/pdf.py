@@ -14,7 +14,6 @@ Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of 
 from __future__ import annotations
 
 import contextlib
-import functools
 import io
 import logging
 from typing import Callable, Iterable, Sequence
@@ -247,6 +246,14 @@ def _envelope(index: pd.DatetimeIndex, values: np.ndarray, bins: int = 1200):
     return pd.DatetimeIndex(index[starts]), lo, hi
 
 
+def _plain_times(index: pd.DatetimeIndex) -> np.ndarray:
+    """UTC times as numpy datetime64 for matplotlib: a pandas index is first turned into Python datetimes by
+    matplotlib's unit lookup (slow on long series); the dates drawn are the same."""
+    if getattr(index, "tz", None) is not None:
+        index = index.tz_convert("UTC").tz_localize(None)
+    return np.asarray(index, dtype="datetime64[ns]")
+
+
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
     m = np.concatenate(([0], mask.astype(np.int8), [0]))
     d = np.diff(m)
@@ -269,12 +276,13 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
         if s.kind == "stats" and "rsl_min_dbm" in frame:
             mn = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
             mx = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_max_dbm" in frame else level
-            ax.fill_between(frame.index, mn, mx, color=color, alpha=0.15, lw=0, step="post")
-            ax.step(frame.index, level, where="post", color=color, lw=0.7, label=f"{channel} level")
+            x = _plain_times(frame.index)
+            ax.fill_between(x, mn, mx, color=color, alpha=0.15, lw=0, step="post")
+            ax.step(x, level, where="post", color=color, lw=0.7, label=f"{channel} level")
             lows.append(np.nanmin(mn) if np.isfinite(mn).any() else np.nan)
         else:
             t, lo, hi = _envelope(frame.index, level)
-            ax.fill_between(t, lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
+            ax.fill_between(_plain_times(t), lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
                             label=f"{channel} level")
             lows.append(np.nanmin(lo) if np.isfinite(lo).any() else np.nan)
         if "status" in frame and i == 0:
@@ -659,24 +667,19 @@ def _make_pdf_safe(fig) -> None:
             artist.set_text(pdf_safe(text))
 
 
-@functools.lru_cache(maxsize=None)
-def _core_font_name(filename: str) -> str:
-    from matplotlib._afm import AFM
-
-    with open(filename, "rb") as fh:
-        return AFM(fh).get_fontname()
-
-
 def _reuse_font_metrics(pages) -> None:
     """Name each core font from metrics parsed once per process, not once per document (matplotlib re-reads the
     font's AFM file, kerning table and all, for every PDF it writes; only the font's name is used)."""
-    file = getattr(pages, "_file", None)
+    ensure = getattr(pages, "_ensure_file", None)
+    file = ensure() if ensure is not None else getattr(pages, "_file", None)
     if file is None or not hasattr(file, "_write_afm_font"):
         return
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
     from matplotlib.backends.backend_pdf import Name
 
     def write_afm_font(filename):
-        fontdict = {"Type": Name("Font"), "Subtype": Name("Type1"), "BaseFont": Name(_core_font_name(filename)),
+        name = _cached_get_afm_from_fname(filename).get_fontname()   # the same cache the text layout uses
+        fontdict = {"Type": Name("Font"), "Subtype": Name("Type1"), "BaseFont": Name(name),
                     "Encoding": Name("WinAnsiEncoding")}
         obj = file.reserveObject("font dictionary")
         file.writeObject(obj, fontdict)
