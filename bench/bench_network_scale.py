@@ -65,7 +65,7 @@ _PANDAS_READ = """
 import sys, pandas as pd
 for path in sys.argv[1:]:
     frame = pd.read_csv(path)
-    col = next(c for c in frame.columns if "time" in c.lower())
+    col = next((c for c in frame.columns if "time" in c.lower() or "date" in c.lower()), frame.columns[0])
     pd.to_datetime(frame[col], utc=True, format="ISO8601")
 """
 
