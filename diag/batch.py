@@ -8,8 +8,10 @@ its
    hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links table's only
    row) and keeps the table on the worker, split by hop.  The driver receives only the list of hops in each file
    and the reader's row accounting.
-2. submits one *hop* task per hop; it gathers that hop's rows from the files that hold them (worker to worker),
-   runs ``diag.pipeline.analyze_link`` and renders the hop's outputs (``diag.report.write_outputs``) into bytes.
+2. submits one *hop* task per hop (or per group of small consecutive hops, ``hop_groups``: scheduling overhead
+   must not dominate a network of many small hops); it gathers that hop's rows from the files that hold them
+   (worker to worker), runs ``diag.pipeline.analyze_link`` and renders the hop's outputs
+   (``diag.report.write_outputs``, the PDF included, so PDFs are drawn in the workers) into bytes.
    The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
    ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
 3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
@@ -248,6 +250,40 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
     return _HopOutcome(result, files)
 
 
+def _hops_task(items: list[tuple], config, analyze: AnalyzeFn | None, writer: WriterFn | None,
+               keep_series: bool, *pieces) -> list[_HopOutcome]:
+    """Several small hops in one task (``_hop_task`` for each): ``items`` are ``(hop, link, piece positions,
+    store refs)``, the positions index ``pieces``, the parsed files the group needs (each passed once)."""
+    return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series)
+            for hop, link, where, refs in items]
+
+
+ROWS_PER_TASK = 200_000     # hops are grouped into one task up to this many rows (small hops: scheduling overhead)
+TASKS_PER_WORKER = 4        # ... and no fewer tasks than this per worker, so the work still spreads evenly
+
+
+def hop_groups(sizes: Sequence[tuple[str, int | None]], n_workers: int, *, rows_per_task: int = ROWS_PER_TASK,
+               tasks_per_worker: int = TASKS_PER_WORKER) -> list[list[str]]:
+    """Cut hops (in order, ``(hop, rows)``; rows ``None`` = unknown, e.g. in a store) into tasks: consecutive small
+    hops share a task up to ``rows_per_task`` rows and at most ``len(hops) / (n_workers * tasks_per_worker)`` hops;
+    a hop of unknown size gets a task of its own."""
+    most = max(1, len(sizes) // max(1, n_workers * tasks_per_worker))
+    groups: list[list[str]] = []
+    rows = 0
+    for hop, n in sizes:
+        if n is None:
+            groups.append([hop])
+            rows = rows_per_task
+            continue
+        if groups and rows < rows_per_task and rows + n <= rows_per_task and len(groups[-1]) < most:
+            groups[-1].append(hop)
+            rows += n
+        else:
+            groups.append([hop])
+            rows = n
+    return groups
+
+
 # --- the run ----------------------------------------------------------------------------------------------------
 def _open_client(workers: int | None, scheduler: str | None, connect_timeout_s: float = 10.0):
     from distributed import Client, LocalCluster
@@ -408,15 +444,23 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     order = [link.link_id for link in links] + sorted((set(hop_files) | set(store_hops)) - set(by_id))
     folders = _folder_names(order)
 
-    # 2. one task per hop; results stream back and are written as they arrive
-    hop_futures = {}
+    # 2. tasks of one hop, or of several small ones; results stream back and are written as they arrive
+    sizes = []
     for hop in order:
         if hop not in hop_files and hop not in store_hops:
             continue
-        deps = [pieces[i] for i in hop_files.get(hop, [])]
-        hop_futures[client.submit(_hop_task, hop, by_id.get(hop), deps, store_hops.get(hop, []), config, analyze,
-                                  writer, keep_series, key=f"hop-{safe_name(hop)}-{len(hop_futures)}",
-                                  pure=False)] = hop
+        rows = None if hop in store_hops else sum(reads[i]["hops"].get(hop, 0) for i in hop_files[hop])
+        sizes.append((hop, rows))
+    n_workers = max(1, len(client.scheduler_info().get("workers", {})))
+    hop_futures = {}
+    for group in hop_groups(sizes, n_workers):
+        needed = sorted({i for hop in group for i in hop_files.get(hop, [])})
+        position = {i: k for k, i in enumerate(needed)}
+        items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []))
+                 for hop in group]
+        hop_futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
+                                  *[pieces[i] for i in needed], key=f"hops-{safe_name(group[0])}-{len(hop_futures)}",
+                                  pure=False)] = group
     del pieces  # each file's table is released by the cluster as soon as its last hop task has finished
     results: dict[str, LinkResult] = {}
     written: list[Path] = []
@@ -424,23 +468,28 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     if out is not None:
         _clear_outputs(out, folders.values())
     unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]
-    total = len(hop_futures)
-    for done, fut in enumerate(as_completed(list(hop_futures)), start=1):
-        hop = hop_futures.pop(fut)
+    total = len(sizes)
+    done = 0
+    for fut in as_completed(list(hop_futures)):
+        group = hop_futures.pop(fut)
         try:
-            outcome: _HopOutcome = fut.result()
-        except Exception as exc:  # a worker died or the task could not run: that hop fails, the rest go on
-            outcome = _HopOutcome(failed_result(by_id.get(hop) or _placeholder_link(hop), _one_line(exc)), {})
+            outcomes: list[_HopOutcome] = fut.result()
+        except Exception as exc:  # a worker died or the task could not run: its hops fail, the rest go on
+            outcomes = [_HopOutcome(failed_result(by_id.get(hop) or _placeholder_link(hop), _one_line(exc)), {})
+                        for hop in group]
         fut.release()
-        results[hop] = outcome.result
-        if out is not None and outcome.files:
-            folder = out / "hops" / folders[hop]
-            for rel, data in outcome.files.items():
-                target = folder / rel
-                target.parent.mkdir(parents=True, exist_ok=True)
-                target.write_bytes(data)
-                written.append(target)
-        tell("analyse", done, total, hop + (f" (error: {outcome.result.error})" if outcome.result.error else ""))
+        for hop, outcome in zip(group, outcomes):
+            results[hop] = outcome.result
+            if out is not None and outcome.files:
+                folder = out / "hops" / folders[hop]
+                for rel, data in outcome.files.items():
+                    target = folder / rel
+                    target.parent.mkdir(parents=True, exist_ok=True)
+                    target.write_bytes(data)
+                    written.append(target)
+            done += 1
+            tell("analyse", done, total, hop + (f" (error: {outcome.result.error})" if outcome.result.error
+                                                else ""))
     for hop in order:  # hops in the links table that no input mentions
         if hop not in results:
             results[hop] = failed_result(by_id[hop], "no data for this hop in the inputs")
@@ -460,5 +509,5 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     return BatchResult(results=ordered, ranking=ranking, files=written, reads=[m for m in reads if m])
 
 
-__all__ = ["BatchResult", "RANKING_COLUMNS", "expand_inputs", "failed_result", "hop_table", "network_ranking",
-           "run", "safe_name", "write_network_page"]
+__all__ = ["BatchResult", "RANKING_COLUMNS", "expand_inputs", "failed_result", "hop_groups", "hop_table",
+           "network_ranking", "run", "safe_name", "write_network_page"]

@@ -23,7 +23,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, special, stats
+from scipy import special  # scipy.stats and scipy.optimize are imported where used: slow to import
 
 from diag.models._util import ArrayLike, as_float_array, like_input
 
@@ -108,6 +108,8 @@ def rice_cdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     x = _power_ratio(level_db)
     k = _k_array(k_factor)
     x, k = np.broadcast_arrays(x, k)
+    from scipy import stats
+
     cdf = np.where(k > 0, stats.ncx2.cdf(2.0 * (k + 1.0) * x, 2.0, 2.0 * np.where(k > 0, k, 1.0)), -np.expm1(-x))
     return like_input(cdf, level_db, k_factor)
 
@@ -117,6 +119,8 @@ def rice_exceedance_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     x = _power_ratio(level_db)
     k = _k_array(k_factor)
     x, k = np.broadcast_arrays(x, k)
+    from scipy import stats
+
     sf = np.where(k > 0, stats.ncx2.sf(2.0 * (k + 1.0) * x, 2.0, 2.0 * np.where(k > 0, k, 1.0)), np.exp(-x))
     return like_input(sf, level_db, k_factor)
 
@@ -223,6 +227,8 @@ def fit_rice(envelope: ArrayLike, method: str = "mle") -> RiceFit:
         rn = r / math.sqrt(scale)  # fit on unit mean power, rescale after
         u_start = math.sqrt(min(k0, 1e4)) if math.isfinite(k0) else 100.0
         # u = 0 is always a stationary point (the likelihood is even in u), so never start exactly there
+        from scipy import optimize
+
         best = optimize.minimize(_rice_nll_and_gradient, np.array([max(u_start, 0.3), 0.0]), args=(rn * rn, rn),
                                  jac=True, method="L-BFGS-B", bounds=[(0.0, 100.0), (-3.0, 3.0)])
         k, omega = float(best.x[0]) ** 2, scale * math.exp(float(best.x[1]))  # K = u^2

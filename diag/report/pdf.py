@@ -13,7 +13,9 @@ Deterministic: fixed metadata (no creation date), fixed fonts, no timestamps of 
 """
 from __future__ import annotations
 
+import contextlib
 import io
+import logging
 from typing import Callable, Iterable, Sequence
 
 import numpy as np
@@ -47,7 +49,8 @@ PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
 MAX_TIMELINES = 5
 MAX_FINDINGS_PAGES = 4
 
-__all__ = ["build_figures", "pdf_bytes", "write_pdf", "format_availability", "format_minutes", "SAFETY_TEXT"]
+__all__ = ["build_figures", "pdf_bytes", "pdf_safe", "write_pdf", "format_availability", "format_minutes",
+           "SAFETY_TEXT"]
 
 
 def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
@@ -236,15 +239,19 @@ def _envelope(index: pd.DatetimeIndex, values: np.ndarray, bins: int = 1200):
     n = len(values)
     if n <= 2 * bins:
         return index, values, values
-    edges = np.linspace(0, n, bins + 1).astype(int)
-    lo, hi, t = [], [], []
-    for a, b in zip(edges[:-1], edges[1:]):
-        chunk = values[a:b]
-        finite = chunk[np.isfinite(chunk)]
-        t.append(index[a])
-        lo.append(finite.min() if finite.size else np.nan)
-        hi.append(finite.max() if finite.size else np.nan)
-    return pd.DatetimeIndex(t), np.array(lo), np.array(hi)
+    starts = np.linspace(0, n, bins + 1).astype(int)[:-1]       # strictly increasing: n > 2 * bins
+    with np.errstate(invalid="ignore"):
+        lo = np.fmin.reduceat(values, starts)     # fmin/fmax skip NaN; a bin with no finite value stays NaN
+        hi = np.fmax.reduceat(values, starts)
+    return pd.DatetimeIndex(index[starts]), lo, hi
+
+
+def _plain_times(index: pd.DatetimeIndex) -> np.ndarray:
+    """UTC times as numpy datetime64 for matplotlib: a pandas index is first turned into Python datetimes by
+    matplotlib's unit lookup (slow on long series); the dates drawn are the same."""
+    if getattr(index, "tz", None) is not None:
+        index = index.tz_convert("UTC").tz_localize(None)
+    return np.asarray(index, dtype="datetime64[ns]")
 
 
 def _runs(mask: np.ndarray) -> list[tuple[int, int]]:
@@ -269,12 +276,13 @@ def _timeline(ax, r: LinkResult, legend_causes: set) -> None:
         if s.kind == "stats" and "rsl_min_dbm" in frame:
             mn = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
             mx = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan) if "rsl_max_dbm" in frame else level
-            ax.fill_between(frame.index, mn, mx, color=color, alpha=0.15, lw=0, step="post")
-            ax.step(frame.index, level, where="post", color=color, lw=0.7, label=f"{channel} level")
+            x = _plain_times(frame.index)
+            ax.fill_between(x, mn, mx, color=color, alpha=0.15, lw=0, step="post")
+            ax.step(x, level, where="post", color=color, lw=0.7, label=f"{channel} level")
             lows.append(np.nanmin(mn) if np.isfinite(mn).any() else np.nan)
         else:
             t, lo, hi = _envelope(frame.index, level)
-            ax.fill_between(t, lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
+            ax.fill_between(_plain_times(t), lo, hi, color=color, alpha=0.6 if i == 0 else 0.4, lw=0.4,
                             label=f"{channel} level")
             lows.append(np.nanmin(lo) if np.isfinite(lo).any() else np.nan)
         if "status" in frame and i == 0:
@@ -596,9 +604,100 @@ def build_figures(results: Iterable[LinkResult]) -> list:
     return pages
 
 
-# text.parse_math off: link ids and findings are user text, and a "$" in them must print, not start mathtext
-_RC = {"pdf.fonttype": 42, "font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6,
-       "path.simplify": True, "text.parse_math": False}
+# text.parse_math off: link ids and findings are user text, and a "$" in them must print, not start mathtext.
+# The PDF uses the PDF standard Helvetica (core font, WinAnsi encoding): nothing to embed or subset per document
+# and cheap text layout (about a third of the cost of a report went to TrueType subsetting and glyph layout).
+# Characters WinAnsi lacks are replaced deliberately (``pdf_safe``); tick labels use the ASCII minus for that reason.
+_RC = {"pdf.fonttype": 3, "pdf.use14corefonts": True, "font.family": "sans-serif", "font.sans-serif": ["Helvetica"],
+       "axes.unicode_minus": False, "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+       "text.parse_math": False}
+# the PNG preview is drawn by Agg, which needs a TrueType font
+_RC_PNG = {"font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+           "text.parse_math": False}
+
+# what the PDF prints for characters its WinAnsi (cp1252) fonts lack; anything else outside it prints as "?"
+PDF_REPLACEMENTS = {"\u2212": "-", "\u2265": ">=", "\u2264": "<=", "\u2192": "->", "\u2190": "<-",
+                    "\u2248": "~", "\u00b1": "+/-", "\u2260": "!=", "\u2009": " ", "\u202f": " ",
+                    "\u2032": "'", "\u2033": '"', "\u0394": "delta ", "\u03c3": "sigma"}
+_TRANSLATE = str.maketrans(PDF_REPLACEMENTS)
+
+
+def pdf_safe(text: str) -> str:
+    """``text`` as the PDF's core fonts can print it: the replacements above, then "?" for anything else."""
+    if text.isascii():
+        return text
+    text = text.translate(_TRANSLATE)
+    try:
+        text.encode("cp1252")
+        return text
+    except UnicodeEncodeError:
+        return "".join(c if _in_cp1252(c) else "?" for c in text)
+
+
+def _in_cp1252(char: str) -> bool:
+    try:
+        char.encode("cp1252")
+        return True
+    except UnicodeEncodeError:
+        return False
+
+
+def _make_pdf_safe(fig) -> None:
+    """Apply ``pdf_safe`` to every text of a page: figure texts, titles, labels, legends, tables and fixed tick
+    labels (hop names). Walks the artists it knows rather than ``fig.findobj``, which would create every tick."""
+    from matplotlib.ticker import FixedFormatter
+
+    texts = list(fig.texts)
+    legends = list(fig.legends)
+    for ax in fig.axes:
+        texts += list(ax.texts) + [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
+        if ax.get_legend() is not None:
+            legends.append(ax.get_legend())
+        for table in ax.tables:
+            texts += [cell.get_text() for cell in table.get_celld().values()]
+        for axis in (ax.xaxis, ax.yaxis):
+            formatter = axis.get_major_formatter()
+            if isinstance(formatter, FixedFormatter):
+                formatter.seq = [pdf_safe(str(label)) for label in formatter.seq]
+    for legend in legends:
+        texts += list(legend.get_texts()) + [legend.get_title()]
+    for artist in texts:
+        text = artist.get_text()
+        if not text.isascii():
+            artist.set_text(pdf_safe(text))
+
+
+def _reuse_font_metrics(pages) -> None:
+    """Name each core font from metrics parsed once per process, not once per document (matplotlib re-reads the
+    font's AFM file, kerning table and all, for every PDF it writes; only the font's name is used)."""
+    ensure = getattr(pages, "_ensure_file", None)
+    file = ensure() if ensure is not None else getattr(pages, "_file", None)
+    if file is None or not hasattr(file, "_write_afm_font"):
+        return
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
+    from matplotlib.backends.backend_pdf import Name
+
+    def write_afm_font(filename):
+        name = _cached_get_afm_from_fname(filename).get_fontname()   # the same cache the text layout uses
+        fontdict = {"Type": Name("Font"), "Subtype": Name("Type1"), "BaseFont": Name(name),
+                    "Encoding": Name("WinAnsiEncoding")}
+        obj = file.reserveObject("font dictionary")
+        file.writeObject(obj, fontdict)
+        return obj
+
+    file._write_afm_font = write_afm_font
+
+
+@contextlib.contextmanager
+def _quiet_font_lookup():
+    """matplotlib warns that the core Helvetica has weight "medium", not "normal": expected, so not shown."""
+    logger = logging.getLogger("matplotlib.font_manager")
+    level = logger.level
+    logger.setLevel(logging.ERROR)
+    try:
+        yield
+    finally:
+        logger.setLevel(level)
 
 
 def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
@@ -607,12 +706,14 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
     from matplotlib.backends.backend_pdf import PdfPages
 
     buffer = io.BytesIO()
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC), _quiet_font_lookup():
         pages = build_figures(results)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,
                                         "ModDate": None}) as pdf:
+            _reuse_font_metrics(pdf)
             for i, fig in enumerate(pages):
+                _make_pdf_safe(fig)
                 pdf.savefig(fig)
                 if progress is not None:
                     progress(i + 1, len(pages), f"report page {i + 1}")
@@ -630,7 +731,7 @@ def page_png_bytes(results: Iterable[LinkResult], page: int = 0, *, dpi: int = 8
     import matplotlib
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
-    with matplotlib.rc_context(_RC):
+    with matplotlib.rc_context(_RC_PNG):
         fig = build_figures(results)[page]
         FigureCanvasAgg(fig)
         buffer = io.BytesIO()

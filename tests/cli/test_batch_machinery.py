@@ -249,3 +249,15 @@ def test_values_in_two_files_are_kept_once_and_counted():
     merged = table.set_index([schema.CHANNEL, schema.TIME])[schema.VALUE]
     expected = rows.iloc[:150].set_index([schema.CHANNEL, schema.TIME])[schema.VALUE]
     assert (merged.loc[expected.index] == expected).all()
+
+
+def test_small_hops_share_tasks_and_large_or_unknown_ones_do_not():
+    from diag.batch import hop_groups
+
+    small = [(f"h{i}", 1_000) for i in range(40)]
+    groups = hop_groups(small, 2, rows_per_task=200_000, tasks_per_worker=4)
+    assert [h for g in groups for h in g] == [h for h, _ in small]       # every hop once, in order
+    assert len(groups) == 8 and all(len(g) == 5 for g in groups)          # 2 workers x 4 tasks each
+    big = [("a", 150_000), ("b", 150_000), ("c", None), ("d", 10), ("e", 10)]
+    assert hop_groups(big, 1, rows_per_task=200_000, tasks_per_worker=1) == [["a"], ["b"], ["c"], ["d", "e"]]
+    assert hop_groups([("x", 5)], 8) == [["x"]]
