@@ -1,0 +1,57 @@
+"""Print every validation table: scenario family B (held-out half) and the OpenRainER real-data count.
+
+    .venv/bin/python bench/validation/run.py            # held-out seeds 51-100 (about 6 s a seed)
+    .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
+    .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
+
+Generated logs go to bench/output/validation/ (git-ignored) and are rewritten on each run.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+sys.path.insert(0, str(HERE.parents[1]))
+
+import family_b as fb  # noqa: E402
+import score  # noqa: E402
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description="family B held-out scores and the OpenRainER real-data count")
+    ap.add_argument("--quick", action="store_true", help="6 seeds of the chosen half")
+    ap.add_argument("--fit-half", action="store_true", help="score the fit half (seeds 1-50) instead")
+    ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
+    ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
+    ap.add_argument("--out", default=str(score.DEFAULT_OUT))
+    args = ap.parse_args(argv)
+    seeds = fb.FIT_SEEDS if args.fit_half else fb.HELDOUT_SEEDS
+    if args.quick:
+        seeds = seeds[:6]
+    t0 = time.perf_counter()
+    tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
+    t_sim = time.perf_counter() - t0
+    half = "FIT" if args.fit_half else "HELD-OUT"
+    print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
+    print(score.report(tally, cells=not args.no_cells))
+    print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
+    if not args.no_real:
+        try:
+            import realdata
+        except ImportError:
+            realdata = None
+        if realdata is not None:
+            t0 = time.perf_counter()
+            res = realdata.evaluate()
+            print()
+            print(realdata.report(res))
+            print(f"real-data time {time.perf_counter() - t0:.1f} s")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
