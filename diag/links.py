@@ -3,7 +3,8 @@
 Required fields: ``link_id, frequency_ghz, length_km, polarization`` (H, V or dual), ``threshold_dbm``.
 Optional: ``nominal_dbm, tx_dbm, antenna_gain_dbi, antenna_height_m, geoclimatic_k, r001_mmh, objective_pct,
 xpd_required_db``, ``site_a_lat, site_a_lon, site_b_lat, site_b_lon`` (degrees; used for the local solar time
-and the distances between hops in network corroboration).  A missing optional field is ``None``; the analysis names the checks it had to skip.
+and the distances between hops in network corroboration).  A missing optional field is ``None``; the analysis
+names the checks it had to skip.
 """
 from __future__ import annotations
 

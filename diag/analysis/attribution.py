@@ -433,8 +433,9 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
         if np.isfinite(base[i, second]):
             contrib.append((w.get("prior", 1.0) * (base[i, k] - base[i, second]),
                             f"P.530 prior {PROPAGATION[k]}:{PROPAGATION[second]} "
-                            f"{_odds(base[i, k] - base[i, second])} at {max(_f(row.get('peak_fade_db_finite')), 1.0):.0f}"
-                            f" dB on {link.frequency_ghz:g} GHz/{link.length_km:g} km"))
+                            f"{_odds(base[i, k] - base[i, second])} at "
+                            f"{max(_f(row.get('peak_fade_db_finite')), 1.0):.0f} dB on {link.frequency_ghz:g} GHz/"
+                            f"{link.length_km:g} km"))
         for name in TERMS:
             if texts[name][i]:
                 contrib.append((w.get(name, 1.0) * (terms[name][i, k] - terms[name][i, second]), texts[name][i]))
