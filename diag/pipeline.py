@@ -303,6 +303,8 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
             if exc.path is None:  # a problem of the hop's data: name the file(s) it came from
                 exc.path = ", ".join(dict.fromkeys(names[link_id]))
             raise
+    from diag.analysis.network import corroborate  # several hops: fades shared across the network (rain)
+    results = corroborate(results, config=config, gauge=gauge_table)
     if progress:
         progress(len(hop_ids), len(hop_ids), "analysis done")
     return results

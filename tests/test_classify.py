@@ -86,16 +86,20 @@ def test_rain_evidence_names_the_p838_ratio(analysed):
     assert rain["evidence"].str.contains("mm/h").any()
 
 
-def test_fifteen_minute_statistics_lower_confidence(analysed):
+def test_fifteen_minute_statistics_same_cause(analysed):
+    # one decision for all sampling: the 15-min statistics of the same hop get the same cause, say so, and no more
+    # confidence than the 1-s log (changed from a fixed 0.7 factor: the posterior now carries the doubt, since the
+    # terms the 15-min data cannot resolve are absent; STATS_CONFIDENCE_FACTOR is 1.0)
     for cause in (S.RAIN, S.REFRACTIVE, S.MULTIPATH):
         sim, result = analysed[cause]
         stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
         result15 = analyze_link(stats, sim.link)
         called = result15.events[result15.events["cause"] == cause]
         assert len(called), f"15-min statistics: no {cause} event"
-        # every verdict from 15-min statistics carries the reduced confidence and says so
         assert called["confidence"].max() <= STATS_CONFIDENCE_FACTOR + 1e-9
         assert called["evidence"].str.contains("15-min statistics").all()
+        one_s = result.events[result.events["cause"] == cause]
+        assert called["confidence"].mean() <= one_s["confidence"].max() + 0.02
         assert _agreement(result15, sim, cause) >= 0.75
 
 
@@ -116,6 +120,9 @@ def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
     assert len(rain_wet) and (rain_wet["gauge_verdict"] == "confirmed").all()
     assert rain_wet["evidence"].str.contains("gauge").all()
     dry_rows = with_dry[with_dry["start_utc"].isin(rain_wet["start_utc"])]
-    # a dry gauge lowers the confidence of the same events (and the gauge check reports it)
-    assert dry_rows["confidence"].mean() < rain_wet["confidence"].mean()
+    # a dry gauge never raises the confidence of the same events (and the gauge check reports it); changed from
+    # "lowers": these 22-27 dB fades on a 4-km 23-GHz hop have no clear-air alternative (P.530 §2.3 negligible
+    # below 5 km at that depth), so a point gauge that missed the cell cannot make them less likely rain
+    assert dry_rows["confidence"].mean() <= rain_wet["confidence"].mean()
+    assert dry_rows["evidence"].str.contains("gauge dry").all()
     assert set(dry_rows["gauge_verdict"]) <= {"refuted", "consistent", "unclear"}

@@ -441,6 +441,8 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
                 contrib.append((w.get(name, 1.0) * (terms[name][i, k] - terms[name][i, second]), texts[name][i]))
         contrib.sort(key=lambda item: -item[0])
         deciding = [text for value, text in contrib if value > 0.05][:3]
+        if texts["gauge"][i] and texts["gauge"][i] not in deciding:   # a gauge the user gave is always reported
+            deciding.append(texts["gauge"][i])
         vetoed = [PROPAGATION[j] for j in range(3) if not allowed[i, j]]
         if vetoed:
             deciding.append("no " + "/".join(vetoed) + ": physically excluded on this hop")
