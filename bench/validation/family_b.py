@@ -51,6 +51,7 @@ Anything tuned on this family must be tuned on ``fit_half()`` only; figures are 
 """
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -71,6 +72,9 @@ FLOOR_DBM = -99.0
 REGION_LON = 15.0     # invented region; local solar time = UTC + lon / 15 h
 REGION_LAT = 48.0
 EARTH_KM = 6371.0
+DN1 = -400.0          # point refractivity gradient (N-units/km) of the invented region, P.530-17 §2.3.1
+SA_M = 20.0           # terrain roughness s_a (m)
+GEOCLIMATIC_K = 10.0 ** (-4.4 - 0.0027 * DN1) * (10.0 + SA_M) ** -0.46   # P.530-17 eq. for K, = 1.0012e-4
 
 
 # ---------------------------------------------------------------------------------------------------------------
@@ -121,7 +125,7 @@ def p530_rain_reduction_factor(length_km, rain_mmh, frequency_ghz, alpha):
     return np.minimum(r, 2.5)
 
 
-def p530_multipath_p0_pct(length_km, frequency_ghz, height_a_m, height_b_m, dn1=-400.0, sa_m=20.0):
+def p530_multipath_p0_pct(length_km, frequency_ghz, height_a_m, height_b_m, dn1=DN1, sa_m=SA_M):
     """Worst-month percentage of time a clear-air fade of 0 dB is exceeded, p0 = p_w(A = 0), ITU-R P.530-17 §2.3.1
     (detailed method): K = 10^(-4.4 - 0.0027 dN1) (10 + s_a)^-0.46, eps_p = |hr - he| / d (mrad),
     p_w = K d^3.4 (1 + eps_p)^-1.03 f^0.8 10^(-0.00076 hL).  Heights in m above sea level."""
@@ -182,6 +186,7 @@ class Hop:
             "length_km": round(self.length_km, 3), "polarization": self.polarization,
             "threshold_dbm": round(self.threshold_dbm, 1), "nominal_dbm": round(self.nominal_dbm, 1),
             "r001_mmh": round(self.r001_mmh, 1), "antenna_height_m": round(self.antenna_height_m, 1),
+            "geoclimatic_k": float(f"{GEOCLIMATIC_K:.4g}"),
             "site_a_lat": round(self.site_a[0], 5), "site_a_lon": round(self.site_a[1], 5),
             "site_b_lat": round(self.site_b[0], 5), "site_b_lon": round(self.site_b[1], 5),
         }
@@ -194,6 +199,7 @@ class HopTruth:
     lost: dict[str, np.ndarray]                        # channel -> bool per second
     rsl_dbm: dict[str, np.ndarray]                     # channel -> logged level per second (NaN when lost)
     tsl_dbm: dict[str, np.ndarray] | None              # channel -> logged TSL per second (ATPC hops)
+    equipment_lost: dict[str, np.ndarray]              # channel -> bool per second: receiver/transmitter off
 
     def total_db(self, channel: str) -> np.ndarray:
         return sum(self.contributions[channel].values())
@@ -203,8 +209,11 @@ class HopTruth:
         c = self.contributions[channel]
         stack = np.stack([np.maximum(c[name], 0.0) for name in CAUSES])
         code = np.argmax(stack, axis=0).astype(np.int8)
+        # a receiver at its floor because of an equipment loss is signal_loss; one driven there by a deep
+        # propagation fade keeps the cause of the fade (its total is far above 3 dB anyway)
         lost = self.lost[channel]
-        code[lost] = CAUSES.index("signal_loss")
+        off = self.equipment_lost[channel]
+        code[off] = CAUSES.index("signal_loss")
         faded = (self.total_db(channel) >= FADE_DB) | lost
         code[~faded] = -1
         return code
@@ -515,6 +524,7 @@ def _hop_day(rng, hop: Hop, xy, n: int, fld: RainField | None) -> HopTruth:
             lost[ch][at:at + dur] = True
         hop.mechanisms.append("signal_loss")
     rsl, tsl = {}, ({} if hop.atpc_range_db > 0 else None)
+    equipment_lost = {}
     for ch in hop.channels:
         total = sum(contrib[ch].values()).astype(float)
         noise = 0.15 * rng.standard_normal(n)
@@ -526,11 +536,12 @@ def _hop_day(rng, hop: Hop, xy, n: int, fld: RainField | None) -> HopTruth:
         else:
             level = hop.nominal_dbm - total + noise
         level = np.round(level, 1)
+        equipment_lost[ch] = lost[ch].copy()
         floor_hit = level <= FLOOR_DBM + 1.0
         lost[ch] |= floor_hit
         level[lost[ch]] = np.nan
         rsl[ch] = level
-    return HopTruth(hop, contrib, lost, rsl, tsl)
+    return HopTruth(hop, contrib, lost, rsl, tsl, equipment_lost)
 
 
 @dataclass
@@ -600,9 +611,10 @@ def make_world(seed: int, *, n_s: int = DURATION_S) -> World:
 # ---------------------------------------------------------------------------------------------------------------
 # writing
 
+@functools.lru_cache(maxsize=8)
 def _times_text(n: int, step: int) -> np.ndarray:
     t = START_UTC + pd.to_timedelta(np.arange(0, n, step), unit="s")
-    return np.asarray(t.strftime("%Y-%m-%dT%H:%M:%SZ"))
+    return np.asarray(t.strftime("%Y-%m-%dT%H:%M:%SZ"), dtype=object)
 
 
 def _fmt(values: np.ndarray) -> np.ndarray:
@@ -610,44 +622,59 @@ def _fmt(values: np.ndarray) -> np.ndarray:
     return np.round(np.nan_to_num(np.asarray(values, dtype=float), nan=FLOOR_DBM), 1)
 
 
+def _channel_columns(truth: HopTruth, ch: str, shape: str, n: int) -> dict[str, np.ndarray]:
+    rsl = truth.rsl_dbm[ch]
+    tsl = truth.tsl_dbm[ch] if truth.tsl_dbm is not None else None
+    if shape in ("1s", "1min"):
+        step = 1 if shape == "1s" else 60
+        cols = {"rsl_dbm": _fmt(rsl[::step])}
+        if tsl is not None:
+            cols["tsl_dbm"] = _fmt(tsl[::step])
+        return cols
+    m = n // 900
+    r = rsl[: m * 900].reshape(m, 900)
+    lost_any = np.isnan(r)
+    all_lost = lost_any.all(axis=1)
+    rmin = np.where(lost_any.any(axis=1), FLOOR_DBM, np.where(lost_any, np.inf, r).min(axis=1))
+    rmax = np.where(all_lost, FLOOR_DBM, np.where(lost_any, -np.inf, r).max(axis=1))
+    cnt = np.maximum((~lost_any).sum(axis=1), 1)
+    ravg = np.where(all_lost, FLOOR_DBM, np.where(lost_any, 0.0, r).sum(axis=1) / cnt)
+    cols = {"RSL min 15min (dBm)": _fmt(rmin)}
+    if shape == "15min_mam":
+        cols["RSL avg 15min (dBm)"] = _fmt(ravg)
+    cols["RSL max 15min (dBm)"] = _fmt(rmax)
+    if tsl is not None:
+        ts = tsl[: m * 900].reshape(m, 900)
+        cols["TSL min 15min (dBm)"] = _fmt(ts.min(axis=1))
+        if shape == "15min_mam":
+            cols["TSL avg 15min (dBm)"] = _fmt(ts.mean(axis=1))
+        cols["TSL max 15min (dBm)"] = _fmt(ts.max(axis=1))
+    return cols
+
+
 def hop_frame(truth: HopTruth, shape: str) -> pd.DataFrame:
-    """The hop's log in one of SHAPES as a DataFrame (long layout, one row per time and channel)."""
+    """The hop's log in one of SHAPES as a DataFrame (long layout, time-major: one row per time and channel;
+    15-min rows are stamped with the interval start)."""
+    return hop_table(truth, shape).to_pandas()
+
+
+def hop_table(truth: HopTruth, shape: str) -> pa.Table:
     hop = truth.hop
     n = next(iter(truth.rsl_dbm.values())).size
-    parts = []
-    for ch in hop.channels:
-        rsl = truth.rsl_dbm[ch]
-        tsl = truth.tsl_dbm[ch] if truth.tsl_dbm is not None else None
-        if shape in ("1s", "1min"):
-            step = 1 if shape == "1s" else 60
-            cols = {"time_utc": _times_text(n, step), "rsl_dbm": _fmt(rsl[::step])}
-            if tsl is not None:
-                cols["tsl_dbm"] = _fmt(tsl[::step])
-        else:
-            m = n // 900
-            r = rsl[: m * 900].reshape(m, 900)
-            lost_any = np.isnan(r)
-            all_lost = lost_any.all(axis=1)
-            rmin = np.where(lost_any.any(axis=1), FLOOR_DBM, np.where(lost_any, np.inf, r).min(axis=1))
-            rmax = np.where(all_lost, FLOOR_DBM, np.where(lost_any, -np.inf, r).max(axis=1))
-            cnt = np.maximum((~lost_any).sum(axis=1), 1)
-            ravg = np.where(all_lost, FLOOR_DBM, np.where(lost_any, 0.0, r).sum(axis=1) / cnt)
-            cols = {"time_utc": _times_text(m * 900, 900), "RSL min 15min (dBm)": _fmt(rmin)}
-            if shape == "15min_mam":
-                cols["RSL avg 15min (dBm)"] = _fmt(ravg)
-            cols["RSL max 15min (dBm)"] = _fmt(rmax)
-            if tsl is not None:
-                ts = tsl[: m * 900].reshape(m, 900)
-                cols["TSL min 15min (dBm)"] = _fmt(ts.min(axis=1))
-                if shape == "15min_mam":
-                    cols["TSL avg 15min (dBm)"] = _fmt(ts.mean(axis=1))
-                cols["TSL max 15min (dBm)"] = _fmt(ts.max(axis=1))
-        frame = pd.DataFrame(cols)
-        frame.insert(1, "link_id", hop.link_id)
-        frame.insert(2, "channel", ch)
-        parts.append(frame)
-    out = pd.concat(parts, ignore_index=True)
-    return out.sort_values(["time_utc", "channel"], kind="stable")
+    chans = hop.channels
+    per = [_channel_columns(truth, ch, shape, n) for ch in chans]
+    m = next(iter(per[0].values())).size
+    step = {"1s": 1, "1min": 60}.get(shape, 900)
+    times = _times_text(m * step, step)
+    nc = len(chans)
+    cols = {
+        "time_utc": pa.array(np.repeat(times, nc), type=pa.string()),
+        "link_id": pa.array([hop.link_id] * (m * nc), type=pa.string()),
+        "channel": pa.array(np.tile(np.array(chans, dtype=object), m), type=pa.string()),
+    }
+    for name in per[0]:
+        cols[name] = pa.array(np.stack([p[name] for p in per], axis=1).ravel())
+    return pa.table(cols)
 
 
 def write_world(world: World, out_dir: str | Path, shapes=SHAPES) -> dict[str, list[Path]]:
@@ -661,7 +688,7 @@ def write_world(world: World, out_dir: str | Path, shapes=SHAPES) -> dict[str, l
         (out / shape).mkdir(exist_ok=True)
         for t in world.hops:
             path = out / shape / f"{t.hop.link_id}.csv"
-            pacsv.write_csv(pa.Table.from_pandas(hop_frame(t, shape), preserve_index=False), str(path))
+            pacsv.write_csv(hop_table(t, shape), str(path))
             files.setdefault(shape, []).append(path)
     (out / "truth").mkdir(exist_ok=True)
     for t in world.hops:

@@ -70,6 +70,7 @@ class Tally:
     events: list = field(default_factory=list)   # (shape, confidence, right, cause)
     unknown_events: dict = field(default_factory=dict)
     agree: dict = field(default_factory=dict)    # shape -> [agree, total]
+    hops: list = field(default_factory=list)     # per hop and shape: (seed, link_id, shape, mechanisms, 5x7 s)
 
     def add(self, store: dict, cell, truth: np.ndarray, called: np.ndarray, weight: np.ndarray) -> None:
         m = store.setdefault(cell, np.zeros((len(fb.CAUSES), len(CALLED))))
@@ -108,6 +109,7 @@ def score_hop(tally: Tally, truth: fb.HopTruth, result, shape: str) -> dict[str,
     cell = cell_of(hop, shape)
     per_second = {}
     events = result.events
+    before = tally.diag.get(cell, np.zeros((len(fb.CAUSES), len(CALLED)))).copy()
     for ch in hop.channels:
         series = result.series.get(ch)
         tcodes = truth.cause_codes(ch)
@@ -156,6 +158,7 @@ def score_hop(tally: Tally, truth: fb.HopTruth, result, shape: str) -> dict[str,
             tally.add(tally.diag, cell, tcodes[faded], called_s[faded], w)
             tally.add(tally.thumb, cell, tcodes[faded], thumb_s[faded], w)
         per_second[ch] = called_s
+    tally.hops.append((hop.link_id, shape, hop, tally.diag[cell] - before if cell in tally.diag else before))
     return per_second
 
 
@@ -304,6 +307,25 @@ def _matrix_text(m: np.ndarray, title: str) -> str:
     return "\n".join(lines)
 
 
+def worst_hops(tally: Tally, n: int = 10) -> str:
+    """The hops with the most faded time called wrong (all shapes), with what was put on them."""
+    rows = []
+    for link_id, shape, hop, m in tally.hops:
+        wrong = m.sum() - np.trace(m[:, : len(fb.CAUSES)])
+        if wrong > 0:
+            rows.append((wrong, link_id, shape, hop, m))
+    rows.sort(key=lambda r: -r[0])
+    lines = [f"== {n} hop logs with the most faded time called wrong =="]
+    for wrong, link_id, shape, hop, m in rows[:n]:
+        pairs = [f"{fb.CAUSES[i]}->{CALLED[j]} {m[i, j] / 60:.0f}" for i in range(m.shape[0])
+                 for j in range(m.shape[1]) if i != j and m[i, j] >= 60]
+        lines.append(f"{link_id:<9}{shape:<10}{hop.frequency_ghz:5.1f} GHz {hop.length_km:6.2f} km "
+                     f"{hop.polarization:<4} atpc {hop.atpc_range_db:4.1f}  {','.join(hop.mechanisms)}: "
+                     f"wrong {wrong / 60:.0f} min ("
+                     + "; ".join(pairs) + ")")
+    return "\n".join(lines)
+
+
 def report(tally: Tally, *, cells: bool = True) -> str:
     s = summary(tally)
     lines = []
@@ -368,10 +390,12 @@ def main(argv=None) -> int:
     ap.add_argument("--seeds", default="51-60", help="seed list, e.g. 51-60 (held-out half is 51-100)")
     ap.add_argument("--shapes", default=",".join(fb.SHAPES))
     ap.add_argument("--out", default=str(DEFAULT_OUT))
+    ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
     args = ap.parse_args(argv)
     seeds = _seed_list(args.seeds)
     tally, timing = run(seeds, tuple(args.shapes.split(",")), Path(args.out))
     print(report(tally))
+    print(worst_hops(tally, args.worst))
     print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()))
     return 0
 
