@@ -189,6 +189,7 @@ class Hop:
             "geoclimatic_k": float(f"{GEOCLIMATIC_K:.4g}"),
             "site_a_lat": round(self.site_a[0], 5), "site_a_lon": round(self.site_a[1], 5),
             "site_b_lat": round(self.site_b[0], 5), "site_b_lon": round(self.site_b[1], 5),
+            "site_a_elev_m": round(self.ground_a_m, 1), "site_b_elev_m": round(self.ground_b_m, 1),
         }
 
 
@@ -712,3 +713,14 @@ def fit_half(seeds=FIT_SEEDS) -> list[World]:
     if bad:
         raise ValueError(f"seeds {sorted(bad)} are in the held-out half")
     return worlds(seeds)
+
+
+def fit_half_files(out_dir: str | Path, seeds=FIT_SEEDS, shapes=SHAPES) -> list[tuple[World, Path]]:
+    """Write the fit-half worlds to ``<out_dir>/seedNNN/`` (links.csv, one folder per shape, truth/) and return
+    (world, folder) pairs: the data a classifier may be fitted on."""
+    out = []
+    for world in fit_half(seeds):
+        folder = Path(out_dir) / f"seed{world.seed:03d}"
+        write_world(world, folder, shapes)
+        out.append((world, folder))
+    return out
