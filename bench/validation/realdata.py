@@ -16,12 +16,12 @@ Counting (as issue 14 defines it), per sub-link and minute:
 - called rain: the analysis' per-minute cause on that channel is ``rain``; the rule of thumb beside it calls rain
   when the analysed event covering the minute lasts longer than 5 min.
 
-The analysis runs on all links together (one network, ``analyze_tables``), WITHOUT the gauge (the gauge defines
-wet/dry; feeding it in would make the count circular).  ``evaluate(links=..., fit=callable)``: for each evaluated
-link L, ``fit(training)`` is called with the data of the OTHER links only (dict cml_id -> (table, link, gauge)) and
-returns a callable ``analyse(table, links) -> list[LinkResult]`` used for L (leave-one-link-out); without ``fit``
-the project's ``analyze_tables`` is used.  Only minutes of the links' assumed thresholds (-90 dBm, not in the data
-set) affect outage figures, not these counts.
+The analysis runs on all links together (one network: ``analyze_tables`` and then the project's network
+corroboration where it has one), WITHOUT the gauge (the gauge defines wet/dry; feeding it in would make the count
+circular).  ``evaluate(links=..., fit=callable)``: for each evaluated link L, ``fit(training)`` is called with the
+data of the OTHER links only (dict cml_id -> (table, link, gauge, metadata row)) and returns a callable
+``analyse(table, links) -> list[LinkResult]`` used for L (leave-one-link-out).  The links' threshold (-90 dBm) is
+assumed (the data set has none); it affects outage figures, not these counts.
 """
 from __future__ import annotations
 
@@ -33,7 +33,9 @@ import numpy as np
 import pandas as pd
 
 REPO = Path(__file__).resolve().parents[2]
-if str(REPO) not in sys.path:
+try:  # a ``diag`` on PYTHONPATH (e.g. an exported older version, to compare) wins over this checkout's
+    import diag  # noqa: F401
+except ImportError:
     sys.path.insert(0, str(REPO))
 
 DATA = REPO.parent / "shared" / "realdata" / "openrainer" / "csv"
@@ -187,16 +189,26 @@ def count_link(data_item, result) -> Count:
     return c
 
 
-def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
-    """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15)."""
+def _analyse_network(table: pd.DataFrame, links) -> list:
+    """The project's analysis of several hops: every hop, then the network corroboration where the project has one
+    (``analyze_files`` does the same for log files)."""
     from diag.pipeline import analyze_tables
 
+    results = analyze_tables(table, links)
+    try:
+        from diag.analysis.network import corroborate
+    except ImportError:
+        return results
+    return corroborate(results)
+
+
+def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
+    """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15)."""
     data = load(base)
     chosen = [str(x) for x in (links or list(data))]
     per_link: dict[str, Count] = {}
     if fit is None:
-        net = {k: data[k] for k in data}
-        results = analyze_tables(_network_table(net), [d[1] for d in net.values()])
+        results = _analyse_network(_network_table(data), [d[1] for d in data.values()])
         by_id = {r.link.link_id: r for r in results}
         for k in chosen:
             per_link[k] = count_link(data[k], by_id[k])

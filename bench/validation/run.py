@@ -15,7 +15,6 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
-sys.path.insert(0, str(HERE.parents[1]))
 
 import family_b as fb  # noqa: E402
 import score  # noqa: E402

@@ -37,7 +37,9 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 import family_b as fb  # noqa: E402
 
 REPO = Path(__file__).resolve().parents[2]
-if str(REPO) not in sys.path:
+try:  # a ``diag`` on PYTHONPATH (e.g. an exported older version, to compare) wins over this checkout's
+    import diag  # noqa: F401
+except ImportError:
     sys.path.insert(0, str(REPO))
 
 CALLED = fb.CAUSES + ("unknown", "none")
