@@ -39,6 +39,9 @@ Mechanisms and their sources (every physical model is a small function below, wi
   17.3 sqrt(d1 d2 / (f d)), REFERENCES §1), at night / morning.
 - ATPC: the transmitter raises its level (0.5 dB steps) to hold the receive level, up to a 10-20 dB range; TSL and
   RSL are both logged; the truth fade is the path attenuation.
+- variants of the generating process inside the family (drawn per storm / cell / night, so both halves hold
+  both): Gaussian or exponential convective cell profiles, a regular or irregular stratiform ripple, a Gaussian or
+  flat Doppler spectrum.
 - equipment: an abrupt persistent level step of 3-10 dB (antenna knocked, one end => both directions) and a signal
   loss (receiver at its -99 dBm floor, 1-40 min).
 
@@ -280,14 +283,22 @@ class RainField:
             s_along = ((x_km - self.x_ref_km) * ux + (y_km - self.y_ref_km) * uy)[None, :] / speed
             tau = (t - tc - s_along) / half
             env = np.where(np.abs(tau) < 1.0, 0.5 * (1.0 + np.cos(np.pi * tau)), 0.0)
-            mod = 1.0 + 0.25 * np.sin(2 * np.pi * (t - s_along) / (1800.0 + 900.0 * ripple) + 6.0 * ripple)
-            out += peak * env * mod
+            if ripple < 0.5:   # variant 1: a regular 30-45 min ripple
+                mod = 1.0 + 0.25 * np.sin(2 * np.pi * (t - s_along) / (1800.0 + 1800.0 * ripple) + 12.0 * ripple)
+            else:              # variant 2: an irregular ripple (three incommensurate periods)
+                u = (t - s_along) / 60.0
+                mod = 1.0 + 0.12 * (np.sin(u / 7.3 + ripple * 9) + np.sin(u / 17.9 + ripple * 5)
+                                    + np.sin(u / 41.3 + ripple * 3))
+            out += peak * env * np.maximum(mod, 0.2)
         for peak, x0, y0, t0, radius, life in self.cells:
             cx = x0 + vx * (t - t0)
             cy = y0 + vy * (t - t0)
             r2 = (x_km[None, :] - cx) ** 2 + (y_km[None, :] - cy) ** 2
             grow = np.exp(-0.5 * ((t - t0) / (life / 2.5)) ** 2)
-            out += peak * grow * np.exp(-r2 / (2.0 * radius ** 2))
+            if radius >= 0:    # variant 1: Gaussian cell profile
+                out += peak * grow * np.exp(-r2 / (2.0 * radius ** 2))
+            else:              # variant 2: exponential cell profile (radius stored negative)
+                out += peak * grow * np.exp(-np.sqrt(r2) / (-radius * 0.8))
         return out
 
 
@@ -334,11 +345,13 @@ def _wet_antenna(rng, hop: Hop, mean_rate: np.ndarray) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------------------------
 # clear-air mechanisms
 
-def _doppler_scatter(rng, n: int, fm_hz: float) -> np.ndarray:
-    """Unit-power complex Gaussian scatter with a Gaussian Doppler spectrum exp(-(f / fm)^2), sampled at 1 s."""
+def _doppler_scatter(rng, n: int, fm_hz: float, spectrum: str = "gauss") -> np.ndarray:
+    """Unit-power complex Gaussian scatter sampled at 1 s, with a Gaussian Doppler power spectrum exp(-(f / fm)^2)
+    or (``spectrum="flat"``) a flat band |f| < fm."""
     spec = rng.standard_normal(n) + 1j * rng.standard_normal(n)
     f = np.fft.fftfreq(n, d=1.0)
-    g = np.fft.ifft(spec * np.exp(-0.5 * (f / fm_hz) ** 2))
+    shape = np.exp(-0.5 * (f / fm_hz) ** 2) if spectrum == "gauss" else (np.abs(f) < fm_hz).astype(float)
+    g = np.fft.ifft(spec * shape)
     return g / np.sqrt(np.mean(np.abs(g) ** 2))
 
 
@@ -364,11 +377,12 @@ def _multipath(rng, hop: Hop, n: int, p0_pct: float) -> dict[str, np.ndarray]:
     k_db = 25.0 - (25.0 - kmin_db) * shape + 3.0 * _smooth_noise(rng, n, 1200.0)
     kl = 10.0 ** (k_db / 10.0)
     fm = 10.0 ** rng.uniform(-2.0, 0.0)
-    base = _doppler_scatter(rng, n, fm)
+    spectrum = "gauss" if rng.random() < 0.5 else "flat"
+    base = _doppler_scatter(rng, n, fm, spectrum)
     rho = rng.uniform(0.8, 0.95) if hop.polarization == "dual" else rng.uniform(0.5, 0.9)
     out = {}
     for i, ch in enumerate(hop.channels):
-        g = base if i == 0 else rho * base + math.sqrt(1 - rho ** 2) * _doppler_scatter(rng, n, fm)
+        g = base if i == 0 else rho * base + math.sqrt(1 - rho ** 2) * _doppler_scatter(rng, n, fm, spectrum)
         env = np.sqrt(kl / (kl + 1.0)) + np.sqrt(1.0 / (kl + 1.0)) * g
         a = -10.0 * np.log10(np.maximum(np.abs(env) ** 2, 1e-6))
         out[ch] = np.where(inside, a, 0.0)
@@ -477,7 +491,8 @@ def _storm(rng, centre_xy, spread_km, t_mid_s, kind: str) -> RainField:
             t0 = t_mid_s + rng.uniform(-2400.0, 2400.0)
             # place the cell upstream so that it crosses the centre region near t0
             off = rng.uniform(-spread_km, spread_km, size=2)
-            fld.cells.append((rng.uniform(20.0, 150.0), cx + off[0], cy + off[1], t0, rng.uniform(1.0, 4.0),
+            sign = 1.0 if rng.random() < 0.5 else -1.0   # the sign picks the cell profile (see RainField.rate)
+            fld.cells.append((rng.uniform(20.0, 150.0), cx + off[0], cy + off[1], t0, sign * rng.uniform(1.0, 4.0),
                               rng.uniform(600.0, 2400.0)))
     return fld
 

@@ -26,6 +26,8 @@ def main(argv=None) -> int:
     ap.add_argument("--fit-half", action="store_true", help="score the fit half (seeds 1-50) instead")
     ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
     ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
+    ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
+    ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
     ap.add_argument("--out", default=str(score.DEFAULT_OUT))
     args = ap.parse_args(argv)
     seeds = fb.FIT_SEEDS if args.fit_half else fb.HELDOUT_SEEDS
@@ -35,8 +37,12 @@ def main(argv=None) -> int:
     tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
     t_sim = time.perf_counter() - t0
     half = "FIT" if args.fit_half else "HELD-OUT"
+    import diag
+
+    print(f"diag analysed with: {Path(diag.__file__).parent}")
     print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
-    print(score.report(tally, cells=not args.no_cells))
+    print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
+    print(score.worst_hops(tally, args.worst))
     print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
     if not args.no_real:
         try:

@@ -328,7 +328,7 @@ def worst_hops(tally: Tally, n: int = 10) -> str:
     return "\n".join(lines)
 
 
-def report(tally: Tally, *, cells: bool = True) -> str:
+def report(tally: Tally, *, cells: bool = True, matrices: bool = False) -> str:
     s = summary(tally)
     lines = []
     lines.append("== Family B: per sampling (time-weighted over faded truth samples) ==")
@@ -350,6 +350,12 @@ def report(tally: Tally, *, cells: bool = True) -> str:
         for c in s["cells"]:
             lines.append(f"{c['freq']:<12}{c['length']:<10}{c['shape']:<11}{c['faded_s'] / 60:10.0f}"
                          f"{c['f1']:7.3f}{c['f1_thumb']:7.3f}{100 * c['unknown']:8.1f}%")
+    if matrices:
+        for cell in sorted(tally.diag):
+            lines.append("")
+            lines.append(f"-- confusion, {cell[0]} x {cell[1]} x {cell[2]} (minutes) --")
+            lines.append(_matrix_text(tally.diag[cell], "diag"))
+            lines.append(_matrix_text(tally.thumb[cell], "rule of thumb"))
     lines.append("")
     lines.append("== calibration (fade events, unknown left out) ==")
     lines.append(f"{'confidence':<12}{'events':>8}{'mean conf':>11}{'right':>8}")
