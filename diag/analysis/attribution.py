@@ -322,6 +322,11 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
     prior = prior or hop_prior(link)
     n = len(rows)
     peak = np.array([_f(r.get("peak_fade_db_finite")) for r in rows], dtype=float)
+    # an event that reached the receiver floor has an unknown depth beyond the floor: judge it by the fade measured
+    # just before the floor (else 10 dB), and never veto rain on a depth the receiver could not measure
+    floored = np.array([_f(r.get("floor_fraction")) > 0 for r in rows], dtype=bool)
+    pre = np.array([_f(r.get("pre_floor_fade_db")) for r in rows], dtype=float)
+    peak = np.where(floored, np.where(np.isfinite(pre), np.maximum(pre, 3.0), 10.0), peak)
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
     base = np.stack([logs["rain"], logs["multipath"], logs["refractive"]], axis=1) if n else np.zeros((0, 3))
@@ -339,7 +344,7 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
         allowed[:, M] &= ~negligible
         allowed[:, F] &= ~negligible
         rates = np.array([implied_rate_mmh(p, link, prior) for p in peak])
-        allowed[:, R] &= ~(rates > RAIN_RATE_MAX_MMH)
+        allowed[:, R] &= ~((rates > RAIN_RATE_MAX_MMH) & ~floored)
     return base, terms, texts, allowed
 
 

@@ -66,7 +66,10 @@ def _equipment(row) -> tuple[str, float, str] | None:
     dur = _f(row["duration_s"])
     floor_frac, pre_floor = _f(row["floor_fraction"]), _f(row["pre_floor_fade_db"])
     shape = _fmt_duration(dur)
-    if floor_frac >= 0.5 and (not math.isfinite(pre_floor) or pre_floor < 6.0):
+    # with no sample just before the floor, a deep fade among the event's own valid samples says the level went
+    # down gradually (a propagation fade that ended at the floor), not an abrupt drop
+    faded_before = not math.isfinite(pre_floor) and _f(row["peak_fade_db_finite"]) >= 10.0
+    if floor_frac >= 0.5 and (not math.isfinite(pre_floor) or pre_floor < 6.0) and not faded_before:
         before = f"{pre_floor:.1f} dB" if math.isfinite(pre_floor) else "no sample"
         return (S.SIGNAL_LOSS, 0.9 if math.isfinite(pre_floor) else 0.7,
                 f"{shape} drop to the receiver floor ({floor_frac:.0%} of the event at the floor) with fade "
