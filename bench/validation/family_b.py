@@ -42,6 +42,8 @@ Mechanisms and their sources (every physical model is a small function below, wi
 - variants of the generating process inside the family (drawn per storm / cell / night, so both halves hold
   both): Gaussian or exponential convective cell profiles, a regular or irregular stratiform ripple, a Gaussian or
   flat Doppler spectrum.
+- clear air only: multipath and refractive fades are tapered to zero while it rains on the path and 45 min either
+  side (a calm stratified atmosphere is what they need; common practice).
 - equipment: an abrupt persistent level step of 3-10 dB (antenna knocked, one end => both directions) and a signal
   loss (receiver at its -99 dBm floor, 1-40 min).
 
@@ -497,12 +499,29 @@ def _storm(rng, centre_xy, spread_km, t_mid_s, kind: str) -> RainField:
     return fld
 
 
+def _clear_air_taper(mean_rate: np.ndarray, wet_mmh: float = 0.1, guard_s: int = 2700, ramp_s: int = 600
+                     ) -> np.ndarray:
+    """1 in clear air, 0 while it rains on the path and 45 min either side, with 10-min ramps: multipath and
+    refractive fades need a calm stratified atmosphere, which rain and its convection break up (common practice)."""
+    wet = (mean_rate > wet_mmh).astype(float)
+    c = np.concatenate([[0.0], np.cumsum(wet)])
+    n = wet.size
+    i = np.arange(n)
+    near = c[np.minimum(i + guard_s + 1, n)] - c[np.maximum(i - guard_s, 0)] > 0
+    dry = (~near).astype(float)
+    c2 = np.concatenate([[0.0], np.cumsum(dry)])
+    lo, hi = np.maximum(i - ramp_s // 2, 0), np.minimum(i + ramp_s // 2 + 1, n)
+    return (c2[hi] - c2[lo]) / (hi - lo)
+
+
 def _hop_day(rng, hop: Hop, xy, n: int, fld: RainField | None) -> HopTruth:
     zero = np.zeros(n, dtype=np.float32)
     contrib = {ch: {c: zero.copy() for c in CAUSES} for ch in hop.channels}
     lost = {ch: np.zeros(n, dtype=bool) for ch in hop.channels}
+    clear = np.ones(n)
     if fld is not None:
         rain, mean_rate = _rain_on_hop(rng, hop, xy, fld, n)
+        clear = _clear_air_taper(mean_rate)
         wet = _wet_antenna(rng, hop, mean_rate)
         for ch in hop.channels:
             contrib[ch]["rain"] += (rain[ch] + wet).astype(np.float32)
@@ -513,12 +532,12 @@ def _hop_day(rng, hop: Hop, xy, n: int, fld: RainField | None) -> HopTruth:
     if p0 >= 1.0 and rng.random() < 0.85:
         mp = _multipath(rng, hop, n, p0)
         for ch in hop.channels:
-            contrib[ch]["multipath"] += mp[ch].astype(np.float32)
+            contrib[ch]["multipath"] += (mp[ch] * clear).astype(np.float32)
         hop.mechanisms.append("multipath(p0=%.1f%%)" % p0)
     if refractive_possible(hop) and rng.random() < 0.9:
         rf = _refractive(rng, hop, n)
         for ch in hop.channels:
-            contrib[ch]["refractive"] += rf.astype(np.float32)
+            contrib[ch]["refractive"] += (rf * clear).astype(np.float32)
         hop.mechanisms.append("refractive")
     if rng.random() < 0.25:
         # an antenna knocked (one end: every channel) and realigned 1-6 h later, or a late step left standing

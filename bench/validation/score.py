@@ -337,6 +337,16 @@ def report(tally: Tally, *, cells: bool = True, matrices: bool = False) -> str:
     for shape, v in s["by_shape"].items():
         lines.append(f"{shape:<11}{v['faded_s'] / 60:11.0f}{v['f1']:10.3f}{v['f1_thumb']:10.3f}"
                      f"{100 * v['unknown']:8.1f}%{v['events']:8d}{v['ece']:7.3f}")
+    lines.append("")
+    lines.append("-- per cause: share of the cause's faded time called right (recall), diag / rule of thumb --")
+    lines.append(f"{'sampling':<11}" + "".join(f"{c:>20}" for c in fb.CAUSES))
+    for shape, v in s["by_shape"].items():
+        m, t = np.array(v["confusion"]), np.array(v["confusion_thumb"])
+        cells_txt = []
+        for i in range(len(fb.CAUSES)):
+            row = m[i].sum()
+            cells_txt.append(f"{100 * m[i, i] / row:8.1f}% /{100 * t[i, i] / row:6.1f}%" if row else f"{'-':>20}")
+        lines.append(f"{shape:<11}" + "".join(f"{c:>20}" for c in cells_txt))
     for shape in s["by_shape"]:
         lines.append("")
         lines.append(f"-- confusion, {shape} (minutes; rows truth, columns called) --")
