@@ -30,6 +30,7 @@ import pandas as pd
 from diag import schema as S
 from diag.analysis.classify import classify_events
 from diag.analysis.events import find_events, paint_series
+from diag.analysis.evidence import add_evidence
 from diag.analysis.reference import AnalysisConfig, add_reference, channel_grids, level_shift_spans
 from diag.errors import InputError
 from diag.links import Link, match_link
@@ -184,7 +185,7 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
             add_reference(item, config)
     spans = [span for item in items for span in level_shift_spans(item, config)]
     events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
-    events = classify_events(events, link, config=config)
+    events = classify_events(add_evidence(events, series), link, config=config)
     paint_series(series, events)
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
     result.skipped = _skipped_for_link(link)

@@ -327,6 +327,9 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
     floored = np.array([_f(r.get("floor_fraction")) > 0 for r in rows], dtype=bool)
     pre = np.array([_f(r.get("pre_floor_fade_db")) for r in rows], dtype=float)
     peak = np.where(floored, np.where(np.isfinite(pre), np.maximum(pre, 3.0), 10.0), peak)
+    # ATPC: the transmitter rose by tsl_rise_db to hide part of the path fade from the RSL (evidence.py)
+    peak = peak + np.array([max(_f(r.get("tsl_rise_db")), 0.0) if _f(r.get("tsl_rise_db")) > 0 else 0.0
+                            for r in rows])
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
     base = np.stack([logs["rain"], logs["multipath"], logs["refractive"]], axis=1) if n else np.zeros((0, 3))
@@ -381,29 +384,35 @@ def _context_counts(rows: list[dict], p_multipath: np.ndarray, window_s: float =
     return out
 
 
-def _pool_groups(rows: list[dict], logit: np.ndarray) -> np.ndarray:
-    """One physical event seen on several channels of the hop (same ``group_id``): rain and refraction act on the
-    whole path, so the members share the mean rain-vs-refractive log-odds (multipath stays per channel)."""
-    groups: dict = {}
+def _group_ids(rows: list[dict]) -> np.ndarray:
+    out = np.full(len(rows), -1, dtype=np.int64)
     for i, row in enumerate(rows):
         g = row.get("group_id")
-        if g is not None and g == g and np.isfinite(logit[i, R]) and np.isfinite(logit[i, F]):
-            groups.setdefault(g, []).append(i)
-    out = logit.copy()
-    for members in groups.values():
-        if len(members) < 2:
-            continue
-        delta = logit[members, R] - logit[members, F]
-        shift = (delta.mean() - delta) / 2.0
-        out[members, R] += shift
-        out[members, F] -= shift
+        if g is not None and g == g:
+            out[i] = int(g)
     return out
 
 
-def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None = None,
-              prior: HopPrior | None = None) -> list[tuple[str, float, str]]:
-    """(cause, confidence, evidence) of each propagation event row (dicts of the event table's columns): prior and
-    terms, then the hop context (multipath episodes, a first pass) and the pooling of a group's channels."""
+def _pool_groups(groups: np.ndarray, logit: np.ndarray) -> np.ndarray:
+    """One physical event seen on several channels of the hop (same ``group_id``): rain and refraction act on the
+    whole path, so the members share the mean rain-vs-refractive log-odds (multipath stays per channel)."""
+    out = logit.copy()
+    ok = (groups >= 0) & np.isfinite(logit[:, R]) & np.isfinite(logit[:, F])
+    if not ok.any():
+        return out
+    ids, inverse, counts = np.unique(groups[ok], return_inverse=True, return_counts=True)
+    delta = logit[ok, R] - logit[ok, F]
+    mean = np.bincount(inverse, weights=delta) / counts
+    shift = np.where(counts[inverse] > 1, (mean[inverse] - delta) / 2.0, 0.0)
+    idx = np.flatnonzero(ok)
+    out[idx, R] += shift
+    out[idx, F] -= shift
+    return out
+
+
+def prepare(rows: list[dict], link: Link, prior: HopPrior | None = None, weights: dict[str, float] | None = None):
+    """Everything the posterior needs, evaluated once: (base, terms, texts, allowed, groups).  The hop-context term
+    comes from a first pass with ``weights``."""
     prior = prior or hop_prior(link)
     w = WEIGHTS if weights is None else weights
     base, terms, texts, allowed = evidence_terms(rows, link, prior)
@@ -415,12 +424,27 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
             got = term_context(row, link, prior)
             terms["context"][i] = got[0] if got else 0.0
             texts["context"][i] = got[1] if got else ""
-    logit, _ = posterior(base, terms, allowed, w)
-    logit = _pool_groups(rows, logit)
-    top = np.max(logit, axis=1, keepdims=True) if len(rows) else np.zeros((0, 1))
+    return base, terms, texts, allowed, _group_ids(rows)
+
+
+def final_posterior(base, terms, allowed, groups, weights: dict[str, float] | None = None) -> np.ndarray:
+    """Posterior [n, 3] after the group pooling (NaN rows: no cause possible)."""
+    logit, _ = posterior(base, terms, allowed, weights)
+    logit = _pool_groups(groups, logit)
+    top = np.max(logit, axis=1, keepdims=True) if len(logit) else np.zeros((0, 1))
     with np.errstate(invalid="ignore"):
         e = np.exp(logit - np.where(np.isfinite(top), top, 0.0))
-        post = e / e.sum(axis=1, keepdims=True)
+        return e / e.sum(axis=1, keepdims=True)
+
+
+def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None = None,
+              prior: HopPrior | None = None) -> list[tuple[str, float, str]]:
+    """(cause, confidence, evidence) of each propagation event row (dicts of the event table's columns): prior and
+    terms, then the hop context (multipath episodes, a first pass) and the pooling of a group's channels."""
+    prior = prior or hop_prior(link)
+    w = WEIGHTS if weights is None else weights
+    base, terms, texts, allowed, groups = prepare(rows, link, prior, w)
+    post = final_posterior(base, terms, allowed, groups, w)
     out = []
     for i, row in enumerate(rows):
         p = post[i]

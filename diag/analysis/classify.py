@@ -79,9 +79,30 @@ def _equipment(row) -> tuple[str, float, str] | None:
                 f"{shape} at the receiver floor: level within 2 dB of its lowest reading for "
                 f"{_f(row['near_floor_fraction']):.0%} of the event, {_f(row['peak_fade_db']):.0f} dB below the "
                 f"reference; a propagation fade does not sit still at the floor")
+    step = _step(row)
+    if step is not None:
+        return step
     if not math.isfinite(_f(row["peak_fade_db_finite"])) and not (floor_frac > 0):
         return S.UNKNOWN, 0.1, f"{shape} event without valid samples"
     return None
+
+
+def _step(row) -> tuple[str, float, str] | None:
+    """Rule 1b: a temporary level step.  Both edges carry most of the fade in one sample (``jump_in_db``,
+    ``jump_out_db`` from :mod:`diag.analysis.evidence`) and the level holds flat in between: rain cells and
+    refraction build up over minutes and multipath fluctuates all along, so no propagation mechanism does this
+    (common practice; the same physics as the persistent steps of rule 1).  Not judged on interval statistics."""
+    if row.get("kind") == "stats":
+        return None
+    peak, jin, jout = _f(row["peak_fade_db_finite"]), _f(row.get("jump_in_db")), _f(row.get("jump_out_db"))
+    flat, step_s, dur = _f(row.get("flat_std_db")), _f(row["interval_s"]), _f(row["duration_s"])
+    if not (peak >= 3.0 and jin >= 0.6 * peak and jout >= 0.6 * peak and flat <= max(0.3, 0.1 * peak)
+            and dur >= 3 * step_s):
+        return None
+    return (S.LEVEL_SHIFT, 0.8,
+            f"{_fmt_duration(dur)} temporary level step: down {jin:.1f} dB and back up {jout:.1f} dB within one "
+            f"{step_s:g}-s sample each, flat in between (std {flat:.2f} dB): no propagation fade moves that fast "
+            f"at both edges")
 
 
 def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None) -> pd.DataFrame:
