@@ -39,7 +39,7 @@ from diag.analysis import attribution as at  # noqa: E402
 from diag.analysis.attribution import prepare, rows_of  # noqa: E402
 
 FITTED = ("prior", "fast", "variability", "spread", "upfade", "polarisation", "decorrelation", "duration", "shape",
-          "network", "context")
+          "network", "context", "other")
 CAUSE_INDEX = {"rain": 0, "multipath": 1, "refractive": 2}
 REAL = HERE.parents[1] / "shared" / "realdata" / "openrainer" / "csv"
 if not REAL.exists():
@@ -176,7 +176,7 @@ def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
     total = norm = 0.0
     for p in packs:
         post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w)
-        post = np.nan_to_num(post, nan=1.0 / 3.0)
+        post = np.nan_to_num(post, nan=0.25)
         truth, weight = p["truth"], p["weight"]
         if p["source"] == "real":
             pr = np.clip(post[:, 0], 1e-6, 1 - 1e-6)
@@ -190,8 +190,8 @@ def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
 
 def fit(packs: list[dict]) -> dict:
     x0 = np.zeros(len(FITTED))
-    res = minimize(loss, x0, args=(packs,), method="L-BFGS-B",
-                   bounds=[(math.log(0.05), math.log(5.0))] * len(FITTED), options={"maxiter": 60})
+    bounds = [(math.log(0.05), math.log(5.0))] * (len(FITTED) - 1) + [(math.log(1e-3), math.log(1e3))]
+    res = minimize(loss, x0, args=(packs,), method="L-BFGS-B", bounds=bounds, options={"maxiter": 60})
     return _weights(res.x)
 
 
