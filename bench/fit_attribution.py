@@ -20,6 +20,7 @@ with a pull of 0.5 (ln w)^2 per weight towards 1 (the physical scales of the ter
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import pickle
 import sys
@@ -39,7 +40,7 @@ from diag.analysis import attribution as at  # noqa: E402
 from diag.analysis.attribution import prepare, rows_of  # noqa: E402
 
 FITTED = ("prior", "fast", "variability", "spread", "upfade", "polarisation", "decorrelation", "duration", "shape",
-          "network", "context", "other")
+          "network", "context", "refractive", "other")
 CAUSE_INDEX = {"rain": 0, "multipath": 1, "refractive": 2}
 REAL = HERE.parents[1] / "shared" / "realdata" / "openrainer" / "csv"
 if not REAL.exists():
@@ -190,7 +191,8 @@ def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
 
 def fit(packs: list[dict]) -> dict:
     x0 = np.zeros(len(FITTED))
-    bounds = [(math.log(0.05), math.log(5.0))] * (len(FITTED) - 1) + [(math.log(1e-3), math.log(1e3))]
+    bounds = [(math.log(0.05), math.log(5.0))] * (len(FITTED) - 2) + [(math.log(1e-2), math.log(1e2)),
+                                                                      (math.log(1e-3), math.log(1e3))]
     res = minimize(loss, x0, args=(packs,), method="L-BFGS-B", bounds=bounds, options={"maxiter": 60})
     return _weights(res.x)
 
@@ -218,6 +220,7 @@ def main(argv=None) -> int:
     ap.add_argument("--family-b", type=int, default=20, help="number of family B fit seeds (1..N)")
     ap.add_argument("--cache", default="/tmp/diag_fit_attribution.pkl")
     ap.add_argument("--refresh", action="store_true")
+    ap.add_argument("--weights-out", default="/tmp/diag_fit_weights.json")
     args = ap.parse_args(argv)
     cache = Path(args.cache)
     if cache.exists() and not args.refresh:
@@ -235,12 +238,14 @@ def main(argv=None) -> int:
                                                                               dict(at.WEIGHTS)).items()})
     # real data: leave one link out
     links = sorted({p["link"] for p in real_packs})
-    lolo = {}
+    lolo, lolo_weights = {}, {}
     for link in links:
         w = fit(sim_packs + [p for p in real_packs if p["link"] != link])
+        lolo_weights[link] = w
         lolo[link] = scores([p for p in real_packs if p["link"] == link], w).get(("real", "1min"), math.nan)
         print(f"  left out {link}: event-time accuracy {lolo[link]:.3f}", file=sys.stderr)
     w_all = fit(sim_packs + real_packs)
+    Path(args.weights_out).write_text(json.dumps({"all": w_all, "lolo": lolo_weights}, indent=1))
     print("fitted weights (all fit data):", {k: round(v, 3) for k, v in w_all.items()})
     print("fit-data accuracy with them:", {k: round(v, 3) for k, v in scores(sim_packs + real_packs, w_all).items()})
     print("real links, leave-one-link-out accuracy:", {k: round(v, 3) for k, v in lolo.items()})

@@ -56,7 +56,7 @@ RAIN_RATE_MAX_MMH = 500.0
 WEIGHTS: dict[str, float] = {
     "prior": 1.0, "fast": 1.0, "variability": 1.0, "spread": 1.0, "upfade": 1.0, "polarisation": 1.0,
     "decorrelation": 1.0, "duration": 1.0, "shape": 1.0, "hour": 1.0, "gauge": 1.0, "network": 1.0,
-    "context": 1.0, "other": 1.0,
+    "context": 1.0, "other": 1.0, "refractive": 1.0,
 }
 
 
@@ -368,7 +368,9 @@ def posterior(base: np.ndarray, terms: dict[str, np.ndarray], allowed: np.ndarra
     logit = w.get("prior", 1.0) * base
     for name, vec in terms.items():
         logit = logit + w.get(name, 1.0) * vec
-    logit = logit + np.array([0.0, 0.0, 0.0, math.log(max(w.get("other", 1.0), 1e-12))])
+    # fitted scale factors of two stated prior constants: priors.REFRACTIVE_SHARE and OTHER_PCT_AT_3DB
+    logit = logit + np.array([0.0, 0.0, math.log(max(w.get("refractive", 1.0), 1e-12)),
+                              math.log(max(w.get("other", 1.0), 1e-12))])
     logit = np.where(allowed, logit, -np.inf)
     top = np.max(logit, axis=1, keepdims=True)
     with np.errstate(invalid="ignore"):
