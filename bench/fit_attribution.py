@@ -173,7 +173,16 @@ def _weights(x: np.ndarray) -> dict:
 
 
 def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
+    """Mean over the three sources (in-house, family B, real) of each source's duration-weighted cross-entropy, so
+    that no family outweighs the others by its volume."""
     w = _weights(x)
+    by_source: dict = {}
+    for p in packs:
+        by_source.setdefault(p["source"], []).append(p)
+    return float(np.mean([_loss_one(w, group) for group in by_source.values()])) + reg * float((x ** 2).sum()) / 100.0
+
+
+def _loss_one(w: dict, packs: list[dict]) -> float:
     total = norm = 0.0
     for p in packs:
         post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w)
@@ -186,7 +195,7 @@ def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
             ll = np.log(np.clip(post[np.arange(len(truth)), np.minimum(truth, 2)], 1e-6, 1.0))
         total -= float((weight * ll).sum())
         norm += float(weight.sum())
-    return total / max(norm, 1.0) + reg * float((x ** 2).sum()) / 100.0
+    return total / max(norm, 1.0)
 
 
 def fit(packs: list[dict]) -> dict:
