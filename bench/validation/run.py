@@ -9,6 +9,7 @@ Generated logs go to bench/output/validation/ (git-ignored) and are rewritten on
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 import time
 from pathlib import Path
@@ -29,6 +30,7 @@ def main(argv=None) -> int:
     ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
     ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
     ap.add_argument("--out", default=str(score.DEFAULT_OUT))
+    ap.add_argument("--json", help="also write every figure to this JSON file")
     args = ap.parse_args(argv)
     seeds = fb.FIT_SEEDS if args.fit_half else fb.HELDOUT_SEEDS
     if args.quick:
@@ -44,6 +46,8 @@ def main(argv=None) -> int:
     print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
     print(score.worst_hops(tally, args.worst))
     print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
+    figures = {"half": half, "seeds": list(seeds), "diag": str(Path(diag.__file__).parent),
+               "family_b": score.summary(tally), "timing_s": timing}
     if not args.no_real:
         try:
             import realdata
@@ -55,6 +59,10 @@ def main(argv=None) -> int:
             print()
             print(realdata.report(res))
             print(f"real-data time {time.perf_counter() - t0:.1f} s")
+            figures["openrainer"] = {k: vars(c) for k, c in res["per_link"].items()}
+            figures["openrainer"]["total"] = vars(res["total"])
+    if args.json:
+        Path(args.json).write_text(json.dumps(figures, indent=1, default=float))
     return 0
 
 
