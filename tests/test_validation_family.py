@@ -115,3 +115,21 @@ def test_every_shape_is_read_whole(tmp_path):
             else:
                 assert stats == {S.SAMPLE}
             assert rep["rows_read"] == rep["rows_kept"] > 0
+
+
+def test_truth_convention():
+    # faded = total >= 3 dB or signal lost; cause = largest contribution; a floor reached by a deep rain fade stays
+    # rain, only an equipment loss is signal_loss (the family's stated convention)
+    n = 6
+    hop = fb.Hop("T", 23.0, 5.0, "H", False, -80.0, -40.0, 40.0, 20.0, 100.0, 100.0, (48.0, 15.0), (48.0, 15.1))
+    zero = np.zeros(n, dtype=np.float32)
+    c = {k: zero.copy() for k in fb.CAUSES}
+    c["rain"][:] = [0.0, 2.0, 2.0, 80.0, 0.0, 1.0]
+    c["multipath"][:] = [0.0, 1.5, -1.5, 0.0, 0.0, 0.0]
+    c["level_shift"][:] = [0.0, 0.0, 0.0, 0.0, 0.0, 4.0]
+    lost = np.array([False, False, False, True, True, False])
+    equipment = np.array([False, False, False, False, True, False])
+    truth = fb.HopTruth(hop, {"A>B": c}, {"A>B": lost}, {"A>B": zero}, None, {"A>B": equipment})
+    code = truth.cause_codes("A>B")
+    names = [fb.CAUSES[k] if k >= 0 else "-" for k in code]
+    assert names == ["-", "rain", "-", "rain", "signal_loss", "level_shift"]
