@@ -53,6 +53,10 @@ antenna; an upfade is a negative multipath contribution).
 
 THE SPLIT (fixed): seeds 1-50 are the FIT half, seeds 51-100 the HELD-OUT half (``FIT_SEEDS``, ``HELDOUT_SEEDS``).
 Anything tuned on this family must be tuned on ``fit_half()`` only; figures are reported on the held-out half.
+Seeds 101-150 (``VARIANT_SEEDS``) are a second held-out set made by a CHANGED process, B2, that no fit ever sees:
+stratiform bands with a fast front and a long tail instead of symmetric ones, flat-topped (super-Gaussian) cells,
+wet antennas that shed drops fast before the film dries slowly, a U-shaped (Jakes-type) Doppler spectrum with K
+wandering 4x faster, refractive fades with linear edges and a flat bottom, and ATPC with a 5-20 s control lag.
 """
 from __future__ import annotations
 
@@ -65,9 +69,12 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pacsv
+from scipy.signal import lfilter
 
 FIT_SEEDS = tuple(range(1, 51))
 HELDOUT_SEEDS = tuple(range(51, 101))
+VARIANT_SEEDS = tuple(range(101, 151))   # held out too, made by a changed process (B2, see the docstring)
+_VARIANT = False                         # set by make_world for VARIANT_SEEDS
 CAUSES = ("rain", "multipath", "refractive", "level_shift", "signal_loss")
 SHAPES = ("1s", "1min", "15min_mam", "15min_mm")
 FADE_DB = 3.0
@@ -284,7 +291,12 @@ class RainField:
             # the band reaches a point when its along-motion coordinate meets the front
             s_along = ((x_km - self.x_ref_km) * ux + (y_km - self.y_ref_km) * uy)[None, :] / speed
             tau = (t - tc - s_along) / half
-            env = np.where(np.abs(tau) < 1.0, 0.5 * (1.0 + np.cos(np.pi * tau)), 0.0)
+            if _VARIANT:       # B2: a fast front (first 20 % of the band) and a long trailing tail
+                x = np.clip((tau + 1.0) / 2.0, 0.0, 1.0)
+                env = np.where(x < 0.2, np.sin(0.5 * np.pi * x / 0.2) ** 2, np.cos(0.5 * np.pi * (x - 0.2) / 0.8) ** 2)
+                env = np.where(np.abs(tau) < 1.0, env, 0.0)
+            else:
+                env = np.where(np.abs(tau) < 1.0, 0.5 * (1.0 + np.cos(np.pi * tau)), 0.0)
             if ripple < 0.5:   # variant 1: a regular 30-45 min ripple
                 mod = 1.0 + 0.25 * np.sin(2 * np.pi * (t - s_along) / (1800.0 + 1800.0 * ripple) + 12.0 * ripple)
             else:              # variant 2: an irregular ripple (three incommensurate periods)
@@ -297,7 +309,9 @@ class RainField:
             cy = y0 + vy * (t - t0)
             r2 = (x_km[None, :] - cx) ** 2 + (y_km[None, :] - cy) ** 2
             grow = np.exp(-0.5 * ((t - t0) / (life / 2.5)) ** 2)
-            if radius >= 0:    # variant 1: Gaussian cell profile
+            if _VARIANT:       # B2: a flat-topped (super-Gaussian) cell
+                out += peak * grow * np.exp(-((r2 / (2.0 * radius ** 2)) ** 2))
+            elif radius >= 0:  # variant 1: Gaussian cell profile
                 out += peak * grow * np.exp(-r2 / (2.0 * radius ** 2))
             else:              # variant 2: exponential cell profile (radius stored negative)
                 out += peak * grow * np.exp(-np.sqrt(r2) / (-radius * 0.8))
@@ -338,6 +352,8 @@ def _wet_antenna(rng, hop: Hop, mean_rate: np.ndarray) -> np.ndarray:
     for j, i in enumerate(idx):
         tgt = target[i]
         tau = tau_wet if tgt > w else tau_dry
+        if _VARIANT and tgt <= w and w > 0.5 * wmax:   # B2: drops shed fast first, the film dries slowly
+            tau = tau_dry / 4.0
         w += (tgt - w) * (1.0 - math.exp(-step / tau))
         vals[j] = w
     out[:] = np.interp(np.arange(target.size), idx, vals)
@@ -352,7 +368,13 @@ def _doppler_scatter(rng, n: int, fm_hz: float, spectrum: str = "gauss") -> np.n
     or (``spectrum="flat"``) a flat band |f| < fm."""
     spec = rng.standard_normal(n) + 1j * rng.standard_normal(n)
     f = np.fft.fftfreq(n, d=1.0)
-    shape = np.exp(-0.5 * (f / fm_hz) ** 2) if spectrum == "gauss" else (np.abs(f) < fm_hz).astype(float)
+    if spectrum == "gauss":
+        shape = np.exp(-0.5 * (f / fm_hz) ** 2)
+    elif spectrum == "jakes":   # U-shaped band, 1 / sqrt(1 - (f / fm)^2) power spectrum (B2)
+        inside = np.abs(f) < fm_hz
+        shape = np.where(inside, (1.0 - np.minimum((f / fm_hz) ** 2, 0.999)) ** -0.25, 0.0)
+    else:
+        shape = (np.abs(f) < fm_hz).astype(float)
     g = np.fft.ifft(spec * shape)
     return g / np.sqrt(np.mean(np.abs(g) ** 2))
 
@@ -376,10 +398,13 @@ def _multipath(rng, hop: Hop, n: int, p0_pct: float) -> dict[str, np.ndarray]:
         kmin_db = rng.uniform(4.0, 10.0)
     phase = np.clip(since / length_h, 0.0, 1.0)
     shape = np.sin(np.pi * phase) ** 0.5
-    k_db = 25.0 - (25.0 - kmin_db) * shape + 3.0 * _smooth_noise(rng, n, 1200.0)
+    wander_s = 300.0 if _VARIANT else 1200.0    # B2: K wanders faster
+    k_db = 25.0 - (25.0 - kmin_db) * shape + 3.0 * _smooth_noise(rng, n, wander_s)
     kl = 10.0 ** (k_db / 10.0)
     fm = 10.0 ** rng.uniform(-2.0, 0.0)
     spectrum = "gauss" if rng.random() < 0.5 else "flat"
+    if _VARIANT:
+        spectrum = "jakes"
     base = _doppler_scatter(rng, n, fm, spectrum)
     rho = rng.uniform(0.8, 0.95) if hop.polarization == "dual" else rng.uniform(0.5, 0.9)
     out = {}
@@ -408,7 +433,11 @@ def _refractive(rng, hop: Hop, n: int) -> np.ndarray:
         skew = rng.uniform(0.3, 0.7)
         rise = np.clip(tau / skew, 0, 1)
         fall = np.clip((1 - tau) / (1 - skew), 0, 1)
-        env = np.where((tau >= 0) & (tau <= 1), np.sin(0.5 * np.pi * np.minimum(rise, fall)) ** 2, 0.0)
+        if _VARIANT:   # B2: a layer moving over the path: linear edges over the first / last 15 %, flat between
+            edge = np.minimum(np.clip(tau / 0.15, 0, 1), np.clip((1 - tau) / 0.15, 0, 1))
+            env = np.where((tau >= 0) & (tau <= 1), edge, 0.0)
+        else:
+            env = np.where((tau >= 0) & (tau <= 1), np.sin(0.5 * np.pi * np.minimum(rise, fall)) ** 2, 0.0)
         ripple = 1.0 + 0.12 * _smooth_noise(rng, n, 600.0)
         out += depth * env * ripple
     return out
@@ -565,7 +594,11 @@ def _hop_day(rng, hop: Hop, xy, n: int, fld: RainField | None) -> HopTruth:
         noise = 0.15 * rng.standard_normal(n)
         if hop.atpc_range_db > 0:
             # path attenuation excluding equipment steps drives ATPC; boost in 0.5 dB steps up to the range
-            boost = np.clip(np.floor(np.maximum(total, 0.0) / 0.5) * 0.5, 0.0, hop.atpc_range_db)
+            want = np.maximum(total, 0.0)
+            if _VARIANT:   # B2: a slower control loop (first-order lag of 5-20 s)
+                a = math.exp(-1.0 / rng.uniform(5.0, 20.0))
+                want = lfilter([1.0 - a], [1.0, -a], want)
+            boost = np.clip(np.floor(want / 0.5) * 0.5, 0.0, hop.atpc_range_db)
             tsl[ch] = np.round(hop.tsl_dbm + boost, 1)
             level = hop.nominal_dbm - total + boost + noise
         else:
@@ -586,7 +619,17 @@ class World:
 
 
 def make_world(seed: int, *, n_s: int = DURATION_S) -> World:
-    """One seed: a storm-crossed network of 4-6 hops plus 3-5 independent hops (see the module docstring)."""
+    """One seed: a storm-crossed network of 4-6 hops plus 3-5 independent hops (see the module docstring).
+    Seeds in VARIANT_SEEDS are made by the changed process B2."""
+    global _VARIANT
+    _VARIANT = seed in VARIANT_SEEDS
+    try:
+        return _make_world(seed, n_s)
+    finally:
+        _VARIANT = False
+
+
+def _make_world(seed: int, n_s: int) -> World:
     rng = np.random.default_rng(1_000_003 * seed + 17)
     truths: list[HopTruth] = []
     # --- network: sites scattered over ~20 x 20 km, hops between near pairs

@@ -3,6 +3,7 @@
     .venv/bin/python bench/validation/run.py            # held-out seeds 51-100 (about 6 s a seed)
     .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
     .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
+    .venv/bin/python bench/validation/run.py --variant  # seeds 101-150, made by the changed process B2
 
 Generated logs go to bench/output/validation/ (git-ignored) and are rewritten on each run.
 """
@@ -25,6 +26,8 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description="family B held-out scores and the OpenRainER real-data count")
     ap.add_argument("--quick", action="store_true", help="6 seeds of the chosen half")
     ap.add_argument("--fit-half", action="store_true", help="score the fit half (seeds 1-50) instead")
+    ap.add_argument("--variant", action="store_true",
+                    help="score seeds 101-150, made by the changed process B2 (held out from every fit)")
     ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
     ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
     ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
@@ -32,13 +35,13 @@ def main(argv=None) -> int:
     ap.add_argument("--out", default=str(score.DEFAULT_OUT))
     ap.add_argument("--json", help="also write every figure to this JSON file")
     args = ap.parse_args(argv)
-    seeds = fb.FIT_SEEDS if args.fit_half else fb.HELDOUT_SEEDS
+    seeds = fb.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fb.HELDOUT_SEEDS
     if args.quick:
         seeds = seeds[:6]
     t0 = time.perf_counter()
     tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
     t_sim = time.perf_counter() - t0
-    half = "FIT" if args.fit_half else "HELD-OUT"
+    half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
     import diag
 
     print(f"diag analysed with: {Path(diag.__file__).parent}")
