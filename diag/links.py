@@ -2,7 +2,9 @@
 
 Required fields: ``link_id, frequency_ghz, length_km, polarization`` (H, V or dual), ``threshold_dbm``.
 Optional: ``nominal_dbm, tx_dbm, antenna_gain_dbi, antenna_height_m, geoclimatic_k, r001_mmh, objective_pct,
-xpd_required_db``.  A missing optional field is ``None``; the analysis names the checks it had to skip.
+xpd_required_db``, ``site_a_lat, site_a_lon, site_b_lat, site_b_lon`` (degrees; used for the local solar time
+and the distances between hops in network corroboration).  A missing optional field is ``None``; the analysis
+names the checks it had to skip.
 ``antenna_height_m`` is the antennas' altitude above sea level (ground height + site altitude), as ITU-R P.530 uses it.
 """
 from __future__ import annotations
@@ -20,6 +22,8 @@ from diag.errors import InputError, require_regular_file
 REQUIRED = ("link_id", "frequency_ghz", "length_km", "polarization", "threshold_dbm")
 OPTIONAL = ("nominal_dbm", "tx_dbm", "antenna_gain_dbi", "antenna_height_m", "geoclimatic_k", "r001_mmh",
             "objective_pct", "xpd_required_db")
+# optional site coordinates [deg] (links table only): local solar time and distances between hops
+COORDINATES = ("site_a_lat", "site_a_lon", "site_b_lat", "site_b_lon")
 POLARIZATIONS = ("H", "V", "dual")
 
 # plausibility ranges of the hop fields: outside them the value is almost certainly a unit or typing mistake (the
@@ -36,6 +40,10 @@ PLAUSIBLE_RANGES = {
     "r001_mmh": (0.0, 300.0),
     "objective_pct": (50.0, 100.0),
     "xpd_required_db": (0.0, 60.0),
+    "site_a_lat": (-90.0, 90.0),
+    "site_a_lon": (-180.0, 180.0),
+    "site_b_lat": (-90.0, 90.0),
+    "site_b_lon": (-180.0, 180.0),
 }
 _RANGES = PLAUSIBLE_RANGES
 
@@ -65,6 +73,10 @@ class Link:
     r001_mmh: float | None = None
     objective_pct: float | None = None
     xpd_required_db: float | None = None
+    site_a_lat: float | None = None   # site coordinates [deg]: local solar time and network distances (optional)
+    site_a_lon: float | None = None
+    site_b_lat: float | None = None
+    site_b_lon: float | None = None
 
     def to_dict(self) -> dict:
         return asdict(self)
@@ -116,7 +128,7 @@ def make_link(values: dict, *, where: str = "link parameters", line: int | None 
                     "polarization": _polarization(values.get("polarization"), where=where, line=line)}
     for name in ("frequency_ghz", "length_km", "threshold_dbm"):
         kwargs[name] = _number(name, values.get(name), where=where, line=line, required=True)
-    for name in OPTIONAL:
+    for name in OPTIONAL + COORDINATES:
         kwargs[name] = _number(name, values.get(name), where=where, line=line, required=False)
     if kwargs["nominal_dbm"] is not None and not kwargs["threshold_dbm"] < kwargs["nominal_dbm"]:
         raise InputError(f"links table: threshold_dbm {kwargs['threshold_dbm']:g} must be below nominal_dbm "

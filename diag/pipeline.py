@@ -31,9 +31,10 @@ from pathlib import Path
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis import crosspol, fading_stats, findings, outage, steps
+from diag.analysis import crosspol, fading_stats, findings, outage, rulebook, steps
 from diag.analysis.classify import classify_events
 from diag.analysis.events import find_events, paint_series
+from diag.analysis.evidence import add_evidence
 from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
 from diag.config import AnalysisConfig
 from diag.errors import DataWarning, InputError
@@ -192,7 +193,10 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
             add_reference(item, config)
     spans = [span for item in items for span in level_shift_spans(item, config)]
     events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
-    events = classify_events(events, link, config=config)
+    if config.attribution == "posterior":   # the physics posterior (diag.analysis.classify)
+        events = classify_events(add_evidence(events, series), link, config=config)
+    else:                                  # the default rulebook (diag.analysis.rulebook)
+        events = rulebook.classify_events(events, link, config=config)
     paint_series(series, events)
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})
     pol_guesses = polarisation_guesses(link, sorted(series))
@@ -315,6 +319,10 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
             if exc.path is None:  # a problem of the hop's data: name the file(s) it came from
                 exc.path = ", ".join(dict.fromkeys(names[link_id]))
             raise
+    if (config or AnalysisConfig()).attribution == "posterior":
+        from diag.analysis.network import corroborate  # several hops: fades shared across the network (rain)
+
+        results = corroborate(results, config=config, gauge=gauge_table)
     if progress:
         progress(len(hop_ids), len(hop_ids), "analysis done")
     return results

@@ -52,6 +52,10 @@ def register(subparsers) -> None:
                         help="analyse only the hops of the links table; rows of other hops are skipped and counted "
                              "(unlisted_hop) instead of being an error")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
+    parser.add_argument("--attribution", choices=("rules", "posterior"), default="rules",
+                        help="how causes are named: the default rulebook, or the physics posterior (ITU-R "
+                             "P.530/P.838 hop priors times measured evidence; not yet the default, see "
+                             "docs/validation.md)")
     from diag.commands.ingest import add_reader_overrides
 
     add_reader_overrides(parser, with_link_id=False)    # the same reader flags as ingest (issue 16)
@@ -116,8 +120,10 @@ def main(args: argparse.Namespace) -> int:
         from diag.read.gauge import read_gauge
 
         gauge = read_gauge(args.gauge, tz=args.tz or "UTC")
+    from diag.config import AnalysisConfig
+
     results = analyze_files(args.inputs, links=links, tz=args.tz, mapping=mapping, gauge=gauge,
-                            progress=_progress(args.quiet))
+                            progress=_progress(args.quiet), config=AnalysisConfig(attribution=args.attribution))
     if not results:
         raise InputError("no hop in the inputs matched the link description")
     if not args.quiet:

@@ -3,7 +3,7 @@
 The truth is the simulator's per-sample attenuation by cause (the true cause of a faded sample, total fade > 3 dB,
 is its largest contribution).  Each scenario holds one cause on an otherwise quiet hop; the check is the share
 of truly faded seconds whose diagnosed cause is right.  The physics each rule rests on is cited in
-diag/analysis/classify.py (ITU-R P.838-3 for the V/H ratio, P.530 §2.3.3 for multipath enhancements, ...).
+diag/analysis/rulebook.py (ITU-R P.838-3 for the V/H ratio, P.530 §2.3.3 for multipath enhancements, ...).
 """
 from __future__ import annotations
 
@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.analysis.classify import STATS_CONFIDENCE_FACTOR
+from diag.analysis.rulebook import STATS_CONFIDENCE_FACTOR
 from diag.pipeline import analyze_link
 from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
 

@@ -10,7 +10,7 @@ geometry, see diag.analysis.classify), so the verdict must be rain.  Controls: a
 from __future__ import annotations
 
 from diag import schema as S
-from diag.analysis.classify import SHORT_HOP_KM, WET_FADE_MAX_DB
+from diag.analysis.rulebook import SHORT_HOP_KM, WET_FADE_MAX_DB
 from diag.sim.simulate import Effect, LinkSpec
 
 H = 3600.0

@@ -1,0 +1,79 @@
+"""Print every validation table: scenario family B (held-out half) and the OpenRainER real-data count.
+
+    .venv/bin/python bench/validation/run.py            # held-out seeds 51-100 (about 6 s a seed)
+    .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
+    .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
+    .venv/bin/python bench/validation/run.py --variant  # seeds 101-150, made by the changed process B2
+
+Generated logs go to bench/output/validation/ (git-ignored) and are rewritten on each run.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+import family_b as fb  # noqa: E402
+import score  # noqa: E402
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description="family B held-out scores and the OpenRainER real-data count")
+    ap.add_argument("--quick", action="store_true", help="6 seeds of the chosen half")
+    ap.add_argument("--attribution", choices=("posterior", "rules"), default=None,
+                    help="cause attribution to score (default: posterior, or DIAG_BENCH_ATTRIBUTION)")
+    ap.add_argument("--fit-half", action="store_true", help="score the fit half (seeds 1-50) instead")
+    ap.add_argument("--variant", action="store_true",
+                    help="score seeds 101-150, made by the changed process B2 (held out from every fit)")
+    ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
+    ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
+    ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
+    ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
+    ap.add_argument("--out", default=str(score.DEFAULT_OUT))
+    ap.add_argument("--json", help="also write every figure to this JSON file")
+    args = ap.parse_args(argv)
+    if args.attribution:
+        os.environ["DIAG_BENCH_ATTRIBUTION"] = args.attribution
+        score.ATTRIBUTION = args.attribution
+    seeds = fb.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fb.HELDOUT_SEEDS
+    if args.quick:
+        seeds = seeds[:6]
+    t0 = time.perf_counter()
+    tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
+    t_sim = time.perf_counter() - t0
+    half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
+    import diag
+
+    print(f"diag analysed with: {Path(diag.__file__).parent}")
+    print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
+    print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
+    print(score.worst_hops(tally, args.worst))
+    print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
+    figures = {"half": half, "seeds": list(seeds), "diag": str(Path(diag.__file__).parent),
+               "family_b": score.summary(tally), "timing_s": timing}
+    if not args.no_real:
+        try:
+            import realdata
+        except ImportError:
+            realdata = None
+        if realdata is not None:
+            t0 = time.perf_counter()
+            res = realdata.evaluate()
+            print()
+            print(realdata.report(res))
+            print(f"real-data time {time.perf_counter() - t0:.1f} s")
+            figures["openrainer"] = {k: vars(c) for k, c in res["per_link"].items()}
+            figures["openrainer"]["total"] = vars(res["total"])
+    if args.json:
+        Path(args.json).write_text(json.dumps(figures, indent=1, default=float))
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

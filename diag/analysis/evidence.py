@@ -1,0 +1,76 @@
+"""Per-event measurements read from the gridded series, added to the event table before classification.
+
+Columns (units in the names):
+
+- ``jump_in_db`` / ``jump_out_db``: the change of the attenuation across the event's first / last edge, from the
+  sample just outside to the sample just inside (NaN at the ends of the record or next to a missing sample).
+  A propagation fade enters and leaves the fade band gradually (rain cells and refraction over minutes; the
+  segmentation starts an event at 1.5 dB), so an edge that carries most of the fade in one sample is equipment: a
+  level step (a temporary one when both edges do);
+- ``flat_std_db``: the standard deviation of the attenuation over the middle 80 % of the event (a level step holds
+  flat; rain and clear-air fades vary);
+- ``tsl_rise_db``: on hops that log the transmit level (ATPC), the rise of the TSL during the event above its
+  median over the hour before: ATPC hides that much of the propagation fade from the RSL (the fade on the path is
+  the RSL fade plus this rise).
+
+Level-shift spans and events without samples get NaN.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from diag import schema as S
+from diag.results import ChannelSeries
+
+__all__ = ["add_evidence", "EVIDENCE_COLUMNS"]
+
+EVIDENCE_COLUMNS = ["jump_in_db", "jump_out_db", "flat_std_db", "tsl_rise_db"]
+
+
+def add_evidence(events: pd.DataFrame, series: dict[str, ChannelSeries]) -> pd.DataFrame:
+    """``events`` with :data:`EVIDENCE_COLUMNS` (a new frame; the input is not changed)."""
+    out = events.copy()
+    n = len(out)
+    cols = {c: np.full(n, np.nan) for c in EVIDENCE_COLUMNS}
+    if n:
+        kinds = out["event_kind"].to_numpy(dtype=object)
+        channels = out["channel"].astype(str).to_numpy(dtype=object)
+        first = out["start_index"].to_numpy(dtype=float)
+        last = out["end_index"].to_numpy(dtype=float)
+        for name, item in series.items():
+            rows = np.flatnonzero((channels == str(name)) & (kinds == "fade"))
+            if not rows.size:
+                continue
+            frame = item.frame
+            att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
+            lost = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
+            att = np.where(lost, np.nan, att)
+            tsl = frame[S.TSL].to_numpy(dtype=float, na_value=np.nan) if S.TSL in frame.columns else None
+            size = att.size
+            hour = max(1, int(round(3600.0 / max(item.interval_s, 1.0))))
+            for k in rows:
+                if not (np.isfinite(first[k]) and np.isfinite(last[k])):
+                    continue
+                a, b = int(first[k]), int(last[k])
+                if b <= a:
+                    continue
+                if a > 0:
+                    cols["jump_in_db"][k] = att[a] - att[a - 1]
+                if b < size:
+                    cols["jump_out_db"][k] = att[b - 1] - att[b]
+                cut = (b - a) // 10
+                mid = att[a + cut:b - cut]
+                mid = mid[np.isfinite(mid)]
+                if mid.size >= 2:
+                    cols["flat_std_db"][k] = float(np.std(mid))
+                if tsl is not None:
+                    before = tsl[max(0, a - hour):a]
+                    before = before[np.isfinite(before)]
+                    inside = tsl[a:b]
+                    inside = inside[np.isfinite(inside)]
+                    if before.size and inside.size:
+                        cols["tsl_rise_db"][k] = float(max(0.0, inside.max() - np.median(before)))
+    for c in EVIDENCE_COLUMNS:
+        out[c] = cols[c]
+    return out

@@ -1,0 +1,149 @@
+"""Network corroboration: a fade that coincides with fades on other hops of the network is rain evidence.
+
+Rain is weather: a rain cell or a storm front fades neighbouring hops together within minutes, while multipath and
+refractive fading depend on each hop's own geometry and are hop-local (docs/references.md §8,
+"Neighbouring hops"; the nearby-link rain detection of Overeem, Leijnse and Uijlenhoet, Atmos. Meas. Tech. 9,
+2425-2444, 2016, rests on the same fact).
+
+For each fade event of a hop, the other hops analysed with it are asked whether they faded (attenuation above
+``FADED_DB`` or the receiver at its floor) in any minute from ``MARGIN_S`` before the event to ``MARGIN_S`` after
+it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then.
+Weights: exp(-distance / ``CORRELATION_KM``) between path midpoints when the links table gives both hops' site
+coordinates (rain fields decorrelate over tens of km: convective cells of a few km, fronts of tens of km; 20 km
+is a stated choice), else 1 (the plain share of the network's hops).  The term that reads them is
+:func:`diag.analysis.attribution.term_network`; a hop analysed alone gets no term.
+
+:func:`corroborate` re-scores the events of each result with the two columns and, where a cause changed, repaints
+the series and reruns the stages that read the causes (statistics, cross-polar, level changes, outage, findings).
+"""
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+
+from diag import schema as S
+from diag.links import Link
+
+__all__ = ["faded_minutes", "network_columns", "corroborate", "FADED_DB", "MARGIN_S", "CORRELATION_KM"]
+
+FADED_DB = 3.0
+MARGIN_S = 300.0
+CORRELATION_KM = 20.0
+
+
+def faded_minutes(result) -> pd.Series:
+    """Per UTC minute: True when any channel of the hop was faded (boolean Series on a minute index)."""
+    parts = []
+    for series in result.series.values():
+        frame = series.frame
+        col = "attenuation_peak_db" if series.kind == "stats" and "attenuation_peak_db" in frame else "attenuation_db"
+        att = frame[col].to_numpy(dtype=float, na_value=np.nan)
+        lost = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
+        with np.errstate(invalid="ignore"):
+            faded = (att > FADED_DB) | lost
+        seen = np.isfinite(att) | lost
+        idx = pd.DatetimeIndex(frame.index).floor("1min")
+        part = pd.DataFrame({"faded": faded, "seen": seen}, index=idx).groupby(level=0).max()
+        if series.interval_s > 60.0:   # an interval statistic covers every minute of its interval
+            step = int(round(series.interval_s / 60.0))
+            part = part.reindex(pd.date_range(part.index[0], part.index[-1] + pd.Timedelta(minutes=step - 1),
+                                              freq="1min")).ffill(limit=step - 1)
+        parts.append(part)
+    if not parts:
+        return pd.Series(dtype=bool)
+    both = pd.concat(parts).groupby(level=0).max()
+    return both["faded"].where(both["seen"].astype(bool))
+
+
+def _midpoint(link: Link) -> tuple[float, float] | None:
+    vals = (link.site_a_lat, link.site_a_lon, link.site_b_lat, link.site_b_lon)
+    if any(v is None for v in vals):
+        return None
+    return (vals[0] + vals[2]) / 2.0, (vals[1] + vals[3]) / 2.0
+
+
+def _distance_km(a: tuple[float, float], b: tuple[float, float]) -> float:
+    """Great-circle distance (haversine, Earth radius 6371 km)."""
+    la1, lo1, la2, lo2 = map(math.radians, (a[0], a[1], b[0], b[1]))
+    h = math.sin((la2 - la1) / 2) ** 2 + math.cos(la1) * math.cos(la2) * math.sin((lo2 - lo1) / 2) ** 2
+    return 2 * 6371.0 * math.asin(min(1.0, math.sqrt(h)))
+
+
+def network_columns(events: pd.DataFrame, link: Link, others: Sequence[tuple[Link, pd.Series]]) -> pd.DataFrame:
+    """``network_share`` and ``network_hops`` for each event of ``events`` (NaN / 0 for non-fade events)."""
+    share = np.full(len(events), np.nan)
+    hops = np.zeros(len(events))
+    if not len(events) or not others:
+        return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
+    mine = _midpoint(link)
+    weights = []
+    for other, _ in others:
+        theirs = _midpoint(other)
+        weights.append(math.exp(-_distance_km(mine, theirs) / CORRELATION_KM) if mine and theirs else 1.0)
+    margin = pd.Timedelta(seconds=MARGIN_S)
+    kinds = events["event_kind"].tolist()
+    for i, (start, end) in enumerate(zip(events["start_utc"], events["end_utc"])):
+        if kinds[i] != "fade" or pd.isna(start) or pd.isna(end):
+            continue
+        lo, hi = start - margin, end + margin
+        num = den = 0.0
+        n = 0
+        for w, (_, minutes) in zip(weights, others):
+            part = minutes.loc[lo:hi].dropna()
+            if not len(part):
+                continue
+            n += 1
+            den += w
+            num += w * float(bool(part.any()))
+        if n:
+            share[i], hops[i] = num / den, n
+    return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
+
+
+def corroborate(results: list, *, config=None, gauge=None) -> list:
+    """Re-score every hop's events with the network term (see the module docstring); results analysed alone or
+    failed are returned unchanged."""
+    ok = [r for r in results if getattr(r, "error", None) is None and r.series and r.events is not None]
+    if len(ok) < 2:
+        return results
+    from diag.analysis.classify import classify_events
+    from diag.analysis.events import paint_series
+
+    minutes = {id(r): faded_minutes(r) for r in ok}
+    for r in ok:
+        events = r.events
+        if not len(events):
+            continue
+        others = [(o.link, minutes[id(o)]) for o in ok if o is not r]
+        base = events.drop(columns=[c for c in ("network_share", "network_hops") if c in events], errors="ignore")
+        extra = network_columns(base, r.link, others)
+        gauge_cols = [c for c in base.columns if c.startswith("gauge_") and c != "gauge_rain_mmh"]
+        rescored = classify_events(pd.concat([base.drop(columns=gauge_cols), extra], axis=1), r.link, config=config)
+        changed = not rescored["cause"].equals(events["cause"])
+        if gauge_cols and gauge is not None:
+            from diag.read import gauge as gauge_mod
+
+            rescored = pd.concat([rescored, gauge_mod.check_rain_verdicts(rescored, gauge)], axis=1)
+        elif gauge_cols:
+            rescored = pd.concat([rescored, base[gauge_cols]], axis=1)
+        r.events = rescored
+        if changed:
+            paint_series(r.series, rescored)
+            _rerun_stages(r)
+    return results
+
+
+def _rerun_stages(result) -> None:
+    """The stages after painting, as :func:`diag.pipeline.analyze_link` runs them."""
+    from diag import pipeline
+
+    result.skipped = [s for s in result.skipped if not any(s.startswith(m + ":") for m in pipeline._STAGE_MODULES)]
+    statistics, cross_polar, level_changes, outage = pipeline._independent_stages(result, 1)
+    result.statistics = statistics or {}
+    result.cross_polar = cross_polar or {}
+    result.level_changes = level_changes or {}
+    result.outage = outage
+    result.findings = pipeline._call("findings", "rank_findings", result) or []
