@@ -244,8 +244,11 @@ def stats_interval_bounds(min_dbm, avg_dbm, max_dbm, threshold_dbm: float, secon
     k_hi = np.where(has_avg & np.isfinite(k_hi) & (mx_h < np.inf), np.floor(k_hi + 1e-9), n)
     # an average below threshold implies at least one value below it (in either domain)
     k_lo = np.where(has_avg & (a_hi < T), np.maximum(k_lo, 1.0), k_lo)
-    partial_lo = np.where(np.isnan(mn), 0.0, 1.0)             # the min second itself was below (-inf: lost)
-    partial_hi = np.where(np.isfinite(mx), n - 1.0, n)         # the max second itself was clear
+    # the min second itself was below (-inf: lost), unless print rounding leaves it possibly at the threshold
+    with np.errstate(invalid="ignore"):
+        partial_lo = np.where(np.isnan(mn) | ~(mn + rounding_db < T), 0.0, 1.0)
+        # the max second itself was clear, unless print rounding leaves it possibly just below the threshold
+        partial_hi = np.where(np.isfinite(mx) & (mx - rounding_db >= T), n - 1.0, n)
     lo_p = np.clip(np.maximum(k_lo, partial_lo), 0.0, partial_hi)
     hi_p = np.clip(np.minimum(k_hi, partial_hi), lo_p, n)
     lo = np.where(partial, lo_p, lo)
