@@ -207,7 +207,16 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
         checked = check_rain_verdicts(events, gauge_table)
         result.events = pd.concat([events, checked], axis=1)
     elif gauge_table is None:
-        result.skipped.append("rain-gauge check of the rain verdicts (no gauge file given)")
+        result.skipped.append(_NO_GAUGE)
+    _later_stages(result, threads)
+    return result
+
+
+_NO_GAUGE = "rain-gauge check of the rain verdicts (no gauge file given)"
+
+
+def _later_stages(result: LinkResult, threads: int) -> None:
+    """The stages after painting: statistics, cross-polar, level changes and outage (side by side), then findings."""
     statistics, cross_polar, level_changes, outage = _independent_stages(result, threads)
     result.statistics = statistics or {}
     _merge_skipped(result, result.statistics)
@@ -217,7 +226,13 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     _merge_skipped(result, result.level_changes)
     result.outage = outage
     result.findings = _call("findings.rank_findings", lambda res: findings.rank_findings(res), result) or []
-    return result
+
+
+def _rerun_later_stages(result: LinkResult, *, gauge_given: bool) -> None:
+    """Run the stages after painting again (the causes changed after the network term): the skipped list starts
+    again from what the hop's description and the gauge say, as in :func:`analyze_link`."""
+    result.skipped = _skipped_for_link(result.link) + ([] if gauge_given else [_NO_GAUGE])
+    _later_stages(result, 1)
 
 
 def analyze_tables(table: pd.DataFrame, links: Sequence[Link], *, config: AnalysisConfig | None = None,
@@ -322,7 +337,8 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     if (config or AnalysisConfig()).attribution == "posterior":
         from diag.analysis.network import corroborate  # several hops: fades shared across the network (rain)
 
-        results = corroborate(results, config=config, gauge=gauge_table)
+        results = corroborate(results, config=config, gauge=gauge_table,
+                              rerun=lambda r: _rerun_later_stages(r, gauge_given=gauge_table is not None))
     if progress:
         progress(len(hop_ids), len(hop_ids), "analysis done")
     return results

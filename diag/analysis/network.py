@@ -103,9 +103,10 @@ def network_columns(events: pd.DataFrame, link: Link, others: Sequence[tuple[Lin
     return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
 
 
-def corroborate(results: list, *, config=None, gauge=None) -> list:
+def corroborate(results: list, *, config=None, gauge=None, rerun=None) -> list:
     """Re-score every hop's events with the network term (see the module docstring); results analysed alone or
-    failed are returned unchanged."""
+    failed are returned unchanged.  ``rerun(result)`` runs the stages after painting again where a cause changed
+    (the pipeline passes its own; the analysis stage does not import the pipeline)."""
     ok = [r for r in results if getattr(r, "error", None) is None and r.series and r.events is not None]
     if len(ok) < 2:
         return results
@@ -132,18 +133,6 @@ def corroborate(results: list, *, config=None, gauge=None) -> list:
         r.events = rescored
         if changed:
             paint_series(r.series, rescored)
-            _rerun_stages(r)
+            if rerun is not None:
+                rerun(r)
     return results
-
-
-def _rerun_stages(result) -> None:
-    """The stages after painting, as :func:`diag.pipeline.analyze_link` runs them."""
-    from diag import pipeline
-
-    result.skipped = [s for s in result.skipped if not any(s.startswith(m + ":") for m in pipeline._STAGE_MODULES)]
-    statistics, cross_polar, level_changes, outage = pipeline._independent_stages(result, 1)
-    result.statistics = statistics or {}
-    result.cross_polar = cross_polar or {}
-    result.level_changes = level_changes or {}
-    result.outage = outage
-    result.findings = pipeline._call("findings", "rank_findings", result) or []

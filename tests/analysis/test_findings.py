@@ -85,5 +85,6 @@ def test_coarse_logs_quote_bounds_not_one_number(hops):
     by["unavailable_s"] = np.nan
     by["below_threshold_s"] = np.nan
     top = [f for f in findings.rank_findings(result) if f["cause"] == "rain"][0]
-    assert "700 to 1600 s" in top["detail"] and "600 to 1500 s" in top["detail"]
+    # durations read as h:mm:ss (issue 16): 700-1600 s below threshold, 600-1500 s unavailable
+    assert "0:11:40 to 0:26:40" in top["detail"] and "0:10:00 to 0:25:00" in top["detail"]
     assert top["numbers"]["unavailable_s"] is None and top["numbers"]["unavailable_s_hi"] == 1500.0
