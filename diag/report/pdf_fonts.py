@@ -1,0 +1,97 @@
+"""The report's text in the PDF core fonts (Helvetica, WinAnsi): rc settings, the deliberate replacements for
+characters WinAnsi lacks, and font metrics read once per process (issue 18: no per-document font subsetting)."""
+from __future__ import annotations
+
+import contextlib
+import logging
+
+_RC = {"pdf.fonttype": 3, "pdf.use14corefonts": True, "font.family": "sans-serif", "font.sans-serif": ["Helvetica"],
+       "axes.unicode_minus": False, "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+       "text.parse_math": False}
+# the PNG preview is drawn by Agg, which needs a TrueType font
+_RC_PNG = {"font.family": "DejaVu Sans", "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
+           "text.parse_math": False}
+
+# what the PDF prints for characters its WinAnsi (cp1252) fonts lack; anything else outside it prints as "?"
+PDF_REPLACEMENTS = {"\u2212": "-", "\u2265": ">=", "\u2264": "<=", "\u2192": "->", "\u2190": "<-",
+                    "\u2248": "~", "\u00b1": "+/-", "\u2260": "!=", "\u2009": " ", "\u202f": " ",
+                    "\u2032": "'", "\u2033": '"', "\u0394": "delta ", "\u03c3": "sigma"}
+_TRANSLATE = str.maketrans(PDF_REPLACEMENTS)
+
+
+def pdf_safe(text: str) -> str:
+    """``text`` as the PDF's core fonts can print it: the replacements above, then "?" for anything else."""
+    if text.isascii():
+        return text
+    text = text.translate(_TRANSLATE)
+    try:
+        text.encode("cp1252")
+        return text
+    except UnicodeEncodeError:
+        return "".join(c if _in_cp1252(c) else "?" for c in text)
+
+
+def _in_cp1252(char: str) -> bool:
+    try:
+        char.encode("cp1252")
+        return True
+    except UnicodeEncodeError:
+        return False
+
+
+def _make_pdf_safe(fig) -> None:
+    """Apply ``pdf_safe`` to every text of a page: figure texts, titles, labels, legends, tables and fixed tick
+    labels (hop names). Walks the artists it knows rather than ``fig.findobj``, which would create every tick."""
+    from matplotlib.ticker import FixedFormatter
+
+    texts = list(fig.texts)
+    legends = list(fig.legends)
+    for ax in fig.axes:
+        texts += list(ax.texts) + [ax.title, ax._left_title, ax._right_title, ax.xaxis.label, ax.yaxis.label]
+        if ax.get_legend() is not None:
+            legends.append(ax.get_legend())
+        for table in ax.tables:
+            texts += [cell.get_text() for cell in table.get_celld().values()]
+        for axis in (ax.xaxis, ax.yaxis):
+            formatter = axis.get_major_formatter()
+            if isinstance(formatter, FixedFormatter):
+                formatter.seq = [pdf_safe(str(label)) for label in formatter.seq]
+    for legend in legends:
+        texts += list(legend.get_texts()) + [legend.get_title()]
+    for artist in texts:
+        text = artist.get_text()
+        if not text.isascii():
+            artist.set_text(pdf_safe(text))
+
+
+def _reuse_font_metrics(pages) -> None:
+    """Name each core font from metrics parsed once per process, not once per document (matplotlib re-reads the
+    font's AFM file, kerning table and all, for every PDF it writes; only the font's name is used)."""
+    ensure = getattr(pages, "_ensure_file", None)
+    file = ensure() if ensure is not None else getattr(pages, "_file", None)
+    if file is None or not hasattr(file, "_write_afm_font"):
+        return
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
+    from matplotlib.backends.backend_pdf import Name
+
+    def write_afm_font(filename):
+        name = _cached_get_afm_from_fname(filename).get_fontname()   # the same cache the text layout uses
+        fontdict = {"Type": Name("Font"), "Subtype": Name("Type1"), "BaseFont": Name(name),
+                    "Encoding": Name("WinAnsiEncoding")}
+        obj = file.reserveObject("font dictionary")
+        file.writeObject(obj, fontdict)
+        return obj
+
+    file._write_afm_font = write_afm_font
+
+
+@contextlib.contextmanager
+def _quiet_font_lookup():
+    """matplotlib warns that the core Helvetica has weight "medium", not "normal": expected, so not shown."""
+    logger = logging.getLogger("matplotlib.font_manager")
+    level = logger.level
+    logger.setLevel(logging.ERROR)
+    try:
+        yield
+    finally:
+        logger.setLevel(level)
