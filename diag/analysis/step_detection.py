@@ -187,7 +187,13 @@ def _refine(level: np.ndarray, lo: int, hi: int, before: float, after: float, *,
     down = after < before
     # below both levels (beyond the noise): a fade on either level, no evidence for either side
     deep = ok & (x < min(before, after) - _DEEP_MARGIN_DB)
-    new_side = ok & ~deep & ((x < mid) if down else (x > mid))
+    # the side of each sample is read from the median of it and its two neighbours: one noise sample across the
+    # mid level must not outweigh many clear samples at the new level (a plateau between two steps stays whole)
+    xs = x.copy()
+    if xs.size >= 3:
+        xs[1:-1] = np.median(np.stack([x[:-2], x[1:-1], x[2:]]), axis=0)
+        xs = np.where(np.isfinite(xs), xs, x)
+    new_side = ok & ~deep & ((xs < mid) if down else (xs > mid))
     old_side = ok & ~deep & ~new_side
     w_new_before = _FADE_WEIGHT if down else 1.0    # a low sample before a downward step may be a fade
     w_old_after = 1.0 if down else _FADE_WEIGHT     # a low sample after an upward step may be a fade
