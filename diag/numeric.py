@@ -71,3 +71,20 @@ def round_figures(value, digits: int = 4):
     if math.isinf(value):
         return 1e300 if value > 0 else -1e300
     return round_sig(value, digits)
+
+
+def as_float(value) -> float:
+    """``float(value)``, or NaN when the value is missing or not a number (event-table cells)."""
+    try:
+        return float(value)
+    except (TypeError, ValueError):
+        return math.nan
+
+
+def duration_word(seconds: float) -> str:
+    """A duration as an evidence word: "45-s", "20-min", "2.5-h"."""
+    if seconds < 120:
+        return f"{seconds:.0f}-s"
+    if seconds < 3 * 3600:
+        return f"{seconds / 60:.0f}-min"
+    return f"{seconds / 3600:.1f}-h"

@@ -30,6 +30,8 @@ import pandas as pd
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior, prior_log_odds
 from diag.links import Link
 from diag.models import p838
+from diag.numeric import as_float as _f  # a cell as float, NaN when missing
+from diag.numeric import duration_word
 
 __all__ = ["PROPAGATION", "WEIGHTS", "UNKNOWN_BAR", "RAIN_RATE_MAX_MMH", "TERMS", "evidence_terms", "posterior",
            "local_solar_hour", "attribute"]
@@ -63,12 +65,6 @@ WEIGHTS: dict[str, float] = {
 }
 
 
-def _f(value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        return math.nan
-    return v
 
 
 def _clip(x: float, lo: float, hi: float) -> float:
@@ -211,7 +207,7 @@ def term_duration(row, link: Link, prior: HopPrior):
         vec[R] -= 1.0
     if not vec.any():
         return None
-    return vec, f"{_fmt_duration(dur)} long ({link.length_km:g}-km path)"
+    return vec, f"{duration_word(dur)} long ({link.length_km:g}-km path)"
 
 
 def term_shape(row, link: Link, prior: HopPrior):
@@ -307,12 +303,6 @@ TERMS: dict[str, Callable] = {
 }
 
 
-def _fmt_duration(seconds: float) -> str:
-    if seconds < 120:
-        return f"{seconds:.0f}-s"
-    if seconds < 3 * 3600:
-        return f"{seconds / 60:.0f}-min"
-    return f"{seconds / 3600:.1f}-h"
 
 
 # ------------------------------------------------------------------------------------------------- posterior
@@ -465,7 +455,7 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
     for i, row in enumerate(rows):
         p = post[i]
         peak = _f(row.get("peak_fade_db"))
-        shape = f"{_fmt_duration(_f(row.get('duration_s')))} fade, peak {peak:.1f} dB"
+        shape = f"{duration_word(_f(row.get('duration_s')))} fade, peak {peak:.1f} dB"
         if not np.isfinite(p).all():
             out.append(("unknown", 0.0, f"{shape}: no propagation cause is physically possible on this hop "
                         f"(beyond any recorded rain rate and P.530 clear-air fading)"))

@@ -35,25 +35,16 @@ from diag.analysis.attribution import attribute, rows_of
 from diag.analysis.priors import hop_prior
 from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
+from diag.numeric import as_float as _f  # a cell as float, NaN when missing
+from diag.numeric import duration_word
 
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
 
 STATS_CONFIDENCE_FACTOR = 1.0   # kept for importers: the posterior itself now carries the coarser data's doubt
 
 
-def _f(value) -> float:
-    try:
-        return float(value)
-    except (TypeError, ValueError):
-        return math.nan
 
 
-def _fmt_duration(seconds: float) -> str:
-    if seconds < 120:
-        return f"{seconds:.0f}-s"
-    if seconds < 3 * 3600:
-        return f"{seconds / 60:.0f}-min"
-    return f"{seconds / 3600:.1f}-h"
 
 
 def _equipment(row) -> tuple[str, float, str] | None:
@@ -61,11 +52,11 @@ def _equipment(row) -> tuple[str, float, str] | None:
     if row["event_kind"] == "level_shift":
         size, step = _f(row["peak_fade_db"]), _f(row["step_db"])
         return (S.LEVEL_SHIFT, float(min(0.99, max(0.05, 0.6 + 0.06 * size))),
-                f"clear-sky level {size:.1f} dB below its best for {_fmt_duration(_f(row['duration_s']))} "
+                f"clear-sky level {size:.1f} dB below its best for {duration_word(_f(row['duration_s']))} "
                 f"after an abrupt persistent step of {step:+.1f} dB at {row['start_utc']:%Y-%m-%d %H:%M} UTC")
     dur = _f(row["duration_s"])
     floor_frac, pre_floor = _f(row["floor_fraction"]), _f(row["pre_floor_fade_db"])
-    shape = _fmt_duration(dur)
+    shape = duration_word(dur)
     # with no sample just before the floor, a deep fade among the event's own valid samples says the level went
     # down gradually (a propagation fade that ended at the floor), not an abrupt drop
     faded_before = not math.isfinite(pre_floor) and _f(row["peak_fade_db_finite"]) >= 10.0
@@ -100,7 +91,7 @@ def _step(row) -> tuple[str, float, str] | None:
             and dur >= 3 * step_s):
         return None
     return (S.LEVEL_SHIFT, 0.8,
-            f"{_fmt_duration(dur)} temporary level step: down {jin:.1f} dB and back up {jout:.1f} dB within one "
+            f"{duration_word(dur)} temporary level step: down {jin:.1f} dB and back up {jout:.1f} dB within one "
             f"{step_s:g}-s sample each, flat in between (std {flat:.2f} dB): no propagation fade moves that fast "
             f"at both edges")
 

@@ -79,6 +79,8 @@ from diag import schema as S
 from diag.analysis.events import channel_polarization
 from diag.config import AnalysisConfig
 from diag.links import Link
+from diag.numeric import as_float as _f  # a cell as float, NaN when missing
+from diag.numeric import duration_word
 
 __all__ = ["classify_events", "STATS_CONFIDENCE_FACTOR"]
 
@@ -105,20 +107,8 @@ SHORT_HOP_KM = 2.0
 WET_FADE_MAX_DB = 8.0
 
 
-def _f(value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        return math.nan
-    return v
 
 
-def _fmt_duration(seconds: float) -> str:
-    if seconds < 120:
-        return f"{seconds:.0f}-s"
-    if seconds < 3 * 3600:
-        return f"{seconds / 60:.0f}-min"
-    return f"{seconds / 3600:.1f}-h"
 
 
 def _clip(x: float) -> float:
@@ -138,7 +128,7 @@ def _level_shift(row) -> tuple[str, float, str]:
     step = _f(row["step_db"])
     conf = _clip(0.6 + 0.06 * size)
     return (S.LEVEL_SHIFT, conf,
-            f"clear-sky level {size:.1f} dB below its best for {_fmt_duration(_f(row['duration_s']))} "
+            f"clear-sky level {size:.1f} dB below its best for {duration_word(_f(row['duration_s']))} "
             f"after an abrupt persistent step of {step:+.1f} dB at {row['start_utc']:%Y-%m-%d %H:%M} UTC")
 
 
@@ -151,7 +141,7 @@ def _classify_row(row, link: Link, config: AnalysisConfig) -> tuple[str, float, 
     peak_rep = _f(row["peak_fade_db"])
     floor_frac = _f(row["floor_fraction"])
     pre_floor = _f(row["pre_floor_fade_db"])
-    shape = _fmt_duration(dur)
+    shape = duration_word(dur)
     # 2. signal loss ------------------------------------------------------------------------------------------
     if floor_frac >= 0.5 and (not math.isfinite(pre_floor) or pre_floor < 6.0):
         before = f"{pre_floor:.1f} dB" if math.isfinite(pre_floor) else "no sample"

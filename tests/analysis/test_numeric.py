@@ -60,3 +60,11 @@ def test_round_sig_matches_g_formatting():
     assert round_sig(math.nan) is None and round_sig(math.inf) is None
     assert math.copysign(1.0, round_sig(-0.0)) == 1.0
     assert math.copysign(1.0, round_sig(-0.0, keep_negative_zero=True)) == -1.0
+
+
+def test_as_float_and_duration_word():
+    # project helpers for event-table cells and evidence words (no outside source needed)
+    from diag.numeric import as_float, duration_word
+
+    assert as_float("2.5") == 2.5 and np.isnan(as_float(None)) and np.isnan(as_float("x"))
+    assert [duration_word(s) for s in (45, 1200, 9000)] == ["45-s", "20-min", "2.5-h"]
