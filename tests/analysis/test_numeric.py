@@ -67,4 +67,4 @@ def test_as_float_and_duration_word():
     from diag.numeric import as_float, duration_word
 
     assert as_float("2.5") == 2.5 and np.isnan(as_float(None)) and np.isnan(as_float("x"))
-    assert [duration_word(s) for s in (45, 1200, 9000)] == ["45-s", "20-min", "2.5-h"]
+    assert [duration_word(s) for s in (45, 1200, 9000, 12600)] == ["45-s", "20-min", "150-min", "3.5-h"]
