@@ -74,16 +74,25 @@ def _thin(n: int, most: int) -> np.ndarray:
     return np.arange(n) if n <= most else np.linspace(0, n - 1, most).astype(int)
 
 
-def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, arrays=None) -> dict:
-    """Rice K (moments and MLE) over the channel's multipath periods; envelope relative to the local mean."""
+def _envelope(series, arrays, local_mean_s: float, not_sampled: str):
+    """``(arrays, periods, relative level, period mask)`` of a sampled channel's multipath periods, or a
+    ``{"skipped": why}`` dict (a statistics log, or no multipath)."""
     arrays = arrays or StatArrays(series)
     if series.kind != "sample":
-        return {"skipped": "statistics log: the envelope is not sampled"}
+        return {"skipped": not_sampled}
     periods = multipath_periods(arrays, series.interval_s)
     if not periods:
         return {"skipped": "no samples classified multipath"}
     rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
-    mask = _period_mask(arrays, periods)
+    return arrays, periods, rel, _period_mask(arrays, periods)
+
+
+def rice_block(series, *, local_mean_s: float = 900.0, min_samples: int = 60, arrays=None) -> dict:
+    """Rice K (moments and MLE) over the channel's multipath periods; envelope relative to the local mean."""
+    got = _envelope(series, arrays, local_mean_s, "statistics log: the envelope is not sampled")
+    if isinstance(got, dict):
+        return got
+    arrays, periods, rel, mask = got
     per_period = []
     for a, b in (periods[:20] if len(periods) > 1 else []):
         part = rel[a:b][mask[a:b] & np.isfinite(rel[a:b])]
@@ -144,14 +153,11 @@ def lcr_block(series, *, levels_db=LCR_LEVELS_DB, local_mean_s: float = 900.0, m
               arrays=None, rice_k: float | None = None) -> dict:
     """Level-crossing rate and average fade duration over multipath periods vs Rayleigh with a fitted f_m (and
     vs Rice with the measured ``rice_k`` when given)."""
-    arrays = arrays or StatArrays(series)
-    if series.kind != "sample":
-        return {"skipped": "statistics log: crossings cannot be counted"}
-    periods = multipath_periods(arrays, series.interval_s)
-    if not periods:
-        return {"skipped": "no samples classified multipath"}
-    rel = _relative_db(arrays, series.interval_s, local_mean_s, periods)
-    mask = _period_mask(arrays, periods) & ~np.isnan(rel)
+    got = _envelope(series, arrays, local_mean_s, "statistics log: crossings cannot be counted")
+    if isinstance(got, dict):
+        return got
+    arrays, periods, rel, mask = got
+    mask = mask & ~np.isnan(rel)
     dt = series.interval_s
     total_s = float(mask.sum() * dt)
     if total_s <= 0:
