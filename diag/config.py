@@ -45,8 +45,8 @@ class AnalysisConfig:
     # rain plausibility
     rain_plausible_max_mmh: float = 200.0   # path-average rain rate above this is not rain (common practice: beyond
     #                                         the highest 1-min rates in ITU-R P.837 maps, from memory)
-    # cause attribution: "rules" (the ordered rulebook, diag.analysis.rulebook; the default) or "posterior" (P.530 /
-    # P.838 hop priors times bounded evidence terms, diag.analysis.classify; better on the independent simulator
-    # family and on wet real minutes, but it calls more dry-weather dips rain: not the default until it meets the
-    # real-data bars, docs/validation.md)
-    attribution: str = "rules"
+    # cause attribution: "posterior" (the default: ITU-R P.530 / P.838 hop priors times bounded evidence terms,
+    # diag.analysis.classify and diag.analysis.attribution) or "rules" (the older ordered rulebook,
+    # diag.analysis.rulebook, kept for comparison; it names causes the hop's physics rules out and calls most
+    # real rain something else: docs/validation.md)
+    attribution: str = "posterior"

@@ -8,7 +8,7 @@ For each fade event (not a level shift, not a loss of signal: those are equipmen
 - ``prior_c(A)``: the share of the year the hop spends between A - 1 and A + 1 dB by mechanism c, from ITU-R
   P.530 §2.3/§2.4 with P.838 and a wet-antenna loss (:mod:`diag.analysis.priors`);
 - ``term_k``: bounded log-likelihood terms, one small function each below, with its source in its docstring.  Each
-  returns a vector over the three causes (only differences matter) and a short text with the numbers, or None when
+  returns a vector over the three causes and "other" (only differences matter) and a short text, or None when
   the data cannot say anything (a term that the sampling interval cannot resolve is absent, so coarser data keep
   the same decision with less evidence: a lower confidence, not another cause);
 - hard physics limits: a cause whose P.530 time share at this depth is negligible on this hop
@@ -71,8 +71,10 @@ def _clip(x: float, lo: float, hi: float) -> float:
     return float(min(hi, max(lo, x)))
 
 
-def _v(rain: float, multipath: float, refractive: float) -> np.ndarray:
-    return np.array([rain, multipath, refractive], dtype=float)
+def _v(rain: float, multipath: float, refractive: float, other: float = 0.0) -> np.ndarray:
+    """A term's log-likelihood vector over (rain, multipath, refractive, other); "other" (a dip that is no
+    propagation fade: equipment, reference wander) is neutral unless the term says how such dips behave."""
+    return np.array([rain, multipath, refractive, other], dtype=float)
 
 
 def _sampling(row) -> str:
@@ -98,7 +100,7 @@ def term_fast(row, link: Link, prior: HopPrior):
         return None
     excess = math.sqrt(max(fast ** 2 - (noise ** 2 / 2.0 if math.isfinite(noise) else 0.0), 1e-6))
     s = _clip(math.log2(max(excess, 1e-3) / (0.3 + 0.08 * mean)), -2.0, 2.0)
-    return _v(-s, s, -s), f"fast fluctuation {fast:.2f} dB rms"
+    return _v(-s, s, -s, -s), f"fast fluctuation {fast:.2f} dB rms"
 
 
 def term_variability(row, link: Link, prior: HopPrior):
@@ -113,7 +115,7 @@ def term_variability(row, link: Link, prior: HopPrior):
     if not math.isfinite(var) or not (dur >= 3 * step):
         return None
     s = _clip(math.log2(max(var, 1e-3) / (0.5 + 0.35 * mean)), -2.0, 2.0)
-    return _v(-s, s, -s), f"sample-to-sample change {var:.1f} dB"
+    return _v(-s, s, -s, -s), f"sample-to-sample change {var:.1f} dB"
 
 
 def term_spread(row, link: Link, prior: HopPrior):
@@ -132,7 +134,7 @@ def term_spread(row, link: Link, prior: HopPrior):
         text = f"15-min spread {spread:.1f} dB, average {ratio:.0%} of the minimum's fade"
     else:
         text = f"15-min spread {spread:.1f} dB"
-    return _v(-s, s, -s), text
+    return _v(-s, s, -s, -s), text
 
 
 def term_upfade(row, link: Link, prior: HopPrior):
@@ -168,7 +170,8 @@ def term_polarisation(row, link: Link, prior: HopPrior):
     sigma = 0.05 + 0.6 / fade
     ll = _v(-0.5 * ((vh - expected_wet) / sigma) ** 2, -0.5 * ((vh - 1.0) / max(sigma, 0.3)) ** 2
             - math.log(max(sigma, 0.3) / sigma), -0.5 * ((vh - 1.0) / sigma) ** 2)
-    ll = np.clip(ll - ll.max(), -3.0, 0.0)
+    ll = np.clip(ll - ll[:3].max(), -3.0, 0.0)
+    ll[OTHER] = 0.0   # a dip that is no propagation fade: the ratio says nothing about it
     return ll, f"V/H attenuation ratio {vh:.2f} (P.838 rain {expected_wet:.2f} with wet antennas, clear air 1.00)"
 
 
@@ -183,6 +186,28 @@ def term_decorrelation(row, link: Link, prior: HopPrior):
         return None
     s = _clip((0.8 - corr) / 0.2, -1.0, 2.0)
     return _v(-s, s, -s), f"correlation with the other channel {corr:.2f}"
+
+
+def term_companion(row, link: Link, prior: HopPrior):
+    """The other direction of the same path NOT fading (two channels of one polarisation; the H/V pair is judged by
+    :func:`term_polarisation`): rain, wet antennas and refraction sit on the path and antennas both directions
+    share, so both fade (reciprocity; across a 1-GHz duplex split near 25 GHz P.838-3 k differs by about 10 %).
+    Multipath is frequency-selective and may fade one direction only (P.530 §2.3 frequency-diversity improvement
+    rests on this); an equipment fault hits one direction.  Real duplex pairs in rain differ more than P.838 says
+    (one end's wet radome, ATPC, the receiver floor: ratios of 0.3-3 are seen in heavy rain), so the term speaks
+    only when the partner barely moved: ``partner_ratio`` (the partner's attenuation over this channel's deep
+    samples) below 0.45 AND the partner's own deep fade (ratio x 0.75 x peak, the deep samples lying between half
+    the peak and the peak) under 2.5 dB.  -1 per 0.1 of ratio below 0.45 times the share of 1 dB by which the
+    partner stayed under 2.5 dB; bounded to -3..0 for rain and refraction (weight 1, not fitted)."""
+    ratio = _f(row.get("partner_ratio"))
+    if not math.isfinite(ratio) or math.isfinite(_f(row.get("v_over_h_ratio"))):
+        return None
+    peak = max(_f(row.get("peak_fade_db_finite")), 3.0)
+    partner_db = max(ratio, 0.0) * 0.75 * peak
+    s = _clip((0.45 - ratio) / 0.1, 0.0, 3.0) * _clip(2.5 - partner_db, 0.0, 1.0)
+    if s <= 0.0:
+        return None
+    return _v(-s, 0.0, -s), f"the other direction faded {max(ratio, 0.0):.0%} as much (about {partner_db:.1f} dB)"
 
 
 def term_duration(row, link: Link, prior: HopPrior):
@@ -277,13 +302,19 @@ def term_network(row, link: Link, prior: HopPrior):
     """Other hops of the network fading in the same minutes (column ``network_share``, distance-weighted share
     from :mod:`diag.analysis.network`): rain is weather and fades neighbouring hops together, clear-air fading is
     hop-local (docs/references.md §8, "Neighbouring hops"; Overeem et al. 2016 nearby-link method).  Up to +2
-    for rain at a share of 0.2 or more; -0.3 when three or more other hops were watched and none faded."""
+    for rain at a share of 0.2 or more, scaled by ``network_faded_weight`` up to 1; -0.3 when three or more other
+    hops were watched and none faded."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
     if share <= 0.0:
         return (_v(-0.3, 0.0, 0.0), f"none of {others:.0f} other hops faded") if others >= 3 else None
-    return _v(2.0 * min(1.0, share / 0.2), 0.0, 0.0), f"{share:.0%} of the network's other hops faded with it"
+    # the evidence rests on the hops that faded, weighted by nearness (1 each without coordinates): one faded hop
+    # at 0 km, or several further off, give the full term; hops 50 km away fading in a regional storm give little
+    mass = _f(row.get("network_faded_weight"))
+    near = min(1.0, mass) if math.isfinite(mass) else 1.0
+    return (_v(2.0 * min(1.0, share / 0.2) * near, 0.0, 0.0),
+            f"{share:.0%} of the network's other hops faded with it")
 
 
 def term_context(row, link: Link, prior: HopPrior):
@@ -298,7 +329,8 @@ def term_context(row, link: Link, prior: HopPrior):
 
 TERMS: dict[str, Callable] = {
     "fast": term_fast, "variability": term_variability, "spread": term_spread, "upfade": term_upfade,
-    "polarisation": term_polarisation, "decorrelation": term_decorrelation, "duration": term_duration,
+    "polarisation": term_polarisation, "decorrelation": term_decorrelation, "companion": term_companion,
+    "duration": term_duration,
     "shape": term_shape, "hour": term_hour, "gauge": term_gauge, "network": term_network, "context": term_context,
 }
 
@@ -342,7 +374,7 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
         for name, fn in TERMS.items():
             got = fn(row, link, prior)
             if got is not None:
-                terms[name][i, :3] = got[0]
+                terms[name][i, :] = got[0]
                 texts[name][i] = got[1]
     allowed = np.ones((n, 4), dtype=bool)
     if n:
@@ -428,7 +460,7 @@ def prepare(rows: list[dict], link: Link, prior: HopPrior | None = None, weights
         for i, row in enumerate(rows):
             row["multipath_nearby"] = near[i]
             got = term_context(row, link, prior)
-            terms["context"][i, :3] = got[0] if got else 0.0
+            terms["context"][i, :] = got[0] if got else 0.0
             texts["context"][i] = got[1] if got else ""
     return base, terms, texts, allowed, _group_ids(rows)
 

@@ -7,7 +7,9 @@ refractive fading depend on each hop's own geometry and are hop-local (docs/refe
 
 For each fade event of a hop, the other hops analysed with it are asked whether they faded (attenuation above
 ``FADED_DB`` or the receiver at its floor) in any minute from ``MARGIN_S`` before the event to ``MARGIN_S`` after
-it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then.
+it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then,
+``network_faded_weight`` the summed weights of those that faded (how much near evidence the share rests on: hops
+far away fading in a regional storm say little about this path).
 Weights: exp(-distance / ``CORRELATION_KM``) between path midpoints when the links table gives both hops' site
 coordinates (rain fields decorrelate over tens of km: convective cells of a few km, fronts of tens of km; 20 km
 is a stated choice), else 1 (the plain share of the network's hops).  The term that reads them is
@@ -32,18 +34,24 @@ __all__ = ["faded_minutes", "network_columns", "corroborate", "FADED_DB", "MARGI
 FADED_DB = 3.0
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
+NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight")
+HOP_LOCAL = (S.MULTIPATH, S.LEVEL_SHIFT, S.SIGNAL_LOSS)   # causes that never fade a neighbouring hop with this one
 
 
 def faded_minutes(result) -> pd.Series:
-    """Per UTC minute: True when any channel of the hop was faded (boolean Series on a minute index)."""
+    """Per UTC minute: True when any channel of the hop was faded by something that may be weather (boolean Series
+    on a minute index).  Samples the hop's own analysis put down to a hop-local cause (``HOP_LOCAL``: multipath,
+    a level shift, equipment signal loss) do not count: a neighbour's multipath night is no rain evidence."""
     parts = []
     for series in result.series.values():
         frame = series.frame
         col = "attenuation_peak_db" if series.kind == "stats" and "attenuation_peak_db" in frame else "attenuation_db"
         att = frame[col].to_numpy(dtype=float, na_value=np.nan)
         lost = (frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
+        local = (frame["cause"].astype(object).isin(HOP_LOCAL).to_numpy(dtype=bool) if "cause" in frame
+                 else np.zeros(len(frame), dtype=bool))
         with np.errstate(invalid="ignore"):
-            faded = (att > FADED_DB) | lost
+            faded = ((att > FADED_DB) | lost) & ~local
         seen = np.isfinite(att) | lost
         idx = pd.DatetimeIndex(frame.index).floor("1min")
         part = pd.DataFrame({"faded": faded, "seen": seen}, index=idx).groupby(level=0).max()
@@ -76,8 +84,10 @@ def network_columns(events: pd.DataFrame, link: Link, others: Sequence[tuple[Lin
     """``network_share`` and ``network_hops`` for each event of ``events`` (NaN / 0 for non-fade events)."""
     share = np.full(len(events), np.nan)
     hops = np.zeros(len(events))
+    mass = np.zeros(len(events))
     if not len(events) or not others:
-        return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
+        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass},
+                            index=events.index)
     mine = _midpoint(link)
     weights = []
     for other, _ in others:
@@ -99,8 +109,9 @@ def network_columns(events: pd.DataFrame, link: Link, others: Sequence[tuple[Lin
             den += w
             num += w * float(bool(part.any()))
         if n:
-            share[i], hops[i] = num / den, n
-    return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
+            share[i], hops[i], mass[i] = num / den, n, num
+    return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass},
+                        index=events.index)
 
 
 def corroborate(results: list, *, config=None, gauge=None, rerun=None) -> list:
@@ -119,7 +130,7 @@ def corroborate(results: list, *, config=None, gauge=None, rerun=None) -> list:
         if not len(events):
             continue
         others = [(o.link, minutes[id(o)]) for o in ok if o is not r]
-        base = events.drop(columns=[c for c in ("network_share", "network_hops") if c in events], errors="ignore")
+        base = events.drop(columns=[c for c in NETWORK_COLUMNS if c in events], errors="ignore")
         extra = network_columns(base, r.link, others)
         gauge_cols = [c for c in base.columns if c.startswith("gauge_") and c != "gauge_rain_mmh"]
         rescored = classify_events(pd.concat([base.drop(columns=gauge_cols), extra], axis=1), r.link, config=config)

@@ -52,10 +52,10 @@ def register(subparsers) -> None:
                         help="analyse only the hops of the links table; rows of other hops are skipped and counted "
                              "(unlisted_hop) instead of being an error")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
-    parser.add_argument("--attribution", choices=("rules", "posterior"), default="rules",
-                        help="how causes are named: the default rulebook, or the physics posterior (ITU-R "
-                             "P.530/P.838 hop priors times measured evidence; not yet the default, see "
-                             "docs/validation.md)")
+    parser.add_argument("--attribution", choices=("posterior", "rules"), default="posterior",
+                        help="how causes are named: the physics posterior (the default: ITU-R P.530/P.838 hop "
+                             "priors times measured evidence), or the older rulebook kept for comparison "
+                             "(docs/validation.md)")
     from diag.commands.ingest import add_reader_overrides
 
     add_reader_overrides(parser, with_link_id=False)    # the same reader flags as ingest (issue 16)
