@@ -193,9 +193,9 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
             add_reference(item, config)
     spans = [span for item in items for span in level_shift_spans(item, config)]
     events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
-    if config.attribution == "posterior":   # the physics posterior (diag.analysis.classify)
+    if config.attribution == "posterior":   # the default: the physics posterior (diag.analysis.classify)
         events = classify_events(add_evidence(events, series), link, config=config)
-    else:                                  # the default rulebook (diag.analysis.rulebook)
+    else:                                  # the older rulebook (diag.analysis.rulebook), for comparison
         events = rulebook.classify_events(events, link, config=config)
     paint_series(series, events)
     result = LinkResult(link=link, series=series, events=events, ingest=ingest or {})

@@ -53,14 +53,14 @@ class HopFactory:
             self._sims[key] = simulate_link(spec, seed=seed)
         return self._sims[key]
 
-    def analysed(self, spec_or_scenario, seed: int = 0, link: int = 0):
-        """(sim, diag.pipeline.analyze_link(sim.table, sim.link)), both cached."""
+    def analysed(self, spec_or_scenario, seed: int = 0, link: int = 0, config=None):
+        """(sim, diag.pipeline.analyze_link(sim.table, sim.link, config=config)), both cached."""
         from diag.pipeline import analyze_link
 
         sim = self.sim(spec_or_scenario, seed, link)
-        key = (repr(sim.spec), seed)
+        key = (repr(sim.spec), seed, repr(config))
         if key not in self._results:
-            self._results[key] = analyze_link(sim.table, sim.link)
+            self._results[key] = analyze_link(sim.table, sim.link, config=config)
         return sim, self._results[key]
 
     def truth(self, spec_or_scenario, seed: int = 0, link: int = 0):

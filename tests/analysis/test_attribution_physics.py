@@ -27,7 +27,7 @@ START = pd.Timestamp("2026-03-02T00:00:00Z")
 
 
 
-POSTERIOR = AnalysisConfig(attribution="posterior")   # the physics attribution under test (opt-in for now)
+POSTERIOR = AnalysisConfig(attribution="posterior")   # the physics attribution under test (the default)
 
 def _link(f, d, pol="H", **extra):
     return make_link({"link_id": "T", "frequency_ghz": f, "length_km": d, "polarization": pol,

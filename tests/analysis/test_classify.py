@@ -15,6 +15,7 @@ import pytest
 
 from diag import schema as S
 from diag.analysis.rulebook import STATS_CONFIDENCE_FACTOR
+from diag.config import AnalysisConfig
 from diag.pipeline import analyze_link
 from diag.sim.simulate import Effect, LinkSpec, aggregate_statistics
 
@@ -82,11 +83,27 @@ def test_rain_evidence_names_the_p838_ratio(analysed):
     assert rain["evidence"].str.contains("mm/h").any()
 
 
-def test_fifteen_minute_statistics_lower_confidence(analysed):
+RULES = AnalysisConfig(attribution="rules")   # the older rulebook, kept beside the default posterior
+
+
+def test_fifteen_minute_statistics_same_cause(analysed):
+    """The default posterior: 15-min statistics of the same hop keep the cause (issue 14: "the same cause for the
+    same fade wherever the data can tell") and say that they are statistics."""
     for cause in (S.RAIN, S.REFRACTIVE, S.MULTIPATH):
         sim, result = analysed[cause]
         stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
         result15 = analyze_link(stats, sim.link)
+        called = result15.events[result15.events["cause"] == cause]
+        assert len(called), f"15-min statistics: no {cause} event"
+        assert called["evidence"].str.contains("15-min statistics").all()
+        assert _agreement(result15, sim, cause) >= 0.75
+
+
+def test_fifteen_minute_statistics_lower_confidence_rulebook(analysed):
+    for cause in (S.RAIN, S.REFRACTIVE, S.MULTIPATH):
+        sim, result = analysed[cause]
+        stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
+        result15 = analyze_link(stats, sim.link, config=RULES)
         called = result15.events[result15.events["cause"] == cause]
         assert len(called), f"15-min statistics: no {cause} event"
         # every verdict from 15-min statistics carries the reduced confidence and says so
@@ -106,8 +123,8 @@ def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
     wet_path, dry_path = tmp_path / "wet.csv", tmp_path / "dry.csv"
     wet.to_csv(wet_path, index=False)
     dry.to_csv(dry_path, index=False)
-    with_wet = analyze_link(sim.table, sim.link, gauge=wet_path).events
-    with_dry = analyze_link(sim.table, sim.link, gauge=dry_path).events
+    with_wet = analyze_link(sim.table, sim.link, gauge=wet_path, config=RULES).events
+    with_dry = analyze_link(sim.table, sim.link, gauge=dry_path, config=RULES).events
     rain_wet = with_wet[with_wet["cause"] == S.RAIN]
     assert len(rain_wet) and (rain_wet["gauge_verdict"] == "confirmed").all()
     assert rain_wet["evidence"].str.contains("gauge").all()
@@ -115,3 +132,25 @@ def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
     # a dry gauge lowers the confidence of the same events (and the gauge check reports it)
     assert dry_rows["confidence"].mean() < rain_wet["confidence"].mean()
     assert set(dry_rows["gauge_verdict"]) <= {"refuted", "consistent", "unclear"}
+
+
+def test_gauge_term_in_the_posterior(analysed, tmp_path):
+    """The default posterior reads a given gauge as one bounded term: rain at the gauge is quoted for the rain
+    events, a dry gauge is quoted too and never raises the rain confidence."""
+    sim, _ = analysed[S.RAIN]
+    start = sim.spec.start_utc
+    times = pd.date_range(start, periods=12 * 4 + 1, freq="15min")
+    wet = pd.DataFrame({"time": times.strftime("%Y-%m-%dT%H:%M:%SZ"),
+                        "rain_mmh": np.where((times >= start + pd.Timedelta(hours=5))
+                                             & (times <= start + pd.Timedelta(hours=7)), 20.0, 0.0)})
+    wet_path, dry_path = tmp_path / "wet.csv", tmp_path / "dry.csv"
+    wet.to_csv(wet_path, index=False)
+    wet.assign(rain_mmh=0.0).to_csv(dry_path, index=False)
+    with_wet = analyze_link(sim.table, sim.link, gauge=wet_path).events
+    with_dry = analyze_link(sim.table, sim.link, gauge=dry_path).events
+    rain_wet = with_wet[with_wet["cause"] == S.RAIN]
+    assert len(rain_wet) and (rain_wet["gauge_verdict"] == "confirmed").all()
+    assert rain_wet["evidence"].str.contains("gauge 20.0 mm/h").all()
+    dry_rows = with_dry[with_dry["start_utc"].isin(rain_wet["start_utc"])]
+    assert len(dry_rows) and dry_rows["evidence"].str.contains("gauge dry").all()
+    assert (dry_rows["confidence"].to_numpy() <= rain_wet["confidence"].to_numpy() + 1e-9).all()

@@ -8,7 +8,12 @@ What is checked (the issue: "fades coinciding with gauge rain should be called r
 not"), on minutes when the hop was faded (attenuation > 3 dB on a sub-link, or the receiver at its floor):
 - *wet* minutes: the gauge measured >= 0.2 mm in the 15-min interval or a neighbouring one (>= 0.8 mm/h);
 - *dry* minutes: the gauge measured 0 mm over +-1 h (nine intervals, all present); *dry-day* minutes are those of
-  them on the data set's dry days 14-16 Aug, and *dry nights* those between 20:00 and 06:00 UTC.
+  them on the data set's dry days 14-16 Aug, and *dry nights* those between 20:00 and 06:00 UTC;
+- *network-dry* minutes (``dry_net``): in addition, EVERY gauge of the network within ``NET_RADIUS_KM`` of the path
+  midpoint with data over those +-1 h measured 0 mm.  The nearest gauge is a point: on 15-16 Aug isolated
+  showers faded links 306 and 525 for 15-50 min on both sub-links while their nearest gauges stayed dry and gauges
+  4-10 km away recorded 1-9 mm (docs/realdata-dry-check.md).  The dry-weather bars are set on this label; the
+  nearest-gauge figures are asserted too, with the measured values beside them.
 Gauges sit 0.2-2.2 km from the path midpoints; a convective shower can fade a link and miss the gauge (and the
 other way round), so perfect agreement is not expected.  Thresholds are set a little below the figures measured
 when this test was written (listed beside each); they are regression bars, not claims of accuracy elsewhere.
@@ -56,8 +61,40 @@ def load_link(base: Path, cml: int):
     return pd.concat(tables, ignore_index=True), link, gauge, first
 
 
-def minute_labels(result, gauge: pd.DataFrame, *, wet_mm: float = 0.2) -> pd.DataFrame:
-    """Per minute: faded?, the cause of the deeper sub-link, and whether the gauge says wet or dry."""
+NET_RADIUS_KM = 10.0   # a stated choice: convective cells are a few km across, a 17-km path reaches 8.5 km out
+
+
+def _km(lat1, lon1, lat2, lon2):
+    """Great-circle distance (haversine, Earth radius 6371 km), vectorised over the second point."""
+    la1, lo1, la2, lo2 = map(np.radians, (lat1, lon1, np.asarray(lat2, float), np.asarray(lon2, float)))
+    h = np.sin((la2 - la1) / 2) ** 2 + np.cos(la1) * np.cos(la2) * np.sin((lo2 - lo1) / 2) ** 2
+    return 2 * 6371.0 * np.arcsin(np.sqrt(h))
+
+
+def network_dry(meta_row, minutes: pd.DatetimeIndex, base: Path = DATA) -> np.ndarray:
+    """Per minute: every gauge within NET_RADIUS_KM of the path midpoint that has all nine intervals of +-1 h
+    measured 0 mm, and at least one such gauge (``gauges_within_10km_*.csv``; labels mark the interval end)."""
+    gmeta = pd.read_csv(base / "gauges_within_10km_metadata.csv")
+    lat = (meta_row["site_0_lat"] + meta_row["site_1_lat"]) / 2.0
+    lon = (meta_row["site_0_lon"] + meta_row["site_1_lon"]) / 2.0
+    near = gmeta[_km(lat, lon, gmeta["lat"], gmeta["lon"]) <= NET_RADIUS_KM]["gauge_id"].tolist()
+    table = pd.read_csv(base / "gauges_within_10km_15min_mm.csv")
+    table.index = pd.to_datetime(table.pop("time_utc_end_of_interval"), utc=True) - pd.Timedelta("15min")
+    start = minutes.floor("15min")
+    seen = np.zeros(len(minutes), dtype=int)
+    rained = np.zeros(len(minutes), dtype=bool)
+    for gid in near:
+        mm = table[gid]
+        full = mm.rolling(9, center=True, min_periods=9).count().reindex(start).to_numpy() == 9
+        wet = mm.rolling(9, center=True, min_periods=9).max().reindex(start).to_numpy() > 0.0
+        seen += full
+        rained |= full & wet
+    return (seen > 0) & ~rained
+
+
+def minute_labels(result, gauge: pd.DataFrame, *, wet_mm: float = 0.2, meta_row=None) -> pd.DataFrame:
+    """Per minute: faded?, the cause of the deeper sub-link, and whether the gauge says wet or dry (and, given the
+    link's metadata row, whether the gauges within NET_RADIUS_KM all say dry)."""
     frames = {ch: s.frame for ch, s in result.series.items()}
     att = pd.concat({ch: f["attenuation_db"].astype(float) for ch, f in frames.items()}, axis=1)
     lost = pd.concat({ch: f["status"].astype(str) == "signal_lost" for ch, f in frames.items()}, axis=1)
@@ -71,7 +108,9 @@ def minute_labels(result, gauge: pd.DataFrame, *, wet_mm: float = 0.2) -> pd.Dat
     start = faded.index.floor("15min")
     wet = mm15.rolling(3, center=True, min_periods=1).max().reindex(start).to_numpy() >= wet_mm
     dry = mm15.rolling(9, center=True, min_periods=9).max().reindex(start).to_numpy() == 0.0
-    return pd.DataFrame({"faded": faded.to_numpy(), "label": label, "wet": wet, "dry": dry}, index=faded.index)
+    dry_net = dry & network_dry(meta_row, faded.index) if meta_row is not None else dry
+    return pd.DataFrame({"faded": faded.to_numpy(), "label": label, "wet": wet, "dry": dry, "dry_net": dry_net},
+                        index=faded.index)
 
 
 def agreement(base: Path, links, *, gauge_in_analysis: bool = False) -> pd.DataFrame:
@@ -82,11 +121,13 @@ def agreement(base: Path, links, *, gauge_in_analysis: bool = False) -> pd.DataF
     for cml in links:
         table, link, gauge, meta = load_link(base, cml)
         result = analyze_link(table, link, gauge=gauge if gauge_in_analysis else None)
-        m = minute_labels(result, gauge)
+        m = minute_labels(result, gauge, meta_row=meta)
         wet = m[m.faded & m.wet]
         dry = m[m.faded & m.dry]
         dry_days = dry[dry.index < DRY_DAYS_END]                     # the data set's dry days, 14-16 Aug
         night = dry_days[(dry_days.index.hour >= 20) | (dry_days.index.hour < 6)]
+        net = m[m.faded & m.dry_net]
+        net_days = net[net.index < DRY_DAYS_END]
         rain_events = result.events[result.events["cause"] == "rain"]
         verdicts = check_rain_verdicts(rain_events, gauge)["gauge_verdict"].value_counts()
         rows.append({"link": cml, "length_km": float(meta["length_km"]),
@@ -95,6 +136,9 @@ def agreement(base: Path, links, *, gauge_in_analysis: bool = False) -> pd.DataF
                      "dry_faded_min": len(dry), "dry_called_rain": int((dry.label == "rain").sum()),
                      "dry_day_faded_min": len(dry_days), "dry_day_called_rain": int((dry_days.label == "rain").sum()),
                      "dry_night_faded_min": len(night), "dry_night_called_rain": int((night.label == "rain").sum()),
+                     "net_dry_faded_min": len(net), "net_dry_called_rain": int((net.label == "rain").sum()),
+                     "net_dry_day_faded_min": len(net_days),
+                     "net_dry_day_called_rain": int((net_days.label == "rain").sum()),
                      "rain_events": len(rain_events), "confirmed": int(verdicts.get("confirmed", 0)),
                      "refuted": int(verdicts.get("refuted", 0))})
     return pd.DataFrame(rows)
@@ -132,36 +176,46 @@ def test_gauge_labels_mark_interval_end():
 
 def test_faded_minutes_under_gauge_rain_are_called_rain(table):
     assert table[table["link"].isin(RAIN_LINKS)]["wet_faded_min"].sum() > 1000
-    # measured 2026-12-02: 1734 of 1838 (0.94) wet faded minutes on the 6 rain links
+    # measured 2026-12-04 (default posterior): 1802 of 1838 (0.98) wet faded minutes on the 6 rain links
+    # (the older rulebook: 1734 of 1838, 0.94)
     assert _share(table, "wet_called_rain", "wet_faded_min", RAIN_LINKS) >= 0.90
 
 
 def test_dry_days_and_nights_not_called_rain(table):
-    assert table["dry_day_faded_min"].sum() > 100 and table["dry_night_faded_min"].sum() > 50
-    # measured: 0 of 117 faded minutes on the dry days 14-16 Aug (87 of them at night, on link 275, where the data
-    # set's notes describe clear-air swings of -68..-44 dBm)
-    assert _share(table, "dry_day_called_rain", "dry_day_faded_min") <= 0.05
+    assert table["net_dry_day_faded_min"].sum() > 50 and table["dry_night_faded_min"].sum() > 50
+    # measured 2026-12-04: network-dry minutes of the dry days 14-16 Aug 1 of 87 (all on link 275, whose nights
+    # the data set's notes describe as clear-air swings of -68..-44 dBm); dry-day nights 1 of 87
+    assert _share(table, "net_dry_day_called_rain", "net_dry_day_faded_min") <= 0.05
     assert _share(table, "dry_night_called_rain", "dry_night_faded_min") <= 0.05
+    # nearest gauge alone: 31 of 117 (0.26): 30 of them in the 15-16 Aug showers on 306 and 525 that gauges
+    # 4-10 km away recorded (docs/realdata-dry-check.md); a regression bar, not a claim
+    assert _share(table, "dry_day_called_rain", "dry_day_faded_min") <= 0.30
 
 
 def test_gauge_dry_minutes_mostly_not_rain(table):
-    # any day, gauge 0 mm over +-1 h: measured 13 of 155 (2026-12-02), all on link 142, 18 Aug 20:06-20:46 (24 dB,
-    # 40 min, both sub-links, in the middle of the rainy days): most likely a shower the gauge 1.2 km away missed
-    assert table["dry_faded_min"].sum() > 100
-    assert _share(table, "dry_called_rain", "dry_faded_min") <= 0.15
+    # any day, every gauge within 10 km at 0 mm over +-1 h: measured 11 of 104 (2026-12-04), all on link 275 on
+    # 19 Aug (3-4 dB dips analysed with the link alone; no gauge within 10 km but one)
+    assert table["net_dry_faded_min"].sum() > 100
+    assert _share(table, "net_dry_called_rain", "net_dry_faded_min") <= 0.15
+    # nearest gauge alone: 62 of 155 (0.40), the showers above and 142 on 18 Aug 20:06-20:46 (24 dB, both
+    # sub-links, gauges 8.9 and 9.9 km away wet); a regression bar, not a claim
+    assert _share(table, "dry_called_rain", "dry_faded_min") <= 0.45
 
 
 def test_rain_events_mostly_confirmed_by_gauge(table):
-    # measured 2026-12-02: 69 of 70 rain events on the 6 rain links confirmed (gauge >= 0.5 mm/h within +-15 min)
+    # measured 2026-12-04: 113 of 129 rain events on the 7 links confirmed (gauge >= 0.5 mm/h within +-15 min)
+    # (the older rulebook 2026-12-02: 69 of 70 on the 6 rain links)
     assert _share(table, "confirmed", "rain_events", RAIN_LINKS) >= 0.85
 
 
 def test_with_gauge_given_verdicts_follow_it(table_with_gauge):
     t = table_with_gauge
-    # measured 2026-12-02: wet 1810 of 1838 (0.98); dry days 0 of 117; events confirmed 103 of 105
+    # the gauge is one bounded term of the posterior (rain +1.5, dry -1.0: a point gauge misses cells crossing the
+    # path, as it did on 15-16 Aug).  Measured 2026-12-04: wet 1814 of 1838; network-dry days 0 of 87; rain
+    # events confirmed 107 of 119 (0.90; the refuted ones are mostly the showers the nearest gauge missed)
     assert _share(t, "wet_called_rain", "wet_faded_min", RAIN_LINKS) >= 0.95
-    assert _share(t, "dry_day_called_rain", "dry_day_faded_min") <= 0.05
-    assert _share(t, "confirmed", "rain_events", RAIN_LINKS) >= 0.90
+    assert _share(t, "net_dry_day_called_rain", "net_dry_day_faded_min") <= 0.05
+    assert _share(t, "confirmed", "rain_events", RAIN_LINKS) >= 0.85
 
 
 if __name__ == "__main__":   # print the agreement table (docs/validation.md §6)
