@@ -70,7 +70,7 @@ def _equipment(row) -> tuple[str, float, str] | None:
                 f"{shape} at the receiver floor: level within 2 dB of its lowest reading for "
                 f"{_f(row['near_floor_fraction']):.0%} of the event, {_f(row['peak_fade_db']):.0f} dB below the "
                 f"reference; a propagation fade does not sit still at the floor")
-    step = _step(row)
+    step = _step(row) or _step_under_fade(row)
     if step is not None:
         return step
     if not math.isfinite(_f(row["peak_fade_db_finite"])) and not (floor_frac > 0):
@@ -94,6 +94,30 @@ def _step(row) -> tuple[str, float, str] | None:
             f"{duration_word(dur)} temporary level step: down {jin:.1f} dB and back up {jout:.1f} dB within one "
             f"{step_s:g}-s sample each, flat in between (std {flat:.2f} dB): no propagation fade moves that fast "
             f"at both edges")
+
+
+def _step_under_fade(row) -> tuple[str, float, str] | None:
+    """Rule 1c: a temporary level step with a fade on top (rain on a knocked antenna).  Inside the event the
+    attenuation rises by at least 3 dB in one sample, later falls back by about as much in one sample (within
+    max(1 dB, 25 %)), and in between never comes back above the step (10th percentile at least 0.8 of the smaller
+    jump; columns ``plateau_*`` from :mod:`diag.analysis.evidence`).  Samples of 10 s or finer only: at 1 s no
+    propagation fade moves 3 dB in a sample (rain fade slopes stay near 1 dB/s or below, ITU-R P.1623, from
+    memory), and multipath, which can, keeps coming back to the clear level.  At 1 min a rain cell can jump that
+    much, and real 1-min logs (OpenRainER link 61, 18 Aug 2022: a 2.6-h rain fade held at the receiver floor and
+    at the 1-dB readout steps) show such plateaus in rain, so coarser samples are left to the posterior.  The whole
+    event goes to the step (it holds most of the time)."""
+    if row.get("kind") == "stats" or not _f(row["interval_s"]) <= 10.0:
+        return None
+    jin, jout = _f(row.get("plateau_in_db")), _f(row.get("plateau_out_db"))
+    q10, held = _f(row.get("plateau_q10_db")), _f(row.get("plateau_s"))
+    step_s, dur, peak = _f(row["interval_s"]), _f(row["duration_s"]), _f(row["peak_fade_db_finite"])
+    if not (jin >= 3.0 and jout >= 3.0 and abs(jin - jout) <= max(1.0, 0.25 * max(jin, jout))
+            and q10 >= 0.8 * min(jin, jout) and held >= 0.5 * dur and held >= 10 * step_s):
+        return None
+    return (S.LEVEL_SHIFT, 0.7,
+            f"{duration_word(held)} temporary level step: down {jin:.1f} dB and back up {jout:.1f} dB within one "
+            f"{step_s:g}-s sample each, never back above {q10:.1f} dB in between, with fading on top to "
+            f"{peak:.1f} dB: an antenna or equipment step under a propagation fade")
 
 
 def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None) -> pd.DataFrame:

@@ -9,6 +9,10 @@ Columns (units in the names):
   level step (a temporary one when both edges do);
 - ``flat_std_db``: the standard deviation of the attenuation over the middle 80 % of the event (a level step holds
   flat; rain and clear-air fades vary);
+- ``plateau_in_db`` / ``plateau_out_db`` / ``plateau_q10_db`` / ``plateau_s``: the largest one-sample rise of the
+  attenuation inside the event (its edge included), the largest one-sample fall after it, the 10th percentile of
+  the attenuation between the two and how long that lasts (samples 10 s apart or finer): a level step with a fade
+  on top (rain on a knocked antenna) never comes back above the step in between, multipath does all the time;
 - ``tsl_rise_db``: on hops that log the transmit level (ATPC), the rise of the TSL during the event above its
   median over the hour before: ATPC hides that much of the propagation fade from the RSL (the fade on the path is
   the RSL fade plus this rise).
@@ -25,7 +29,28 @@ from diag.results import ChannelSeries
 
 __all__ = ["add_evidence", "EVIDENCE_COLUMNS"]
 
-EVIDENCE_COLUMNS = ["jump_in_db", "jump_out_db", "flat_std_db", "tsl_rise_db"]
+EVIDENCE_COLUMNS = ["jump_in_db", "jump_out_db", "flat_std_db", "plateau_in_db", "plateau_out_db",
+                    "plateau_q10_db", "plateau_s", "tsl_rise_db"]
+
+
+def _plateau(att: np.ndarray, interval_s: float, cols: dict, k: int) -> None:
+    """The plateau columns of event ``k`` from its attenuation (one sample either side included)."""
+    step = np.diff(att)
+    if not np.isfinite(step).any():
+        return
+    up = int(np.nanargmax(step))
+    rest = step[up + 1:]
+    if not rest.size or not np.isfinite(rest).any():
+        return
+    down = up + 1 + int(np.nanargmin(rest))
+    inside = att[up + 1:down + 1]
+    inside = inside[np.isfinite(inside)]
+    if not inside.size:
+        return
+    cols["plateau_in_db"][k] = float(step[up])
+    cols["plateau_out_db"][k] = float(-step[down])
+    cols["plateau_q10_db"][k] = float(np.quantile(inside, 0.1))
+    cols["plateau_s"][k] = float((down - up) * interval_s)
 
 
 def add_evidence(events: pd.DataFrame, series: dict[str, ChannelSeries]) -> pd.DataFrame:
@@ -64,6 +89,8 @@ def add_evidence(events: pd.DataFrame, series: dict[str, ChannelSeries]) -> pd.D
                 mid = mid[np.isfinite(mid)]
                 if mid.size >= 2:
                     cols["flat_std_db"][k] = float(np.std(mid))
+                if item.interval_s <= 10.0 and b - a >= 3:
+                    _plateau(att[max(a - 1, 0):min(b + 1, size)], item.interval_s, cols, k)
                 if tsl is not None:
                     before = tsl[max(0, a - hour):a]
                     before = before[np.isfinite(before)]

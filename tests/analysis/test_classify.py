@@ -154,3 +154,21 @@ def test_gauge_term_in_the_posterior(analysed, tmp_path):
     dry_rows = with_dry[with_dry["start_utc"].isin(rain_wet["start_utc"])]
     assert len(dry_rows) and dry_rows["evidence"].str.contains("gauge dry").all()
     assert (dry_rows["confidence"].to_numpy() <= rain_wet["confidence"].to_numpy() + 1e-9).all()
+
+
+def test_temporary_step_under_rain_is_equipment(hops):
+    """Rule 1c (diag.analysis.classify._step_under_fade): an antenna knocked 8 dB out of line for 3 h and set right
+    again, with a rain shower on top, logged each second.  Both edges move 8 dB within one second (rain fade slopes
+    stay near 1 dB/s, ITU-R P.1623, from memory), so the span is a level step, not one long rain fade.  Control:
+    the same shower without the step stays rain."""
+    def spec(effects):
+        return LinkSpec(link_id="C-STEP-RAIN", frequency_ghz=23.0, length_km=6.0, polarization="V",
+                        threshold_dbm=-75.0, nominal_dbm=-40.0, duration_s=10 * H, effects=tuple(effects))
+    shower = Effect("rain", 5 * H, 1 * H, {"peak_mmh": 15.0})
+    _, result = hops.analysed(spec([Effect("level_shift", 3 * H, 3 * H, {"step_db": 8.0}), shower]), seed=4)
+    ev = result.events
+    step = ev[ev["evidence"].str.contains("temporary level step")]
+    assert len(step) == 1 and step["cause"].iloc[0] == S.LEVEL_SHIFT, list(ev["evidence"])
+    assert 2.5 * H <= step["duration_s"].iloc[0] <= 3.5 * H
+    _, alone = hops.analysed(spec([shower]), seed=4)
+    assert list(alone.events["cause"]) == [S.RAIN], list(alone.events["evidence"])
