@@ -62,6 +62,7 @@ GAUGE_STEP = pd.Timedelta(minutes=15)
 WET_ANY_RADIUS_KM = 5.0
 DRY_NET_RADII_KM = (5.0, 10.0, 15.0)
 DRY_NET_MAIN_KM = 10.0          # the radius of the headline network-dry label (a choice, not a standard)
+NOISE_FLOOR_MEDIAN_DBM = -90.0   # a channel whose median RSL is this low carries no working signal (see report)
 LENGTH_BANDS_KM = ((0.0, 1.0, "<1 km"), (1.0, 5.0, "1-5 km"), (5.0, 15.0, "5-15 km"), (15.0, np.inf, ">15 km"))
 
 
@@ -333,6 +334,17 @@ def _analyse_network(table: pd.DataFrame, links) -> list:
     return corroborate(results)
 
 
+def at_noise_floor(data_item) -> bool:
+    """True when every channel of the link has a median RSL <= -90 dBm: the receiver reads noise, not a signal
+    (in OpenRainER 1133, 1134, 152 and 164, each with the other direction entirely missing)."""
+    from diag import schema as S
+
+    table = data_item[0]
+    rsl = table[table[S.QUANTITY] == S.RSL]
+    med = rsl.groupby(rsl[S.CHANNEL].astype(str))[S.VALUE].median()
+    return bool(len(med)) and bool((med <= NOISE_FLOOR_MEDIAN_DBM).all())
+
+
 def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
     """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15)."""
     data = load(base)
@@ -356,7 +368,7 @@ def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
     for c in per_link.values():
         total.add(c)
     return {"per_link": per_link, "total": total, "meta": {k: data[k][3] for k in chosen},
-            "network": network is not None}
+            "network": network is not None, "noise_floor": [k for k in chosen if at_noise_floor(data[k])]}
 
 
 def _pct(a: int, b: int) -> str:
@@ -406,6 +418,16 @@ def report(res: dict, per_link: bool = True) -> str:
     lines.append(f"{'label':<28}{'faded':>8}{'rain':>8}{'thumb':>8}")
     for n in shown:
         lines.append(f"{_label_title(n):<28}" + _triple(c, n))
+    dead = res.get("noise_floor", [])
+    if dead:
+        rest = Count()
+        for k, lc in res["per_link"].items():
+            if k not in dead:
+                rest.add(lc)
+        lines.append(f"the same without the {len(dead)} links whose every channel has a median RSL <= "
+                     f"{NOISE_FLOOR_MEDIAN_DBM:.0f} dBm (noise, no signal: {', '.join(dead)}):")
+        for n in shown:
+            lines.append(f"{_label_title(n):<28}" + _triple(rest, n))
     lines.append("")
     lines.append("by path length (links; per label: faded minutes, % called rain, % thumb)")
     lines.append(f"{'band':<9}{'links':>6}" + "".join(f"{_label_title(n)[:23]:>24}" for n in shown))

@@ -89,6 +89,7 @@ def main(argv=None) -> int:
                   f"peak memory of this process {peak_mb:.0f} MB")
             figures["openrainer"] = {k: vars(c) for k, c in res["per_link"].items()}
             figures["openrainer"]["total"] = vars(res["total"])
+            figures["openrainer_noise_floor_links"] = res.get("noise_floor", [])
             figures["openrainer_bands"] = {b: {"links": n, **vars(c)}
                                            for b, (n, c) in realdata.band_totals(res).items()}
     if args.json:
