@@ -97,7 +97,7 @@ def load(base: Path = DATA) -> dict:
         g = gauges[first["nearest_gauge_id"]] if first["nearest_gauge_id"] in gauges else None
         table = pd.concat(tables, ignore_index=True)
         for col in ("link_id", "channel"):
-            table[col] = table[col].astype(str)
+            table[col] = table[col].astype(str).astype("category")   # one small code per row, not a string
         out[str(cml)] = (table, link, g, first)
     return out
 
