@@ -244,6 +244,12 @@ def main(argv=None) -> int:
     ap.add_argument("--out", default=None, help="output folder (default ROOT/csv_all)")
     ap.add_argument("--check-against", default=None, help="earlier subset to compare with (default ROOT/csv)")
     args = ap.parse_args(argv)
+    try:
+        import h5py  # noqa: F401
+    except ImportError:
+        print("error: this converter needs h5py (not a project dependency); "
+              "run it with a python that has h5py, numpy and pandas", file=sys.stderr)
+        return 2
     root = Path(args.root)
     out = Path(args.out) if args.out else root / "csv_all"
     for name in (CML_FILE, GAUGE_FILE):
