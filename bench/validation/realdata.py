@@ -17,10 +17,20 @@ Counting (as issue 14 defines it), per sub-link and minute:
 - called rain: the analysis' per-minute cause on that channel is ``rain``; the rule of thumb beside it calls rain
   when the analysed event covering the minute lasts longer than 5 min.
 
-The analysis runs on all links together (one network: ``analyze_tables`` and then the project's network
-corroboration where it has one), WITHOUT the gauge (the gauge defines wet/dry; feeding it in would make the count
-circular).  ``evaluate(links=..., fit=callable)``: for each evaluated link L, ``fit(training)`` is called with the
-data of the OTHER links only (dict cml_id -> (table, link, gauge, metadata row)) and returns a callable
+Added beside those (never replacing them), when the folder also holds ``gauges_all_15min_mm.csv`` and
+``gauges_metadata.csv`` (the all-links conversion, ``openrainer_convert.py``), labels from the whole gauge network
+around the path midpoint (great-circle distance):
+
+- wet (any gauge within 5 km): at least one gauge within 5 km measured >= 0.2 mm in an interval overlapping
+  minute +-20 min;
+- dry (network, radius R; R = 10 km by choice, 5 and 15 km reported too): at least one gauge within R has every
+  interval overlapping minute +-3 h present and 0 mm, no gauge within R measured > 0 mm in any interval of that
+  window that it has (a gauge with gaps can still veto), and the nearest-gauge wet label is not set.
+
+The analysis runs on all links together (one network: ``analyze_tables``, which for the posterior attribution
+includes the project's network corroboration), WITHOUT the gauge (the gauge defines wet/dry; feeding it in would
+make the count circular).  ``evaluate(links=..., fit=callable)``: for each evaluated link L, ``fit(training)`` is
+called with the data of the OTHER links only (dict cml_id -> (table, link, gauge, metadata row)) and returns a callable
 ``analyse(table, links) -> list[LinkResult]`` used for L (leave-one-link-out).  The links' threshold (-90 dBm) is
 assumed (the data set has none); it affects outage figures, not these counts.
 """
@@ -39,7 +49,9 @@ try:  # a ``diag`` on PYTHONPATH (e.g. an exported older version, to compare) wi
 except ImportError:
     sys.path.insert(0, str(REPO))
 
-DATA = REPO.parent / "shared" / "realdata" / "openrainer" / "csv"
+_PLACE = Path("shared", "realdata", "openrainer")   # beside the checkout (or beside a parent, for a worktree)
+DATA = next((p / _PLACE for p in REPO.parents if (p / _PLACE).is_dir()), REPO.parent / _PLACE) / "csv"
+DATA_ALL = DATA.parent / "csv_all"   # every usable link, made by openrainer_convert.py
 ASSUMED_THRESHOLD_DBM = -90.0
 FADE_DB = 3.0
 FLOOR_DBM = -99.0
@@ -47,6 +59,11 @@ WET_MM = 0.2
 WET_WINDOW = pd.Timedelta(minutes=20)
 DRY_WINDOW = pd.Timedelta(hours=3)
 GAUGE_STEP = pd.Timedelta(minutes=15)
+WET_ANY_RADIUS_KM = 5.0
+DRY_NET_RADII_KM = (5.0, 10.0, 15.0)
+DRY_NET_MAIN_KM = 10.0          # the radius of the headline network-dry label (a choice, not a standard)
+NOISE_FLOOR_MEDIAN_DBM = -90.0   # a channel whose median RSL is this low carries no working signal (see report)
+LENGTH_BANDS_KM = ((0.0, 1.0, "<1 km"), (1.0, 5.0, "1-5 km"), (5.0, 15.0, "5-15 km"), (15.0, np.inf, ">15 km"))
 
 
 def _link_rows(base: Path) -> pd.DataFrame:
@@ -80,7 +97,7 @@ def load(base: Path = DATA) -> dict:
         g = gauges[first["nearest_gauge_id"]] if first["nearest_gauge_id"] in gauges else None
         table = pd.concat(tables, ignore_index=True)
         for col in ("link_id", "channel"):
-            table[col] = table[col].astype(str)
+            table[col] = table[col].astype(str).astype("category")   # one small code per row, not a string
         out[str(cml)] = (table, link, g, first)
     return out
 
@@ -90,6 +107,79 @@ def _network_table(data: dict) -> pd.DataFrame:
 
     table = pd.concat([d[0] for d in data.values()], ignore_index=True)
     return S.conform(table) if hasattr(S, "conform") else table
+
+
+def _gauge_flags(minutes: pd.DatetimeIndex, gauge: pd.Series) -> dict:
+    """Per minute, for one gauge: wet (>= 0.2 mm overlapping +-20 min), seen_rain (> 0 mm in a present interval
+    overlapping +-3 h) and zero (every interval overlapping +-3 h present and 0 mm)."""
+    g = gauge.sort_index()
+    ends = g.index.as_unit("ns").asi8
+    starts = ends - GAUGE_STEP.value
+    vals = g.to_numpy(dtype=float)
+    t = minutes.as_unit("ns").asi8
+
+    def window(w):
+        lo = np.searchsorted(ends, t - w.value, side="right")
+        hi = np.searchsorted(starts, t + w.value, side="left")
+        return lo, hi
+
+    def csum(flags):
+        return np.concatenate([[0], np.cumsum(flags)])
+
+    cw, cs = csum(np.nan_to_num(vals, nan=0.0) >= WET_MM), csum(np.nan_to_num(vals, nan=0.0) > 0.0)
+    cn = csum(~(np.nan_to_num(vals, nan=1.0) == 0.0))   # missing or rain: not a dry interval
+    lo, hi = window(WET_WINDOW)
+    wet = (cw[hi] - cw[lo]) > 0
+    lo, hi = window(DRY_WINDOW)
+    covered = (hi - lo) >= 24
+    return {"wet": wet, "seen_rain": (cs[hi] - cs[lo]) > 0, "zero": covered & ((cn[hi] - cn[lo]) == 0)}
+
+
+class GaugeNetwork:
+    """Every gauge of the folder (15-min mm, stamps at interval END) with its position, for the network labels."""
+
+    def __init__(self, mm: pd.DataFrame, meta: pd.DataFrame):
+        self.mm = mm
+        self.meta = meta.set_index("gauge_id").loc[list(mm.columns)]
+        self._flags: dict = {}
+
+    @classmethod
+    def load(cls, base: Path) -> GaugeNetwork | None:
+        if not ((base / "gauges_all_15min_mm.csv").is_file() and (base / "gauges_metadata.csv").is_file()):
+            return None
+        mm = pd.read_csv(base / "gauges_all_15min_mm.csv")
+        mm.index = pd.to_datetime(mm.pop("time_utc_end_of_interval"), utc=True)
+        return cls(mm, pd.read_csv(base / "gauges_metadata.csv"))
+
+    def within(self, lat: float, lon: float, radius_km: float) -> list[str]:
+        from openrainer_convert import great_circle_km
+
+        d = great_circle_km(lat, lon, self.meta["lat"].to_numpy(float), self.meta["lon"].to_numpy(float))
+        return [g for g, dist in zip(self.meta.index, d) if dist <= radius_km]
+
+    def flags(self, gauge_id: str, minutes: pd.DatetimeIndex) -> dict:
+        key = (gauge_id, minutes[0], minutes.size)
+        if key not in self._flags:
+            self._flags[key] = _gauge_flags(minutes, self.mm[gauge_id])
+        return self._flags[key]
+
+    def labels(self, minutes: pd.DatetimeIndex, lat: float, lon: float) -> dict:
+        """wet_any5 and dry_net<R> per minute around a path midpoint."""
+        out = {}
+        near = self.within(lat, lon, WET_ANY_RADIUS_KM)
+        wet = np.zeros(minutes.size, dtype=bool)
+        for g in near:
+            wet |= self.flags(g, minutes)["wet"]
+        out["wet5"] = wet
+        for r in DRY_NET_RADII_KM:
+            zero = np.zeros(minutes.size, dtype=bool)
+            seen = np.zeros(minutes.size, dtype=bool)
+            for g in self.within(lat, lon, r):
+                f = self.flags(g, minutes)
+                zero |= f["zero"]
+                seen |= f["seen_rain"]
+            out[f"drynet{int(r)}"] = zero & ~seen
+        return out
 
 
 def _wet_dry(minutes: pd.DatetimeIndex, gauge: pd.Series | None) -> tuple[np.ndarray, np.ndarray]:
@@ -138,22 +228,44 @@ def _faded(frame_rsl: pd.Series, frame_tsl: pd.Series | None) -> tuple[pd.Dateti
     return rsl.index, (faded & has).to_numpy(), has.to_numpy()
 
 
+LABELS = ("wet", "dry", "wet5", *(f"drynet{int(r)}" for r in DRY_NET_RADII_KM))
+
+
 @dataclass
 class Count:
+    """Faded minutes under each label, and of them those called rain (analysis) and by the rule of thumb.
+    wet/dry: the nearest gauge (issue 14); wet5 / drynet<R>: the gauge network (zero when the folder has none)."""
     wet_faded: int = 0
     wet_rain: int = 0
     wet_thumb: int = 0
     dry_faded: int = 0
     dry_rain: int = 0
     dry_thumb: int = 0
+    wet5_faded: int = 0
+    wet5_rain: int = 0
+    wet5_thumb: int = 0
+    drynet5_faded: int = 0
+    drynet5_rain: int = 0
+    drynet5_thumb: int = 0
+    drynet10_faded: int = 0
+    drynet10_rain: int = 0
+    drynet10_thumb: int = 0
+    drynet15_faded: int = 0
+    drynet15_rain: int = 0
+    drynet15_thumb: int = 0
 
     def add(self, other: Count) -> None:
         for k in self.__dict__:
             setattr(self, k, getattr(self, k) + getattr(other, k))
 
 
-def count_link(data_item, result) -> Count:
-    table, link, gauge, _ = data_item
+def _midpoint(meta_row) -> tuple[float, float]:
+    return ((float(meta_row["site_0_lat"]) + float(meta_row["site_1_lat"])) / 2,
+            (float(meta_row["site_0_lon"]) + float(meta_row["site_1_lon"])) / 2)
+
+
+def count_link(data_item, result, network: GaugeNetwork | None = None) -> Count:
+    table, link, gauge, meta_row = data_item
     from diag import schema as S
 
     c = Count()
@@ -183,16 +295,29 @@ def count_link(data_item, result) -> Count:
             thumb = np.zeros(minutes.size, dtype=bool)
             has = eid >= 0
             thumb[has] = dur[eid[has]] > 300.0
-        w = faded & wet
-        d = faded & dry
-        c.add(Count(int(w.sum()), int((w & called).sum()), int((w & thumb).sum()),
-                    int(d.sum()), int((d & called).sum()), int((d & thumb).sum())))
+        labels = {"wet": wet, "dry": dry}
+        if network is not None:
+            net = network.labels(minutes, *_midpoint(meta_row))
+            labels.update(net)
+            for r in DRY_NET_RADII_KM:
+                labels[f"drynet{int(r)}"] = net[f"drynet{int(r)}"] & ~wet
+        part_count = Count()
+        for name, flag in labels.items():
+            m = faded & flag
+            setattr(part_count, f"{name}_faded", int(m.sum()))
+            setattr(part_count, f"{name}_rain", int((m & called).sum()))
+            setattr(part_count, f"{name}_thumb", int((m & thumb).sum()))
+        c.add(part_count)
     return c
 
 
 def _analyse_network(table: pd.DataFrame, links) -> list:
-    """The project's analysis of several hops: every hop, then the network corroboration where the project has one
-    (``analyze_files`` does the same for log files)."""
+    """The project's analysis of several hops, as ``analyze_files`` runs it: ``analyze_tables`` with the chosen
+    attribution.  The network corroboration (a posterior re-scoring) belongs to the posterior only; the pipeline runs
+    it itself inside ``analyze_tables`` where it has it, so it is added here only for an older ``diag`` whose
+    ``analyze_tables`` does not (running it after the rulebook would score the posterior under the name ``rules``,
+    and running it twice would count the network term twice)."""
+    import inspect
     import os
 
     from diag.config import AnalysisConfig
@@ -200,6 +325,8 @@ def _analyse_network(table: pd.DataFrame, links) -> list:
 
     attribution = os.environ.get("DIAG_BENCH_ATTRIBUTION", "posterior")   # as score.ATTRIBUTION
     results = analyze_tables(table, links, config=AnalysisConfig(attribution=attribution))
+    if attribution != "posterior" or "corroborate" in inspect.getsource(analyze_tables):
+        return results
     try:
         from diag.analysis.network import corroborate
     except ImportError:
@@ -207,50 +334,116 @@ def _analyse_network(table: pd.DataFrame, links) -> list:
     return corroborate(results)
 
 
+def at_noise_floor(data_item) -> bool:
+    """True when every channel of the link has a median RSL <= -90 dBm: the receiver reads noise, not a signal
+    (in OpenRainER 1133, 1134, 152 and 164, each with the other direction entirely missing)."""
+    from diag import schema as S
+
+    table = data_item[0]
+    rsl = table[table[S.QUANTITY] == S.RSL]
+    med = rsl.groupby(rsl[S.CHANNEL].astype(str))[S.VALUE].median()
+    return bool(len(med)) and bool((med <= NOISE_FLOOR_MEDIAN_DBM).all())
+
+
 def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
     """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15)."""
     data = load(base)
+    network = GaugeNetwork.load(Path(base))
     chosen = [str(x) for x in (links or list(data))]
     per_link: dict[str, Count] = {}
     if fit is None:
         results = _analyse_network(_network_table(data), [d[1] for d in data.values()])
         by_id = {r.link.link_id: r for r in results}
+        del results
         for k in chosen:
-            per_link[k] = count_link(data[k], by_id[k])
+            per_link[k] = count_link(data[k], by_id[k], network)
     else:
         for k in chosen:
             training = {o: v for o, v in data.items() if o != k}
             analyse = fit(training)
             results = analyse(_network_table(data), [d[1] for d in data.values()])
             by_id = {r.link.link_id: r for r in results}
-            per_link[k] = count_link(data[k], by_id[k])
+            per_link[k] = count_link(data[k], by_id[k], network)
     total = Count()
     for c in per_link.values():
         total.add(c)
-    return {"per_link": per_link, "total": total, "meta": {k: data[k][3] for k in chosen}}
+    return {"per_link": per_link, "total": total, "meta": {k: data[k][3] for k in chosen},
+            "network": network is not None, "noise_floor": [k for k in chosen if at_noise_floor(data[k])]}
 
 
 def _pct(a: int, b: int) -> str:
     return f"{100 * a / b:6.1f}%" if b else "     -"
 
 
-def report(res: dict) -> str:
+def _triple(c: Count, name: str) -> str:
+    n = getattr(c, f"{name}_faded")
+    return f"{n:8d}{_pct(getattr(c, f'{name}_rain'), n):>8}{_pct(getattr(c, f'{name}_thumb'), n):>8}"
+
+
+def _label_title(name: str) -> str:
+    return {"wet": "wet (nearest gauge)", "dry": "dry (nearest gauge)", "wet5": "wet (any gauge <= 5 km)"}.get(
+        name, f"dry (network, {name[6:]} km)")
+
+
+def band_totals(res: dict) -> dict[str, tuple[int, Count]]:
+    """Total counts by path length band (<1, 1-5, 5-15, >15 km): band -> (number of links, Count)."""
+    out = {}
+    for lo, hi, name in LENGTH_BANDS_KM:
+        c, n = Count(), 0
+        for k, lc in res["per_link"].items():
+            if lo <= float(res["meta"][k]["length_km"]) < hi:
+                c.add(lc)
+                n += 1
+        out[name] = (n, c)
+    return out
+
+
+def report(res: dict, per_link: bool = True) -> str:
+    net = res.get("network", False)
+    names = ["wet", "dry"] + (["wet5", f"drynet{int(DRY_NET_MAIN_KM)}"] if net else [])
+    head = "".join(f"{t:>24}" for t in ("wet nearest", "dry nearest", "wet any<=5km", "dry net 10km")[:len(names)])
+    sub = f"{'faded':>8}{'rain':>8}{'thumb':>8}" * len(names)
     lines = ["== OpenRainER (real links, CC BY 4.0, Lepida ScpA / ARPAE-SIMC via OpenRainER): faded minutes ==",
-             f"{'link':<6}{'km':>7}{'wet faded':>10}{'rain':>8}{'thumb':>8}{'dry faded':>10}{'rain':>8}{'thumb':>8}"]
-    for k, c in res["per_link"].items():
-        km = float(res["meta"][k]["length_km"])
-        lines.append(f"{k:<6}{km:7.2f}{c.wet_faded:10d}{_pct(c.wet_rain, c.wet_faded):>8}"
-                     f"{_pct(c.wet_thumb, c.wet_faded):>8}{c.dry_faded:10d}{_pct(c.dry_rain, c.dry_faded):>8}"
-                     f"{_pct(c.dry_thumb, c.dry_faded):>8}")
+             f"{'':<13}{head}", f"{'link':<6}{'km':>7}{sub}"]
+    if per_link:
+        for k, c in res["per_link"].items():
+            km = float(res["meta"][k]["length_km"])
+            lines.append(f"{k:<6}{km:7.2f}" + "".join(_triple(c, n) for n in names))
     c = res["total"]
-    lines.append(f"{'total':<13}{c.wet_faded:10d}{_pct(c.wet_rain, c.wet_faded):>8}{_pct(c.wet_thumb, c.wet_faded):>8}"
-                 f"{c.dry_faded:10d}{_pct(c.dry_rain, c.dry_faded):>8}{_pct(c.dry_thumb, c.dry_faded):>8}")
+    lines.append(f"{'total':<13}" + "".join(_triple(c, n) for n in names))
+    lines.append("")
+    lines.append(f"totals, {len(res['per_link'])} links: faded minutes under each label, % called rain by the "
+                 "analysis, % by the rule of thumb (an event longer than 5 min is rain)")
+    shown = list(LABELS) if net else ["wet", "dry"]
+    lines.append(f"{'label':<28}{'faded':>8}{'rain':>8}{'thumb':>8}")
+    for n in shown:
+        lines.append(f"{_label_title(n):<28}" + _triple(c, n))
+    dead = res.get("noise_floor", [])
+    if dead:
+        rest = Count()
+        for k, lc in res["per_link"].items():
+            if k not in dead:
+                rest.add(lc)
+        lines.append(f"the same without the {len(dead)} links whose every channel has a median RSL <= "
+                     f"{NOISE_FLOOR_MEDIAN_DBM:.0f} dBm (noise, no signal: {', '.join(dead)}):")
+        for n in shown:
+            lines.append(f"{_label_title(n):<28}" + _triple(rest, n))
+    lines.append("")
+    lines.append("by path length (links; per label: faded minutes, % called rain, % thumb)")
+    lines.append(f"{'band':<9}{'links':>6}" + "".join(f"{_label_title(n)[:23]:>24}" for n in shown))
+    for band, (n_links, bc) in band_totals(res).items():
+        lines.append(f"{band:<9}{n_links:6d}" + "".join(_triple(bc, n) for n in shown))
     lines.append("targets: wet faded minutes called rain >= 90 %, dry faded minutes called rain <= 5 %")
     return "\n".join(lines)
 
 
-def main() -> int:
-    print(report(evaluate()))
+def main(argv=None) -> int:
+    import argparse
+
+    ap = argparse.ArgumentParser(description="rain verdicts on the OpenRainER links against the rain gauges")
+    ap.add_argument("base", nargs="?", default=str(DATA), help="folder with links_metadata.csv (default: csv)")
+    args = ap.parse_args(argv)
+    print(report(evaluate(base=Path(args.base))))
     return 0
 
 

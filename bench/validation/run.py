@@ -4,6 +4,8 @@
     .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
     .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
     .venv/bin/python bench/validation/run.py --variant  # seeds 101-150, made by the changed process B2
+    .venv/bin/python bench/validation/run.py --real-only --real-all   # only the real count, on all 141 links
+    .venv/bin/python bench/validation/run.py --real-only --real-base DIR  # ... on any folder of the same layout
 
 Generated logs go to bench/output/validation/ (git-ignored) and are rewritten on each run.
 """
@@ -32,6 +34,12 @@ def main(argv=None) -> int:
     ap.add_argument("--variant", action="store_true",
                     help="score seeds 101-150, made by the changed process B2 (held out from every fit)")
     ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
+    ap.add_argument("--real-only", action="store_true", help="only the OpenRainER count (skip family B)")
+    ap.add_argument("--real-base", default=None,
+                    help="folder of the real-data count (links_metadata.csv, links/, gauges...; default: the "
+                         "15-link csv subset)")
+    ap.add_argument("--real-all", action="store_true",
+                    help="shortcut for --real-base at the all-links conversion (csv_all, openrainer_convert.py)")
     ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
     ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
     ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
@@ -41,35 +49,49 @@ def main(argv=None) -> int:
     if args.attribution:
         os.environ["DIAG_BENCH_ATTRIBUTION"] = args.attribution
         score.ATTRIBUTION = args.attribution
-    seeds = fb.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fb.HELDOUT_SEEDS
-    if args.quick:
-        seeds = seeds[:6]
-    t0 = time.perf_counter()
-    tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
-    t_sim = time.perf_counter() - t0
-    half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
     import diag
 
-    print(f"diag analysed with: {Path(diag.__file__).parent}")
-    print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
-    print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
-    print(score.worst_hops(tally, args.worst))
-    print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
-    figures = {"half": half, "seeds": list(seeds), "diag": str(Path(diag.__file__).parent),
-               "family_b": score.summary(tally), "timing_s": timing}
+    print(f"diag analysed with: {Path(diag.__file__).parent}; attribution {score.ATTRIBUTION}")
+    figures = {"diag": str(Path(diag.__file__).parent), "attribution": score.ATTRIBUTION}
+    if not args.real_only:
+        seeds = fb.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fb.HELDOUT_SEEDS
+        if args.quick:
+            seeds = seeds[:6]
+        t0 = time.perf_counter()
+        tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
+        t_sim = time.perf_counter() - t0
+        half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
+        print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
+        print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
+        print(score.worst_hops(tally, args.worst))
+        print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
+        figures.update({"half": half, "seeds": list(seeds), "family_b": score.summary(tally), "timing_s": timing})
     if not args.no_real:
         try:
             import realdata
         except ImportError:
             realdata = None
         if realdata is not None:
+            base = Path(args.real_base) if args.real_base else realdata.DATA_ALL if args.real_all else realdata.DATA
+            if not (base / "links_metadata.csv").is_file():
+                print(f"error: {base} has no links_metadata.csv (make csv_all with openrainer_convert.py)",
+                      file=sys.stderr)
+                return 2
             t0 = time.perf_counter()
-            res = realdata.evaluate()
+            res = realdata.evaluate(base=base)
             print()
+            print(f"real data: {base}")
             print(realdata.report(res))
-            print(f"real-data time {time.perf_counter() - t0:.1f} s")
+            import resource
+
+            peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+            print(f"real-data time {time.perf_counter() - t0:.1f} s ({len(res['per_link'])} links); "
+                  f"peak memory of this process {peak_mb:.0f} MB")
             figures["openrainer"] = {k: vars(c) for k, c in res["per_link"].items()}
             figures["openrainer"]["total"] = vars(res["total"])
+            figures["openrainer_noise_floor_links"] = res.get("noise_floor", [])
+            figures["openrainer_bands"] = {b: {"links": n, **vars(c)}
+                                           for b, (n, c) in realdata.band_totals(res).items()}
     if args.json:
         Path(args.json).write_text(json.dumps(figures, indent=1, default=float))
     return 0
