@@ -27,7 +27,8 @@ import pandas as pd
 from diag import schema as S
 from diag.links import Link
 
-__all__ = ["faded_minutes", "network_columns", "corroborate", "FADED_DB", "MARGIN_S", "CORRELATION_KM"]
+__all__ = ["faded_minutes", "network_columns", "apply_network", "without_network", "corroborates", "corroborate",
+           "NETWORK_COLUMNS", "FADED_DB", "MARGIN_S", "CORRELATION_KM"]
 
 FADED_DB = 3.0
 MARGIN_S = 300.0
@@ -103,36 +104,58 @@ def network_columns(events: pd.DataFrame, link: Link, others: Sequence[tuple[Lin
     return pd.DataFrame({"network_share": share, "network_hops": hops}, index=events.index)
 
 
+NETWORK_COLUMNS = ("network_share", "network_hops")
+
+
+def without_network(events: pd.DataFrame) -> pd.DataFrame:
+    """``events`` without the two network columns (the table :func:`network_columns` is computed for)."""
+    return events.drop(columns=[c for c in NETWORK_COLUMNS if c in events], errors="ignore")
+
+
+def apply_network(result, extra: pd.DataFrame, *, config=None, gauge=None, rerun=None) -> bool:
+    """Re-score ``result.events`` with the network columns ``extra`` (:func:`network_columns` of
+    :func:`without_network` of them); where a cause changed, repaint the series and call ``rerun(result)``.
+    Returns whether a cause changed.  The one step :func:`corroborate` and ``diag.batch`` both apply."""
+    from diag.analysis.classify import classify_events
+    from diag.analysis.events import paint_series
+
+    events = result.events
+    base = without_network(events)
+    gauge_cols = [c for c in base.columns if c.startswith("gauge_") and c != "gauge_rain_mmh"]
+    rescored = classify_events(pd.concat([base.drop(columns=gauge_cols), extra], axis=1), result.link,
+                               config=config)
+    changed = not rescored["cause"].equals(events["cause"])
+    if gauge_cols and gauge is not None:
+        from diag.read import gauge as gauge_mod
+
+        rescored = pd.concat([rescored, gauge_mod.check_rain_verdicts(rescored, gauge)], axis=1)
+    elif gauge_cols:
+        rescored = pd.concat([rescored, base[gauge_cols]], axis=1)
+    result.events = rescored
+    if changed:
+        paint_series(result.series, rescored)
+        if rerun is not None:
+            rerun(result)
+    return changed
+
+
+def corroborates(result) -> bool:
+    """Whether a result takes part in corroboration: analysed (no error) with series and an event table."""
+    return getattr(result, "error", None) is None and bool(result.series) and result.events is not None
+
+
 def corroborate(results: list, *, config=None, gauge=None, rerun=None) -> list:
     """Re-score every hop's events with the network term (see the module docstring); results analysed alone or
     failed are returned unchanged.  ``rerun(result)`` runs the stages after painting again where a cause changed
     (the pipeline passes its own; the analysis stage does not import the pipeline)."""
-    ok = [r for r in results if getattr(r, "error", None) is None and r.series and r.events is not None]
+    ok = [r for r in results if corroborates(r)]
     if len(ok) < 2:
         return results
-    from diag.analysis.classify import classify_events
-    from diag.analysis.events import paint_series
-
     minutes = {id(r): faded_minutes(r) for r in ok}
     for r in ok:
-        events = r.events
-        if not len(events):
+        if not len(r.events):
             continue
         others = [(o.link, minutes[id(o)]) for o in ok if o is not r]
-        base = events.drop(columns=[c for c in ("network_share", "network_hops") if c in events], errors="ignore")
-        extra = network_columns(base, r.link, others)
-        gauge_cols = [c for c in base.columns if c.startswith("gauge_") and c != "gauge_rain_mmh"]
-        rescored = classify_events(pd.concat([base.drop(columns=gauge_cols), extra], axis=1), r.link, config=config)
-        changed = not rescored["cause"].equals(events["cause"])
-        if gauge_cols and gauge is not None:
-            from diag.read import gauge as gauge_mod
-
-            rescored = pd.concat([rescored, gauge_mod.check_rain_verdicts(rescored, gauge)], axis=1)
-        elif gauge_cols:
-            rescored = pd.concat([rescored, base[gauge_cols]], axis=1)
-        r.events = rescored
-        if changed:
-            paint_series(r.series, rescored)
-            if rerun is not None:
-                rerun(r)
+        extra = network_columns(without_network(r.events), r.link, others)
+        apply_network(r, extra, config=config, gauge=gauge, rerun=rerun)
     return results
