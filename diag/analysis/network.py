@@ -27,8 +27,8 @@ import pandas as pd
 from diag import schema as S
 from diag.links import Link
 
-__all__ = ["faded_minutes", "network_columns", "apply_network", "without_network", "corroborates", "corroborate",
-           "NETWORK_COLUMNS", "FADED_DB", "MARGIN_S", "CORRELATION_KM"]
+__all__ = ["faded_minutes", "network_columns", "rescore", "apply_network", "with_network", "without_network",
+           "corroborates", "corroborate", "NETWORK_COLUMNS", "FADED_DB", "MARGIN_S", "CORRELATION_KM"]
 
 FADED_DB = 3.0
 MARGIN_S = 300.0
@@ -112,25 +112,44 @@ def without_network(events: pd.DataFrame) -> pd.DataFrame:
     return events.drop(columns=[c for c in NETWORK_COLUMNS if c in events], errors="ignore")
 
 
-def apply_network(result, extra: pd.DataFrame, *, config=None, gauge=None, rerun=None) -> bool:
-    """Re-score ``result.events`` with the network columns ``extra`` (:func:`network_columns` of
-    :func:`without_network` of them); where a cause changed, repaint the series and call ``rerun(result)``.
-    Returns whether a cause changed.  The one step :func:`corroborate` and ``diag.batch`` both apply."""
-    from diag.analysis.classify import classify_events
-    from diag.analysis.events import paint_series
+def with_network(events: pd.DataFrame, network: pd.DataFrame) -> pd.DataFrame:
+    """``events`` with the network columns of ``network`` (``NETWORK_COLUMNS`` plus the ``start_utc`` and
+    ``end_utc`` of the events they were computed for, row for row).  Raises ``RuntimeError`` when the events are
+    not those (the analysis of the same rows is deterministic, so this means a changed input or code)."""
+    same = len(events) == len(network) and all(
+        np.array_equal(events[c].to_numpy(), network[c].to_numpy()) for c in ("start_utc", "end_utc"))
+    if not same:
+        raise RuntimeError("the network columns were computed for other fade events than this analysis found")
+    extra = network[list(NETWORK_COLUMNS)].set_axis(events.index)
+    return pd.concat([without_network(events), extra], axis=1)
 
-    events = result.events
-    base = without_network(events)
+
+def rescore(result, extra: pd.DataFrame, *, config=None, gauge=None) -> pd.DataFrame:
+    """``result.events`` classified again with the network columns ``extra`` (:func:`network_columns` of
+    :func:`without_network` of them); the gauge check is redone when ``gauge`` is given, else kept."""
+    from diag.analysis.classify import classify_events
+
+    base = without_network(result.events)
     gauge_cols = [c for c in base.columns if c.startswith("gauge_") and c != "gauge_rain_mmh"]
     rescored = classify_events(pd.concat([base.drop(columns=gauge_cols), extra], axis=1), result.link,
                                config=config)
-    changed = not rescored["cause"].equals(events["cause"])
     if gauge_cols and gauge is not None:
         from diag.read import gauge as gauge_mod
 
         rescored = pd.concat([rescored, gauge_mod.check_rain_verdicts(rescored, gauge)], axis=1)
     elif gauge_cols:
         rescored = pd.concat([rescored, base[gauge_cols]], axis=1)
+    return rescored
+
+
+def apply_network(result, extra: pd.DataFrame, *, config=None, gauge=None, rerun=None) -> bool:
+    """``result.events`` := :func:`rescore`; where a cause changed, repaint the series and call ``rerun(result)``
+    (the stages after painting).  Returns whether a cause changed.  The step :func:`corroborate` applies to each
+    hop."""
+    from diag.analysis.events import paint_series
+
+    rescored = rescore(result, extra, config=config, gauge=gauge)
+    changed = not rescored["cause"].equals(result.events["cause"])
     result.events = rescored
     if changed:
         paint_series(result.series, rescored)
