@@ -518,8 +518,9 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     n_workers = max(1, len(client.scheduler_info().get("workers", {})))
     # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
     # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
-    corroborating = (config is not None and getattr(config, "attribution", "rules") == "posterior"
-                     and len(sizes) >= 2)
+    from diag.config import AnalysisConfig
+
+    corroborating = (config or AnalysisConfig()).attribution == "posterior" and len(sizes) >= 2
 
     def submit(now: list, network_of: Callable, prefix: str) -> dict:
         futures = {}
