@@ -14,6 +14,13 @@ its
    (``diag.report.write_outputs``, the PDF included, so PDFs are drawn in the workers) into bytes.
    The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
    ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
+   Under the posterior attribution with two hops or more, the network corroborates (``corroborate``; the results
+   of ``diag.pipeline.analyze_files``, which holds every hop at once): the hop tasks are a first pass that also
+   returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute) and renders only
+   the hops without fade events (nothing the network says can change them); the driver computes the network
+   columns of every other hop's events (``network_columns``) and a second pass analyses those hops again with
+   their columns given to ``analyze_link(network=)`` and renders them.  Memory per task stays that of one hop; the
+   parsed files stay on the workers until the second pass has taken what it needs.
 3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
@@ -417,7 +424,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         workers: int | None = None, scheduler: str | None = None, client=None, tz=None, mapping=None, config=None,
         analyze: AnalyzeFn | None = None, writer: WriterFn | None = None, reader: ReaderFn | None = None,
         progress: ProgressFn | None = None, keep_series: bool = False, hop_pdf: bool = True,
-        connect_timeout_s: float = 10.0) -> BatchResult:
+        connect_timeout_s: float = 10.0, corroborate: bool = True) -> BatchResult:
     """Analyse every hop found in ``inputs`` (files, folders, Parquet stores) in parallel on Dask.
 
     Parameters
@@ -436,6 +443,11 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
     hop_pdf : write each hop's ``report.pdf`` (about a second or more per hop); ``False`` writes the other files
         only (``write_tables``).  Ignored when ``writer`` is given.
     connect_timeout_s : how long to try reaching ``scheduler``.
+    corroborate : under the posterior attribution (``config.attribution == "posterior"``) and with at least two
+        hops, a fade shared with other hops is rain evidence (:mod:`diag.analysis.network`), with the results of
+        ``diag.pipeline.analyze_files``: a first pass gives each hop's faded minutes (a hop without fade events is
+        finished there), the driver computes each hop's network columns, and a second pass analyses the hops with
+        fade events again with their columns and writes their files.  ``False``: every hop as if alone.
     """
     files, stores = expand_inputs(inputs)
     if not links:
@@ -451,7 +463,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
             client, cluster = _open_client(workers, scheduler, connect_timeout_s)
         try:
             return _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader,
-                        progress, keep_series)
+                        progress, keep_series, corroborate)
         finally:
             if own:
                 client.close()
@@ -460,7 +472,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
 
 
 def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,
-         keep_series) -> BatchResult:
+         keep_series, corroborate=True) -> BatchResult:
     from distributed import as_completed
 
     def tell(stage, done, total, message):
@@ -520,7 +532,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
     from diag.config import AnalysisConfig
 
-    corroborating = (config or AnalysisConfig()).attribution == "posterior" and len(sizes) >= 2
+    corroborating = corroborate and (config or AnalysisConfig()).attribution == "posterior" and len(sizes) >= 2
 
     def submit(now: list, network_of: Callable, prefix: str) -> dict:
         futures = {}
