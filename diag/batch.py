@@ -289,7 +289,7 @@ def _first_pass(result: LinkResult, config) -> _HopOutcome:
     events = result.events
     if events is None or not len(events):
         return _HopOutcome(result, {}, minutes=minutes)
-    if (events["event_kind"] == "fade").any():
+    if "event_kind" not in events or (events["event_kind"] == "fade").any():
         return _HopOutcome(result, {}, minutes=minutes, pending=True)
     rescored = rescore(result, network_columns(without_network(events), result.link, []), config=config)
     same = rescored[schema.EVENT_COLUMNS].equals(events[schema.EVENT_COLUMNS])
@@ -338,18 +338,19 @@ def _network_pass(results: dict[str, LinkResult], minutes: dict[str, pd.Series],
 
     The same choice as :func:`diag.analysis.network.corroborate` in ``analyze_files``: the hops analysed, in
     links-table order, each hop against all the others."""
-    from diag.analysis.network import network_columns, without_network
+    from diag.analysis.network import minute_counts, network_columns, without_network
 
     ok = [hop for hop in order if hop in minutes]
     if len(ok) < 2:
         return {hop: None for hop in pending}
+    counts = {hop: minute_counts(minutes[hop]) for hop in ok}   # once per hop, read for every other hop
     for hop, events in settled_events.items():
         results[hop] = replace(results[hop], events=events)
     out = {}
     for hop in pending:
         result = results[hop]
         events = without_network(result.events)
-        others = [(results[o].link, minutes[o]) for o in ok if o != hop]
+        others = [(results[o].link, counts[o]) for o in ok if o != hop]
         columns = network_columns(events, result.link, others)
         out[hop] = pd.concat([events[["start_utc", "end_utc"]], columns], axis=1)
     return out
