@@ -6,8 +6,9 @@ with ``corroborate=False`` (every hop as if alone: one pass) and ``corroborate=T
 in the driver, second pass over the hops with fade events), for networks of ``--sizes`` hops; one-week hops of
 15-minute statistics (``bench/bench_network.py``'s ``make_network``: ``--distinct`` simulated hops repeated under
 new ids, so copies of one hop fade together as neighbours in a storm would).  Reported per size: best wall of
-``--rounds`` for each, their ratio and the extra seconds per hop; how many hops the second pass took; the driver's
-own time between the passes (network columns and submission); and the peak memory of the workers (polled).
+``--rounds`` for each, their ratio and the extra seconds per hop; the corroborated run split into reading, first
+pass, the driver's own work between the passes (network columns of every hop) and second pass (with how many hops
+it took); and the peak memory of the workers (polled every 0.2 s).
 ``--pdf`` also draws each hop's PDF (the default leaves it out: the analysis is then the whole cost, the worst case
 for the ratio).
 
@@ -17,7 +18,6 @@ from __future__ import annotations
 
 import argparse
 import importlib.util
-import math
 import sys
 import tempfile
 import threading
@@ -72,19 +72,35 @@ def one_run(client, folder: Path, links, corroborate: bool, pdf: bool) -> dict:
     from diag.config import AnalysisConfig
 
     stamps: list[tuple[str, float]] = []
-    with tempfile.TemporaryDirectory() as out, _WorkerPeak(client) as peak:
-        t0 = time.perf_counter()
-        res = batch.run([folder], links, out_dir=out, client=client, config=AnalysisConfig(attribution="posterior"),
-                        hop_pdf=pdf, corroborate=corroborate,
-                        progress=lambda stage, *a: stamps.append((stage, time.perf_counter())))
-        wall = time.perf_counter() - t0
-    failed = [r.link.link_id for r in res.results if r.error]
+    driver = [0.0]
+    network_pass = batch._network_pass
+
+    def timed(*args, **kwargs):   # the driver's own work between the passes
+        t = time.perf_counter()
+        try:
+            return network_pass(*args, **kwargs)
+        finally:
+            driver[0] += time.perf_counter() - t
+
+    batch._network_pass = timed
+    try:
+        with tempfile.TemporaryDirectory() as out, _WorkerPeak(client) as peak:
+            t0 = time.perf_counter()
+            res = batch.run([folder], links, out_dir=out, client=client,
+                            config=AnalysisConfig(attribution="posterior"), hop_pdf=pdf, corroborate=corroborate,
+                            progress=lambda stage, *a: stamps.append((stage, time.perf_counter())))
+            wall = time.perf_counter() - t0
+    finally:
+        batch._network_pass = network_pass
+    failed = [(r.link.link_id, r.error) for r in res.results if r.error]
     if failed:
-        raise SystemExit(f"hops failed: {[(r.link.link_id, r.error) for r in res.results if r.error][:3]}")
-    first_end = max((t for s, t in stamps if s == "analyse"), default=math.nan)
+        raise SystemExit(f"hops failed: {failed[:3]}")
+    read_end = max(t for s, t in stamps if s == "read")
+    first_end = max(t for s, t in stamps if s == "analyse")
     second = [t for s, t in stamps if s == "network"]
-    return {"wall": wall, "second_hops": len(second), "worker_peak": peak.peak,
-            "between": (min(second) - first_end) if second else math.nan}
+    return {"wall": wall, "read": read_end - t0, "first": first_end - read_end, "driver": driver[0],
+            "second": (max(second) - first_end) if second else 0.0, "second_hops": len(second),
+            "worker_peak": peak.peak}
 
 
 def main(argv=None) -> int:
@@ -123,13 +139,14 @@ def main(argv=None) -> int:
                     if best[corroborate] is None or got["wall"] < best[corroborate]["wall"]:
                         best[corroborate] = got
             rows.append((size, best[False], best[True]))
-    print("| hops | alone: wall s | corroborated: wall s | ratio | extra s per hop | hops in 2nd pass | "
-          "driver between passes s | worker peak MiB alone / corroborated |")
+    print("| hops | alone: wall s | corroborated: wall s | ratio | extra s per hop | corroborated: read / 1st pass / "
+          "driver / 2nd pass s (hops) | alone: read / analyse s | worker peak MiB alone / corroborated |")
     print("|---:|---:|---:|---:|---:|---:|---:|---:|")
     for size, alone, net in rows:
         print(f"| {size} | {alone['wall']:.1f} | {net['wall']:.1f} | {net['wall'] / alone['wall']:.2f} | "
-              f"{(net['wall'] - alone['wall']) / size:.3f} | {net['second_hops']} | {net['between']:.2f} | "
-              f"{alone['worker_peak'] / 2**20:.0f} / {net['worker_peak'] / 2**20:.0f} |")
+              f"{(net['wall'] - alone['wall']) / size:.3f} | {net['read']:.1f} / {net['first']:.1f} / "
+              f"{net['driver']:.2f} / {net['second']:.1f} ({net['second_hops']}) | {alone['read']:.1f} / "
+              f"{alone['first']:.1f} | {alone['worker_peak'] / 2**20:.0f} / {net['worker_peak'] / 2**20:.0f} |")
     return 0
 
 
