@@ -14,6 +14,13 @@ its
    (``diag.report.write_outputs``, the PDF included, so PDFs are drawn in the workers) into bytes.
    The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
    ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
+   Under the posterior attribution with two hops or more, the network corroborates (``corroborate``; the results
+   of ``diag.pipeline.analyze_files``, which holds every hop at once): the hop tasks are a first pass that also
+   returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute) and renders only
+   the hops without fade events (nothing the network says can change them); the driver computes the network
+   columns of every other hop's events (``network_columns``) and a second pass analyses those hops again with
+   their columns given to ``analyze_link(network=)`` and renders them.  Memory per task stays that of one hop; the
+   parsed files stay on the workers until the second pass has taken what it needs.
 3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
@@ -58,7 +65,7 @@ log = logging.getLogger(__name__)
 AnalyzeFn = Callable[..., LinkResult]          # analyze(table, link, *, config=None, ingest=None) -> LinkResult
 WriterFn = Callable[[list, Path], list]         # write(results, out_dir) -> list[Path]
 ReaderFn = Callable[..., tuple]                 # read(path, *, tz=None, mapping=None) -> (table, report dict)
-ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse", done, total, message)
+ProgressFn = Callable[[str, int, int, str], None]   # progress(stage "read"|"analyse"|"network", done, total, msg)
 
 _RESERVED = {"CON", "PRN", "AUX", "NUL", *(f"COM{i}" for i in range(1, 10)), *(f"LPT{i}" for i in range(1, 10))}
 
@@ -96,6 +103,12 @@ class _FilePiece:
 class _HopOutcome:
     result: LinkResult
     files: dict[str, bytes]
+    minutes: pd.Series | None = None          # first pass of a network run: the hop's faded minutes
+    pending: bool = False                     # ... its outputs wait for the second pass (files empty)
+    network_events: pd.DataFrame | None = None   # ... a settled hop's events as corroboration leaves them
+
+
+FIRST_PASS = "first"   # ``_hop_task(network=FIRST_PASS)``: the first pass of a corroborated network run
 
 
 # --- small helpers ----------------------------------------------------------------------------------------------
@@ -210,11 +223,16 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
 
 @one_line_warnings
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
-              analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool) -> _HopOutcome:
+              analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
+              network=None) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
 
     ``pieces``: the parsed files holding the hop; ``store_refs``: ``(store folder, hop id in the store)`` pairs,
-    read here, so a hop kept in a store never passes through the driver."""
+    read here, so a hop kept in a store never passes through the driver.
+
+    ``network`` (network corroboration, see :func:`run`): ``None`` as a hop alone; ``FIRST_PASS`` to analyse and
+    return the hop's faded minutes, rendering now only a hop that corroboration cannot change (else ``pending``);
+    a DataFrame of network columns for the second pass (``analyze(..., network=)``)."""
     if link is None:
         return _HopOutcome(failed_result(_placeholder_link(link_id), f"hop {link_id!r} has no row in the links "
                                          "table; add one"), {})
@@ -235,10 +253,16 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
             from diag.pipeline import analyze_link as analyze
-        result = analyze(table, link, config=config, ingest=ingest)
+        extra = {"network": network} if isinstance(network, pd.DataFrame) else {}
+        result = analyze(table, link, config=config, ingest=ingest, **extra)
         del table
+        first = isinstance(network, str) and network == FIRST_PASS   # (a string: sent through pickle)
+        outcome = _first_pass(result, config) if first and result.error is None else None
     except Exception as exc:
         return _HopOutcome(failed_result(link, _one_line(exc)), {})
+    if outcome is not None and outcome.pending:
+        outcome.result = replace(result, series={})
+        return outcome
     files: dict[str, bytes] = {}
     if result.error is None:
         try:
@@ -247,15 +271,37 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
             result.error = f"writing outputs: {_one_line(exc)}"
     if not keep_series:
         result = replace(result, series={})
-    return _HopOutcome(result, files)
+    if outcome is None:
+        return _HopOutcome(result, files)
+    outcome.result, outcome.files = result, files
+    return outcome
+
+
+def _first_pass(result: LinkResult, config) -> _HopOutcome:
+    """The first-pass outcome of an analysed hop (result and files filled by the caller): its faded minutes, and
+    whether corroboration can change it.  A hop without fade events gets no network term (the network columns of
+    other events are empty whatever the other hops did), so it is re-scored here as :func:`diag.analysis.network.
+    corroborate` would; it is settled when that leaves the causes and the written columns as they are, else
+    pending like a hop with fade events."""
+    from diag.analysis.network import faded_minutes, network_columns, rescore, without_network
+
+    minutes = faded_minutes(result)
+    events = result.events
+    if events is None or not len(events):
+        return _HopOutcome(result, {}, minutes=minutes)
+    if "event_kind" not in events or (events["event_kind"] == "fade").any():
+        return _HopOutcome(result, {}, minutes=minutes, pending=True)
+    rescored = rescore(result, network_columns(without_network(events), result.link, []), config=config)
+    same = rescored[schema.EVENT_COLUMNS].equals(events[schema.EVENT_COLUMNS])
+    return _HopOutcome(result, {}, minutes=minutes, pending=not same, network_events=rescored if same else None)
 
 
 def _hops_task(items: list[tuple], config, analyze: AnalyzeFn | None, writer: WriterFn | None,
                keep_series: bool, *pieces) -> list[_HopOutcome]:
     """Several small hops in one task (``_hop_task`` for each): ``items`` are ``(hop, link, piece positions,
-    store refs)``, the positions index ``pieces``, the parsed files the group needs (each passed once)."""
-    return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series)
-            for hop, link, where, refs in items]
+    store refs, network)``, the positions index ``pieces``, the parsed files the group needs (each passed once)."""
+    return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series, network)
+            for hop, link, where, refs, network in items]
 
 
 ROWS_PER_TASK = 200_000     # hops are grouped into one task up to this many rows (small hops: scheduling overhead)
@@ -282,6 +328,32 @@ def hop_groups(sizes: Sequence[tuple[str, int | None]], n_workers: int, *, rows_
             groups.append([hop])
             rows = n
     return groups
+
+
+# --- network corroboration ---------------------------------------------------------------------------------------
+def _network_pass(results: dict[str, LinkResult], minutes: dict[str, pd.Series],
+                  settled_events: dict[str, pd.DataFrame], pending: list[str], order: list[str]) -> dict:
+    """After the first pass: the hops of the second pass, each with its network columns (``None``: as a hop alone,
+    when fewer than two hops were analysed).  Settled hops take the events corroboration leaves them (in place).
+
+    The same choice as :func:`diag.analysis.network.corroborate` in ``analyze_files``: the hops analysed, in
+    links-table order, each hop against all the others."""
+    from diag.analysis.network import minute_counts, network_columns, without_network
+
+    ok = [hop for hop in order if hop in minutes]
+    if len(ok) < 2:
+        return {hop: None for hop in pending}
+    counts = {hop: minute_counts(minutes[hop]) for hop in ok}   # once per hop, read for every other hop
+    for hop, events in settled_events.items():
+        results[hop] = replace(results[hop], events=events)
+    out = {}
+    for hop in pending:
+        result = results[hop]
+        events = without_network(result.events)
+        others = [(results[o].link, counts[o]) for o in ok if o != hop]
+        columns = network_columns(events, result.link, others)
+        out[hop] = pd.concat([events[["start_utc", "end_utc"]], columns], axis=1)
+    return out
 
 
 # --- the run ----------------------------------------------------------------------------------------------------
@@ -353,7 +425,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         workers: int | None = None, scheduler: str | None = None, client=None, tz=None, mapping=None, config=None,
         analyze: AnalyzeFn | None = None, writer: WriterFn | None = None, reader: ReaderFn | None = None,
         progress: ProgressFn | None = None, keep_series: bool = False, hop_pdf: bool = True,
-        connect_timeout_s: float = 10.0) -> BatchResult:
+        connect_timeout_s: float = 10.0, corroborate: bool = True) -> BatchResult:
     """Analyse every hop found in ``inputs`` (files, folders, Parquet stores) in parallel on Dask.
 
     Parameters
@@ -372,6 +444,11 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
     hop_pdf : write each hop's ``report.pdf`` (about a second or more per hop); ``False`` writes the other files
         only (``write_tables``).  Ignored when ``writer`` is given.
     connect_timeout_s : how long to try reaching ``scheduler``.
+    corroborate : under the posterior attribution (``config.attribution == "posterior"``) and with at least two
+        hops, a fade shared with other hops is rain evidence (:mod:`diag.analysis.network`), with the results of
+        ``diag.pipeline.analyze_files``: a first pass gives each hop's faded minutes (a hop without fade events is
+        finished there), the driver computes each hop's network columns, and a second pass analyses the hops with
+        fade events again with their columns and writes their files.  ``False``: every hop as if alone.
     """
     files, stores = expand_inputs(inputs)
     if not links:
@@ -387,7 +464,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
             client, cluster = _open_client(workers, scheduler, connect_timeout_s)
         try:
             return _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader,
-                        progress, keep_series)
+                        progress, keep_series, corroborate)
         finally:
             if own:
                 client.close()
@@ -396,7 +473,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
 
 
 def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,
-         keep_series) -> BatchResult:
+         keep_series, corroborate=True) -> BatchResult:
     from distributed import as_completed
 
     def tell(stage, done, total, message):
@@ -452,44 +529,83 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         rows = None if hop in store_hops else sum(reads[i]["hops"].get(hop, 0) for i in hop_files[hop])
         sizes.append((hop, rows))
     n_workers = max(1, len(client.scheduler_info().get("workers", {})))
-    hop_futures = {}
-    for group in hop_groups(sizes, n_workers):
-        needed = sorted({i for hop in group for i in hop_files.get(hop, [])})
-        position = {i: k for k, i in enumerate(needed)}
-        items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []))
-                 for hop in group]
-        hop_futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
-                                  *[pieces[i] for i in needed], key=f"hops-{safe_name(group[0])}-{len(hop_futures)}",
-                                  pure=False)] = group
-    del pieces  # each file's table is released by the cluster as soon as its last hop task has finished
+    # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
+    # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
+    from diag.config import AnalysisConfig
+
+    corroborating = corroborate and (config or AnalysisConfig()).attribution == "posterior" and len(sizes) >= 2
+
+    def submit(now: list, network_of: Callable, prefix: str) -> dict:
+        futures = {}
+        for group in hop_groups(now, n_workers):
+            needed = sorted({i for hop in group for i in hop_files.get(hop, [])})
+            position = {i: k for k, i in enumerate(needed)}
+            items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []),
+                      network_of(hop)) for hop in group]
+            futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
+                                  *[pieces[i] for i in needed],
+                                  key=f"{prefix}-{safe_name(group[0])}-{len(futures)}", pure=False)] = group
+        return futures
+
+    hop_futures = submit(sizes, lambda hop: FIRST_PASS if corroborating else None, "hops")
+    # each file's table is released by the cluster as soon as its last hop task has finished (in a corroborated
+    # run: as soon as none of its hops waits for the second pass)
+    files_of = {i: set(meta["hops"]) for i, meta in enumerate(reads)} if corroborating else {}
+    if not corroborating:
+        del pieces
     results: dict[str, LinkResult] = {}
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
     if out is not None:
         _clear_outputs(out, folders.values())
     unmatched = [m for m in reads if m["error"] and not m["hop_of_error"]]
-    total = len(sizes)
-    done = 0
-    for fut in as_completed(list(hop_futures)):
-        group = hop_futures.pop(fut)
-        try:
-            outcomes: list[_HopOutcome] = fut.result()
-        except Exception as exc:  # a worker died or the task could not run: its hops fail, the rest go on
-            outcomes = [_HopOutcome(failed_result(by_id.get(hop) or _placeholder_link(hop), _one_line(exc)), {})
-                        for hop in group]
-        fut.release()
-        for hop, outcome in zip(group, outcomes):
-            results[hop] = outcome.result
-            if out is not None and outcome.files:
-                folder = out / "hops" / folders[hop]
-                for rel, data in outcome.files.items():
-                    target = folder / rel
-                    target.parent.mkdir(parents=True, exist_ok=True)
-                    target.write_bytes(data)
-                    written.append(target)
-            done += 1
-            tell("analyse", done, total, hop + (f" (error: {outcome.result.error})" if outcome.result.error
-                                                else ""))
+    minutes: dict[str, pd.Series] = {}
+    settled_events: dict[str, pd.DataFrame] = {}
+    pending: list[str] = []
+
+    def collect(futures: dict, stage: str, total: int) -> None:
+        done = 0
+        for fut in as_completed(list(futures)):
+            group = futures.pop(fut)
+            try:
+                outcomes: list[_HopOutcome] = fut.result()
+            except Exception as exc:  # a worker died or the task could not run: its hops fail, the rest go on
+                outcomes = [_HopOutcome(failed_result(by_id.get(hop) or _placeholder_link(hop), _one_line(exc)),
+                                        {}) for hop in group]
+            fut.release()
+            for hop, outcome in zip(group, outcomes):
+                results[hop] = outcome.result
+                if outcome.minutes is not None:
+                    minutes[hop] = outcome.minutes
+                if outcome.network_events is not None:
+                    settled_events[hop] = outcome.network_events
+                if outcome.pending:
+                    pending.append(hop)
+                else:
+                    for i in hop_files.get(hop, []):
+                        files_of.get(i, set()).discard(hop)
+                        if i in files_of and not files_of[i]:
+                            pieces[i] = None
+                if out is not None and outcome.files:
+                    folder = out / "hops" / folders[hop]
+                    for rel, data in outcome.files.items():
+                        target = folder / rel
+                        target.parent.mkdir(parents=True, exist_ok=True)
+                        target.write_bytes(data)
+                        written.append(target)
+                done += 1
+                note = (f" (error: {outcome.result.error})" if outcome.result.error
+                        else " (waits for the network pass)" if outcome.pending else "")
+                tell(stage, done, total, hop + note)
+
+    collect(hop_futures, "analyse", len(sizes))
+    if corroborating:
+        network_of = _network_pass(results, minutes, settled_events, pending, order)
+        second = [(hop, rows) for hop, rows in sizes if hop in network_of]
+        futures = submit(second, network_of.get, "network")
+        del pieces
+        files_of.clear()
+        collect(futures, "network", len(second))
     for hop in order:  # hops in the links table that no input mentions
         if hop not in results:
             results[hop] = failed_result(by_id[hop], "no data for this hop in the inputs")

@@ -163,19 +163,25 @@ def _one_blas_thread():
 
 
 def analyze_link(table: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None, gauge=None,
-                 ingest: dict | None = None, threads: int | None = None) -> LinkResult:
+                 ingest: dict | None = None, threads: int | None = None,
+                 network: pd.DataFrame | None = None) -> LinkResult:
     """Analyse the normalised rows of ONE hop (see the module docstring for the stages).
 
     ``gauge``: a rain-gauge table from :func:`diag.read.gauge.read_gauge`, or a path / ``(name, bytes)`` to read.
     ``threads``: threads for the independent stages (statistics, cross-polar, level changes, outage); None =
     :func:`default_threads`.  The result is the same for any number.
+    ``network``: the network columns of this hop's fade events (:func:`diag.analysis.network.network_columns` with
+    the ``start_utc``/``end_utc`` of the events they were computed for), given by ``diag.batch`` after a first
+    analysis of the same rows; read by the posterior attribution only.  The result is the one
+    :func:`diag.analysis.network.corroborate` makes of the first analysis.
     Raises ``InputError`` when the rows hold no receive level.
     """
     with _one_blas_thread():
-        return _analyze_link(table, link, config=config, gauge=gauge, ingest=ingest, threads=threads)
+        return _analyze_link(table, link, config=config, gauge=gauge, ingest=ingest, threads=threads,
+                             network=network)
 
 
-def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, threads) -> LinkResult:
+def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, threads, network=None) -> LinkResult:
     config = config or AnalysisConfig()
     gauge_table = _load_gauge(gauge)
     if S.LINK in table.columns and _several_values(table[S.LINK]):
@@ -194,7 +200,12 @@ def _analyze_link(table: pd.DataFrame, link: Link, *, config, gauge, ingest, thr
     spans = [span for item in items for span in level_shift_spans(item, config)]
     events = find_events(series, link, config=config, spans=spans, gauge=gauge_table)
     if config.attribution == "posterior":   # the default: the physics posterior (diag.analysis.classify)
-        events = classify_events(add_evidence(events, series), link, config=config)
+        events = add_evidence(events, series)
+        if network is not None:   # other hops fading with these events (diag.batch's second pass)
+            from diag.analysis.network import with_network
+
+            events = with_network(events, network)
+        events = classify_events(events, link, config=config)
     else:                                  # the older rulebook (diag.analysis.rulebook), for comparison
         events = rulebook.classify_events(events, link, config=config)
     paint_series(series, events)

@@ -35,6 +35,10 @@ def register(subparsers) -> None:
     parser.add_argument("--only-listed", action="store_true",
                         help="analyse only the hops of the links table; rows of other hops are skipped and counted "
                              "(unlisted_hop)")
+    parser.add_argument("--attribution", choices=("rules", "posterior"), default=None,
+                        help="how causes are named, as in 'analyze' (default: the library's, today the rulebook); "
+                             "with 'posterior' a fade shared with other hops of the network counts as rain "
+                             "evidence (a second pass re-analyses the hops with fades)")
     parser.add_argument("--quiet", action="store_true", help="no progress lines on stderr")
     parser.set_defaults(func=main)
 
@@ -42,7 +46,7 @@ def register(subparsers) -> None:
 def _progress(quiet: bool):
     def show(stage: str, done: int, total: int, message: str) -> None:
         if not quiet:
-            word = "read" if stage == "read" else "hop"
+            word = {"read": "read", "network": "network"}.get(stage, "hop")
             print(f"diag: {word} {done}/{total} {message}", file=sys.stderr, flush=True)
     return show
 
@@ -66,8 +70,14 @@ def main(args: argparse.Namespace) -> int:
     mapping = load_mapping(args.map) if args.map else None   # checked here: one error, not one per file
     if args.only_listed:
         mapping = only_listed(mapping, links)
+    config = None
+    if args.attribution:
+        from diag.config import AnalysisConfig
+
+        config = AnalysisConfig(attribution=args.attribution)
     result = batch.run(args.inputs, links, out_dir=args.out, workers=args.workers, scheduler=args.scheduler,
-                       tz=args.tz, mapping=mapping, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf)
+                       tz=args.tz, mapping=mapping, progress=_progress(args.quiet), hop_pdf=not args.no_hop_pdf,
+                       config=config)
     ranking = result.ranking
     ok = ranking[ranking["error"] == ""]
     failed = ranking[ranking["error"] != ""]

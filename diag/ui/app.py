@@ -87,18 +87,23 @@ def read_report(name: str, data: bytes, tz: str, mapping_json: str) -> dict:
     return read_log(data, name=name, tz=tz or None, mapping=mapping).report.to_dict()
 
 
-def analyse(sources, links: list[Link], tz: str, mapping: dict | None, progress=None):
-    """``diag.pipeline.analyze_files`` over the given files, cached by file bytes and parameters."""
+def analyse(sources, links: list[Link], tz: str, mapping: dict | None, progress=None, config=None):
+    """``diag.pipeline.analyze_files`` over the given files, cached by file bytes and parameters.  Several hops are
+    analysed together, so under the posterior attribution their fades corroborate each other (as in ``analyze``).
+    ``config``: a ``diag.config.AnalysisConfig`` (None: the library's default, which the page uses)."""
+    from dataclasses import asdict
+
     from diag.pipeline import analyze_files
 
     key = digest([n for n, _ in sources], *[b for _, b in sources], [link.to_dict() for link in links], tz,
-                 mapping)
+                 mapping, asdict(config) if config is not None else None)
     store, lock = _analysis_store()
     with lock:
         if key in store:
             store.move_to_end(key)
             return key, store[key]
-    results = analyze_files(list(sources), links=links, tz=tz or None, mapping=mapping, progress=progress)
+    results = analyze_files(list(sources), links=links, tz=tz or None, mapping=mapping, progress=progress,
+                            config=config)
     with lock:
         store[key] = results
         while len(store) > MAX_CACHED_ANALYSES:

@@ -1,0 +1,104 @@
+"""Network corroboration arithmetic (``diag.analysis.network``): which hops count, the time window, the plain and
+the distance-weighted share, the faded minutes of a 15-min statistics log, and the guard of the second pass.
+
+Distances: great-circle on a sphere of radius 6371 km (the mean Earth radius, common practice), so one degree of
+latitude is 2*pi*6371/360 = 111.195 km; the weights are exp(-d / CORRELATION_KM) as the module documents.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from diag import schema as S
+from diag.analysis import network as N
+from diag.links import Link
+from diag.results import ChannelSeries, LinkResult
+
+T0 = pd.Timestamp("2026-06-10 12:00", tz="UTC")
+KM_PER_DEG = 2 * math.pi * 6371.0 / 360.0
+
+
+def _link(hop: str, lat: float | None = None) -> Link:
+    coords = {} if lat is None else {"site_a_lat": lat - 0.01, "site_a_lon": 5.0, "site_b_lat": lat + 0.01,
+                                      "site_b_lon": 5.0}
+    return Link(link_id=hop, frequency_ghz=23.0, length_km=2.2, polarization="V", threshold_dbm=-70.0, **coords)
+
+
+def _minutes(faded_at: list[int], seen: range = range(-60, 120)) -> pd.Series:
+    """Per-minute faded flags from T0 + minute offsets: True at ``faded_at``, False elsewhere in ``seen``."""
+    index = pd.DatetimeIndex([T0 + pd.Timedelta(minutes=m) for m in seen])
+    return pd.Series([m in faded_at for m in seen], index=index, dtype=object)
+
+
+def _events(kinds=("fade",), start_min=0, end_min=10) -> pd.DataFrame:
+    return pd.DataFrame({"event_kind": list(kinds), "start_utc": [T0 + pd.Timedelta(minutes=start_min)] * len(kinds),
+                         "end_utc": [T0 + pd.Timedelta(minutes=end_min)] * len(kinds)})
+
+
+def test_plain_share_counts_hops_with_data_in_the_window():
+    others = [(_link("A"), _minutes([5])), (_link("B"), _minutes([])),
+              (_link("C"), _minutes([5], seen=range(200, 300)))]   # C has no data near the event: not counted
+    got = N.network_columns(_events(), _link("X"), others)
+    assert got["network_share"].iloc[0] == pytest.approx(0.5)
+    assert got["network_hops"].iloc[0] == 2
+
+
+def test_window_reaches_the_margin_either_side():
+    margin_min = N.MARGIN_S / 60.0
+    inside = _minutes([int(10 + margin_min) - 1])      # 4 min after the end
+    outside = _minutes([int(10 + margin_min) + 1])     # 6 min after the end
+    before = _minutes([-int(margin_min) + 1])          # 4 min before the start
+    for minutes, want in ((inside, 1.0), (outside, 0.0), (before, 1.0)):
+        got = N.network_columns(_events(), _link("X"), [(_link("A"), minutes)])
+        assert got["network_share"].iloc[0] == want
+
+
+def test_distance_weighted_share():
+    """X and A share a midpoint (weight 1, A faded); B's midpoint is 20 km north (weight exp(-1), not faded)."""
+    d_km = N.CORRELATION_KM
+    others = [(_link("A", 0.0), _minutes([5])), (_link("B", d_km / KM_PER_DEG), _minutes([]))]
+    got = N.network_columns(_events(), _link("X", 0.0), others)
+    assert got["network_share"].iloc[0] == pytest.approx(1.0 / (1.0 + math.exp(-1.0)), rel=1e-6)
+    # one hop without coordinates: every weight is 1 (the plain share)
+    plain = N.network_columns(_events(), _link("X"), others)
+    assert plain["network_share"].iloc[0] == pytest.approx(0.5)
+
+
+def test_only_fade_events_get_columns_and_a_hop_alone_gets_none():
+    got = N.network_columns(_events(kinds=("fade", "level_shift")), _link("X"), [(_link("A"), _minutes([5]))])
+    assert got["network_hops"].tolist() == [1, 0] and math.isnan(got["network_share"].iloc[1])
+    alone = N.network_columns(_events(), _link("X"), [])
+    assert alone["network_hops"].tolist() == [0] and math.isnan(alone["network_share"].iloc[0])
+
+
+def _stats_result(peaks_db: list[float]) -> LinkResult:
+    index = pd.date_range(T0, periods=len(peaks_db), freq="15min")
+    frame = pd.DataFrame({"attenuation_db": np.zeros(len(peaks_db)), "attenuation_peak_db": peaks_db,
+                          "status": [S.OK] * len(peaks_db)}, index=index)
+    series = ChannelSeries(link_id="X", channel="V", interval_s=900.0, kind="stats", frame=frame)
+    return LinkResult(link=_link("X"), series={"V": series}, events=pd.DataFrame())
+
+
+def test_a_15min_statistic_covers_every_minute_of_its_interval():
+    minutes = N.faded_minutes(_stats_result([0.0, 8.0, 0.0]))
+    assert len(minutes) == 45
+    assert minutes.iloc[15:30].all() and not minutes.iloc[:15].any() and not minutes.iloc[30:].any()
+
+
+def test_corroborate_leaves_a_single_hop_alone():
+    result = _stats_result([0.0, 8.0])
+    result.events = _events()
+    assert N.corroborate([result]) == [result]
+    assert "network_share" not in result.events
+
+
+def test_second_pass_refuses_columns_of_other_events():
+    events = _events()
+    columns = pd.concat([events[["start_utc", "end_utc"]],
+                         N.network_columns(events, _link("X"), [(_link("A"), _minutes([5]))])], axis=1)
+    assert N.with_network(events, columns)["network_hops"].tolist() == [1]
+    with pytest.raises(RuntimeError, match="other fade events"):
+        N.with_network(_events(start_min=1), columns)
