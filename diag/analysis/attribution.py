@@ -327,11 +327,36 @@ def term_context(row, link: Link, prior: HopPrior):
     return _v(0.0, 1.5 * min(1.0, near / 2.0), 0.0), f"{near:.0f} multipath fade(s) within 30 min on this hop"
 
 
+DIURNAL_WINDOW_S = 4500.0   # +-75 min: "the same time of day" (sunrise moves little in a week; the layer's
+#                             break-up and a mount's heating wander by about an hour: stated choice)
+DIURNAL_P_RECUR = 0.7       # a clock-bound fade (a sunrise fade, a heated mount) recurs on most days (stated)
+
+
+def term_diurnal(row, link: Link, prior: HopPrior):
+    """The same hop fading at the same time of day (+-75 min) on the other days of the record: the break-up of
+    the night's stable layer after sunrise and the sun heating a mount or a radome keep the clock (the morning
+    fades of P.530 §2.3's clear-air mechanisms; common practice), rain does not.  Columns ``diurnal_days`` (other
+    days the record spans), ``diurnal_matches`` (of them, days with a fade starting that close in time of day) and
+    ``diurnal_chance`` (the chance of such a match on one day from the hop's own rate of fade starts, Poisson),
+    set by :func:`attribute`.  Log-likelihood ratio of recurrence on ``DIURNAL_P_RECUR`` of the days against
+    chance, bounded to 0..3, against rain only (multipath nights recur too)."""
+    days, hits, chance = _f(row.get("diurnal_days")), _f(row.get("diurnal_matches")), _f(row.get("diurnal_chance"))
+    if not (days >= 3 and 0.0 < chance < DIURNAL_P_RECUR) or not math.isfinite(hits):
+        return None
+    p1 = DIURNAL_P_RECUR
+    llr = hits * math.log(p1 / chance) + (days - hits) * math.log((1.0 - p1) / (1.0 - chance))
+    s = _clip(llr, 0.0, 3.0)
+    if s <= 0.0:
+        return None
+    return _v(-s, 0.0, 0.0), f"faded at this time of day on {hits:.0f} of {days:.0f} other days (chance {chance:.0%})"
+
+
 TERMS: dict[str, Callable] = {
     "fast": term_fast, "variability": term_variability, "spread": term_spread, "upfade": term_upfade,
     "polarisation": term_polarisation, "decorrelation": term_decorrelation, "companion": term_companion,
     "duration": term_duration,
     "shape": term_shape, "hour": term_hour, "gauge": term_gauge, "network": term_network, "context": term_context,
+    "diurnal": term_diurnal,
 }
 
 
@@ -422,6 +447,43 @@ def _context_counts(rows: list[dict], p_multipath: np.ndarray, window_s: float =
     return out
 
 
+def _diurnal(rows: list[dict]) -> None:
+    """Set ``diurnal_days``, ``diurnal_matches`` and ``diurnal_chance`` on each fade row (see :func:`term_diurnal`).
+    Days spanned: calendar days (UTC) from the hop's first to its last fade start; the chance of a match on one day
+    comes from the MEDIAN number of fade starts per day (one per ``group_id``: one physical fade seen on several
+    channels), so a few stormy days do not make every quiet day's recurrence look like chance."""
+    starts = [pd.Timestamp(r["start_utc"]) if r.get("start_utc") is not None and r.get("event_kind") == "fade"
+              else None for r in rows]
+    valid = [t for t in starts if t is not None and not pd.isna(t)]
+    if len(valid) < 2:
+        return
+    t_ns = np.array(sorted({t.value for t in valid}), dtype=np.int64)
+    day_ns = 86400 * 10 ** 9
+    first_day, last_day = t_ns.min() // day_ns, t_ns.max() // day_ns
+    n_days = int(last_day - first_day + 1)
+    first_start: dict = {}
+    for r, t in zip(rows, starts):
+        if t is not None and not pd.isna(t):
+            g = r.get("group_id")
+            first_start[g] = min(first_start.get(g, t.value), t.value)
+    per_day = np.bincount(np.array([v // day_ns - first_day for v in first_start.values()], dtype=np.int64),
+                          minlength=n_days)
+    rate_per_s = float(np.median(per_day)) / 86400.0
+    chance = 1.0 - math.exp(-rate_per_s * 2.0 * DIURNAL_WINDOW_S)
+    day = t_ns // day_ns
+    tod = t_ns % day_ns
+    win = int(DIURNAL_WINDOW_S * 1e9)
+    for r, t in zip(rows, starts):
+        if t is None or pd.isna(t):
+            continue
+        my_day, my_tod = t.value // day_ns, t.value % day_ns
+        gap = np.abs(tod - my_tod)
+        close = np.minimum(gap, day_ns - gap) <= win
+        r["diurnal_days"] = float(n_days - 1)
+        r["diurnal_matches"] = float(len(set(day[close & (day != my_day)].tolist())))
+        r["diurnal_chance"] = chance
+
+
 def _group_ids(rows: list[dict]) -> np.ndarray:
     out = np.full(len(rows), -1, dtype=np.int64)
     for i, row in enumerate(rows):
@@ -453,6 +515,7 @@ def prepare(rows: list[dict], link: Link, prior: HopPrior | None = None, weights
     comes from a first pass with ``weights``."""
     prior = prior or hop_prior(link)
     w = WEIGHTS if weights is None else weights
+    _diurnal(rows)
     base, terms, texts, allowed = evidence_terms(rows, link, prior)
     _, first = posterior(base, terms, allowed, w)
     if len(rows):

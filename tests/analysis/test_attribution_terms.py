@@ -1,0 +1,75 @@
+"""Single evidence terms of the physics posterior (diag.analysis.attribution), each against the physical fact it
+encodes (named beside each test).  Rows are dicts of event columns, as ``attribute`` receives them."""
+from __future__ import annotations
+
+import pandas as pd
+import pytest
+
+from diag.analysis import attribution as A
+from diag.analysis.priors import hop_prior
+from diag.links import make_link
+
+LINK = make_link({"link_id": "T", "frequency_ghz": 25.0, "length_km": 6.0, "polarization": "H",
+                  "threshold_dbm": -90.0})
+PRIOR = hop_prior(LINK)
+
+
+def _rain_minus_other(got):
+    vec, _ = got
+    return vec[A.R] - vec[A.OTHER]
+
+
+def test_other_direction_not_fading_argues_against_rain_and_refraction():
+    # reciprocity: rain and refraction on the shared path fade both directions of a duplex pair alike; one
+    # direction fading 4 dB while the other stays at 0 is no rain (OpenRainER link 275, 19 Aug 2022: 3-4 dB dips
+    # on one sub-link, no gauge within 10 km wet but one)
+    row = {"partner_ratio": 0.0, "peak_fade_db_finite": 4.0}
+    vec, text = A.term_companion(row, LINK, PRIOR)
+    assert vec[A.R] <= -2.9 and vec[A.F] <= -2.9 and vec[A.M] == 0.0 and vec[A.OTHER] == 0.0
+    assert "other direction faded 0%" in text
+    # both directions faded alike: no term; a partner that faded clearly (9 dB of a 38-dB fade, heavy rain with
+    # one end's radome wetter) is not "not fading": no term either
+    assert A.term_companion({"partner_ratio": 0.95, "peak_fade_db_finite": 4.0}, LINK, PRIOR) is None
+    assert A.term_companion({"partner_ratio": 0.33, "peak_fade_db_finite": 38.0}, LINK, PRIOR) is None
+    # an H/V pair is judged by the P.838 polarisation term instead
+    assert A.term_companion({"partner_ratio": 0.0, "peak_fade_db_finite": 4.0, "v_over_h_ratio": 0.0},
+                            LINK, PRIOR) is None
+
+
+def test_network_evidence_rests_on_near_hops():
+    # rain fields decorrelate over tens of km: a share carried by hops 50 km away (weights exp(-50/20) = 0.08 each)
+    # says little; the same share from one hop next door says much
+    far = {"network_share": 0.3, "network_hops": 10, "network_faded_weight": 0.08}
+    near = {"network_share": 0.3, "network_hops": 10, "network_faded_weight": 1.0}
+    assert A.term_network(far, LINK, PRIOR)[0][A.R] == pytest.approx(2.0 * 0.08)
+    assert A.term_network(near, LINK, PRIOR)[0][A.R] == pytest.approx(2.0)
+    # without coordinates every hop weighs 1: the plain share decides (the faded weight is then >= 1)
+    assert A.term_network({"network_share": 0.1, "network_hops": 10, "network_faded_weight": 1.0},
+                          LINK, PRIOR)[0][A.R] == pytest.approx(1.0)
+
+
+def _fade(day: int, hh: int, mm: int, group: int) -> dict:
+    start = pd.Timestamp("2022-08-14T00:00Z") + pd.Timedelta(days=day, hours=hh, minutes=mm)
+    return {"event_kind": "fade", "start_utc": start, "end_utc": start + pd.Timedelta(hours=3), "group_id": group}
+
+
+def test_a_fade_that_keeps_the_clock_is_not_rain():
+    # the morning break-up of the night's stable layer (and a sun-heated mount) recur at the same hour day after
+    # day; rain does not (OpenRainER link 364: 4-7 dB from about 06:15 UTC for 4-6 h on each dry day)
+    rows = [_fade(d, 6, 10 + 7 * (d % 3), d) for d in range(8)]
+    A._diurnal(rows)
+    got = A.term_diurnal(rows[0], LINK, PRIOR)
+    assert got is not None and got[0][A.R] == pytest.approx(-3.0) and "7 of 7 other days" in got[1]
+    # the same number of fades at hours scattered over the day: no recurrence beyond chance, no term
+    scattered = [_fade(d, (5 * d + 3) % 24, 0, d) for d in range(8)]
+    A._diurnal(scattered)
+    assert all(A.term_diurnal(r, LINK, PRIOR) is None for r in scattered)
+
+
+def test_texture_terms_count_smooth_dips_for_other_too():
+    # a dip with no fast fluctuation is as smooth as an equipment or reference dip: "other" moves with rain and
+    # refraction, against multipath (Rayleigh fading fluctuates within seconds)
+    row = {"interval_s": 1.0, "fast_std_db": 0.05, "noise_diff_db": 0.05, "mean_fade_db": 4.0}
+    vec, _ = A.term_fast(row, LINK, PRIOR)
+    assert vec[A.OTHER] == vec[A.R] == vec[A.F] > 0 > vec[A.M]
+    assert _rain_minus_other((vec, "")) == 0.0
