@@ -270,6 +270,11 @@ def channel_grids(table: pd.DataFrame) -> dict[str, ChannelSeries]:
             frame = groups.get((source, quantity, S.SAMPLE if kind == "sample" else S.AVG))
             if frame is None:
                 frame = groups.get((source, quantity, S.SAMPLE))
+            if frame is None and quantity == S.TSL and kind == "stats" and (channel, S.RSL, S.AVG) not in groups:
+                # min/max exports: the receive level read is the interval minimum, and ATPC raises the transmitter
+                # as the path fades, so the interval's highest transmit level goes with it (without it a fade that
+                # ATPC held off the RSL would not be seen at all)
+                frame = groups.get((source, quantity, S.MAX))
             if frame is None:
                 continue
             ts = frame[S.TIME].to_numpy(dtype="datetime64[ns]").astype(np.int64)
