@@ -203,8 +203,8 @@ def test_gauge_dry_minutes_mostly_not_rain(table):
 
 
 def test_rain_events_mostly_confirmed_by_gauge(table):
-    # measured 2026-12-04: 113 of 129 rain events on the 7 links confirmed (gauge >= 0.5 mm/h within +-15 min)
-    # (the older rulebook 2026-12-02: 69 of 70 on the 6 rain links)
+    # measured 2026-12-04: 94 of 106 rain events on the 6 rain links confirmed (gauge >= 0.5 mm/h within +-15 min;
+    # the refuted ones are mostly showers the nearest gauge missed) (the older rulebook 2026-12-02: 69 of 70)
     assert _share(table, "confirmed", "rain_events", RAIN_LINKS) >= 0.85
 
 
