@@ -450,6 +450,9 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         finished there), the driver computes each hop's network columns, and a second pass analyses the hops with
         fade events again with their columns and writes their files.  ``False``: every hop as if alone.
     """
+    from diag.pipeline import with_local_tz  # the hour term's clock from --tz (batch and analyze alike)
+
+    config = with_local_tz(config, tz)
     files, stores = expand_inputs(inputs)
     if not links:
         raise InputError("the links table holds no links")

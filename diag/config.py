@@ -50,3 +50,6 @@ class AnalysisConfig:
     # diag.analysis.rulebook, kept for comparison; it names causes the hop's physics rules out and calls most
     # real rain something else: docs/validation.md)
     attribution: str = "posterior"
+    # the logs' local time zone (IANA name, from --tz): the clock of the posterior's hour term on hops whose links
+    # table gives no site coordinates (with coordinates it reads local solar time from the mid-path longitude)
+    local_tz: str | None = None

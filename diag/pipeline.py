@@ -20,6 +20,7 @@ Thresholds: :class:`diag.config.AnalysisConfig`.  Files of one hop are assembled
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import logging
 import os
 import sys
@@ -287,6 +288,13 @@ def expand_sources(sources: Iterable) -> list:
     return out
 
 
+def with_local_tz(config: AnalysisConfig | None, tz) -> AnalysisConfig | None:
+    """``config`` with ``local_tz`` set from the reader's ``--tz`` zone when it names one and none is set."""
+    if not isinstance(tz, str) or not tz or (config is not None and config.local_tz):
+        return config
+    return dataclasses.replace(config or AnalysisConfig(), local_tz=tz)
+
+
 def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = None, mapping=None,
                   config: AnalysisConfig | None = None, gauge=None,
                   progress: Progress | None = None) -> list[LinkResult]:
@@ -300,6 +308,7 @@ def analyze_files(sources: Iterable, *, links: Sequence[Link], tz: str | None = 
     gauge_table = _load_gauge(gauge)
     links = list(links)
     by_id = {link.link_id: link for link in links}
+    config = with_local_tz(config, tz)
     pieces: dict[str, list[pd.DataFrame]] = {}
     reports: dict[str, list[dict]] = {}
     names: dict[str, list[str]] = {}

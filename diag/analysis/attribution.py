@@ -273,18 +273,38 @@ def local_solar_hour(hour_utc: float, link: Link) -> tuple[float, bool]:
     return (float(hour_utc) + float(np.mean(lons)) / 15.0) % 24.0, True
 
 
-def term_hour(row, link: Link, prior: HopPrior):
-    """Hour in local solar time: clear-air fading comes with the stable stratified air of nights and early mornings
-    (P.530 §2.3 worst month, docs/references.md §8 "Timing"), convective rain peaks in the afternoon.  Weak,
-    +-1 at most (weight not fitted: the simulators place causes by hour, so fitting would learn them)."""
+def _local_hour(row, link: Link) -> tuple[float, str] | None:
+    """(hour, clock name): local solar time from the site longitudes, else the civil time of the ``local_tz`` zone
+    (``--tz``; civil time runs up to two hours ahead of solar time), else UTC."""
     hour = _f(row.get("hour_utc"))
     if not math.isfinite(hour):
         return None
     local, solar = local_solar_hour(hour, link)
+    if solar:
+        return local, "local solar"
+    tz, start = row.get("local_tz"), row.get("start_utc")
+    if tz and start is not None and not pd.isna(start):
+        try:
+            t = pd.Timestamp(start).tz_convert(str(tz))
+        except (ValueError, TypeError, KeyError):
+            return local, "UTC"
+        return t.hour + t.minute / 60.0, f"{tz}"
+    return local, "UTC"
+
+
+def term_hour(row, link: Link, prior: HopPrior):
+    """Hour in local solar time (site longitudes), else in the logs' local zone (``--tz``), else UTC: clear-air
+    fading comes with the stable stratified air of nights and early mornings (P.530 §2.3 worst month,
+    docs/references.md §8 "Timing"), convective rain peaks in the afternoon.  Weak, +-1 at most (weight not
+    fitted: the simulators place causes by hour, so fitting would learn them)."""
+    got = _local_hour(row, link)
+    if got is None:
+        return None
+    local, clock = got
     night = 1.0 if (local >= 21.0 or local < 8.0) else (-0.5 if 12.0 <= local < 20.0 else 0.0)
     if night == 0.0:
         return None
-    return _v(-night, night, night), f"at {local:02.0f} h {'local solar' if solar else 'UTC'} time"
+    return _v(-night, night, night), f"at {local:02.0f} h {clock} time"
 
 
 def term_gauge(row, link: Link, prior: HopPrior):

@@ -130,6 +130,10 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     rows = rows_of(out)
     verdicts: list = [_equipment(row) for row in rows]
     todo = [i for i, v in enumerate(verdicts) if v is None]
+    tz = (config or AnalysisConfig()).local_tz
+    if tz:   # the hour term's clock where the links table gives no coordinates
+        for i in todo:
+            rows[i]["local_tz"] = tz
     if todo:
         for i, got in zip(todo, attribute([rows[i] for i in todo], link, prior=hop_prior(link))):
             verdicts[i] = got

@@ -73,3 +73,28 @@ def test_texture_terms_count_smooth_dips_for_other_too():
     vec, _ = A.term_fast(row, LINK, PRIOR)
     assert vec[A.OTHER] == vec[A.R] == vec[A.F] > 0 > vec[A.M]
     assert _rain_minus_other((vec, "")) == 0.0
+
+
+def test_hour_term_reads_the_local_clock():
+    # the issue: the hour in local solar time from the site longitude, else from --tz.  A fade starting 03:30 UTC:
+    # at 150 deg E (10 h ahead in solar time) it is 13:30 local solar, an afternoon; in UTC it is night
+    start = pd.Timestamp("2022-08-14T03:30Z")
+    row = {"hour_utc": 3, "start_utc": start}
+    east = make_link({"link_id": "E", "frequency_ghz": 25.0, "length_km": 6.0, "polarization": "H",
+                      "threshold_dbm": -90.0, "site_a_lat": -33.0, "site_a_lon": 150.0, "site_b_lat": -33.05,
+                      "site_b_lon": 150.05})
+    assert A.term_hour(row, east, PRIOR)[0][A.R] > 0 and "local solar" in A.term_hour(row, east, PRIOR)[1]
+    assert A.term_hour(row, LINK, PRIOR)[0][A.R] < 0 and "UTC" in A.term_hour(row, LINK, PRIOR)[1]
+    # no coordinates, --tz Australia/Sydney (UTC+10 in August): 13:30 civil time, an afternoon
+    got = A.term_hour({**row, "local_tz": "Australia/Sydney"}, LINK, PRIOR)
+    assert got[0][A.R] > 0 and "Australia/Sydney" in got[1]
+
+
+def test_tz_reaches_the_attribution():
+    # analyze_files(tz=...) hands the zone to the posterior (AnalysisConfig.local_tz) unless one is set
+    from diag.config import AnalysisConfig
+    from diag.pipeline import with_local_tz
+
+    assert with_local_tz(None, "Europe/Rome").local_tz == "Europe/Rome"
+    assert with_local_tz(AnalysisConfig(local_tz="UTC"), "Europe/Rome").local_tz == "UTC"
+    assert with_local_tz(None, None) is None
