@@ -426,11 +426,16 @@ def build_figures(results: Iterable[LinkResult]) -> list:
 # Characters WinAnsi lacks are replaced deliberately (``pdf_safe``); tick labels use the ASCII minus for that reason.
 def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
     """The report as PDF bytes (deterministic: no creation date in the metadata)."""
+    with _collector_paused():    # the first report of a process also imports matplotlib: paused for that too
+        return _pdf_bytes(results, progress)
+
+
+def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None) -> bytes:
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 
     buffer = io.BytesIO()
-    with matplotlib.rc_context(_RC), _quiet_font_lookup(), _collector_paused():
+    with matplotlib.rc_context(_RC), _quiet_font_lookup():
         pages = build_figures(results)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,
