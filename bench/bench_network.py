@@ -290,7 +290,10 @@ def _start_peak_sampler(dask_worker=None) -> None:
 
     proc = psutil.Process()
     holder = dask_worker if dask_worker is not None else proc
-    holder.diag_peak_rss = proc.memory_info().rss
+    holder.diag_peak_rss = proc.memory_info().rss     # a new peak from now on
+    if getattr(holder, "diag_peak_sampling", False):  # one sampler per worker however many runs it serves
+        return
+    holder.diag_peak_sampling = True
 
     def sample():
         while True:
