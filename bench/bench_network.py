@@ -290,7 +290,10 @@ def _start_peak_sampler(dask_worker=None) -> None:
 
     proc = psutil.Process()
     holder = dask_worker if dask_worker is not None else proc
-    holder.diag_peak_rss = proc.memory_info().rss
+    holder.diag_peak_rss = proc.memory_info().rss     # a new peak from now on
+    if getattr(holder, "diag_peak_sampling", False):  # one sampler per worker however many runs it serves
+        return
+    holder.diag_peak_sampling = True
 
     def sample():
         while True:
@@ -306,8 +309,8 @@ def _worker_peak_mib(dask_worker=None) -> float:
 
 def _warm_up() -> None:
     """Import what a hop task needs (a fresh worker pays this once, a few seconds)."""
-    import matplotlib.pyplot  # noqa: F401
-    import scipy.stats  # noqa: F401
+    import matplotlib.backends.backend_pdf  # noqa: F401
+    import scipy.optimize  # noqa: F401
 
     import diag.batch  # noqa: F401
     import diag.pipeline  # noqa: F401

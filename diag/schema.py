@@ -175,8 +175,11 @@ def present(column) -> list[str]:
     import pandas as pd
 
     if isinstance(column.dtype, pd.CategoricalDtype):
-        codes = np.unique(column.cat.codes.to_numpy())
-        return [str(column.cat.categories[c]) for c in codes if c >= 0]
+        codes = column.cat.codes.to_numpy()
+        categories = column.cat.categories
+        if len(categories) <= 16:   # a few categories: one byte comparison each (np.unique hashes every row)
+            return [str(categories[c]) for c in range(len(categories)) if (codes == c).any()]
+        return [str(categories[c]) for c in np.unique(codes) if c >= 0]
     return sorted(str(v) for v in pd.unique(column))
 
 

@@ -7,9 +7,10 @@ swing it both ways around its mean (multipath), so the detector works on robust 
 Detection (:mod:`diag.analysis.step_detection`, :func:`detect_steps`) runs once per channel, in the reference
 stage (:func:`channel_steps`, kept in ``ChannelSeries.steps``); the level changes reported (:func:`level_changes`)
 read those steps.
-The slow trend is a Theil-Sen slope (scipy.stats.theilslopes) of hourly clear-sky levels after the detected steps
-have been removed and (in :func:`channel_level_changes`, when causes are known) the samples of fade events masked,
-in dB per week, with its 95 % confidence interval.  Pure functions; no I/O.
+The slow trend is a Theil-Sen slope (:func:`diag.numeric.theil_sen`, the steps of scipy.stats.theilslopes) of
+hourly clear-sky levels after the detected steps have been removed and (in :func:`channel_level_changes`, when
+causes are known) the samples of fade events masked, in dB per week, with its 95 % confidence interval.  Pure
+functions; no I/O.
 """
 from __future__ import annotations
 
@@ -27,6 +28,7 @@ from diag.analysis.step_detection import (  # noqa: F401 - Step and the clear le
     detect_steps,
 )
 from diag.config import AnalysisConfig
+from diag.numeric import theil_sen
 from diag.results import ChannelSteps
 
 log = logging.getLogger(__name__)
@@ -98,7 +100,7 @@ def trend_db_per_week(level_dbm: pd.Series, *, min_span_s: float = TREND_MIN_SPA
 
     Returns ``{"slope_db_per_week", "low_db_per_week", "high_db_per_week", "hours_used", "span_days"}``;
     the slope is None (with ``"skipped"`` saying why) when the record spans less than ``min_span_s`` or has
-    fewer than 12 usable hours.  Source of the estimator: Sen (1968), as implemented in scipy.stats.theilslopes.
+    fewer than 12 usable hours.  Source of the estimator: Sen (1968), computed as scipy.stats.theilslopes computes it.
     """
     return _trend(level_dbm.to_numpy(dtype=float, na_value=np.nan), level_dbm.index, min_span_s=min_span_s,
                   fade_trim_db=fade_trim_db)
@@ -118,10 +120,8 @@ def _trend(values: np.ndarray, index: pd.DatetimeIndex, *, min_span_s: float, fa
                                          is_sorted=index.is_monotonic_increasing)
     if len(levels) < 12:
         return {"slope_db_per_week": None, "skipped": "fewer than 12 usable hours"}
-    from scipy import stats as sps  # imported here: scipy.stats is slow to import and only the trend needs it
-
     t_week = (hours - hours[0]) * 3600.0 / WEEK_S   # whole hours: the same floats as Timedelta.total_seconds()
-    slope, intercept, low, high = sps.theilslopes(levels, t_week, alpha=0.95)
+    slope, intercept, low, high = theil_sen(levels, t_week, alpha=0.95)   # scipy.stats.theilslopes' bits
     return {"slope_db_per_week": round(float(slope), 4), "low_db_per_week": round(float(low), 4),
             "high_db_per_week": round(float(high), 4), "hours_used": int(len(levels)),
             "span_days": round(span_s / 86400.0, 3)}

@@ -44,6 +44,10 @@ def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
             fast = None
         if fast is not None and np.isfinite(fast).all():
             return fast, np.zeros(len(fast), dtype=np.int8)
+        if fast is None:   # often only empty cells (a gap) among clean numbers: the same cast around them
+            clean = _numbers_and_blanks(col)
+            if clean is not None:
+                return clean
     s = pc.utf8_trim_whitespace(pc.fill_null(col, ""))
     s = pc.utf8_trim(s, '"\'')
     if decimal == ",":
@@ -72,6 +76,23 @@ def parse_values(col: pa.Array, decimal: str) -> tuple[np.ndarray, np.ndarray]:
     reason[bad] = R_NON_NUMERIC
     values[bad] = np.nan
     return values, reason
+
+
+def _numbers_and_blanks(col: pa.Array) -> tuple[np.ndarray, np.ndarray] | None:
+    """(values, reasons) of a column of finite numbers and empty cells (reason blank, value NaN), as the general
+    path below reads them; None when another kind of cell is there."""
+    blank = pc.equal(pc.utf8_length(col), 0)
+    if not pc.any(blank).as_py():
+        return None
+    try:
+        num = pc.cast(pc.if_else(blank, pa.scalar(None, pa.string()), col), pa.float64())
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+        return None
+    values = num.to_numpy(zero_copy_only=False).astype(np.float64, copy=True)   # empty cells: NaN
+    is_blank = blank.to_numpy(zero_copy_only=False)
+    if not np.isfinite(values[~is_blank]).all():
+        return None
+    return values, np.where(is_blank, np.int8(R_BLANK), np.int8(R_NONE))
 
 
 def status_of(reason: np.ndarray) -> np.ndarray:

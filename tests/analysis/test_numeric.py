@@ -1,11 +1,11 @@
-"""diag.numeric: each bit-exact helper gives the same bits as the numpy function it repeats (numpy is the reference
-library: np.sum, np.std, np.corrcoef, np.nanmax); round_sig against Python's own "%g" formatting."""
+"""diag.numeric: each bit-exact helper gives the same bits as the function it repeats (reference libraries: numpy's
+np.sum, np.std, np.corrcoef, np.nanmax; scipy.stats.theilslopes); round_sig against Python's own "%g" formatting."""
 import math
 
 import numpy as np
 import pytest
 
-from diag.numeric import add_reduce, nanmax, pearson, round_sig, std
+from diag.numeric import add_reduce, nanmax, pearson, round_sig, std, theil_sen
 
 SIZES = [2, 3, 7, 8, 9, 100, 129, 1000, 4097]
 
@@ -68,3 +68,39 @@ def test_as_float_and_duration_word():
 
     assert as_float("2.5") == 2.5 and np.isnan(as_float(None)) and np.isnan(as_float("x"))
     assert [duration_word(s) for s in (45, 1200, 9000, 12600)] == ["45-s", "20-min", "150-min", "3.5-h"]
+
+
+def _theil_cases(seed: int):
+    """Hourly-trend-like points (increasing x, with and without ties in y) and general points (x unsorted, ties in
+    x), of the sizes a trend sees."""
+    rng = np.random.default_rng(seed)
+    for n in (2, 3, 12, 13, 168, 500):
+        x = np.arange(n) * 3600.0 / 604800.0
+        yield rng.normal(-45.0, 0.3, n) + 0.2 * x, x
+        yield np.round(rng.normal(-45.0, 0.3, n), 1), x                       # levels printed to 0.1 dB: ties
+        yield rng.normal(0.0, 1.0, n), np.sort(rng.choice(np.arange(n // 2 + 1), n)).astype(float)   # ties in x
+        yield rng.normal(0.0, 1.0, n), rng.permutation(np.arange(n, dtype=float))                     # unsorted x
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_theil_sen_is_scipy_theilslopes_bit_for_bit(seed):
+    """scipy.stats.theilslopes (the reference library; Sen 1968 eq. 2.6 for the interval) at 95 % and 90 %."""
+    from scipy.stats import theilslopes
+
+    for y, x in _theil_cases(seed):
+        if np.ptp(x) == 0:
+            continue
+        for alpha in (0.95, 0.90):
+            want = theilslopes(y, x, alpha=alpha)
+            got = theil_sen(y, x, alpha=alpha)
+            assert np.array_equal(np.array(got), np.array([want.slope, want.intercept, want.low_slope,
+                                                           want.high_slope]), equal_nan=True), (len(y), alpha)
+
+
+def test_theil_sen_refuses_what_it_cannot_fit():
+    with pytest.raises(ValueError):
+        theil_sen(np.array([1.0]), np.array([0.0]))
+    with pytest.raises(ValueError):
+        theil_sen(np.array([1.0, np.nan]), np.array([0.0, 1.0]))
+    with pytest.raises(ValueError):
+        theil_sen(np.array([1.0, 2.0]), np.array([3.0, 3.0]))

@@ -31,3 +31,25 @@ def test_parser_ingest_and_pipeline_import_no_heavy_module():
     assert after_parser == []
     assert after_ingest == []
     assert after_pipeline == []
+
+
+_ANALYSIS_PROBE = """
+import json, sys, warnings
+warnings.simplefilter("ignore")
+from diag.links import read_links_table
+from diag.pipeline import analyze_files
+from diag.report import tables
+results = analyze_files([sys.argv[1]], links=read_links_table(sys.argv[2]))
+tables.findings_json_bytes(results)
+print(json.dumps(sorted(m for m in {heavy} if m in sys.modules)))
+"""
+
+
+def test_analysis_of_a_hop_loads_no_scipy_stats_and_no_plotting():
+    """The analysis and its tables (the trend's Theil-Sen line and the Rice law's CDF are computed without
+    scipy.stats); only the L-BFGS-B fit of the Rice K-factor needs scipy.optimize."""
+    heavy = tuple(m for m in HEAVY if m != "scipy.optimize")
+    done = subprocess.run([sys.executable, "-c", _ANALYSIS_PROBE.format(heavy=heavy),
+                           str(ROOT / "demo_logs" / "logs"), str(ROOT / "demo_logs" / "links.csv")], cwd=ROOT,
+                          capture_output=True, text=True, timeout=300, check=True)
+    assert json.loads(done.stdout.strip().splitlines()[-1]) == []

@@ -32,6 +32,20 @@ def test_rayleigh_against_scipy():
     np.testing.assert_allclose(fading.rayleigh_pdf_db(LEVELS), law.pdf(r) * r * math.log(10) / 20, rtol=1e-10)
 
 
+
+def test_rice_cdf_is_scipy_ncx2_cdf_bit_for_bit():
+    """rice_cdf_db evaluates scipy.stats.ncx2.cdf(x, 2, nc) without importing scipy.stats (the reference library:
+    the same bits), at and beyond the ends of its support (0, inf, NaN) and over the K a hop shows."""
+    levels = np.concatenate([np.linspace(-60.0, 12.0, 145), [-400.0, 400.0, np.nan, -np.inf, np.inf]])
+    for k in (1e-6, 0.3, 1.0, 4.0, 12.5, 300.0, 1e4):
+        x = 10.0 ** (levels / 10.0)
+        want = stats.ncx2.cdf(2.0 * (k + 1.0) * x, 2.0, 2.0 * k)
+        with np.errstate(over="ignore"):
+            got = fading.rice_cdf_db(levels, k)
+        assert np.array_equal(got, want, equal_nan=True), k
+    grid = fading.rice_cdf_db(np.array([[-10.0], [-3.0]]), np.array([0.0, 2.0, 8.0]))   # broadcast, K = 0 too
+    assert grid.shape == (2, 3) and grid[0, 0] == fading.rayleigh_cdf_db(-10.0)
+
 @pytest.mark.parametrize("k", [0.0, 0.5, 1.0, 5.0, 10.0, 100.0])
 def test_rice_against_scipy(k):
     # scipy.stats.rice is an independent implementation (Bessel pdf, its own cdf) of the same law

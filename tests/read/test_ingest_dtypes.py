@@ -82,3 +82,15 @@ def test_read_logs_of_two_hops_stays_categorical(tmp_path):
     table = read_logs([tmp_path / "hop-b.csv", tmp_path / "hop-a.csv"]).table
     assert S.conforms(table)
     assert table[S.LINK].astype(str).tolist() == ["hop-a", "hop-a", "hop-b"]   # sorted by link
+
+
+@pytest.mark.parametrize("n_values", [1, 3, 16, 17, 40])
+def test_present_lists_the_values_in_use_as_sorted_unique_strings(n_values):
+    """schema.present against Python's own sorted(set(...)) of the strings, unused categories and missing
+    values left out, for few and for many categories."""
+    rng = np.random.default_rng(n_values)
+    names = [f"hop-{i:02d}" for i in range(n_values)]
+    values = list(rng.choice(names, 500)) + [None]
+    column = pd.Series(pd.Categorical(values, categories=sorted(names + ["unused"])))
+    assert S.present(column) == sorted({v for v in values if v is not None})
+    assert S.present(pd.Series(values[:-1], dtype=object)) == sorted(set(values[:-1]))

@@ -126,6 +126,12 @@ CASES = [
           R("2026-12-01T10:00:03", "V", None, "missing"), R("2026-12-01T10:00:04", "V", None, "missing")],
      5, 5, {}, {"values.reasons": {"receiver_floor": 2, "signal_lost_marker": 1, "missing_marker": 2, "blank": 1,
                                    "non_numeric": 1, "out_of_range": 1}}),
+    # empty cells (gaps) among clean numbers only: blank, the numbers kept as they are (exponent, sign, bare dot)
+    ("numbers_and_blanks", b"Time,RSL H (dBm),RSL V (dBm)\n2026-12-01T10:00:00Z,-45.5,\n2026-12-01T10:00:01Z,,-4.73e1\n"
+                           b"2026-12-01T10:00:02Z,-45.,+.5\n",
+     {}, [R(T0, "H", -45.5), R(T1, "H", None, "missing"), R(T2, "H", -45.0), R(T0, "V", None, "missing"),
+          R(T1, "V", -47.3), R(T2, "V", 0.5)],
+     3, 3, {}, {"values.reasons": {"blank": 2}}),
     # a plateau at an unlisted minimum (-105 dBm held 3 rows) is a floor; the single -95 reading above it is not
     ("floor_plateau", b"Time,RSL (dBm)\n2026-12-01T10:00:00Z,-95\n2026-12-01T10:00:01Z,-105\n"
                       b"2026-12-01T10:00:02Z,-105\n"
