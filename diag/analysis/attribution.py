@@ -322,8 +322,9 @@ def term_network(row, link: Link, prior: HopPrior):
     """Other hops of the network fading in the same minutes (column ``network_share``, distance-weighted share
     from :mod:`diag.analysis.network`): rain is weather and fades neighbouring hops together, clear-air fading is
     hop-local (docs/references.md §8, "Neighbouring hops"; Overeem et al. 2016 nearby-link method).  Up to +2
-    for rain at a share of 0.2 or more, scaled by ``network_faded_weight`` up to 1; -0.3 when three or more other
-    hops were watched and none faded."""
+    for rain at a share of 0.2 or more, scaled by ``network_faded_weight`` up to 1, and up to +2 more as that
+    weight grows from 1 to 3 (several near hops); -0.3 when three or more other hops were watched and none
+    faded."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
@@ -333,7 +334,10 @@ def term_network(row, link: Link, prior: HopPrior):
     # at 0 km, or several further off, give the full term; hops 50 km away fading in a regional storm give little
     mass = _f(row.get("network_faded_weight"))
     near = min(1.0, mass) if math.isfinite(mass) else 1.0
-    return (_v(2.0 * min(1.0, share / 0.2) * near, 0.0, 0.0),
+    # several near hops fading together (a storm over the network) are more than one: +1 per further near hop's
+    # worth of weight, up to +2 more (hop-local mechanisms almost never fade three neighbours in the same minutes)
+    more = _clip(mass - 1.0, 0.0, 2.0) if math.isfinite(mass) and share >= 0.2 else 0.0
+    return (_v(2.0 * min(1.0, share / 0.2) * near + more, 0.0, 0.0),
             f"{share:.0%} of the network's other hops faded with it")
 
 

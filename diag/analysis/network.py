@@ -38,16 +38,17 @@ FADED_DB = 3.0
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
 NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight")
-# causes that do not fade a neighbouring hop with this one: multipath and refraction are hop-local (each hop's own
-# geometry), equipment is one hop's own, and an unexplained dip ("unknown") is no weather evidence either
-HOP_LOCAL = (S.MULTIPATH, S.REFRACTIVE, S.LEVEL_SHIFT, S.SIGNAL_LOSS, S.UNKNOWN)
+# causes that do not fade a neighbouring hop with this one: multipath is hop-local (each hop's own geometry) and
+# equipment is one hop's own.  Refraction is hop-local too, but a first-pass "refractive" or "unknown" is the call
+# most often wrong in a storm (rain read as a slow fade on every hop at once), and leaving those out took the
+# storm's own evidence away (family B seed 93: a 5.7-h 44-dB storm fade at 41 GHz called refractive); they count.
+HOP_LOCAL = (S.MULTIPATH, S.LEVEL_SHIFT, S.SIGNAL_LOSS)
 
 
 def faded_minutes(result) -> pd.Series:
     """Per UTC minute: True when any channel of the hop was faded by something that may be weather (boolean Series
     on a minute index).  Samples the hop's own analysis put down to a hop-local cause (``HOP_LOCAL``: multipath,
-    refraction, a level shift, equipment signal loss, unknown) do not count: a neighbour's multipath night or
-    sunrise fade is no rain evidence."""
+    a level shift, equipment signal loss) do not count: a neighbour's multipath night is no rain evidence."""
     parts = []
     for series in result.series.values():
         frame = series.frame
