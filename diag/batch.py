@@ -448,7 +448,8 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         hops, a fade shared with other hops is rain evidence (:mod:`diag.analysis.network`), with the results of
         ``diag.pipeline.analyze_files``: a first pass gives each hop's faded minutes (a hop without fade events is
         finished there), the driver computes each hop's network columns, and a second pass analyses the hops with
-        fade events again with their columns and writes their files.  ``False``: every hop as if alone.
+        fade events again with their columns and writes their files.  ``False``: every hop as if alone (so is
+        every hop when ``analyze`` is replaced).
     """
     from diag.pipeline import with_local_tz  # the hour term's clock from --tz (batch and analyze alike)
 
@@ -536,7 +537,10 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
     from diag.config import AnalysisConfig
 
-    corroborating = corroborate and (config or AnalysisConfig()).attribution == "posterior" and len(sizes) >= 2
+    # a replacement ``analyze`` (tests, benchmarks) is not corroborated: it need not take ``network=`` nor return
+    # per-sample series
+    corroborating = (corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
+                     and len(sizes) >= 2)
 
     def submit(now: list, network_of: Callable, prefix: str) -> dict:
         futures = {}
