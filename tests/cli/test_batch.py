@@ -74,13 +74,16 @@ def test_cluster_gives_the_serial_results_hop_for_hop(network, network_run):
     res, _ = network_run
     by_id = {r.link.link_id: r for r in res.results}
     compared = 0
-    for link in links:
-        if link.link_id == BROKEN:
-            continue
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", DataWarning)
-            warnings.simplefilter("ignore", RuntimeWarning)
-            (serial,) = analyze_files([logs / f"{link.link_id}.csv"], links=links)
+    good = [link for link in links if link.link_id != BROKEN]
+    # the serial run of the hops that batch analysed, together: under the default posterior both corroborate the
+    # hops with each other (the failed hop takes no part in either)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", DataWarning)
+        warnings.simplefilter("ignore", RuntimeWarning)
+        serials = {r.link.link_id: r for r in analyze_files([logs / f"{link.link_id}.csv" for link in good],
+                                                             links=links)}
+    for link in good:
+        serial = serials[link.link_id]
         got = by_id[link.link_id]
         assert got.error is None, got.error
         pd.testing.assert_frame_equal(got.events.reset_index(drop=True), serial.events.reset_index(drop=True))
