@@ -109,19 +109,26 @@ def _network_table(data: dict) -> pd.DataFrame:
     return S.conform(table) if hasattr(S, "conform") else table
 
 
-def _gauge_flags(minutes: pd.DatetimeIndex, gauge: pd.Series) -> dict:
-    """Per minute, for one gauge: wet (>= 0.2 mm overlapping +-20 min), seen_rain (> 0 mm in a present interval
-    overlapping +-3 h) and zero (every interval overlapping +-3 h present and 0 mm)."""
+def _gauge_windows(minutes: pd.DatetimeIndex, gauge: pd.Series):
+    """(values, window): the gauge's values in time order, and ``window(w)`` -> (lo, hi), per minute t the index
+    range of the intervals (end - 15 min, end] overlapping [t - w, t + w] (start < t + w and end > t - w)."""
     g = gauge.sort_index()
     ends = g.index.as_unit("ns").asi8
     starts = ends - GAUGE_STEP.value
-    vals = g.to_numpy(dtype=float)
     t = minutes.as_unit("ns").asi8
 
     def window(w):
         lo = np.searchsorted(ends, t - w.value, side="right")
         hi = np.searchsorted(starts, t + w.value, side="left")
         return lo, hi
+
+    return g.to_numpy(dtype=float), window
+
+
+def _gauge_flags(minutes: pd.DatetimeIndex, gauge: pd.Series) -> dict:
+    """Per minute, for one gauge: wet (>= 0.2 mm overlapping +-20 min), seen_rain (> 0 mm in a present interval
+    overlapping +-3 h) and zero (every interval overlapping +-3 h present and 0 mm)."""
+    vals, window = _gauge_windows(minutes, gauge)
 
     def csum(flags):
         return np.concatenate([[0], np.cumsum(flags)])
@@ -187,17 +194,7 @@ def _wet_dry(minutes: pd.DatetimeIndex, gauge: pd.Series | None) -> tuple[np.nda
     if gauge is None:
         z = np.zeros(minutes.size, dtype=bool)
         return z, z
-    g = gauge.sort_index()
-    ends = g.index.as_unit("ns").asi8
-    starts = ends - GAUGE_STEP.value
-    vals = g.to_numpy(dtype=float)
-    t = minutes.as_unit("ns").asi8
-
-    def window(w):
-        # intervals overlapping [t - w, t + w]: start < t + w and end > t - w
-        lo = np.searchsorted(ends, t - w.value, side="right")
-        hi = np.searchsorted(starts, t + w.value, side="left")
-        return lo, hi
+    vals, window = _gauge_windows(minutes, gauge)
 
     wet_v = np.nan_to_num(vals, nan=0.0) >= WET_MM
     rain_v = np.nan_to_num(vals, nan=1.0) > 0.0   # a missing value cannot show dryness

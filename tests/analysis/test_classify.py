@@ -112,17 +112,22 @@ def test_fifteen_minute_statistics_lower_confidence_rulebook(analysed):
         assert _agreement(result15, sim, cause) >= 0.75
 
 
-def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
-    sim, _ = analysed[S.RAIN]
+def _gauge_files(sim, tmp_path):
+    """Two gauge files for the rain scenario: 20 mm/h over the storm's hours (5-7 h), and dry throughout."""
     start = sim.spec.start_utc
     times = pd.date_range(start, periods=12 * 4 + 1, freq="15min")
     wet = pd.DataFrame({"time": times.strftime("%Y-%m-%dT%H:%M:%SZ"),
                         "rain_mmh": np.where((times >= start + pd.Timedelta(hours=5))
                                              & (times <= start + pd.Timedelta(hours=7)), 20.0, 0.0)})
-    dry = wet.assign(rain_mmh=0.0)
     wet_path, dry_path = tmp_path / "wet.csv", tmp_path / "dry.csv"
     wet.to_csv(wet_path, index=False)
-    dry.to_csv(dry_path, index=False)
+    wet.assign(rain_mmh=0.0).to_csv(dry_path, index=False)
+    return wet_path, dry_path
+
+
+def test_gauge_confirms_or_refutes_rain(analysed, tmp_path):
+    sim, _ = analysed[S.RAIN]
+    wet_path, dry_path = _gauge_files(sim, tmp_path)
     with_wet = analyze_link(sim.table, sim.link, gauge=wet_path, config=RULES).events
     with_dry = analyze_link(sim.table, sim.link, gauge=dry_path, config=RULES).events
     rain_wet = with_wet[with_wet["cause"] == S.RAIN]
@@ -138,14 +143,7 @@ def test_gauge_term_in_the_posterior(analysed, tmp_path):
     """The default posterior reads a given gauge as one bounded term: rain at the gauge is quoted for the rain
     events, a dry gauge is quoted too and never raises the rain confidence."""
     sim, _ = analysed[S.RAIN]
-    start = sim.spec.start_utc
-    times = pd.date_range(start, periods=12 * 4 + 1, freq="15min")
-    wet = pd.DataFrame({"time": times.strftime("%Y-%m-%dT%H:%M:%SZ"),
-                        "rain_mmh": np.where((times >= start + pd.Timedelta(hours=5))
-                                             & (times <= start + pd.Timedelta(hours=7)), 20.0, 0.0)})
-    wet_path, dry_path = tmp_path / "wet.csv", tmp_path / "dry.csv"
-    wet.to_csv(wet_path, index=False)
-    wet.assign(rain_mmh=0.0).to_csv(dry_path, index=False)
+    wet_path, dry_path = _gauge_files(sim, tmp_path)
     with_wet = analyze_link(sim.table, sim.link, gauge=wet_path).events
     with_dry = analyze_link(sim.table, sim.link, gauge=dry_path).events
     rain_wet = with_wet[with_wet["cause"] == S.RAIN]
