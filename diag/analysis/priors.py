@@ -25,9 +25,11 @@ hop spends faded between A - 1 and A + 1 dB, from the published prediction model
   clearance for k_e exceeded 99.9 % of the time, of order 0.5-0.8; 0.5 from memory) the Earth bulge at mid-path
   rises by dh = d^2/8 (1/k_min - 1/k0) / a.  With the usual clearance of 0.6 F1 at k = 4/3 (common practice),
   the knife-edge loss of the remaining clearance (ITU-R P.526 eq. (31): J(v) = 6.9 + 20 log(sqrt((v-0.1)^2+1)
-  + v - 0.1), v = -sqrt(2) clearance / F1) plus ``BEAM_DECOUPLING_DB`` (defocusing and antenna decoupling in
-  strong gradients, from memory) is the deepest refractive fade the hop can take; deeper fades are attenuated
-  by 10 dB per 2 dB beyond it (a steep cut-off of our choosing).
+  + v - 0.1), v = -sqrt(2) clearance / F1) plus the antenna decoupling of :func:`beam_decoupling_db` (the ray's
+  arrival angle turning by half the path times the change of refractivity gradient, against the main lobe of the
+  antennas) is the deepest refractive fade the hop can take; deeper fades lose ``REFRACTIVE_CUTOFF_PER_DB``
+  decades of time share per dB beyond it (a soft cut-off, fitted).  On a path of a few km both terms are near
+  zero: slow refractive fades need a long path.
 
 ``prior_log_odds`` returns the natural logarithm of each mechanism's time share in [A - 1, A + 1] dB; only
 differences between causes matter.  Vectorised over events; units in the parameter names.
@@ -43,7 +45,7 @@ import numpy as np
 from diag.links import Link
 from diag.models import p530
 
-__all__ = ["HopPrior", "hop_prior", "wet_antenna_db", "refractive_max_depth_db", "prior_log_odds",
+__all__ = ["HopPrior", "hop_prior", "wet_antenna_db", "refractive_max_depth_db", "beam_decoupling_db", "prior_log_odds",
            "clear_air_negligible", "DEFAULT_R001_MMH", "DEFAULT_GEOCLIMATIC_K"]
 
 DEFAULT_R001_MMH = 35.0          # stated default R0.01 [mm/h] (temperate to Mediterranean climates; P.837 maps)
@@ -54,8 +56,19 @@ WET_ANTENNA_MAX_DB = 3.0         # wet-antenna loss of both antennas at 15 GHz a
 K_MIN = 0.5                      # sub-refractive effective Earth-radius factor (from memory, see above)
 K_STANDARD = 4.0 / 3.0
 EARTH_RADIUS_KM = 6371.0
-BEAM_DECOUPLING_DB = 6.0
+# change of the vertical refractivity gradient over the path between standard air (-40 N/km) and strong
+# sub-refraction or super-refraction short of ducting [N-units/km] (ITU-R P.453 gives point gradients of the lowest
+# 65 m from about +100 to -300 N/km for 1-99 % of the time in temperate climates; 300 from memory)
+GRADIENT_CHANGE_N_PER_KM = 300.0
+# main-lobe gain of the antennas when the links table gives none [dBi]: the large end of point-to-point dishes in
+# 6-80 GHz (common practice; a larger antenna decouples more, so this errs towards allowing refraction)
+DEFAULT_ANTENNA_GAIN_DBI = 45.0
 REFRACTIVE_SHARE = 0.2
+# decades of time share lost per dB beyond the deepest refractive fade of the geometry: 0.1 (10 dB per 10 dB), soft
+# because the links table gives no terrain clearance (the geometry above assumes 0.6 F1 at k = 4/3; a hop with less
+# fades deeper).  Chosen on family B FIT seeds 1-50 among 0.5 / 0.3 / 0.2 / 0.1 / 0.05 / 0 (bench note in
+# docs/validation.md); 0.05 and 0 scored a little higher there but lose the 15-min cases and the short-hop physics
+REFRACTIVE_CUTOFF_PER_DB = 0.1
 SHORT_PATH_KM = 5.0
 # a mechanism whose time share at the fade's depth is below this fraction of the year (about 0.3 s a year) is
 # "negligible": no verdict may name it (hard physics rule of the attribution)
@@ -70,16 +83,31 @@ def wet_antenna_db(frequency_ghz: float) -> float:
     return float(WET_ANTENNA_MAX_DB * min(1.0, max(0.0, (frequency_ghz - 6.0) / 9.0)))
 
 
-def refractive_max_depth_db(length_km: float, frequency_ghz: float) -> float:
+def beam_decoupling_db(length_km, antenna_gain_dbi=None):
+    """Loss of both antennas when a refractivity gradient change of ``GRADIENT_CHANGE_N_PER_KM`` turns the ray
+    [dB]: the arrival angle changes by about half the path length times the change of ray curvature (dN/dh x 1e-6
+    per unit length; textbook ray optics), delta = (d / 2) x dG x 1e-6 / km, and each antenna loses the main-lobe
+    gain 2.5e-3 (D/lambda x delta_deg)^2 of ITU-R F.699-8 / Radio Regulations Appendix 8 (the parabolic main lobe,
+    with 20 log(D/lambda) = G_max - 7.7 dB; both from memory), bounded to 20 dB per antenna.  ``antenna_gain_dbi``
+    None: ``DEFAULT_ANTENNA_GAIN_DBI``.  Vectorised over the path length."""
+    gain = DEFAULT_ANTENNA_GAIN_DBI if antenna_gain_dbi is None else float(antenna_gain_dbi)
+    d_over_lambda = 10.0 ** ((gain - 7.7) / 20.0)
+    delta_deg = np.degrees(np.asarray(length_km, dtype=float) / 2.0 * GRADIENT_CHANGE_N_PER_KM * 1e-6)
+    per_antenna = np.minimum(2.5e-3 * (d_over_lambda * delta_deg) ** 2, 20.0)
+    return 2.0 * per_antenna
+
+
+def refractive_max_depth_db(length_km: float, frequency_ghz: float, antenna_gain_dbi: float | None = None) -> float:
     """Deepest slow refractive fade the hop's geometry allows [dB] (module docstring: bulge change between k = 4/3
-    and k = K_MIN against 0.6 F1 clearance, knife-edge loss of ITU-R P.526 eq. (31), plus beam decoupling)."""
+    and k = K_MIN against 0.6 F1 clearance, knife-edge loss of ITU-R P.526 eq. (31), plus
+    :func:`beam_decoupling_db`)."""
     d = float(length_km)
     bulge_m = d * d / 8.0 * (1.0 / K_MIN - 1.0 / K_STANDARD) / EARTH_RADIUS_KM * 1000.0
     fresnel_m = 17.32 * math.sqrt(d / (4.0 * float(frequency_ghz)))   # F1 at mid-path (P.530 §2.2.2)
     clearance_m = 0.6 * fresnel_m - bulge_m
     v = -math.sqrt(2.0) * clearance_m / fresnel_m
     loss = 0.0 if v <= -0.78 else 6.9 + 20.0 * math.log10(math.sqrt((v - 0.1) ** 2 + 1.0) + v - 0.1)
-    return float(max(loss, 0.0) + BEAM_DECOUPLING_DB)
+    return float(max(loss, 0.0) + float(beam_decoupling_db(d, antenna_gain_dbi)))
 
 
 @dataclass(frozen=True)
@@ -149,7 +177,7 @@ class HopPrior:
         """The refractive share of the clear-air budget, cut off beyond the geometry's deepest fade (no short-path
         taper: the geometry term already says how deep a short hop can fade slowly)."""
         a = np.asarray(fade_db, dtype=float)
-        cut = 10.0 ** (-np.maximum(a - self.refractive_max_db, 0.0) * 5.0 / 10.0)   # 10 dB per 2 dB beyond
+        cut = 10.0 ** (-np.maximum(a - self.refractive_max_db, 0.0) * REFRACTIVE_CUTOFF_PER_DB)
         return np.maximum(REFRACTIVE_SHARE * self._clear_air_untapered_pct(a) * cut, _FLOOR)
 
     # --- shares in [A - 1, A + 1] dB -------------------------------------------------------------------------
@@ -181,8 +209,8 @@ def hop_prior(link: Link) -> HopPrior:
     return HopPrior(link_id=link.link_id, frequency_ghz=f, length_km=d, r001_mmh=r001, geoclimatic_k=k_geo,
                     a001_db=a001, p0_worst_month_pct=p0_wm, delta_g_db=delta_g,
                     short_path_factor=1.0 / (1.0 + (SHORT_PATH_KM / d) ** 6), wet_db=wet_antenna_db(f),
-                    refractive_max_db=refractive_max_depth_db(d, f), r001_stated=bool(link.r001_mmh),
-                    k_stated=bool(link.geoclimatic_k))
+                    refractive_max_db=refractive_max_depth_db(d, f, link.antenna_gain_dbi),
+                    r001_stated=bool(link.r001_mmh), k_stated=bool(link.geoclimatic_k))
 
 
 def prior_log_odds(prior: HopPrior, fade_db) -> dict[str, np.ndarray]:

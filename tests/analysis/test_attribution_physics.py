@@ -164,3 +164,21 @@ def test_posterior_on_a_network_reruns_the_later_stages():
         by_cause = r.outage.by_cause
         named = set(by_cause.loc[by_cause["unavailable_s"].fillna(0) > 0, "cause"]) if len(by_cause) else set()
         assert named <= set(r.events["cause"]) | {S.UNKNOWN}
+
+
+def test_beam_decoupling_grows_with_path_length_against_the_main_lobe():
+    # ray optics: a change of the refractivity gradient dG [N/km] turns the arrival angle by about (d / 2) dG 1e-6;
+    # main lobe of ITU-R F.699-8 / RR Appendix 8 (from memory): loss 2.5e-3 (D/lambda phi)^2 with
+    # 20 log(D/lambda) = G - 7.7.  Hand computation for 50 km, 300 N/km, 45 dBi: phi = 0.4297 deg,
+    # D/lambda = 73.3, 2.47 dB per antenna, 4.95 dB for both
+    from diag.analysis.priors import beam_decoupling_db, refractive_max_depth_db
+    assert float(beam_decoupling_db(50.0, 45.0)) == pytest.approx(4.95, abs=0.03)
+    # quadratic in the path length and in D/lambda (6 dB more gain = twice D/lambda = four times the loss)
+    assert float(beam_decoupling_db(25.0, 45.0)) == pytest.approx(4.95 / 4.0, abs=0.02)
+    assert float(beam_decoupling_db(50.0, 39.0)) == pytest.approx(4.95 / 4.0 * 1.0, rel=0.03)
+    # a path of a few km cannot be faded slowly by refraction: neither the bulge (k = 4/3 -> 0.5 against 0.6 F1
+    # clearance) nor the decoupling reaches 1 dB at 3 km anywhere in 6-80 GHz
+    for f in (6.0, 15.0, 38.0, 80.0):
+        assert refractive_max_depth_db(3.0, f) < 1.0
+    # a long hop can (sub-refraction diffraction, P.526 knife edge): 15 dB or more at 50 km
+    assert refractive_max_depth_db(50.0, 6.0) > 15.0
