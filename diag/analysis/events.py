@@ -108,6 +108,16 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
     return starts, ends
 
 
+def _has_average(frame: pd.DataFrame) -> bool:
+    """Interval statistics with a logged average: somewhere the level carried differs from the interval minimum."""
+    if "rsl_min_dbm" not in frame.columns:
+        return True
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    low = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    both = np.isfinite(level) & np.isfinite(low)
+    return bool(np.any(level[both] != low[both]))
+
+
 def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, partner: ChannelSeries | None,
                     gauge: pd.DataFrame | None) -> list[dict]:
     """The fade events of one channel with their features (rows of the events table; see the module docstring)."""
@@ -133,6 +143,9 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     t_last = index[ends - 1]
     t_first, t_end = list(index[starts]), list(t_last + pd.Timedelta(seconds=step))   # Timestamps, boxed at once
     spread_all = arr.spread_all
+    # a min/max export has no interval average: the grid carries the minimum in its place (reference.py), so the
+    # average-to-minimum ratio would read 1.0 for every interval; it is unknown, not 1
+    averaged = stats and _has_average(frame)
     peaks_at = []
     rows = []
     for i, (a, b) in enumerate(zip(starts.tolist(), ends.tolist())):
@@ -161,7 +174,7 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "rain_rate_mmh": rate, "rain_rate_mean_mmh": rate_mean, "rain_plausible": plausible,
             "spread_db": float(np.nanmedian(spread_all[a:b])) if stats and np.isfinite(spread_all[a:b]).any()
             else math.nan,
-            "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if stats and peak > 0 else math.nan,
+            "avg_to_min_ratio": float(_nanmax(att[a:b]) / peak) if averaged and peak > 0 else math.nan,
             "step_db": math.nan, "gauge_rain_mmh": F.gauge_rate(gauge, t_first[i], t_last[i]),
             "fast_std_db": fast_std, "half_peak_fraction": half, "noise_diff_db": arr.noise_diff,
             "near_floor_fraction": packed.n_near[i] / n, "upfade_context_db": up_context,

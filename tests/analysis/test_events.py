@@ -146,3 +146,15 @@ def test_paint_series_innermost_event_wins():
     # inside the 5-dB shift the 8-dB rain fade is the larger contribution: rain
     assert (got[30:50] == S.RAIN).all()
     assert (frame["event_id"].to_numpy()[30:50] == 1).all()
+
+
+def test_min_max_export_has_no_average_to_compare_with_the_minimum():
+    # a min/max export carries the interval minimum where the average would be (reference.py), so an
+    # average-to-minimum ratio would read 1.0 everywhere and pass for a slow fade; it must be unknown instead
+    from diag.analysis.events import _has_average
+    mn = np.array([-40.0, -55.0, np.nan, -41.0])
+    minmax = pd.DataFrame({"rsl_dbm": mn, "rsl_min_dbm": mn, "rsl_max_dbm": mn + 3.0})
+    averaged = pd.DataFrame({"rsl_dbm": mn + 0.5, "rsl_min_dbm": mn, "rsl_max_dbm": mn + 3.0})
+    assert not _has_average(minmax)
+    assert _has_average(averaged)
+    assert _has_average(pd.DataFrame({"rsl_dbm": mn}))   # instantaneous samples: nothing to say
