@@ -327,26 +327,40 @@ def term_gauge(row, link: Link, prior: HopPrior):
 
 
 def term_network(row, link: Link, prior: HopPrior):
-    """Other hops of the network fading in the same minutes (column ``network_share``, distance-weighted share
-    from :mod:`diag.analysis.network`): rain is weather and fades neighbouring hops together, clear-air fading is
-    hop-local (docs/references.md §8, "Neighbouring hops"; Overeem et al. 2016 nearby-link method).  Up to +2
-    for rain at a share of 0.2 or more, scaled by ``network_faded_weight`` up to 1, and up to +2 more as that
-    weight grows from 1 to 3 (several near hops); -0.3 when three or more other hops were watched and none
-    faded."""
+    """Other hops of the network fading in the same minutes BEYOND CHANCE (columns of
+    :mod:`diag.analysis.network`: ``network_share``, the distance-weighted share that faded; ``network_chance``, the
+    share expected in a window that long from each hop's own rate of fading over the record): rain is weather and
+    fades neighbouring hops together, clear-air fading is hop-local (docs/references.md §8, "Neighbouring hops";
+    Overeem et al. 2016 nearby-link method).  In a large network some hops fade somewhere most of the time, so
+    only the excess of the share over chance is evidence (a likelihood ratio needs the rate under "no rain" as
+    much as under rain).  Up to +2 for rain at an excess of 0.2 or more, scaled by the weight of the hops that
+    faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops); -0.3 when
+    three or more other hops were watched and no more faded than chance."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
-    if share <= 0.0:
-        return (_v(-0.3, 0.0, 0.0), f"none of {others:.0f} other hops faded") if others >= 3 else None
-    # the evidence rests on the hops that faded, weighted by nearness (1 each without coordinates): one faded hop
-    # at 0 km, or several further off, give the full term; hops 50 km away fading in a regional storm give little
+    chance = _f(row.get("network_chance"))
+    chance = chance if math.isfinite(chance) else 0.0
+    excess = share - chance
+    if share <= 0.0 or excess <= 0.0:
+        if others < 3:
+            return None
+        text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
+                f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
+        return _v(-0.3, 0.0, 0.0), text
+    # the evidence rests on the hops that faded beyond chance, weighted by nearness (1 each without coordinates):
+    # one faded hop at 0 km, or several further off, give the full term; hops 50 km away fading in a regional
+    # storm give little
     mass = _f(row.get("network_faded_weight"))
+    mass = mass * excess / share if math.isfinite(mass) else math.nan
     near = min(1.0, mass) if math.isfinite(mass) else 1.0
     # several near hops fading together (a storm over the network) are more than one: +1 per further near hop's
     # worth of weight, up to +2 more (hop-local mechanisms almost never fade three neighbours in the same minutes)
-    more = _clip(mass - 1.0, 0.0, 2.0) if math.isfinite(mass) and share >= 0.2 else 0.0
-    return (_v(2.0 * min(1.0, share / 0.2) * near + more, 0.0, 0.0),
-            f"{share:.0%} of the network's other hops faded with it")
+    more = _clip(mass - 1.0, 0.0, 2.0) if math.isfinite(mass) and excess >= 0.2 else 0.0
+    text = f"{share:.0%} of the network's other hops faded with it"
+    if chance >= 0.005:
+        text += f" (chance {chance:.0%})"
+    return _v(2.0 * min(1.0, excess / 0.2) * near + more, 0.0, 0.0), text
 
 
 def term_context(row, link: Link, prior: HopPrior):

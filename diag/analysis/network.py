@@ -9,7 +9,9 @@ For each fade event of a hop, the other hops analysed with it are asked whether 
 ``FADED_DB`` or the receiver at its floor) in any minute from ``MARGIN_S`` before the event to ``MARGIN_S`` after
 it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then,
 ``network_faded_weight`` the summed weights of those that faded (how much near evidence the share rests on: hops
-far away fading in a regional storm say little about this path).
+far away fading in a regional storm say little about this path), ``network_chance`` the weighted share expected by
+chance in a window that long from each hop's own rate of fading over the record (in a network of many hops some
+fade somewhere most of the time: 0.1 in six hours of a dry day among the 141 OpenRainER links).
 Weights: exp(-distance / ``CORRELATION_KM``) between path midpoints when the links table gives both hops' site
 coordinates (rain fields decorrelate over tens of km: convective cells of a few km, fronts of tens of km; 20 km
 is a stated choice), else 1 (the plain share of the network's hops).  The term that reads them is
@@ -37,7 +39,7 @@ __all__ = ["faded_minutes", "minute_counts", "MinuteCounts", "network_columns", 
 FADED_DB = 3.0
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
-NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight")
+NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance")
 # causes that do not fade a neighbouring hop with this one: multipath is hop-local (each hop's own geometry) and
 # equipment is one hop's own.  Refraction is hop-local too, but a first-pass "refractive" or "unknown" is the call
 # most often wrong in a storm (rain read as a slow fade on every hop at once), and leaving those out took the
@@ -93,11 +95,20 @@ def _distance_km(a: tuple[float, float], b: tuple[float, float]) -> float:
 
 class MinuteCounts(NamedTuple):
     """A hop's faded minutes ready for window counts: the minute stamps (UTC ns, sorted) and the running counts of
-    minutes seen and minutes faded up to each (``seen[k]``: among the first k minutes)."""
+    minutes seen and minutes faded up to each (``seen[k]``: among the first k minutes); its base rates over the
+    whole record: the share of seen minutes faded and the fade episodes begun per seen minute."""
 
     stamps_ns: np.ndarray
     seen: np.ndarray
     faded: np.ndarray
+    faded_share: float = 0.0
+    starts_per_min: float = 0.0
+
+    def chance(self, window_min: np.ndarray) -> np.ndarray:
+        """Probability that this hop shows a faded minute in a window of ``window_min`` minutes at a random time:
+        faded at its start, or a fade beginning inside it (episodes as a Poisson stream at the hop's own rate)."""
+        w = np.asarray(window_min, dtype=float)
+        return 1.0 - (1.0 - self.faded_share) * np.exp(-self.starts_per_min * w)
 
 
 def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
@@ -110,7 +121,15 @@ def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
     faded = minutes.where(seen, False).astype(bool).to_numpy() & seen
     zero = np.zeros(1, dtype=np.int64)
     stamps = pd.DatetimeIndex(minutes.index).as_unit("ns").asi8 if len(minutes) else np.zeros(0, dtype=np.int64)
-    return MinuteCounts(stamps, np.concatenate([zero, np.cumsum(seen)]), np.concatenate([zero, np.cumsum(faded)]))
+    n_seen = int(seen.sum())
+    # an episode begins at a faded minute whose previous minute (one minute earlier) was not faded
+    prev = np.zeros(faded.size, dtype=bool)
+    if faded.size > 1:
+        prev[1:] = faded[:-1] & (np.diff(stamps) == 60 * 10 ** 9)
+    starts = int(np.count_nonzero(faded & ~prev))
+    return MinuteCounts(stamps, np.concatenate([zero, np.cumsum(seen)]), np.concatenate([zero, np.cumsum(faded)]),
+                        faded_share=float(faded.sum()) / n_seen if n_seen else 0.0,
+                        starts_per_min=starts / n_seen if n_seen else 0.0)
 
 
 def network_columns(events: pd.DataFrame, link: Link,
@@ -121,16 +140,20 @@ def network_columns(events: pd.DataFrame, link: Link,
     the same hop is asked about for many hops).  Vectorised over the events, one pass per other hop; the weighted
     sums add the hops in the order given, as a loop over them would (the same floating-point result)."""
     share = np.full(len(events), np.nan)
+    chance = np.full(len(events), np.nan)
     hops = np.zeros(len(events))
     mass = np.zeros(len(events))
+
+    def table() -> pd.DataFrame:
+        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass,
+                             "network_chance": chance}, index=events.index)
+
     if not len(events) or not others:
-        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass},
-                            index=events.index)
+        return table()
     start, end = pd.DatetimeIndex(events["start_utc"]), pd.DatetimeIndex(events["end_utc"])
     use = (events["event_kind"] == "fade").to_numpy(dtype=bool, na_value=False) & ~start.isna() & ~end.isna()
     if not use.any():
-        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass},
-                            index=events.index)
+        return table()
     margin = pd.Timedelta(seconds=MARGIN_S)
     # a minute counts when its stamp lies in [start - margin, end + margin], ends included
     lo = (start[use] - margin).as_unit("ns").asi8
@@ -138,6 +161,8 @@ def network_columns(events: pd.DataFrame, link: Link,
     mine = _midpoint(link)
     num = np.zeros(len(lo))
     den = np.zeros(len(lo))
+    expected = np.zeros(len(lo))
+    window_min = (hi - lo) / 6e10 + 1.0
     count = np.zeros(len(lo), dtype=np.int64)
     for other, minutes in others:
         theirs = _midpoint(other)
@@ -150,12 +175,13 @@ def network_columns(events: pd.DataFrame, link: Link,
         count += seen
         den = den + np.where(seen, w, 0.0)
         num = num + np.where(seen & faded, w, 0.0)
+        expected = expected + np.where(seen, w * counts.chance(window_min), 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
         share[use] = np.where(count > 0, num / den, np.nan)
+        chance[use] = np.where(count > 0, expected / den, np.nan)
     hops[use] = count
     mass[use] = np.where(count > 0, num, 0.0)
-    return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass},
-                            index=events.index)
+    return table()
 
 
 

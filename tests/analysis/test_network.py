@@ -102,3 +102,39 @@ def test_second_pass_refuses_columns_of_other_events():
     assert N.with_network(events, columns)["network_hops"].tolist() == [1]
     with pytest.raises(RuntimeError, match="other fade events"):
         N.with_network(_events(start_min=1), columns)
+
+
+def test_base_rates_and_the_share_expected_by_chance():
+    # a hop faded in two episodes (minutes 5-7 and 50) out of 180 seen minutes: faded share 4/180, 2 episode
+    # starts per 180 minutes.  Chance of at least one faded minute in a window of w minutes at a random time:
+    # 1 - (1 - 4/180) exp(-2/180 w) (hand computation; Poisson episode starts)
+    counts = N.minute_counts(_minutes([5, 6, 7, 50]))
+    assert counts.faded_share == pytest.approx(4 / 180)
+    assert counts.starts_per_min == pytest.approx(2 / 180)
+    assert counts.chance(np.array([20.0]))[0] == pytest.approx(1 - (1 - 4 / 180) * math.exp(-2 / 180 * 20))
+    # the event window is the event (minutes 0-10) plus MARGIN_S either side, in minutes, ends included
+    window = 10 + 2 * N.MARGIN_S / 60.0 + 1
+    got = N.network_columns(_events(), _link("X"), [(_link("A"), _minutes([5, 6, 7, 50])),
+                                                    (_link("B"), _minutes([]))])
+    want = (counts.chance(np.array([window]))[0] + 0.0) / 2.0
+    assert got["network_chance"].iloc[0] == pytest.approx(want)
+    assert got["network_share"].iloc[0] == pytest.approx(0.5)
+
+
+def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
+    # a likelihood ratio needs the rate under "no rain" too: in a large network some hops fade somewhere most of
+    # the time (OpenRainER, 141 links: about 10 % of the hops in any six hours of a dry day), so a share at that
+    # level says nothing for rain, while a storm that fades 80 % of the hops against a chance of 10 % does
+    from diag.analysis import attribution as A
+    from diag.analysis.priors import hop_prior
+    link = _link("X")
+    prior = hop_prior(link)
+    dry = {"network_share": 0.1, "network_hops": 140, "network_faded_weight": 14.0, "network_chance": 0.12}
+    vec, text = A.term_network(dry, link, prior)
+    assert vec[A.R] == pytest.approx(-0.3) and "no more than chance (12%)" in text
+    storm = {"network_share": 0.8, "network_hops": 140, "network_faded_weight": 112.0, "network_chance": 0.1}
+    vec, text = A.term_network(storm, link, prior)
+    assert vec[A.R] == pytest.approx(4.0) and "chance 10%" in text
+    # without the chance column (older tables) the share is read as before
+    old = {"network_share": 0.3, "network_hops": 10, "network_faded_weight": 1.0}
+    assert A.term_network(old, link, prior)[0][A.R] == pytest.approx(2.0)
