@@ -93,10 +93,15 @@ def _sections(name: str) -> set[str]:
     return set(re.findall(r"^#{2,3} §(\d+(?:\.\d+)?)\b", text, flags=re.M))
 
 
+# benchmark outputs (git-ignored; the validation runs leave gigabytes of simulated logs there) are no sources
+_GENERATED = ROOT / "bench" / "output"
+
+
 def _text_files():
     for folder in ("diag", "tests", "bench", "docs"):
         for path in (ROOT / folder).rglob("*"):
-            if path.suffix in (".py", ".md", ".csv", ".toml") and "__pycache__" not in path.parts:
+            if (path.suffix in (".py", ".md", ".csv", ".toml") and "__pycache__" not in path.parts
+                    and not path.is_relative_to(_GENERATED)):
                 yield path
     yield from (README, DEVELOPERS, ROOT / "dashboard.py")
 

@@ -433,20 +433,10 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
     pre = np.array([_f(r.get("pre_floor_fade_db")) for r in rows], dtype=float)
     peak = np.where(floored, np.where(np.isfinite(pre), np.maximum(pre, 3.0), 10.0), peak)
     # ATPC: the transmitter rose by tsl_rise_db to hide part of the path fade from the RSL (evidence.py)
-    rise = np.array([max(_f(r.get("tsl_rise_db")), 0.0) if _f(r.get("tsl_rise_db")) > 0 else 0.0 for r in rows])
-    rsl_peak = peak
-    peak = peak + rise
+    peak = peak + np.array([max(_f(r.get("tsl_rise_db")), 0.0) if _f(r.get("tsl_rise_db")) > 0 else 0.0
+                            for r in rows])
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
-    # rain and refraction explain the slow part of a fade: where samples of 10 s or finer show fast dips on top of
-    # a slow fade (multipath riding on a refractive or rain fade), those two are judged at the depth of the 1-min
-    # running mean; multipath at the deepest sample
-    slow = np.array([_f(r.get("slow_peak_db")) for r in rows], dtype=float)
-    use_slow = np.isfinite(slow) & ~floored & np.isfinite(rsl_peak) & (slow < rsl_peak)
-    if use_slow.any():
-        slow_logs = prior_log_odds(prior, np.where(use_slow, np.maximum(slow + rise, 1.0), depth))
-        for cause in ("rain", "refractive"):
-            logs[cause] = np.where(use_slow, slow_logs[cause], logs[cause])
     other = math.log(OTHER_PCT_AT_3DB) - np.maximum(depth - 3.0, 0.0) * math.log(10.0) / OTHER_DECADE_DB
     base = np.stack([logs["rain"], logs["multipath"], logs["refractive"], other], axis=1) if n else np.zeros((0, 4))
     terms = {name: np.zeros((n, 4)) for name in TERMS}

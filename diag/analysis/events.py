@@ -51,7 +51,7 @@ FEATURE_COLUMNS = [
     "pre_floor_fade_db", "below_threshold_s", "valid_fraction", "partner_corr", "partner_ratio", "v_over_h_ratio",
     "expected_v_over_h", "rain_rate_mmh", "rain_rate_mean_mmh", "rain_plausible", "spread_db", "avg_to_min_ratio",
     "step_db", "gauge_rain_mmh", "fast_std_db", "half_peak_fraction", "noise_diff_db", "near_floor_fraction",
-    "upfade_context_db", "slow_peak_db",
+    "upfade_context_db",
 ]
 
 
@@ -178,7 +178,6 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
             "step_db": math.nan, "gauge_rain_mmh": F.gauge_rate(gauge, t_first[i], t_last[i]),
             "fast_std_db": fast_std, "half_peak_fraction": half, "noise_diff_db": arr.noise_diff,
             "near_floor_fraction": packed.n_near[i] / n, "upfade_context_db": up_context,
-            "slow_peak_db": F.slow_peak(arr, packed, i, a, b),
         })
     for row, hour in zip(rows, index[np.asarray(peaks_at)].hour.tolist()):
         row["hour_utc"] = int(hour)

@@ -289,16 +289,6 @@ def fade_texture(arr: ChannelArrays, packed: PackedEvents, i: int, a: int, b: in
     return variability, roughness, fast_std, half
 
 
-def slow_peak(arr: ChannelArrays, packed: PackedEvents, i: int, a: int, b: int) -> float:
-    """Deepest 1-min running mean of the attenuation inside event i [dB] (samples only, NaN for statistics): the
-    slow part of the fade, without the fast dips that multipath adds on top of it."""
-    if packed.fast_p is None:
-        return math.nan
-    o = int(packed.off[i])
-    slow = _finite(arr.att[a:b] - packed.fast_p[o:o + b - a])
-    return float(slow.max()) if slow.size else math.nan
-
-
 def upfades(arr: ChannelArrays, packed: PackedEvents, i: int, a: int, b: int) -> tuple:
     """``(within, before, after, context)``: the largest rise of the level above the reference [dB] inside the
     event, in ``context_s`` before and after it, and in the 30 min either side."""

@@ -99,23 +99,3 @@ def test_tz_reaches_the_attribution():
     assert with_local_tz(AnalysisConfig(local_tz="UTC"), "Europe/Rome").local_tz == "UTC"
     assert with_local_tz(None, None) is None
 
-
-def test_rain_and_refraction_are_judged_on_the_slow_part_of_a_fine_sampled_fade():
-    # multipath dips ride on slow fades (Rayleigh fading about a mean level that itself moves: the two-ray picture of
-    # P.530 §2.3 on top of a refractive or rain fade, textbook); a slow 15-dB fade with dips to 35 dB is a 15-dB
-    # refractive or rain fade as far as those mechanisms go, while multipath is judged at the deepest sample
-    link = make_link({"link_id": "L", "frequency_ghz": 8.0, "length_km": 30.0, "polarization": "H",
-                      "threshold_dbm": -80.0})
-    prior = hop_prior(link)
-    rows = [{"peak_fade_db_finite": 35.0, "slow_peak_db": 15.0, "floor_fraction": 0.0},
-            {"peak_fade_db_finite": 35.0, "floor_fraction": 0.0}]
-    base, _, _, _ = A.evidence_terms(rows, link, prior)
-    from diag.analysis.priors import prior_log_odds
-    at15, at35 = prior_log_odds(prior, [15.0]), prior_log_odds(prior, [35.0])
-    assert base[0, A.F] == pytest.approx(at15["refractive"][0]) and base[0, A.R] == pytest.approx(at15["rain"][0])
-    assert base[0, A.M] == pytest.approx(at35["multipath"][0]) == pytest.approx(base[1, A.M])
-    assert base[1, A.F] == pytest.approx(at35["refractive"][0])
-    # a slow part no shallower than the fade changes nothing
-    same, _, _, _ = A.evidence_terms([{"peak_fade_db_finite": 35.0, "slow_peak_db": 35.0, "floor_fraction": 0.0}],
-                                     link, prior)
-    assert same[0] == pytest.approx(base[1])
