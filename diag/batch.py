@@ -97,6 +97,23 @@ class _FilePiece:
     report: dict
     error: str | None = None
     hop_of_error: str | None = None
+    rows: dict[str, int] | None = None             # rows per hop, kept when ``tables`` was dropped
+    outcome: tuple[str, _HopOutcome] | None = None  # (hop, outcome) of a file of one hop, analysed at once
+
+
+@dataclass
+class _Reread:
+    """A file whose parsed table was dropped once its only hop was analysed (``_read_analyse_task``): a hop task
+    that needs the table again (the network pass, or a hop found in other inputs too) reads the file again."""
+
+    path: str
+    links: list
+    tz: object
+    mapping: object
+    reader: object
+
+    def piece(self) -> _FilePiece:
+        return _read_task(self.path, self.links, self.tz, self.mapping, self.reader)
 
 
 @dataclass
@@ -180,10 +197,30 @@ def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | Non
         return _FilePiece(name=name, tables={}, report={}, error=_one_line(exc), hop_of_error=hop)
 
 
+@one_line_warnings
+def _read_analyse_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None, config,
+                       analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
+                       network) -> _FilePiece:
+    """``_read_task``, and when the file holds one hop only, that hop's ``_hop_task`` at once (as if no other input
+    held it), after which the parsed table is dropped: the worker holds one hop's table at a time, whatever the
+    size of the network.  The driver keeps the outcome when no other input holds the hop and ``network`` was the
+    mode of the run, else that hop is analysed again in a hop task that reads the file again (``_Reread``)."""
+    piece = _read_task(path, links, tz, mapping, reader)
+    if piece.error or len(piece.tables) != 1:
+        return piece
+    (hop,) = piece.tables
+    link = {item.link_id: item for item in links}.get(hop)
+    outcome = _hop_task(hop, link, [piece], [], config, analyze, writer, keep_series, network)
+    piece.rows = {hop: len(piece.tables[hop])}
+    piece.tables = {}
+    piece.outcome = (hop, outcome)
+    return piece
+
+
 def _file_meta(piece: _FilePiece) -> dict:
-    return {"file": piece.name, "hops": {k: len(v) for k, v in piece.tables.items()},
-            "rows": int(sum(len(v) for v in piece.tables.values())), "error": piece.error,
-            "hop_of_error": piece.hop_of_error, "report": piece.report}
+    rows = piece.rows if piece.rows is not None else {k: len(v) for k, v in piece.tables.items()}
+    return {"file": piece.name, "hops": rows, "rows": int(sum(rows.values())), "error": piece.error,
+            "hop_of_error": piece.hop_of_error, "report": piece.report, "outcome": piece.outcome}
 
 
 def failed_result(link: Link, error: str) -> LinkResult:
@@ -299,7 +336,9 @@ def _first_pass(result: LinkResult, config) -> _HopOutcome:
 def _hops_task(items: list[tuple], config, analyze: AnalyzeFn | None, writer: WriterFn | None,
                keep_series: bool, *pieces) -> list[_HopOutcome]:
     """Several small hops in one task (``_hop_task`` for each): ``items`` are ``(hop, link, piece positions,
-    store refs, network)``, the positions index ``pieces``, the parsed files the group needs (each passed once)."""
+    store refs, network)``, the positions index ``pieces``, the parsed files the group needs (each passed once;
+    a ``_Reread`` is read here)."""
+    pieces = tuple(p.piece() if isinstance(p, _Reread) else p for p in pieces)
     return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series, network)
             for hop, link, where, refs, network in items]
 
@@ -480,17 +519,33 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
          keep_series, corroborate=True) -> BatchResult:
     from distributed import as_completed
 
+    from diag.config import AnalysisConfig
+
     def tell(stage, done, total, message):
         log.info("%s %d/%d %s", stage, done, total, message)
         if progress is not None:
             progress(stage, done, total, message)
 
-    # 1. read every file on the workers; the driver sees only which hops each file holds
-    pieces = [client.submit(_read_task, str(p), links, tz, mapping, reader, key=f"read-{i}-{p.name}", pure=False)
+    # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
+    # the driver computes each hop's network columns, a second pass re-analyses the hops they can change.  A
+    # replacement ``analyze`` (tests, benchmarks) is not corroborated: it need not take ``network=`` nor return
+    # per-sample series.  Whether a run corroborates is known once its files are read (two hops or more); the hops
+    # analysed while their file is read assume it from the number of inputs (a wrong guess costs those hops a
+    # second analysis, never a different result)
+    may_corroborate = corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
+    guessed = may_corroborate and len(files) + len(stores) >= 2
+
+    # 1. read every file on the workers.  A file of one hop is analysed in the same task and its table dropped
+    # there (``_read_analyse_task``), so a worker holds one hop's table at a time; a file of several hops keeps its
+    # table on the worker, split by hop, for the hop tasks.  The driver sees which hops each file holds, and the
+    # outcome of a hop analysed while read
+    pieces = [client.submit(_read_analyse_task, str(p), links, tz, mapping, reader, config, analyze, writer,
+                            keep_series, FIRST_PASS if guessed else None, key=f"read-{i}-{p.name}", pure=False)
               for i, p in enumerate(files)]
     metas = [client.submit(_file_meta, f, pure=False) for f in pieces]
     index = {m.key: i for i, m in enumerate(metas)}
     reads: list[dict | None] = [None] * len(files)
+    early: dict[int, tuple[str, _HopOutcome]] = {}     # file -> (its only hop, that hop's outcome)
     for done, fut in enumerate(as_completed(metas), start=1):
         i = index[fut.key]
         try:
@@ -502,6 +557,12 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
                 hop = None
             meta = {"file": files[i].name, "hops": {}, "rows": 0, "error": _one_line(exc), "hop_of_error": hop,
                     "report": {}}
+        fut.release()
+        metas[i] = None
+        if meta.get("outcome") is not None:
+            early[i] = meta["outcome"]
+            pieces[i] = None          # nothing left on the worker but the file's report: read again if needed
+        meta.pop("outcome", None)
         reads[i] = meta
         tell("read", done, len(files), meta["file"] + (f" (error: {meta['error']})" if meta["error"] else ""))
     del metas
@@ -533,14 +594,15 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         rows = None if hop in store_hops else sum(reads[i]["hops"].get(hop, 0) for i in hop_files[hop])
         sizes.append((hop, rows))
     n_workers = max(1, len(client.scheduler_info().get("workers", {})))
-    # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
-    # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
-    from diag.config import AnalysisConfig
+    corroborating = may_corroborate and len(sizes) >= 2
+    # an outcome of step 1 stands when its file was the hop's only input and the run's mode was guessed right
+    ready = {hop: outcome for i, (hop, outcome) in early.items()
+             if corroborating == guessed and hop_files.get(hop) == [i] and hop not in store_hops}
+    del early
 
-    # a replacement ``analyze`` (tests, benchmarks) is not corroborated: it need not take ``network=`` nor return
-    # per-sample series
-    corroborating = (corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
-                     and len(sizes) >= 2)
+    def source(i: int):
+        """What a hop task is given for file ``i``: its table on a worker, or the file to read again."""
+        return pieces[i] if pieces[i] is not None else _Reread(str(files[i]), links, tz, mapping, reader)
 
     def submit(now: list, network_of: Callable, prefix: str) -> dict:
         futures = {}
@@ -550,16 +612,17 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []),
                       network_of(hop)) for hop in group]
             futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
-                                  *[pieces[i] for i in needed],
+                                  *[source(i) for i in needed],
                                   key=f"{prefix}-{safe_name(group[0])}-{len(futures)}", pure=False)] = group
         return futures
 
-    hop_futures = submit(sizes, lambda hop: FIRST_PASS if corroborating else None, "hops")
+    hop_futures = submit([(hop, rows) for hop, rows in sizes if hop not in ready],
+                         lambda hop: FIRST_PASS if corroborating else None, "hops")
     # each file's table is released by the cluster as soon as its last hop task has finished (in a corroborated
     # run: as soon as none of its hops waits for the second pass)
     files_of = {i: set(meta["hops"]) for i, meta in enumerate(reads)} if corroborating else {}
     if not corroborating:
-        del pieces
+        pieces = [None] * len(files)
     results: dict[str, LinkResult] = {}
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
@@ -570,8 +633,31 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     settled_events: dict[str, pd.DataFrame] = {}
     pending: list[str] = []
 
-    def collect(futures: dict, stage: str, total: int) -> None:
-        done = 0
+    def take(hop: str, outcome: _HopOutcome) -> str:
+        """Keep a hop's outcome, write its files; returns the note for the progress line."""
+        results[hop] = outcome.result
+        if outcome.minutes is not None:
+            minutes[hop] = outcome.minutes
+        if outcome.network_events is not None:
+            settled_events[hop] = outcome.network_events
+        if outcome.pending:
+            pending.append(hop)
+        else:
+            for i in hop_files.get(hop, []):
+                files_of.get(i, set()).discard(hop)
+                if i in files_of and not files_of[i]:
+                    pieces[i] = None
+        if out is not None and outcome.files:
+            folder = out / "hops" / folders[hop]
+            for rel, data in outcome.files.items():
+                target = folder / rel
+                target.parent.mkdir(parents=True, exist_ok=True)
+                target.write_bytes(data)
+                written.append(target)
+        return (f" (error: {outcome.result.error})" if outcome.result.error
+                else " (waits for the network pass)" if outcome.pending else "")
+
+    def collect(futures: dict, stage: str, total: int, done: int = 0) -> None:
         for fut in as_completed(list(futures)):
             group = futures.pop(fut)
             try:
@@ -581,36 +667,21 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
                                         {}) for hop in group]
             fut.release()
             for hop, outcome in zip(group, outcomes):
-                results[hop] = outcome.result
-                if outcome.minutes is not None:
-                    minutes[hop] = outcome.minutes
-                if outcome.network_events is not None:
-                    settled_events[hop] = outcome.network_events
-                if outcome.pending:
-                    pending.append(hop)
-                else:
-                    for i in hop_files.get(hop, []):
-                        files_of.get(i, set()).discard(hop)
-                        if i in files_of and not files_of[i]:
-                            pieces[i] = None
-                if out is not None and outcome.files:
-                    folder = out / "hops" / folders[hop]
-                    for rel, data in outcome.files.items():
-                        target = folder / rel
-                        target.parent.mkdir(parents=True, exist_ok=True)
-                        target.write_bytes(data)
-                        written.append(target)
+                note = take(hop, outcome)
                 done += 1
-                note = (f" (error: {outcome.result.error})" if outcome.result.error
-                        else " (waits for the network pass)" if outcome.pending else "")
                 tell(stage, done, total, hop + note)
 
-    collect(hop_futures, "analyse", len(sizes))
+    done = 0
+    for hop, _rows in sizes:     # the hops analysed while their file was read, in links-table order
+        if hop in ready:
+            done += 1
+            tell("analyse", done, len(sizes), hop + take(hop, ready.pop(hop)))
+    collect(hop_futures, "analyse", len(sizes), done)
     if corroborating:
         network_of = _network_pass(results, minutes, settled_events, pending, order)
         second = [(hop, rows) for hop, rows in sizes if hop in network_of]
         futures = submit(second, network_of.get, "network")
-        del pieces
+        pieces = [None] * len(files)
         files_of.clear()
         collect(futures, "network", len(second))
     for hop in order:  # hops in the links table that no input mentions
