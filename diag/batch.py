@@ -123,9 +123,55 @@ class _HopOutcome:
     minutes: pd.Series | None = None          # first pass of a network run: the hop's faded minutes
     pending: bool = False                     # ... its outputs wait for the second pass (files empty)
     network_events: pd.DataFrame | None = None   # ... a settled hop's events as corroboration leaves them
+    spilled: str | None = None                # ... a pending hop's input table, kept in a file on the worker
 
 
 FIRST_PASS = "first"   # ``_hop_task(network=FIRST_PASS)``: the first pass of a corroborated network run
+
+
+# --- a pending hop's input between the passes --------------------------------------------------------------------
+# A hop that waits for the network pass needs its input table again.  Kept in worker memory, every such hop's table
+# would stay there until the whole first pass is done (worker memory growing with the network); read again from
+# its log files, the second pass would parse every such file twice.  Instead the table goes to a file in the
+# worker's temporary folder (one folder per run, removed at the end of the run) and the second pass loads it; where
+# that file is not found (a task run on another machine), the hop's files are read again.
+def _spill_folder(token: str) -> Path:
+    return Path(tempfile.gettempdir()) / f"diag-batch-{token}"
+
+
+def _spill(data: bytes, token: str) -> str | None:
+    """``data`` into a new file of the run's folder; its path, or ``None`` when it cannot be written."""
+    try:
+        folder = _spill_folder(token)
+        folder.mkdir(mode=0o700, exist_ok=True)
+        fd, path = tempfile.mkstemp(suffix=".pkl", dir=folder)
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        return path
+    except OSError:
+        return None
+
+
+def _unspill(path: str | None) -> tuple | None:
+    """The ``(table, ingest)`` a first pass kept in ``path`` (the file removed), or ``None`` when it is not here."""
+    import pickle
+
+    if not path:
+        return None
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read()
+        os.unlink(path)
+    except OSError:
+        return None
+    return pickle.loads(data)
+
+
+def _remove_spill_folder(token: str) -> None:
+    """Run on every worker (and the driver) at the end of a run."""
+    import shutil
+
+    shutil.rmtree(_spill_folder(token), ignore_errors=True)
 
 
 # --- small helpers ----------------------------------------------------------------------------------------------
@@ -200,7 +246,7 @@ def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | Non
 @one_line_warnings
 def _read_analyse_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None, config,
                        analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
-                       network) -> _FilePiece:
+                       network, spill: str | None = None) -> _FilePiece:
     """``_read_task``, and when the file holds one hop only, that hop's ``_hop_task`` at once (as if no other input
     held it), after which the parsed table is dropped: the worker holds one hop's table at a time, whatever the
     size of the network.  The driver keeps the outcome when no other input holds the hop and ``network`` was the
@@ -210,7 +256,7 @@ def _read_analyse_task(path: str, links: list[Link], tz, mapping, reader: Reader
         return piece
     (hop,) = piece.tables
     link = {item.link_id: item for item in links}.get(hop)
-    outcome = _hop_task(hop, link, [piece], [], config, analyze, writer, keep_series, network)
+    outcome = _hop_task(hop, link, [piece], [], config, analyze, writer, keep_series, network, spill=spill)
     piece.rows = {hop: len(piece.tables[hop])}
     piece.tables = {}
     piece.outcome = (hop, outcome)
@@ -261,7 +307,7 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
 @one_line_warnings
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
-              network=None) -> _HopOutcome:
+              network=None, *, given: tuple | None = None, spill: str | None = None) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
 
     ``pieces``: the parsed files holding the hop; ``store_refs``: ``(store folder, hop id in the store)`` pairs,
@@ -269,36 +315,51 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
 
     ``network`` (network corroboration, see :func:`run`): ``None`` as a hop alone; ``FIRST_PASS`` to analyse and
     return the hop's faded minutes, rendering now only a hop that corroboration cannot change (else ``pending``);
-    a DataFrame of network columns for the second pass (``analyze(..., network=)``)."""
+    a DataFrame of network columns for the second pass (``analyze(..., network=)``).
+
+    ``given``: the hop's ``(table, ingest)`` kept by its first pass (then ``pieces`` and ``store_refs`` are not
+    read); ``spill``: the run's token, under which a first pass keeps a pending hop's ``(table, ingest)`` in a file
+    (``outcome.spilled``)."""
     if link is None:
         return _HopOutcome(failed_result(_placeholder_link(link_id), f"hop {link_id!r} has no row in the links "
                                          "table; add one"), {})
-    bad = [p for p in pieces if p.error]
+    bad = [p for p in pieces if p.error] if given is None else []
     if bad:
         return _HopOutcome(failed_result(link, "; ".join(p.error if p.name in p.error else f"{p.name}: {p.error}"
                                                          for p in bad)), {})
+    kept = None
     try:
-        parts = [p.tables.get(link_id) for p in pieces]
-        parts += [store_part(path, sid, link_id) for path, sid in store_refs]
-        table, dropped = hop_table(parts)
-        ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
-                  + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
-        if dropped:
-            ingest["overlap_values_dropped"] = dropped
-        del parts
+        if given is not None:
+            table, ingest = given
+            del given
+        else:
+            parts = [p.tables.get(link_id) for p in pieces]
+            parts += [store_part(path, sid, link_id) for path, sid in store_refs]
+            table, dropped = hop_table(parts)
+            ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
+                      + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
+            if dropped:
+                ingest["overlap_values_dropped"] = dropped
+            del parts
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
             from diag.pipeline import analyze_link as analyze
+        first = isinstance(network, str) and network == FIRST_PASS   # (a string: sent through pickle)
+        if first and spill:   # the input as it is now, before the analysis
+            import pickle
+
+            kept = pickle.dumps((table, ingest), protocol=pickle.HIGHEST_PROTOCOL)
         extra = {"network": network} if isinstance(network, pd.DataFrame) else {}
         result = analyze(table, link, config=config, ingest=ingest, **extra)
         del table
-        first = isinstance(network, str) and network == FIRST_PASS   # (a string: sent through pickle)
         outcome = _first_pass(result, config) if first and result.error is None else None
     except Exception as exc:
         return _HopOutcome(failed_result(link, _one_line(exc)), {})
     if outcome is not None and outcome.pending:
         outcome.result = replace(result, series={})
+        if kept is not None:
+            outcome.spilled = _spill(kept, spill)
         return outcome
     files: dict[str, bytes] = {}
     if result.error is None:
@@ -334,13 +395,25 @@ def _first_pass(result: LinkResult, config) -> _HopOutcome:
 
 
 def _hops_task(items: list[tuple], config, analyze: AnalyzeFn | None, writer: WriterFn | None,
-               keep_series: bool, *pieces) -> list[_HopOutcome]:
+               keep_series: bool, spill: str | None, *pieces) -> list[_HopOutcome]:
     """Several small hops in one task (``_hop_task`` for each): ``items`` are ``(hop, link, piece positions,
-    store refs, network)``, the positions index ``pieces``, the parsed files the group needs (each passed once;
-    a ``_Reread`` is read here)."""
-    pieces = tuple(p.piece() if isinstance(p, _Reread) else p for p in pieces)
-    return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series, network)
-            for hop, link, where, refs, network in items]
+    store refs, network, spilled)``, the positions index ``pieces``, the parsed files the group needs (each passed
+    once; a ``_Reread`` is read here, once, and only when a hop's first pass left no file ``spilled``)."""
+    ready: dict[int, _FilePiece] = {}
+
+    def piece(i: int) -> _FilePiece:
+        if i not in ready:
+            ready[i] = pieces[i].piece() if isinstance(pieces[i], _Reread) else pieces[i]
+        return ready[i]
+
+    out = []
+    for hop, link, where, refs, network, spilled in items:
+        given = _unspill(spilled)
+        out.append(_hop_task(hop, link, [] if given is not None else [piece(i) for i in where],
+                             [] if given is not None else refs, config, analyze, writer, keep_series, network,
+                             given=given, spill=spill))
+        del given
+    return out
 
 
 ROWS_PER_TASK = 200_000     # hops are grouped into one task up to this many rows (small hops: scheduling overhead)
@@ -517,7 +590,7 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
 
 def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,
          keep_series, corroborate=True) -> BatchResult:
-    from distributed import as_completed
+    import uuid
 
     from diag.config import AnalysisConfig
 
@@ -535,12 +608,30 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     may_corroborate = corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
     guessed = may_corroborate and len(files) + len(stores) >= 2
 
+    spill = uuid.uuid4().hex if may_corroborate else None    # names the run's folder for pending hops' inputs
+    try:
+        return _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer,
+                           reader, tell, keep_series, may_corroborate, guessed, spill)
+    finally:
+        if spill:
+            try:
+                client.run(_remove_spill_folder, spill)
+            except Exception:  # noqa: BLE001 - a worker gone: its temporary folder goes with its machine's cleanup
+                pass
+            _remove_spill_folder(spill)
+
+
+def _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, tell,
+                keep_series, may_corroborate, guessed, spill) -> BatchResult:
+    from distributed import as_completed
+
     # 1. read every file on the workers.  A file of one hop is analysed in the same task and its table dropped
     # there (``_read_analyse_task``), so a worker holds one hop's table at a time; a file of several hops keeps its
     # table on the worker, split by hop, for the hop tasks.  The driver sees which hops each file holds, and the
     # outcome of a hop analysed while read
     pieces = [client.submit(_read_analyse_task, str(p), links, tz, mapping, reader, config, analyze, writer,
-                            keep_series, FIRST_PASS if guessed else None, key=f"read-{i}-{p.name}", pure=False)
+                            keep_series, FIRST_PASS if guessed else None, spill, key=f"read-{i}-{p.name}",
+                            pure=False)
               for i, p in enumerate(files)]
     metas = [client.submit(_file_meta, f, pure=False) for f in pieces]
     index = {m.key: i for i, m in enumerate(metas)}
@@ -599,6 +690,7 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     ready = {hop: outcome for i, (hop, outcome) in early.items()
              if corroborating == guessed and hop_files.get(hop) == [i] and hop not in store_hops}
     del early
+    spilled: dict[str, str] = {}      # a pending hop -> the file its first pass kept its input in
 
     def source(i: int):
         """What a hop task is given for file ``i``: its table on a worker, or the file to read again."""
@@ -610,8 +702,8 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             needed = sorted({i for hop in group for i in hop_files.get(hop, [])})
             position = {i: k for k, i in enumerate(needed)}
             items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []),
-                      network_of(hop)) for hop in group]
-            futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
+                      network_of(hop), spilled.pop(hop, None)) for hop in group]
+            futures[client.submit(_hops_task, items, config, analyze, writer, keep_series, spill,
                                   *[source(i) for i in needed],
                                   key=f"{prefix}-{safe_name(group[0])}-{len(futures)}", pure=False)] = group
         return futures
@@ -642,6 +734,8 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             settled_events[hop] = outcome.network_events
         if outcome.pending:
             pending.append(hop)
+            if outcome.spilled:
+                spilled[hop] = outcome.spilled
         else:
             for i in hop_files.get(hop, []):
                 files_of.get(i, set()).discard(hop)
