@@ -711,7 +711,7 @@ def _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, confi
     hop_futures = submit([(hop, rows) for hop, rows in sizes if hop not in ready],
                          lambda hop: FIRST_PASS if corroborating else None, "hops")
     # each file's table is released by the cluster as soon as its last hop task has finished (in a corroborated
-    # run: as soon as none of its hops waits for the second pass)
+    # run: as soon as none of its hops waits for the second pass without its input kept in a file)
     files_of = {i: set(meta["hops"]) for i, meta in enumerate(reads)} if corroborating else {}
     if not corroborating:
         pieces = [None] * len(files)
@@ -736,7 +736,7 @@ def _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, confi
             pending.append(hop)
             if outcome.spilled:
                 spilled[hop] = outcome.spilled
-        else:
+        if not outcome.pending or outcome.spilled:    # the hop needs its files' tables no more
             for i in hop_files.get(hop, []):
                 files_of.get(i, set()).discard(hop)
                 if i in files_of and not files_of[i]:

@@ -197,6 +197,37 @@ def test_a_file_of_one_hop_is_analysed_as_it_is_read_and_a_split_hop_reads_its_f
         assert by_id[ids[i]].outage.summary == serial.outage.summary
 
 
+def test_a_hop_task_takes_the_input_its_first_pass_kept_else_reads_the_files_again(network, tmp_path):
+    """Between the passes of a network run a pending hop's input waits in a file of the worker's temporary folder:
+    the hop task loads it (and removes it) instead of reading the logs; where the file is not there (a task run on
+    another machine) it reads the logs again.  Same result either way."""
+    import pickle
+
+    _, _, links, tables = network
+    link = links[0]
+    table = batch.hop_table([tables[link.link_id]])[0]
+    log = tmp_path / "logs" / f"{link.link_id}.csv"
+    log.parent.mkdir()
+    tables[link.link_id].to_csv(log, index=False)
+    token = "test-" + tmp_path.name
+    try:
+        kept = batch._spill(pickle.dumps((table, {"files": []})), token)
+        assert kept is not None and Path(kept).parent == batch._spill_folder(token)
+        again = batch._Reread(str(log), links, None, None, counting_reader)
+        out = batch._hops_task([(link.link_id, link, [0], [], None, kept)], None, standin_analyze, standin_writer,
+                               False, None, again)
+        assert not Path(kept).exists()                              # loaded once, then removed
+        assert not (tmp_path / "reads.log").exists()                # the log was not read
+        out_read = batch._hops_task([(link.link_id, link, [0], [], None, kept)], None, standin_analyze,
+                                    standin_writer, False, None, again)   # the kept file is gone now: read again
+        assert (tmp_path / "reads.log").read_text().split() == [log.name]
+        serial = standin_analyze(table, link)
+        assert out[0].result.statistics == out_read[0].result.statistics == serial.statistics
+    finally:
+        batch._remove_spill_folder(token)
+    assert not batch._spill_folder(token).exists()
+
+
 def test_single_hop_file_takes_the_hop_named_in_its_file_name(tmp_path, client):
     link = make_link({"link_id": "Osprey-7", "frequency_ghz": 38, "length_km": 3, "polarization": "H",
                       "threshold_dbm": -65})
