@@ -3,24 +3,29 @@
 ``run(inputs, links, out_dir=...)`` is the whole job.  It starts a local Dask cluster (``workers`` processes with one
 thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"``), then
 
-1. submits one *read* task per input file; each task parses its file (``diag.read.ingest.read_log``), gives every row
-its
-   hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links table's only
-   row) and keeps the table on the worker, split by hop.  The driver receives only the list of hops in each file
-   and the reader's row accounting.
-2. submits one *hop* task per hop (or per group of small consecutive hops, ``hop_groups``: scheduling overhead
-   must not dominate a network of many small hops); it gathers that hop's rows from the files that hold them
-   (worker to worker), runs ``diag.pipeline.analyze_link`` and renders the hop's outputs
-   (``diag.report.write_outputs``, the PDF included, so PDFs are drawn in the workers) into bytes.
+1. submits one *read* task per input file; each task parses its file (``diag.read.ingest.read_log``) and gives
+   every row its hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links
+   table's only row).  A file that holds one hop (the usual export: one file per hop) has that hop analysed and
+   rendered in the same task, as the hop task of step 2 would, and its parsed table dropped there, so a worker
+   holds one hop's table at a time whatever the size of the network (``_read_analyse_task``); the driver keeps
+   that outcome when no other input holds the hop.  A file of several hops keeps its table on the worker, split
+   by hop.  The driver receives the list of hops in each file, the reader's row accounting and those outcomes.
+2. submits one *hop* task per hop not analysed yet (or per group of small consecutive hops, ``hop_groups``:
+   scheduling overhead must not dominate a network of many small hops); it gathers that hop's rows from the files
+   that hold them (worker to worker; a file whose table was dropped in step 1 is read again), runs
+   ``diag.pipeline.analyze_link`` and renders the hop's outputs (``diag.report.write_outputs``, the PDF included,
+   so PDFs are drawn in the workers) into bytes.
    The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
    ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
    Under the posterior attribution with two hops or more, the network corroborates (``corroborate``; the results
-   of ``diag.pipeline.analyze_files``, which holds every hop at once): the hop tasks are a first pass that also
-   returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute) and renders only
-   the hops without fade events (nothing the network says can change them); the driver computes the network
-   columns of every other hop's events (``network_columns``) and a second pass analyses those hops again with
-   their columns given to ``analyze_link(network=)`` and renders them.  Memory per task stays that of one hop; the
-   parsed files stay on the workers until the second pass has taken what it needs.
+   of ``diag.pipeline.analyze_files``, which holds every hop at once): the analyses of steps 1 and 2 are a first
+   pass that also returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute)
+   and renders only the hops without fade events (nothing the network says can change them); the driver computes
+   the network columns of every other hop's events (``network_columns``) and a second pass analyses those hops
+   again with their columns given to ``analyze_link(network=)`` and renders them.  Between the passes such a hop's
+   input table waits in a file of the worker's temporary folder (one folder per run, removed at its end), not in
+   memory; a second-pass task that does not find it there (another machine) reads the hop's files again.  Memory
+   per task stays that of one hop.
 3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
