@@ -3,24 +3,29 @@
 ``run(inputs, links, out_dir=...)`` is the whole job.  It starts a local Dask cluster (``workers`` processes with one
 thread each) or connects to an existing scheduler (``scheduler="tcp://host:port"``), then
 
-1. submits one *read* task per input file; each task parses its file (``diag.read.ingest.read_log``), gives every row
-its
-   hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links table's only
-   row) and keeps the table on the worker, split by hop.  The driver receives only the list of hops in each file
-   and the reader's row accounting.
-2. submits one *hop* task per hop (or per group of small consecutive hops, ``hop_groups``: scheduling overhead
-   must not dominate a network of many small hops); it gathers that hop's rows from the files that hold them
-   (worker to worker), runs ``diag.pipeline.analyze_link`` and renders the hop's outputs
-   (``diag.report.write_outputs``, the PDF included, so PDFs are drawn in the workers) into bytes.
+1. submits one *read* task per input file; each task parses its file (``diag.read.ingest.read_log``) and gives
+   every row its hop (by the ``link_id`` in the data, else by a link id contained in the file name, else the links
+   table's only row).  A file that holds one hop (the usual export: one file per hop) has that hop analysed and
+   rendered in the same task, as the hop task of step 2 would, and its parsed table dropped there, so a worker
+   holds one hop's table at a time whatever the size of the network (``_read_analyse_task``); the driver keeps
+   that outcome when no other input holds the hop.  A file of several hops keeps its table on the worker, split
+   by hop.  The driver receives the list of hops in each file, the reader's row accounting and those outcomes.
+2. submits one *hop* task per hop not analysed yet (or per group of small consecutive hops, ``hop_groups``:
+   scheduling overhead must not dominate a network of many small hops); it gathers that hop's rows from the files
+   that hold them (worker to worker; a file whose table was dropped in step 1 is read again), runs
+   ``diag.pipeline.analyze_link`` and renders the hop's outputs (``diag.report.write_outputs``, the PDF included,
+   so PDFs are drawn in the workers) into bytes.
    The driver writes each hop's files to ``OUT/hops/<hop>/`` as the hop finishes and keeps only a slim
    ``LinkResult`` (without the per-sample ``series``), so a network run never holds every hop's data in the driver.
    Under the posterior attribution with two hops or more, the network corroborates (``corroborate``; the results
-   of ``diag.pipeline.analyze_files``, which holds every hop at once): the hop tasks are a first pass that also
-   returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute) and renders only
-   the hops without fade events (nothing the network says can change them); the driver computes the network
-   columns of every other hop's events (``network_columns``) and a second pass analyses those hops again with
-   their columns given to ``analyze_link(network=)`` and renders them.  Memory per task stays that of one hop; the
-   parsed files stay on the workers until the second pass has taken what it needs.
+   of ``diag.pipeline.analyze_files``, which holds every hop at once): the analyses of steps 1 and 2 are a first
+   pass that also returns each hop's faded minutes (``diag.analysis.network.faded_minutes``, one value a minute)
+   and renders only the hops without fade events (nothing the network says can change them); the driver computes
+   the network columns of every other hop's events (``network_columns``) and a second pass analyses those hops
+   again with their columns given to ``analyze_link(network=)`` and renders them.  Between the passes such a hop's
+   input table waits in a file of the worker's temporary folder (one folder per run, removed at its end), not in
+   memory; a second-pass task that does not find it there (another machine) reads the hop's files again.  Memory
+   per task stays that of one hop.
 3. writes the network files: ``network_ranking.csv`` (hops ranked by outage minutes, failed hops listed with their
    error), ``network_report.pdf`` (one page), and ``events.csv``, ``outage_summary.csv``, ``outage_by_cause.csv``
    holding every hop (the per-hop files concatenated in links-table order).
@@ -97,6 +102,23 @@ class _FilePiece:
     report: dict
     error: str | None = None
     hop_of_error: str | None = None
+    rows: dict[str, int] | None = None             # rows per hop, kept when ``tables`` was dropped
+    outcome: tuple[str, _HopOutcome] | None = None  # (hop, outcome) of a file of one hop, analysed at once
+
+
+@dataclass
+class _Reread:
+    """A file whose parsed table was dropped once its only hop was analysed (``_read_analyse_task``): a hop task
+    that needs the table again (the network pass, or a hop found in other inputs too) reads the file again."""
+
+    path: str
+    links: list
+    tz: object
+    mapping: object
+    reader: object
+
+    def piece(self) -> _FilePiece:
+        return _read_task(self.path, self.links, self.tz, self.mapping, self.reader)
 
 
 @dataclass
@@ -106,9 +128,55 @@ class _HopOutcome:
     minutes: pd.Series | None = None          # first pass of a network run: the hop's faded minutes
     pending: bool = False                     # ... its outputs wait for the second pass (files empty)
     network_events: pd.DataFrame | None = None   # ... a settled hop's events as corroboration leaves them
+    spilled: str | None = None                # ... a pending hop's input table, kept in a file on the worker
 
 
 FIRST_PASS = "first"   # ``_hop_task(network=FIRST_PASS)``: the first pass of a corroborated network run
+
+
+# --- a pending hop's input between the passes --------------------------------------------------------------------
+# A hop that waits for the network pass needs its input table again.  Kept in worker memory, every such hop's table
+# would stay there until the whole first pass is done (worker memory growing with the network); read again from
+# its log files, the second pass would parse every such file twice.  Instead the table goes to a file in the
+# worker's temporary folder (one folder per run, removed at the end of the run) and the second pass loads it; where
+# that file is not found (a task run on another machine), the hop's files are read again.
+def _spill_folder(token: str) -> Path:
+    return Path(tempfile.gettempdir()) / f"diag-batch-{token}"
+
+
+def _spill(data: bytes, token: str) -> str | None:
+    """``data`` into a new file of the run's folder; its path, or ``None`` when it cannot be written."""
+    try:
+        folder = _spill_folder(token)
+        folder.mkdir(mode=0o700, exist_ok=True)
+        fd, path = tempfile.mkstemp(suffix=".pkl", dir=folder)
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        return path
+    except OSError:
+        return None
+
+
+def _unspill(path: str | None) -> tuple | None:
+    """The ``(table, ingest)`` a first pass kept in ``path`` (the file removed), or ``None`` when it is not here."""
+    import pickle
+
+    if not path:
+        return None
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read()
+        os.unlink(path)
+    except OSError:
+        return None
+    return pickle.loads(data)
+
+
+def _remove_spill_folder(token: str) -> None:
+    """Run on every worker (and the driver) at the end of a run."""
+    import shutil
+
+    shutil.rmtree(_spill_folder(token), ignore_errors=True)
 
 
 # --- small helpers ----------------------------------------------------------------------------------------------
@@ -180,10 +248,30 @@ def _read_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | Non
         return _FilePiece(name=name, tables={}, report={}, error=_one_line(exc), hop_of_error=hop)
 
 
+@one_line_warnings
+def _read_analyse_task(path: str, links: list[Link], tz, mapping, reader: ReaderFn | None, config,
+                       analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
+                       network, spill: str | None = None) -> _FilePiece:
+    """``_read_task``, and when the file holds one hop only, that hop's ``_hop_task`` at once (as if no other input
+    held it), after which the parsed table is dropped: the worker holds one hop's table at a time, whatever the
+    size of the network.  The driver keeps the outcome when no other input holds the hop and ``network`` was the
+    mode of the run, else that hop is analysed again in a hop task that reads the file again (``_Reread``)."""
+    piece = _read_task(path, links, tz, mapping, reader)
+    if piece.error or len(piece.tables) != 1:
+        return piece
+    (hop,) = piece.tables
+    link = {item.link_id: item for item in links}.get(hop)
+    outcome = _hop_task(hop, link, [piece], [], config, analyze, writer, keep_series, network, spill=spill)
+    piece.rows = {hop: len(piece.tables[hop])}
+    piece.tables = {}
+    piece.outcome = (hop, outcome)
+    return piece
+
+
 def _file_meta(piece: _FilePiece) -> dict:
-    return {"file": piece.name, "hops": {k: len(v) for k, v in piece.tables.items()},
-            "rows": int(sum(len(v) for v in piece.tables.values())), "error": piece.error,
-            "hop_of_error": piece.hop_of_error, "report": piece.report}
+    rows = piece.rows if piece.rows is not None else {k: len(v) for k, v in piece.tables.items()}
+    return {"file": piece.name, "hops": rows, "rows": int(sum(rows.values())), "error": piece.error,
+            "hop_of_error": piece.hop_of_error, "report": piece.report, "outcome": piece.outcome}
 
 
 def failed_result(link: Link, error: str) -> LinkResult:
@@ -224,7 +312,7 @@ def _render(result: LinkResult, writer: WriterFn | None) -> dict[str, bytes]:
 @one_line_warnings
 def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, config,
               analyze: AnalyzeFn | None, writer: WriterFn | None, keep_series: bool,
-              network=None) -> _HopOutcome:
+              network=None, *, given: tuple | None = None, spill: str | None = None) -> _HopOutcome:
     """Analyse one hop on a worker and render its outputs; never raises.
 
     ``pieces``: the parsed files holding the hop; ``store_refs``: ``(store folder, hop id in the store)`` pairs,
@@ -232,36 +320,51 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
 
     ``network`` (network corroboration, see :func:`run`): ``None`` as a hop alone; ``FIRST_PASS`` to analyse and
     return the hop's faded minutes, rendering now only a hop that corroboration cannot change (else ``pending``);
-    a DataFrame of network columns for the second pass (``analyze(..., network=)``)."""
+    a DataFrame of network columns for the second pass (``analyze(..., network=)``).
+
+    ``given``: the hop's ``(table, ingest)`` kept by its first pass (then ``pieces`` and ``store_refs`` are not
+    read); ``spill``: the run's token, under which a first pass keeps a pending hop's ``(table, ingest)`` in a file
+    (``outcome.spilled``)."""
     if link is None:
         return _HopOutcome(failed_result(_placeholder_link(link_id), f"hop {link_id!r} has no row in the links "
                                          "table; add one"), {})
-    bad = [p for p in pieces if p.error]
+    bad = [p for p in pieces if p.error] if given is None else []
     if bad:
         return _HopOutcome(failed_result(link, "; ".join(p.error if p.name in p.error else f"{p.name}: {p.error}"
                                                          for p in bad)), {})
+    kept = None
     try:
-        parts = [p.tables.get(link_id) for p in pieces]
-        parts += [store_part(path, sid, link_id) for path, sid in store_refs]
-        table, dropped = hop_table(parts)
-        ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
-                  + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
-        if dropped:
-            ingest["overlap_values_dropped"] = dropped
-        del parts
+        if given is not None:
+            table, ingest = given
+            del given
+        else:
+            parts = [p.tables.get(link_id) for p in pieces]
+            parts += [store_part(path, sid, link_id) for path, sid in store_refs]
+            table, dropped = hop_table(parts)
+            ingest = {"files": [hop_view(p.report, link_id) for p in pieces]   # the hop's part: O(1) per hop
+                      + [{"file": path, "layout": "store", "store_link_id": sid} for path, sid in store_refs]}
+            if dropped:
+                ingest["overlap_values_dropped"] = dropped
+            del parts
         if table.empty:
             return _HopOutcome(failed_result(link, "no data for this hop in the inputs"), {})
         if analyze is None:
             from diag.pipeline import analyze_link as analyze
+        first = isinstance(network, str) and network == FIRST_PASS   # (a string: sent through pickle)
+        if first and spill:   # the input as it is now, before the analysis
+            import pickle
+
+            kept = pickle.dumps((table, ingest), protocol=pickle.HIGHEST_PROTOCOL)
         extra = {"network": network} if isinstance(network, pd.DataFrame) else {}
         result = analyze(table, link, config=config, ingest=ingest, **extra)
         del table
-        first = isinstance(network, str) and network == FIRST_PASS   # (a string: sent through pickle)
         outcome = _first_pass(result, config) if first and result.error is None else None
     except Exception as exc:
         return _HopOutcome(failed_result(link, _one_line(exc)), {})
     if outcome is not None and outcome.pending:
         outcome.result = replace(result, series={})
+        if kept is not None:
+            outcome.spilled = _spill(kept, spill)
         return outcome
     files: dict[str, bytes] = {}
     if result.error is None:
@@ -297,11 +400,25 @@ def _first_pass(result: LinkResult, config) -> _HopOutcome:
 
 
 def _hops_task(items: list[tuple], config, analyze: AnalyzeFn | None, writer: WriterFn | None,
-               keep_series: bool, *pieces) -> list[_HopOutcome]:
+               keep_series: bool, spill: str | None, *pieces) -> list[_HopOutcome]:
     """Several small hops in one task (``_hop_task`` for each): ``items`` are ``(hop, link, piece positions,
-    store refs, network)``, the positions index ``pieces``, the parsed files the group needs (each passed once)."""
-    return [_hop_task(hop, link, [pieces[i] for i in where], refs, config, analyze, writer, keep_series, network)
-            for hop, link, where, refs, network in items]
+    store refs, network, spilled)``, the positions index ``pieces``, the parsed files the group needs (each passed
+    once; a ``_Reread`` is read here, once, and only when a hop's first pass left no file ``spilled``)."""
+    ready: dict[int, _FilePiece] = {}
+
+    def piece(i: int) -> _FilePiece:
+        if i not in ready:
+            ready[i] = pieces[i].piece() if isinstance(pieces[i], _Reread) else pieces[i]
+        return ready[i]
+
+    out = []
+    for hop, link, where, refs, network, spilled in items:
+        given = _unspill(spilled)
+        out.append(_hop_task(hop, link, [] if given is not None else [piece(i) for i in where],
+                             [] if given is not None else refs, config, analyze, writer, keep_series, network,
+                             given=given, spill=spill))
+        del given
+    return out
 
 
 ROWS_PER_TASK = 200_000     # hops are grouped into one task up to this many rows (small hops: scheduling overhead)
@@ -478,19 +595,53 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
 
 def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, progress,
          keep_series, corroborate=True) -> BatchResult:
-    from distributed import as_completed
+    import uuid
+
+    from diag.config import AnalysisConfig
 
     def tell(stage, done, total, message):
         log.info("%s %d/%d %s", stage, done, total, message)
         if progress is not None:
             progress(stage, done, total, message)
 
-    # 1. read every file on the workers; the driver sees only which hops each file holds
-    pieces = [client.submit(_read_task, str(p), links, tz, mapping, reader, key=f"read-{i}-{p.name}", pure=False)
+    # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
+    # the driver computes each hop's network columns, a second pass re-analyses the hops they can change.  A
+    # replacement ``analyze`` (tests, benchmarks) is not corroborated: it need not take ``network=`` nor return
+    # per-sample series.  Whether a run corroborates is known once its files are read (two hops or more); the hops
+    # analysed while their file is read assume it from the number of inputs (a wrong guess costs those hops a
+    # second analysis, never a different result)
+    may_corroborate = corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
+    guessed = may_corroborate and len(files) + len(stores) >= 2
+
+    spill = uuid.uuid4().hex if may_corroborate else None    # names the run's folder for pending hops' inputs
+    try:
+        return _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer,
+                           reader, tell, keep_series, may_corroborate, guessed, spill)
+    finally:
+        if spill:
+            try:
+                client.run(_remove_spill_folder, spill)
+            except Exception:  # noqa: BLE001 - a worker gone: its temporary folder goes with its machine's cleanup
+                pass
+            _remove_spill_folder(spill)
+
+
+def _run_passes(client, files, stores, links, by_id, out_dir, tz, mapping, config, analyze, writer, reader, tell,
+                keep_series, may_corroborate, guessed, spill) -> BatchResult:
+    from distributed import as_completed
+
+    # 1. read every file on the workers.  A file of one hop is analysed in the same task and its table dropped
+    # there (``_read_analyse_task``), so a worker holds one hop's table at a time; a file of several hops keeps its
+    # table on the worker, split by hop, for the hop tasks.  The driver sees which hops each file holds, and the
+    # outcome of a hop analysed while read
+    pieces = [client.submit(_read_analyse_task, str(p), links, tz, mapping, reader, config, analyze, writer,
+                            keep_series, FIRST_PASS if guessed else None, spill, key=f"read-{i}-{p.name}",
+                            pure=False)
               for i, p in enumerate(files)]
     metas = [client.submit(_file_meta, f, pure=False) for f in pieces]
     index = {m.key: i for i, m in enumerate(metas)}
     reads: list[dict | None] = [None] * len(files)
+    early: dict[int, tuple[str, _HopOutcome]] = {}     # file -> (its only hop, that hop's outcome)
     for done, fut in enumerate(as_completed(metas), start=1):
         i = index[fut.key]
         try:
@@ -502,6 +653,12 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
                 hop = None
             meta = {"file": files[i].name, "hops": {}, "rows": 0, "error": _one_line(exc), "hop_of_error": hop,
                     "report": {}}
+        fut.release()
+        metas[i] = None
+        if meta.get("outcome") is not None:
+            early[i] = meta["outcome"]
+            pieces[i] = None          # nothing left on the worker but the file's report: read again if needed
+        meta.pop("outcome", None)
         reads[i] = meta
         tell("read", done, len(files), meta["file"] + (f" (error: {meta['error']})" if meta["error"] else ""))
     del metas
@@ -533,14 +690,16 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
         rows = None if hop in store_hops else sum(reads[i]["hops"].get(hop, 0) for i in hop_files[hop])
         sizes.append((hop, rows))
     n_workers = max(1, len(client.scheduler_info().get("workers", {})))
-    # network corroboration (posterior attribution, several hops): a first pass gives every hop's faded minutes,
-    # the driver computes each hop's network columns, a second pass re-analyses the hops they can change
-    from diag.config import AnalysisConfig
+    corroborating = may_corroborate and len(sizes) >= 2
+    # an outcome of step 1 stands when its file was the hop's only input and the run's mode was guessed right
+    ready = {hop: outcome for i, (hop, outcome) in early.items()
+             if corroborating == guessed and hop_files.get(hop) == [i] and hop not in store_hops}
+    del early
+    spilled: dict[str, str] = {}      # a pending hop -> the file its first pass kept its input in
 
-    # a replacement ``analyze`` (tests, benchmarks) is not corroborated: it need not take ``network=`` nor return
-    # per-sample series
-    corroborating = (corroborate and analyze is None and (config or AnalysisConfig()).attribution == "posterior"
-                     and len(sizes) >= 2)
+    def source(i: int):
+        """What a hop task is given for file ``i``: its table on a worker, or the file to read again."""
+        return pieces[i] if pieces[i] is not None else _Reread(str(files[i]), links, tz, mapping, reader)
 
     def submit(now: list, network_of: Callable, prefix: str) -> dict:
         futures = {}
@@ -548,18 +707,19 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
             needed = sorted({i for hop in group for i in hop_files.get(hop, [])})
             position = {i: k for k, i in enumerate(needed)}
             items = [(hop, by_id.get(hop), [position[i] for i in hop_files.get(hop, [])], store_hops.get(hop, []),
-                      network_of(hop)) for hop in group]
-            futures[client.submit(_hops_task, items, config, analyze, writer, keep_series,
-                                  *[pieces[i] for i in needed],
+                      network_of(hop), spilled.pop(hop, None)) for hop in group]
+            futures[client.submit(_hops_task, items, config, analyze, writer, keep_series, spill,
+                                  *[source(i) for i in needed],
                                   key=f"{prefix}-{safe_name(group[0])}-{len(futures)}", pure=False)] = group
         return futures
 
-    hop_futures = submit(sizes, lambda hop: FIRST_PASS if corroborating else None, "hops")
+    hop_futures = submit([(hop, rows) for hop, rows in sizes if hop not in ready],
+                         lambda hop: FIRST_PASS if corroborating else None, "hops")
     # each file's table is released by the cluster as soon as its last hop task has finished (in a corroborated
-    # run: as soon as none of its hops waits for the second pass)
+    # run: as soon as none of its hops waits for the second pass without its input kept in a file)
     files_of = {i: set(meta["hops"]) for i, meta in enumerate(reads)} if corroborating else {}
     if not corroborating:
-        del pieces
+        pieces = [None] * len(files)
     results: dict[str, LinkResult] = {}
     written: list[Path] = []
     out = Path(out_dir) if out_dir is not None else None
@@ -570,8 +730,33 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
     settled_events: dict[str, pd.DataFrame] = {}
     pending: list[str] = []
 
-    def collect(futures: dict, stage: str, total: int) -> None:
-        done = 0
+    def take(hop: str, outcome: _HopOutcome) -> str:
+        """Keep a hop's outcome, write its files; returns the note for the progress line."""
+        results[hop] = outcome.result
+        if outcome.minutes is not None:
+            minutes[hop] = outcome.minutes
+        if outcome.network_events is not None:
+            settled_events[hop] = outcome.network_events
+        if outcome.pending:
+            pending.append(hop)
+            if outcome.spilled:
+                spilled[hop] = outcome.spilled
+        if not outcome.pending or outcome.spilled:    # the hop needs its files' tables no more
+            for i in hop_files.get(hop, []):
+                files_of.get(i, set()).discard(hop)
+                if i in files_of and not files_of[i]:
+                    pieces[i] = None
+        if out is not None and outcome.files:
+            folder = out / "hops" / folders[hop]
+            for rel, data in outcome.files.items():
+                target = folder / rel
+                target.parent.mkdir(parents=True, exist_ok=True)
+                target.write_bytes(data)
+                written.append(target)
+        return (f" (error: {outcome.result.error})" if outcome.result.error
+                else " (waits for the network pass)" if outcome.pending else "")
+
+    def collect(futures: dict, stage: str, total: int, done: int = 0) -> None:
         for fut in as_completed(list(futures)):
             group = futures.pop(fut)
             try:
@@ -581,36 +766,21 @@ def _run(client, files, stores, links, by_id, out_dir, tz, mapping, config, anal
                                         {}) for hop in group]
             fut.release()
             for hop, outcome in zip(group, outcomes):
-                results[hop] = outcome.result
-                if outcome.minutes is not None:
-                    minutes[hop] = outcome.minutes
-                if outcome.network_events is not None:
-                    settled_events[hop] = outcome.network_events
-                if outcome.pending:
-                    pending.append(hop)
-                else:
-                    for i in hop_files.get(hop, []):
-                        files_of.get(i, set()).discard(hop)
-                        if i in files_of and not files_of[i]:
-                            pieces[i] = None
-                if out is not None and outcome.files:
-                    folder = out / "hops" / folders[hop]
-                    for rel, data in outcome.files.items():
-                        target = folder / rel
-                        target.parent.mkdir(parents=True, exist_ok=True)
-                        target.write_bytes(data)
-                        written.append(target)
+                note = take(hop, outcome)
                 done += 1
-                note = (f" (error: {outcome.result.error})" if outcome.result.error
-                        else " (waits for the network pass)" if outcome.pending else "")
                 tell(stage, done, total, hop + note)
 
-    collect(hop_futures, "analyse", len(sizes))
+    done = 0
+    for hop, _rows in sizes:     # the hops analysed while their file was read, in links-table order
+        if hop in ready:
+            done += 1
+            tell("analyse", done, len(sizes), hop + take(hop, ready.pop(hop)))
+    collect(hop_futures, "analyse", len(sizes), done)
     if corroborating:
         network_of = _network_pass(results, minutes, settled_events, pending, order)
         second = [(hop, rows) for hop, rows in sizes if hop in network_of]
         futures = submit(second, network_of.get, "network")
-        del pieces
+        pieces = [None] * len(files)
         files_of.clear()
         collect(futures, "network", len(second))
     for hop in order:  # hops in the links table that no input mentions

@@ -7,6 +7,7 @@ and progress reports.  (The real pipeline is exercised in tests/cli/test_batch.p
 from __future__ import annotations
 
 import math
+from collections import Counter
 from pathlib import Path
 
 import numpy as np
@@ -28,6 +29,13 @@ def standin_reader(path, *, tz=None, mapping=None):
     table = pd.read_csv(path, dtype={schema.LINK: "str", schema.CHANNEL: "str"})
     table[schema.TIME] = pd.to_datetime(table[schema.TIME], utc=True)
     return table, {"file": Path(path).name, "rows_read": len(table)}
+
+
+def counting_reader(path, *, tz=None, mapping=None):
+    """``standin_reader`` that also notes each file it reads (in ``reads.log`` beside the logs folder)."""
+    with open(Path(path).parent.parent / "reads.log", "a", encoding="utf-8") as log:
+        log.write(Path(path).name + "\n")
+    return standin_reader(path, tz=tz, mapping=mapping)
 
 
 def _content_hash(table):
@@ -160,6 +168,64 @@ def test_cluster_results_equal_serial_and_failures_stay_with_their_hop(network, 
     hops = [a for a in seen if a[0] == "analyse"]
     assert [a[1] for a in reads] == list(range(1, 17)) and reads[-1][2] == 16   # 12 + 4 extra files
     assert [a[1] for a in hops] == list(range(1, 8)) and hops[-1][2] == 7   # 6 hops + the stray hop
+
+
+def test_a_file_of_one_hop_is_analysed_as_it_is_read_and_a_split_hop_reads_its_files_again(network, client,
+                                                                                            tmp_path):
+    """Worker memory stays that of one hop: a hop whose only input is one file is analysed in the file's read task
+    (its table dropped there); a file of several hops keeps its table for their hop tasks; a hop found in several
+    files is analysed by a hop task that reads them again.  Every way gives the stand-in analysis run serially on
+    the hop's rows."""
+    _, _, links, tables = network
+    logs = tmp_path / "logs"
+    logs.mkdir()
+    ids = [link.link_id for link in links]
+    tables[ids[0]].to_csv(logs / "only-0.csv", index=False)                                 # one file, one hop
+    pd.concat([tables[ids[1]], tables[ids[2]]]).to_csv(logs / "pair.csv", index=False)      # one file, two hops
+    half = len(tables[ids[5]]) // 2
+    tables[ids[5]].iloc[:half].to_csv(logs / "split_a.csv", index=False)                   # one hop, two files
+    tables[ids[5]].iloc[half:].to_csv(logs / "split_b.csv", index=False)
+    res = batch.run([logs], links, out_dir=None, client=client, analyze=standin_analyze, writer=standin_writer,
+                    reader=counting_reader)
+    reads = Counter((tmp_path / "reads.log").read_text().split())
+    assert reads == {"only-0.csv": 1, "pair.csv": 1, "split_a.csv": 2, "split_b.csv": 2}
+    by_id = {r.link.link_id: r for r in res.results}
+    for i in (0, 1, 2, 5):
+        serial = standin_analyze(batch.hop_table([tables[ids[i]]])[0], links[i])
+        assert by_id[ids[i]].error is None
+        assert by_id[ids[i]].statistics == serial.statistics
+        assert by_id[ids[i]].outage.summary == serial.outage.summary
+
+
+def test_a_hop_task_takes_the_input_its_first_pass_kept_else_reads_the_files_again(network, tmp_path):
+    """Between the passes of a network run a pending hop's input waits in a file of the worker's temporary folder:
+    the hop task loads it (and removes it) instead of reading the logs; where the file is not there (a task run on
+    another machine) it reads the logs again.  Same result either way."""
+    import pickle
+
+    _, _, links, tables = network
+    link = links[0]
+    table = batch.hop_table([tables[link.link_id]])[0]
+    log = tmp_path / "logs" / f"{link.link_id}.csv"
+    log.parent.mkdir()
+    tables[link.link_id].to_csv(log, index=False)
+    token = "test-" + tmp_path.name
+    try:
+        kept = batch._spill(pickle.dumps((table, {"files": []})), token)
+        assert kept is not None and Path(kept).parent == batch._spill_folder(token)
+        again = batch._Reread(str(log), links, None, None, counting_reader)
+        out = batch._hops_task([(link.link_id, link, [0], [], None, kept)], None, standin_analyze, standin_writer,
+                               False, None, again)
+        assert not Path(kept).exists()                              # loaded once, then removed
+        assert not (tmp_path / "reads.log").exists()                # the log was not read
+        out_read = batch._hops_task([(link.link_id, link, [0], [], None, kept)], None, standin_analyze,
+                                    standin_writer, False, None, again)   # the kept file is gone now: read again
+        assert (tmp_path / "reads.log").read_text().split() == [log.name]
+        serial = standin_analyze(table, link)
+        assert out[0].result.statistics == out_read[0].result.statistics == serial.statistics
+    finally:
+        batch._remove_spill_folder(token)
+    assert not batch._spill_folder(token).exists()
 
 
 def test_single_hop_file_takes_the_hop_named_in_its_file_name(tmp_path, client):

@@ -17,6 +17,7 @@ import dataclasses
 import json
 import logging
 import shutil
+import tempfile
 import warnings
 from pathlib import Path
 
@@ -50,6 +51,20 @@ TABLES = (("events.csv", events_csv_bytes), ("outage_summary.csv", outage_summar
 
 def _json(value) -> str:
     return json.dumps(value, sort_keys=True, default=str)
+
+
+def counting_reader(path, *, tz=None, mapping=None):
+    """diag's own reader for batch (``read_file_table``), noting each file it reads in ``reads.log`` beside the
+    logs folder (module-level: the worker processes import it)."""
+    from diag.read.hops import read_file_table
+
+    with open(Path(path).parent.parent / "reads.log", "a", encoding="utf-8") as log:
+        log.write(Path(path).name + "\n")
+    return read_file_table(path, tz=tz, mapping=mapping)
+
+
+def _spill_folders() -> set:
+    return set(Path(tempfile.gettempdir()).glob("diag-batch-*"))
 
 
 def _quiet():
@@ -123,10 +138,17 @@ def test_batch_corroborates_as_analyze_files_file_for_file(network, client):
     links = _with_coordinates(links)
     want = _serial([logs], links)
     seen = []
+    (root / "reads.log").unlink(missing_ok=True)
+    folders_before = _spill_folders()
     with _quiet():
         warnings.simplefilter("ignore", DataWarning)
         res = batch.run([logs], links, out_dir=root / "out", client=client, config=POSTERIOR,
-                        progress=lambda *a: seen.append(a))
+                        progress=lambda *a: seen.append(a), reader=counting_reader)
+    # each file of one hop was read once: its hop analysed in the read task, and a hop waiting for the network
+    # pass took its input from the file the first pass kept (removed with the run's folder at the end)
+    reads = (root / "reads.log").read_text().split()
+    assert sorted(reads) == sorted(p.name for p in logs.iterdir())
+    assert _spill_folders() <= folders_before
     got = {r.link.link_id: r for r in res.results}
     assert set(got) == set(want) == {link.link_id for link in links}
     for hop, serial in want.items():
