@@ -65,7 +65,11 @@ def _equipment(row) -> tuple[str, float, str] | None:
         return (S.SIGNAL_LOSS, 0.9 if math.isfinite(pre_floor) else 0.7,
                 f"{shape} drop to the receiver floor ({floor_frac:.0%} of the event at the floor) with fade "
                 f"{before} in the 30 s before: abrupt, not a propagation fade")
-    if _f(row["near_floor_fraction"]) >= 0.8 and dur >= 3600.0 and _f(row["peak_fade_db"]) >= 20.0:
+    # an ATPC transmitter that climbed during the event (tsl_rise_db from evidence.py) was answering a changing
+    # path: the receive level it held still is no dead receiver
+    atpc_active = _f(row.get("tsl_rise_db")) >= 3.0
+    if (_f(row["near_floor_fraction"]) >= 0.8 and dur >= 3600.0 and _f(row["peak_fade_db"]) >= 20.0
+            and not atpc_active):
         return (S.SIGNAL_LOSS, 0.6,
                 f"{shape} at the receiver floor: level within 2 dB of its lowest reading for "
                 f"{_f(row['near_floor_fraction']):.0%} of the event, {_f(row['peak_fade_db']):.0f} dB below the "

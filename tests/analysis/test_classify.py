@@ -170,3 +170,16 @@ def test_temporary_step_under_rain_is_equipment(hops):
     assert 2.5 * H <= step["duration_s"].iloc[0] <= 3.5 * H
     _, alone = hops.analysed(spec([shower]), seed=4)
     assert list(alone.events["cause"]) == [S.RAIN], list(alone.events["evidence"])
+
+
+def test_receive_level_held_still_by_atpc_is_no_dead_receiver():
+    # automatic transmit power control (ATPC) holds the receive level near its target while the transmitter climbs
+    # against a fade (ITU-R F.1101 describes it, from memory; common practice): a level that sits still for hours
+    # while the TSL rose 16 dB answers a changing path (family B seed 61, N061-H6: a storm with ATPC, called signal
+    # loss before), whereas the same still level with a quiet transmitter is a receiver sitting at its floor
+    from diag.analysis.classify import _equipment
+    row = {"event_kind": "fade", "duration_s": 30000.0, "floor_fraction": 0.0, "pre_floor_fade_db": float("nan"),
+           "peak_fade_db_finite": 21.2, "peak_fade_db": 21.2, "near_floor_fraction": 0.94, "interval_s": 1.0,
+           "kind": "samples"}
+    assert _equipment({**row, "tsl_rise_db": 0.0})[0] == "signal_loss"
+    assert _equipment({**row, "tsl_rise_db": 16.2}) is None
