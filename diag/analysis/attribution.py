@@ -328,6 +328,11 @@ def term_gauge(row, link: Link, prior: HopPrior):
     return _v(-1.0, 0.0, 0.0), "gauge dry"
 
 
+# share of the hops at nearness weight 1 that a rain fade on this path also fades by 3 dB or more beyond their own
+# chance rate (rain cells of a few km against CORRELATION_KM; stated, from memory, not fitted)
+NETWORK_SHARED_RAIN = 0.3
+
+
 def term_network(row, link: Link, prior: HopPrior):
     """Other hops of the network fading in the same minutes BEYOND CHANCE (columns of
     :mod:`diag.analysis.network`: ``network_share``, the distance-weighted share that faded; ``network_chance``, the
@@ -336,8 +341,9 @@ def term_network(row, link: Link, prior: HopPrior):
     Overeem et al. 2016 nearby-link method).  In a large network some hops fade somewhere most of the time, so
     only the excess of the share over chance is evidence (a likelihood ratio needs the rate under "no rain" as
     much as under rain).  Up to +2 for rain at an excess of 0.2 or more, scaled by the weight of the hops that
-    faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops); -0.3 when
-    three or more other hops were watched and no more faded than chance."""
+    faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops).  When three
+    or more other hops were watched and no more faded than chance: -``NETWORK_SHARED_RAIN`` x the watched nearness
+    weight (``network_weight``), bounded to -0.3..-3."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
@@ -347,9 +353,13 @@ def term_network(row, link: Link, prior: HopPrior):
     if share <= 0.0 or excess <= 0.0:
         if others < 3:
             return None
+        # rain that fades this path falls on the near hops too: with a watched nearness weight W, about
+        # NETWORK_SHARED_RAIN x W of them should have faded beyond chance, and none did (Poisson: ln P = -q W)
+        watched = _f(row.get("network_weight"))
+        s = _clip(NETWORK_SHARED_RAIN * watched, 0.3, 3.0) if math.isfinite(watched) else 0.3
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
                 f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
-        return _v(-0.3, 0.0, 0.0), text
+        return _v(-s, 0.0, 0.0), text
     # the evidence rests on the hops that faded beyond chance, weighted by nearness (1 each without coordinates):
     # one faded hop at 0 km, or several further off, give the full term; hops 50 km away fading in a regional
     # storm give little

@@ -10,7 +10,8 @@ For each fade event of a hop, the other hops analysed with it are asked whether 
 it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then,
 ``network_faded_weight`` the summed weights of those that faded (how much near evidence the share rests on: hops
 far away fading in a regional storm say little about this path), ``network_chance`` the weighted share expected by
-chance in a window that long from each hop's own rate of fading over the record (in a network of many hops some
+chance in a window that long from each hop's own rate of fading over the record, ``network_weight`` the summed
+weights of the hops watched (in a network of many hops some
 fade somewhere most of the time: 0.1 in six hours of a dry day among the 141 OpenRainER links).
 Weights: exp(-distance / ``CORRELATION_KM``) between path midpoints when the links table gives both hops' site
 coordinates (rain fields decorrelate over tens of km: convective cells of a few km, fronts of tens of km; 20 km
@@ -39,7 +40,7 @@ __all__ = ["faded_minutes", "minute_counts", "MinuteCounts", "network_columns", 
 FADED_DB = 3.0
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
-NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance")
+NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance", "network_weight")
 # causes that do not fade a neighbouring hop with this one: multipath is hop-local (each hop's own geometry) and
 # equipment is one hop's own.  Refraction is hop-local too, but a first-pass "refractive" or "unknown" is the call
 # most often wrong in a storm (rain read as a slow fade on every hop at once), and leaving those out took the
@@ -141,12 +142,13 @@ def network_columns(events: pd.DataFrame, link: Link,
     sums add the hops in the order given, as a loop over them would (the same floating-point result)."""
     share = np.full(len(events), np.nan)
     chance = np.full(len(events), np.nan)
+    watched = np.zeros(len(events))
     hops = np.zeros(len(events))
     mass = np.zeros(len(events))
 
     def table() -> pd.DataFrame:
         return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass,
-                             "network_chance": chance}, index=events.index)
+                             "network_chance": chance, "network_weight": watched}, index=events.index)
 
     if not len(events) or not others:
         return table()
@@ -181,6 +183,7 @@ def network_columns(events: pd.DataFrame, link: Link,
         chance[use] = np.where(count > 0, expected / den, np.nan)
     hops[use] = count
     mass[use] = np.where(count > 0, num, 0.0)
+    watched[use] = den
     return table()
 
 

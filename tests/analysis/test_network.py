@@ -118,6 +118,7 @@ def test_base_rates_and_the_share_expected_by_chance():
                                                     (_link("B"), _minutes([]))])
     want = (counts.chance(np.array([window]))[0] + 0.0) / 2.0
     assert got["network_chance"].iloc[0] == pytest.approx(want)
+    assert got["network_weight"].iloc[0] == pytest.approx(2.0)   # two hops watched, weight 1 each
     assert got["network_share"].iloc[0] == pytest.approx(0.5)
 
 
@@ -132,6 +133,11 @@ def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
     dry = {"network_share": 0.1, "network_hops": 140, "network_faded_weight": 14.0, "network_chance": 0.12}
     vec, text = A.term_network(dry, link, prior)
     assert vec[A.R] == pytest.approx(-0.3) and "no more than chance (12%)" in text
+    # the more near hops were watched, the less likely rain on this path spared them all (Poisson, about
+    # NETWORK_SHARED_RAIN of each unit of nearness weight should have faded): -0.3 x 9 = -2.7, bounded to -3
+    assert A.term_network({**dry, "network_weight": 9.0}, link, prior)[0][A.R] == pytest.approx(-0.3 * 9.0)
+    assert A.term_network({**dry, "network_weight": 40.0}, link, prior)[0][A.R] == pytest.approx(-3.0)
+    assert A.term_network({**dry, "network_weight": 0.5}, link, prior)[0][A.R] == pytest.approx(-0.3)
     storm = {"network_share": 0.8, "network_hops": 140, "network_faded_weight": 112.0, "network_chance": 0.1}
     vec, text = A.term_network(storm, link, prior)
     assert vec[A.R] == pytest.approx(4.0) and "chance 10%" in text
