@@ -331,9 +331,6 @@ def term_gauge(row, link: Link, prior: HopPrior):
 # share of the hops at nearness weight 1 that a rain fade on this path also fades by 3 dB or more beyond their own
 # chance rate (rain cells of a few km against CORRELATION_KM; stated, from memory, not fitted)
 NETWORK_SHARED_RAIN = 0.3
-# path-average rain rate from which that share holds in full (moderate to heavy rain; below it the share falls in
-# proportion: 6 mm/h of light rain on one hop seldom brings 3 dB on its neighbours; stated, from memory)
-NETWORK_SHARED_RATE_MMH = 20.0
 
 
 def term_network(row, link: Link, prior: HopPrior):
@@ -346,7 +343,7 @@ def term_network(row, link: Link, prior: HopPrior):
     much as under rain).  Up to +2 for rain at an excess of 0.2 or more, scaled by the weight of the hops that
     faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops).  When three
     or more other hops were watched and no more faded than chance: -``NETWORK_SHARED_RAIN`` x the watched nearness
-    weight (``network_weight``) x min(1, implied rate / ``NETWORK_SHARED_RATE_MMH``), bounded to -0.3..-3."""
+    weight (``network_weight``), bounded to -0.3..-3, where the links table gives site coordinates (else -0.3)."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
@@ -358,12 +355,11 @@ def term_network(row, link: Link, prior: HopPrior):
             return None
         # rain that fades this path falls on the near hops too: with a watched nearness weight W, about
         # NETWORK_SHARED_RAIN x W of them should have faded beyond chance, and none did (Poisson: ln P = -q W)
-        # light rain seldom fades a neighbour by 3 dB: the share grows with the rate this fade implies, full from
-        # NETWORK_SHARED_RATE_MMH
+        # only where the links table places the hops (site coordinates): without them the "watched" hops may lie
+        # anywhere, and their silence says little about rain on this path (the former flat -0.3)
         watched = _f(row.get("network_weight"))
-        rate = implied_rate_mmh(_f(row.get("peak_fade_db_finite")), link, prior)
-        q = NETWORK_SHARED_RAIN * min(1.0, rate / NETWORK_SHARED_RATE_MMH)
-        s = _clip(q * watched, 0.3, 3.0) if math.isfinite(watched) else 0.3
+        placed = None not in (link.site_a_lat, link.site_a_lon, link.site_b_lat, link.site_b_lon)
+        s = _clip(NETWORK_SHARED_RAIN * watched, 0.3, 3.0) if placed and math.isfinite(watched) else 0.3
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
                 f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
         return _v(-s, 0.0, 0.0), text
