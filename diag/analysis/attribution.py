@@ -13,7 +13,8 @@ For each fade event (not a level shift, not a loss of signal: those are equipmen
   the same decision with less evidence: a lower confidence, not another cause);
 - hard physics limits: a cause whose P.530 time share at this depth is negligible on this hop
   (:func:`diag.analysis.priors.clear_air_negligible`) or, for rain, an implied path-average rain rate beyond any
-  recorded (``RAIN_RATE_MAX_MMH``) gets probability zero.
+  recorded (``RAIN_RATE_MAX_MMH``) gets probability zero; so does refraction for a fade over in under
+  ``REFRACTIVE_MIN_S``.
 
 The weights ``WEIGHTS`` are the only fitted numbers (bench/fit_attribution.py, on the fit halves only; see its
 docstring for what they were fitted on); every term's internal scale is a stated physical value.
@@ -63,6 +64,10 @@ TEMPERATURE = {"fine": 2.70, "coarse": 1.52, "stats": 3.84}
 # metres or more stay far below the point records: from memory).  Computed after allowing twice the hop's
 # typical wet-antenna loss, so a sub-km hop's wet radome does not turn rain into "impossible".
 RAIN_RATE_MAX_MMH = 500.0
+# shortest slow refractive fade [s]: the refractivity profile of the lowest hundred metres changes over minutes to
+# hours (sunrise break-up, advection of a layer; P.453 profiles, common practice), so a dip over within two minutes
+# is multipath, rain or equipment, never refraction (term_duration weighs 2-15 min)
+REFRACTIVE_MIN_S = 120.0
 
 # fitted weights: bench/fit_attribution.py on the fit halves only (in-house simulator TUNING_SEEDS 101-106 at 1 s,
 # 1 min and 15 min; family B seeds 1-12, four samplings; the 15 OpenRainER links), each source's duration-weighted
@@ -467,6 +472,10 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
         negligible = clear_air_negligible(prior, depth)
         allowed[:, M] &= ~negligible
         allowed[:, F] &= ~negligible
+        # a slow refractive fade follows the boundary layer over many minutes: one over in under REFRACTIVE_MIN_S
+        # (even at its longest, a sample more) is no refractive fade
+        longest = np.array([_f(r.get("duration_s")) + max(_f(r.get("interval_s")), 0.0) for r in rows])
+        allowed[:, F] &= ~(longest < REFRACTIVE_MIN_S)
         rates = np.array([implied_rate_mmh(p, link, prior) for p in peak])
         allowed[:, R] &= ~((rates > RAIN_RATE_MAX_MMH) & ~floored)
     return base, terms, texts, allowed

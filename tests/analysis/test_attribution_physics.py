@@ -186,3 +186,17 @@ def test_beam_decoupling_grows_with_path_length_against_the_main_lobe():
     # the 0.6 F1 design (v0 = -0.85) is one of the clearances searched: the bound is at least its loss
     from diag.analysis.priors import _knife_edge_db
     assert refractive_max_depth_db(31.0, 8.0) >= float(_knife_edge_db(-0.85 + 1.955)) - 0.05
+
+
+def test_a_dip_of_seconds_is_never_a_slow_refractive_fade():
+    # slow refractive fades follow the refractivity profile of the lowest air, which changes over minutes to hours
+    # (common practice); the demo's 46-km 7-GHz hop had 11-19 s, 3-dB dips called refractive before this limit
+    from diag.analysis import attribution as A
+    from diag.links import make_link
+    link = make_link({"link_id": "R", "frequency_ghz": 7.0, "length_km": 46.0, "polarization": "V",
+                      "threshold_dbm": -80.0})
+    rows = [{"peak_fade_db_finite": 3.0, "duration_s": 11.0, "interval_s": 1.0, "floor_fraction": 0.0},
+            {"peak_fade_db_finite": 3.0, "duration_s": 1800.0, "interval_s": 1.0, "floor_fraction": 0.0}]
+    _, _, _, allowed = A.evidence_terms(rows, link)
+    assert not allowed[0, A.F] and allowed[0, A.M]
+    assert allowed[1, A.F]
