@@ -30,6 +30,7 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 
+from diag.analysis.network import midpoint
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior, prior_log_odds
 from diag.links import Link
 from diag.models import p838
@@ -359,12 +360,12 @@ def term_network(row, link: Link, prior: HopPrior):
         if others < 3:
             return None
         # rain that fades this path falls on the near hops too: with a watched nearness weight W, about
-        # NETWORK_SHARED_RAIN x W of them should have faded beyond chance, and none did (Poisson: ln P = -q W)
-        # only where the links table places the hops (site coordinates): without them the "watched" hops may lie
-        # anywhere, and their silence says little about rain on this path (the former flat -0.3)
+        # NETWORK_SHARED_RAIN x W of them should have faded beyond chance, and none did (Poisson: ln P = -q W).
+        # Only where the links table places the hop (site coordinates): otherwise every hop weighs 1 wherever it
+        # lies, and their silence says little about rain on this path (the flat -0.3)
         watched = _f(row.get("network_weight"))
-        placed = None not in (link.site_a_lat, link.site_a_lon, link.site_b_lat, link.site_b_lon)
-        s = _clip(NETWORK_SHARED_RAIN * watched, 0.3, 3.0) if placed and math.isfinite(watched) else 0.3
+        placed = midpoint(link) is not None and math.isfinite(watched)
+        s = _clip(NETWORK_SHARED_RAIN * watched, 0.3, 3.0) if placed else 0.3
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
                 f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
         return _v(-s, 0.0, 0.0), text

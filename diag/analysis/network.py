@@ -35,7 +35,7 @@ from diag.links import Link
 
 __all__ = ["faded_minutes", "minute_counts", "MinuteCounts", "network_columns", "rescore", "apply_network",
            "with_network", "without_network", "corroborates", "corroborate", "NETWORK_COLUMNS", "FADED_DB",
-           "MARGIN_S", "CORRELATION_KM"]
+           "MARGIN_S", "CORRELATION_KM", "midpoint"]
 
 FADED_DB = 3.0
 MARGIN_S = 300.0
@@ -80,7 +80,8 @@ def faded_minutes(result) -> pd.Series:
     return faded.where(both["seen"].astype(bool))
 
 
-def _midpoint(link: Link) -> tuple[float, float] | None:
+def midpoint(link: Link) -> tuple[float, float] | None:
+    """The path midpoint (lat, lon) [deg] from the links table's site coordinates; None when any is missing."""
     vals = (link.site_a_lat, link.site_a_lon, link.site_b_lat, link.site_b_lon)
     if any(v is None for v in vals):
         return None
@@ -160,14 +161,14 @@ def network_columns(events: pd.DataFrame, link: Link,
     # a minute counts when its stamp lies in [start - margin, end + margin], ends included
     lo = (start[use] - margin).as_unit("ns").asi8
     hi = (end[use] + margin).as_unit("ns").asi8
-    mine = _midpoint(link)
+    mine = midpoint(link)
     num = np.zeros(len(lo))
     den = np.zeros(len(lo))
     expected = np.zeros(len(lo))
     window_min = (hi - lo) / 6e10 + 1.0
     count = np.zeros(len(lo), dtype=np.int64)
     for other, minutes in others:
-        theirs = _midpoint(other)
+        theirs = midpoint(other)
         w = math.exp(-_distance_km(mine, theirs) / CORRELATION_KM) if mine and theirs else 1.0
         counts = minute_counts(minutes)
         first = np.searchsorted(counts.stamps_ns, lo, side="left")
