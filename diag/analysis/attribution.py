@@ -171,6 +171,52 @@ def term_upfade(row, link: Link, prior: HopPrior):
     return _v(-s, s, s / 3.0), text
 
 
+# mean of 10 log10 of a Rayleigh (exponentially distributed) power against its mean power: -10 gamma / ln 10 =
+# -2.507 dB, gamma Euler's constant (the "log-mean" bias of Rayleigh fading; Rice fading, with a steady ray, has less)
+RAYLEIGH_LOG_MEAN_DB = 10.0 * 0.5772156649015329 / math.log(10.0)
+SLOW_MIN_S = 600.0       # an event long enough to hold many independent multipath fades (they decorrelate in seconds)
+SLOW_MARGIN_DB = 1.0     # reference error and the event's own edges (stated)
+SLOW_SCALE_DB = 1.0
+SLOW_MAX = 6.0
+
+
+def term_slow(row, link: Link, prior: HopPrior):
+    """Mean fade of a long event against flat fading alone.  Multipath scatters the level about its clear-air mean
+    power; its mean in dB lies at most the Rayleigh log-mean bias (``RAYLEIGH_LOG_MEAN_DB``, 2.5 dB: E[10 log10 X] for
+    an exponential X of mean 1 is -10 gamma / ln 10) below it.  Over an event of ``SLOW_MIN_S`` or more (many fades)
+    a mean fade beyond that bias plus ``SLOW_MARGIN_DB`` needs a slow component under the fading (rain or
+    refraction), which then is the larger contributor most of the time.  Against multipath, 1 per ``SLOW_SCALE_DB``
+    of excess, bounded to ``SLOW_MAX``; samples only (the interval statistics are judged by :func:`term_spread`)."""
+    if _sampling(row) == "stats":
+        return None
+    dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
+    if not (math.isfinite(mean) and dur >= SLOW_MIN_S):
+        return None
+    s = _clip((mean - RAYLEIGH_LOG_MEAN_DB - SLOW_MARGIN_DB) / SLOW_SCALE_DB, 0.0, SLOW_MAX)
+    if s <= 0.0:
+        return None
+    text = f"mean fade {mean:.1f} dB over the {duration_word(dur)} fade (flat fading alone: under 2.5 dB)"
+    return _v(0.0, -s, 0.0), text
+
+
+SLOW_PRIOR = True
+SLOW_NEEDS_FAST = True
+
+
+def _slow_depth(row) -> float:
+    """The slow component's depth of a long fine- or coarse-sampled event whose mean fade flat fading cannot give
+    (see :func:`term_slow`), else NaN."""
+    if _sampling(row) == "stats":
+        return math.nan
+    dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
+    if not (math.isfinite(mean) and dur >= SLOW_MIN_S and mean > RAYLEIGH_LOG_MEAN_DB + SLOW_MARGIN_DB):
+        return math.nan
+    fast = term_fast(row, None, None) or term_variability(row, None, None)
+    if SLOW_NEEDS_FAST and not (fast is not None and fast[0][M] > 0):
+        return math.nan
+    return mean
+
+
 def term_polarisation(row, link: Link, prior: HopPrior):
     """V/H attenuation ratio against ITU-R P.838-3: rain gives A_V/A_H = gamma_V/gamma_H at the implied rate (below
     1 above ~8 GHz in moderate rain, near 1 in some bands and light rain), pulled towards 1 by the wet-antenna
@@ -421,7 +467,7 @@ def term_diurnal(row, link: Link, prior: HopPrior):
 TERMS: dict[str, Callable] = {
     "fast": term_fast, "variability": term_variability, "spread": term_spread, "upfade": term_upfade,
     "polarisation": term_polarisation, "decorrelation": term_decorrelation, "companion": term_companion,
-    "duration": term_duration,
+    "duration": term_duration, "slow": term_slow,
     "shape": term_shape, "hour": term_hour, "gauge": term_gauge, "network": term_network, "context": term_context,
     "diurnal": term_diurnal,
 }
@@ -458,6 +504,14 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
                             for r in rows])
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
+    if SLOW_PRIOR:
+        # a long event whose mean fade needs a slow component (term_slow): rain and refraction are judged at the
+        # slow component's depth (the mean), not at a multipath dip on top of it
+        slow = np.array([_slow_depth(r) for r in rows], dtype=float)
+        if np.isfinite(slow).any():
+            at = prior_log_odds(prior, np.where(np.isfinite(slow), np.maximum(slow, 1.0), depth))
+            for cause in ("rain", "refractive"):
+                logs[cause] = np.where(np.isfinite(slow), np.maximum(at[cause], logs[cause]), logs[cause])
     other = math.log(OTHER_PCT_AT_3DB) - np.maximum(depth - 3.0, 0.0) * math.log(10.0) / OTHER_DECADE_DB
     base = np.stack([logs["rain"], logs["multipath"], logs["refractive"], other], axis=1) if n else np.zeros((0, 4))
     terms = {name: np.zeros((n, 4)) for name in TERMS}
@@ -646,7 +700,9 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
                             f"P.530 prior {NAMES[k]}:{NAMES[rival]} "
                             f"{_odds(base[i, k] - base[i, rival])} at "
                             f"{max(_f(row.get('peak_fade_db_finite')), 1.0):.0f} dB on {link.frequency_ghz:g} GHz/"
-                            f"{link.length_km:g} km"))
+                            f"{link.length_km:g} km" + (f" (rain and refraction at the {slow:.0f}-dB mean)"
+                                                        if SLOW_PRIOR and math.isfinite(slow := _slow_depth(row))
+                                                        else "")))
         for name in TERMS:
             if texts[name][i]:
                 contrib.append((w.get(name, 1.0) * (terms[name][i, k] - terms[name][i, rival]), texts[name][i]))

@@ -10,8 +10,10 @@ detectors of Schleiss & Berne, IEEE GRSL 7:611-615, 2010):
    ``RSL - (TSL - median TSL)`` (automatic transmit power control raises TSL during a fade; the path loss is
    what we want), see :func:`diag.analysis.steps.path_level_dbm`.
 2. *Steps*.  Persistent abrupt steps of the clear-sky level (a knocked antenna, a slipped feed) are found by
-   :func:`diag.analysis.steps.detect_steps`; the record is cut into segments at the steps, so the reference follows the
-   new level right after a step and fades on top of a shifted level are measured against that level.
+   :func:`diag.analysis.steps.detect_steps`, and those hidden inside a fade (the level moved while it rained) by
+   :func:`diag.analysis.step_detection.hidden_steps`; the record is cut into segments at the steps, so the
+   reference follows the new level right after a step and fades on top of a shifted level are measured against
+   that level.
 3. *Reference*.  Within each segment, the path level is summarised per block (``block_s``, default 15 min) by
    its median (blocks under half covered are ignored); the reference at each block is the upper quantile
    ``reference_quantile`` (default 0.75) of the block medians in a centred window of ``reference_window_h``

@@ -19,7 +19,8 @@
    weighted count of samples on the wrong side is found with cumulative sums (exact, O(n)); a sample on the low
    side counts little where a fade could explain it (rain just before a downward step does not move the split).
 
-Step sizes are trimmed means of the samples near each side's clear level (1-dB quantisation averages out).
+Steps that the fade next to them hides (the level moved while it rained) are looked for afterwards between the steps
+found, by :func:`hidden_steps`: the level at the start and at the end of each stretch, both clear and flat, differ.
 
 Step sizes are trimmed means of the samples near each side's clear level (1-dB quantisation averages out).  Pure
 functions; no I/O.  Called once per channel by :func:`diag.analysis.steps.channel_steps`.
@@ -385,3 +386,85 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
         steps.append(Step(time_utc=pd.Timestamp(index[k]), size_db=float(new_s - old_s), before_dbm=float(old_s),
                           after_dbm=float(new_s), persist_s=float((hi_s - k) * interval_s)))
     return steps
+
+
+def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: float) -> float:
+    """Share of the finite values within ``tol_db`` of ``level``; values faded more than ``fade_trim_db`` below it
+    are left out (rain on top of the level), and so are none above it."""
+    x = values[np.isfinite(values)]
+    x = x[x >= level - fade_trim_db]
+    return float(np.mean(np.abs(x - level) <= tol_db)) if x.size else 0.0
+
+
+def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, min_step_db: float = 2.0,
+                 window_s: float = 7200.0, fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6,
+                 lag_s: float = 60.0, min_abrupt_fraction: float = 0.5) -> list[Step]:
+    """Steps of the clear-sky level that happened inside a fade, between the steps already found.
+
+    :func:`detect_steps` needs the level clear and flat on both sides of a step; a knocked antenna put right while
+    it rains (or knocked in a storm) moves the level where the fade hides it, and the reference of the whole
+    stretch then sits between the two levels.  Here each stretch between found steps (and the record's ends) is
+    checked: when its first and last ``window_s`` are both clear and flat (``min_flat_fraction`` of the unfaded
+    samples within max(1 dB, step/4) of the window's clear level) at levels ``min_step_db`` or more apart, the
+    level moved inside it.  The move lies between the last sample clear at the first level and the first sample
+    clear at the last one (a fade covers it); it is placed at the largest change of the right sign over ``lag_s``
+    (of a running median over ``lag_s`` at fine sampling, against multipath spikes) when that change is at least
+    ``min_abrupt_fraction`` of the step (a step is abrupt, a rain fade's edge slower); else at the edge of the fade
+    that leaves the fade on the lower level (rain on top of the shifted level).  Common practice, no outside
+    source.  Returns the new steps, in time order."""
+    values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
+    index = level_dbm.index
+    n = len(values)
+    w = max(3, int(round(window_s / interval_s)))
+    lag = max(1, int(round(lag_s / interval_s)))
+    bounds = [0, *sorted(int(index.searchsorted(s.time_utc)) for s in steps), n]
+    found = []
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        if b - a < 3 * w:
+            continue
+        seg = values[a:b]
+        head, tail = clear_level_dbm(seg[:w], fade_trim_db=fade_trim_db), clear_level_dbm(seg[-w:],
+                                                                                          fade_trim_db=fade_trim_db)
+        if not (math.isfinite(head) and math.isfinite(tail)):
+            continue
+        size = tail - head
+        if abs(size) < min_step_db:
+            continue
+        tol = max(1.0, abs(size) / 4.0)
+        if min(_level_share(seg[:w], head, tol, fade_trim_db),
+               _level_share(seg[-w:], tail, tol, fade_trim_db)) < min_flat_fraction:
+            continue
+        # the level cannot sit clear at the higher of the two levels while it is at the lower one, so: an upward
+        # move lies before the first sample clear at the higher (last) level, a downward one after the last sample
+        # clear at the higher (first) level; the rest of the stretch may hold fades on either level
+        finite = np.isfinite(seg)
+        if size > 0:
+            high = np.flatnonzero(finite & (np.abs(seg - tail) <= tol) & (seg > head + tol))
+            high = high[high >= w - 1]
+            if not high.size:
+                continue
+            lo, hi = w - 1, int(high[0])
+            at_low = np.flatnonzero(finite[:hi] & (np.abs(seg[:hi] - head) <= tol))
+            cut = hi if not at_low.size else int(at_low[-1]) + 1    # fallback: the fade stays on the lower level
+            cut = max(cut, 1)
+        else:
+            high = np.flatnonzero(finite & (np.abs(seg - head) <= tol) & (seg > tail + tol))
+            high = high[high <= len(seg) - w]
+            if not high.size:
+                continue
+            lo, hi = int(high[-1]), len(seg) - w
+            cut = lo + 1
+        if hi - lo > 1:
+            part = pd.Series(seg[lo:hi + 1])
+            if lag > 1:
+                part = part.rolling(lag + 1, center=True, min_periods=1).median()
+            x = part.to_numpy()
+            change = (x[lag:] - x[:-lag]) * np.sign(size) if x.size > lag else np.array([])
+            if change.size and np.isfinite(change).any():
+                j = int(np.nanargmax(change))
+                if change[j] >= min_abrupt_fraction * abs(size):
+                    cut = lo + j + lag
+        k = a + cut
+        found.append(Step(time_utc=pd.Timestamp(index[k]), size_db=float(size), before_dbm=float(head),
+                          after_dbm=float(tail), persist_s=float((b - k) * interval_s)))
+    return found

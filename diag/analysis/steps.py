@@ -26,6 +26,7 @@ from diag.analysis.step_detection import (  # noqa: F401 - Step and the clear le
     clear_level_dbm,
     clear_mean_dbm,
     detect_steps,
+    hidden_steps,
 )
 from diag.config import AnalysisConfig
 from diag.numeric import theil_sen
@@ -37,6 +38,12 @@ WEEK_S = 7 * 86400.0
 _FADE_CAUSES = ("rain", "multipath", "refractive", "signal_loss", "unknown")
 TREND_MIN_SPAN_S = 2 * 86400.0   # trend_db_per_week defaults, also used by channel_level_changes
 TREND_TRIM_DB = 3.0
+# how long a new level must persist before the reference is cut at it [s], per grid kind.  Samples (1 s to 1 min)
+# show a step's abruptness (detect_steps checks the clear level within 10 min either side), so a realigned antenna
+# 2 h later is a step, not a fade; 15-min statistics cannot tell a step from a rain fade's onset that way, so their
+# new level must last longer than rain does (common practice; chosen on family B fit seeds 1-50 among 2, 3, 6 h)
+REFERENCE_PERSIST_S = {"sample": 2 * 3600.0, "stats": 6 * 3600.0}
+HIDDEN_STEPS = True    # look for steps hidden inside fades (step_detection.hidden_steps)
 
 
 def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
@@ -212,12 +219,19 @@ def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.nda
                 high = pd.Series(frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
                                  + np.where(np.isfinite(shift), shift, 0.0), index=frame.index)
             steps = detect_steps(pd.Series(level, index=frame.index), series.interval_s,
-                                 min_step_db=config.step_min_db, high_dbm=high)
+                                 min_step_db=config.step_min_db, high_dbm=high,
+                                 persist_s=REFERENCE_PERSIST_S[series.kind])
         except ValueError as exc:  # too short a record for the windows
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []
     if series.kind == "stats" and steps:
         steps = [step for step in steps if not _fading_not_step(frame, step)]
+    if HIDDEN_STEPS and np.isfinite(level).sum() > 10:
+        hidden = hidden_steps(pd.Series(level, index=frame.index), series.interval_s, steps,
+                              min_step_db=config.step_min_db)
+        if series.kind == "stats":
+            hidden = [step for step in hidden if not _fading_not_step(frame, step)]
+        steps = sorted(steps + hidden, key=lambda step: step.time_utc)
     try:
         reported = detect_steps(path_level_dbm(frame), series.interval_s, min_step_db=config.level_change_min_db)
         error = None

@@ -2,6 +2,7 @@
 encodes (named beside each test).  Rows are dicts of event columns, as ``attribute`` receives them."""
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -99,3 +100,41 @@ def test_tz_reaches_the_attribution():
     assert with_local_tz(AnalysisConfig(local_tz="UTC"), "Europe/Rome").local_tz == "UTC"
     assert with_local_tz(None, None) is None
 
+
+
+def test_rayleigh_log_mean_matches_scipy():
+    # the mean of 10 log10 of an exponentially distributed power (Rayleigh amplitude) of mean 1: -10 gamma / ln 10
+    # (textbook fading theory); checked against scipy.stats.expon's numerical expectation
+    from scipy import stats
+    expected = stats.expon.expect(lambda x: 10.0 * np.log10(x))
+    assert A.RAYLEIGH_LOG_MEAN_DB == pytest.approx(-expected, abs=1e-6)
+    assert A.RAYLEIGH_LOG_MEAN_DB == pytest.approx(2.507, abs=1e-3)
+
+
+def test_a_long_deep_mean_fade_is_no_flat_fading_alone():
+    # flat fading scatters the level about its clear-air mean power: over 30 min of many fades its mean in dB lies
+    # at most ~2.5 dB below (Rayleigh); a mean fade of 8 dB needs a slow component under it
+    row = {"interval_s": 1.0, "kind": "sample", "duration_s": 1800.0, "mean_fade_db": 8.0}
+    vec, text = A.term_slow(row, LINK, PRIOR)
+    assert vec[A.M] == pytest.approx(-(8.0 - A.RAYLEIGH_LOG_MEAN_DB - A.SLOW_MARGIN_DB) / A.SLOW_SCALE_DB)
+    assert vec[A.R] == vec[A.F] == vec[A.OTHER] == 0.0 and "mean fade 8.0 dB" in text
+    # a mean within the Rayleigh bias, a single short dip (whose mean is half its depth), interval statistics: no term
+    assert A.term_slow({**row, "mean_fade_db": 2.0}, LINK, PRIOR) is None
+    assert A.term_slow({**row, "duration_s": 120.0}, LINK, PRIOR) is None
+    assert A.term_slow({**row, "kind": "stats", "interval_s": 900.0}, LINK, PRIOR) is None
+
+
+def test_slow_fade_with_scintillation_on_a_long_hop_is_not_multipath():
+    # a 2-h fade on a 40-km, 7-GHz hop at night: mean 8 dB, 35-dB dips and 2.5 dB rms fast fluctuation on top.
+    # The fluctuation is multipath, but the mean says a slow refractive fade carries most of the fading time
+    # (flat fading alone: mean under 2.5 dB, see above); P.530 gives both mechanisms on such a hop
+    link = make_link({"link_id": "L", "frequency_ghz": 7.0, "length_km": 40.0, "polarization": "H",
+                      "threshold_dbm": -80.0})
+    row = {"interval_s": 1.0, "kind": "sample", "event_kind": "fade", "duration_s": 7200.0, "mean_fade_db": 8.0,
+           "peak_fade_db": 35.0, "peak_fade_db_finite": 35.0, "fast_std_db": 2.5, "noise_diff_db": 0.1,
+           "hour_utc": 2.0, "half_peak_fraction": 0.3, "start_utc": pd.Timestamp("2026-07-01T01:00Z"),
+           "end_utc": pd.Timestamp("2026-07-01T03:00Z")}
+    cause, _, evidence = A.attribute([row], link)[0]
+    assert cause == "refractive", evidence
+    # the same texture with a mean inside flat fading's own (1 dB): multipath
+    assert A.attribute([{**row, "mean_fade_db": 1.0}], link)[0][0] == "multipath"

@@ -1,0 +1,91 @@
+"""Level shifts that begin or end inside a rain fade (diag.analysis.step_detection.hidden_steps).
+
+Truth: the simulator (diag.sim.simulate) puts each step at a known time; a level shift is a persistent step of the
+clear-sky level (common practice), so a knocked antenna put right while it rains still ends where it was put right,
+and the fade on either side is measured against the level the antenna had then.  Bars: size within 0.5 dB, time
+within 10 min for a step in clear air (as in test_steps_near_rain.py) and 20 min for one under the fade (the
+simulated convective rain moves the level by several dB a minute, as much as the step itself: no method places a
+step better than the fade's own changes allow).
+"""
+from __future__ import annotations
+
+import pandas as pd
+import pytest
+
+from diag.analysis import steps as shifts
+from diag.analysis.step_detection import hidden_steps
+from diag.sim.simulate import Effect, LinkSpec
+
+H = 3600.0
+START = pd.Timestamp("2026-06-01T00:00:00Z")
+
+
+def _level(hops, effects, seed=1, duration_s=14 * H, step_s=1.0):
+    spec = LinkSpec("R1", 23.0, 10.0, "V", -75.0, duration_s=duration_s, effects=tuple(effects))
+    t = hops.sim(spec, seed=seed).table
+    rows = t[(t["channel"] == "V") & (t["quantity"] == "rsl_dbm")].set_index("time_utc")
+    level = rows["value"].where(rows["status"] == "ok")
+    if step_s > 1.0:   # coarse instantaneous samples (1-min logs)
+        level = level.iloc[:: int(step_s)]
+    return level
+
+
+def _all_steps(level, step_s):
+    found = shifts.detect_steps(level, step_s, min_step_db=1.5)
+    return found, hidden_steps(level, step_s, found, min_step_db=1.5)
+
+
+def _shift(at_h, step_db):     # simulator convention: positive step_db = the level drops
+    return Effect("level_shift", at_h * H, None, {"step_db": step_db})
+
+
+def _rain(at_h, dur_h, peak_mmh):
+    return Effect("rain", at_h * H, dur_h * H, {"peak_mmh": peak_mmh})
+
+
+def _near(step, at_h, size_db, tol_s=600):
+    return (abs((step.time_utc - (START + pd.Timedelta(hours=at_h))).total_seconds()) <= tol_s
+            and step.size_db == pytest.approx(size_db, abs=0.5))
+
+
+@pytest.mark.parametrize("step_s", [1.0, 60.0])
+def test_return_inside_rain_is_found(hops, step_s):
+    # down 4 dB at 2 h (clear), put right at 9 h while it rains (8-10 h)
+    level = _level(hops, [_shift(2, 4.0), _shift(9, -4.0), _rain(8, 2.0, 20.0)], step_s=step_s)
+    found, hidden = _all_steps(level, step_s)
+    assert any(_near(s, 2, -4.0) for s in found)
+    assert not any(_near(s, 9, 4.0) for s in found)    # the detector alone does not see it: the fade hides it
+    assert len(hidden) == 1 and _near(hidden[0], 9, 4.0, tol_s=1200), [(s.time_utc, s.size_db) for s in hidden]
+
+
+@pytest.mark.parametrize("step_s", [1.0, 60.0])
+def test_drop_inside_rain_is_found(hops, step_s):
+    # knocked at 4 h during rain (3.5-5 h), put right at 11 h (clear)
+    level = _level(hops, [_rain(3.5, 1.5, 20.0), _shift(4.0, 4.0), _shift(11, -4.0)], step_s=step_s)
+    found, hidden = _all_steps(level, step_s)
+    every = sorted(found + hidden, key=lambda s: s.time_utc)
+    assert any(_near(s, 4.0, -4.0, tol_s=1200) for s in every), [(s.time_utc, s.size_db) for s in every]
+    assert any(_near(s, 11, 4.0) for s in every)
+
+
+@pytest.mark.parametrize("effect", [_rain(4, 2.0, 40.0), Effect("refractive", 3 * H, 3 * H, {"depth_db": 6.0})])
+def test_fades_that_come_back_hide_no_step(hops, effect):
+    # the level before and after the fade is the same: nothing moved inside it
+    found, hidden = _all_steps(_level(hops, [effect]), 1.0)
+    assert found == [] and hidden == []
+
+
+def test_reference_follows_the_hidden_return(hops):
+    # through the whole stage: the stretch 2-9 h becomes a level shift and the rain after 9 h is measured against
+    # the restored level (before, the reference sat between the two levels)
+    from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
+    spec = LinkSpec("R1", 23.0, 10.0, "V", -75.0, duration_s=14 * H,
+                    effects=(_shift(2, 4.0), _shift(9, -4.0), _rain(8, 2.0, 20.0)))
+    series = channel_grids(hops.sim(spec, seed=1).table)["V"]
+    add_reference(series)
+    spans = level_shift_spans(series)
+    assert len(spans) == 1
+    assert abs((spans[0].start - (START + pd.Timedelta(hours=2))).total_seconds()) <= 600
+    assert abs((spans[0].end - (START + pd.Timedelta(hours=9))).total_seconds()) <= 1200
+    ref = series.frame["reference_dbm"]
+    assert ref.loc[START + pd.Timedelta(hours=9.5):].min() >= ref.loc[:START + pd.Timedelta(hours=1.5)].min() - 0.5
