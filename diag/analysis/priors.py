@@ -28,8 +28,8 @@ hop spends faded between A - 1 and A + 1 dB, from the published prediction model
   v = -sqrt(2) clearance / F1; the links table gives no terrain) plus the antenna decoupling of
   :func:`beam_decoupling_db` (the ray's arrival angle turning by half the path times the change of refractivity
   gradient, against the main lobe of the antennas) is the deepest refractive fade the hop can take; deeper fades
-  lose ``REFRACTIVE_CUTOFF_PER_DB`` decades of time share per dB beyond it (a soft cut-off, fitted).  On a path of
-  a few km both terms stay near 1 dB: slow refractive fades need a long path.
+  lose ``REFRACTIVE_CUTOFF_DECADES`` decades of time share per bound's worth of depth beyond it (a soft cut-off,
+  fitted).  On a path of a few km both terms stay near 1 dB: slow refractive fades need a long path.
 
 ``prior_log_odds`` returns the natural logarithm of each mechanism's time share in [A - 1, A + 1] dB; only
 differences between causes matter.  Vectorised over events; units in the parameter names.
@@ -64,10 +64,13 @@ GRADIENT_CHANGE_N_PER_KM = 300.0
 # 6-80 GHz (common practice; a larger antenna decouples more, so this errs towards allowing refraction)
 DEFAULT_ANTENNA_GAIN_DBI = 45.0
 REFRACTIVE_SHARE = 0.2
-# decades of time share lost per dB beyond the deepest refractive fade of the geometry: 0.1 (10 dB per 10 dB), soft
-# because K_MIN and the gradient change are from memory.  Chosen on family B FIT seeds 1-50 among 0.5 / 0.3 / 0.2 /
-# 0.1 / 0.05 (1-s macro-F1 0.749 / 0.761 / 0.775 / 0.786 / 0.782, 1 min 0.748 / 0.783 / 0.796 / 0.810 / 0.807)
-REFRACTIVE_CUTOFF_PER_DB = 0.1
+# decades of time share lost per bound's worth of depth beyond the deepest refractive fade of the geometry (a fade
+# twice as deep as the bound loses 0.5 decade, seven times as deep 3 decades).  Relative, not per dB: the bound is
+# proportional to the assumed change of refractivity gradient (and K_MIN), both from memory, so a stronger anomaly
+# deepens it in proportion; soft for the same reason.  Chosen on family B FIT seeds 1-50 among 0.2 / 0.3 / 0.5 / 1.0
+# (1-s macro-F1 0.886 / 0.893 / 0.894 / 0.884, 1 min 0.925 / 0.932 / 0.932 / 0.924) and against the former 0.1 decade
+# per dB (0.876, 0.918), 2026-12-04
+REFRACTIVE_CUTOFF_DECADES = 0.5
 SHORT_PATH_KM = 5.0
 # a mechanism whose time share at the fade's depth is below this fraction of the year (about 0.3 s a year) is
 # "negligible": no verdict may name it (hard physics rule of the attribution)
@@ -191,7 +194,8 @@ class HopPrior:
         """The refractive share of the clear-air budget, cut off beyond the geometry's deepest fade (no short-path
         taper: the geometry term already says how deep a short hop can fade slowly)."""
         a = np.asarray(fade_db, dtype=float)
-        cut = 10.0 ** (-np.maximum(a - self.refractive_max_db, 0.0) * REFRACTIVE_CUTOFF_PER_DB)
+        beyond = np.maximum(a / max(self.refractive_max_db, 0.1) - 1.0, 0.0)
+        cut = 10.0 ** (-beyond * REFRACTIVE_CUTOFF_DECADES)
         return np.maximum(REFRACTIVE_SHARE * self._clear_air_untapered_pct(a) * cut, _FLOOR)
 
     # --- shares in [A - 1, A + 1] dB -------------------------------------------------------------------------
