@@ -1,0 +1,67 @@
+"""Chart pages kept between reports (``diag.report.pdf_templates``, issue 18): a report drawn on the Figures and
+Axes of earlier reports is the same PDF, byte for byte, as one drawn on new figures, whatever came before it.
+
+The check is against the project's own drawing on new figures (the output before the templates existed, which
+``bench/output_hashes.py`` compares across versions), over reports that take every branch of the chart painters:
+one hop and many (the yearly outlook moved to page 3), 1-s samples and 15-min statistics, no fade statistics
+(axis off), no outage, a hop without any series and a hop analysed from simulated logs.
+"""
+from __future__ import annotations
+
+import dataclasses
+
+import pandas as pd
+import pytest
+
+from diag import schema
+from diag.report import pdf, pdf_templates
+from diag.results import LinkResult
+from tests.report.test_report import _link, _sample_result, _stats_result
+
+
+@pytest.fixture(scope="module")
+def cases(hops):
+    _, quick = hops.analysed("quick", 1)
+    sample = _sample_result("HOP-A")
+    no_outage = _sample_result("HOP-Q", fade_s=0)
+    stats = _stats_result("HOP-C")                 # no fade statistics: the fade-depth chart's axis is off
+    empty = LinkResult(link=_link("HOP-E"), series={}, events=pd.DataFrame(columns=schema.EVENT_COLUMNS),
+                       error="no data")
+    many = [dataclasses.replace(sample, link=_link(f"HOP-{i:02d}")) for i in range(12)]
+    return {"quick": [quick], "sample": [sample], "no outage": [no_outage], "stats": [stats], "empty": [empty],
+            "mixed": [quick, stats, sample], "many": many + [stats]}
+
+
+def _fresh(results) -> bytes:
+    with pdf._collector_paused():
+        return pdf._pdf_bytes(results, None, None)
+
+
+def test_kept_figures_draw_the_same_pdf_as_new_ones(cases):
+    fresh = {name: _fresh(results) for name, results in cases.items()}
+    templates = pdf_templates.Templates()
+    order = ["quick", "many", "sample", "stats", "quick", "empty", "mixed", "no outage", "quick", "many", "stats",
+             "mixed", "sample"]
+    kept = None
+    for name in order:
+        with pdf._collector_paused():
+            data = pdf._pdf_bytes(cases[name], None, templates)
+        assert data == fresh[name], name
+        if kept is None:
+            kept = dict(templates._axes)
+    # the set was reused, not remade: the Axes of the first report are still the ones drawn on
+    assert kept and all(templates._axes[key] is ax for key, ax in kept.items())
+
+
+def test_pdf_bytes_reuses_a_pooled_set_and_matches_new_figures(cases):
+    for name in ("sample", "stats", "quick"):
+        assert pdf.pdf_bytes(cases[name]) == _fresh(cases[name]), name
+    assert pdf_templates._POOL, "a set is given back to the pool after a report"
+
+
+def test_a_set_in_use_is_never_handed_out_twice():
+    first, second = pdf_templates.take(), pdf_templates.take()
+    assert first is not second
+    pdf_templates.give_back(first)
+    pdf_templates.give_back(second)
+    assert pdf_templates.take() in (first, second)
