@@ -23,7 +23,15 @@ import numpy as np
 
 from diag import glossary, schema
 from diag.report import pdf_templates, style
-from diag.report.pdf_fonts import _RC, _RC_PNG, _make_pdf_safe, _quiet_font_lookup, _reuse_font_metrics, pdf_safe
+from diag.report.pdf_fonts import (
+    _RC,
+    _RC_PNG,
+    _keep_string_metrics,
+    _make_pdf_safe,
+    _quiet_font_lookup,
+    _reuse_font_metrics,
+    pdf_safe,
+)
 from diag.report.pdf_templates import PAGE_SIZE_IN, Templates, new_axes, new_figure
 from diag.report.pdf_text import (
     HEADLINE_NOTE,
@@ -442,6 +450,7 @@ def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templat
 
     buffer = io.BytesIO()
     with matplotlib.rc_context(_RC), _quiet_font_lookup():
+        _keep_string_metrics()
         pages = build_figures(results, templates)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,

@@ -65,3 +65,25 @@ def test_a_set_in_use_is_never_handed_out_twice():
     pdf_templates.give_back(first)
     pdf_templates.give_back(second)
     assert pdf_templates.take() in (first, second)
+
+
+def test_string_metrics_kept_for_the_process_are_matplotlibs_own(cases):
+    """``pdf_fonts._keep_string_metrics``: the core fonts' string sizes are kept, and are the ones matplotlib's own
+    AFM reader computes."""
+    import matplotlib
+    from matplotlib import font_manager
+    from matplotlib._afm import AFM
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
+    from matplotlib.backends.backend_pdf import RendererPdf
+
+    from diag.report.pdf_fonts import _RC, _quiet_font_lookup
+
+    pdf.pdf_bytes(cases["sample"])
+    with matplotlib.rc_context(_RC), _quiet_font_lookup():
+        bold = font_manager.findfont(font_manager.FontProperties(weight="bold"), fontext="afm",
+                                     directory=RendererPdf._afm_font_dir)
+    afm = _cached_get_afm_from_fname(bold)
+    kept = vars(afm)["get_str_bbox_and_descent"]
+    assert kept.cache_info().hits > 0
+    for text in ["Headline per hop", "HOP-A", "-12.5", "Ä ·", ""]:
+        assert afm.get_str_bbox_and_descent(text) == AFM.get_str_bbox_and_descent(afm, text)
