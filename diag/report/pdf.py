@@ -26,6 +26,7 @@ from diag.report import pdf_templates, style
 from diag.report.pdf_fonts import (
     _RC,
     _RC_PNG,
+    _defer_font_subsetter,
     _keep_string_metrics,
     _make_pdf_safe,
     _quiet_font_lookup,
@@ -445,6 +446,7 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
 
 
 def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templates: Templates | None) -> bytes:
+    _defer_font_subsetter()
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 

@@ -4,7 +4,10 @@ from __future__ import annotations
 
 import contextlib
 import functools
+import importlib.util
 import logging
+import sys
+import threading
 
 _RC = {"pdf.fonttype": 3, "pdf.use14corefonts": True, "font.family": "sans-serif", "font.sans-serif": ["Helvetica"],
        "axes.unicode_minus": False, "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
@@ -87,6 +90,33 @@ def _reuse_font_metrics(pages) -> None:
         return obj
 
     file._write_afm_font = write_afm_font
+
+
+_DEFER_LOCK = threading.Lock()
+
+
+def _defer_font_subsetter() -> None:
+    """Load fontTools' subsetter when first used rather than with matplotlib's PDF backend.
+
+    The backend imports ``fontTools.subset`` at its top (about 0.07 s of CPU, a quarter of the backend's import);
+    it serves only to embed subsets of TrueType/OpenType fonts, which the core fonts of this report never need.
+    The real module is registered with the standard library's ``importlib.util.LazyLoader``: it runs on the first
+    use of any of its names, so a PDF of the same process that does embed a TrueType font still gets it
+    (``tests/report/test_pdf_templates.py``).  Call before matplotlib's PDF backend is imported; does nothing
+    after."""
+    with _DEFER_LOCK:
+        if "fontTools.subset" in sys.modules:
+            return
+        import fontTools
+
+        spec = importlib.util.find_spec("fontTools.subset")
+        if spec is None or spec.loader is None:
+            return
+        spec.loader = importlib.util.LazyLoader(spec.loader)
+        module = importlib.util.module_from_spec(spec)
+        sys.modules["fontTools.subset"] = module
+        spec.loader.exec_module(module)
+        fontTools.subset = module
 
 
 def _keep_string_metrics() -> None:

@@ -87,3 +87,37 @@ def test_string_metrics_kept_for_the_process_are_matplotlibs_own(cases):
     assert kept.cache_info().hits > 0
     for text in ["Headline per hop", "HOP-A", "-12.5", "Ä ·", ""]:
         assert afm.get_str_bbox_and_descent(text) == AFM.get_str_bbox_and_descent(afm, text)
+
+
+_SUBSETTER_CHECK = """
+import io, sys
+import matplotlib
+from matplotlib.figure import Figure
+from diag.report import pdf_bytes
+from tests.report.test_report import _sample_result
+
+pdf_bytes([_sample_result("HOP-A")])
+print(type(sys.modules["fontTools.subset"]).__name__)          # not run yet: the report needs no TrueType subset
+fig = Figure()
+fig.text(0.5, 0.5, "TrueType glyphs")
+with matplotlib.rc_context({"pdf.fonttype": 42}):                 # embeds a TrueType subset: needs the subsetter
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="pdf")
+print(type(sys.modules["fontTools.subset"]).__name__, b"/FontFile2" in buffer.getvalue())
+"""
+
+
+def test_font_subsetter_loads_only_when_a_pdf_embeds_truetype():
+    """``pdf_fonts._defer_font_subsetter``: the report's process does not run fontTools' subsetter, and a PDF
+    that embeds a TrueType subset later in the same process still gets it (a fresh interpreter: the import order
+    matters)."""
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    done = subprocess.run([sys.executable, "-c", _SUBSETTER_CHECK], cwd=root, capture_output=True, text=True,
+                          timeout=120, env=dict(os.environ, PYTHONPATH=str(root)))
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert done.stdout.split() == ["_LazyModule", "module", "True"]
