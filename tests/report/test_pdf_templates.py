@@ -4,7 +4,8 @@ Axes of earlier reports is the same PDF, byte for byte, as one drawn on new figu
 The check is against the project's own drawing on new figures (the output before the templates existed, which
 ``bench/output_hashes.py`` compares across versions), over reports that take every branch of the chart painters:
 one hop and many (the yearly outlook moved to page 3), 1-s samples and 15-min statistics, no fade statistics
-(axis off), no outage, a hop without any series and a hop analysed from simulated logs.
+(axis off), no outage, a hop without any series, a channel without a level and a hop analysed from simulated
+logs.
 """
 from __future__ import annotations
 
@@ -15,7 +16,7 @@ import pytest
 
 from diag import schema
 from diag.report import pdf, pdf_templates
-from diag.results import LinkResult
+from diag.results import ChannelSeries, LinkResult
 from tests.report.test_report import _link, _sample_result, _stats_result
 
 
@@ -27,9 +28,12 @@ def cases(hops):
     stats = _stats_result("HOP-C")                 # no fade statistics: the fade-depth chart's axis is off
     empty = LinkResult(link=_link("HOP-E"), series={}, events=pd.DataFrame(columns=schema.EVENT_COLUMNS),
                        error="no data")
+    frame = sample.series["H"].frame.drop(columns=["rsl_dbm"])      # a channel without a level: no level drawn
+    no_level = dataclasses.replace(sample, link=_link("HOP-L"),
+                                   series={"H": ChannelSeries("HOP-L", "H", 1.0, "sample", frame)})
     many = [dataclasses.replace(sample, link=_link(f"HOP-{i:02d}")) for i in range(12)]
     return {"quick": [quick], "sample": [sample], "no outage": [no_outage], "stats": [stats], "empty": [empty],
-            "mixed": [quick, stats, sample], "many": many + [stats]}
+            "no level": [no_level], "mixed": [quick, stats, sample], "many": many + [stats]}
 
 
 def _fresh(results) -> bytes:
@@ -40,8 +44,8 @@ def _fresh(results) -> bytes:
 def test_kept_figures_draw_the_same_pdf_as_new_ones(cases):
     fresh = {name: _fresh(results) for name, results in cases.items()}
     templates = pdf_templates.Templates()
-    order = ["quick", "many", "sample", "stats", "quick", "empty", "mixed", "no outage", "quick", "many", "stats",
-             "mixed", "sample"]
+    order = ["quick", "many", "sample", "stats", "quick", "empty", "no level", "mixed", "no outage", "quick", "many",
+             "stats", "no level", "mixed", "sample"]
     kept = None
     for name in order:
         with pdf._collector_paused():
