@@ -19,7 +19,7 @@ PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
 
 _POOL: list["Templates"] = []
 _POOL_LOCK = threading.Lock()
-_POOL_MAX = 4   # sets kept at most (one per drawing thread; a set is a few MB)
+_POOL_MAX = 4   # sets kept at most (one per drawing thread; a set holds 3-7 MiB after a one- or 12-hop report)
 
 
 class Templates:
