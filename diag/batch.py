@@ -558,8 +558,8 @@ def run(inputs: Sequence[str | os.PathLike], links: list[Link], *, out_dir: str 
         (tests and benchmarks); they must be importable by the workers (module-level functions).
     progress : ``progress(stage, done, total, message)``; stage ``"read"`` per file, ``"analyse"`` per hop.
     keep_series : keep each hop's per-sample ``series`` in the returned results (memory grows with the network).
-    hop_pdf : write each hop's ``report.pdf`` (about 0.25 s CPU per hop, docs/speed.md §3a); ``False`` writes
-        the other files only (``write_tables``).  Ignored when ``writer`` is given.
+    hop_pdf : write each hop's ``report.pdf`` (about 0.15-0.2 s CPU per hop in a busy worker, docs/speed.md
+        §3a); ``False`` writes the other files only (``write_tables``).  Ignored when ``writer`` is given.
     connect_timeout_s : how long to try reaching ``scheduler``.
     corroborate : under the posterior attribution (``config.attribution == "posterior"``) and with at least two
         hops, a fade shared with other hops is rain evidence (:mod:`diag.analysis.network`), with the results of

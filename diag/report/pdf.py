@@ -22,8 +22,18 @@ from typing import Callable, Iterable, Sequence
 import numpy as np
 
 from diag import glossary, schema
-from diag.report import style
-from diag.report.pdf_fonts import _RC, _RC_PNG, _make_pdf_safe, _quiet_font_lookup, _reuse_font_metrics, pdf_safe
+from diag.report import pdf_templates, style
+from diag.report.pdf_fonts import (
+    _RC,
+    _RC_PNG,
+    _defer_font_subsetter,
+    _keep_string_metrics,
+    _make_pdf_safe,
+    _quiet_font_lookup,
+    _reuse_font_metrics,
+    pdf_safe,
+)
+from diag.report.pdf_templates import PAGE_SIZE_IN, Templates, new_axes, new_figure
 from diag.report.pdf_text import (
     HEADLINE_NOTE,
     MAX_TABLE_ROWS,
@@ -47,7 +57,6 @@ from diag.report.pdf_text import (
 from diag.report.pdf_timelines import _page_timelines
 from diag.results import LinkResult
 
-PAGE_SIZE_IN = (8.27, 11.69)  # A4 portrait
 MAX_FINDINGS_PAGES = 4
 
 __all__ = ["build_figures", "pdf_bytes", "pdf_safe", "format_availability", "format_minutes",
@@ -67,7 +76,7 @@ def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
     table_h = row_h * (n_rows + 1.6)
     top = 0.912 - 0.019 * (overview.count("\n") + 1) - 0.02
     fig.text(0.06, top, "Headline per hop", fontsize=11, weight="bold", va="top")
-    ax = fig.add_axes([0.05, top - 0.02 - table_h, 0.90, table_h])
+    ax = new_axes(fig, [0.05, top - 0.02 - table_h, 0.90, table_h], "headline", state)
     ax.axis("off")
     header = ["Hop", "Band, length", "Availability\n(observed time)", "Objective", "Objective\nmet",
               "Outage\n(unavailable)", "Below\nthreshold", "Main cause", "No data"]
@@ -95,9 +104,9 @@ def _page_summary(fig, results: Sequence[LinkResult], state: dict) -> None:
 
     bar_top = y - 0.085
     bar_h = min(0.22, max(0.1, 0.022 * len(rows) + 0.05))
-    _bar_by_cause(fig.add_axes([0.2, bar_top - bar_h, 0.74, bar_h]), results)
+    _bar_by_cause(new_axes(fig, [0.2, bar_top - bar_h, 0.74, bar_h], "bars", state), results)
     key_bottom = _key_points(fig, results, top=bar_top - bar_h - 0.105)
-    state["outlook_done"] = _outlook(fig, results, top=key_bottom - 0.03, bottom=0.075)
+    state["outlook_done"] = _outlook(fig, results, top=key_bottom - 0.03, bottom=0.075, state=state)
     fig.text(0.06, 0.035, _wrap(SAFETY_TEXT, 140), fontsize=7, color=style.INK, va="bottom")
 
 
@@ -187,7 +196,7 @@ def _key_points(fig, results: Sequence[LinkResult], top: float) -> None:
     return top - 0.025 - 0.0135 * (text.count("\n") + 1)
 
 
-def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float) -> bool:
+def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float, state: dict) -> bool:
     """Yearly outlook per hop: a labelled extrapolation next to what the objective allows."""
     rows = []
     for r in results[:MAX_TABLE_ROWS]:
@@ -213,7 +222,7 @@ def _outlook(fig, results: Sequence[LinkResult], top: float, bottom: float) -> b
         return False
     fig.text(0.06, top, "Outlook for a year (extrapolation only)", fontsize=11, weight="bold", va="top")
     height = 0.02 * (len(rows) + 1.8)
-    ax = fig.add_axes([0.05, top - 0.02 - height, 0.90, height])
+    ax = new_axes(fig, [0.05, top - 0.02 - height, 0.90, height], "outlook", state)
     ax.axis("off")
     header = ["Hop", "Outage in\nperiod", "Observed", "Per year if every week\nwere like this one",
               "Per year if this was\nthe worst month (P.841)", "Allowed per year\nby the objective"]
@@ -310,13 +319,13 @@ def _distribution(ax, results: Sequence[LinkResult]) -> None:
 def _page_method(fig, results: Sequence[LinkResult], state: dict) -> None:
     fig.text(0.06, 0.965, "Fade depths, data gaps and method", fontsize=15, weight="bold", va="top")
     if state.get("outlook_done", True):
-        _distribution(fig.add_axes([0.1, 0.66, 0.84, 0.26]), results)
+        _distribution(new_axes(fig, [0.1, 0.66, 0.84, 0.26], "fade depth", state), results)
         y = 0.56
     else:   # the yearly outlook did not fit on page 1: it goes here, under a smaller fade-depth chart
-        _distribution(fig.add_axes([0.1, 0.735, 0.84, 0.18]), results)
+        _distribution(new_axes(fig, [0.1, 0.735, 0.84, 0.18], "fade depth", state), results)
         n = min(len(results), MAX_TABLE_ROWS)
         top = 0.655
-        _outlook(fig, results, top=top, bottom=0.0)
+        _outlook(fig, results, top=top, bottom=0.0, state=state)
         y = top - 0.02 - 0.02 * (n + 1.8) - 0.07
     blocks: list[tuple[str, list[str]]] = [("Data gaps", gaps_lines(results))]
     counters = counters_lines(results)
@@ -399,15 +408,16 @@ def _draw_blocks(fig, blocks: list[tuple[str, list[str]]], *, top: float, bottom
 
 
 # ------------------------------------------------------------------------------------------------ assembly
-def build_figures(results: Iterable[LinkResult]) -> list:
-    """The report's pages as matplotlib Figures (also used to render a page to PNG)."""
+def build_figures(results: Iterable[LinkResult], templates: Templates | None = None) -> list:
+    """The report's pages as matplotlib Figures (also used to render a page to PNG).  With ``templates`` the chart
+    pages are drawn on that set's kept Figures and Axes (``diag.report.pdf_templates``), else on new ones."""
     from matplotlib.figure import Figure
 
     results = list(results)
     pages = []
-    state: dict = {}
+    state: dict = {"templates": templates}
     for painter in (_page_summary, _page_timelines, _page_method):
-        fig = Figure(figsize=PAGE_SIZE_IN)
+        fig = new_figure(painter.__name__, state)
         painter(fig, results, state)
         pages.append(fig)
     for number, blocks in enumerate(_findings_pages(results)):
@@ -425,18 +435,25 @@ def build_figures(results: Iterable[LinkResult]) -> list:
 # and cheap text layout (about a third of the cost of a report went to TrueType subsetting and glyph layout).
 # Characters WinAnsi lacks are replaced deliberately (``pdf_safe``); tick labels use the ASCII minus for that reason.
 def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None) -> bytes:
-    """The report as PDF bytes (deterministic: no creation date in the metadata)."""
+    """The report as PDF bytes (deterministic: no creation date in the metadata).  The chart pages are drawn on
+    Figures kept from the previous report of this process (``diag.report.pdf_templates``); the bytes are the same
+    as from new ones."""
     with _collector_paused():    # the first report of a process also imports matplotlib: paused for that too
-        return _pdf_bytes(results, progress)
+        templates = pdf_templates.take()
+        data = _pdf_bytes(results, progress, templates)
+        pdf_templates.give_back(templates)   # (not after an error: a set left half-way is dropped)
+        return data
 
 
-def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None) -> bytes:
+def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templates: Templates | None) -> bytes:
+    _defer_font_subsetter()
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 
     buffer = io.BytesIO()
     with matplotlib.rc_context(_RC), _quiet_font_lookup():
-        pages = build_figures(results)
+        _keep_string_metrics()
+        pages = build_figures(results, templates)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",
                                         "Producer": "diag (matplotlib)", "CreationDate": None,
                                         "ModDate": None}) as pdf:

@@ -3,7 +3,11 @@ characters WinAnsi lacks, and font metrics read once per process (issue 18: no p
 from __future__ import annotations
 
 import contextlib
+import functools
+import importlib.util
 import logging
+import sys
+import threading
 
 _RC = {"pdf.fonttype": 3, "pdf.use14corefonts": True, "font.family": "sans-serif", "font.sans-serif": ["Helvetica"],
        "axes.unicode_minus": False, "svg.hashsalt": "diag", "hatch.linewidth": 0.6, "path.simplify": True,
@@ -86,6 +90,52 @@ def _reuse_font_metrics(pages) -> None:
         return obj
 
     file._write_afm_font = write_afm_font
+
+
+_DEFER_LOCK = threading.Lock()
+
+
+def _defer_font_subsetter() -> None:
+    """Load fontTools' subsetter when first used rather than with matplotlib's PDF backend.
+
+    The backend imports ``fontTools.subset`` at its top (about 0.07 s of CPU, a quarter of the backend's import);
+    it serves only to embed subsets of TrueType/OpenType fonts, which the core fonts of this report never need.
+    The real module is registered with the standard library's ``importlib.util.LazyLoader``: it runs on the first
+    use of any of its names, so a PDF of the same process that does embed a TrueType font still gets it
+    (``tests/report/test_pdf_templates.py``).  Call before matplotlib's PDF backend is imported; does nothing
+    after."""
+    with _DEFER_LOCK:
+        if "fontTools.subset" in sys.modules:
+            return
+        import fontTools
+
+        spec = importlib.util.find_spec("fontTools.subset")
+        if spec is None or spec.loader is None:
+            return
+        spec.loader = importlib.util.LazyLoader(spec.loader)
+        module = importlib.util.module_from_spec(spec)
+        sys.modules["fontTools.subset"] = module
+        spec.loader.exec_module(module)
+        fontTools.subset = module
+
+
+def _keep_string_metrics() -> None:
+    """Keep each string's measured size in the core fonts for the process.  matplotlib measures every text of a
+    page character by character in the font's AFM metrics (``AFM.get_str_bbox_and_descent``), again for every page
+    of every report (its own text-size cache lives as long as one page's renderer); a font's metrics never change,
+    so the answer for a string is kept on the font's AFM object, which matplotlib itself keeps for the process.
+    Call under ``_RC`` (it names the fonts).  About 7 % of a one-hop report's CPU; same numbers, same PDF."""
+    from matplotlib import font_manager
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
+    from matplotlib.backends.backend_pdf import RendererPdf
+
+    for weight in ("normal", "bold"):
+        for style in ("normal", "italic"):
+            fname = font_manager.findfont(font_manager.FontProperties(weight=weight, style=style), fontext="afm",
+                                          directory=RendererPdf._afm_font_dir)
+            afm = _cached_get_afm_from_fname(fname)
+            if "get_str_bbox_and_descent" not in vars(afm):
+                afm.get_str_bbox_and_descent = functools.lru_cache(maxsize=8192)(afm.get_str_bbox_and_descent)
 
 
 @contextlib.contextmanager

@@ -9,6 +9,7 @@ import pandas as pd
 
 from diag import schema
 from diag.report import style
+from diag.report.pdf_templates import new_axes
 from diag.report.pdf_text import (
     _wrap,
     format_availability,
@@ -185,7 +186,8 @@ def _page_timelines(fig, results: Sequence[LinkResult], state: dict) -> None:
         return
     height = 0.80 / len(shown)
     for i, r in enumerate(shown):
-        ax = fig.add_axes([0.09, 0.09 + (len(shown) - 1 - i) * height + 0.035, 0.87, height - 0.06])
+        ax = new_axes(fig, [0.09, 0.09 + (len(shown) - 1 - i) * height + 0.035, 0.87, height - 0.06], "timeline",
+                      state)
         _timeline(ax, r, legend_causes)
         locator = mdates.AutoDateLocator(minticks=4, maxticks=9)
         ax.xaxis.set_major_locator(locator)

@@ -1,0 +1,127 @@
+"""Chart pages kept between reports (``diag.report.pdf_templates``, issue 18): a report drawn on the Figures and
+Axes of earlier reports is the same PDF, byte for byte, as one drawn on new figures, whatever came before it.
+
+The check is against the project's own drawing on new figures (the output before the templates existed, which
+``bench/output_hashes.py`` compares across versions), over reports that take every branch of the chart painters:
+one hop and many (the yearly outlook moved to page 3), 1-s samples and 15-min statistics, no fade statistics
+(axis off), no outage, a hop without any series, a channel without a level and a hop analysed from simulated
+logs.
+"""
+from __future__ import annotations
+
+import dataclasses
+
+import pandas as pd
+import pytest
+
+from diag import schema
+from diag.report import pdf, pdf_templates
+from diag.results import ChannelSeries, LinkResult
+from tests.report.test_report import _link, _sample_result, _stats_result
+
+
+@pytest.fixture(scope="module")
+def cases(hops):
+    _, quick = hops.analysed("quick", 1)
+    sample = _sample_result("HOP-A")
+    no_outage = _sample_result("HOP-Q", fade_s=0)
+    stats = _stats_result("HOP-C")                 # no fade statistics: the fade-depth chart's axis is off
+    empty = LinkResult(link=_link("HOP-E"), series={}, events=pd.DataFrame(columns=schema.EVENT_COLUMNS),
+                       error="no data")
+    frame = sample.series["H"].frame.drop(columns=["rsl_dbm"])      # a channel without a level: no level drawn
+    no_level = dataclasses.replace(sample, link=_link("HOP-L"),
+                                   series={"H": ChannelSeries("HOP-L", "H", 1.0, "sample", frame)})
+    many = [dataclasses.replace(sample, link=_link(f"HOP-{i:02d}")) for i in range(12)]
+    return {"quick": [quick], "sample": [sample], "no outage": [no_outage], "stats": [stats], "empty": [empty],
+            "no level": [no_level], "mixed": [quick, stats, sample], "many": many + [stats]}
+
+
+def _fresh(results) -> bytes:
+    with pdf._collector_paused():
+        return pdf._pdf_bytes(results, None, None)
+
+
+def test_kept_figures_draw_the_same_pdf_as_new_ones(cases):
+    fresh = {name: _fresh(results) for name, results in cases.items()}
+    templates = pdf_templates.Templates()
+    order = ["quick", "many", "sample", "stats", "quick", "empty", "no level", "mixed", "no outage", "quick", "many",
+             "stats", "no level", "mixed", "sample"]
+    kept = None
+    for name in order:
+        with pdf._collector_paused():
+            data = pdf._pdf_bytes(cases[name], None, templates)
+        assert data == fresh[name], name
+        if kept is None:
+            kept = dict(templates._axes)
+    # the set was reused, not remade: the Axes of the first report are still the ones drawn on
+    assert kept and all(templates._axes[key] is ax for key, ax in kept.items())
+
+
+def test_pdf_bytes_reuses_a_pooled_set_and_matches_new_figures(cases):
+    for name in ("sample", "stats", "quick"):
+        assert pdf.pdf_bytes(cases[name]) == _fresh(cases[name]), name
+    assert pdf_templates._POOL, "a set is given back to the pool after a report"
+
+
+def test_a_set_in_use_is_never_handed_out_twice():
+    first, second = pdf_templates.take(), pdf_templates.take()
+    assert first is not second
+    pdf_templates.give_back(first)
+    pdf_templates.give_back(second)
+    assert pdf_templates.take() in (first, second)
+
+
+def test_string_metrics_kept_for_the_process_are_matplotlibs_own(cases):
+    """``pdf_fonts._keep_string_metrics``: the core fonts' string sizes are kept, and are the ones matplotlib's own
+    AFM reader computes."""
+    import matplotlib
+    from matplotlib import font_manager
+    from matplotlib._afm import AFM
+    from matplotlib.backends._backend_pdf_ps import _cached_get_afm_from_fname
+    from matplotlib.backends.backend_pdf import RendererPdf
+
+    from diag.report.pdf_fonts import _RC, _quiet_font_lookup
+
+    pdf.pdf_bytes(cases["sample"])
+    with matplotlib.rc_context(_RC), _quiet_font_lookup():
+        bold = font_manager.findfont(font_manager.FontProperties(weight="bold"), fontext="afm",
+                                     directory=RendererPdf._afm_font_dir)
+    afm = _cached_get_afm_from_fname(bold)
+    kept = vars(afm)["get_str_bbox_and_descent"]
+    assert kept.cache_info().hits > 0
+    for text in ["Headline per hop", "HOP-A", "-12.5", "Ä ·", ""]:
+        assert afm.get_str_bbox_and_descent(text) == AFM.get_str_bbox_and_descent(afm, text)
+
+
+_SUBSETTER_CHECK = """
+import io, sys
+import matplotlib
+from matplotlib.figure import Figure
+from diag.report import pdf_bytes
+from tests.report.test_report import _sample_result
+
+pdf_bytes([_sample_result("HOP-A")])
+print(type(sys.modules["fontTools.subset"]).__name__)          # not run yet: the report needs no TrueType subset
+fig = Figure()
+fig.text(0.5, 0.5, "TrueType glyphs")
+with matplotlib.rc_context({"pdf.fonttype": 42}):                 # embeds a TrueType subset: needs the subsetter
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="pdf")
+print(type(sys.modules["fontTools.subset"]).__name__, b"/FontFile2" in buffer.getvalue())
+"""
+
+
+def test_font_subsetter_loads_only_when_a_pdf_embeds_truetype():
+    """``pdf_fonts._defer_font_subsetter``: the report's process does not run fontTools' subsetter, and a PDF
+    that embeds a TrueType subset later in the same process still gets it (a fresh interpreter: the import order
+    matters)."""
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    done = subprocess.run([sys.executable, "-c", _SUBSETTER_CHECK], cwd=root, capture_output=True, text=True,
+                          timeout=120, env=dict(os.environ, PYTHONPATH=str(root)))
+    assert done.returncode == 0, done.stderr[-2000:]
+    assert done.stdout.split() == ["_LazyModule", "module", "True"]
