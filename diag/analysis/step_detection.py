@@ -398,7 +398,8 @@ def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: 
 
 def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, min_step_db: float = 2.0,
                  window_s: float = 7200.0, fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6,
-                 lag_s: float = 60.0, min_abrupt_fraction: float = 0.5) -> list[Step]:
+                 lag_s: float = 60.0, min_abrupt_fraction: float = 0.5,
+                 max_step_db: float | None = 40.0) -> list[Step]:
     """Steps of the clear-sky level that happened inside a fade, between the steps already found.
 
     :func:`detect_steps` needs the level clear and flat on both sides of a step; a knocked antenna put right while
@@ -428,7 +429,7 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
         if not (math.isfinite(head) and math.isfinite(tail)):
             continue
         size = tail - head
-        if abs(size) < min_step_db:
+        if abs(size) < min_step_db or (max_step_db is not None and abs(size) > max_step_db):
             continue
         tol = max(1.0, abs(size) / 4.0)
         if min(_level_share(seg[:w], head, tol, fade_trim_db),

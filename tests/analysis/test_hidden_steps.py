@@ -75,10 +75,12 @@ def test_fades_that_come_back_hide_no_step(hops, effect):
     assert found == [] and hidden == []
 
 
-def test_reference_follows_the_hidden_return(hops):
-    # through the whole stage: the stretch 2-9 h becomes a level shift and the rain after 9 h is measured against
-    # the restored level (before, the reference sat between the two levels)
+def test_reference_follows_the_hidden_return(hops, monkeypatch):
+    # through the whole stage, where switched on (off by default: steps.HIDDEN_STEPS says why): the stretch 2-9 h
+    # becomes a level shift and the rain after 9 h is measured against the restored level (without it, the reference
+    # sits between the two levels)
     from diag.analysis.reference import add_reference, channel_grids, level_shift_spans
+    monkeypatch.setattr(shifts, "HIDDEN_STEPS", ("sample",))
     spec = LinkSpec("R1", 23.0, 10.0, "V", -75.0, duration_s=14 * H,
                     effects=(_shift(2, 4.0), _shift(9, -4.0), _rain(8, 2.0, 20.0)))
     series = channel_grids(hops.sim(spec, seed=1).table)["V"]
