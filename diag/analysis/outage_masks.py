@@ -363,15 +363,24 @@ def _combine_units(units: list[dict], dt: int) -> dict:
     return out
 
 
-def _weighted_period_causes(counts: np.ndarray, cause: np.ndarray) -> np.ndarray:
-    """Per interval cause for unavailable time: unknown ones take the dominant cause (by seconds) of their run."""
+def _weighted_period_causes(counts: np.ndarray, cause: np.ndarray, dt: int) -> np.ndarray:
+    """Per interval cause for unavailable time: unknown ones take the dominant cause (by seconds) of their
+    unavailable period, as ``outage._unavailable_causes`` does second by second.
+
+    ``counts``: unavailable seconds per interval.  A period is a run of intervals with unavailable time that ends in
+    the first interval holding fewer than ``dt`` of them: such an interval (an upper bound capped at 10k + 9 s) must
+    hold ten consecutive clear seconds, so unavailable time cannot run through it; its unavailable seconds are those
+    at its start (the per-second masks' placement, ``outage._cap_per_block``), the end of the period before.
+    """
     out = cause.copy()
     for start, end in g826.unavailable_periods(counts > 0):
-        seg = out[start:end]
-        unknown = seg == _UNKNOWN
-        if unknown.any() and not unknown.all():
-            weights = np.bincount(seg[~unknown], weights=counts[start:end][~unknown], minlength=len(CAUSES))
-            seg[unknown] = int(np.argmax(weights))
+        cuts = start + 1 + np.flatnonzero(counts[start:end - 1] < dt)   # a period ends in a short interval
+        for a, b in zip(np.concatenate(([start], cuts)), np.concatenate((cuts, [end]))):
+            seg = out[a:b]
+            unknown = seg == _UNKNOWN
+            if unknown.any() and not unknown.all():
+                weights = np.bincount(seg[~unknown], weights=counts[a:b][~unknown], minlength=len(CAUSES))
+                seg[unknown] = int(np.argmax(weights))
     return out
 
 
@@ -399,8 +408,8 @@ def _unit_figures(u: dict, dt: int, consecutive_s: int, method: str) -> dict:
         "below_lo": below_lo, "below_hi": below_hi, "unav_lo": unav_lo, "unav_hi": unav_hi,
         "ses_av_lo": int(ses_av_lo), "ses_av_hi": int(ses_av_hi),
         "cause_below_lo": by(lo, cause), "cause_below_hi": by(hi, cause),
-        "cause_unav_lo": by(u_lo, _weighted_period_causes(u_lo, cause)),
-        "cause_unav_hi": by(u_hi, _weighted_period_causes(u_hi, cause)),
+        "cause_unav_lo": by(u_lo, _weighted_period_causes(u_lo, cause, dt)),
+        "cause_unav_hi": by(u_hi, _weighted_period_causes(u_hi, cause, dt)),
         "unavailable_periods": int(len(g826.unavailable_periods(u_lo > 0))),
         "exact": False, "method": method,
     }

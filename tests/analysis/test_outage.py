@@ -478,6 +478,28 @@ def test_interval_arithmetic_matches_the_per_second_masks(rows, two_channels, da
     check_adds_up(fast)
 
 
+def test_a_short_interval_ends_the_upper_bound_period_before_its_cause_is_shared():
+    # ITU-T G.826 (12/2002) Annex A: ten consecutive non-SES seconds end unavailable time, and an uncaused unavailable
+    # second takes the main cause of its own unavailable period (module docstring).  Five 15-min intervals whose
+    # min/avg/max allow a below-threshold second, no event over them; the fifth allows at most k such seconds, so
+    # its k + 1 clear stretches hold 900 - k seconds and one of them at least ten (pigeonhole): the upper bound's
+    # unavailable time ends inside it (at most 10k + 9 s of it).  The sixth interval, under a rain event, starts a
+    # period of its own: rain gets only its 900 s, not the uncaused run before it (the interval-arithmetic path once
+    # gave rain all 5049 s; the per-second masks 900).
+    rows = [("ok", 0.0, 0.0, 0.0, "")] * 4 + [("ok", 0.0, 1.0, 2.0, ""), ("ok", 0.0, 0.0, 0.0, "rain")]
+    _, k_hi = outage.stats_interval_bounds(-70.0, -68.0, -68.0, -70.0, 900)
+    cap = 10 * int(k_hi) + 9
+    assert 0 < cap < 900                    # the fifth interval cannot be unavailable throughout
+    chans = [ChannelSeries("L1", "H", 900.0, "stats", _stats_frame(rows))]
+    for res in (outage.account_link(result_for(chans)), outage.account_link(result_for(chans), _force_seconds=True)):
+        bc = res.by_cause.set_index("cause")
+        assert res.summary["unavailable_s_hi"] == 4 * 900 + cap + 900
+        assert bc.loc["rain", "unavailable_s_hi"] == 900
+        assert bc.loc["unknown", "unavailable_s_hi"] == 4 * 900 + cap
+        assert res.summary["unavailable_s_lo"] == 0 and res.summary["main_cause"] == "unknown"
+        check_adds_up(res)
+
+
 def test_radio_counters_from_15min_log_fall_inside_the_bounds(sim_1s):
     # SIMULATOR's statistics logs can carry the radio's SES/UAS counters, computed per interval from the 1-s levels
     # with the same G.826 rule (a stand-in for a real radio): through the whole analysis they must lie inside the
