@@ -198,7 +198,9 @@ def _figures(m: _Masks, consecutive_s: int, unavailable: tuple[np.ndarray, np.nd
 # With every channel's intervals on one grid of dt >= 10 s, each interval is either wholly certain, wholly possible or
 # clear in the per-second masks above, so the G.826 rule reduces to interval arithmetic: certain intervals are
 # unavailable (lower bound); runs of possible intervals are unavailable unless the run cannot hold ten below-threshold
-# seconds, at most min(dt, 10k + 9) s per interval (upper bound).  tests/test_outage.py checks both ways agree.
+# seconds, at most min(dt, 10k + 9) s per interval (upper bound); an interval holding fewer than dt unavailable
+# seconds ends its period (those seconds at its start), so an uncaused interval takes the main cause of the same
+# period as its seconds in the per-second masks.  tests/analysis/test_outage.py checks both ways agree.
 
 def _iso(ts: pd.Timestamp) -> str:
     return ts.tz_convert("UTC").strftime("%Y-%m-%dT%H:%M:%SZ")

@@ -351,32 +351,77 @@ def _stats_units(series: ChannelSeries, t0: pd.Timestamp, nu: int, dt: int, thre
 
 def _combine_units(units: list[dict], dt: int) -> dict:
     """Hop level per interval: observed if any channel is; at least the largest channel lower count; at most the sum
-    of the upper counts (capped at dt); the cause of the first channel that may be below, else any known one."""
-    out = {"obs": units[0]["obs"].copy(), "lo": units[0]["lo"].copy(), "hi": units[0]["hi"].copy(),
-           "cause": units[0]["cause"].copy()}
-    for u in units[1:]:
-        take = (u["hi"] > 0) & (out["hi"] == 0) | ((out["cause"] == _UNKNOWN) & (u["cause"] != _UNKNOWN))
-        out["cause"][take] = u["cause"][take]
+    of the upper counts (capped at dt).  Causes as the per-second masks place them (``_stats_masks`` and
+    ``outage._combine``): each channel's possibly-below seconds follow the previous channels' in the interval and
+    the new ones take that channel's cause; a second of unknown cause takes a later channel's known cause.
+    ``segments``: (start, end, cause) arrays, the interval's seconds from its start in that order."""
+    out = {"obs": units[0]["obs"].copy(), "lo": units[0]["lo"].copy(), "hi": np.zeros_like(units[0]["hi"])}
+    segments: list[list[np.ndarray]] = []
+    rest = units[0]["cause"].copy()                 # cause of the seconds after the possibly-below ones
+    for u in units:
+        known = u["cause"] != _UNKNOWN
+        for seg_cause in [seg[2] for seg in segments] + [rest]:
+            fill = (seg_cause == _UNKNOWN) & known
+            seg_cause[fill] = u["cause"][fill]
+        end = np.minimum(out["hi"] + u["hi"], dt)
+        segments.append([out["hi"], end, u["cause"].copy()])
+        out["hi"] = end
         out["obs"] |= u["obs"]
         out["lo"] = np.maximum(out["lo"], u["lo"])
-        out["hi"] = np.minimum(out["hi"] + u["hi"], dt)
+    out["segments"] = [tuple(seg) for seg in segments] + [(out["hi"], np.full_like(out["hi"], dt), rest)]
     return out
 
 
-def _weighted_period_causes(counts: np.ndarray, cause: np.ndarray) -> np.ndarray:
-    """Per interval cause for unavailable time: unknown ones take the dominant cause (by seconds) of their run."""
-    out = cause.copy()
-    for start, end in g826.unavailable_periods(counts > 0):
-        seg = out[start:end]
-        unknown = seg == _UNKNOWN
-        if unknown.any() and not unknown.all():
-            weights = np.bincount(seg[~unknown], weights=counts[start:end][~unknown], minlength=len(CAUSES))
-            seg[unknown] = int(np.argmax(weights))
-    return out
+def _prefix_causes(segments, seconds: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+    """(cause, seconds) per segment of the first ``seconds`` of each interval."""
+    return [(cause, np.clip(np.minimum(seconds, end) - start, 0, None)) for start, end, cause in segments]
+
+
+def _by_cause(pieces) -> np.ndarray:
+    total = np.zeros(len(CAUSES), dtype=np.int64)
+    for cause, seconds in pieces:
+        total += np.bincount(cause.astype(np.int64), weights=seconds, minlength=len(CAUSES)).astype(np.int64)
+    return total
+
+
+def _weighted_period_causes(counts: np.ndarray, segments, dt: int) -> np.ndarray:
+    """Unavailable seconds by cause, those of unknown cause given the dominant cause (by seconds) of their
+    unavailable period, as ``outage._unavailable_causes`` does second by second.
+
+    ``counts``: unavailable seconds per interval, the first ones of the interval (``segments`` gives their causes).
+    A period is a run of intervals with unavailable time that ends in the first interval holding fewer than ``dt``
+    of them: such an interval (an upper bound capped at 10k + 9 s) must hold ten consecutive clear seconds, so
+    unavailable time cannot run through it; its unavailable seconds are those at its start (the per-second masks'
+    placement, ``outage._cap_per_block``), the end of the period before.
+    """
+    pieces = _prefix_causes(segments, counts)
+    total = _by_cause(pieces)
+    on = counts > 0
+    continues = np.concatenate(([False], on[:-1] & (counts[:-1] >= dt)))   # the interval before runs into this one
+    period = np.where(on, np.cumsum(on & ~continues) - 1, -1)
+    cause = np.concatenate([c for c, _ in pieces]).astype(np.int64)
+    seconds = np.concatenate([w for _, w in pieces])
+    pid = np.tile(period, len(pieces))
+    use = (pid >= 0) & (seconds > 0)
+    unknown = use & (cause == _UNKNOWN)
+    if not unknown.any() or unknown.sum() == use.sum():
+        return total
+    key, inverse = np.unique(pid[use & ~unknown] * len(CAUSES) + cause[use & ~unknown], return_inverse=True)
+    weight = np.bincount(inverse, weights=seconds[use & ~unknown])
+    key_period, key_cause = key // len(CAUSES), key % len(CAUSES)
+    order = np.lexsort((key_cause, -weight, key_period))        # per period: most seconds, then the first cause
+    first = order[np.concatenate(([True], np.diff(key_period[order]) > 0))]
+    dominant = dict(zip(key_period[first].tolist(), key_cause[first].tolist()))
+    moved = np.bincount(pid[unknown], weights=seconds[unknown])
+    for p_id in np.flatnonzero(moved).tolist():
+        if p_id in dominant:
+            total[_UNKNOWN] -= int(moved[p_id])
+            total[dominant[p_id]] += int(moved[p_id])
+    return total
 
 
 def _unit_figures(u: dict, dt: int, consecutive_s: int, method: str) -> dict:
-    obs, lo, hi, cause = u["obs"], np.where(u["obs"], u["lo"], 0), np.where(u["obs"], u["hi"], 0), u["cause"]
+    obs, lo, hi = u["obs"], np.where(u["obs"], u["lo"], 0), np.where(u["obs"], u["hi"], 0)
     certain = obs & (lo >= dt)
     possible = obs & (hi > 0)
     # clusters: runs of possible intervals (a clear or missing interval of dt >= 10 s separates them)
@@ -393,14 +438,16 @@ def _unit_figures(u: dict, dt: int, consecutive_s: int, method: str) -> dict:
     unav_lo, unav_hi = int(u_lo.sum()), int(u_hi.sum())
     ses_av_lo = max(0, below_lo - min(unav_hi, below_hi))
     ses_av_hi = max(ses_av_lo, below_hi - unav_lo)
-    by = lambda w, c: np.bincount(c.astype(np.int64), weights=w, minlength=len(CAUSES)).astype(np.int64)  # noqa
+    # causes of the interval's seconds from its start (one channel: its cause for the whole interval)
+    segments = u.get("segments") or [(np.zeros_like(hi), np.full_like(hi, dt), u["cause"])]
     return {
         "observed_s": int(obs.sum()) * dt,
         "below_lo": below_lo, "below_hi": below_hi, "unav_lo": unav_lo, "unav_hi": unav_hi,
         "ses_av_lo": int(ses_av_lo), "ses_av_hi": int(ses_av_hi),
-        "cause_below_lo": by(lo, cause), "cause_below_hi": by(hi, cause),
-        "cause_unav_lo": by(u_lo, _weighted_period_causes(u_lo, cause)),
-        "cause_unav_hi": by(u_hi, _weighted_period_causes(u_hi, cause)),
+        "cause_below_lo": _by_cause(_prefix_causes(segments, lo)),
+        "cause_below_hi": _by_cause(_prefix_causes(segments, hi)),
+        "cause_unav_lo": _weighted_period_causes(u_lo, segments, dt),
+        "cause_unav_hi": _weighted_period_causes(u_hi, segments, dt),
         "unavailable_periods": int(len(g826.unavailable_periods(u_lo > 0))),
         "exact": False, "method": method,
     }

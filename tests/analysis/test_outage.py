@@ -465,7 +465,8 @@ def test_interval_arithmetic_matches_the_per_second_masks(rows, two_channels, da
     chans = [ChannelSeries("L1", "H", 900.0, "stats", _stats_frame(rows))]
     if two_channels:
         other = data.draw(st.lists(_STATS_ROW, min_size=len(rows), max_size=len(rows)))
-        other = [(s, a, b, c, cause) for (s, a, b, c, _), (*_, cause) in zip(other, rows)]   # same causes
+        if data.draw(st.booleans()):                # the same events on both channels, or each its own
+            other = [(s, a, b, c, cause) for (s, a, b, c, _), (*_, cause) in zip(other, rows)]
         chans.append(ChannelSeries("L1", "V", 900.0, "stats", _stats_frame(other)))
     fast = outage.account_link(result_for(chans))
     slow = outage.account_link(result_for(chans), _force_seconds=True)
@@ -476,6 +477,46 @@ def test_interval_arithmetic_matches_the_per_second_masks(rows, two_channels, da
         {k: (fast.summary[k], slow.summary[k]) for k in keys if not same(fast.summary[k], slow.summary[k])}
     pd.testing.assert_frame_equal(fast.by_cause, slow.by_cause)
     check_adds_up(fast)
+
+
+def test_a_short_interval_ends_the_upper_bound_period_before_its_cause_is_shared():
+    # ITU-T G.826 (12/2002) Annex A: ten consecutive non-SES seconds end unavailable time, and an uncaused unavailable
+    # second takes the main cause of its own unavailable period (module docstring).  Five 15-min intervals whose
+    # min/avg/max allow a below-threshold second, no event over them; the fifth allows at most k such seconds, so
+    # its k + 1 clear stretches hold 900 - k seconds and one of them at least ten (pigeonhole): the upper bound's
+    # unavailable time ends inside it (at most 10k + 9 s of it).  The sixth interval, under a rain event, starts a
+    # period of its own: rain gets only its 900 s, not the uncaused run before it (the interval-arithmetic path once
+    # gave rain all 5049 s; the per-second masks 900).
+    rows = [("ok", 0.0, 0.0, 0.0, "")] * 4 + [("ok", 0.0, 1.0, 2.0, ""), ("ok", 0.0, 0.0, 0.0, "rain")]
+    _, k_hi = outage.stats_interval_bounds(-70.0, -68.0, -68.0, -70.0, 900)
+    cap = 10 * int(k_hi) + 9
+    assert 0 < cap < 900                    # the fifth interval cannot be unavailable throughout
+    chans = [ChannelSeries("L1", "H", 900.0, "stats", _stats_frame(rows))]
+    for res in (outage.account_link(result_for(chans)), outage.account_link(result_for(chans), _force_seconds=True)):
+        bc = res.by_cause.set_index("cause")
+        assert res.summary["unavailable_s_hi"] == 4 * 900 + cap + 900
+        assert bc.loc["rain", "unavailable_s_hi"] == 900
+        assert bc.loc["unknown", "unavailable_s_hi"] == 4 * 900 + cap
+        assert res.summary["unavailable_s_lo"] == 0 and res.summary["main_cause"] == "unknown"
+        check_adds_up(res)
+
+
+def test_upper_bound_seconds_of_each_channel_keep_that_channel_cause():
+    # each below-threshold second takes the cause of the event covering it (module docstring).  One 15-min interval
+    # on two channels, each allowing at most k below-threshold seconds: H under a rain event, V under a multipath
+    # event.  The upper bound has k seconds on H and k more on V (the two need not coincide), so k are rain and k
+    # multipath (the interval-arithmetic path once gave all 2k to rain, the first channel; the per-second masks did
+    # not); the whole interval may be unavailable (2k + 9 (2k + 1) >= 900), its other seconds under H's rain event.
+    _, k_hi = outage.stats_interval_bounds(-70.0, -68.0, -68.0, -70.0, 900)
+    k = int(k_hi)
+    assert 0 < 2 * k < 900 <= 2 * k + 9 * (2 * k + 1)
+    chans = [ChannelSeries("L1", "H", 900.0, "stats", _stats_frame([("ok", 0.0, 1.0, 2.0, "rain")])),
+             ChannelSeries("L1", "V", 900.0, "stats", _stats_frame([("ok", 0.0, 1.0, 2.0, "multipath")]))]
+    for res in (outage.account_link(result_for(chans)), outage.account_link(result_for(chans), _force_seconds=True)):
+        bc = res.by_cause.set_index("cause")
+        assert bc.loc["rain", "below_threshold_s_hi"] == k and bc.loc["multipath", "below_threshold_s_hi"] == k
+        assert bc.loc["rain", "unavailable_s_hi"] == 900 - k and bc.loc["multipath", "unavailable_s_hi"] == k
+        check_adds_up(res)
 
 
 def test_radio_counters_from_15min_log_fall_inside_the_bounds(sim_1s):
