@@ -199,22 +199,20 @@ def term_slow(row, link: Link, prior: HopPrior):
     return _v(0.0, -s, 0.0), text
 
 
-SLOW_PRIOR = True
-SLOW_NEEDS_FAST = True
 
 
 def _slow_depth(row) -> float:
-    """The slow component's depth of a long fine- or coarse-sampled event whose mean fade flat fading cannot give
-    (see :func:`term_slow`), else NaN."""
+    """Depth at which rain and refraction are judged when fast fluctuation rides on a slow component: the mean fade
+    of a long fine- or coarse-sampled event that flat fading alone cannot give (:func:`term_slow`) and whose
+    fluctuation or sample-to-sample change argues for multipath (:func:`term_fast`, :func:`term_variability`, which
+    read only the row), else NaN (the peak is used)."""
     if _sampling(row) == "stats":
         return math.nan
     dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
     if not (math.isfinite(mean) and dur >= SLOW_MIN_S and mean > RAYLEIGH_LOG_MEAN_DB + SLOW_MARGIN_DB):
         return math.nan
     fast = term_fast(row, None, None) or term_variability(row, None, None)
-    if SLOW_NEEDS_FAST and not (fast is not None and fast[0][M] > 0):
-        return math.nan
-    return mean
+    return mean if fast is not None and fast[0][M] > 0 else math.nan
 
 
 def term_polarisation(row, link: Link, prior: HopPrior):
@@ -504,14 +502,13 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
                             for r in rows])
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
-    if SLOW_PRIOR:
-        # a long event whose mean fade needs a slow component (term_slow): rain and refraction are judged at the
-        # slow component's depth (the mean), not at a multipath dip on top of it
-        slow = np.array([_slow_depth(r) for r in rows], dtype=float)
-        if np.isfinite(slow).any():
-            at = prior_log_odds(prior, np.where(np.isfinite(slow), np.maximum(slow, 1.0), depth))
-            for cause in ("rain", "refractive"):
-                logs[cause] = np.where(np.isfinite(slow), np.maximum(at[cause], logs[cause]), logs[cause])
+    # a long event whose mean fade needs a slow component under fast fluctuation (_slow_depth): rain and refraction
+    # are judged at the slow component's depth (the mean) too, not only at a multipath dip on top of it
+    slow = np.array([_slow_depth(r) for r in rows], dtype=float)
+    if np.isfinite(slow).any():
+        at = prior_log_odds(prior, np.where(np.isfinite(slow), np.maximum(slow, 1.0), depth))
+        for cause in ("rain", "refractive"):
+            logs[cause] = np.where(np.isfinite(slow), np.maximum(at[cause], logs[cause]), logs[cause])
     other = math.log(OTHER_PCT_AT_3DB) - np.maximum(depth - 3.0, 0.0) * math.log(10.0) / OTHER_DECADE_DB
     base = np.stack([logs["rain"], logs["multipath"], logs["refractive"], other], axis=1) if n else np.zeros((0, 4))
     terms = {name: np.zeros((n, 4)) for name in TERMS}
@@ -701,7 +698,7 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
                             f"{_odds(base[i, k] - base[i, rival])} at "
                             f"{max(_f(row.get('peak_fade_db_finite')), 1.0):.0f} dB on {link.frequency_ghz:g} GHz/"
                             f"{link.length_km:g} km" + (f" (rain and refraction at the {slow:.0f}-dB mean)"
-                                                        if SLOW_PRIOR and math.isfinite(slow := _slow_depth(row))
+                                                        if math.isfinite(slow := _slow_depth(row))
                                                         else "")))
         for name in TERMS:
             if texts[name][i]:
