@@ -286,7 +286,8 @@ def count_link(data_item, result, network: GaugeNetwork | None = None) -> Count:
             called = np.zeros(minutes.size, dtype=bool)
             thumb = called
         else:
-            fr = series.frame.reindex(minutes)
+            fr = series.frame.reindex(minutes, method="ffill", tolerance=pd.Timedelta(seconds=series.interval_s - 1)) \
+                if series.kind == "stats" else series.frame.reindex(minutes)
             called = (fr["cause"].astype(str) == "rain").to_numpy()
             eid = fr["event_id"].fillna(-1).to_numpy(dtype=np.int64)
             thumb = np.zeros(minutes.size, dtype=bool)
@@ -331,6 +332,40 @@ def _analyse_network(table: pd.DataFrame, links) -> list:
     return corroborate(results)
 
 
+def interval_minmax(table: pd.DataFrame, interval_s: int = 900) -> pd.DataFrame:
+    """The 1-min log as a radio's 15-min min/max performance export would hold it (no average): per channel and
+    interval (stamped at its start, as the normalised table is), the lowest and highest valid RSL and the highest TSL
+    (an ATPC transmitter rises as the path fades).  An interval with a lost-signal minute keeps its lowest valid
+    value but is marked ``signal_lost`` on the minimum (the receiver reached its floor); an interval with no valid
+    minute is left out, as an export leaves it out."""
+    from diag import schema as S
+
+    rows = []
+    step = pd.Timedelta(seconds=interval_s)
+    for (channel, quantity), part in table.groupby([table[S.CHANNEL].astype(str), table[S.QUANTITY].astype(str)],
+                                                   observed=True, sort=False):
+        start = part[S.TIME].dt.floor(step)
+        ok = part[S.STATUS].astype(str) == S.OK
+        lost = (part[S.STATUS].astype(str) == S.SIGNAL_LOST).groupby(start).any()
+        valid = part[S.VALUE].where(ok)
+        stats = {"max": valid.groupby(start).max()} if quantity == S.TSL else \
+            {"min": valid.groupby(start).min(), "max": valid.groupby(start).max()}
+        for stat, values in stats.items():
+            flag = lost.reindex(values.index, fill_value=False) if stat == "min" else \
+                pd.Series(False, index=values.index)
+            keep = values.notna() | flag
+            values, flag = values[keep], flag[keep]
+            rows.append(pd.DataFrame({
+                S.TIME: values.index, S.LINK: str(part[S.LINK].iloc[0]), S.CHANNEL: channel, S.QUANTITY: quantity,
+                S.STAT: getattr(S, stat.upper()), S.INTERVAL: float(interval_s), S.VALUE: values.to_numpy(),
+                S.STATUS: np.where(flag.to_numpy(), S.SIGNAL_LOST, S.OK)}))
+    out = pd.concat(rows, ignore_index=True).sort_values([S.CHANNEL, S.QUANTITY, S.STAT, S.TIME],
+                                                           kind="stable", ignore_index=True)
+    for col in (S.LINK, S.CHANNEL, S.QUANTITY, S.STAT, S.STATUS):
+        out[col] = out[col].astype("category")
+    return out[list(table.columns)]
+
+
 def at_noise_floor(data_item) -> bool:
     """True when every channel of the link has a median RSL <= -90 dBm: the receiver reads noise, not a signal
     (in OpenRainER 1133, 1134, 152 and 164, each with the other direction entirely missing)."""
@@ -342,14 +377,20 @@ def at_noise_floor(data_item) -> bool:
     return bool(len(med)) and bool((med <= NOISE_FLOOR_MEDIAN_DBM).all())
 
 
-def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
-    """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15)."""
+def evaluate(links=None, fit=None, base: Path = DATA, minmax_s: int | None = None) -> dict:
+    """Per-link counts (and the total) for the chosen links (cml ids as str or int; default all 15).
+    ``minmax_s``: analyse the logs as min/max exports of that interval (:func:`interval_minmax`) instead of the
+    1-min samples; the minutes are still labelled and counted from the 1-min log, each taking its interval's cause."""
     data = load(base)
+    if minmax_s:
+        analysed = {k: (interval_minmax(v[0], minmax_s),) + tuple(v[1:]) for k, v in data.items()}
+    else:
+        analysed = data
     network = GaugeNetwork.load(Path(base))
     chosen = [str(x) for x in (links or list(data))]
     per_link: dict[str, Count] = {}
     if fit is None:
-        results = _analyse_network(_network_table(data), [d[1] for d in data.values()])
+        results = _analyse_network(_network_table(analysed), [d[1] for d in data.values()])
         by_id = {r.link.link_id: r for r in results}
         del results
         for k in chosen:
@@ -358,7 +399,7 @@ def evaluate(links=None, fit=None, base: Path = DATA) -> dict:
         for k in chosen:
             training = {o: v for o, v in data.items() if o != k}
             analyse = fit(training)
-            results = analyse(_network_table(data), [d[1] for d in data.values()])
+            results = analyse(_network_table(analysed), [d[1] for d in data.values()])
             by_id = {r.link.link_id: r for r in results}
             per_link[k] = count_link(data[k], by_id[k], network)
     total = Count()

@@ -40,6 +40,9 @@ def main(argv=None) -> int:
                          "15-link csv subset)")
     ap.add_argument("--real-all", action="store_true",
                     help="shortcut for --real-base at the all-links conversion (csv_all, openrainer_convert.py)")
+    ap.add_argument("--real-minmax", type=int, default=None, metavar="SECONDS",
+                    help="analyse the real logs as min/max exports of this interval (e.g. 900), built from the "
+                         "1-min samples; minutes are still labelled from the 1-min log")
     ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
     ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
     ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
@@ -78,9 +81,10 @@ def main(argv=None) -> int:
                       file=sys.stderr)
                 return 2
             t0 = time.perf_counter()
-            res = realdata.evaluate(base=base)
+            res = realdata.evaluate(base=base, minmax_s=args.real_minmax)
             print()
-            print(f"real data: {base}")
+            print(f"real data: {base}" + (f", analysed as {args.real_minmax}-s min/max exports"
+                                          if args.real_minmax else ""))
             print(realdata.report(res))
             import resource
 
