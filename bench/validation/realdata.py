@@ -366,6 +366,63 @@ def interval_minmax(table: pd.DataFrame, interval_s: int = 900) -> pd.DataFrame:
     return out[list(table.columns)]
 
 
+def _minute_causes(data_item, result) -> dict:
+    """Per channel: (minutes, faded flag from the 1-min log, the analysis' cause per minute as str)."""
+    from diag import schema as S
+
+    table = data_item[0]
+    out = {}
+    for ch in sorted(set(table[S.CHANNEL].astype(str))):
+        part = table[table[S.CHANNEL].astype(str) == ch]
+        rsl_rows = part[part[S.QUANTITY] == S.RSL]
+        rsl = pd.Series(np.where(rsl_rows[S.STATUS] == S.SIGNAL_LOST, FLOOR_DBM - 4.0, rsl_rows[S.VALUE]),
+                        index=pd.DatetimeIndex(rsl_rows[S.TIME])).sort_index()
+        rsl = rsl[~rsl.index.duplicated()].asfreq("1min")
+        tsl_rows = part[part[S.QUANTITY] == S.TSL]
+        tsl = (pd.Series(tsl_rows[S.VALUE].to_numpy(), index=pd.DatetimeIndex(tsl_rows[S.TIME])).sort_index()
+               if len(tsl_rows) else None)
+        if tsl is not None:
+            tsl = tsl[~tsl.index.duplicated()]
+        minutes, faded, _ = _faded(rsl, tsl)
+        series = result.series.get(ch)
+        if series is None:
+            continue
+        fr = (series.frame.reindex(minutes, method="ffill", tolerance=pd.Timedelta(seconds=series.interval_s - 1))
+              if series.kind == "stats" else series.frame.reindex(minutes))
+        out[ch] = (minutes, faded, fr["cause"].astype(str).to_numpy())
+    return out
+
+
+def agreement(base: Path = DATA, minmax_s: int = 900) -> dict:
+    """Issue 14's "one decision for all sampling" on real logs: the faded minutes (1-min labels) where the analysis of
+    the 1-min samples and of the same log as ``minmax_s`` min/max exports name the same cause, per cause of the
+    1-min verdict, and the confusion of the two (1-min cause -> min/max cause, minutes)."""
+    data = load(base)
+    fine = {r.link.link_id: r for r in _analyse_network(_network_table(data), [d[1] for d in data.values()])}
+    stats_data = {k: (interval_minmax(v[0], minmax_s),) + tuple(v[1:]) for k, v in data.items()}
+    coarse = {r.link.link_id: r for r in _analyse_network(_network_table(stats_data),
+                                                          [d[1] for d in data.values()])}
+    pairs: dict = {}
+    signal = [0, 0]    # the same, leaving out the links that read noise only (at_noise_floor)
+    for k, item in data.items():
+        if k not in fine or k not in coarse or fine[k].error or coarse[k].error:
+            continue
+        a, b = _minute_causes(item, fine[k]), _minute_causes(item, coarse[k])
+        noise = at_noise_floor(item)
+        for ch in a.keys() & b.keys():
+            _, faded, c1 = a[ch]
+            c1, c2 = c1[faded], b[ch][2][faded]
+            for x, y in zip(c1, c2):
+                pairs[(x, y)] = pairs.get((x, y), 0) + 1
+            if not noise:
+                signal[0] += int(c1.size)
+                signal[1] += int((c1 == c2).sum())
+    total = sum(pairs.values())
+    same = sum(n for (x, y), n in pairs.items() if x == y)
+    return {"faded_minutes": total, "agree": same, "pairs": pairs, "faded_minutes_signal": signal[0],
+            "agree_signal": signal[1]}
+
+
 def at_noise_floor(data_item) -> bool:
     """True when every channel of the link has a median RSL <= -90 dBm: the receiver reads noise, not a signal
     (in OpenRainER 1133, 1134, 152 and 164, each with the other direction entirely missing)."""

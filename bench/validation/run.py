@@ -43,6 +43,8 @@ def main(argv=None) -> int:
     ap.add_argument("--real-minmax", type=int, default=None, metavar="SECONDS",
                     help="analyse the real logs as min/max exports of this interval (e.g. 900), built from the "
                          "1-min samples; minutes are still labelled from the 1-min log")
+    ap.add_argument("--real-agreement", action="store_true",
+                    help="also count the faded minutes where the 1-min analysis and the 15-min min/max one agree")
     ap.add_argument("--no-cells", action="store_true", help="leave out the per-cell table")
     ap.add_argument("--matrices", action="store_true", help="print the confusion matrix of every cell")
     ap.add_argument("--worst", type=int, default=10, help="list this many worst hop logs")
@@ -96,6 +98,18 @@ def main(argv=None) -> int:
             figures["openrainer_noise_floor_links"] = res.get("noise_floor", [])
             figures["openrainer_bands"] = {b: {"links": n, **vars(c)}
                                            for b, (n, c) in realdata.band_totals(res).items()}
+            if args.real_agreement:
+                agree = realdata.agreement(base=base)
+                n, same = agree["faded_minutes"], agree["agree"]
+                print(f"1-min against 15-min min/max verdicts of the same faded minutes: {same}/{n} agree "
+                      f"({100.0 * same / max(n, 1):.1f} %); largest disagreements (1 min -> 15 min, minutes):")
+                ns, ss = agree["faded_minutes_signal"], agree["agree_signal"]
+                print(f"  without the links that read noise only: {ss}/{ns} ({100.0 * ss / max(ns, 1):.1f} %)")
+                worst = sorted(((v, k) for k, v in agree["pairs"].items() if k[0] != k[1]), reverse=True)[:6]
+                print("  " + "; ".join(f"{a} -> {b} {v}" for v, (a, b) in worst))
+                figures["openrainer_agreement"] = {"faded_minutes": n, "agree": same, "faded_minutes_signal": ns,
+                                                   "agree_signal": ss,
+                                                   "pairs": {f"{a}->{b}": v for (a, b), v in agree["pairs"].items()}}
     if args.json:
         Path(args.json).write_text(json.dumps(figures, indent=1, default=float))
     return 0
