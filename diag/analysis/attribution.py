@@ -186,7 +186,8 @@ def term_slow(row, link: Link, prior: HopPrior):
     an exponential X of mean 1 is -10 gamma / ln 10) below it.  Over an event of ``SLOW_MIN_S`` or more (many fades)
     a mean fade beyond that bias plus ``SLOW_MARGIN_DB`` needs a slow component under the fading (rain or
     refraction), which then is the larger contributor most of the time.  Against multipath, 1 per ``SLOW_SCALE_DB``
-    of excess, bounded to ``SLOW_MAX``; samples only (the interval statistics are judged by :func:`term_spread`)."""
+    of excess, bounded to ``SLOW_MAX`` (weight 1, not fitted; the bound was chosen on family B fit seeds 1-50 among
+    3 / 6 / 10); samples only (the interval statistics are judged by :func:`term_spread`)."""
     if _sampling(row) == "stats":
         return None
     dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
@@ -197,8 +198,6 @@ def term_slow(row, link: Link, prior: HopPrior):
         return None
     text = f"mean fade {mean:.1f} dB over the {duration_word(dur)} fade (flat fading alone: under 2.5 dB)"
     return _v(0.0, -s, 0.0), text
-
-
 
 
 def _slow_depth(row) -> float:
