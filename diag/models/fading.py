@@ -23,7 +23,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special  # scipy.optimize (and scipy.stats) are imported where used: slow to import
+from scipy import special  # scipy.stats is imported where used (slow to import); no scipy.optimize
 
 from diag.models._util import ArrayLike, as_float_array, like_input
 
@@ -192,11 +192,113 @@ def _rice_nll_and_gradient(params: np.ndarray, r2: np.ndarray, r: np.ndarray) ->
     return -ll, -np.array([d_u, d_s])
 
 
+def _rice_nll_gradient_hessian(u: float, s_log: float, r2_sum: float, r: np.ndarray) -> tuple:
+    """Negative log-likelihood of :func:`_rice_nll_and_gradient`, its gradient and its Hessian in (u, s).
+
+    With c = 2 u sqrt(1 + u^2) e^(-s/2) every sample's Bessel argument is z = c r, so the log-likelihood is
+    A(u, s) + G(c) with A = n (log(1 + u^2) - s - u^2) - (1 + u^2) e^(-s) sum r^2 and G(c) = sum log I0(c r).
+    G' = sum r R(z), G'' = sum r^2 R'(z) with R = I1/I0 and R' = 1 - R/z - R^2 (R'(0) = 1/2), from
+    I0' = I1 and I1' = I0 - I1/z [Abramowitz & Stegun 9.6.27, from memory]; the chain rule does the rest.
+    """
+    n = r.size
+    k = u * u
+    e_s = math.exp(-s_log)
+    root_k1 = math.sqrt(k + 1.0)
+    half = math.exp(-0.5 * s_log)
+    c = 2.0 * u * root_k1 * half
+    c_u = 2.0 * half * (2.0 * k + 1.0) / root_k1
+    c_uu = 2.0 * half * u * (2.0 * k + 3.0) / (root_k1 * root_k1 * root_k1)
+    z = c * r
+    i0e = special.i0e(z)
+    ratio = special.i1e(z) / i0e                             # R(z) = I1(z)/I0(z)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d_ratio = np.where(z > 0, 1.0 - ratio / z - ratio * ratio, 0.5)   # R'(z)
+    g0 = float(np.sum(np.log(i0e) + z))                      # G(c) = sum log I0(z)
+    g1 = float(np.sum(r * ratio))                            # G'(c)
+    g2 = float(np.sum(r * r * d_ratio))                      # G''(c)
+    se = r2_sum * e_s
+    ll = n * (math.log(k + 1.0) - s_log - k) - (k + 1.0) * se + g0
+    ll_u = n * (2.0 * u / (k + 1.0) - 2.0 * u) - 2.0 * u * se + g1 * c_u
+    ll_s = -n + (k + 1.0) * se - 0.5 * g1 * c
+    ll_uu = n * (2.0 * (1.0 - k) / ((k + 1.0) * (k + 1.0)) - 2.0) - 2.0 * se + g2 * c_u * c_u + g1 * c_uu
+    ll_us = 2.0 * u * se - 0.5 * (g2 * c * c_u + g1 * c_u)
+    ll_ss = -(k + 1.0) * se + 0.25 * (g2 * c * c + g1 * c)
+    return -ll, np.array([-ll_u, -ll_s]), np.array([[-ll_uu, -ll_us], [-ll_us, -ll_ss]])
+
+
+_U_BOUNDS = (0.0, 100.0)     # u = sqrt(K): K in [0, 10^4]
+_S_BOUNDS = (-3.0, 3.0)      # s = log Omega on unit mean power: Omega within e^-3 .. e^3 of the sample mean power
+
+
+def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 200) -> tuple[float, float]:
+    """Maximum-likelihood (u, s) of unit-mean-power Rice envelope samples ``r`` (K = u^2, Omega = e^s) in the box
+    u in [0, 100], s in [-3, 3], started from (u0, s0): a projected Newton method on this smooth 2-parameter problem
+    (D. P. Bertsekas, "Projected Newton methods for optimization problems with simple constraints", SIAM J. Control
+    Optim. 20(2):221-246, 1982), with the analytic gradient and Hessian of :func:`_rice_nll_gradient_hessian`.
+
+    Each step: a parameter at a bound whose gradient points out of the box is held there; on the others the Newton
+    direction, with the Hessian's eigenvalues lifted to their magnitude (at least 1e-8 of the largest), so that a
+    saddle or concave region still gives a descent direction.  Far from the optimum (a lifted Hessian or a step
+    over 1e-6) the step is projected onto the box and halved until the Armijo condition holds (decrease at least
+    1e-4 of the first-order one).  Near it the full Newton step is taken: there the likelihood's rounding (about
+    1e-13 of its value) exceeds the decrease, and only the gradient still points the way.  Stops after a step of at
+    most 1e-9 (the next would move about its square).  The score in K vanishes at K = 0 for every sample, so where
+    the likelihood is largest at K = 0 Newton closes in on u = 0 only linearly (u shrinks by a third per step, the
+    likelihood being quartic in u there): once a step shrinks a small u (< 0.01) by a quarter or more, u = 0 itself
+    is tried and kept if its likelihood is not lower.  The optimum is the one scipy's L-BFGS-B finds from the same
+    start, to its tolerance (``tests/models/test_models_fading.py``).
+    """
+    lo = np.array([_U_BOUNDS[0], _S_BOUNDS[0]])
+    hi = np.array([_U_BOUNDS[1], _S_BOUNDS[1]])
+    x = np.clip(np.array([u0, s0], dtype=float), lo, hi)
+    r2_sum = float(np.sum(r * r))
+
+    def evaluate(at):
+        return _rice_nll_gradient_hessian(float(at[0]), float(at[1]), r2_sum, r)
+
+    f, g, h = evaluate(x)
+    for _ in range(max_iter):
+        held = ((x <= lo) & (g >= 0)) | ((x >= hi) & (g <= 0))   # at a bound, pushed outwards
+        free = ~held
+        if not free.any():
+            break
+        vals, vecs = np.linalg.eigh(h[np.ix_(free, free)])
+        lifted = bool(np.any(vals <= 0))
+        vals = np.maximum(np.abs(vals), 1e-8 * max(float(np.max(np.abs(vals))), 1e-300))
+        step = np.zeros(2)
+        step[free] = -(vecs @ ((vecs.T @ g[free]) / vals))
+        size = float(np.max(np.abs(step)))
+        if not lifted and size <= 1e-6:                  # quadratic region: the full step, no line search
+            x = np.clip(x + step, lo, hi)
+            if size <= 1e-9:
+                break
+            f, g, h = evaluate(x)
+            continue
+        if free[0] and 0.0 < x[0] < 0.01 and step[0] <= -0.25 * x[0]:   # closing in on K = 0: try it
+            at_zero = np.array([0.0, x[1]])
+            f0, g0, h0 = evaluate(at_zero)
+            if f0 <= f:
+                x, f, g, h = at_zero, f0, g0, h0
+                continue
+        t = 1.0
+        while True:
+            x_new = np.clip(x + t * step, lo, hi)
+            moved = x_new - x
+            f_new, g_new, h_new = evaluate(x_new)
+            if f_new <= f + 1e-4 * float(g @ moved):
+                break
+            t *= 0.5
+            if t < 1e-12:                                # no decrease left along this direction
+                return float(x[0]), float(x[1])
+        x, f, g, h = x_new, f_new, g_new, h_new
+    return float(x[0]), float(x[1])
+
+
 def rice_k_mle(envelope: ArrayLike) -> float:
     """Rice K (linear) by maximum likelihood over (K, Omega) of the Rice envelope density [1, §2.1.1].
 
-    L-BFGS-B with the analytic gradient over (sqrt(K), log Omega), K in [0, 10^4], started from the moment
-    estimate.  NaNs are ignored.
+    A projected Newton method with the analytic gradient and Hessian over (sqrt(K), log Omega), K in [0, 10^4],
+    started from the moment estimate (:func:`_rice_mle_newton`).  NaNs are ignored.
     """
     return fit_rice(envelope, method="mle").k_factor
 
@@ -238,11 +340,8 @@ def fit_rice(envelope: ArrayLike, method: str = "mle") -> RiceFit:
         rn = r / math.sqrt(scale)  # fit on unit mean power, rescale after
         u_start = math.sqrt(min(k0, 1e4)) if math.isfinite(k0) else 100.0
         # u = 0 is always a stationary point (the likelihood is even in u), so never start exactly there
-        from scipy import optimize
-
-        best = optimize.minimize(_rice_nll_and_gradient, np.array([max(u_start, 0.3), 0.0]), args=(rn * rn, rn),
-                                 jac=True, method="L-BFGS-B", bounds=[(0.0, 100.0), (-3.0, 3.0)])
-        k, omega = float(best.x[0]) ** 2, scale * math.exp(float(best.x[1]))  # K = u^2
+        u, s_log = _rice_mle_newton(rn, max(u_start, 0.3))
+        k, omega = u * u, scale * math.exp(s_log)  # K = u^2
     else:
         raise ValueError(f"method must be 'moments' or 'mle', not {method!r}")
     k_db = 10.0 * math.log10(k) if k > 0 else -math.inf
