@@ -9,7 +9,8 @@ import sys
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[2]
-HEAVY = ("matplotlib", "dask", "distributed", "pyarrow.dataset", "scipy.stats", "scipy.optimize", "streamlit")
+HEAVY = ("matplotlib", "dask", "distributed", "pyarrow.dataset", "pyarrow.parquet", "scipy.stats", "scipy.optimize",
+         "streamlit")
 
 _PROBE = """
 import json, sys
