@@ -169,14 +169,15 @@ def rice_cdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     return like_input(cdf, level_db, k_factor)
 
 
-_SERIES_MAX_K, _SERIES_MAX_Y = 50.0, 100.0   # where _ncx2_cdf_2dof sums its series (beyond: scipy.special.chndtr)
+_SERIES_MAX_K = 50.0   # _ncx2_cdf_2dof sums its series for nc/2 <= 50 below the mean (beyond: scipy.special.chndtr)
 
 
 def _ncx2_cdf_2dof(x: np.ndarray, nc: np.ndarray) -> np.ndarray:
     """``scipy.stats.ncx2.cdf(x, 2, nc)`` for nc > 0: 0 at or below 0, 1 at infinity, NaN for NaN; inside the
-    support, for nc/2 <= 50 and x/2 <= 100 (every Rice K and level an analysis meets in practice) the Poisson
-    mixture below, elsewhere ``scipy.special.chndtr`` (what ``ncx2.cdf`` calls; imported only then: scipy.special
-    costs about 0.15 s of CPU to import, scipy.stats about 0.35 s).
+    support, for nc/2 <= 50 and x at most the mean nc + 2 (for the Rice law: K <= 50, levels at or below the mean
+    power, which is all an analysis asks for) the Poisson mixture below, elsewhere ``scipy.special.chndtr`` (what
+    ``ncx2.cdf`` calls; imported only then: scipy.special costs about 0.15 s of CPU to import, scipy.stats about
+    0.35 s).  Above the mean the sum nears 1 and its rounding (a few ulps) would no longer keep it monotone.
 
     With y = x/2 and k = nc/2, a non-central chi-square of 2 degrees of freedom is a central one of 2 + 2J degrees,
     J ~ Poisson(k) [N. L. Johnson, S. Kotz, N. Balakrishnan, "Continuous Univariate Distributions", vol. 2, 2nd ed.,
@@ -190,7 +191,7 @@ def _ncx2_cdf_2dof(x: np.ndarray, nc: np.ndarray) -> np.ndarray:
     out[np.isnan(x)] = np.nan
     out[x == np.inf] = 1.0
     inside = (x > 0) & (x < np.inf)
-    summed = inside & (nc <= 2.0 * _SERIES_MAX_K) & (x <= 2.0 * _SERIES_MAX_Y)
+    summed = inside & (nc <= 2.0 * _SERIES_MAX_K) & (x <= nc + 2.0)
     if summed.any():
         y, k = 0.5 * x[summed], 0.5 * nc[summed]
         top = float(np.max(y + k))
@@ -313,9 +314,10 @@ def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 
     1e-13 of its value) exceeds the decrease, and only the gradient still points the way.  Stops after a step of at
     most 1e-9 (the next would move about its square).  The score in K vanishes at K = 0 for every sample, so where
     the likelihood is largest at K = 0 Newton closes in on u = 0 only linearly (u shrinks by a third per step, the
-    likelihood being quartic in u there): once a step shrinks a small u (< 0.01) by a quarter or more, u = 0 itself
-    is tried and kept if its likelihood is not lower.  The optimum is the one scipy's L-BFGS-B finds from the same
-    start, to its tolerance (``tests/models/test_models_fading.py``).
+    likelihood being quartic in u there): once a step shrinks a small u (< 0.01) by a quarter or more, or no step
+    from a small u decreases the likelihood any more, u = 0 itself is tried and kept if its likelihood is not lower
+    beyond rounding (1e-13 of its value; then only s moves).  The optimum is the one scipy's L-BFGS-B finds from the
+    same start, to its tolerance (``tests/models/test_models_fading.py``).
     """
     lo = np.array([_U_BOUNDS[0], _S_BOUNDS[0]])
     hi = np.array([_U_BOUNDS[1], _S_BOUNDS[1]])
@@ -324,6 +326,11 @@ def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 
 
     def evaluate(at):
         return _rice_nll_gradient_hessian(float(at[0]), float(at[1]), r2_sum, r)
+
+    def zero_if_not_worse(at, f_at):
+        zero = np.array([0.0, at[1]])
+        f0, g0, h0 = evaluate(zero)
+        return (zero, f0, g0, h0) if f0 <= f_at + 1e-13 * abs(f_at) else None   # not lower beyond rounding
 
     f, g, h = evaluate(x)
     for _ in range(max_iter):
@@ -343,11 +350,11 @@ def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 
                 break
             f, g, h = evaluate(x)
             continue
-        if free[0] and 0.0 < x[0] < 0.01 and step[0] <= -0.25 * x[0]:   # closing in on K = 0: try it
-            at_zero = np.array([0.0, x[1]])
-            f0, g0, h0 = evaluate(at_zero)
-            if f0 <= f:
-                x, f, g, h = at_zero, f0, g0, h0
+        near_zero = bool(free[0]) and 0.0 < x[0] < 0.01
+        if near_zero and step[0] <= -0.25 * x[0]:       # closing in on K = 0: try it
+            at_zero = zero_if_not_worse(x, f)
+            if at_zero is not None:
+                x, f, g, h = at_zero
                 continue
         t = 1.0
         while True:
@@ -357,8 +364,14 @@ def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 
             if f_new <= f + 1e-4 * float(g @ moved):
                 break
             t *= 0.5
-            if t < 1e-12:                                # no decrease left along this direction
-                return float(x[0]), float(x[1])
+            if t < 1e-12:
+                break
+        if t < 1e-12:                                    # no decrease left along this direction: done, unless
+            at_zero = zero_if_not_worse(x, f) if near_zero else None   # a flat likelihood still allows K = 0
+            if at_zero is None:
+                break
+            x, f, g, h = at_zero
+            continue
         x, f, g, h = x_new, f_new, g_new, h_new
     return float(x[0]), float(x[1])
 

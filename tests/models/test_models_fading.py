@@ -36,15 +36,16 @@ def test_rayleigh_against_scipy():
 
 def test_rice_cdf_is_scipy_ncx2_cdf():
     """rice_cdf_db evaluates scipy.stats.ncx2.cdf(x, 2, nc) (the reference library) without importing scipy.stats:
-    its own Poisson-mixture sum within 3e-15 relative where K <= 50 and (K + 1) x <= 100 (measured: at most 20 ulps),
-    scipy.special.chndtr beyond (the same bits), and exactly at and beyond the ends of the support (0, inf, NaN)."""
+    its own Poisson-mixture sum within 3e-15 relative where K <= 50 at levels up to the mean power (measured: at most
+    20 ulps), scipy.special.chndtr beyond (the same bits), and exactly at and beyond the ends of the support."""
     levels = np.concatenate([np.linspace(-60.0, 12.0, 145), [-400.0, 400.0, np.nan, -np.inf, np.inf]])
     for k in (1e-6, 0.01, 0.3, 1.0, 2.0, 4.0, 12.5, 30.0, 50.0, 300.0, 1e4):
         x = 10.0 ** (levels / 10.0)
         want = stats.ncx2.cdf(2.0 * (k + 1.0) * x, 2.0, 2.0 * k)
         with np.errstate(over="ignore"):
             got = fading.rice_cdf_db(levels, k)
-        summed = (k <= 50.0) & ((k + 1.0) * x <= 100.0) & (x > 0) & np.isfinite(x)
+        arg = 2.0 * (k + 1.0) * x
+        summed = (k <= 50.0) & (arg <= 2.0 * k + 2.0) & (x > 0) & np.isfinite(x)
         np.testing.assert_allclose(got[summed], want[summed], rtol=3e-15, atol=0)
         assert np.array_equal(got[~summed], want[~summed], equal_nan=True), k
     grid = fading.rice_cdf_db(np.array([[-10.0], [-3.0]]), np.array([0.0, 2.0, 8.0]))   # broadcast, K = 0 too
@@ -166,7 +167,7 @@ def test_mle_matches_scipy_lbfgsb(k, n):
                                             rn * rn, rn)[0]
         nll_ref = _rice_nll_and_gradient_reference(np.array([math.sqrt(k_ref), math.log(omega_ref / scale)]),
                                                 rn * rn, rn)[0]
-        assert nll <= nll_ref + 1e-11 * abs(nll_ref)
+        assert nll <= nll_ref + 1e-12 * n * (1.0 + k_ref)   # rounding of sums of n terms of size about 1 + K
         if k_ref > 1e-3:
             assert fit.k_factor == pytest.approx(k_ref, rel=1e-6)
             assert fit.mean_power == pytest.approx(omega_ref, rel=1e-6)
