@@ -310,7 +310,6 @@ def _worker_peak_mib(dask_worker=None) -> float:
 def _warm_up() -> None:
     """Import what a hop task needs (a fresh worker pays this once, a few seconds)."""
     import matplotlib.backends.backend_pdf  # noqa: F401
-    import scipy.optimize  # noqa: F401
 
     import diag.batch  # noqa: F401
     import diag.pipeline  # noqa: F401

@@ -16,6 +16,8 @@ References
     fading distribution", IEEE Commun. Lett. 5(3):92-94, 2001 (moment estimator from mu2 and mu4).
 [4] L. J. Greenstein, D. G. Michelson, V. Erceg, "Moment-method estimation of the Ricean K-factor",
     IEEE Commun. Lett. 3(6):175-176, 1999.
+[5] M. Abramowitz, I. A. Stegun, "Handbook of Mathematical Functions", 1964, §9.6-9.7 (modified Bessel
+    functions: ascending series 9.6.10, asymptotic expansion 9.7.1) [equation numbers from memory].
 """
 from __future__ import annotations
 
@@ -23,7 +25,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special  # scipy.optimize (and scipy.stats) are imported where used: slow to import
 
 from diag.models._util import ArrayLike, as_float_array, like_input
 
@@ -87,6 +88,62 @@ def _k_array(k_factor: ArrayLike) -> np.ndarray:
     return k
 
 
+_SERIES_UP_TO = 20.0   # |z| <= 20: ascending series (45 terms); above: the asymptotic expansion (30 terms)
+
+
+def _i0e_i1e(z: ArrayLike, order_one: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+    """Exponentially scaled modified Bessel functions e^-|z| I0(z) and e^-|z| I1(z) (the second only when
+    ``order_one``), numpy only (scipy.special, about 0.15 s of CPU to import, is then left out of an analysis).
+
+    |z| <= 20: the ascending series I_nu(z) = (z/2)^nu sum_k (z^2/4)^k / (k! (k + nu)!) [5, 9.6.10], 45 terms
+    (the last below 1e-17 of the sum at |z| = 20); beyond: the asymptotic expansion I_nu(z) ~ e^z / sqrt(2 pi z)
+    sum_k (-1)^k prod_{j<=k} (4 nu^2 - (2j - 1)^2) / (k! (8z)^k) [5, 9.7.1], 30 terms (the smallest term near
+    k = 2|z| is about e^-2|z| < 1e-17).  Agrees with scipy.special.i0e / i1e within 3e-15 relative
+    (tests/models/test_models_fading.py).  NaN gives NaN; +-inf gives 0.
+    """
+    z = np.asarray(z, dtype=float)
+    a = np.abs(z)
+    i0 = np.empty(a.shape)
+    i1 = np.empty(a.shape) if order_one else None
+    small = a <= _SERIES_UP_TO
+    x = a[small]
+    if x.size:
+        q = 0.25 * x * x
+        term0, sum0 = np.ones_like(x), np.ones_like(x)
+        term1 = 0.5 * x
+        sum1 = term1.copy()
+        for k in range(1, 45):
+            term0 = term0 * q / (k * k)
+            sum0 = sum0 + term0
+            if order_one:
+                term1 = term1 * q / (k * (k + 1))
+                sum1 = sum1 + term1
+        scale = np.exp(-x)
+        i0[small] = sum0 * scale
+        if order_one:
+            i1[small] = sum1 * scale
+    large = ~small
+    x = a[large]
+    if x.size:
+        inv_8x = 1.0 / (8.0 * x)
+        term0, sum0 = np.ones_like(x), np.ones_like(x)
+        term1, sum1 = np.ones_like(x), np.ones_like(x)
+        for k in range(1, 30):
+            odd_sq = (2 * k - 1) ** 2
+            term0 = term0 * (odd_sq * inv_8x / k)
+            sum0 = sum0 + term0
+            if order_one:
+                term1 = term1 * ((odd_sq - 4) * inv_8x / k)
+                sum1 = sum1 + term1
+        front = 1.0 / np.sqrt(2.0 * math.pi * x)
+        i0[large] = front * sum0
+        if order_one:
+            i1[large] = front * sum1
+    if order_one:
+        i1 = np.where(z < 0, -i1, i1)
+    return i0, i1
+
+
 def rice_pdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     """Density [1/dB] of the Rice-faded power in dB relative to its mean.
 
@@ -96,7 +153,7 @@ def rice_pdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     x = _power_ratio(level_db)
     k = _k_array(k_factor)
     z = 2.0 * np.sqrt(k * (k + 1.0) * x)
-    density_x = (k + 1.0) * np.exp(-k - (k + 1.0) * x + z) * special.i0e(z)  # Rice power pdf, I0 = i0e e^z
+    density_x = (k + 1.0) * np.exp(-k - (k + 1.0) * x + z) * _i0e_i1e(z, False)[0]  # Rice power pdf, I0 = i0e e^z
     return like_input(density_x * x * _LN10_OVER_10, level_db, k_factor)
 
 
@@ -112,16 +169,47 @@ def rice_cdf_db(level_db: ArrayLike, k_factor: ArrayLike) -> ArrayLike:
     return like_input(cdf, level_db, k_factor)
 
 
+_SERIES_MAX_K = 50.0   # _ncx2_cdf_2dof sums its series for nc/2 <= 50 below the mean (beyond: scipy.special.chndtr)
+
+
 def _ncx2_cdf_2dof(x: np.ndarray, nc: np.ndarray) -> np.ndarray:
-    """``scipy.stats.ncx2.cdf(x, 2, nc)`` for nc > 0, by its steps: ``scipy.special.chndtr`` inside the support,
-    0 at or below 0, 1 at infinity, NaN for NaN (the same bits without importing ``scipy.stats``, which costs about
-    0.35 s of CPU; checked in tests/models/test_models_fading.py)."""
+    """``scipy.stats.ncx2.cdf(x, 2, nc)`` for nc > 0: 0 at or below 0, 1 at infinity, NaN for NaN; inside the
+    support, for nc/2 <= 50 and x at most the mean nc + 2 (for the Rice law: K <= 50, levels at or below the mean
+    power, which is all an analysis asks for) the Poisson mixture below, elsewhere ``scipy.special.chndtr`` (what
+    ``ncx2.cdf`` calls; imported only then: scipy.special costs about 0.15 s of CPU to import, scipy.stats about
+    0.35 s).  Above the mean the sum nears 1 and its rounding (a few ulps) would no longer keep it monotone.
+
+    With y = x/2 and k = nc/2, a non-central chi-square of 2 degrees of freedom is a central one of 2 + 2J degrees,
+    J ~ Poisson(k) [N. L. Johnson, S. Kotz, N. Balakrishnan, "Continuous Univariate Distributions", vol. 2, 2nd ed.,
+    Wiley, 1995, ch. 29, eq. (29.2), from memory], and P(chi2 of 2j + 2 degrees <= x) = P(I >= j + 1) with
+    I ~ Poisson(y).  So the CDF is sum_{i>=1} P(I = i) P(J <= i - 1): positive terms only, no cancellation in either
+    tail; summed until i = y + k + 12 sqrt(y + k) + 40 (the rest below 1e-17 of the sum).  Within 3e-15 relative
+    of scipy's bits (tests/models/test_models_fading.py).
+    """
     x, nc = np.broadcast_arrays(np.asarray(x, dtype=float), np.asarray(nc, dtype=float))
     out = np.zeros(x.shape)
     out[np.isnan(x)] = np.nan
     out[x == np.inf] = 1.0
     inside = (x > 0) & (x < np.inf)
-    out[inside] = special.chndtr(x[inside], 2.0, nc[inside])
+    summed = inside & (nc <= 2.0 * _SERIES_MAX_K) & (x <= nc + 2.0)
+    if summed.any():
+        y, k = 0.5 * x[summed], 0.5 * nc[summed]
+        top = float(np.max(y + k))
+        p_i = np.exp(-y)             # P(I = i), I ~ Poisson(y), from i = 0
+        q_j = np.exp(-k)             # P(J = j), J ~ Poisson(k), from j = 0
+        below = q_j.copy()           # P(J <= i - 1)
+        total = np.zeros(y.shape)
+        for i in range(1, int(top + 12.0 * math.sqrt(top) + 40.0) + 1):
+            p_i = p_i * y / i
+            total = total + p_i * below
+            q_j = q_j * k / i
+            below = below + q_j
+        out[summed] = total
+    rest = inside & ~summed
+    if rest.any():
+        from scipy import special
+
+        out[rest] = special.chndtr(x[rest], 2.0, nc[rest])
     return out
 
 
@@ -169,34 +257,130 @@ def rice_k_moments(envelope: ArrayLike) -> float:
     return s / (mu2 - s)
 
 
-def _rice_nll_and_gradient(params: np.ndarray, r2: np.ndarray, r: np.ndarray) -> tuple:
-    """Negative log-likelihood of Rice envelope samples and its gradient, in (u, s) with K = u^2, Omega = e^s.
+def _rice_nll_gradient_hessian(u: float, s_log: float, r2_sum: float, r: np.ndarray) -> tuple:
+    """Negative log-likelihood of Rice envelope samples ``r``, its gradient and its Hessian in (u, s), K = u^2,
+    Omega = e^s (``r2_sum`` = sum r^2).
 
     Per sample, dropping constants: l = log(K+1) - s - (K+1) r^2 e^(-s) - K + log I0(z), z = 2 r sqrt(K(K+1)/Omega)
-    [1, §2.1.1: f(r) = 2r(K+1)/Omega exp(-K - (K+1) r^2/Omega) I0(z)].  d log I0/dz = I1/I0.  The u = sqrt(K)
-    parameterisation keeps z smooth at K = 0.
+    [1, §2.1.1: f(r) = 2r(K+1)/Omega exp(-K - (K+1) r^2/Omega) I0(z)].  The u = sqrt(K) parameterisation keeps z
+    smooth at K = 0.
+
+    With c = 2 u sqrt(1 + u^2) e^(-s/2) every sample's Bessel argument is z = c r, so the log-likelihood is
+    A(u, s) + G(c) with A = n (log(1 + u^2) - s - u^2) - (1 + u^2) e^(-s) sum r^2 and G(c) = sum log I0(c r).
+    G' = sum r R(z), G'' = sum r^2 R'(z) with R = I1/I0 and R' = 1 - R/z - R^2 (R'(0) = 1/2), from
+    I0' = I1 and I1' = I0 - I1/z [Abramowitz & Stegun 9.6.27, from memory]; the chain rule does the rest.
     """
-    u, s_log = float(params[0]), float(params[1])
-    k = u * u
-    inv_omega = math.exp(-s_log)
-    root = math.sqrt(k * (k + 1.0) * inv_omega)
-    z = 2.0 * r * root
-    i0e = special.i0e(z)
-    ratio = special.i1e(z) / i0e  # I1(z)/I0(z)
     n = r.size
-    sum_r2 = float(np.sum(r2))
-    ll = n * (math.log(k + 1.0) - s_log - k) - (k + 1.0) * sum_r2 * inv_omega + float(np.sum(np.log(i0e) + z))
-    dz_du = 2.0 * r * (2.0 * k + 1.0) * math.sqrt(inv_omega / (k + 1.0))  # dz/du
-    d_u = n * (2.0 * u / (k + 1.0) - 2.0 * u) - 2.0 * u * sum_r2 * inv_omega + float(np.sum(ratio * dz_du))
-    d_s = -n + (k + 1.0) * sum_r2 * inv_omega - float(np.sum(ratio * z)) / 2.0
-    return -ll, -np.array([d_u, d_s])
+    k = u * u
+    e_s = math.exp(-s_log)
+    root_k1 = math.sqrt(k + 1.0)
+    half = math.exp(-0.5 * s_log)
+    c = 2.0 * u * root_k1 * half
+    c_u = 2.0 * half * (2.0 * k + 1.0) / root_k1
+    c_uu = 2.0 * half * u * (2.0 * k + 3.0) / (root_k1 * root_k1 * root_k1)
+    z = c * r
+    i0e, i1e = _i0e_i1e(z)
+    ratio = i1e / i0e                                        # R(z) = I1(z)/I0(z)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d_ratio = np.where(z > 0, 1.0 - ratio / z - ratio * ratio, 0.5)   # R'(z)
+    g0 = float(np.sum(np.log(i0e) + z))                      # G(c) = sum log I0(z)
+    g1 = float(np.sum(r * ratio))                            # G'(c)
+    g2 = float(np.sum(r * r * d_ratio))                      # G''(c)
+    se = r2_sum * e_s
+    ll = n * (math.log(k + 1.0) - s_log - k) - (k + 1.0) * se + g0
+    ll_u = n * (2.0 * u / (k + 1.0) - 2.0 * u) - 2.0 * u * se + g1 * c_u
+    ll_s = -n + (k + 1.0) * se - 0.5 * g1 * c
+    ll_uu = n * (2.0 * (1.0 - k) / ((k + 1.0) * (k + 1.0)) - 2.0) - 2.0 * se + g2 * c_u * c_u + g1 * c_uu
+    ll_us = 2.0 * u * se - 0.5 * (g2 * c * c_u + g1 * c_u)
+    ll_ss = -(k + 1.0) * se + 0.25 * (g2 * c * c + g1 * c)
+    return -ll, np.array([-ll_u, -ll_s]), np.array([[-ll_uu, -ll_us], [-ll_us, -ll_ss]])
+
+
+_U_BOUNDS = (0.0, 100.0)     # u = sqrt(K): K in [0, 10^4]
+_S_BOUNDS = (-3.0, 3.0)      # s = log Omega on unit mean power: Omega within e^-3 .. e^3 of the sample mean power
+
+
+def _rice_mle_newton(r: np.ndarray, u0: float, s0: float = 0.0, max_iter: int = 200) -> tuple[float, float]:
+    """Maximum-likelihood (u, s) of unit-mean-power Rice envelope samples ``r`` (K = u^2, Omega = e^s) in the box
+    u in [0, 100], s in [-3, 3], started from (u0, s0): a projected Newton method on this smooth 2-parameter problem
+    (D. P. Bertsekas, "Projected Newton methods for optimization problems with simple constraints", SIAM J. Control
+    Optim. 20(2):221-246, 1982), with the analytic gradient and Hessian of :func:`_rice_nll_gradient_hessian`.
+
+    Each step: a parameter at a bound whose gradient points out of the box is held there; on the others the Newton
+    direction, with the Hessian's eigenvalues lifted to their magnitude (at least 1e-8 of the largest), so that a
+    saddle or concave region still gives a descent direction.  Far from the optimum (a lifted Hessian or a step
+    over 1e-6) the step is projected onto the box and halved until the Armijo condition holds (decrease at least
+    1e-4 of the first-order one).  Near it the full Newton step is taken: there the likelihood's rounding (about
+    1e-13 of its value) exceeds the decrease, and only the gradient still points the way.  Stops after a step of at
+    most 1e-9 (the next would move about its square).  The score in K vanishes at K = 0 for every sample, so where
+    the likelihood is largest at K = 0 Newton closes in on u = 0 only linearly (u shrinks by a third per step, the
+    likelihood being quartic in u there): once a step shrinks a small u (< 0.01) by a quarter or more, or no step
+    from a small u decreases the likelihood any more, u = 0 itself is tried and kept if its likelihood is not lower
+    beyond rounding (1e-13 of its value; then only s moves).  The optimum is the one scipy's L-BFGS-B finds from the
+    same start, to its tolerance (``tests/models/test_models_fading.py``).
+    """
+    lo = np.array([_U_BOUNDS[0], _S_BOUNDS[0]])
+    hi = np.array([_U_BOUNDS[1], _S_BOUNDS[1]])
+    x = np.clip(np.array([u0, s0], dtype=float), lo, hi)
+    r2_sum = float(np.sum(r * r))
+
+    def evaluate(at):
+        return _rice_nll_gradient_hessian(float(at[0]), float(at[1]), r2_sum, r)
+
+    def zero_if_not_worse(at, f_at):
+        zero = np.array([0.0, at[1]])
+        f0, g0, h0 = evaluate(zero)
+        return (zero, f0, g0, h0) if f0 <= f_at + 1e-13 * abs(f_at) else None   # not lower beyond rounding
+
+    f, g, h = evaluate(x)
+    for _ in range(max_iter):
+        held = ((x <= lo) & (g >= 0)) | ((x >= hi) & (g <= 0))   # at a bound, pushed outwards
+        free = ~held
+        if not free.any():
+            break
+        vals, vecs = np.linalg.eigh(h[np.ix_(free, free)])
+        lifted = bool(np.any(vals <= 0))
+        vals = np.maximum(np.abs(vals), 1e-8 * max(float(np.max(np.abs(vals))), 1e-300))
+        step = np.zeros(2)
+        step[free] = -(vecs @ ((vecs.T @ g[free]) / vals))
+        size = float(np.max(np.abs(step)))
+        if not lifted and size <= 1e-6:                  # quadratic region: the full step, no line search
+            x = np.clip(x + step, lo, hi)
+            if size <= 1e-9:
+                break
+            f, g, h = evaluate(x)
+            continue
+        near_zero = bool(free[0]) and 0.0 < x[0] < 0.01
+        if near_zero and step[0] <= -0.25 * x[0]:       # closing in on K = 0: try it
+            at_zero = zero_if_not_worse(x, f)
+            if at_zero is not None:
+                x, f, g, h = at_zero
+                continue
+        t = 1.0
+        while True:
+            x_new = np.clip(x + t * step, lo, hi)
+            moved = x_new - x
+            f_new, g_new, h_new = evaluate(x_new)
+            if f_new <= f + 1e-4 * float(g @ moved):
+                break
+            t *= 0.5
+            if t < 1e-12:
+                break
+        if t < 1e-12:                                    # no decrease left along this direction: done, unless
+            at_zero = zero_if_not_worse(x, f) if near_zero else None   # a flat likelihood still allows K = 0
+            if at_zero is None:
+                break
+            x, f, g, h = at_zero
+            continue
+        x, f, g, h = x_new, f_new, g_new, h_new
+    return float(x[0]), float(x[1])
 
 
 def rice_k_mle(envelope: ArrayLike) -> float:
     """Rice K (linear) by maximum likelihood over (K, Omega) of the Rice envelope density [1, §2.1.1].
 
-    L-BFGS-B with the analytic gradient over (sqrt(K), log Omega), K in [0, 10^4], started from the moment
-    estimate.  NaNs are ignored.
+    A projected Newton method with the analytic gradient and Hessian over (sqrt(K), log Omega), K in [0, 10^4],
+    started from the moment estimate (:func:`_rice_mle_newton`).  NaNs are ignored.
     """
     return fit_rice(envelope, method="mle").k_factor
 
@@ -238,11 +422,8 @@ def fit_rice(envelope: ArrayLike, method: str = "mle") -> RiceFit:
         rn = r / math.sqrt(scale)  # fit on unit mean power, rescale after
         u_start = math.sqrt(min(k0, 1e4)) if math.isfinite(k0) else 100.0
         # u = 0 is always a stationary point (the likelihood is even in u), so never start exactly there
-        from scipy import optimize
-
-        best = optimize.minimize(_rice_nll_and_gradient, np.array([max(u_start, 0.3), 0.0]), args=(rn * rn, rn),
-                                 jac=True, method="L-BFGS-B", bounds=[(0.0, 100.0), (-3.0, 3.0)])
-        k, omega = float(best.x[0]) ** 2, scale * math.exp(float(best.x[1]))  # K = u^2
+        u, s_log = _rice_mle_newton(rn, max(u_start, 0.3))
+        k, omega = u * u, scale * math.exp(s_log)  # K = u^2
     else:
         raise ValueError(f"method must be 'moments' or 'mle', not {method!r}")
     k_db = 10.0 * math.log10(k) if k > 0 else -math.inf
@@ -295,7 +476,7 @@ def rice_level_crossing_rate_hz(level_db: ArrayLike, k_factor: ArrayLike, dopple
     fm = as_float_array(doppler_hz)
     z = 2.0 * rho * np.sqrt(k * (k + 1.0))
     rate = (np.sqrt(2.0 * math.pi * (k + 1.0)) * fm * rho
-            * np.exp(-k - (k + 1.0) * rho * rho + z) * special.i0e(z))  # N_R, I0 = i0e e^z
+            * np.exp(-k - (k + 1.0) * rho * rho + z) * _i0e_i1e(z, False)[0])  # N_R, I0 = i0e e^z
     return like_input(rate, level_db, k_factor, doppler_hz)
 
 

@@ -104,3 +104,15 @@ def test_theil_sen_refuses_what_it_cannot_fit():
         theil_sen(np.array([1.0, np.nan]), np.array([0.0, 1.0]))
     with pytest.raises(ValueError):
         theil_sen(np.array([1.0, 2.0]), np.array([3.0, 3.0]))
+
+
+def test_theil_sen_normal_quantiles_are_scipy_ndtri_bit_for_bit():
+    """The kept lower-tail quantiles (no scipy.special import in an analysis) against scipy.special.ndtri, the
+    reference library, for the alpha theil_sen is asked with (0.95, given as 0.95 or as 0.05)."""
+    from scipy.special import ndtri
+
+    from diag.numeric import _NORMAL_QUANTILE
+
+    assert (1.0 - 0.95) / 2.0 in _NORMAL_QUANTILE
+    for half, z in _NORMAL_QUANTILE.items():
+        assert z == float(ndtri(half)) and type(z) is float
