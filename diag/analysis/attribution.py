@@ -380,6 +380,13 @@ def term_gauge(row, link: Link, prior: HopPrior):
 # share of the hops at nearness weight 1 that a rain fade on this path also fades by 3 dB or more beyond their own
 # chance rate (rain cells of a few km against CORRELATION_KM; stated, from memory, not fitted)
 NETWORK_SHARED_RAIN = 0.3
+# rain on a path for T hours is advected over tens of km (cells move at 3-8 m/s: common practice, from memory), so
+# the near hops it should have touched grow with T: 0.3 W (1 + T / 1 h).  The bound of the resulting evidence, and
+# the per-hour growth, were chosen LEAVE-ONE-LINK-OUT on the 141 real OpenRainER links among five candidates (per
+# hour 0 / 1, bound 3 / 6 / 10; loss = missed wet share + dry rain share of the other 140 links): bound 10 in 140 of
+# the 141 folds, 6 in one; the left-out links scored so: wet faded minutes called rain 93.0 %, dry 5.5 % (2026-12-05)
+NETWORK_SILENCE_PER_HOUR = 1.0
+NETWORK_SILENCE_MAX = 10.0
 
 
 def term_network(row, link: Link, prior: HopPrior):
@@ -392,7 +399,8 @@ def term_network(row, link: Link, prior: HopPrior):
     much as under rain).  Up to +2 for rain at an excess of 0.2 or more, scaled by the weight of the hops that
     faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops).  When three
     or more other hops were watched and no more faded than chance: -``NETWORK_SHARED_RAIN`` x the watched nearness
-    weight (``network_weight``), bounded to -0.3..-3, where the links table gives site coordinates (else -0.3)."""
+    weight (``network_weight``) x (1 + ``NETWORK_SILENCE_PER_HOUR`` x the fade's hours: long rain sweeps a wider area),
+    bounded to -0.3..-``NETWORK_SILENCE_MAX``, where the links table gives site coordinates (else -0.3)."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
@@ -408,7 +416,10 @@ def term_network(row, link: Link, prior: HopPrior):
         # lies, and their silence says little about rain on this path (the flat -0.3)
         watched = _f(row.get("network_weight"))
         placed = midpoint(link) is not None and math.isfinite(watched)
-        s = _clip(NETWORK_SHARED_RAIN * watched, 0.3, 3.0) if placed else 0.3
+        hours = max(_f(row.get("duration_s")), 0.0) / 3600.0
+        hours = hours if math.isfinite(hours) else 0.0
+        s = (_clip(NETWORK_SHARED_RAIN * watched * (1.0 + NETWORK_SILENCE_PER_HOUR * hours), 0.3, NETWORK_SILENCE_MAX)
+             if placed else 0.3)
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
                 f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
         return _v(-s, 0.0, 0.0), text

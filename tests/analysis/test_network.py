@@ -135,9 +135,14 @@ def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
     vec, text = A.term_network(dry, link, prior)
     assert vec[A.R] == pytest.approx(-0.3) and "no more than chance (12%)" in text
     # the more near hops were watched, the less likely rain on this path spared them all (Poisson, about
-    # NETWORK_SHARED_RAIN of each unit of nearness weight should have faded): -0.3 x 9 = -2.7, bounded to -3
+    # NETWORK_SHARED_RAIN of each unit of nearness weight should have faded): -0.3 x 9 = -2.7 for a short fade;
+    # rain lasting T hours is advected over a wider area, so (1 + T / 1 h) times that, bounded to -10
     assert A.term_network({**dry, "network_weight": 9.0}, link, prior)[0][A.R] == pytest.approx(-0.3 * 9.0)
-    assert A.term_network({**dry, "network_weight": 40.0}, link, prior)[0][A.R] == pytest.approx(-3.0)
+    assert A.term_network({**dry, "network_weight": 9.0, "duration_s": 7200.0}, link, prior)[0][A.R] == \
+        pytest.approx(-0.3 * 9.0 * 3.0)
+    assert A.term_network({**dry, "network_weight": 9.0, "duration_s": 6 * 3600.0}, link, prior)[0][A.R] == \
+        pytest.approx(-A.NETWORK_SILENCE_MAX)
+    assert A.term_network({**dry, "network_weight": 40.0}, link, prior)[0][A.R] == pytest.approx(-10.0)
     assert A.term_network({**dry, "network_weight": 0.5}, link, prior)[0][A.R] == pytest.approx(-0.3)
     # without site coordinates the watched hops may lie anywhere: their silence weighs the former flat -0.3
     unplaced = _link("U")
