@@ -261,6 +261,30 @@ def _midpoint(meta_row) -> tuple[float, float]:
             (float(meta_row["site_0_lon"]) + float(meta_row["site_1_lon"])) / 2)
 
 
+def _channel_faded(part: pd.DataFrame) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """One channel's rows of the 1-min log: (its minutes, the faded flag of each, :func:`_faded`)."""
+    from diag import schema as S
+
+    rsl_rows = part[part[S.QUANTITY] == S.RSL]
+    rsl = pd.Series(np.where(rsl_rows[S.STATUS] == S.SIGNAL_LOST, FLOOR_DBM - 4.0, rsl_rows[S.VALUE]),
+                    index=pd.DatetimeIndex(rsl_rows[S.TIME])).sort_index()
+    rsl = rsl[~rsl.index.duplicated()].asfreq("1min")
+    tsl_rows = part[part[S.QUANTITY] == S.TSL]
+    tsl = (pd.Series(tsl_rows[S.VALUE].to_numpy(), index=pd.DatetimeIndex(tsl_rows[S.TIME])).sort_index()
+           if len(tsl_rows) else None)
+    if tsl is not None:
+        tsl = tsl[~tsl.index.duplicated()]
+    minutes, faded, _ = _faded(rsl, tsl)
+    return minutes, faded
+
+
+def _frame_at(series, minutes: pd.DatetimeIndex) -> pd.DataFrame:
+    """The analysed grid read at each minute: an interval-statistics grid gives each minute its interval's row."""
+    if series.kind == "stats":
+        return series.frame.reindex(minutes, method="ffill", tolerance=pd.Timedelta(seconds=series.interval_s - 1))
+    return series.frame.reindex(minutes)
+
+
 def count_link(data_item, result, network: GaugeNetwork | None = None) -> Count:
     table, link, gauge, meta_row = data_item
     from diag import schema as S
@@ -269,25 +293,14 @@ def count_link(data_item, result, network: GaugeNetwork | None = None) -> Count:
     events = result.events
     dur = events["duration_s"].to_numpy(dtype=float) if len(events) else np.zeros(0)
     for ch in sorted(set(table[S.CHANNEL].astype(str))):
-        part = table[table[S.CHANNEL].astype(str) == ch]
-        rsl_rows = part[(part[S.QUANTITY] == S.RSL)]
-        rsl = pd.Series(np.where(rsl_rows[S.STATUS] == S.SIGNAL_LOST, FLOOR_DBM - 4.0, rsl_rows[S.VALUE]),
-                        index=pd.DatetimeIndex(rsl_rows[S.TIME])).sort_index()
-        rsl = rsl[~rsl.index.duplicated()].asfreq("1min")
-        tsl_rows = part[(part[S.QUANTITY] == S.TSL)]
-        tsl = (pd.Series(tsl_rows[S.VALUE].to_numpy(), index=pd.DatetimeIndex(tsl_rows[S.TIME])).sort_index()
-               if len(tsl_rows) else None)
-        if tsl is not None:
-            tsl = tsl[~tsl.index.duplicated()]
-        minutes, faded, _ = _faded(rsl, tsl)
+        minutes, faded = _channel_faded(table[table[S.CHANNEL].astype(str) == ch])
         wet, dry = _wet_dry(minutes, gauge)
         series = result.series.get(ch)
         if series is None:
             called = np.zeros(minutes.size, dtype=bool)
             thumb = called
         else:
-            fr = series.frame.reindex(minutes, method="ffill", tolerance=pd.Timedelta(seconds=series.interval_s - 1)) \
-                if series.kind == "stats" else series.frame.reindex(minutes)
+            fr = _frame_at(series, minutes)
             called = (fr["cause"].astype(str) == "rain").to_numpy()
             eid = fr["event_id"].fillna(-1).to_numpy(dtype=np.int64)
             thumb = np.zeros(minutes.size, dtype=bool)
@@ -373,23 +386,11 @@ def _minute_causes(data_item, result) -> dict:
     table = data_item[0]
     out = {}
     for ch in sorted(set(table[S.CHANNEL].astype(str))):
-        part = table[table[S.CHANNEL].astype(str) == ch]
-        rsl_rows = part[part[S.QUANTITY] == S.RSL]
-        rsl = pd.Series(np.where(rsl_rows[S.STATUS] == S.SIGNAL_LOST, FLOOR_DBM - 4.0, rsl_rows[S.VALUE]),
-                        index=pd.DatetimeIndex(rsl_rows[S.TIME])).sort_index()
-        rsl = rsl[~rsl.index.duplicated()].asfreq("1min")
-        tsl_rows = part[part[S.QUANTITY] == S.TSL]
-        tsl = (pd.Series(tsl_rows[S.VALUE].to_numpy(), index=pd.DatetimeIndex(tsl_rows[S.TIME])).sort_index()
-               if len(tsl_rows) else None)
-        if tsl is not None:
-            tsl = tsl[~tsl.index.duplicated()]
-        minutes, faded, _ = _faded(rsl, tsl)
         series = result.series.get(ch)
         if series is None:
             continue
-        fr = (series.frame.reindex(minutes, method="ffill", tolerance=pd.Timedelta(seconds=series.interval_s - 1))
-              if series.kind == "stats" else series.frame.reindex(minutes))
-        out[ch] = (minutes, faded, fr["cause"].astype(str).to_numpy())
+        minutes, faded = _channel_faded(table[table[S.CHANNEL].astype(str) == ch])
+        out[ch] = (minutes, faded, _frame_at(series, minutes)["cause"].astype(str).to_numpy())
     return out
 
 
