@@ -188,16 +188,24 @@ def term_slow(row, link: Link, prior: HopPrior):
     refraction), which then is the larger contributor most of the time.  Against multipath, 1 per ``SLOW_SCALE_DB``
     of excess, bounded to ``SLOW_MAX`` (weight 1, not fitted; the bound was chosen on family B fit seeds 1-50 among
     3 / 6 / 10); samples only (the interval statistics are judged by :func:`term_spread`)."""
-    if _sampling(row) == "stats":
+    excess = _slow_excess_db(row)
+    if not excess > 0.0:
         return None
+    s = _clip(excess / SLOW_SCALE_DB, 0.0, SLOW_MAX)
     dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
-    if not (math.isfinite(mean) and dur >= SLOW_MIN_S):
-        return None
-    s = _clip((mean - RAYLEIGH_LOG_MEAN_DB - SLOW_MARGIN_DB) / SLOW_SCALE_DB, 0.0, SLOW_MAX)
-    if s <= 0.0:
-        return None
     text = f"mean fade {mean:.1f} dB over the {duration_word(dur)} fade (flat fading alone: under 2.5 dB)"
     return _v(0.0, -s, 0.0), text
+
+
+def _slow_excess_db(row) -> float:
+    """How far the mean fade of a long sampled event lies beyond flat fading's own (Rayleigh log-mean bias plus
+    ``SLOW_MARGIN_DB``) [dB]; NaN for interval statistics or an event shorter than ``SLOW_MIN_S``."""
+    if _sampling(row) == "stats":
+        return math.nan
+    dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
+    if not (math.isfinite(mean) and dur >= SLOW_MIN_S):
+        return math.nan
+    return mean - RAYLEIGH_LOG_MEAN_DB - SLOW_MARGIN_DB
 
 
 def _slow_depth(row) -> float:
@@ -205,13 +213,10 @@ def _slow_depth(row) -> float:
     of a long fine- or coarse-sampled event that flat fading alone cannot give (:func:`term_slow`) and whose
     fluctuation or sample-to-sample change argues for multipath (:func:`term_fast`, :func:`term_variability`, which
     read only the row), else NaN (the peak is used)."""
-    if _sampling(row) == "stats":
-        return math.nan
-    dur, mean = _f(row.get("duration_s")), _f(row.get("mean_fade_db"))
-    if not (math.isfinite(mean) and dur >= SLOW_MIN_S and mean > RAYLEIGH_LOG_MEAN_DB + SLOW_MARGIN_DB):
+    if not _slow_excess_db(row) > 0.0:
         return math.nan
     fast = term_fast(row, None, None) or term_variability(row, None, None)
-    return mean if fast is not None and fast[0][M] > 0 else math.nan
+    return _f(row.get("mean_fade_db")) if fast is not None and fast[0][M] > 0 else math.nan
 
 
 def term_polarisation(row, link: Link, prior: HopPrior):
