@@ -183,3 +183,26 @@ def test_receive_level_held_still_by_atpc_is_no_dead_receiver():
            "kind": "samples"}
     assert _equipment({**row, "tsl_rise_db": 0.0})[0] == "signal_loss"
     assert _equipment({**row, "tsl_rise_db": 16.2}) is None
+
+
+def test_temporary_step_in_interval_statistics_is_equipment(hops):
+    """Rule 1d (diag.analysis.classify._stats_step): an antenna knocked 6 dB out of line for 3 h and set right again,
+    seen only as 15-min min/avg/max.  The edges fall inside intervals (rule 1b cannot see them), but the level holds
+    within a few tenths of a dB for hours with a clear-air spread, which no rain, refractive or multipath fade does
+    (common practice).  Controls: a 3-h widespread rain of the same depth and a multipath night, both seen the same
+    way, are not called level shifts."""
+    def stats_of(effects, seed):
+        spec = LinkSpec(link_id="C-STEP-15", frequency_ghz=18.0, length_km=8.0, polarization="V",
+                        threshold_dbm=-75.0, nominal_dbm=-40.0, duration_s=24 * H, effects=tuple(effects))
+        sim = hops.sim(spec, seed)
+        return sim, analyze_link(aggregate_statistics(sim.table, interval_s=900.0,
+                                                      floor_dbm=sim.spec.floor_value_dbm), sim.link)
+    sim, result = stats_of([Effect("level_shift", 8 * H, 3 * H, {"step_db": 6.0})], seed=5)
+    step = result.events[result.events["evidence"].str.contains("held within")]
+    assert len(step) == 1 and step["cause"].iloc[0] == S.LEVEL_SHIFT, list(result.events["evidence"])
+    assert 2.5 * H <= step["duration_s"].iloc[0] <= 3.75 * H
+    for effect in (Effect("rain", 8 * H, 3 * H, {"peak_mmh": 12.0}),
+                   Effect("multipath", 2 * H, 5 * H, {"k_min": 0.0, "fade_rate_hz": 0.05})):
+        _, control = stats_of([effect], seed=5)
+        assert len(control.events), effect.kind
+        assert not (control.events["cause"] == S.LEVEL_SHIFT).any(), list(control.events["evidence"])
