@@ -206,3 +206,18 @@ def test_temporary_step_in_interval_statistics_is_equipment(hops):
         _, control = stats_of([effect], seed=5)
         assert len(control.events), effect.kind
         assert not (control.events["cause"] == S.LEVEL_SHIFT).any(), list(control.events["evidence"])
+
+
+def test_one_abrupt_edge_and_a_held_level_is_a_step():
+    # rule 1b, one edge (diag.analysis.classify._step): the level drops 6.5 dB between two 1-min samples and holds
+    # within 0.2 dB for two hours until the record ends (the other edge unseen).  Rain and refraction build up over
+    # minutes and wander; multipath fluctuates all along (common practice), so this is an antenna or equipment step.
+    # Controls: the same drop held only 20 min, or wandering 1.5 dB (a fade), stays with the propagation posterior
+    from diag.analysis.classify import _equipment
+    row = {"event_kind": "fade", "kind": "samples", "interval_s": 60.0, "duration_s": 7200.0, "peak_fade_db": 7.0,
+           "peak_fade_db_finite": 7.0, "jump_in_db": 6.5, "jump_out_db": float("nan"), "flat_std_db": 0.2,
+           "floor_fraction": 0.0, "pre_floor_fade_db": float("nan"), "near_floor_fraction": 0.0}
+    got = _equipment(row)
+    assert got is not None and got[0] == S.LEVEL_SHIFT and "down 6.5 dB" in got[2]
+    assert _equipment({**row, "duration_s": 1200.0}) is None
+    assert _equipment({**row, "flat_std_db": 1.5}) is None
