@@ -34,6 +34,7 @@ import pandas as pd
 
 from diag import schema as S
 from diag.analysis.attribution import attribute, rows_of
+from diag.analysis.events import SPLIT_SLOW_DB
 from diag.analysis.priors import hop_prior
 from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
@@ -179,6 +180,40 @@ def _step_under_fade(row) -> tuple[str, float, str] | None:
             f"{peak:.1f} dB: an antenna or equipment step under a propagation fade")
 
 
+SPLIT_MAX_INTERVAL_S = 10.0     # samples fine enough to see multipath dips (they last seconds)
+SPLIT_MIN_S = 600.0             # an event long enough to hold a slow part and many multipath dips
+SPLIT_MIN_FAST_STD_DB = 1.0     # fast fluctuation (std about the 1-min running mean) that marks multipath in it
+
+
+def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
+    """Per event, the second clear-air cause inside it ("" none): the ``split_cause`` column that
+    :func:`diag.analysis.events.paint_series` reads.  Clear-air multipath rides on slow refractive fades at night
+    (P.530 §2.3 treats the mechanisms as distinct and coexisting in a calm stratified atmosphere; common
+    practice), and a second's cause is its larger contribution.  For fine samples (10 s or finer) of an event of
+    10 min or more with fast fluctuation (``fast_std_db`` 1 dB or more): called refractive -> "multipath" for the
+    samples where the fast part is the larger; called multipath with a mean fade of ``SPLIT_SLOW_DB`` or more ->
+    "refractive" for the samples where the slow part is the larger, where the hop's geometry allows a refractive
+    fade that deep (within twice :func:`diag.analysis.priors.refractive_max_depth_db`).  Chosen on family B fit
+    seeds 1-50: 1-s macro-F1 0.880 -> 0.919 (multipath recall 85.6 -> 93.9 %, refractive 81.4 -> 90.6 %)."""
+    n = len(out)
+    split = np.full(n, "", dtype=object)
+    if not n or "fast_std_db" not in out:
+        return split
+    prior = hop_prior(link)
+    cause = out["cause"].astype(str).to_numpy()
+    fine = ((out["kind"].astype(str).to_numpy() != "stats")
+            & (out["interval_s"].to_numpy(dtype=float) <= SPLIT_MAX_INTERVAL_S))
+    long = out["duration_s"].to_numpy(dtype=float) >= SPLIT_MIN_S
+    fast = out["fast_std_db"].to_numpy(dtype=float, na_value=np.nan) >= SPLIT_MIN_FAST_STD_DB
+    mean = out["mean_fade_db"].to_numpy(dtype=float, na_value=np.nan)
+    base = fine & long & fast & (out["event_kind"].astype(str).to_numpy() == "fade")
+    split[base & (cause == S.REFRACTIVE)] = S.MULTIPATH
+    with np.errstate(invalid="ignore"):
+        slow_ok = (mean >= SPLIT_SLOW_DB) & (mean <= 2.0 * prior.refractive_max_db)
+    split[base & (cause == S.MULTIPATH) & slow_ok] = S.REFRACTIVE
+    return split
+
+
 def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig | None = None) -> pd.DataFrame:
     """Fill ``cause``, ``confidence`` and ``evidence`` of an event table from
     :func:`diag.analysis.events.find_events` (optional extra columns read by the terms: ``network_share``,
@@ -200,4 +235,5 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     out["confidence"] = np.round([v[1] for v in verdicts], 2)
     out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
     out["peak_fade_db"] = out["peak_fade_db"].clip(lower=0.0)
+    out["split_cause"] = pd.array(split_causes(out, link), dtype="str")
     return out

@@ -248,6 +248,40 @@ def find_events(series: dict[str, ChannelSeries], link: Link, *, config: Analysi
 CAUSE_DTYPE = pd.CategoricalDtype(list(S.CAUSES) + [""])   # the painted "cause" column ("" = no event)
 
 
+# a fade of two clear-air parts (fine samples, classify.split_causes): the samples where the other part is the
+# larger contribution get its cause
+SPLIT_WINDOW_S = 300.0          # the slow part: running median over 5 min (multipath decorrelates in seconds,
+#                                 refraction changes over minutes to hours)
+SPLIT_SLOW_DB = 3.5             # a slow part this deep or more (Rayleigh log-mean bias 2.5 dB + 1 dB) is a fade
+
+
+def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, event_id: np.ndarray,
+                 cause: np.ndarray, lookup: dict) -> None:
+    """Events with a ``split_cause`` (set by :func:`diag.analysis.classify.split_causes`): the attenuation is cut into
+    a slow part (its 5-min running median) and a fast part (the rest).  In an event called refractive the samples
+    where the fast part exceeds the slow part are multipath (``split_cause`` "multipath"); in one called multipath
+    the samples where the slow part, ``SPLIT_SLOW_DB`` or more, is the larger are refractive.  A sample's cause is
+    its larger contribution, as for fades on a shifted level."""
+    if "split_cause" not in events:
+        return
+    split = events["split_cause"].astype(str).to_numpy()
+    first, last = events["start_index"].to_numpy(), events["end_index"].to_numpy()
+    row_ids = events.index.to_numpy()
+    todo = [k for k in mine if split[k] in (S.MULTIPATH, S.REFRACTIVE)]
+    if not todo:
+        return
+    att = item.frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
+    width = max(3, int(round(SPLIT_WINDOW_S / item.interval_s)) | 1)
+    for k in todo:
+        a, b = int(first[k]), int(last[k])
+        slow = pd.Series(att[a:b]).rolling(width, center=True, min_periods=1).median().to_numpy()
+        own = event_id[a:b] == row_ids[k]
+        with np.errstate(invalid="ignore"):
+            fast_larger = att[a:b] - slow > np.maximum(slow, 0.0)
+            part = own & (fast_larger if split[k] == S.MULTIPATH else ~fast_larger & (slow >= SPLIT_SLOW_DB))
+        cause[a:b][part] = lookup[split[k]]
+
+
 def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None:
     """Add ``event_id`` (row of ``events``, -1 none) and ``cause`` to each channel frame.
 
@@ -290,5 +324,7 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
                         weaker = (inner != row_id) & ~(att[a:b] > size) & ~lost[a:b]
                     inner[weaker] = row_id
                     cause[a:b][weaker] = codes[row_id]
+        if len(events):
+            _paint_split(item, events, mine, event_id, cause, lookup)
         item.frame["event_id"] = event_id
         item.frame["cause"] = pd.Categorical.from_codes(cause, dtype=CAUSE_DTYPE, validate=False)

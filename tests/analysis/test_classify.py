@@ -221,3 +221,28 @@ def test_one_abrupt_edge_and_a_held_level_is_a_step():
     assert got is not None and got[0] == S.LEVEL_SHIFT and "down 6.5 dB" in got[2]
     assert _equipment({**row, "duration_s": 1200.0}) is None
     assert _equipment({**row, "flat_std_db": 1.5}) is None
+
+
+def test_multipath_riding_on_a_refractive_fade_names_its_own_seconds(hops, monkeypatch):
+    """A 4-h 12-dB refractive fade with Rician multipath on top, 1-s samples on a 45-km 8-GHz hop (the built-in
+    simulator, not the family the split was chosen on).  A second's cause is its larger contribution (the
+    simulator's truth); P.530 §2.3 treats multipath and slow clear-air fades as distinct mechanisms that coexist.
+    The one long event stays refractive, and its seconds where the fast part is the larger are multipath
+    (diag.analysis.classify.split_causes, diag.analysis.events._paint_split).  Without the split the multipath
+    seconds are nearly all named refractive.  Control: the refractive fade alone paints no multipath second."""
+    import diag.analysis.classify as C
+    spec = LinkSpec(link_id="C-REF-MP", frequency_ghz=8.0, length_km=45.0, polarization="H", threshold_dbm=-76.0,
+                    nominal_dbm=-42.0, duration_s=12 * H,
+                    effects=(Effect("refractive", 3 * H, 4 * H, {"depth_db": 12.0}),
+                             Effect("multipath", 3 * H, 4 * H, {"k_min": 3.0, "fade_rate_hz": 0.1})))
+    sim, result = hops.analysed(spec, seed=3)
+    longest = result.events.loc[result.events["duration_s"].idxmax()]
+    assert longest["cause"] == S.REFRACTIVE and longest["split_cause"] == S.MULTIPATH
+    assert _agreement(result, sim, S.MULTIPATH) >= 0.5
+    assert _agreement(result, sim, S.REFRACTIVE) >= 0.95
+    monkeypatch.setattr(C, "split_causes", lambda out, link: np.full(len(out), "", dtype=object))
+    unsplit = analyze_link(sim.table, sim.link)
+    assert _agreement(unsplit, sim, S.MULTIPATH) <= 0.2
+    _, alone = hops.analysed(SCENARIOS[S.REFRACTIVE], seed=21)
+    for series in alone.series.values():
+        assert not (series.frame["cause"].astype(str) == S.MULTIPATH).any()
