@@ -180,6 +180,13 @@ def _step_under_fade(row) -> tuple[str, float, str] | None:
             f"{peak:.1f} dB: an antenna or equipment step under a propagation fade")
 
 
+# a drop-out inside a propagation fade (rule 2 for a part of an event): a run of lost samples whose valid
+# neighbours on both sides still had LOSS_EDGE_MARGIN_DB of margin above the threshold.  No propagation fade eats
+# 10 dB of margin within one sample and gives it back as fast at the end (rain fade slopes stay near 1 dB/s, ITU-R
+# P.1623 from memory; multipath dips to the floor last a second or two, hence LOSS_MIN_S), so those samples are
+# equipment (common practice)
+LOSS_EDGE_MARGIN_DB = 10.0
+LOSS_MAX_INTERVAL_S = 60.0
 SPLIT_MAX_INTERVAL_S = 10.0     # samples fine enough to see multipath dips (they last seconds)
 SPLIT_MIN_S = 600.0             # an event long enough to hold a slow part and many multipath dips
 SPLIT_MIN_FAST_STD_DB = 1.0     # fast fluctuation (std about the 1-min running mean) that marks multipath in it
@@ -236,4 +243,11 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
     out["peak_fade_db"] = out["peak_fade_db"].clip(lower=0.0)
     out["split_cause"] = pd.array(split_causes(out, link), dtype="str")
+    # receive level that a loss run's neighbours must keep for the run to be an equipment drop-out
+    # (diag.analysis.events._paint_losses): LOSS_EDGE_MARGIN_DB above the threshold
+    sampled = (out["kind"].astype(str).to_numpy() != "stats") & (out["interval_s"].to_numpy(dtype=float)
+                                                                  <= LOSS_MAX_INTERVAL_S)
+    propagation = ~out["cause"].astype(str).isin([S.SIGNAL_LOSS, S.LEVEL_SHIFT]).to_numpy()
+    out["loss_edge_dbm"] = np.where(sampled & propagation & (out["event_kind"].astype(str).to_numpy() == "fade"),
+                                    float(link.threshold_dbm) + LOSS_EDGE_MARGIN_DB, np.nan)
     return out

@@ -282,6 +282,41 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
         cause[a:b][part] = lookup[split[k]]
 
 
+LOSS_MIN_S = 10.0       # a lost run this long or longer (multipath dips to the floor last a second or two)
+
+
+def _paint_losses(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, event_id: np.ndarray,
+                  cause: np.ndarray, lookup: dict) -> None:
+    """Inside events with a ``loss_edge_dbm`` (set by :func:`diag.analysis.classify.classify_events`): each run of
+    ``LOSS_MIN_S`` or more of lost samples (status signal_lost) whose valid neighbours on both sides read at least
+    ``loss_edge_dbm`` is a signal loss (equipment), whatever the event around it."""
+    if "loss_edge_dbm" not in events or S.SIGNAL_LOSS not in lookup:
+        return
+    edge = events["loss_edge_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    todo = [k for k in mine if np.isfinite(edge[k])]
+    if not todo:
+        return
+    lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
+    if not lost.any():
+        return
+    rsl = item.frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    first, last = events["start_index"].to_numpy(), events["end_index"].to_numpy()
+    row_ids = events.index.to_numpy()
+    min_run = max(2, int(math.ceil(LOSS_MIN_S / item.interval_s)))
+    for k in todo:
+        a, b = int(first[k]), int(last[k])
+        seg = lost[a:b]
+        if not seg.any():
+            continue
+        change = np.flatnonzero(np.diff(np.r_[False, seg, False].astype(np.int8)))
+        for r0, r1 in zip(change[::2] + a, change[1::2] + a):
+            if r1 - r0 < min_run or r0 == 0 or r1 >= len(rsl):
+                continue
+            if rsl[r0 - 1] >= edge[k] and rsl[r1] >= edge[k]:
+                own = event_id[r0:r1] == row_ids[k]
+                cause[r0:r1][own] = lookup[S.SIGNAL_LOSS]
+
+
 def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None:
     """Add ``event_id`` (row of ``events``, -1 none) and ``cause`` to each channel frame.
 
@@ -326,5 +361,6 @@ def paint_series(series: dict[str, ChannelSeries], events: pd.DataFrame) -> None
                     cause[a:b][weaker] = codes[row_id]
         if len(events):
             _paint_split(item, events, mine, event_id, cause, lookup)
+            _paint_losses(item, events, mine, event_id, cause, lookup)
         item.frame["event_id"] = event_id
         item.frame["cause"] = pd.Categorical.from_codes(cause, dtype=CAUSE_DTYPE, validate=False)

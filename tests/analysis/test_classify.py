@@ -246,3 +246,24 @@ def test_multipath_riding_on_a_refractive_fade_names_its_own_seconds(hops, monke
     _, alone = hops.analysed(SCENARIOS[S.REFRACTIVE], seed=21)
     for series in alone.series.values():
         assert not (series.frame["cause"].astype(str) == S.MULTIPATH).any()
+
+
+def test_drop_out_inside_a_rain_fade_is_equipment(hops):
+    """A 10-min equipment drop-out in the middle of a 2-h rain fade on a 4-km 23-GHz hop, 1-s samples (built-in
+    simulator).  The receiver goes silent from a level with more than 10 dB of margin and comes back to one within a
+    second: no propagation fade eats and returns that margin so fast (rain fade slopes stay near 1 dB/s, ITU-R
+    P.1623, from memory; common practice), so those seconds are signal loss while the rest stays rain
+    (diag.analysis.events._paint_losses).  Control: a 400 mm/h cell that takes the level down to the floor for
+    minutes gradually keeps every second rain."""
+    def spec(effects):
+        return LinkSpec(link_id="C-RAIN-LOSS", frequency_ghz=23.0, length_km=4.0, polarization="V",
+                        threshold_dbm=-72.0, nominal_dbm=-38.0, duration_s=10 * H, effects=tuple(effects))
+    sim, result = hops.analysed(spec([Effect("rain", 4 * H, 2 * H, {"peak_mmh": 25.0}),
+                                      Effect("signal_loss", 4.6 * H, 600.0)]), seed=2)
+    assert list(result.events["cause"]) == [S.RAIN]
+    assert _agreement(result, sim, S.SIGNAL_LOSS) >= 0.95
+    assert _agreement(result, sim, S.RAIN) >= 0.95
+    _, storm = hops.analysed(spec([Effect("rain", 4 * H, 2 * H, {"peak_mmh": 400.0})]), seed=2)
+    frame = next(iter(storm.series.values())).frame
+    assert (frame["status"] == S.SIGNAL_LOST).sum() > 300          # the control does reach the floor
+    assert not (frame["cause"].astype(str) == S.SIGNAL_LOSS).any()
