@@ -31,6 +31,7 @@ from diag.report.pdf_fonts import (
     _make_pdf_safe,
     _quiet_font_lookup,
     _reuse_font_metrics,
+    _size_blind_core_font_lookup,
     pdf_safe,
 )
 from diag.report.pdf_templates import PAGE_SIZE_IN, Templates, new_axes, new_figure
@@ -452,6 +453,7 @@ def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templat
 
     buffer = io.BytesIO()
     with matplotlib.rc_context(_RC), _quiet_font_lookup():
+        _size_blind_core_font_lookup()
         _keep_string_metrics()
         pages = build_figures(results, templates)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",

@@ -125,3 +125,42 @@ def test_font_subsetter_loads_only_when_a_pdf_embeds_truetype():
                           timeout=120, env=dict(os.environ, PYTHONPATH=str(root)))
     assert done.returncode == 0, done.stderr[-2000:]
     assert done.stdout.split() == ["_LazyModule", "module", "True"]
+
+
+def test_core_font_lookup_kept_per_face_gives_matplotlibs_own_answer(cases):
+    """``pdf_fonts._size_blind_core_font_lookup``: after a report, matplotlib's font manager answers a look-up of a
+    core (AFM) font from the answer kept for the same face at any size; every answer is the one matplotlib's own
+    look-up (``FontManager._findfont_cached`` itself, its cache bypassed) gives, for faces, sizes, the PDF's font
+    folder or none, under the report's rc settings and matplotlib's defaults; TrueType look-ups pass through."""
+    import itertools
+
+    import matplotlib
+    from matplotlib import font_manager
+    from matplotlib.backends.backend_pdf import RendererPdf
+
+    from diag.report.pdf_fonts import _RC, _quiet_font_lookup
+
+    pdf.pdf_bytes(cases["sample"])
+    manager = font_manager.fontManager
+    assert "_findfont_cached" in vars(manager), "installed by the report"
+    own = type(manager)._findfont_cached.__wrapped__     # matplotlib's look-up without its cache
+    props = [font_manager.FontProperties(family=family, style=style, weight=weight, stretch=stretch, size=size)
+             for family, style, weight, stretch, size in itertools.product(
+                 ["sans-serif", "serif", "Helvetica", "Courier", "monospace", "no such family"],
+                 ["normal", "italic", "oblique"], ["normal", "bold", "light"], ["normal", "condensed"],
+                 [6.5, 9, 12, "large"])]
+    rc_sets = [_RC, {}, {**_RC, "font.size": 14.0}, {"font.sans-serif": ["Courier"], "font.size": 7.0}]
+    checked = 0
+    for rc, directory in itertools.product(rc_sets, [RendererPdf._afm_font_dir, None]):
+        with matplotlib.rc_context(rc), _quiet_font_lookup():
+            rc_params = tuple(tuple(v) if isinstance(v, list) else v for v in (
+                matplotlib.rcParams[f"font.{key}"] for key in ["family", "style", "variant", "weight", "stretch",
+                                                               "size", "serif", "sans-serif", "cursive", "fantasy",
+                                                               "monospace"]))
+            for prop in props:
+                got = manager.findfont(prop, fontext="afm", directory=directory)
+                assert got == own(manager, prop, "afm", directory, True, True, rc_params), (prop, rc, directory)
+                checked += 1
+            prop = font_manager.FontProperties(family="DejaVu Sans", size=11)
+            assert manager.findfont(prop) == own(manager, prop, "ttf", None, True, True, rc_params)
+    assert checked == len(props) * len(rc_sets) * 2
