@@ -27,6 +27,7 @@ from diag.report.pdf_fonts import (
     _RC,
     _RC_PNG,
     _defer_font_subsetter,
+    _import_pdf_backend,
     _keep_string_metrics,
     _make_pdf_safe,
     _quiet_font_lookup,
@@ -448,6 +449,7 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
 
 def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templates: Templates | None) -> bytes:
     _defer_font_subsetter()
+    _import_pdf_backend()
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 

@@ -1,5 +1,8 @@
 """The report's text in the PDF core fonts (Helvetica, WinAnsi): rc settings, the deliberate replacements for
-characters WinAnsi lacks, and font metrics read once per process (issue 18: no per-document font subsetting)."""
+characters WinAnsi lacks, and font metrics read once per process (issue 18: no per-document font subsetting).
+
+Also how matplotlib's PDF backend is loaded for the report (its subsetter on first use, setter docs parsed once)
+and its core-font look-ups answered once per face."""
 from __future__ import annotations
 
 import contextlib
@@ -117,6 +120,47 @@ def _defer_font_subsetter() -> None:
         sys.modules["fontTools.subset"] = module
         spec.loader.exec_module(module)
         fontTools.subset = module
+
+
+def _import_pdf_backend() -> None:
+    """Import matplotlib's PDF backend and ``Figure``, each setter's accepted-values text read from its docstring
+    once rather than once per Artist class that inherits it.
+
+    While its modules load, matplotlib writes the signature and docstring of every Artist class's ``set`` and
+    ``%(Class:kwdoc)s`` texts, each a list of the class's setters and what they accept, parsed from every setter's
+    docstring (``ArtistInspector.get_valid_values``).  Subclasses inherit most setters, so the same docstring was
+    cleaned and searched again for each class: about 4,500 parses of under 800 docstrings, some 0.035 s of a
+    process's CPU.  During the import the answer is kept per docstring text and the setter's first argument
+    name (all it depends on); setters with a ``_kwarg_doc`` or no docstring of their own go to matplotlib as
+    before; every text comes out the same (tested in a fresh interpreter), and matplotlib's own method is put back
+    afterwards.  Call before matplotlib's PDF backend is imported; only the modules still to import are sped up."""
+    with _DEFER_LOCK:
+        if "matplotlib.backends.backend_pdf" in sys.modules and "matplotlib.figure" in sys.modules:
+            return
+        from matplotlib.artist import ArtistInspector
+
+        own = ArtistInspector.get_valid_values
+        kept: dict = {}
+
+        def get_valid_values(self, attr):
+            func = getattr(self.o, f"set_{attr}", None)
+            doc = getattr(func, "__doc__", None)
+            code = getattr(func, "__code__", None)
+            if not isinstance(doc, str) or code is None or code.co_argcount < 2 or hasattr(func, "_kwarg_doc"):
+                return own(self, attr)
+            key = (doc, code.co_varnames[1])   # inspect.getdoc(func) is the cleaned doc; the 1st argument's name
+            try:
+                return kept[key]
+            except KeyError:
+                value = kept[key] = own(self, attr)
+                return value
+
+        ArtistInspector.get_valid_values = get_valid_values
+        try:
+            import matplotlib.backends.backend_pdf  # noqa: F401
+            import matplotlib.figure  # noqa: F401
+        finally:
+            ArtistInspector.get_valid_values = own
 
 
 def _keep_string_metrics() -> None:

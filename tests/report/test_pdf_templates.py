@@ -164,3 +164,52 @@ def test_core_font_lookup_kept_per_face_gives_matplotlibs_own_answer(cases):
             prop = font_manager.FontProperties(family="DejaVu Sans", size=11)
             assert manager.findfont(prop) == own(manager, prop, "ttf", None, True, True, rc_params)
     assert checked == len(props) * len(rc_sets) * 2
+
+
+_DOCS_DUMP = """
+import hashlib, inspect, sys
+if sys.argv[1] == "diag":
+    from diag.report.pdf_fonts import _import_pdf_backend
+    _import_pdf_backend()
+    from matplotlib.artist import ArtistInspector
+    assert ArtistInspector.get_valid_values.__module__ == "matplotlib.artist", "matplotlib's own method put back"
+import matplotlib.backends.backend_pdf
+import matplotlib.figure
+from matplotlib.artist import Artist, kwdoc
+from matplotlib.axes import Axes
+from matplotlib.figure import Figure
+
+classes, todo = set(), [Artist]
+while todo:
+    cls = todo.pop()
+    if cls not in classes:
+        classes.add(cls)
+        todo.extend(cls.__subclasses__())
+texts = []
+for cls in sorted(classes, key=lambda c: (c.__module__, c.__qualname__)):
+    texts += [cls.__module__, cls.__qualname__, cls.set.__doc__ or "", str(inspect.signature(cls.set))]
+for owner in (Axes, Figure):
+    texts += [f"{name}:{getattr(value, '__doc__', '')}" for name, value in sorted(vars(owner).items())]
+texts.append(kwdoc(matplotlib.lines.Line2D))
+print(len(classes), hashlib.sha256("\\x00".join(texts).encode()).hexdigest())
+"""
+
+
+def test_pdf_backend_import_writes_matplotlibs_docs_unchanged():
+    """``pdf_fonts._import_pdf_backend``: matplotlib's generated ``set`` signatures and docstrings of every Artist
+    class, and the interpolated docs of ``Axes`` and ``Figure``, are the same as after a plain import (fresh
+    interpreters: the import order matters), and matplotlib's method is put back after the import."""
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    env = dict(os.environ, PYTHONPATH=str(root))
+    runs = [subprocess.run([sys.executable, "-c", _DOCS_DUMP, how], cwd=root, capture_output=True, text=True,
+                           timeout=120, env=env) for how in ("plain", "diag")]
+    for done in runs:
+        assert done.returncode == 0, done.stderr[-2000:]
+    plain, ours = (done.stdout.split() for done in runs)
+    assert int(plain[0]) > 100        # the walk found matplotlib's Artist classes
+    assert ours == plain
