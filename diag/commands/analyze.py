@@ -13,6 +13,9 @@ import sys
 from diag.errors import InputError
 from diag.links import OPTIONAL
 
+# the modules the handler imports (``diag.cli`` loads them first when the process runs this command only)
+LOADS = ("diag.outputs", "diag.pipeline", "diag.read.mapping", "diag.report", "diag.commands.ingest", "diag.config")
+
 _FLAG_HELP = {
     "nominal_dbm": "expected clear-sky receive level [dBm]",
     "tx_dbm": "transmit power [dBm]",
