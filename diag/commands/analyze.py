@@ -13,9 +13,6 @@ import sys
 from diag.errors import InputError
 from diag.links import OPTIONAL
 
-# the modules the handler imports (``diag.cli`` loads them first when the process runs this command only)
-LOADS = ("diag.outputs", "diag.pipeline", "diag.read.mapping", "diag.report", "diag.commands.ingest", "diag.config")
-
 _FLAG_HELP = {
     "nominal_dbm": "expected clear-sky receive level [dBm]",
     "tx_dbm": "transmit power [dBm]",
@@ -103,6 +100,20 @@ def _progress(quiet: bool):
         if not quiet:
             print(f"diag: [{done}/{total}] {message}", file=sys.stderr, flush=True)
     return show
+
+
+def load() -> None:
+    """Import what the handler uses, matplotlib's PDF backend included (every analysis writes its report), for
+    ``diag.cli`` to load before the command runs in a process of its own (``main(one_process=True)``)."""
+    import diag.commands.ingest  # noqa: F401
+    import diag.config  # noqa: F401
+    import diag.outputs  # noqa: F401
+    import diag.pipeline  # noqa: F401
+    import diag.read.mapping  # noqa: F401
+    import diag.report  # noqa: F401
+    from diag.report.pdf_fonts import load_pdf_backend
+
+    load_pdf_backend()
 
 
 def main(args: argparse.Namespace) -> int:

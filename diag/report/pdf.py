@@ -26,13 +26,12 @@ from diag.report import pdf_templates, style
 from diag.report.pdf_fonts import (
     _RC,
     _RC_PNG,
-    _defer_font_subsetter,
-    _import_pdf_backend,
     _keep_string_metrics,
     _make_pdf_safe,
     _quiet_font_lookup,
     _reuse_font_metrics,
     _size_blind_core_font_lookup,
+    load_pdf_backend,
     pdf_safe,
 )
 from diag.report.pdf_templates import PAGE_SIZE_IN, Templates, new_axes, new_figure
@@ -448,8 +447,7 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
 
 
 def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templates: Templates | None) -> bytes:
-    _defer_font_subsetter()
-    _import_pdf_backend()
+    load_pdf_backend()
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 

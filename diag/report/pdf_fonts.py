@@ -163,6 +163,13 @@ def _import_pdf_backend() -> None:
             ArtistInspector.get_valid_values = own
 
 
+def load_pdf_backend() -> None:
+    """Load matplotlib's PDF backend as the report needs it: the font subsetter on first use
+    (:func:`_defer_font_subsetter`), the setters' docs parsed once (:func:`_import_pdf_backend`)."""
+    _defer_font_subsetter()
+    _import_pdf_backend()
+
+
 def _keep_string_metrics() -> None:
     """Keep each string's measured size in the core fonts for the process.  matplotlib measures every text of a
     page character by character in the font's AFM metrics (``AFM.get_str_bbox_and_descent``), again for every page
