@@ -7,6 +7,7 @@ nothing reaches the user as a traceback.
 from __future__ import annotations
 
 import argparse
+import gc
 import logging
 import os
 import sys
@@ -37,7 +38,34 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def main(argv: list[str] | None = None) -> int:
+def _load_command(args: argparse.Namespace) -> None:
+    """Load the modules the command's handler uses (its module's ``load()``, where it has one), then move every
+    object loaded so far out of the garbage collector's reach and resume it.  For a process that runs one command
+    and ends (``main(one_process=True)``, started with the collector paused): the modules' classes, functions and
+    tables live as long as the process, and each collection walked them again (in an ``analyze`` of a 1-s week
+    the collector's passes cost 0.057-0.065 s of CPU, 0.011-0.013 s after this)."""
+    try:
+        module = sys.modules.get(getattr(args.func, "__module__", ""))
+        load = getattr(module, "load", None)
+        if callable(load):
+            load()
+    finally:
+        gc.freeze()
+        gc.enable()
+
+
+def main(argv: list[str] | None = None, *, one_process: bool = False) -> int:
+    """Run the command ``argv`` names; returns the exit status.  ``one_process``: the caller is a process that runs
+    this one command and ends, started with the garbage collector paused (``python -m diag``); the collector is
+    resumed once the command's modules are loaded (:func:`_load_command`)."""
+    try:
+        return _main(argv, one_process)
+    finally:
+        if one_process and not gc.isenabled():   # --help, a bad argument: ended before the command ran
+            gc.enable()
+
+
+def _main(argv: list[str] | None, one_process: bool) -> int:
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -52,6 +80,8 @@ def main(argv: list[str] | None = None) -> int:
         with warnings.catch_warnings():
             warnings.simplefilter("default")
             warnings.formatwarning = lambda msg, cat, *a, **k: f"diag: warning: {msg}\n"
+            if one_process:
+                _load_command(args)
             return int(args.func(args) or 0)
     except InputError as exc:
         print(f"diag: error: {exc.one_line()}", file=sys.stderr)

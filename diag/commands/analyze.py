@@ -102,6 +102,20 @@ def _progress(quiet: bool):
     return show
 
 
+def load() -> None:
+    """Import what the handler uses, matplotlib's PDF backend included (every analysis writes its report), for
+    ``diag.cli`` to load before the command runs in a process of its own (``main(one_process=True)``)."""
+    import diag.commands.ingest  # noqa: F401
+    import diag.config  # noqa: F401
+    import diag.outputs  # noqa: F401
+    import diag.pipeline  # noqa: F401
+    import diag.read.mapping  # noqa: F401
+    import diag.report  # noqa: F401
+    from diag.report.pdf_fonts import load_pdf_backend
+
+    load_pdf_backend()
+
+
 def main(args: argparse.Namespace) -> int:
     from diag.outputs import check_out_path
     from diag.pipeline import analyze_files

@@ -26,11 +26,12 @@ from diag.report import pdf_templates, style
 from diag.report.pdf_fonts import (
     _RC,
     _RC_PNG,
-    _defer_font_subsetter,
     _keep_string_metrics,
     _make_pdf_safe,
     _quiet_font_lookup,
     _reuse_font_metrics,
+    _size_blind_core_font_lookup,
+    load_pdf_backend,
     pdf_safe,
 )
 from diag.report.pdf_templates import PAGE_SIZE_IN, Templates, new_axes, new_figure
@@ -446,12 +447,13 @@ def pdf_bytes(results: Iterable[LinkResult], *, progress: Callable | None = None
 
 
 def _pdf_bytes(results: Iterable[LinkResult], progress: Callable | None, templates: Templates | None) -> bytes:
-    _defer_font_subsetter()
+    load_pdf_backend()
     import matplotlib
     from matplotlib.backends.backend_pdf import PdfPages
 
     buffer = io.BytesIO()
     with matplotlib.rc_context(_RC), _quiet_font_lookup():
+        _size_blind_core_font_lookup()
         _keep_string_metrics()
         pages = build_figures(results, templates)
         with PdfPages(buffer, metadata={"Title": "Microwave hop outage report", "Creator": "diag",

@@ -54,3 +54,43 @@ def test_analysis_of_a_hop_loads_no_scipy_stats_no_optimizer_and_no_plotting():
                            str(ROOT / "demo_logs" / "logs"), str(ROOT / "demo_logs" / "links.csv")], cwd=ROOT,
                           capture_output=True, text=True, timeout=300, check=True)
     assert json.loads(done.stdout.strip().splitlines()[-1]) == []
+
+
+_ONE_PROCESS_PROBE = """
+import gc, json, sys
+gc.disable()                                  # as python -m diag starts
+from diag import cli
+seen = {}
+handler = cli._load_command
+def probe(args):
+    seen["paused_while_loading"] = not gc.isenabled()
+    handler(args)
+    seen["loaded"] = all(name in sys.modules for name in ("diag.pipeline", "diag.report", "diag.outputs",
+                                                          "matplotlib.backends.backend_pdf"))
+    seen["subsetter"] = type(sys.modules["fontTools.subset"]).__name__   # still deferred (pdf_fonts)
+    seen["resumed"] = gc.isenabled()
+    seen["frozen"] = gc.get_freeze_count()
+cli._load_command = probe
+status = cli.main(sys.argv[1:], one_process=True)
+print(json.dumps({**seen, "status": status, "enabled_after": gc.isenabled()}))
+"""
+
+
+def test_one_process_command_loads_its_modules_with_the_collector_paused_then_resumes_it(tmp_path):
+    """``python -m diag``: the collector is paused while the command's modules load and is running again, with those
+    objects frozen, before the command itself runs (a collector left off would let a long analysis's cyclic garbage
+    pile up); after ``--help`` too."""
+    out = tmp_path / "out"
+    args = ["analyze", str(ROOT / "demo_logs" / "logs"), "--links", str(ROOT / "demo_logs" / "links.csv"), "--out",
+            str(out), "--quiet"]
+    done = subprocess.run([sys.executable, "-c", _ONE_PROCESS_PROBE, *args], cwd=ROOT, capture_output=True,
+                          text=True, timeout=300)
+    assert done.returncode == 0, done.stderr[-2000:]
+    seen = json.loads(done.stdout.strip().splitlines()[-1])
+    assert seen == {"loaded": True, "subsetter": "_LazyModule", "paused_while_loading": True, "resumed": True,
+                    "frozen": seen["frozen"], "status": 0, "enabled_after": True}
+    assert seen["frozen"] > 10_000
+    assert (out / "report.pdf").stat().st_size > 0
+    done = subprocess.run([sys.executable, "-c", _ONE_PROCESS_PROBE, "--help"], cwd=ROOT, capture_output=True,
+                          text=True, timeout=120)
+    assert json.loads(done.stdout.strip().splitlines()[-1]) == {"status": 0, "enabled_after": True}

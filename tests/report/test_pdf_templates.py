@@ -125,3 +125,91 @@ def test_font_subsetter_loads_only_when_a_pdf_embeds_truetype():
                           timeout=120, env=dict(os.environ, PYTHONPATH=str(root)))
     assert done.returncode == 0, done.stderr[-2000:]
     assert done.stdout.split() == ["_LazyModule", "module", "True"]
+
+
+def test_core_font_lookup_kept_per_face_gives_matplotlibs_own_answer(cases):
+    """``pdf_fonts._size_blind_core_font_lookup``: after a report, matplotlib's font manager answers a look-up of a
+    core (AFM) font from the answer kept for the same face at any size; every answer is the one matplotlib's own
+    look-up (``FontManager._findfont_cached`` itself, its cache bypassed) gives, for faces, sizes, the PDF's font
+    folder or none, under the report's rc settings and matplotlib's defaults; TrueType look-ups pass through."""
+    import itertools
+
+    import matplotlib
+    from matplotlib import font_manager
+    from matplotlib.backends.backend_pdf import RendererPdf
+
+    from diag.report.pdf_fonts import _RC, _quiet_font_lookup
+
+    pdf.pdf_bytes(cases["sample"])
+    manager = font_manager.fontManager
+    assert "_findfont_cached" in vars(manager), "installed by the report"
+    own = type(manager)._findfont_cached.__wrapped__     # matplotlib's look-up without its cache
+    props = [font_manager.FontProperties(family=family, style=style, weight=weight, stretch=stretch, size=size)
+             for family, style, weight, stretch, size in itertools.product(
+                 ["sans-serif", "serif", "Helvetica", "Courier", "monospace", "no such family"],
+                 ["normal", "italic", "oblique"], ["normal", "bold", "light"], ["normal", "condensed"],
+                 [6.5, 9, 12, "large"])]
+    rc_sets = [_RC, {}, {**_RC, "font.size": 14.0}, {"font.sans-serif": ["Courier"], "font.size": 7.0}]
+    checked = 0
+    for rc, directory in itertools.product(rc_sets, [RendererPdf._afm_font_dir, None]):
+        with matplotlib.rc_context(rc), _quiet_font_lookup():
+            rc_params = tuple(tuple(v) if isinstance(v, list) else v for v in (
+                matplotlib.rcParams[f"font.{key}"] for key in ["family", "style", "variant", "weight", "stretch",
+                                                               "size", "serif", "sans-serif", "cursive", "fantasy",
+                                                               "monospace"]))
+            for prop in props:
+                got = manager.findfont(prop, fontext="afm", directory=directory)
+                assert got == own(manager, prop, "afm", directory, True, True, rc_params), (prop, rc, directory)
+                checked += 1
+            prop = font_manager.FontProperties(family="DejaVu Sans", size=11)
+            assert manager.findfont(prop) == own(manager, prop, "ttf", None, True, True, rc_params)
+    assert checked == len(props) * len(rc_sets) * 2
+
+
+_DOCS_DUMP = """
+import hashlib, inspect, sys
+if sys.argv[1] == "diag":
+    from diag.report.pdf_fonts import _import_pdf_backend
+    _import_pdf_backend()
+    from matplotlib.artist import ArtistInspector
+    assert ArtistInspector.get_valid_values.__module__ == "matplotlib.artist", "matplotlib's own method put back"
+import matplotlib.backends.backend_pdf
+import matplotlib.figure
+from matplotlib.artist import Artist, kwdoc
+from matplotlib.axes import Axes
+from matplotlib.figure import Figure
+
+classes, todo = set(), [Artist]
+while todo:
+    cls = todo.pop()
+    if cls not in classes:
+        classes.add(cls)
+        todo.extend(cls.__subclasses__())
+texts = []
+for cls in sorted(classes, key=lambda c: (c.__module__, c.__qualname__)):
+    texts += [cls.__module__, cls.__qualname__, cls.set.__doc__ or "", str(inspect.signature(cls.set))]
+for owner in (Axes, Figure):
+    texts += [f"{name}:{getattr(value, '__doc__', '')}" for name, value in sorted(vars(owner).items())]
+texts.append(kwdoc(matplotlib.lines.Line2D))
+print(len(classes), hashlib.sha256("\\x00".join(texts).encode()).hexdigest())
+"""
+
+
+def test_pdf_backend_import_writes_matplotlibs_docs_unchanged():
+    """``pdf_fonts._import_pdf_backend``: matplotlib's generated ``set`` signatures and docstrings of every Artist
+    class, and the interpolated docs of ``Axes`` and ``Figure``, are the same as after a plain import (fresh
+    interpreters: the import order matters), and matplotlib's method is put back after the import."""
+    import os
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parents[2]
+    env = dict(os.environ, PYTHONPATH=str(root))
+    runs = [subprocess.run([sys.executable, "-c", _DOCS_DUMP, how], cwd=root, capture_output=True, text=True,
+                           timeout=120, env=env) for how in ("plain", "diag")]
+    for done in runs:
+        assert done.returncode == 0, done.stderr[-2000:]
+    plain, ours = (done.stdout.split() for done in runs)
+    assert int(plain[0]) > 100        # the walk found matplotlib's Artist classes
+    assert ours == plain
