@@ -242,6 +242,8 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     out["confidence"] = np.round([v[1] for v in verdicts], 2)
     out["evidence"] = pd.array([v[2] for v in verdicts], dtype="str")
     out["peak_fade_db"] = out["peak_fade_db"].clip(lower=0.0)
+    # the painting columns last, wherever a first pass put them (a second pass appends the network columns first)
+    out = out.drop(columns=[c for c in ("split_cause", "loss_edge_dbm") if c in out])
     out["split_cause"] = pd.array(split_causes(out, link), dtype="str")
     # receive level that a loss run's neighbours must keep for the run to be an equipment drop-out
     # (diag.analysis.events._paint_losses): LOSS_EDGE_MARGIN_DB above the threshold

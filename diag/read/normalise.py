@@ -225,6 +225,41 @@ def _gather(chunks: list[RowBlock]) -> tuple[np.ndarray, ...]:
     return tuple(out)
 
 
+def _channel_name(t: tuple, vc, q, st, ch, plan: ColumnPlan) -> str:
+    """The channel a value column of key tuple ``t`` goes to: the key's channel cell, else the column's channel,
+    else the default; two columns of one quantity and statistic on a named channel get ``channel-columnchannel``."""
+    channel = t[1] or (ch if ch else None) or DEFAULT_CHANNEL
+    if t[1] and ch and vc.quantity is not None and len(plan.values) > 1 and \
+            sum(1 for v in plan.values if v.quantity == q and v.stat == st) > 1:
+        channel = f"{t[1]}-{ch}"
+    return channel
+
+
+def _canonical_keys(key: np.ndarray, keys: KeyIndex, kinfo: list, plan: ColumnPlan, default_link: str) -> np.ndarray:
+    """``key`` with every code replaced by the first code whose tuple resolves to the same series (link after
+    its default; per value column the channel, quantity and statistic it goes to)."""
+    present = np.unique(key)
+    first: dict = {}
+    remap = np.arange(len(keys.tuples), dtype=key.dtype)
+    for k in present.tolist():
+        t, info = keys.tuples[k], kinfo[k]
+        cols = []
+        for vc in plan.values:
+            if vc.quantity is None:
+                if info is None:
+                    cols = None
+                    break
+                q, st, iv, ch = info.quantity, info.stat, info.interval_s, info.channel
+            else:
+                q, st, iv, ch = vc.quantity, vc.stat, vc.interval_s, vc.channel
+            cols.append((_channel_name(t, vc, q, st, ch, plan), q, st, iv))
+        resolved = (t[0] or default_link, tuple(cols)) if cols is not None else ("raw", k)
+        remap[k] = first.setdefault(resolved, k)
+    if (remap[present] == present).all():
+        return key
+    return remap[key]
+
+
 def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, rejected: dict,
              default_link: str, mapping: dict, header_line: int) -> pd.DataFrame:
     """Kept rows of all blocks -> the sorted long table.
@@ -263,6 +298,9 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
             report.warnings.append(f"{int(bad.sum())} rows of hop(s) not in the links table skipped (unlisted_hop): "
                                    f"{names[:10]}{' ...' if len(names) > 10 else ''}")
             ns, key, rownum, vals, reas = ns[~bad], key[~bad], rownum[~bad], vals[~bad], reas[~bad]
+    # keys that name the same series once the defaults are applied (a row with an empty channel cell on a
+    # hop whose other rows say "H") are one key: sorted, de-duplicated and counted together
+    key = _canonical_keys(key, keys, kinfo, plan, default_link)
     # out-of-order rows (file order, per key)
     placed = rownum >= 0     # rows re-read after a field-count mismatch have no known place (rownum -1)
     if placed.all() and bool(np.all(key[1:] >= key[:-1])):   # keys already grouped in file order: no sort copies
@@ -331,10 +369,7 @@ def assemble(chunks: list[RowBlock], keys: KeyIndex, plan: ColumnPlan, report, r
                 q, st, iv, ch = info.quantity, info.stat, info.interval_s, info.channel
             else:
                 q, st, iv, ch = vc.quantity, vc.stat, vc.interval_s, vc.channel
-            channel = t[1] or (ch if ch else None) or DEFAULT_CHANNEL
-            if t[1] and ch and vc.quantity is not None and len(plan.values) > 1 and \
-                    sum(1 for v in plan.values if v.quantity == q and v.stat == st) > 1:
-                channel = f"{t[1]}-{ch}"
+            channel = _channel_name(t, vc, q, st, ch, plan)
             series.append([link, channel, q, st, iv if iv else (float(iv_default) if iv_default else None),
                            ns[s:e], vals[s:e, j], reas[s:e, j]])   # views: edited in place below
     # channels per hop (wide layouts name channels in the column names): bounded (diag.read.limits)

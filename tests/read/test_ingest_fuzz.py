@@ -108,3 +108,17 @@ def structured(draw):
 @given(structured(), st.sampled_from([None, "Europe/Vienna", "America/New_York"]))
 def test_structured_random_logs(data, tz):
     read_or_input_error(data, tz=tz)
+
+
+def test_empty_channel_cell_joins_the_named_channel():
+    # found by test_structured_random_logs: a row whose channel cell is empty goes to the column's channel "H",
+    # like the rows that say "H"; the two keys are one series, so the rows are sorted together (and a repeated
+    # time across them is one duplicate, counted), not left in file order as two pieces
+    data = b"Time,RSL H (dBm),Channel\n2026-12-01T10:00:00Z,-45.5,H\n2026-03-29T02:30:00,-45.5,\n"
+    read_or_input_error(data)
+    table = read_log(data, name="fuzz.csv").table
+    assert list(table["channel"].astype(str)) == ["H", "H"]
+    assert table["time_utc"].is_monotonic_increasing
+    twice = read_log(b"Time,RSL H (dBm),Channel\n2026-12-01T10:00:00Z,-45.5,H\n2026-12-01T10:00:00Z,-45.5,\n",
+                     name="twice.csv")
+    assert len(twice.table) == 1 and twice.report.duplicates == 1
