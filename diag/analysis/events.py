@@ -252,6 +252,8 @@ CAUSE_DTYPE = pd.CategoricalDtype(list(S.CAUSES) + [""])   # the painted "cause"
 # larger contribution get its cause
 SPLIT_WINDOW_S = 300.0          # the slow part: running median over 5 min (multipath decorrelates in seconds,
 #                                 refraction changes over minutes to hours)
+STATS_SPLIT_MP_DB = 3.0         # interval average under which multipath holds most faded seconds
+STATS_SPLIT_SLOW_DB = 5.0       # interval average from which the slow fade does (3 dB + most of the 2.5-dB bias)
 SPLIT_SLOW_DB = 3.5             # a slow part this deep or more (Rayleigh log-mean bias 2.5 dB + 1 dB) is a fade
 
 
@@ -274,8 +276,17 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
     width = max(3, int(round(SPLIT_WINDOW_S / item.interval_s)) | 1)
     for k in todo:
         a, b = int(first[k]), int(last[k])
-        slow = pd.Series(att[a:b]).rolling(width, center=True, min_periods=1).median().to_numpy()
         own = event_id[a:b] == row_ids[k]
+        if item.kind == "stats":
+            # interval statistics: the average is the slow part (multipath lowers a dB average by at most the
+            # Rayleigh log-mean bias): multipath holds most faded seconds of an interval whose average stays under
+            # STATS_SPLIT_MP_DB, the slow fade those of one at STATS_SPLIT_SLOW_DB or more
+            with np.errstate(invalid="ignore"):
+                part = own & ((att[a:b] < STATS_SPLIT_MP_DB) if split[k] == S.MULTIPATH
+                              else (att[a:b] >= STATS_SPLIT_SLOW_DB))
+            cause[a:b][part] = lookup[split[k]]
+            continue
+        slow = pd.Series(att[a:b]).rolling(width, center=True, min_periods=1).median().to_numpy()
         with np.errstate(invalid="ignore"):
             fast_larger = att[a:b] - slow > np.maximum(slow, 0.0)
             part = own & (fast_larger if split[k] == S.MULTIPATH else ~fast_larger & (slow >= SPLIT_SLOW_DB))

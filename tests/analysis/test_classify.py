@@ -267,3 +267,25 @@ def test_drop_out_inside_a_rain_fade_is_equipment(hops):
     frame = next(iter(storm.series.values())).frame
     assert (frame["status"] == S.SIGNAL_LOST).sum() > 300          # the control does reach the floor
     assert not (frame["cause"].astype(str) == S.SIGNAL_LOSS).any()
+
+
+def test_refractive_fade_under_a_multipath_night_in_interval_statistics(hops, monkeypatch):
+    """An 8-h multipath night (Rayleigh at its worst) with a 4-h 12-dB refractive fade inside it, seen only as 15-min
+    min/avg/max (built-in simulator, 45-km 8-GHz hop).  The analysis finds one long event; a second's cause is its
+    larger contribution.  The interval average is the slow part (multipath lowers a dB average by at most the
+    Rayleigh log-mean bias, 2.5 dB), so the intervals whose average is 5 dB or more down are the refractive fade's
+    and the rest multipath's (diag.analysis.classify.split_causes, events._paint_split).  Without the split the
+    refractive seconds are all named multipath."""
+    import diag.analysis.classify as C
+    spec = LinkSpec(link_id="C-REF-MP-15", frequency_ghz=8.0, length_km=45.0, polarization="H", threshold_dbm=-76.0,
+                    nominal_dbm=-42.0, duration_s=24 * H,
+                    effects=(Effect("refractive", 3 * H, 4 * H, {"depth_db": 12.0}),
+                             Effect("multipath", 1 * H, 8 * H, {"k_min": 0.0, "fade_rate_hz": 0.1})))
+    sim = hops.sim(spec, seed=3)
+    stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
+    result = analyze_link(stats, sim.link)
+    assert _agreement(result, sim, S.REFRACTIVE) >= 0.9
+    assert _agreement(result, sim, S.MULTIPATH) >= 0.5
+    monkeypatch.setattr(C, "STATS_SPLIT", False)
+    unsplit = analyze_link(stats, sim.link)
+    assert _agreement(unsplit, sim, S.REFRACTIVE) <= 0.1
