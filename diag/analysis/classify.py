@@ -190,6 +190,7 @@ LOSS_MAX_INTERVAL_S = 60.0
 SPLIT_MAX_INTERVAL_S = 10.0     # samples fine enough to see multipath dips (they last seconds)
 SPLIT_MIN_S = 600.0             # an event long enough to hold a slow part and many multipath dips
 STATS_SPLIT = True
+STATS_SPLIT_MINMAX = True
 STATS_SPLIT_SPREAD_DB = 6.0     # median 15-min min-max spread that marks multipath on top
 SPLIT_MIN_FAST_STD_DB = 1.0     # fast fluctuation (std about the 1-min running mean) that marks multipath in it
 
@@ -207,7 +208,10 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
     The same for 15-min min/avg/max (``STATS_SPLIT``) with the median min-max spread (6 dB or more) showing the
     multipath and the interval average standing for the slow part (events.STATS_SPLIT_MP_DB / _SLOW_DB): fit
     15-min min/avg/max 0.717 -> 0.766 (multipath recall 61 -> 79 %, refractive 70 -> 82 %), among spreads 4 / 6 /
-    8 dB (0.769 / 0.766 / 0.761) and average bounds 2.5-4 / 3-5 / 3.5-6 dB (0.765 / 0.766 / 0.762)."""
+    8 dB (0.769 / 0.766 / 0.761) and average bounds 2.5-4 / 3-5 / 3.5-6 dB (0.765 / 0.766 / 0.762).  A min/max
+    export (``STATS_SPLIT_MINMAX``) has no average: the interval maximum bounds the slow part instead
+    (events.STATS_SPLIT_MM_*), fit 15-min min/max 0.711 -> 0.750; on the built-in simulator never worse than no
+    split, and no gain where Rayleigh upfades lift every 15-min maximum to the clear level."""
     n = len(out)
     split = np.full(n, "", dtype=object)
     if not n or "fast_std_db" not in out:
@@ -227,8 +231,9 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
     if STATS_SPLIT:
         # 15-min min/avg/max: the interval average is the slow part (plus at most the Rayleigh log-mean bias), the
         # min-max spread shows multipath on top (events.STATS_SPLIT_*)
-        stats = (out["kind"].astype(str).to_numpy() == "stats") & np.isfinite(
-            out["avg_to_min_ratio"].to_numpy(dtype=float, na_value=np.nan))
+        stats = out["kind"].astype(str).to_numpy() == "stats"
+        if not STATS_SPLIT_MINMAX:
+            stats &= np.isfinite(out["avg_to_min_ratio"].to_numpy(dtype=float, na_value=np.nan))
         wide = out["spread_db"].to_numpy(dtype=float, na_value=np.nan) >= STATS_SPLIT_SPREAD_DB
         sbase = stats & long & wide & (out["event_kind"].astype(str).to_numpy() == "fade")
         split[sbase & (cause == S.REFRACTIVE)] = S.MULTIPATH
