@@ -274,7 +274,10 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
     split = events["split_cause"].astype(str).to_numpy()
     first, last = events["start_index"].to_numpy(), events["end_index"].to_numpy()
     row_ids = events.index.to_numpy()
-    todo = [k for k in mine if split[k] in (S.MULTIPATH, S.REFRACTIVE)]
+    called = events["cause"].astype(str).to_numpy()
+    step_db = (events["split_step_db"].to_numpy(dtype=float, na_value=np.nan) if "split_step_db" in events
+               else np.full(len(events), np.nan))
+    todo = [k for k in mine if split[k] in (S.MULTIPATH, S.REFRACTIVE, S.RAIN)]
     if not todo:
         return
     att = item.frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
@@ -283,6 +286,15 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
     for k in todo:
         a, b = int(first[k]), int(last[k])
         own = event_id[a:b] == row_ids[k]
+        if called[k] == S.LEVEL_SHIFT:
+            # a step with a fade on top: the fade's seconds are those where it exceeds the step
+            if np.isfinite(step_db[k]):
+                with np.errstate(invalid="ignore"):
+                    part = own & (att[a:b] > 2.0 * step_db[k])
+                cause[a:b][part] = lookup[split[k]]
+            continue
+        if split[k] == S.RAIN:
+            continue
         if item.kind == "stats":
             # interval statistics: the average is the slow part (multipath lowers a dB average by at most the
             # Rayleigh log-mean bias): multipath holds most faded seconds of an interval whose average stays under

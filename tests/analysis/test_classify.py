@@ -168,6 +168,11 @@ def test_temporary_step_under_rain_is_equipment(hops):
     step = ev[ev["evidence"].str.contains("temporary level step")]
     assert len(step) == 1 and step["cause"].iloc[0] == S.LEVEL_SHIFT, list(ev["evidence"])
     assert 2.5 * H <= step["duration_s"].iloc[0] <= 3.5 * H
+    # the shower names the seconds where it is the larger contribution (its own propagation verdict, painted where
+    # the attenuation exceeds twice the step); the step keeps the rest
+    assert step["split_cause"].iloc[0] == S.RAIN
+    sim, _ = hops.analysed(spec([Effect("level_shift", 3 * H, 3 * H, {"step_db": 8.0}), shower]), seed=4)
+    assert _agreement(result, sim, S.RAIN) >= 0.8 and _agreement(result, sim, S.LEVEL_SHIFT) >= 0.99
     _, alone = hops.analysed(spec([shower]), seed=4)
     assert list(alone.events["cause"]) == [S.RAIN], list(alone.events["evidence"])
 
