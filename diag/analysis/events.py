@@ -267,8 +267,11 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
     """Events with a ``split_cause`` (set by :func:`diag.analysis.classify.split_causes`): the attenuation is cut into
     a slow part (its 5-min running median) and a fast part (the rest).  In an event called refractive the samples
     where the fast part exceeds the slow part are multipath (``split_cause`` "multipath"); in one called multipath
-    the samples where the slow part, ``SPLIT_SLOW_DB`` or more, is the larger are refractive.  A sample's cause is
-    its larger contribution, as for fades on a shifted level."""
+    the samples where the slow part, ``SPLIT_SLOW_DB`` or more, is the larger are refractive.  Interval statistics
+    read the slow part from the interval average (``STATS_SPLIT_MP_DB`` / ``STATS_SPLIT_SLOW_DB``) or, without one,
+    from the interval maximum (``STATS_SPLIT_MM_*``).  In a temporary step with a fade on top (cause level_shift,
+    ``split_step_db`` the step) the samples faded more than twice the step take the fade's cause.  A sample's cause
+    is its larger contribution, as for fades on a shifted level."""
     if "split_cause" not in events:
         return
     split = events["split_cause"].astype(str).to_numpy()
