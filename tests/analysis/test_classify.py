@@ -213,6 +213,45 @@ def test_temporary_step_in_interval_statistics_is_equipment(hops):
         assert not (control.events["cause"] == S.LEVEL_SHIFT).any(), list(control.events["evidence"])
 
 
+@pytest.mark.parametrize("order", ["rain first", "step first"])
+def test_still_level_meeting_the_clear_level_inside_a_fade_is_a_step(hops, monkeypatch, order):
+    """A storm knocks an antenna 8 dB out of line and it is set right 4 h later (or an antenna knocked earlier is set
+    right while it rains), seen only as 15-min statistics (built-in simulator, not the family the rule was chosen
+    on).  Rain and step make one fade event; its tail (or head) holds within a few tenths of a dB and meets the
+    clear level through one interval, which no rain fade does (diag.analysis.events._paint_still_edges; common
+    practice), so those intervals are the step's.  Without the rule they took the event's rain verdict.  Controls:
+    the same rain alone is painted rain throughout, and a 4-dB step (a whole-dB readout could hide rain's wander at
+    that depth) is left to the event."""
+    import diag.analysis.events as E
+
+    def stats_of(effects, seed=7):
+        spec = LinkSpec(link_id="C-STILL-15", frequency_ghz=18.0, length_km=8.0, polarization="V",
+                        threshold_dbm=-75.0, nominal_dbm=-40.0, duration_s=24 * H, effects=tuple(effects))
+        sim = hops.sim(spec, seed)
+        stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
+        return sim, {"mam": stats, "mm": stats[stats["stat"].astype(str) != "avg"].reset_index(drop=True)}
+
+    rain = Effect("rain", 5 * H, 2 * H, {"peak_mmh": 15.0}) if order == "rain first" else \
+        Effect("rain", 9 * H, 2 * H, {"peak_mmh": 15.0})
+    step = Effect("level_shift", 6 * H, 4 * H, {"step_db": 8.0})
+    sim, data = stats_of([step, rain])
+    for name, table in data.items():
+        got = _agreement(analyze_link(table, sim.link), sim, S.LEVEL_SHIFT)
+        with monkeypatch.context() as m:
+            m.setattr(E, "STILL_EDGE", False)
+            without = _agreement(analyze_link(table, sim.link), sim, S.LEVEL_SHIFT)
+        assert got >= 0.6 and got >= without + 0.3, (name, got, without)
+    sim, data = stats_of([rain])
+    for name, table in data.items():
+        assert _agreement(analyze_link(table, sim.link), sim, S.RAIN) >= 0.9, name
+    sim, data = stats_of([Effect("level_shift", 6 * H, 4 * H, {"step_db": 4.0}), rain])
+    for name, table in data.items():
+        with monkeypatch.context() as m:
+            m.setattr(E, "STILL_EDGE", False)
+            without = _agreement(analyze_link(table, sim.link), sim, S.LEVEL_SHIFT)
+        assert _agreement(analyze_link(table, sim.link), sim, S.LEVEL_SHIFT) == without, name
+
+
 def test_one_abrupt_edge_and_a_held_level_is_a_step():
     # rule 1b, one edge (diag.analysis.classify._step): the level drops 6.5 dB between two 1-min samples and holds
     # within 0.2 dB for two hours until the record ends (the other edge unseen).  Rain and refraction build up over
