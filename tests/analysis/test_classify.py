@@ -252,6 +252,32 @@ def test_still_level_meeting_the_clear_level_inside_a_fade_is_a_step(hops, monke
         assert _agreement(analyze_link(table, sim.link), sim, S.LEVEL_SHIFT) == without, name
 
 
+@pytest.mark.parametrize("interval_s", [1.0, 60.0])
+def test_still_level_meeting_the_clear_level_in_samples(hops, monkeypatch, interval_s):
+    """An antenna knocked 8 dB and set right while it rains, logged as 1-min (and 1-s) samples: the step's first edge
+    is one sample from the clear level, and the level after it holds within a few tenths of a dB until the rain
+    (rule 1b needs the whole event flat; rain hides this step's other end).  diag.analysis.events._paint_still_edges
+    names those samples the step's; without it they took the event's verdict.  At 1 s the step's edges already
+    decide (rules 1 and 1c) and the painting must leave that so.  A held reading (one value over half the run: a
+    logger repeating its last value, as real 1-min logs do in storms) is not taken for a still level."""
+    import diag.analysis.events as E
+    spec = LinkSpec(link_id="C-STILL-S", frequency_ghz=18.0, length_km=8.0, polarization="V", threshold_dbm=-75.0,
+                    nominal_dbm=-40.0, duration_s=16 * H, interval_s=interval_s,
+                    effects=(Effect("level_shift", 6 * H, 4 * H, {"step_db": 8.0}),
+                             Effect("rain", 9 * H, 2 * H, {"peak_mmh": 15.0})))
+    sim = hops.sim(spec, 7)
+    got = _agreement(analyze_link(sim.table, sim.link), sim, S.LEVEL_SHIFT)
+    monkeypatch.setattr(E, "STILL_EDGE", False)
+    without = _agreement(analyze_link(sim.table, sim.link), sim, S.LEVEL_SHIFT)
+    if interval_s < 10.0:
+        assert got >= 0.99 and got >= without - 1e-9, (got, without)
+    else:
+        assert got >= 0.6 and got >= without + 0.3, (got, without)
+    rng = np.random.default_rng(0)
+    assert E._varied(np.round(8.0 + 0.15 * rng.standard_normal(60), 1))
+    assert not E._varied(np.r_[np.full(50, 17.7), [17.6, 17.8] * 5])
+
+
 def test_one_abrupt_edge_and_a_held_level_is_a_step():
     # rule 1b, one edge (diag.analysis.classify._step): the level drops 6.5 dB between two 1-min samples and holds
     # within 0.2 dB for two hours until the record ends (the other edge unseen).  Rain and refraction build up over
