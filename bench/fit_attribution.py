@@ -149,7 +149,7 @@ def collect_family_b(seeds, out_dir: Path) -> list[dict]:
 
 # ------------------------------------------------------------------------------------------------- OpenRainER
 def collect_real(base: Path) -> list[dict]:
-    sys.path.insert(0, str(HERE.parent / "tests"))
+    sys.path.insert(0, str(HERE.parent / "tests" / "analysis"))
     from test_realdata import load_link
 
     from diag.pipeline import analyze_link
