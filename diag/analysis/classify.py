@@ -34,7 +34,7 @@ import pandas as pd
 
 from diag import schema as S
 from diag.analysis.attribution import attribute, rows_of
-from diag.analysis.events import SPLIT_SLOW_DB
+from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
 from diag.analysis.priors import hop_prior
 from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
@@ -118,9 +118,9 @@ def _step(row) -> tuple[str, float, str] | None:
 
 
 # rule 1d (interval statistics): the least time and the most wander of a level that no propagation fade holds
-STATS_STEP_MIN_S = 2700.0
-STATS_STEP_FLAT_DB = 0.3
-STATS_STEP_SPREAD_DB = 3.0
+STATS_STEP_MIN_S = STILL_EDGE_MIN_S
+STATS_STEP_FLAT_DB = STILL_EDGE_FLAT_DB
+STATS_STEP_SPREAD_DB = STILL_EDGE_SPREAD_DB
 # confidence stated: on family B fit seeds 1-50 all 85 events the rule called were level shifts (a fixed 0.7 first
 # raised the held-out 15-min ECE from 0.041 / 0.065 to 0.056 / 0.083); 0.95 keeps room for what simulators lack
 STATS_STEP_CONFIDENCE = 0.95

@@ -324,9 +324,11 @@ def _paint_split(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, ev
 
 # a still level inside a fade that meets the clear level through one interval or sample: a step
 STILL_EDGE = True
-STILL_EDGE_MIN_S = 2700.0       # 45 min (three 15-min intervals), as rule 1d (classify.STATS_STEP_MIN_S)
-STILL_EDGE_FLAT_DB = 0.3        # standard deviation of the level over the run, as rule 1d
-STILL_EDGE_SPREAD_DB = 3.0      # each interval's min-max spread at most, as rule 1d
+# a level no propagation fade holds (shared with rule 1d, classify._stats_step): this long or longer, within this
+# standard deviation, each interval's min-max spread at most this
+STILL_EDGE_MIN_S = 2700.0       # 45 min (three 15-min intervals)
+STILL_EDGE_FLAT_DB = 0.3
+STILL_EDGE_SPREAD_DB = 3.0
 STILL_EDGE_CLEAR_DB = 1.0       # the edge interval's maximum (the edge sample) back within this of the reference
 STILL_EDGE_WANDER = 0.1         # rain wanders by a tenth of its fade or more within 45 min (tens of per cent)
 STILL_EDGE_READOUT_DB = 1.0     # many radios read RSL in whole dB (common practice)
@@ -406,23 +408,17 @@ def _paint_still_edges(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarr
         a, b = int(first[k]), int(last[k])
         if b - a < min_n + 1:
             continue
-        # tail: the run ends at the interval before the edge; the edge interval is the event's last or the next one
-        for e in (b - 1, b):
-            if a < e < n and clear[e]:
-                m = _still_run(level, spread, e - 1, -1)
-                if m >= min_n and e - m > a and (stats or _varied(level[e - m:e])):
-                    s = slice(e - m, e)
-                    own = event_id[s] == row_ids[k]
-                    cause[s][own] = lookup[S.LEVEL_SHIFT]
-                break
-        # head: the edge interval is the event's first or the one before it
-        for e in (a, a - 1):
-            if 0 <= e < b - 1 and clear[e]:
-                m = _still_run(level, spread, e + 1, +1)
-                if m >= min_n and e + 1 + m < b and (stats or _varied(level[e + 1:e + 1 + m])):
-                    s = slice(e + 1, e + 1 + m)
-                    own = event_id[s] == row_ids[k]
-                    cause[s][own] = lookup[S.LEVEL_SHIFT]
+        # tail (walking back from the edge: the event's last interval or the next one) and head (walking on from the
+        # event's first interval or the one before); something of the event must stay on the run's other side
+        for edges, step in (((b - 1, b), -1), ((a, a - 1), 1)):
+            for e in edges:
+                if not ((a < e < n) if step < 0 else (0 <= e < b - 1)) or not clear[e]:
+                    continue
+                m = _still_run(level, spread, e + step, step)
+                r0, r1 = (e - m, e) if step < 0 else (e + 1, e + 1 + m)
+                if m >= min_n and (r0 > a if step < 0 else r1 < b) and (stats or _varied(level[r0:r1])):
+                    own = event_id[r0:r1] == row_ids[k]
+                    cause[r0:r1][own] = lookup[S.LEVEL_SHIFT]
                 break
 
 
