@@ -10,7 +10,8 @@ For each fade event of a hop, the other hops analysed with it are asked whether 
 it.  ``network_share`` is the weighted share of those hops that did, ``network_hops`` how many had data then,
 ``network_faded_weight`` the summed weights of those that faded (how much near evidence the share rests on: hops
 far away fading in a regional storm say little about this path), ``network_chance`` the weighted share expected by
-chance in a window that long from each hop's own rate of fading over the record, ``network_weight`` the summed
+chance in a window that long from each hop's own rate of fading over the record outside that window (the
+coincidence under test must not set its own base rate), ``network_weight`` the summed
 weights of the hops watched (in a network of many hops some
 fade somewhere most of the time: 0.1 in six hours of a dry day among the 141 OpenRainER links).
 Weights: exp(-distance / ``CORRELATION_KM``) between path midpoints when the links table gives both hops' site
@@ -38,6 +39,10 @@ __all__ = ["faded_minutes", "minute_counts", "MinuteCounts", "network_columns", 
            "MARGIN_S", "CORRELATION_KM", "midpoint"]
 
 FADED_DB = 3.0
+# the chance rate of each other hop from its minutes OUTSIDE the event's window (``MinuteCounts.chance_outside``),
+# when at least OUTSIDE_MIN_MINUTES (six hours, a stated choice) of them were seen; else from the whole record
+CHANCE_OUTSIDE = True
+OUTSIDE_MIN_MINUTES = 360
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
 NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance", "network_weight")
@@ -105,12 +110,30 @@ class MinuteCounts(NamedTuple):
     faded: np.ndarray
     faded_share: float = 0.0
     starts_per_min: float = 0.0
+    starts: np.ndarray | None = None    # running count of fade episodes begun, like ``faded``
 
     def chance(self, window_min: np.ndarray) -> np.ndarray:
         """Probability that this hop shows a faded minute in a window of ``window_min`` minutes at a random time:
         faded at its start, or a fade beginning inside it (episodes as a Poisson stream at the hop's own rate)."""
         w = np.asarray(window_min, dtype=float)
         return 1.0 - (1.0 - self.faded_share) * np.exp(-self.starts_per_min * w)
+
+    def chance_outside(self, window_min: np.ndarray, first: np.ndarray, last: np.ndarray) -> np.ndarray:
+        """:meth:`chance` with the hop's rates taken from the minutes OUTSIDE the window itself (positions
+        ``first:last`` of ``stamps_ns``): the rate of fading "by chance" must not contain the coincidence under test.
+        In a short record one storm fades every hop for hours, and counting its own minutes in the base rate makes
+        the storm look like chance.  Falls back to the whole record's rates when fewer than
+        ``OUTSIDE_MIN_MINUTES`` lie outside."""
+        w = np.asarray(window_min, dtype=float)
+        if self.starts is None:
+            return self.chance(w)
+        seen_out = self.seen[-1] - (self.seen[last] - self.seen[first])
+        faded_out = self.faded[-1] - (self.faded[last] - self.faded[first])
+        starts_out = self.starts[-1] - (self.starts[last] - self.starts[first])
+        with np.errstate(invalid="ignore", divide="ignore"):
+            share = np.where(seen_out >= OUTSIDE_MIN_MINUTES, faded_out / seen_out, self.faded_share)
+            rate = np.where(seen_out >= OUTSIDE_MIN_MINUTES, starts_out / seen_out, self.starts_per_min)
+        return 1.0 - (1.0 - share) * np.exp(-rate * w)
 
 
 def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
@@ -131,7 +154,8 @@ def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
     starts = int(np.count_nonzero(faded & ~prev))
     return MinuteCounts(stamps, np.concatenate([zero, np.cumsum(seen)]), np.concatenate([zero, np.cumsum(faded)]),
                         faded_share=float(faded.sum()) / n_seen if n_seen else 0.0,
-                        starts_per_min=starts / n_seen if n_seen else 0.0)
+                        starts_per_min=starts / n_seen if n_seen else 0.0,
+                        starts=np.concatenate([zero, np.cumsum(faded & ~prev)]))
 
 
 def network_columns(events: pd.DataFrame, link: Link,
@@ -178,7 +202,8 @@ def network_columns(events: pd.DataFrame, link: Link,
         count += seen
         den = den + np.where(seen, w, 0.0)
         num = num + np.where(seen & faded, w, 0.0)
-        expected = expected + np.where(seen, w * counts.chance(window_min), 0.0)
+        expected = expected + np.where(seen, w * (counts.chance_outside(window_min, first, last) if CHANCE_OUTSIDE
+                                                  else counts.chance(window_min)), 0.0)
     with np.errstate(invalid="ignore", divide="ignore"):
         share[use] = np.where(count > 0, num / den, np.nan)
         chance[use] = np.where(count > 0, expected / den, np.nan)

@@ -122,6 +122,27 @@ def test_base_rates_and_the_share_expected_by_chance():
     assert got["network_share"].iloc[0] == pytest.approx(0.5)
 
 
+def test_the_chance_rate_leaves_out_the_window_under_test():
+    # one day of minutes (-600 .. 839): the neighbour fades through the whole event window (a storm, minutes
+    # -5 .. 15 with the margins) and in one episode of 10 minutes outside it.  The rate of fading "by chance"
+    # comes from the 1419 minutes outside the window: share 10/1419, 1 start per 1419 minutes (hand computation);
+    # counting the storm's own minutes would put the share at 31/1440 and make the coincidence look like chance
+    storm = list(range(-5, 16))
+    other = list(range(400, 410))
+    minutes = _minutes(storm + other, seen=range(-600, 840))
+    counts = N.minute_counts(minutes)
+    window = 10 + 2 * N.MARGIN_S / 60.0 + 1
+    outside = 1440 - 21
+    want = 1 - (1 - 10 / outside) * math.exp(-1 / outside * window)
+    got = N.network_columns(_events(), _link("X"), [(_link("A"), minutes)])
+    assert got["network_chance"].iloc[0] == pytest.approx(want)
+    assert got["network_chance"].iloc[0] < counts.chance(np.array([window]))[0] / 2   # well under the whole-day rate
+    # a record too short to leave the window out (under OUTSIDE_MIN_MINUTES outside it) keeps the whole-record rate
+    short = _minutes([5, 6, 7, 50])
+    got = N.network_columns(_events(), _link("X"), [(_link("A"), short)])
+    assert got["network_chance"].iloc[0] == pytest.approx(N.minute_counts(short).chance(np.array([window]))[0])
+
+
 def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
     # a likelihood ratio needs the rate under "no rain" too: in a large network some hops fade somewhere most of
     # the time (OpenRainER, 141 links: about 10 % of the hops in any six hours of a dry day), so a share at that
