@@ -391,6 +391,9 @@ NETWORK_SHARED_RAIN = 0.3
 # hour 0 / 1, bound 3 / 6 / 10; loss = missed wet share + dry rain share of the other 140 links): bound 10 in 140 of
 # the 141 folds, 6 in one; the left-out links scored so: wet faded minutes called rain 93.0 %, dry 5.5 % (2026-12-05)
 NETWORK_SILENCE_PER_HOUR = 1.0
+# the silence grows with the hours of the hop's whole episode of fades, not only this fade's (term_network);
+# neutral on family B fit seeds 1-50, real OpenRainER dry days 4.9 -> 3.5 % called rain in-sample (2026-12-05)
+EPISODE_SILENCE = True
 NETWORK_SILENCE_MAX = 10.0
 
 
@@ -405,7 +408,11 @@ def term_network(row, link: Link, prior: HopPrior):
     faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops).  When three
     or more other hops were watched and no more faded than chance: -``NETWORK_SHARED_RAIN`` x the watched nearness
     weight (``network_weight``) x (1 + ``NETWORK_SILENCE_PER_HOUR`` x the fade's hours: long rain sweeps a wider area),
-    bounded to -0.3..-``NETWORK_SILENCE_MAX``, where the links table gives site coordinates (else -0.3)."""
+    bounded to -0.3..-``NETWORK_SILENCE_MAX``, where the links table gives site coordinates (else -0.3).  The hours
+    are those of the hop's whole episode (``episode_hours``: its fades less than ``network.EPISODE_GAP_S`` apart)
+    when the near hops stayed no busier than chance over all of it (``episode_share``, ``episode_chance``): a
+    morning of dips returning every few minutes is one spell, and rain on this path for that long would have
+    reached them, however short each dip (``EPISODE_SILENCE``)."""
     share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
     if not (math.isfinite(share) and others >= 1):
         return None
@@ -423,6 +430,13 @@ def term_network(row, link: Link, prior: HopPrior):
         placed = midpoint(link) is not None and math.isfinite(watched)
         hours = max(_f(row.get("duration_s")), 0.0) / 3600.0
         hours = hours if math.isfinite(hours) else 0.0
+        # the hop's whole episode of fades (its fades less than network.EPISODE_GAP_S apart), when the near hops
+        # stayed as quiet over all of it: rain that keeps fading this path for hours would have reached them
+        ep_share, ep_chance, ep_hours = (_f(row.get(c)) for c in ("episode_share", "episode_chance",
+                                                                   "episode_hours"))
+        if (EPISODE_SILENCE and math.isfinite(ep_hours) and ep_hours > hours and math.isfinite(ep_share)
+                and (ep_share <= 0.0 or ep_share - (ep_chance if math.isfinite(ep_chance) else 0.0) <= 0.0)):
+            hours = ep_hours
         s = (_clip(NETWORK_SHARED_RAIN * watched * (1.0 + NETWORK_SILENCE_PER_HOUR * hours), 0.3, NETWORK_SILENCE_MAX)
              if placed else 0.3)
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else

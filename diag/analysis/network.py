@@ -45,7 +45,11 @@ CHANCE_OUTSIDE = True
 OUTSIDE_MIN_MINUTES = 360
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
-NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance", "network_weight")
+NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance", "network_weight",
+                   "episode_share", "episode_chance", "episode_hours")
+# fades of one hop less than this apart make one episode (:func:`network_columns`): rain that keeps returning to a
+# path for hours is one spell of weather over the area, and in that time it reaches the near hops (stated choice)
+EPISODE_GAP_S = 1800.0
 # causes that do not fade a neighbouring hop with this one: multipath is hop-local (each hop's own geometry) and
 # equipment is one hop's own.  Refraction is hop-local too, but a first-pass "refractive" or "unknown" is the call
 # most often wrong in a storm (rain read as a slow fade on every hop at once), and leaving those out took the
@@ -158,34 +162,24 @@ def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
                         starts=np.concatenate([zero, np.cumsum(faded & ~prev)]))
 
 
-def network_columns(events: pd.DataFrame, link: Link,
-                    others: Sequence[tuple[Link, pd.Series | MinuteCounts]]) -> pd.DataFrame:
-    """``network_share`` and ``network_hops`` for each event of ``events`` (NaN / 0 for non-fade events).
+def _episodes(lo: np.ndarray, hi: np.ndarray, gap_ns: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per window [lo, hi]: the span of its episode, the chain of windows each beginning within ``gap_ns`` of the
+    latest end before it."""
+    order = np.argsort(lo, kind="stable")
+    s_lo, s_hi = lo[order], hi[order]
+    reach = np.maximum.accumulate(s_hi)
+    new = np.ones(s_lo.size, dtype=bool)
+    new[1:] = s_lo[1:] > reach[:-1] + gap_ns
+    ids = np.cumsum(new) - 1
+    ep_lo = s_lo[new]
+    ep_hi = np.maximum.reduceat(s_hi, np.flatnonzero(new))
+    out_lo, out_hi = np.empty_like(lo), np.empty_like(hi)
+    out_lo[order], out_hi[order] = ep_lo[ids], ep_hi[ids]
+    return out_lo, out_hi
 
-    ``others``: each other hop's link and its :func:`faded_minutes` (or their :func:`minute_counts`, made once when
-    the same hop is asked about for many hops).  Vectorised over the events, one pass per other hop; the weighted
-    sums add the hops in the order given, as a loop over them would (the same floating-point result)."""
-    share = np.full(len(events), np.nan)
-    chance = np.full(len(events), np.nan)
-    watched = np.zeros(len(events))
-    hops = np.zeros(len(events))
-    mass = np.zeros(len(events))
 
-    def table() -> pd.DataFrame:
-        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass,
-                             "network_chance": chance, "network_weight": watched}, index=events.index)
-
-    if not len(events) or not others:
-        return table()
-    start, end = pd.DatetimeIndex(events["start_utc"]), pd.DatetimeIndex(events["end_utc"])
-    use = (events["event_kind"] == "fade").to_numpy(dtype=bool, na_value=False) & ~start.isna() & ~end.isna()
-    if not use.any():
-        return table()
-    margin = pd.Timedelta(seconds=MARGIN_S)
-    # a minute counts when its stamp lies in [start - margin, end + margin], ends included
-    lo = (start[use] - margin).as_unit("ns").asi8
-    hi = (end[use] + margin).as_unit("ns").asi8
-    mine = midpoint(link)
+def _window_counts(lo: np.ndarray, hi: np.ndarray, mine, others) -> tuple[np.ndarray, ...]:
+    """(hops seen, weight watched, weight faded, weight expected by chance) over the windows [lo, hi] (UTC ns)."""
     num = np.zeros(len(lo))
     den = np.zeros(len(lo))
     expected = np.zeros(len(lo))
@@ -204,12 +198,61 @@ def network_columns(events: pd.DataFrame, link: Link,
         num = num + np.where(seen & faded, w, 0.0)
         expected = expected + np.where(seen, w * (counts.chance_outside(window_min, first, last) if CHANCE_OUTSIDE
                                                   else counts.chance(window_min)), 0.0)
+    return count, den, num, expected
+
+
+def network_columns(events: pd.DataFrame, link: Link,
+                    others: Sequence[tuple[Link, pd.Series | MinuteCounts]]) -> pd.DataFrame:
+    """``network_share`` and ``network_hops`` for each event of ``events`` (NaN / 0 for non-fade events), and the
+    same over the event's EPISODE (``episode_share``, ``episode_chance``, ``episode_hours``): the chain of this
+    hop's fades, on any channel, each beginning within ``EPISODE_GAP_S`` of the one before.
+
+    ``others``: each other hop's link and its :func:`faded_minutes` (or their :func:`minute_counts`, made once when
+    the same hop is asked about for many hops).  Vectorised over the events, one pass per other hop; the weighted
+    sums add the hops in the order given, as a loop over them would (the same floating-point result)."""
+    share = np.full(len(events), np.nan)
+    chance = np.full(len(events), np.nan)
+    watched = np.zeros(len(events))
+    hops = np.zeros(len(events))
+    mass = np.zeros(len(events))
+    ep_share = np.full(len(events), np.nan)
+    ep_chance = np.full(len(events), np.nan)
+    ep_hours = np.full(len(events), np.nan)
+
+    def table() -> pd.DataFrame:
+        return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass,
+                             "network_chance": chance, "network_weight": watched, "episode_share": ep_share,
+                             "episode_chance": ep_chance, "episode_hours": ep_hours}, index=events.index)
+
+    if not len(events) or not others:
+        return table()
+    start, end = pd.DatetimeIndex(events["start_utc"]), pd.DatetimeIndex(events["end_utc"])
+    use = (events["event_kind"] == "fade").to_numpy(dtype=bool, na_value=False) & ~start.isna() & ~end.isna()
+    if not use.any():
+        return table()
+    margin = pd.Timedelta(seconds=MARGIN_S)
+    # a minute counts when its stamp lies in [start - margin, end + margin], ends included
+    lo = (start[use] - margin).as_unit("ns").asi8
+    hi = (end[use] + margin).as_unit("ns").asi8
+    mine = midpoint(link)
+    count, den, num, expected = _window_counts(lo, hi, mine, others)
     with np.errstate(invalid="ignore", divide="ignore"):
         share[use] = np.where(count > 0, num / den, np.nan)
         chance[use] = np.where(count > 0, expected / den, np.nan)
     hops[use] = count
     mass[use] = np.where(count > 0, num, 0.0)
     watched[use] = den
+    e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
+    longer = (e_lo < lo) | (e_hi > hi)
+    e_count, e_den, e_num, e_expected = (_window_counts(e_lo[longer], e_hi[longer], mine, others) if longer.any()
+                                         else (np.zeros(0),) * 4)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        sub_share = np.where(e_count > 0, e_num / e_den, np.nan)
+        sub_chance = np.where(e_count > 0, e_expected / e_den, np.nan)
+    got_share, got_chance = share[use].copy(), chance[use].copy()
+    got_share[longer], got_chance[longer] = sub_share, sub_chance
+    ep_share[use], ep_chance[use] = got_share, got_chance
+    ep_hours[use] = (e_hi - e_lo - 2 * MARGIN_S * 1e9) / 3.6e12
     return table()
 
 

@@ -174,3 +174,44 @@ def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
     # without the chance column (older tables) the share is read as before
     old = {"network_share": 0.3, "network_hops": 10, "network_faded_weight": 1.0}
     assert A.term_network(old, link, prior)[0][A.R] == pytest.approx(2.0)
+
+
+def test_episodes_chain_fades_less_than_the_gap_apart():
+    # windows [0, 10], [20, 30], [100, 110] and [25, 40] minutes with a 30-min gap: the first, second and fourth
+    # chain into one episode [0, 40] (each begins within 30 min of the latest end before it); the third begins 60
+    # min after 40 and stands alone (hand computation)
+    m = 60 * 10 ** 9
+    lo = np.array([0, 20, 100, 25]) * m
+    hi = np.array([10, 30, 110, 40]) * m
+    e_lo, e_hi = N._episodes(lo, hi, 30 * m)
+    assert (e_lo // m).tolist() == [0, 0, 100, 0]
+    assert (e_hi // m).tolist() == [40, 40, 110, 40]
+
+
+def test_episode_columns_and_the_silence_of_a_whole_episode():
+    # this hop fades four times for 10 min, 20 min apart (minutes 0-10, 30-40, 60-70, 90-100): one episode of
+    # 100 min.  A neighbour that never faded leaves the episode's share at 0; its hours (100 min, without the
+    # margins) replace each fade's own in the silence term, so every short fade of the spell weighs like the spell
+    from diag.analysis import attribution as A
+    from diag.analysis.priors import hop_prior
+    starts = [0, 30, 60, 90]
+    events = pd.DataFrame({"event_kind": ["fade"] * 4,
+                           "start_utc": [T0 + pd.Timedelta(minutes=s) for s in starts],
+                           "end_utc": [T0 + pd.Timedelta(minutes=s + 10) for s in starts]})
+    quiet = _minutes([], seen=range(-600, 840))
+    near = _link("X", lat=45.0)
+    got = N.network_columns(events, near, [(_link(h, lat=45.0), quiet) for h in "ABC"])
+    assert got["network_weight"].tolist() == pytest.approx([3.0] * 4)   # three hops at the same place
+    assert got["episode_hours"].tolist() == pytest.approx([100 / 60] * 4)
+    assert got["episode_share"].tolist() == [0.0] * 4
+    prior = hop_prior(near)
+    row = {**got.iloc[1].to_dict(), "duration_s": 600.0}
+    assert A.term_network(row, near, prior)[0][A.R] == pytest.approx(-0.3 * 3.0 * (1 + 100 / 60))
+    # the neighbour faded at minute 65 (inside the episode, outside the second fade's window): the spell was not
+    # quiet, so the second fade keeps its own 10 minutes
+    busy = _minutes([65], seen=range(-600, 840))
+    got = N.network_columns(events, near, [(_link("A", lat=45.0), busy)] +
+                            [(_link(h, lat=45.0), quiet) for h in "BC"])
+    assert got["network_share"].iloc[1] == 0.0 and got["episode_share"].iloc[1] == pytest.approx(1 / 3)
+    row = {**got.iloc[1].to_dict(), "duration_s": 600.0}
+    assert A.term_network(row, near, prior)[0][A.R] == pytest.approx(-0.3 * 3.0 * (1 + 10 / 60))
