@@ -162,24 +162,22 @@ def minute_counts(minutes: pd.Series | MinuteCounts) -> MinuteCounts:
                         starts=np.concatenate([zero, np.cumsum(faded & ~prev)]))
 
 
-def _episodes(lo: np.ndarray, hi: np.ndarray, gap_ns: int) -> tuple[np.ndarray, np.ndarray]:
-    """Per window [lo, hi]: the span of its episode, the chain of windows each beginning within ``gap_ns`` of the
-    latest end before it."""
+def _episodes(lo: np.ndarray, hi: np.ndarray, gap_ns: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(episode of each window, episode starts, episode ends): an episode is a chain of windows [lo, hi], each
+    beginning within ``gap_ns`` of the latest end before it."""
     order = np.argsort(lo, kind="stable")
     s_lo, s_hi = lo[order], hi[order]
     reach = np.maximum.accumulate(s_hi)
     new = np.ones(s_lo.size, dtype=bool)
     new[1:] = s_lo[1:] > reach[:-1] + gap_ns
-    ids = np.cumsum(new) - 1
-    ep_lo = s_lo[new]
-    ep_hi = np.maximum.reduceat(s_hi, np.flatnonzero(new))
-    out_lo, out_hi = np.empty_like(lo), np.empty_like(hi)
-    out_lo[order], out_hi[order] = ep_lo[ids], ep_hi[ids]
-    return out_lo, out_hi
+    ids = np.empty(lo.size, dtype=np.int64)
+    ids[order] = np.cumsum(new) - 1
+    return ids, s_lo[new], np.maximum.reduceat(s_hi, np.flatnonzero(new))
 
 
 def _window_counts(lo: np.ndarray, hi: np.ndarray, mine, others) -> tuple[np.ndarray, ...]:
-    """(hops seen, weight watched, weight faded, weight expected by chance) over the windows [lo, hi] (UTC ns)."""
+    """(hops seen, weight watched, weight faded, share faded, share expected by chance) over the windows [lo, hi]
+    (UTC ns); the shares NaN where no hop was seen."""
     num = np.zeros(len(lo))
     den = np.zeros(len(lo))
     expected = np.zeros(len(lo))
@@ -198,7 +196,10 @@ def _window_counts(lo: np.ndarray, hi: np.ndarray, mine, others) -> tuple[np.nda
         num = num + np.where(seen & faded, w, 0.0)
         expected = expected + np.where(seen, w * (counts.chance_outside(window_min, first, last) if CHANCE_OUTSIDE
                                                   else counts.chance(window_min)), 0.0)
-    return count, den, num, expected
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = np.where(count > 0, num / den, np.nan)
+        chance = np.where(count > 0, expected / den, np.nan)
+    return count, den, num, share, chance
 
 
 def network_columns(events: pd.DataFrame, link: Link,
@@ -235,24 +236,15 @@ def network_columns(events: pd.DataFrame, link: Link,
     lo = (start[use] - margin).as_unit("ns").asi8
     hi = (end[use] + margin).as_unit("ns").asi8
     mine = midpoint(link)
-    count, den, num, expected = _window_counts(lo, hi, mine, others)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        share[use] = np.where(count > 0, num / den, np.nan)
-        chance[use] = np.where(count > 0, expected / den, np.nan)
+    count, den, num, share[use], chance[use] = _window_counts(lo, hi, mine, others)
     hops[use] = count
     mass[use] = np.where(count > 0, num, 0.0)
     watched[use] = den
-    e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
-    longer = (e_lo < lo) | (e_hi > hi)
-    e_count, e_den, e_num, e_expected = (_window_counts(e_lo[longer], e_hi[longer], mine, others) if longer.any()
-                                         else (np.zeros(0),) * 4)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        sub_share = np.where(e_count > 0, e_num / e_den, np.nan)
-        sub_chance = np.where(e_count > 0, e_expected / e_den, np.nan)
-    got_share, got_chance = share[use].copy(), chance[use].copy()
-    got_share[longer], got_chance[longer] = sub_share, sub_chance
-    ep_share[use], ep_chance[use] = got_share, got_chance
-    ep_hours[use] = (e_hi - e_lo - 2 * MARGIN_S * 1e9) / 3.6e12
+    # each episode counted once (an episode of one fade is that fade's own window, so the same figures)
+    ids, e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
+    _, _, _, e_share, e_chance = _window_counts(e_lo, e_hi, mine, others)
+    ep_share[use], ep_chance[use] = e_share[ids], e_chance[ids]
+    ep_hours[use] = (e_hi[ids] - e_lo[ids] - 2 * MARGIN_S * 1e9) / 3.6e12
     return table()
 
 

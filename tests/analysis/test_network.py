@@ -183,9 +183,10 @@ def test_episodes_chain_fades_less_than_the_gap_apart():
     m = 60 * 10 ** 9
     lo = np.array([0, 20, 100, 25]) * m
     hi = np.array([10, 30, 110, 40]) * m
-    e_lo, e_hi = N._episodes(lo, hi, 30 * m)
-    assert (e_lo // m).tolist() == [0, 0, 100, 0]
-    assert (e_hi // m).tolist() == [40, 40, 110, 40]
+    ids, e_lo, e_hi = N._episodes(lo, hi, 30 * m)
+    assert ids.tolist() == [0, 0, 1, 0]
+    assert (e_lo // m).tolist() == [0, 100]
+    assert (e_hi // m).tolist() == [40, 110]
 
 
 def test_episode_columns_and_the_silence_of_a_whole_episode():
