@@ -695,9 +695,17 @@ def _times_text(n: int, step: int) -> np.ndarray:
     return np.asarray(t.strftime("%Y-%m-%dT%H:%M:%SZ"), dtype=object)
 
 
+# resolution of the levels as written [dB]: 0.1 by default; run.py --level-step-db 1 writes whole dB as many radios
+# report them (a robustness check of the same worlds, not another family)
+LEVEL_STEP_DB = 0.1
+
+
 def _fmt(values: np.ndarray) -> np.ndarray:
-    """Levels as written: rounded to 0.1 dB, a lost signal as the receiver floor value."""
-    return np.round(np.nan_to_num(np.asarray(values, dtype=float), nan=FLOOR_DBM), 1)
+    """Levels as written: rounded to ``LEVEL_STEP_DB``, a lost signal as the receiver floor value."""
+    v = np.nan_to_num(np.asarray(values, dtype=float), nan=FLOOR_DBM)
+    if LEVEL_STEP_DB == 0.1:
+        return np.round(v, 1)
+    return np.round(np.round(v / LEVEL_STEP_DB) * LEVEL_STEP_DB, 3)
 
 
 def _channel_columns(truth: HopTruth, ch: str, shape: str, n: int) -> dict[str, np.ndarray]:

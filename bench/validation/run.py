@@ -4,6 +4,8 @@
     .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
     .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
     .venv/bin/python bench/validation/run.py --variant  # seeds 101-150, made by the changed process B2
+    .venv/bin/python bench/validation/run.py --family c # family C (family_c.py), held-out seeds 26-50
+    .venv/bin/python bench/validation/run.py --level-step-db 1   # family B's levels written in whole dB
     .venv/bin/python bench/validation/run.py --real-only --real-all   # only the real count, on all 141 links
     .venv/bin/python bench/validation/run.py --real-only --real-base DIR  # ... on any folder of the same layout
 
@@ -33,6 +35,11 @@ def main(argv=None) -> int:
     ap.add_argument("--fit-half", action="store_true", help="score the fit half (seeds 1-50) instead")
     ap.add_argument("--variant", action="store_true",
                     help="score seeds 101-150, made by the changed process B2 (held out from every fit)")
+    ap.add_argument("--family", choices=("b", "c"), default="b",
+                    help="scenario family: b (family_b.py, default) or c (family_c.py, written independently of both "
+                         "the tool and family B)")
+    ap.add_argument("--level-step-db", type=float, default=None,
+                    help="family B only: write the levels rounded to this step (default 0.1; 1 = whole dB)")
     ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
     ap.add_argument("--real-only", action="store_true", help="only the OpenRainER count (skip family B)")
     ap.add_argument("--real-base", default=None,
@@ -59,18 +66,33 @@ def main(argv=None) -> int:
     print(f"diag analysed with: {Path(diag.__file__).parent}; attribution {score.ATTRIBUTION}")
     figures = {"diag": str(Path(diag.__file__).parent), "attribution": score.ATTRIBUTION}
     if not args.real_only:
-        seeds = fb.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fb.HELDOUT_SEEDS
+        fam = fb
+        if args.family == "c":
+            import family_c as fam
+            if args.variant or args.level_step_db is not None:
+                print("error: --variant and --level-step-db apply to family B only", file=sys.stderr)
+                return 2
+            score.use_family(fam)
+        if args.level_step_db is not None:
+            if not args.level_step_db > 0:
+                print("error: --level-step-db must be positive", file=sys.stderr)
+                return 2
+            fb.LEVEL_STEP_DB = args.level_step_db
+        seeds = fam.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fam.HELDOUT_SEEDS
         if args.quick:
             seeds = seeds[:6]
         t0 = time.perf_counter()
-        tally, timing = score.run(seeds, fb.SHAPES, Path(args.out))
+        tally, timing = score.run(seeds, fam.SHAPES, Path(args.out))
         t_sim = time.perf_counter() - t0
         half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
-        print(f"Family B, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds)")
+        step = f", levels in {args.level_step_db:g}-dB steps" if args.level_step_db is not None else ""
+        print(f"Family {args.family.upper()}, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds){step}")
         print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
         print(score.worst_hops(tally, args.worst))
-        print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items()) + f"; family B total {t_sim:.1f}")
-        figures.update({"half": half, "seeds": list(seeds), "family_b": score.summary(tally), "timing_s": timing})
+        print("timing (s): " + ", ".join(f"{k} {v:.1f}" for k, v in timing.items())
+              + f"; family {args.family.upper()} total {t_sim:.1f}")
+        figures.update({"half": half, "seeds": list(seeds), f"family_{args.family}": score.summary(tally),
+                        "timing_s": timing, "level_step_db": args.level_step_db})
     if not args.no_real:
         try:
             import realdata

@@ -44,6 +44,16 @@ except ImportError:
     sys.path.insert(0, str(REPO))
 
 CALLED = fb.CAUSES + ("unknown", "none")
+# the scenario family scored: family B by default; use_family() switches to another module with the same interface
+FAMILY = fb
+
+
+def use_family(module) -> None:
+    """Score ``module`` (same interface as family_b: CAUSES, SHAPES, START_UTC, make_world, write_world)."""
+    global FAMILY
+    if tuple(module.CAUSES) != tuple(fb.CAUSES) or tuple(module.SHAPES) != tuple(fb.SHAPES):
+        raise ValueError(f"{module.__name__}: CAUSES and SHAPES must be family B's")
+    FAMILY = module
 F_BANDS = ((6.0, 15.0), (15.0, 30.0), (30.0, 50.0), (50.0, 81.0))
 D_BANDS = ((0.0, 1.0), (1.0, 5.0), (5.0, 20.0), (20.0, 61.0))
 DEFAULT_OUT = REPO / "bench" / "output" / "validation"
@@ -83,6 +93,7 @@ class Tally:
     diag: dict = field(default_factory=dict)     # cell -> (5 x 7) seconds
     thumb: dict = field(default_factory=dict)
     events: list = field(default_factory=list)   # (shape, confidence, right, cause)
+    covers: list = field(default_factory=list)   # per event: True when it covers a faded truth second
     unknown_events: dict = field(default_factory=dict)
     agree: dict = field(default_factory=dict)    # shape -> [agree, total]
     hops: list = field(default_factory=list)     # per hop and shape: (seed, link_id, shape, mechanisms, 5x7 s)
@@ -110,7 +121,7 @@ def _thumb_codes(event_id: np.ndarray, events: pd.DataFrame) -> np.ndarray:
 def _per_second_calls(frame: pd.DataFrame, n: int, step: int, codes: np.ndarray) -> np.ndarray:
     """Called code per truth second for a statistics log (each interval's call over its seconds)."""
     out = np.full(n, CALLED.index("none"), dtype=np.int64)
-    k = ((frame.index - fb.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
+    k = ((frame.index - FAMILY.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
     for start, code in zip(k, codes):
         if 0 <= start < n:
             out[start:start + step] = code
@@ -139,7 +150,7 @@ def score_hop(tally: Tally, truth: fb.HopTruth, result, shape: str) -> dict[str,
             thumb = _thumb_codes(eid, events)
             if shape in ("1s", "1min"):
                 step = 1 if shape == "1s" else 60
-                k = ((frame.index - fb.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
+                k = ((frame.index - FAMILY.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
                 ok = (k >= 0) & (k < n)
                 k, called, thumb, eid = k[ok], called[ok], thumb[ok], eid[ok]
                 tr = tcodes[k]
@@ -162,7 +173,7 @@ def score_hop(tally: Tally, truth: fb.HopTruth, result, shape: str) -> dict[str,
                 tally.add(tally.diag, cell, tcodes[faded], called_s[faded], w)
                 tally.add(tally.thumb, cell, tcodes[faded], thumb_s[faded], w)
                 eid_s = np.full(n, -1, dtype=np.int64)
-                k = ((frame.index - fb.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
+                k = ((frame.index - FAMILY.START_UTC) // pd.Timedelta(seconds=1)).to_numpy()
                 for start, e in zip(k, eid):
                     if 0 <= start < n:
                         eid_s[start:start + 900] = e
@@ -198,6 +209,7 @@ def _event_records(tally: Tally, shape: str, events: pd.DataFrame, ch: str, eid:
             major = "none"
         conf = float(events.at[i, "confidence"]) if pd.notna(events.at[i, "confidence"]) else 0.0
         tally.events.append((shape, conf, cause == major, cause))
+        tally.covers.append(major != "none")
 
 
 def _agreement(tally: Tally, truth: fb.HopTruth, one_min: dict, fifteen: dict, shape15: str) -> None:
@@ -226,7 +238,7 @@ def analyse_world(world: fb.World, out_dir: Path, shapes, tally: Tally, timing: 
     from diag.pipeline import analyze_files
 
     t0 = time.perf_counter()
-    files = fb.write_world(world, out_dir, shapes)
+    files = FAMILY.write_world(world, out_dir, shapes)
     timing["write_s"] = timing.get("write_s", 0.0) + time.perf_counter() - t0
     links = read_links_table(out_dir / "links.csv")
     by_id = {t.hop.link_id: t for t in world.hops}
@@ -299,9 +311,13 @@ def summary(tally: Tally) -> dict:
         m = sum(v for k, v in tally.diag.items() if k[2] == shape)
         t = sum(v for k, v in tally.thumb.items() if k[2] == shape)
         rows, ece = reliability(tally.events, shape)
+        _, ece_faded = reliability([e for e, c in zip(tally.events, tally.covers) if c], shape)
         out["by_shape"][shape] = {"faded_s": float(m.sum()), "f1": macro_f1(m), "f1_thumb": macro_f1(t),
                                   "unknown": unknown_share(m), "confusion": m.tolist(), "confusion_thumb": t.tolist(),
-                                  "ece": ece, "events": sum(1 for e in tally.events if e[0] == shape),
+                                  "ece": ece, "ece_faded": ece_faded,
+                                  "events": sum(1 for e in tally.events if e[0] == shape),
+                                  "events_no_truth_fade": sum(1 for e, c in zip(tally.events, tally.covers)
+                                                              if e[0] == shape and not c),
                                   "unknown_events": tally.unknown_events.get(shape, 0)}
         out["calibration"][shape] = rows
     rows, ece = reliability(tally.events)
@@ -344,12 +360,17 @@ def worst_hops(tally: Tally, n: int = 10) -> str:
 def report(tally: Tally, *, cells: bool = True, matrices: bool = False) -> str:
     s = summary(tally)
     lines = []
-    lines.append("== Family B: per sampling (time-weighted over faded truth samples) ==")
+    name = FAMILY.__name__.replace("family_", "Family ").replace("Family b", "Family B").replace("Family c",
+                                                                                                 "Family C")
+    lines.append(f"== {name}: per sampling (time-weighted over faded truth samples) ==")
     lines.append(f"{'sampling':<11}{'faded min':>11}{'macro-F1':>10}{'thumb F1':>10}{'unknown':>9}{'events':>8}"
-                 f"{'ECE':>7}")
+                 f"{'ECE':>7}{'no fade':>9}{'ECE faded':>11}")
     for shape, v in s["by_shape"].items():
         lines.append(f"{shape:<11}{v['faded_s'] / 60:11.0f}{v['f1']:10.3f}{v['f1_thumb']:10.3f}"
-                     f"{100 * v['unknown']:8.1f}%{v['events']:8d}{v['ece']:7.3f}")
+                     f"{100 * v['unknown']:8.1f}%{v['events']:8d}{v['ece']:7.3f}{v['events_no_truth_fade']:9d}"
+                     f"{v['ece_faded']:11.3f}")
+    lines.append("(no fade: events covering no faded truth second, counted wrong in ECE; ECE faded: ECE over the "
+                 "other events)")
     lines.append("")
     lines.append("-- per cause: share of the cause's faded time called right (recall), diag / rule of thumb --")
     lines.append(f"{'sampling':<11}" + "".join(f"{c:>20}" for c in fb.CAUSES))
@@ -397,7 +418,7 @@ def run(seeds, shapes=fb.SHAPES, out_dir: Path = DEFAULT_OUT, progress=True) -> 
     timing: dict = {}
     for seed in seeds:
         t0 = time.perf_counter()
-        world = fb.make_world(seed)
+        world = FAMILY.make_world(seed)
         timing["generate_s"] = timing.get("generate_s", 0.0) + time.perf_counter() - t0
         analyse_world(world, Path(out_dir) / f"seed{seed:03d}", shapes, tally, timing)
         if progress:
