@@ -32,10 +32,11 @@ Mechanisms and sources (each model is a small vectorised function below, source 
 * clear-air multipath (hops >= 5 km): direct ray + slowly rotating reflected ray + diffuse scatter with a
   Gaussian Doppler spectrum (0.03-0.2 Hz), in bursts on the nights only (local mean solar time 21:00-08:30);
   the bursts are added until the time beyond 10 dB matches the worst-month ITU-R P.530-17 §2.3.1/§2.3.2
-  prediction for the hop times a random night-severity factor.  The two directions of a hop differ in
-  frequency, so their reflected-ray phases and scatter decorrelate; H and V fade almost together;
-* refractive: the effective earth-radius factor k(t) of each region dips (sub-refraction: k down to 0.45-0.85,
-  20 min to hours, at night and in the morning); the loss is the single knife-edge diffraction loss of
+  prediction for the hop times a night-severity factor (lognormal, sigma 0.6), as far as the night hours allow;
+  the tail then falls 10 dB per decade.  The two directions of a hop differ in frequency, so their reflected-ray
+  phases and scatter decorrelate; H and V fade almost together;
+* refractive: the effective earth-radius factor k(t) of each region dips (sub-refraction: k down to 0.5-0.85,
+  20 min to hours, starting at night or in the morning); the loss is the single knife-edge diffraction loss of
   ITU-R P.526 over the hop's most significant obstacle, whose clearance is set at k = 4/3 (0.6-3 F1).  Only
   hops with marginal clearance fade; short hops hardly feel k.  Long low hops also get slow beam-decoupling
   fades (smooth, 3-20 dB, 20 min-4 h, a shape of common practice);
@@ -47,28 +48,33 @@ Mechanisms and sources (each model is a small vectorised function below, source 
   a planned-versus-built nominal offset, missing stretches (absent rows) and blank cells, and a receiver that
   reports the floor once the level is below its detection limit (a few dB under the threshold).
 
+``World.notes`` lists the rain episodes of the seed.
+
 Truth.  Per channel and second: the contribution of each cause in dB (rain includes the wet radomes; an upfade
-is a negative multipath contribution; equipment losses carry nominal - floor as their signal_loss
-contribution); faded = total >= ``FADE_DB`` or lost; the cause is the largest positive contribution, and an
-equipment loss is always signal_loss.  The daily swing, the noise and the nominal offset are not causes.
+is a negative multipath contribution; equipment losses carry nominal - floor as their signal_loss contribution;
+causes a hop never has share one read-only zero array); faded = total >= ``FADE_DB`` or lost; the cause is the
+largest positive contribution, and an equipment loss is always signal_loss.  The daily swing, the noise and the
+nominal offset are not causes.  ``rsl_dbm`` is the level the radio measured before quantisation (NaN when lost);
+``absent`` (rows missing from every log) and ``blank`` (empty cells) say what the logs leave out.
 
 Logs (one file per hop and shape, each layout documented in docs/usage.md §4 and checked with ``diag ingest``):
 ``1s`` comma CSV, epoch seconds, columns ``unix_time, Hop, Dir, Rx level (dBm)[, Tx level (dBm)]``;
 ``1min`` the 1-s process sampled at each whole minute, semicolon + decimal comma, ISO stamps with a +02:00
 offset, ``Timestamp;Link;Direction;RxLevel[;TxLevel]``; ``15min_mam`` min/avg/max of the 1-s readings per
 15 min stamped at the interval start, ``Interval start, Hop, Dir, Rx min 900s (dBm), ...``; ``15min_mm``
-min/max only, tab separated with separate day-first ``Date`` (dd.mm.yyyy) and ``Time (UTC)`` columns.  ``links.csv`` and
-``truth/<link_id>.npz`` come with them.
+min/max only, tab separated with separate day-first ``Date`` (dd.mm.yyyy) and ``Time (UTC)`` columns.
+``links.csv`` and ``truth/<link_id>.npz`` come with them.
 
 Split.  ``FIT_SEEDS`` = 1-25 may be used for tuning; ``HELDOUT_SEEDS`` = 26-50 are for reporting only.
 
-How it differs by design from a generator with discrete Gaussian convective cells on a single day: rain is a
-continuous multi-scale random field with intermittency (no cell list), organised as a mesoscale squall system
-with a trailing stratiform region plus separate light-rain episodes; the record spans two days and two nights;
-multipath is a two-ray-plus-scatter process gated to night windows and calibrated to P.530 rather than a
-lognormal-duration fade list; refractive fades follow from a k(t) process and each hop's clearance geometry
-rather than being placed on chosen hops; there is ATPC; the links table carries coordinates of a real-looking
-network with hubs; the logs use other column names, separators, time formats and a different receiver floor.
+How it differs by design from a generator with discrete Gaussian convective cells on a single day: there is no
+cell list at all; rain is a continuous multi-scale random field with intermittency whose cells are born, evolve
+and die inside it, organised as a mesoscale squall system (convective line + trailing stratiform region of
+hours) that covers many hops at once, plus separate light-rain episodes and independent weather on the outlying
+hops; the record spans two days and two nights, so rain, clear-air fading and equipment events fall at different
+local times; clear-air fades follow from processes (a two-ray-plus-scatter channel calibrated to P.530, a k(t)
+series acting on each hop's clearance geometry) rather than from fade shapes placed on hops; ATPC hides part of
+the rain in the TSL; and the network has hubs and site coordinates.
 
 Run ``python bench/validation/family_c.py --seed 1 --out DIR`` to write one seed and print a per-hop summary.
 """
@@ -425,6 +431,8 @@ class Hop:
         return self.site_a_elev_m + self.mast_a_m, self.site_b_elev_m + self.mast_b_m
 
     def links_row(self) -> dict:
+        """A links-table row; antenna_height_m is the mean antenna altitude a.s.l. (ground + mast, as P.530 uses
+        it), site_*_elev_m the ground altitude of each site."""
         h_a, h_b = self.antenna_altitudes_m
         return {
             "link_id": self.link_id, "frequency_ghz": round(self.frequency_ghz, 3),
@@ -851,13 +859,14 @@ def _to_seconds(values_10s: np.ndarray) -> np.ndarray:
 
 def k_factor_series(rng, lon_deg: float, n_events: int) -> np.ndarray:
     """Effective earth-radius factor k per second: about 4/3 with slow wander, and sub-refraction events
-    (k down to 0.45-0.85, ramps of 10-90 min, holding 0-2 h) at night and in the morning (solar 19-10 h).
-    The event shapes are this file's own choice; the k range is the one P.530 §2.2.2 plans for (from memory)."""
+    (k down to 0.5-0.85, ramps of 10-90 min, holding 0-2 h) at night and in the morning (solar 19-10 h).
+    The event shapes are this file's own choice; P.530 §2.2.2 plans clearance for k down to about 2/3 in
+    temperate climates and less on some paths (from memory)."""
     inv_k = 0.75 + 0.02 * ar1_noise(rng, DURATION_S, 3 * 3600.0)
     hours = solar_hour(np.arange(0, DURATION_S, 600), lon_deg)
     cand = np.flatnonzero((hours >= 19.0) | (hours < 10.0)) * 600
     for _ in range(n_events):
-        k_min = rng.uniform(0.45, 0.85)
+        k_min = rng.uniform(0.5, 0.85)
         rise, hold, fall = rng.uniform(600, 3600), rng.uniform(0, 2 * 3600), rng.uniform(900, 5400)
         start = float(rng.choice(cand))
         sl, w = _window(DURATION_S, start, rise, hold, fall)
