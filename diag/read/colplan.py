@@ -135,6 +135,8 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
             vals = _sample_values(batch, n, 400)
             if epoch_kind(vals):
                 epochs.append(n)
+            elif _dates_only(vals):
+                dates.append(n)   # ISO dates without a time of day: a date column (joined to a clock column below)
             elif detect_datetime_format(vals):
                 full.append(n)
             elif detect_date_format(vals):
@@ -163,6 +165,10 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
                               None, zone, label, header_line)
         elif epochs:
             spec = _time_spec([_sample_values(batch, epochs[0])], (epochs[0],), None, zone, label, header_line)
+        elif dates and any(_dates_only(_sample_values(batch, d, 400)) for d in dates):
+            # ISO dates alone (one row a day): midnight of each date, as before such columns were told apart
+            d = next(d for d in dates if _dates_only(_sample_values(batch, d, 400)))
+            spec = _time_spec([_sample_values(batch, d)], (d,), None, zone, label, header_line)
         else:
             # any other column whose content is a date and time
             for n in names:
@@ -258,6 +264,15 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
     ignored = [n for n in names if n not in roles and n != ""]
     layout = "long-named" if qname_col else ("long" if channel_col or link_col else "wide")
     return ColumnPlan(spec, link_col, channel_col, qname_col, values, layout, roles, ignored, guesses, warn)
+
+
+_ISO_DATE_ONLY = re.compile(r"^\d{4}-\d{2}-\d{2}$")
+
+
+def _dates_only(vals: list[str]) -> bool:
+    """True when the sampled values are ISO 8601 calendar dates with no time of day (``2030-07-12``)."""
+    vals = [v.strip() for v in vals if v and v.strip()]
+    return bool(vals) and all(_ISO_DATE_ONLY.match(v) for v in vals)
 
 
 def _mostly_numeric(vals: list[str]) -> bool:
