@@ -40,6 +40,7 @@ def main(argv=None) -> int:
                          "the tool and family B)")
     ap.add_argument("--level-step-db", type=float, default=None,
                     help="family B only: write the levels rounded to this step (default 0.1; 1 = whole dB)")
+    ap.add_argument("--seeds", default=None, help="these seeds instead of a whole half, e.g. 32-50")
     ap.add_argument("--no-real", action="store_true", help="skip the OpenRainER count")
     ap.add_argument("--real-only", action="store_true", help="only the OpenRainER count (skip family B)")
     ap.add_argument("--real-base", default=None,
@@ -79,12 +80,17 @@ def main(argv=None) -> int:
                 return 2
             fb.LEVEL_STEP_DB = args.level_step_db
         seeds = fam.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fam.HELDOUT_SEEDS
+        if args.seeds:
+            seeds = tuple(score._seed_list(args.seeds))
         if args.quick:
             seeds = seeds[:6]
         t0 = time.perf_counter()
         tally, timing = score.run(seeds, fam.SHAPES, Path(args.out))
         t_sim = time.perf_counter() - t0
         half = "FIT" if args.fit_half else "HELD-OUT (changed process B2)" if args.variant else "HELD-OUT"
+        if args.seeds:
+            fit = set(seeds) & set(fam.FIT_SEEDS)
+            half = "FIT" if fit == set(seeds) else "MIXED fit and held-out" if fit else half
         step = f", levels in {args.level_step_db:g}-dB steps" if args.level_step_db is not None else ""
         print(f"Family {args.family.upper()}, {half} half, seeds {seeds[0]}-{seeds[-1]} ({len(seeds)} seeds){step}")
         print(score.report(tally, cells=not args.no_cells, matrices=args.matrices))
