@@ -21,8 +21,8 @@ One seed holds 2 days (172 800 s from ``START_UTC``, 16:00 UTC, mid July) at 1 s
 
 Mechanisms and sources (each model is a small vectorised function below, source in its docstring):
 
-* rain: specific attenuation from ITU-R P.838-3 (own implementation, checked against the values in the shared
-  reference sheet), integrated along the path through a moving rain field.  The field is a lognormal
+* rain: specific attenuation from ITU-R P.838-3 (own implementation, checked against published check
+  values, check_published_values), integrated along the path through a moving rain field.  The field is a lognormal
   transform of a Gaussian field with a power-law spectrum and an intermittency threshold ("String of Beads"
   type: Pegram & Clothier 2001), advected as a frozen pattern (Taylor's hypothesis) while two independent
   realisations are rotated into each other to give the cells a lifetime;
@@ -145,7 +145,7 @@ def p838_coefficients(frequency_ghz, tilt_deg=0.0, elevation_deg=0.0):
     Parameters: frequency_ghz [GHz, 1-1000]; tilt_deg polarisation tilt [deg] (0 = H, 90 = V);
     elevation_deg path elevation [deg] (0 for terrestrial hops).  Returns (k, alpha).
 
-    Source: ITU-R P.838-3 (03/2005), eqs. (2)-(5) and Tables 1-4 (constants as in the shared reference sheet).
+    Source: ITU-R P.838-3 (03/2005), eqs. (2)-(5) and Tables 1-4 (constants as published).
     """
     k_h = 10.0 ** _p838_term("kH", frequency_ghz)
     k_v = 10.0 ** _p838_term("kV", frequency_ghz)
@@ -168,13 +168,13 @@ def rain_specific_attenuation_db_per_km(rain_mmh, frequency_ghz, polarization="H
 
 def free_space_loss_db(frequency_ghz, distance_km):
     """Free-space basic transmission loss [dB] = 92.45 + 20 log f + 20 log d.  Source: ITU-R P.525-4, eq. (8)
-    (from memory; the constant is checked against the shared reference sheet)."""
+    (from memory; the constant is checked in check_published_values)."""
     return 92.45 + 20.0 * np.log10(frequency_ghz) + 20.0 * np.log10(distance_km)
 
 
 def fresnel_radius_m(d1_km, d2_km, frequency_ghz):
     """First Fresnel zone radius [m] at d1/d2 [km] from the ends: 17.3 sqrt(d1 d2 / (f d)).
-    Source: ITU-R P.530-18 §2.2.1 (via the shared reference sheet)."""
+    Source: ITU-R P.530-18 §2.2.1."""
     return 17.3 * np.sqrt(d1_km * d2_km / (frequency_ghz * (d1_km + d2_km)))
 
 
@@ -195,14 +195,14 @@ def knife_edge_loss_db(nu):
 
 def p530_geoclimatic_factor(dn1_n_units, terrain_roughness_m):
     """Geoclimatic factor K = 10^(-4.4 - 0.0027 dN1) (10 + s_a)^-0.46.
-    Source: ITU-R P.530-17 (12/2017) §2.3.1, detailed method (via the shared reference sheet)."""
+    Source: ITU-R P.530-17 (12/2017) §2.3.1, detailed method."""
     return 10.0 ** (-4.4 - 0.0027 * dn1_n_units) * (10.0 + terrain_roughness_m) ** -0.46
 
 
 def p530_multipath_occurrence_pct(geoclimatic_k, distance_km, frequency_ghz, h_e_m, h_r_m):
     """Multipath occurrence factor p0 [% of the worst month]: p_w at A = 0 of
     K d^3.4 (1 + |eps_p|)^-1.03 f^0.8 10^(-0.00076 hL - A/10), eps_p = |h_r - h_e| / d [mrad], hL = min(h_e, h_r).
-    Heights are antenna altitudes above sea level [m].  Source: ITU-R P.530-17 §2.3.1 (via the shared sheet)."""
+    Heights are antenna altitudes above sea level [m].  Source: ITU-R P.530-17 §2.3.1."""
     eps_p = np.abs(np.asarray(h_r_m, dtype=float) - h_e_m) / distance_km
     h_l = np.minimum(h_e_m, h_r_m)
     return (geoclimatic_k * distance_km ** 3.4 * (1.0 + eps_p) ** -1.03 * frequency_ghz ** 0.8
@@ -212,7 +212,7 @@ def p530_multipath_occurrence_pct(geoclimatic_k, distance_km, frequency_ghz, h_e
 def p530_fade_exceedance_pct(fade_depth_db, p0_pct):
     """Percentage of the worst month that a fade depth [dB] is exceeded, for all depths: the deep-fade law
     p0 10^(-A/10) beyond A_t = 25 + 1.2 log p0 and the shallow-fade interpolation below it.
-    Source: ITU-R P.530-17/-18 §2.3.2, steps 1-3 (via the shared reference sheet)."""
+    Source: ITU-R P.530-17/-18 §2.3.2, steps 1-3."""
     a = np.asarray(fade_depth_db, dtype=float)
     p0 = float(p0_pct)
     a_t = 25.0 + 1.2 * math.log10(p0)
@@ -282,12 +282,12 @@ def wet_antenna_loss_db(rain_mmh, step_s, max_loss_db, rain_scale_mmh, wetting_s
 
 def rice_deep_fade_pct(fade_depth_db, rice_k):
     """P(power < -A dB relative to the mean) [%] in the deep tail of a Rice channel: 100 (1+K) e^-K 10^(-A/10);
-    Rayleigh for K = 0.  Source: Rice power pdf at x -> 0 (shared reference sheet §5; asymptote derived here)."""
+    Rayleigh for K = 0.  Source: Rice power pdf at x -> 0 (textbook Rice fading; asymptote derived here)."""
     return 100.0 * (1.0 + rice_k) * np.exp(-rice_k) * 10.0 ** (-np.asarray(fade_depth_db, dtype=float) / 10.0)
 
 
 def check_published_values() -> None:
-    """Assert the check values of the shared reference sheet (P.838-3, P.525, P.530 multipath, Fresnel)."""
+    """Assert published check values (P.838-3, P.525, P.530 multipath, Fresnel)."""
     g = rain_specific_attenuation_db_per_km(50.0, np.array([23.0, 38.0]), "H")
     assert np.allclose(g, [6.9929, 12.587], rtol=1e-3), g
     g = rain_specific_attenuation_db_per_km(50.0, np.array([23.0, 38.0]), "V")
