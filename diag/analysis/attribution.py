@@ -34,6 +34,7 @@ from diag.analysis.network import midpoint
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior, prior_log_odds
 from diag.links import Link
 from diag.models import p838
+from diag.models.fading import RAYLEIGH_LOG_MEAN_DB
 from diag.numeric import as_float as _f  # a cell as float, NaN when missing
 from diag.numeric import duration_word
 
@@ -171,9 +172,7 @@ def term_upfade(row, link: Link, prior: HopPrior):
     return _v(-s, s, s / 3.0), text
 
 
-# mean of 10 log10 of a Rayleigh (exponentially distributed) power against its mean power: -10 gamma / ln 10 =
-# -2.507 dB, gamma Euler's constant (the "log-mean" bias of Rayleigh fading; Rice fading, with a steady ray, has less)
-RAYLEIGH_LOG_MEAN_DB = 10.0 * 0.5772156649015329 / math.log(10.0)
+# RAYLEIGH_LOG_MEAN_DB (diag.models.fading): the mean in dB of a Rayleigh-faded level lies 2.507 dB below its mean power
 SLOW_MIN_S = 600.0       # an event long enough to hold many independent multipath fades (they decorrelate in seconds)
 SLOW_MARGIN_DB = 1.0     # reference error and the event's own edges (stated)
 SLOW_SCALE_DB = 1.0

@@ -29,6 +29,7 @@ from diag.analysis.step_detection import (  # noqa: F401 - Step and the clear le
     hidden_steps,
 )
 from diag.config import AnalysisConfig
+from diag.models.fading import RAYLEIGH_LOG_MEAN_DB
 from diag.numeric import theil_sen
 from diag.results import ChannelSteps
 
@@ -186,25 +187,47 @@ def path_level(frame: pd.DataFrame) -> np.ndarray:
     return level
 
 
+# a step whose interval maxima moved with it by this share of its size is a step even where the spread changed
+# with it (see _fading_not_step), when it is larger than the average of a multipath spell can sink: the Rayleigh
+# log-mean bias plus 1 dB of reference error (the margin of attribution.term_slow).  FADING_MAX_CHECK False restores
+# the spread test alone
+FADING_MAX_SHARE = 0.5
+FADING_MAX_CHECK = True
+FADING_MAX_MIN_DB = RAYLEIGH_LOG_MEAN_DB + 1.0
+
+
 def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
-                     change_db: float = 4.0) -> bool:
+                     change_db: float = 4.0, high: pd.Series | None = None) -> bool:
     """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
 
     A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
     multipath activity lowers the average (the mean of a Rayleigh-faded level in dB is 2.5 dB below its mean
     power) while widening the spread to 10-30 dB.  A step across which the median spread changes by ``change_db``
-    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source).
+    to a wide ``wide_db`` or more is taken for fading activity (common practice, no outside source), unless the
+    interval maxima (``high``: transmit changes removed, else ``rsl_max_dbm``) moved with the step by
+    ``FADING_MAX_SHARE`` of its size or more and the step exceeds ``FADING_MAX_MIN_DB``: clear-air fading enhances as
+    well as fades (P.530 §2.3.3), so the start of a multipath spell leaves the maxima where they were or lifts them
+    and sinks the average by at most the Rayleigh log-mean bias; only a change of the clear level itself (an antenna
+    knocked as the night's fading began) carries the maxima down with a larger step of the average.
     """
     if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
         return False
     spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
     t = step.time_utc
     window = pd.Timedelta(hours=window_h)
-    before = spread.loc[t - window: t - pd.Timedelta(seconds=1)].median()
+    early = pd.Timedelta(seconds=1)
+    before = spread.loc[t - window: t - early].median()
     after = spread.loc[t: t + window].median()
     if not (np.isfinite(before) and np.isfinite(after)):
         return False
-    return max(before, after) >= wide_db and abs(after - before) >= change_db
+    if not (max(before, after) >= wide_db and abs(after - before) >= change_db):
+        return False
+    if FADING_MAX_CHECK and abs(step.size_db) >= FADING_MAX_MIN_DB:
+        top = high if high is not None else frame["rsl_max_dbm"]
+        moved = float(top.loc[t: t + window].median() - top.loc[t - window: t - early].median())
+        if np.isfinite(moved) and moved * np.sign(step.size_db) >= FADING_MAX_SHARE * abs(step.size_db):
+            return False
+    return True
 
 
 def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.ndarray | None = None) -> ChannelSteps:
@@ -234,7 +257,7 @@ def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.nda
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []
     if series.kind == "stats" and steps:
-        steps = [step for step in steps if not _fading_not_step(frame, step)]
+        steps = [step for step in steps if not _fading_not_step(frame, step, high=high)]
     if series.kind in HIDDEN_STEPS and np.isfinite(level).sum() > 10:
         hidden = hidden_steps(pd.Series(level, index=frame.index), series.interval_s, steps,
                               min_step_db=config.step_min_db, window_s=HIDDEN_WINDOW_S)

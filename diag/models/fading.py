@@ -32,9 +32,13 @@ __all__ = ["rayleigh_pdf_db", "rayleigh_cdf_db", "rayleigh_exceedance_db", "rice
            "rice_exceedance_db", "k_factor_db", "k_factor_linear", "envelope_from_level_db", "rice_k_moments",
            "rice_k_mle", "RiceFit", "fit_rice", "rayleigh_level_crossing_rate_hz",
            "rayleigh_average_fade_duration_s", "doppler_from_crossing_rate_hz", "rice_level_crossing_rate_hz",
-           "rice_average_fade_duration_s"]
+           "rice_average_fade_duration_s", "RAYLEIGH_LOG_MEAN_DB"]
 
 _LN10_OVER_10 = math.log(10.0) / 10.0
+# how far the mean in dB of a Rayleigh-faded level lies below its mean power [dB]: E[10 log10 X] = -10 gamma / ln 10
+# for X exponential with mean 1 (gamma Euler's constant), 2.507 dB ("log-mean" bias; Rice fading, with a steady
+# ray, has less).  Textbook result (E[ln X] = -gamma for the unit exponential), checked numerically in the tests
+RAYLEIGH_LOG_MEAN_DB = 10.0 * 0.5772156649015329 / math.log(10.0)
 
 
 def k_factor_db(k_factor: ArrayLike) -> ArrayLike:

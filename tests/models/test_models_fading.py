@@ -325,3 +325,11 @@ def test_rice_lcr_reduces_to_rayleigh():
                                fading.rayleigh_level_crossing_rate_hz(y, 2.0), rtol=1e-12)
     np.testing.assert_allclose(fading.rice_average_fade_duration_s(y, 0.0, 2.0),
                                fading.rayleigh_average_fade_duration_s(y, 2.0), rtol=1e-9)
+
+
+def test_rayleigh_log_mean_bias_against_scipy():
+    # E[10 log10 X] for an exponential power X of mean 1 (Rayleigh envelope), by scipy.stats.expon.expect; the closed
+    # form -10 gamma / ln 10 (E[ln X] = -gamma) is the textbook value the constant states
+    got = stats.expon.expect(lambda x: 10.0 * np.log10(x))
+    assert got == pytest.approx(-fading.RAYLEIGH_LOG_MEAN_DB, abs=1e-6)
+    assert fading.RAYLEIGH_LOG_MEAN_DB == pytest.approx(2.507, abs=1e-3)
