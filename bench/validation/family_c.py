@@ -103,6 +103,9 @@ START_UTC = pd.Timestamp("2030-07-12 16:00:00", tz="UTC")
 FLOOR_DBM = -99.0
 FIT_SEEDS = tuple(range(1, 26))
 HELDOUT_SEEDS = tuple(range(26, 51))
+# the clean held-out seeds: 26-31 were scored and their worst hop logs read once (2026-12-05) before anything was
+# chosen on this family, so figures are reported on 32-50 (run.py --family c uses these by default)
+CLEAN_HELDOUT_SEEDS = tuple(range(32, 51))
 
 DURATION_S = 2 * 86400
 RAIN_STEP_S = 10                       # the rain field is evaluated every 10 s and interpolated to 1 s

@@ -4,7 +4,7 @@
     .venv/bin/python bench/validation/run.py --quick    # held-out seeds 51-56
     .venv/bin/python bench/validation/run.py --fit-half # the fit half (seeds 1-50) instead
     .venv/bin/python bench/validation/run.py --variant  # seeds 101-150, made by the changed process B2
-    .venv/bin/python bench/validation/run.py --family c # family C (family_c.py), held-out seeds 26-50
+    .venv/bin/python bench/validation/run.py --family c # family C (family_c.py), clean held-out seeds 32-50
     .venv/bin/python bench/validation/run.py --level-step-db 1   # family B's levels written in whole dB
     .venv/bin/python bench/validation/run.py --real-only --real-all   # only the real count, on all 141 links
     .venv/bin/python bench/validation/run.py --real-only --real-base DIR  # ... on any folder of the same layout
@@ -79,7 +79,8 @@ def main(argv=None) -> int:
                 print("error: --level-step-db must be positive", file=sys.stderr)
                 return 2
             fb.LEVEL_STEP_DB = args.level_step_db
-        seeds = fam.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant else fam.HELDOUT_SEEDS
+        seeds = (fam.FIT_SEEDS if args.fit_half else fb.VARIANT_SEEDS if args.variant
+                 else getattr(fam, "CLEAN_HELDOUT_SEEDS", fam.HELDOUT_SEEDS))
         if args.seeds:
             seeds = tuple(score._seed_list(args.seeds))
         if args.quick:
