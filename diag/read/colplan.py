@@ -130,13 +130,14 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
     else:
         taken = {link_col, channel_col}
         timeish = [n for n in names if by_role[n] == "time" and n not in taken]
-        full, dates, clocks, epochs = [], [], [], []
+        full, dates, clocks, epochs, iso_dates = [], [], [], [], []
         for n in timeish:
             vals = _sample_values(batch, n, 400)
             if epoch_kind(vals):
                 epochs.append(n)
             elif _dates_only(vals):
                 dates.append(n)   # ISO dates without a time of day: a date column (joined to a clock column below)
+                iso_dates.append(n)
             elif detect_datetime_format(vals):
                 full.append(n)
             elif detect_date_format(vals):
@@ -165,10 +166,9 @@ def plan_columns(batch: pa.RecordBatch, names: list[str], mapping: dict, tz: str
                               None, zone, label, header_line)
         elif epochs:
             spec = _time_spec([_sample_values(batch, epochs[0])], (epochs[0],), None, zone, label, header_line)
-        elif dates and any(_dates_only(_sample_values(batch, d, 400)) for d in dates):
+        elif iso_dates:
             # ISO dates alone (one row a day): midnight of each date, as before such columns were told apart
-            d = next(d for d in dates if _dates_only(_sample_values(batch, d, 400)))
-            spec = _time_spec([_sample_values(batch, d)], (d,), None, zone, label, header_line)
+            spec = _time_spec([_sample_values(batch, iso_dates[0])], (iso_dates[0],), None, zone, label, header_line)
         else:
             # any other column whose content is a date and time
             for n in names:
