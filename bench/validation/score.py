@@ -360,8 +360,7 @@ def worst_hops(tally: Tally, n: int = 10) -> str:
 def report(tally: Tally, *, cells: bool = True, matrices: bool = False) -> str:
     s = summary(tally)
     lines = []
-    name = FAMILY.__name__.replace("family_", "Family ").replace("Family b", "Family B").replace("Family c",
-                                                                                                 "Family C")
+    name = "Family " + FAMILY.__name__.rsplit("_", 1)[-1].upper()
     lines.append(f"== {name}: per sampling (time-weighted over faded truth samples) ==")
     lines.append(f"{'sampling':<11}{'faded min':>11}{'macro-F1':>10}{'thumb F1':>10}{'unknown':>9}{'events':>8}"
                  f"{'ECE':>7}{'no fade':>9}{'ECE faded':>11}")
