@@ -429,20 +429,32 @@ def _paint_losses(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, e
                   cause: np.ndarray, lookup: dict) -> None:
     """Inside events with a ``loss_edge_dbm`` (set by :func:`diag.analysis.classify.classify_events`): each run of
     ``LOSS_MIN_S`` or more of lost samples (status signal_lost) whose valid neighbours on both sides read at least
-    ``loss_edge_dbm`` is a signal loss (equipment), whatever the event around it."""
+    ``loss_edge_dbm`` is a signal loss (equipment), whatever the event around it.  For interval statistics (events
+    with a ``loss_clear_db``) a run of one or more lost intervals whose neighbouring intervals on both sides kept
+    their lowest reading within ``loss_clear_db`` of the reference."""
     if "loss_edge_dbm" not in events or S.SIGNAL_LOSS not in lookup:
         return
     edge = events["loss_edge_dbm"].to_numpy(dtype=float, na_value=np.nan)
-    todo = [k for k in mine if np.isfinite(edge[k])]
+    clear = (events["loss_clear_db"].to_numpy(dtype=float, na_value=np.nan) if "loss_clear_db" in events
+             else np.full(len(events), np.nan))
+    todo = [k for k in mine if np.isfinite(edge[k]) or np.isfinite(clear[k])]
     if not todo:
         return
     lost = (item.frame["status"] == S.SIGNAL_LOST).to_numpy(dtype=bool)
     if not lost.any():
         return
-    rsl = item.frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    if item.kind == "stats":
+        # interval statistics: the neighbours' fade at their lowest reading (reference minus interval minimum)
+        low_col = "rsl_min_dbm" if "rsl_min_dbm" in item.frame else "rsl_dbm"
+        fade = (item.frame["reference_dbm"].to_numpy(dtype=float, na_value=np.nan)
+                - item.frame[low_col].to_numpy(dtype=float, na_value=np.nan))
+        min_run = 1
+    else:
+        rsl = item.frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+        min_run = max(2, int(math.ceil(LOSS_MIN_S / item.interval_s)))
     first, last = events["start_index"].to_numpy(), events["end_index"].to_numpy()
     row_ids = events.index.to_numpy()
-    min_run = max(2, int(math.ceil(LOSS_MIN_S / item.interval_s)))
+    n = len(lost)
     for k in todo:
         a, b = int(first[k]), int(last[k])
         seg = lost[a:b]
@@ -450,9 +462,13 @@ def _paint_losses(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, e
             continue
         change = np.flatnonzero(np.diff(np.r_[False, seg, False].astype(np.int8)))
         for r0, r1 in zip(change[::2] + a, change[1::2] + a):
-            if r1 - r0 < min_run or r0 == 0 or r1 >= len(rsl):
+            if r1 - r0 < min_run or r0 == 0 or r1 >= n:
                 continue
-            if rsl[r0 - 1] >= edge[k] and rsl[r1] >= edge[k]:
+            if item.kind == "stats":
+                ok = fade[r0 - 1] < clear[k] and fade[r1] < clear[k]
+            else:
+                ok = rsl[r0 - 1] >= edge[k] and rsl[r1] >= edge[k]
+            if ok:
                 own = event_id[r0:r1] == row_ids[k]
                 cause[r0:r1][own] = lookup[S.SIGNAL_LOSS]
 
