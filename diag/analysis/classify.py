@@ -198,7 +198,7 @@ LOSS_PRE_FLOOR_MAX_DB = 6.0     # rule 2: the fade in the 30 s before the first 
 # of their own the same intervals were signal loss (rule 2): the cause depended on the event's edges.  Real rain
 # can do it too: on the 141 OpenRainER links a 25-GHz, 21-km hop went from clear sky to its floor and back within
 # two 15-min intervals (docs/validation.md §3a); with a 6-dB bound instead of 3, five more real fades to the floor
-# during gauge rain, with tails of 3-6 dB in the neighbouring intervals, were taken for drop-outs
+# (four during gauge rain), with tails of 3-6 dB in the neighbouring intervals, were taken for drop-outs
 STATS_LOSSES = True
 SPLIT_MAX_INTERVAL_S = 10.0     # samples fine enough to see multipath dips (they last seconds)
 SPLIT_MIN_S = 600.0             # an event long enough to hold a slow part and many multipath dips
