@@ -78,11 +78,14 @@ def _count_in(mask: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> np.ndar
 
 
 def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, interval_s: float,
-            config: AnalysisConfig) -> tuple[np.ndarray, np.ndarray]:
-    """Fade events of one channel as index ranges ``[start, end)`` (see module docstring)."""
+            config: AnalysisConfig, extend_db: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Fade events of one channel as index ranges ``[start, end)`` (see module docstring).  ``extend_db``: the
+    attenuation the hysteresis extension reads, when it differs from the one that starts a fade
+    (:func:`clear_min_gap_db`)."""
     att = np.asarray(attenuation_db, dtype=float)
+    longer = att if extend_db is None else np.asarray(extend_db, dtype=float)
     with np.errstate(invalid="ignore"):
-        ext = (att >= config.fade_end_db) | floor
+        ext = (longer >= config.fade_end_db) | floor
         core = (att >= config.fade_start_db) | floor
     if ext.size == 0:
         return np.zeros(0, dtype=np.intp), np.zeros(0, dtype=np.intp)
@@ -108,6 +111,33 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
     return starts, ends
 
 
+STATS_MIN_GAP = True
+
+
+def clear_min_gap_db(frame: pd.DataFrame) -> float:
+    """Interval statistics with an average: how far an interval's minimum sits below its average in clear air [dB],
+    the median of (average - minimum) over the intervals whose average is within ``fade_end_db`` of the reference
+    (0 without an average or with too few such intervals).  The reference of a min/avg/max log follows the
+    averages, so the attenuation at the interval minimum (``attenuation_peak_db``) already carries the receiver's
+    noise extremes and any slow wander within the interval in clear air: about 1-1.5 dB for a 0.1-dB radio with
+    0.3-0.4 dB of noise over 900 one-second readings.  With the hysteresis at ``fade_end_db`` (1.5 dB) on it, clear-air
+    intervals kept fades open whenever a night's detector drift added a few tenths of a dB, and a night of short
+    multipath bursts became one 15-hour slow fade.  A fade still starts where an interval's minimum reaches
+    ``fade_start_db`` below the reference (some reading was that far below the clear level), but it only extends
+    while the minimum stays ``fade_end_db`` below the clear-air minimum (:func:`segment` ``extend_db``), as in a
+    min/max log, whose reference follows the minima.  Common practice (no outside source)."""
+    if not STATS_MIN_GAP or "rsl_min_dbm" not in frame.columns or not _has_average(frame):
+        return 0.0
+    level = frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    low = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
+    att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
+    with np.errstate(invalid="ignore"):
+        clear = np.isfinite(level) & np.isfinite(low) & (np.abs(att) < 1.5)
+    if clear.sum() < 8:
+        return 0.0
+    return float(max(0.0, np.median(level[clear] - low[clear])))
+
+
 def _has_average(frame: pd.DataFrame) -> bool:
     """Interval statistics with a logged average: somewhere the level carried differs from the interval minimum."""
     if "rsl_min_dbm" not in frame.columns:
@@ -129,7 +159,8 @@ def _channel_events(series: ChannelSeries, link: Link, config: AnalysisConfig, p
     seg_att = frame["attenuation_peak_db"].to_numpy(dtype=float, na_value=np.nan) if stats else att
     level_low = frame["rsl_min_dbm" if stats else "rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)
     below = F.link_below(level_low, floor, link)
-    starts, ends = segment(seg_att, floor, below, step, config)
+    gap = clear_min_gap_db(frame) if stats else 0.0
+    starts, ends = segment(seg_att, floor, below, step, config, extend_db=seg_att - gap if gap > 0 else None)
     if starts.size == 0:
         return []
     arr = F.channel_arrays(series, config, partner, floor=floor, att=att, seg_att=seg_att, level_low=level_low,
@@ -444,10 +475,11 @@ def _paint_losses(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarray, e
     if not lost.any():
         return
     if item.kind == "stats":
-        # interval statistics: the neighbours' fade at their lowest reading (reference minus interval minimum)
+        # interval statistics: the neighbours' fade at their lowest reading, counted from the clear-air minimum
+        # level (reference minus interval minimum, less the clear-air gap of a min/avg/max log: clear_min_gap_db)
         low_col = "rsl_min_dbm" if "rsl_min_dbm" in item.frame else "rsl_dbm"
         fade = (item.frame["reference_dbm"].to_numpy(dtype=float, na_value=np.nan)
-                - item.frame[low_col].to_numpy(dtype=float, na_value=np.nan))
+                - item.frame[low_col].to_numpy(dtype=float, na_value=np.nan) - clear_min_gap_db(item.frame))
         min_run = 1
     else:
         rsl = item.frame["rsl_dbm"].to_numpy(dtype=float, na_value=np.nan)

@@ -5,9 +5,10 @@ The logs are written by hand: a 23-GHz, 5-km hop with a clear level of -50 dBm, 
 An interval whose minimum is the receiver's loss marker is a lost interval.  Rule 2 of diag.analysis.classify
 names a lost run signal loss when the level just before it was near clear-sky; inside a longer fade the same
 intervals took the fade's cause before.  Now a lost run inside a fade whose neighbouring intervals on both sides
-kept their lowest reading within the fade-start level (3 dB) of the reference is signal loss too: a propagation
-fade would have to go from outside any fade to the floor and back inside the lost interval itself (common
-practice; the same physics as rule 2).
+kept their lowest reading within the fade-start level (3 dB) of the clear-air minimum level (the reference less
+the clear-air gap between an interval's average and minimum, diag.analysis.events.clear_min_gap_db) is signal
+loss too: a propagation fade would have to go from outside any fade to the floor and back inside the lost
+interval itself (common practice; the same physics as rule 2).
 """
 from __future__ import annotations
 
@@ -25,10 +26,10 @@ LINK = Link(link_id="ELM-QUAY", frequency_ghz=23.0, length_km=5.0, polarization=
 
 
 def _write(tmp_path, rows: dict[int, tuple]) -> list:
-    """192 intervals (2 days) at -51/-50/-49 dBm, with ``rows`` (interval -> (min, avg, max)) replacing some."""
+    """192 intervals (2 days) at -51.5/-50/-48.5 dBm, with ``rows`` (interval -> (min, avg, max)) replacing some."""
     lines = ["time_utc,link_id,channel,RSL min 15min (dBm),RSL avg 15min (dBm),RSL max 15min (dBm)"]
     for k in range(192):
-        lo, av, hi = rows.get(k, (-51.0, -50.0, -49.0))
+        lo, av, hi = rows.get(k, (-51.5, -50.0, -48.5))
         t = T0 + pd.Timedelta(minutes=15 * k)
         lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},ELM-QUAY,V,{lo},{av},{hi}")
     path = tmp_path / "ELM-QUAY.csv"
@@ -54,16 +55,17 @@ def _slow_fade(first: int, last: int, depth_db: float) -> dict[int, tuple]:
 
 
 def test_lost_interval_with_clear_neighbours_inside_a_shallow_fade_is_signal_loss(tmp_path):
-    rows = _slow_fade(80, 120, 5.0)                   # 10 h of a 5-dB fade, its minima 6.5 dB below the reference
-    rows[82] = ("LOS", -51.0, -49.0)                  # one lost interval on its shoulder, neighbours 2.1 / 2.9 dB
+    rows = _slow_fade(80, 120, 5.0)                   # 10 h of a 5-dB fade (interval averages)
+    # one lost interval on its shoulder; the neighbours' minima 2.1 / 2.7 dB below the clear-air minimum level
+    rows[86] = ("LOS", -52.0, -49.0)
     cause, status = _causes(tmp_path, rows)
-    assert status[82] == S.SIGNAL_LOST
-    assert cause[82] == S.SIGNAL_LOSS
-    assert cause[81] == cause[83] != ""               # inside the fade
+    assert status[86] == S.SIGNAL_LOST
+    assert cause[86] == S.SIGNAL_LOSS
+    assert cause[85] == cause[87] != ""               # inside the fade
     # the rest of the fade keeps its own propagation cause
-    rest = cause[80:120][[k != 2 for k in range(40)]]
-    assert S.SIGNAL_LOSS not in set(rest)
-    assert set(rest) <= {S.RAIN, S.MULTIPATH, S.REFRACTIVE, S.UNKNOWN}
+    rest = set(cause[80:120][[k != 6 for k in range(40)]]) - {""}     # "": the shoulders outside the event
+    assert rest and S.SIGNAL_LOSS not in rest
+    assert rest <= {S.RAIN, S.MULTIPATH, S.REFRACTIVE, S.UNKNOWN}
 
 
 def test_lost_interval_between_deep_intervals_keeps_the_fade_cause(tmp_path):
@@ -94,7 +96,7 @@ def test_switch_off_restores_the_fade_cause(tmp_path, monkeypatch):
     from diag.analysis import classify
     monkeypatch.setattr(classify, "STATS_LOSSES", False)
     rows = _slow_fade(80, 120, 5.0)
-    rows[82] = ("LOS", -51.0, -49.0)
+    rows[86] = ("LOS", -52.0, -49.0)
     cause, _ = _causes(tmp_path, rows)
-    assert cause[82] != S.SIGNAL_LOSS
-    assert cause[82] == cause[81]
+    assert cause[86] != S.SIGNAL_LOSS
+    assert cause[86] == cause[85]
