@@ -39,7 +39,7 @@ from diag.numeric import as_float as _f  # a cell as float, NaN when missing
 from diag.numeric import duration_word
 
 __all__ = ["PROPAGATION", "WEIGHTS", "UNKNOWN_BAR", "RAIN_RATE_MAX_MMH", "TERMS", "evidence_terms", "posterior",
-           "local_solar_hour", "attribute"]
+           "local_solar_hour", "local_hour", "attribute"]
 
 PROPAGATION = ("rain", "multipath", "refractive")
 R, M, F, OTHER = 0, 1, 2, 3
@@ -336,7 +336,7 @@ def local_solar_hour(hour_utc: float, link: Link) -> tuple[float, bool]:
     return (float(hour_utc) + float(np.mean(lons)) / 15.0) % 24.0, True
 
 
-def _local_hour(row, link: Link) -> tuple[float, str] | None:
+def local_hour(row, link: Link) -> tuple[float, str] | None:
     """(hour, clock name): local solar time from the site longitudes, else the civil time of the ``local_tz`` zone
     (``--tz``; civil time runs up to two hours ahead of solar time), else UTC."""
     hour = _f(row.get("hour_utc"))
@@ -360,7 +360,7 @@ def term_hour(row, link: Link, prior: HopPrior):
     fading comes with the stable stratified air of nights and early mornings (P.530 §2.3 worst month,
     docs/references.md §8 "Timing"), convective rain peaks in the afternoon.  Weak, +-1 at most (weight not
     fitted: the simulators place causes by hour, so fitting would learn them)."""
-    got = _local_hour(row, link)
+    got = local_hour(row, link)
     if got is None:
         return None
     local, clock = got

@@ -35,7 +35,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.attribution import attribute, rows_of
+from diag.analysis.attribution import attribute, local_hour, rows_of
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
 from diag.analysis.priors import hop_prior
 from diag.analysis.reference import AnalysisConfig
@@ -58,12 +58,19 @@ def _multipath_floor(row, link: Link | None) -> bool:
     the threshold when it reached the floor) for ``FLOOR_MULTIPATH_PCT`` or more of the year.  A 15-min interval
     is marked lost when one second touches the floor, and a multipath night on such a hop touches it for seconds
     in interval after interval; rule 2 cannot see that the level fell abruptly, so it is left to the posterior
-    (which weighs the same prior with the hour, the spread and the upfades)."""
+    (which weighs the same prior with the hour, the spread and the upfades).  Only at multipath's hours
+    (``FLOOR_NIGHT_ONLY``: 21-08 h on the clock of :func:`diag.analysis.attribution.term_hour`): clear-air
+    multipath comes with the stable air of nights and early mornings (P.530 §2.3), and a daytime floor stays rule
+    2's."""
     if not STATS_FLOOR_PRIOR or link is None or row.get("kind") != "stats":
         return False
     depth = _f(row.get("peak_fade_db"))
     if not (math.isfinite(depth) and depth >= LOSS_EDGE_MARGIN_DB):   # a receiver that sits at its floor anyway
         return False
+    if FLOOR_NIGHT_ONLY:
+        got = local_hour(row, link)           # the clock of attribution.term_hour (solar, else --tz, else UTC)
+        if got is not None and 8.0 <= got[0] < 21.0:     # term_hour's multipath hours are 21-08 h
+            return False
     return float(hop_prior(link).clear_air_exceed_pct(np.array([depth]))[0]) >= FLOOR_MULTIPATH_PCT
 
 
@@ -223,6 +230,7 @@ STATS_FLOOR_PRIOR = True        # rule 2 and the above spare floors that P.530 m
 # % of the year (about 53 min a year); chosen on family C fit seeds 1-12 and family B fit seeds 1-50 among 1e-3,
 # 1e-2 and 1e-1 (docs/validation.md §3a)
 FLOOR_MULTIPATH_PCT = 1.0e-2
+FLOOR_NIGHT_ONLY = True
 SPLIT_MAX_INTERVAL_S = 10.0     # samples fine enough to see multipath dips (they last seconds)
 SPLIT_MIN_S = 600.0             # an event long enough to hold a slow part and many multipath dips
 STATS_SPLIT = True

@@ -61,8 +61,23 @@ def test_only_a_fade_of_10_db_or_more_is_spared():
     is not spared: on the 141 OpenRainER links as min/max, hops dead at their floor otherwise turned rain or
     refractive and the 1-min against 15-min agreement fell from 90.5 to 63 % (docs/validation.md §3a)."""
     long_hop, short_hop = _link(6.2, 50.0), _link(23.0, 4.0)
-    row = {"kind": "stats", "peak_fade_db": 30.0}
+    row = {"kind": "stats", "peak_fade_db": 30.0, "hour_utc": 3}
     assert classify._multipath_floor(row, long_hop)
     assert not classify._multipath_floor(row, short_hop)
     assert not classify._multipath_floor({**row, "peak_fade_db": 5.0}, long_hop)
     assert not classify._multipath_floor({**row, "kind": "sample"}, long_hop)
+
+
+def test_only_at_multipath_hours():
+    """Clear-air multipath comes with the stable air of nights and early mornings (ITU-R P.530 §2.3; the hours of
+    diag.analysis.attribution.term_hour, 21-08 h local): a floor at 14 h on the long hop stays rule 2's.  With no
+    site longitude and no --tz the clock is UTC, as for the hour term."""
+    long_hop = _link(6.2, 50.0)
+    row = {"kind": "stats", "peak_fade_db": 30.0}
+    assert classify._multipath_floor({**row, "hour_utc": 3}, long_hop)
+    assert classify._multipath_floor({**row, "hour_utc": 22}, long_hop)
+    assert not classify._multipath_floor({**row, "hour_utc": 14}, long_hop)
+    # 14 h UTC is 23 h local solar time at 135 deg E: spared there
+    east = Link(link_id="OAK-EAST", frequency_ghz=6.2, length_km=50.0, polarization="V", threshold_dbm=-80.0,
+                nominal_dbm=-50.0, site_a_lat=-30.0, site_a_lon=135.0, site_b_lat=-30.4, site_b_lon=135.0)
+    assert classify._multipath_floor({**row, "hour_utc": 14}, east)
