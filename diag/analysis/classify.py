@@ -37,7 +37,7 @@ import pandas as pd
 from diag import schema as S
 from diag.analysis.attribution import attribute, local_hour, rows_of
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
-from diag.analysis.priors import hop_prior
+from diag.analysis.priors import HopPrior, hop_prior
 from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
 from diag.numeric import as_float as _f  # a cell as float, NaN when missing
@@ -52,7 +52,7 @@ STATS_CONFIDENCE_FACTOR = 1.0   # kept for importers: the posterior itself now c
 
 
 
-def _multipath_floor(row, link: Link | None) -> bool:
+def _multipath_floor(row, link: Link | None, prior: HopPrior | None = None) -> bool:
     """Interval statistics only: P.530-18 §2.3.1 clear-air fading (:meth:`diag.analysis.priors.HopPrior.
     clear_air_exceed_pct`) takes this hop as deep as the event went (its reported peak, at least the reference less
     the threshold when it reached the floor) for ``FLOOR_MULTIPATH_PCT`` or more of the year.  A 15-min interval
@@ -71,12 +71,13 @@ def _multipath_floor(row, link: Link | None) -> bool:
         got = local_hour(row, link)           # the clock of attribution.term_hour (solar, else --tz, else UTC)
         if got is not None and 8.0 <= got[0] < 21.0:     # term_hour's multipath hours are 21-08 h
             return False
-    return float(hop_prior(link).clear_air_exceed_pct(np.array([depth]))[0]) >= FLOOR_MULTIPATH_PCT
+    prior = prior if prior is not None else hop_prior(link)
+    return float(prior.clear_air_exceed_pct(np.array([depth]))[0]) >= FLOOR_MULTIPATH_PCT
 
 
-def _equipment(row, link: Link | None = None) -> tuple[str, float, str] | None:
-    """Rules 1, 2 and the no-sample case of 4 (module docstring); None for a propagation event.  ``link`` lets the
-    hop's clear-air prior spare a floor in interval statistics (:func:`_multipath_floor`)."""
+def _equipment(row, spare_floor: bool = False) -> tuple[str, float, str] | None:
+    """Rules 1, 2 and the no-sample case of 4 (module docstring); None for a propagation event.  ``spare_floor``:
+    rule 2 stands aside (:func:`_multipath_floor` for this row)."""
     if row["event_kind"] == "level_shift":
         size, step = _f(row["peak_fade_db"]), _f(row["step_db"])
         return (S.LEVEL_SHIFT, float(min(0.99, max(0.05, 0.6 + 0.06 * size))),
@@ -89,7 +90,7 @@ def _equipment(row, link: Link | None = None) -> tuple[str, float, str] | None:
     # down gradually (a propagation fade that ended at the floor), not an abrupt drop
     faded_before = not math.isfinite(pre_floor) and _f(row["peak_fade_db_finite"]) >= 10.0
     if (floor_frac >= 0.5 and (not math.isfinite(pre_floor) or pre_floor < LOSS_PRE_FLOOR_MAX_DB) and not faded_before
-            and not _multipath_floor(row, link)):
+            and not spare_floor):
         before = f"{pre_floor:.1f} dB" if math.isfinite(pre_floor) else "no sample"
         return (S.SIGNAL_LOSS, 0.9 if math.isfinite(pre_floor) else 0.7,
                 f"{shape} drop to the receiver floor ({floor_frac:.0%} of the event at the floor) with fade "
@@ -294,14 +295,18 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
         return events
     out = events.copy()
     rows = rows_of(out)
-    verdicts: list = [_equipment(row, link) for row in rows]
+    prior = hop_prior(link)
+    # floors that P.530 multipath reaches on this hop at night (interval statistics): rule 2 and the in-fade
+    # drop-out painting below both stand aside for them
+    deep_mp = np.array([_multipath_floor(row, link, prior) for row in rows], dtype=bool)
+    verdicts: list = [_equipment(row, bool(spare)) for row, spare in zip(rows, deep_mp)]
     todo = [i for i, v in enumerate(verdicts) if v is None]
     tz = (config or AnalysisConfig()).local_tz
     if tz:   # the hour term's clock where the links table gives no coordinates
         for i in todo:
             rows[i]["local_tz"] = tz
     if todo:
-        for i, got in zip(todo, attribute([rows[i] for i in todo], link, prior=hop_prior(link))):
+        for i, got in zip(todo, attribute([rows[i] for i in todo], link, prior=prior)):
             verdicts[i] = got
     out["cause"] = pd.array([v[0] for v in verdicts], dtype="str")
     out["confidence"] = np.round([v[1] for v in verdicts], 2)
@@ -318,7 +323,7 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
                  if v[0] == S.LEVEL_SHIFT and row.get("event_kind") == "fade" and _step(row) is None
                  and _step_under_fade(row) is not None]
         if under:
-            for i, got in zip(under, attribute([rows[i] for i in under], link, prior=hop_prior(link))):
+            for i, got in zip(under, attribute([rows[i] for i in under], link, prior=prior)):
                 if got[0] in (S.RAIN, S.MULTIPATH, S.REFRACTIVE):
                     split[i] = got[0]
                     step_db[i] = min(_f(rows[i].get("plateau_in_db")), _f(rows[i].get("plateau_out_db")))
@@ -333,7 +338,6 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     out["loss_edge_dbm"] = np.where(sampled & fade, float(link.threshold_dbm) + LOSS_EDGE_MARGIN_DB, np.nan)
     # for interval statistics: the fade below the reference that the lost run's neighbours must stay under
     stats = out["kind"].astype(str).to_numpy() == "stats"
-    deep_mp = np.array([_multipath_floor(row, link) for row in rows], dtype=bool)
     out["loss_clear_db"] = np.where(stats & fade & STATS_LOSSES & ~deep_mp, (config or AnalysisConfig()).fade_start_db,
                                     np.nan)
     return out

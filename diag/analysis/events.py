@@ -112,11 +112,12 @@ def segment(attenuation_db: np.ndarray, floor: np.ndarray, below: np.ndarray, in
 
 
 STATS_MIN_GAP = True
+CLEAR_GAP_ATT_DB = 1.5   # intervals this close to the reference count as clear air (the default fade_end_db)
 
 
 def clear_min_gap_db(frame: pd.DataFrame) -> float:
     """Interval statistics with an average: how far an interval's minimum sits below its average in clear air [dB],
-    the median of (average - minimum) over the intervals whose average is within ``fade_end_db`` of the reference
+    the median of (average - minimum) over the intervals whose average is within ``CLEAR_GAP_ATT_DB`` of the reference
     (0 without an average or with too few such intervals).  The reference of a min/avg/max log follows the
     averages, so the attenuation at the interval minimum (``attenuation_peak_db``) already carries the receiver's
     noise extremes and any slow wander within the interval in clear air: about 1-1.5 dB for a 0.1-dB radio with
@@ -132,7 +133,7 @@ def clear_min_gap_db(frame: pd.DataFrame) -> float:
     low = frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan)
     att = frame["attenuation_db"].to_numpy(dtype=float, na_value=np.nan)
     with np.errstate(invalid="ignore"):
-        clear = np.isfinite(level) & np.isfinite(low) & (np.abs(att) < 1.5)
+        clear = np.isfinite(level) & np.isfinite(low) & (np.abs(att) < CLEAR_GAP_ATT_DB)
     if clear.sum() < 8:
         return 0.0
     return float(max(0.0, np.median(level[clear] - low[clear])))
