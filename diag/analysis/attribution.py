@@ -513,6 +513,13 @@ def implied_rate_mmh(peak_db: float, link: Link, prior: HopPrior) -> float:
     return float((path_db / (float(k) * link.length_km)) ** (1.0 / float(alpha)))
 
 
+# the terms that read a fade's deepest samples or its fluctuation; in a long event with multipath on a slow
+# component they speak of the multipath only (evidence_terms; chosen on family C fit seeds 1-12 and B fit 1-50,
+# docs/validation.md §3a)
+FAST_PART_TERMS = ("upfade", "polarisation", "decorrelation")
+MIXED_SLOW_NEUTRAL = True
+
+
 def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
     """Per event: prior log-shares [n, 4] (rain, multipath, refractive, other), term vectors {name: [n, 4]}
     (zeros where absent), texts {name: [n]},
@@ -547,6 +554,13 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
             if got is not None:
                 terms[name][i, :] = got[0]
                 texts[name][i] = got[1]
+    if MIXED_SLOW_NEUTRAL and np.isfinite(slow).any():
+        # fast fluctuation on a slow component: the rises, the V/H ratio of the deepest samples and the channels'
+        # correlation are those of the multipath on top; they cannot tell rain from refraction underneath
+        for i in np.flatnonzero(np.isfinite(slow)):
+            for name in FAST_PART_TERMS:
+                level = max(terms[name][i, R], terms[name][i, F])
+                terms[name][i, R] = terms[name][i, F] = level
     allowed = np.ones((n, 4), dtype=bool)
     if n:
         negligible = clear_air_negligible(prior, depth)

@@ -52,6 +52,13 @@ STATS_CONFIDENCE_FACTOR = 1.0   # kept for importers: the posterior itself now c
 
 
 
+def _multipath_hours(row, link: Link) -> bool:
+    """The event lies in multipath's hours, 21-08 h on the clock of :func:`diag.analysis.attribution.term_hour`
+    (solar time from the site longitudes, else ``--tz``, else UTC), or its hour is unknown."""
+    got = local_hour(row, link)
+    return got is None or not (8.0 <= got[0] < 21.0)
+
+
 def _multipath_floor(row, link: Link | None, prior: HopPrior | None = None) -> bool:
     """Interval statistics only: P.530-18 §2.3.1 clear-air fading (:meth:`diag.analysis.priors.HopPrior.
     clear_air_exceed_pct`) takes this hop as deep as the event went (its reported peak, at least the reference less
@@ -67,10 +74,8 @@ def _multipath_floor(row, link: Link | None, prior: HopPrior | None = None) -> b
     depth = _f(row.get("peak_fade_db"))
     if not (math.isfinite(depth) and depth >= LOSS_EDGE_MARGIN_DB):   # a receiver that sits at its floor anyway
         return False
-    if FLOOR_NIGHT_ONLY:
-        got = local_hour(row, link)           # the clock of attribution.term_hour (solar, else --tz, else UTC)
-        if got is not None and 8.0 <= got[0] < 21.0:     # term_hour's multipath hours are 21-08 h
-            return False
+    if FLOOR_NIGHT_ONLY and not _multipath_hours(row, link):
+        return False
     prior = prior if prior is not None else hop_prior(link)
     return float(prior.clear_air_exceed_pct(np.array([depth]))[0]) >= FLOOR_MULTIPATH_PCT
 
@@ -239,6 +244,8 @@ SPLIT_UNDER_STEP = True
 STATS_SPLIT_MINMAX = True
 STATS_SPLIT_SPREAD_DB = 6.0     # median 15-min min-max spread that marks multipath on top
 SPLIT_MIN_FAST_STD_DB = 1.0     # fast fluctuation (std about the 1-min running mean) that marks multipath in it
+SPLIT_RAIN = True               # the same inside an event called rain (a slow rain fade with multipath on top)
+SPLIT_RAIN_NIGHT_ONLY = True
 
 
 def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
@@ -251,6 +258,9 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
     "refractive" for the samples where the slow part is the larger, where the hop's geometry allows a refractive
     fade that deep (within twice :func:`diag.analysis.priors.refractive_max_depth_db`).  Chosen on family B fit
     seeds 1-50: 1-s macro-F1 0.880 -> 0.919 (multipath recall 85.6 -> 93.9 %, refractive 81.4 -> 90.6 %).
+    Called rain (``SPLIT_RAIN``) -> "multipath" as for refractive: a slow rain fade with a multipath night on top
+    (the attribution judges the slow part with the multipath's own terms set aside, attribution.FAST_PART_TERMS;
+    chosen with it on family C fit seeds 1-12 and B fit 1-50, docs/validation.md §3a).
     The same for 15-min min/avg/max (``STATS_SPLIT``) with the median min-max spread (6 dB or more) showing the
     multipath and the interval average standing for the slow part (events.STATS_SPLIT_MP_DB / _SLOW_DB): fit
     15-min min/avg/max 0.717 -> 0.766 (multipath recall 61 -> 79 %, refractive 70 -> 82 %), among spreads 4 / 6 /
@@ -271,6 +281,12 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
     mean = out["mean_fade_db"].to_numpy(dtype=float, na_value=np.nan)
     base = fine & long & fast & (out["event_kind"].astype(str).to_numpy() == "fade")
     split[base & (cause == S.REFRACTIVE)] = S.MULTIPATH
+    if SPLIT_RAIN:
+        # only at multipath's hours: a convective cell's fast edges by day are no multipath
+        rows = out.iloc[np.flatnonzero(base & (cause == S.RAIN))]
+        for k, (_, row) in zip(np.flatnonzero(base & (cause == S.RAIN)), rows.iterrows()):
+            if not SPLIT_RAIN_NIGHT_ONLY or _multipath_hours(row.to_dict(), link):
+                split[k] = S.MULTIPATH
     with np.errstate(invalid="ignore"):
         slow_ok = (mean >= SPLIT_SLOW_DB) & (mean <= 2.0 * prior.refractive_max_db)
     split[base & (cause == S.MULTIPATH) & slow_ok] = S.REFRACTIVE

@@ -138,3 +138,54 @@ def test_slow_fade_with_scintillation_on_a_long_hop_is_not_multipath():
     assert cause == "refractive", evidence
     # the same texture with a mean inside flat fading's own (1 dB): multipath
     assert A.attribute([{**row, "mean_fade_db": 1.0}], link)[0][0] == "multipath"
+
+
+def _mixed_row(mean_db: float) -> dict:
+    # a 5-h night fade on a 14-km, 15-GHz dual-polarised hop: 2 dB rms fast fluctuation with 32-dB dips on a slow
+    # component of mean `mean_db`; the deepest samples are multipath's (V/H ratio 1.07, rises of 2.7 dB, the two
+    # polarisations fading together as clear-air fading does)
+    start = pd.Timestamp("2030-07-13T21:18Z")
+    return {"interval_s": 1.0, "kind": "sample", "event_kind": "fade", "duration_s": 5 * 3600.0,
+            "mean_fade_db": mean_db, "peak_fade_db": 32.7, "peak_fade_db_finite": 32.7, "fast_std_db": 2.0,
+            "noise_diff_db": 0.1, "v_over_h_ratio": 1.07, "expected_v_over_h": 0.84, "upfade_within_db": 2.7,
+            "partner_corr": 0.97, "hour_utc": 21, "start_utc": start, "end_utc": start + pd.Timedelta(hours=5)}
+
+
+def test_multipath_on_a_slow_fade_does_not_judge_rain_against_refraction(monkeypatch):
+    # A long fade whose mean needs a slow component (flat fading alone: under 2.5 dB, see above) with fast
+    # fluctuation on it: its deepest samples, rises and channel correlation are those of the multipath on top
+    # (clear-air ratio 1, P.530 §2.3.3 enhancements); they cannot say whether the slow part is rain or refraction,
+    # which the prior at the mean depth, the network, the hour and the gauge then decide
+    link = make_link({"link_id": "M", "frequency_ghz": 15.0, "length_km": 14.2, "polarization": "dual",
+                      "threshold_dbm": -77.0})
+    base, terms, _, _ = A.evidence_terms([_mixed_row(4.8)], link)
+    for name in A.FAST_PART_TERMS:
+        assert terms[name][0, A.R] == terms[name][0, A.F], name
+    # the multipath reading is kept: the rises still argue for multipath over rain
+    assert terms["upfade"][0, A.M] > terms["upfade"][0, A.R]
+    # no slow component (mean within flat fading's own): the ratio and the rises still speak against rain
+    _, plain, _, _ = A.evidence_terms([_mixed_row(1.0)], link)
+    assert plain["polarisation"][0, A.R] < plain["polarisation"][0, A.F]
+    assert plain["upfade"][0, A.R] < plain["upfade"][0, A.F]
+    # the switch off: the multipath's ratio argues against rain underneath, as before
+    monkeypatch.setattr(A, "MIXED_SLOW_NEUTRAL", False)
+    _, off, _, _ = A.evidence_terms([_mixed_row(4.8)], link)
+    assert off["polarisation"][0, A.R] < off["polarisation"][0, A.F]
+
+
+def test_multipath_seconds_inside_a_rain_fade_are_split_off(monkeypatch):
+    # the same texture called rain: its seconds where the fast part exceeds the slow part are multipath's, as in an
+    # event called refractive (diag.analysis.classify.split_causes; a second's cause is its larger contribution)
+    from diag.analysis import classify as C
+    link = make_link({"link_id": "M", "frequency_ghz": 15.0, "length_km": 14.2, "polarization": "V",
+                      "threshold_dbm": -77.0})
+    out = pd.DataFrame([{**_mixed_row(4.8), "cause": "rain", "spread_db": np.nan, "avg_to_min_ratio": np.nan},
+                        {**_mixed_row(4.8), "cause": "rain", "spread_db": np.nan, "avg_to_min_ratio": np.nan,
+                         "fast_std_db": 0.4}])
+    assert list(C.split_causes(out, link)) == ["multipath", ""]
+    # by day (14 h UTC, no site coordinates: the UTC clock) fast edges are a convective cell's, not multipath's
+    day = out.assign(hour_utc=14, start_utc=pd.Timestamp("2030-07-13T14:00Z"),
+                     end_utc=pd.Timestamp("2030-07-13T19:00Z"))
+    assert list(C.split_causes(day, link)) == ["", ""]
+    monkeypatch.setattr(C, "SPLIT_RAIN", False)
+    assert list(C.split_causes(out, link)) == ["", ""]
