@@ -35,9 +35,9 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.attribution import attribute, local_hour, rows_of
+from diag.analysis.attribution import _slow_depth, attribute, local_hour, rows_of
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
-from diag.analysis.priors import HopPrior, hop_prior
+from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior
 from diag.analysis.reference import AnalysisConfig
 from diag.links import Link
 from diag.numeric import as_float as _f  # a cell as float, NaN when missing
@@ -282,10 +282,15 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
     base = fine & long & fast & (out["event_kind"].astype(str).to_numpy() == "fade")
     split[base & (cause == S.REFRACTIVE)] = S.MULTIPATH
     if SPLIT_RAIN:
-        # only at multipath's hours: a convective cell's fast edges by day are no multipath
-        rows = out.iloc[np.flatnonzero(base & (cause == S.RAIN))]
-        for k, (_, row) in zip(np.flatnonzero(base & (cause == S.RAIN)), rows.iterrows()):
-            if not SPLIT_RAIN_NIGHT_ONLY or _multipath_hours(row.to_dict(), link):
+        # only where P.530 clear-air fading reaches the event's depth on this hop (a convective cell's fast edges on
+        # a short high-band hop are no multipath), the fluctuation is multipath's against the fade (the attribution's
+        # slow-depth condition) and at multipath's hours
+        picks = np.flatnonzero(base & (cause == S.RAIN))
+        peak = out["peak_fade_db_finite"].to_numpy(dtype=float, na_value=np.nan)[picks] if len(picks) else []
+        for k, row, depth in zip(picks, rows_of(out.iloc[picks]), peak):
+            if (math.isfinite(depth) and not bool(clear_air_negligible(prior, depth)[0])
+                    and math.isfinite(_slow_depth(row))
+                    and (not SPLIT_RAIN_NIGHT_ONLY or _multipath_hours(row, link))):
                 split[k] = S.MULTIPATH
     with np.errstate(invalid="ignore"):
         slow_ok = (mean >= SPLIT_SLOW_DB) & (mean <= 2.0 * prior.refractive_max_db)
