@@ -207,7 +207,7 @@ def _slow_excess_db(row) -> float:
     return mean - RAYLEIGH_LOG_MEAN_DB - SLOW_MARGIN_DB
 
 
-def _slow_depth(row) -> float:
+def slow_depth(row) -> float:
     """Depth at which rain and refraction are judged when fast fluctuation rides on a slow component: the mean fade
     of a long fine- or coarse-sampled event that flat fading alone cannot give (:func:`term_slow`) and whose
     fluctuation or sample-to-sample change argues for multipath (:func:`term_fast`, :func:`term_variability`, which
@@ -537,9 +537,9 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
                             for r in rows])
     depth = np.where(np.isfinite(peak), np.maximum(peak, 1.0), 3.0)
     logs = prior_log_odds(prior, depth)
-    # a long event whose mean fade needs a slow component under fast fluctuation (_slow_depth): rain and refraction
+    # a long event whose mean fade needs a slow component under fast fluctuation (slow_depth): rain and refraction
     # are judged at the slow component's depth (the mean) too, not only at a multipath dip on top of it
-    slow = np.array([_slow_depth(r) for r in rows], dtype=float)
+    slow = np.array([slow_depth(r) for r in rows], dtype=float)
     if np.isfinite(slow).any():
         at = prior_log_odds(prior, np.where(np.isfinite(slow), np.maximum(slow, 1.0), depth))
         for cause in ("rain", "refractive"):
@@ -557,10 +557,11 @@ def evidence_terms(rows: list[dict], link: Link, prior: HopPrior | None = None):
     if MIXED_SLOW_NEUTRAL and np.isfinite(slow).any():
         # fast fluctuation on a slow component: the rises, the V/H ratio of the deepest samples and the channels'
         # correlation are those of the multipath on top; they cannot tell rain from refraction underneath
-        for i in np.flatnonzero(np.isfinite(slow)):
-            for name in FAST_PART_TERMS:
-                level = max(terms[name][i, R], terms[name][i, F])
-                terms[name][i, R] = terms[name][i, F] = level
+        mixed = np.isfinite(slow)
+        for name in FAST_PART_TERMS:
+            level = np.maximum(terms[name][mixed, R], terms[name][mixed, F])
+            terms[name][mixed, R] = level
+            terms[name][mixed, F] = level
     allowed = np.ones((n, 4), dtype=bool)
     if n:
         negligible = clear_air_negligible(prior, depth)
@@ -740,7 +741,7 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
                             f"{_odds(base[i, k] - base[i, rival])} at "
                             f"{max(_f(row.get('peak_fade_db_finite')), 1.0):.0f} dB on {link.frequency_ghz:g} GHz/"
                             f"{link.length_km:g} km" + (f" (rain and refraction at the {slow:.0f}-dB mean)"
-                                                        if math.isfinite(slow := _slow_depth(row))
+                                                        if math.isfinite(slow := slow_depth(row))
                                                         else "")))
         for name in TERMS:
             if texts[name][i]:

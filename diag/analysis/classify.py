@@ -35,7 +35,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.attribution import _slow_depth, attribute, local_hour, rows_of
+from diag.analysis.attribution import attribute, local_hour, rows_of, slow_depth
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior
 from diag.analysis.reference import AnalysisConfig
@@ -245,7 +245,7 @@ STATS_SPLIT_MINMAX = True
 STATS_SPLIT_SPREAD_DB = 6.0     # median 15-min min-max spread that marks multipath on top
 SPLIT_MIN_FAST_STD_DB = 1.0     # fast fluctuation (std about the 1-min running mean) that marks multipath in it
 SPLIT_RAIN = True               # the same inside an event called rain (a slow rain fade with multipath on top)
-SPLIT_RAIN_NIGHT_ONLY = True
+SPLIT_RAIN_NIGHT_ONLY = True   # ... only at multipath's hours (_multipath_hours), as FLOOR_NIGHT_ONLY
 
 
 def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
@@ -285,12 +285,12 @@ def split_causes(out: pd.DataFrame, link: Link) -> np.ndarray:
         # only where P.530 clear-air fading reaches the event's depth on this hop (a convective cell's fast edges on
         # a short high-band hop are no multipath), the fluctuation is multipath's against the fade (the attribution's
         # slow-depth condition) and at multipath's hours
-        picks = np.flatnonzero(base & (cause == S.RAIN))
-        peak = out["peak_fade_db_finite"].to_numpy(dtype=float, na_value=np.nan)[picks] if len(picks) else []
-        for k, row, depth in zip(picks, rows_of(out.iloc[picks]), peak):
-            if (math.isfinite(depth) and not bool(clear_air_negligible(prior, depth)[0])
-                    and math.isfinite(_slow_depth(row))
-                    and (not SPLIT_RAIN_NIGHT_ONLY or _multipath_hours(row, link))):
+        peak = out["peak_fade_db_finite"].to_numpy(dtype=float, na_value=np.nan)
+        with np.errstate(invalid="ignore"):
+            reach = np.isfinite(peak) & ~clear_air_negligible(prior, np.nan_to_num(peak))
+        picks = np.flatnonzero(base & (cause == S.RAIN) & reach)
+        for k, row in zip(picks, rows_of(out.iloc[picks])):
+            if math.isfinite(slow_depth(row)) and (not SPLIT_RAIN_NIGHT_ONLY or _multipath_hours(row, link)):
                 split[k] = S.MULTIPATH
     with np.errstate(invalid="ignore"):
         slow_ok = (mean >= SPLIT_SLOW_DB) & (mean <= 2.0 * prior.refractive_max_db)
