@@ -355,6 +355,11 @@ def local_hour(row, link: Link) -> tuple[float, str] | None:
     return local, "UTC"
 
 
+# (rain, multipath, refractive) log-likelihoods of a fade at night (21-08 h) and in the afternoon (12-20 h)
+HOUR_NIGHT = (-1.0, 1.0, 1.0)
+HOUR_AFTERNOON = (0.5, -0.5, -0.5)
+
+
 def term_hour(row, link: Link, prior: HopPrior):
     """Hour in local solar time (site longitudes), else in the logs' local zone (``--tz``), else UTC: clear-air
     fading comes with the stable stratified air of nights and early mornings (P.530 §2.3 worst month,
@@ -364,10 +369,13 @@ def term_hour(row, link: Link, prior: HopPrior):
     if got is None:
         return None
     local, clock = got
-    night = 1.0 if (local >= 21.0 or local < 8.0) else (-0.5 if 12.0 <= local < 20.0 else 0.0)
-    if night == 0.0:
+    if local >= 21.0 or local < 8.0:
+        vec = HOUR_NIGHT
+    elif 12.0 <= local < 20.0:
+        vec = HOUR_AFTERNOON
+    else:
         return None
-    return _v(-night, night, night), f"at {local:02.0f} h {clock} time"
+    return _v(*vec), f"at {local:02.0f} h {clock} time"
 
 
 def term_gauge(row, link: Link, prior: HopPrior):
