@@ -402,6 +402,9 @@ NETWORK_SILENCE_PER_HOUR = 1.0
 # neutral on family B fit seeds 1-50, real OpenRainER dry days 4.9 -> 3.5 % called rain in-sample (2026-12-05)
 EPISODE_SILENCE = True
 NETWORK_SILENCE_MAX = 10.0
+# silence evidence under this (log-likelihood) is no term: the watched hops lie too far away to say anything.  Until
+# 2026-12-05 (sixth sitting) a placed hop's silence counted at least 0.3 however far away the other hops were
+NETWORK_SILENCE_NEGLIGIBLE = 0.01
 
 
 def term_network(row, link: Link, prior: HopPrior):
@@ -415,7 +418,8 @@ def term_network(row, link: Link, prior: HopPrior):
     faded beyond chance up to 1, and up to +2 more as that weight grows from 1 to 3 (several near hops).  When three
     or more other hops were watched and no more faded than chance: -``NETWORK_SHARED_RAIN`` x the watched nearness
     weight (``network_weight``) x (1 + ``NETWORK_SILENCE_PER_HOUR`` x the fade's hours: long rain sweeps a wider area),
-    bounded to -0.3..-``NETWORK_SILENCE_MAX``, where the links table gives site coordinates (else -0.3).  The hours
+    bounded to -``NETWORK_SILENCE_MAX``, where the links table gives site coordinates (else -0.3); hops so far away
+    that the product is under ``NETWORK_SILENCE_NEGLIGIBLE`` give no term (their silence says nothing).  The hours
     are those of the hop's whole episode (``episode_hours``: its fades less than ``network.EPISODE_GAP_S`` apart)
     when the near hops stayed no busier than chance over all of it (``episode_share``, ``episode_chance``): a
     morning of dips returning every few minutes is one spell, and rain on this path for that long would have
@@ -444,8 +448,12 @@ def term_network(row, link: Link, prior: HopPrior):
         if (EPISODE_SILENCE and math.isfinite(ep_hours) and ep_hours > hours and math.isfinite(ep_share)
                 and (ep_share <= 0.0 or ep_share - (ep_chance if math.isfinite(ep_chance) else 0.0) <= 0.0)):
             hours = ep_hours
-        s = (_clip(NETWORK_SHARED_RAIN * watched * (1.0 + NETWORK_SILENCE_PER_HOUR * hours), 0.3, NETWORK_SILENCE_MAX)
-             if placed else 0.3)
+        # placed: no floor.  Hops tens of km away or more weigh next to nothing (exp(-d / CORRELATION_KM)), and
+        # their silence is no evidence about rain on this path: a lone hop 100 km from the rest gets no term
+        s = (_clip(NETWORK_SHARED_RAIN * watched * (1.0 + NETWORK_SILENCE_PER_HOUR * hours), 0.0,
+                   NETWORK_SILENCE_MAX) if placed else 0.3)
+        if s < NETWORK_SILENCE_NEGLIGIBLE:
+            return None
         text = (f"none of {others:.0f} other hops faded" if share <= 0.0 else
                 f"{share:.0%} of the network's other hops faded with it, no more than chance ({chance:.0%})")
         return _v(-s, 0.0, 0.0), text

@@ -164,7 +164,13 @@ def test_neighbours_fading_no_more_than_chance_are_no_rain_evidence():
     assert A.term_network({**dry, "network_weight": 9.0, "duration_s": 6 * 3600.0}, link, prior)[0][A.R] == \
         pytest.approx(-A.NETWORK_SILENCE_MAX)
     assert A.term_network({**dry, "network_weight": 40.0}, link, prior)[0][A.R] == pytest.approx(-10.0)
-    assert A.term_network({**dry, "network_weight": 0.5}, link, prior)[0][A.R] == pytest.approx(-0.3)
+    # few near hops watched, little evidence: no floor under it (until 2026-12-05 it was at least 0.3) ...
+    assert A.term_network({**dry, "network_weight": 0.5}, link, prior)[0][A.R] == pytest.approx(-0.3 * 0.5)
+    # ... and none at all from hops that lie far away: three hops 100 km off weigh 3 exp(-100 / 20) = 0.02, and
+    # their silence says nothing about rain on this path (a lone hop far from the network, family B's "independent"
+    # hops and family C's outlying ones)
+    far = 3.0 * np.exp(-100.0 / N.CORRELATION_KM)
+    assert A.term_network({**dry, "network_weight": far}, link, prior) is None
     # without site coordinates the watched hops may lie anywhere: their silence weighs the former flat -0.3
     unplaced = _link("U")
     assert A.term_network({**dry, "network_weight": 9.0}, unplaced, hop_prior(unplaced))[0][A.R] == pytest.approx(-0.3)
