@@ -76,7 +76,8 @@ def _pack(result, truth_codes: np.ndarray, source: str, shape: str) -> dict | No
     base, terms, _, allowed, groups = prepare(rows, result.link)
     return {"source": source, "shape": shape, "link": result.link.link_id, "base": base,
             "terms": {k: v for k, v in terms.items()}, "allowed": allowed, "groups": groups,
-            "truth": truth_codes[keep], "weight": sub["duration_s"].to_numpy(dtype=float) / 60.0}
+            "durations": at._group_durations(rows), "truth": truth_codes[keep],
+            "weight": sub["duration_s"].to_numpy(dtype=float) / 60.0}
 
 
 # -------------------------------------------------------------------------------------------- in-house simulator
@@ -199,7 +200,8 @@ def loss(x: np.ndarray, packs: list[dict], reg: float = 0.5) -> float:
 def _loss_one(w: dict, packs: list[dict]) -> float:
     total = norm = 0.0
     for p in packs:
-        post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w)
+        post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w,
+                                  durations=p.get("durations"))
         post = np.nan_to_num(post, nan=0.25)
         truth, weight = p["truth"], p["weight"]
         if p["source"] == "real":
@@ -224,7 +226,8 @@ def scores(packs: list[dict], w: dict) -> dict:
     """Duration-weighted accuracy of the verdict (unknown counted wrong) per source/shape."""
     out: dict = {}
     for p in packs:
-        post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w)
+        post = at.final_posterior(p["base"], p["terms"], p["allowed"], p["groups"], w,
+                                  durations=p.get("durations"))
         k = np.where(np.isfinite(post).all(axis=1), np.nan_to_num(post).argmax(axis=1), -1)
         conf = np.nan_to_num(post).max(axis=1)
         k = np.where(conf >= at.UNKNOWN_BAR, k, -1)

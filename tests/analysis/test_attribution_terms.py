@@ -194,3 +194,28 @@ def test_multipath_seconds_inside_a_rain_fade_are_split_off(monkeypatch):
     assert list(C.split_causes(out, short)) == ["", ""]
     monkeypatch.setattr(C, "SPLIT_RAIN", False)
     assert list(C.split_causes(out, link)) == ["", ""]
+
+
+def test_group_pooling_weighs_members_by_duration():
+    # one physical event on two channels: two 3-h fades with rain ahead of refraction by 8 in log-odds, and four
+    # 5-min dips on their tail that overlap them (same group) with refraction ahead by 7.5.  Rain and refraction act
+    # on the whole path, so the members share one log-odds; weighted by duration the 3-h fades decide it (stated
+    # choice: each member's evidence grows with its samples).  Family C fit seed 10 had exactly this, and the plain
+    # mean called two 33-dB rain fades refractive.
+    logit = np.zeros((6, 4))
+    logit[:2, A.R] = 8.0
+    logit[2:, A.F] = 7.5
+    groups = np.zeros(6, dtype=np.int64)
+    dur = np.array([10800.0, 10800.0, 300.0, 300.0, 300.0, 300.0])
+    pooled = A._pool_groups(groups, logit, dur)
+    delta = pooled[:, A.R] - pooled[:, A.F]
+    expect = (2 * 10800 * 8.0 - 4 * 300 * 7.5) / (2 * 10800 + 4 * 300)
+    assert delta == pytest.approx(np.full(6, expect))
+    assert (delta > 0).all()
+    # control: without durations (or with the switch off) the plain mean, which the dips outvote
+    plain = A._pool_groups(groups, logit)
+    assert (plain[:, A.R] - plain[:, A.F]) == pytest.approx(np.full(6, (2 * 8.0 - 4 * 7.5) / 6))
+    # multipath and "other" are untouched; a row in no group (-1) keeps its own log-odds
+    assert pooled[:, A.M] == pytest.approx(logit[:, A.M])
+    lone = A._pool_groups(np.array([-1, 0, 0]), logit[[0, 2, 3]], dur[[0, 2, 3]])
+    assert lone[0, A.R] - lone[0, A.F] == pytest.approx(8.0)
