@@ -76,7 +76,7 @@ def _pack(result, truth_codes: np.ndarray, source: str, shape: str) -> dict | No
     base, terms, _, allowed, groups = prepare(rows, result.link)
     return {"source": source, "shape": shape, "link": result.link.link_id, "base": base,
             "terms": {k: v for k, v in terms.items()}, "allowed": allowed, "groups": groups,
-            "durations": at._group_durations(rows), "truth": truth_codes[keep],
+            "durations": at.group_durations(rows), "truth": truth_codes[keep],
             "weight": sub["duration_s"].to_numpy(dtype=float) / 60.0}
 
 

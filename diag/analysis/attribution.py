@@ -680,7 +680,7 @@ def _group_ids(rows: list[dict]) -> np.ndarray:
 POOL_BY_DURATION = True
 
 
-def _group_durations(rows: list[dict]) -> np.ndarray:
+def group_durations(rows: list[dict]) -> np.ndarray:
     """Each row's duration [s] (at least 1 s; 1 where unknown): its weight in the group pooling."""
     d = np.array([_f(r.get("duration_s")) for r in rows], dtype=float)
     return np.where(np.isfinite(d), np.maximum(d, 1.0), 1.0)
@@ -723,12 +723,21 @@ def prepare(rows: list[dict], link: Link, prior: HopPrior | None = None, weights
     return base, terms, texts, allowed, _group_ids(rows)
 
 
-def final_posterior(base, terms, allowed, groups, weights: dict[str, float] | None = None,
-                    temperature: np.ndarray | None = None, durations: np.ndarray | None = None) -> np.ndarray:
-    """Posterior [n, 4] after the group pooling (members weighted by ``durations`` when given), each row's logits
-    divided by its ``temperature`` (1 when None)."""
+def pooled_logits(base, terms, allowed, groups, weights: dict[str, float] | None = None,
+                  durations: np.ndarray | None = None) -> np.ndarray:
+    """Logits [n, 4] after the group pooling (members weighted by ``durations`` when given)."""
     logit, _ = posterior(base, terms, allowed, weights)
-    logit = _pool_groups(groups, logit, durations)
+    return _pool_groups(groups, logit, durations)
+
+
+def final_posterior(base, terms, allowed, groups, weights: dict[str, float] | None = None,
+                    temperature: np.ndarray | None = None, durations: np.ndarray | None = None,
+                    logit: np.ndarray | None = None) -> np.ndarray:
+    """Posterior [n, 4] after the group pooling (members weighted by ``durations`` when given), each row's logits
+    divided by its ``temperature`` (1 when None); ``logit``: the pooled logits when already computed
+    (:func:`pooled_logits`)."""
+    if logit is None:
+        logit = pooled_logits(base, terms, allowed, groups, weights, durations)
     if temperature is not None and len(logit):
         logit = logit / np.asarray(temperature, dtype=float)[:, None]
     top = np.max(logit, axis=1, keepdims=True) if len(logit) else np.zeros((0, 1))
@@ -746,9 +755,9 @@ def attribute(rows: list[dict], link: Link, *, weights: dict[str, float] | None 
     base, terms, texts, allowed, groups = prepare(rows, link, prior, w)
     # the verdict (and "unknown" for a flat posterior) from the evidence as it stands; the confidence stated is the
     # calibrated probability (TEMPERATURE keeps the arg-max)
-    durations = _group_durations(rows)
-    raw = final_posterior(base, terms, allowed, groups, w, durations=durations)
-    post = final_posterior(base, terms, allowed, groups, w, durations=durations,
+    logit = pooled_logits(base, terms, allowed, groups, w, group_durations(rows))   # once for both
+    raw = final_posterior(base, terms, allowed, groups, logit=logit)
+    post = final_posterior(base, terms, allowed, groups, logit=logit,
                            temperature=np.array([TEMPERATURE[_sampling(r)] for r in rows]))
     out = []
     for i, row in enumerate(rows):
