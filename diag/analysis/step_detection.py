@@ -396,10 +396,31 @@ def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: 
     return float(np.mean(np.abs(x - level) <= tol_db)) if x.size else 0.0
 
 
+STILL_BLOCKS = 12   # sub-blocks of a window whose medians show a wandering level (10 min each in a 2-h window)
+
+
+def _still_window(values: np.ndarray, level: float, share: float, tol_db: float, range_db: float,
+                  fade_trim_db: float) -> bool:
+    """True when a window holds still at ``level`` as clear air does: ``share`` or more of its finite values not
+    faded more than ``fade_trim_db`` below the level lie within ``tol_db`` of it, and the medians of its
+    ``STILL_BLOCKS`` sub-blocks (those at least half valid) span at most ``range_db``."""
+    if _level_share(values, level, tol_db, fade_trim_db) < share:
+        return False
+    width = max(1, values.size // STILL_BLOCKS)
+    blocks = values[: width * (values.size // width)].reshape(-1, width)
+    valid = np.isfinite(blocks).sum(axis=1) * 2 >= width
+    if not valid.any():
+        return False
+    with np.errstate(invalid="ignore"):
+        medians = np.nanmedian(blocks[valid], axis=1)
+    return bool(np.ptp(medians) <= range_db)
+
+
 def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, min_step_db: float = 2.0,
                  window_s: float = 7200.0, fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6,
                  lag_s: float = 60.0, min_abrupt_fraction: float = 0.5,
-                 max_step_db: float | None = 40.0) -> list[Step]:
+                 max_step_db: float | None = 40.0, still_share: float | None = None,
+                 still_range_db: float = 1.0, still_tol_db: float = 0.5) -> list[Step]:
     """Steps of the clear-sky level that happened inside a fade, between the steps already found.
 
     :func:`detect_steps` needs the level clear and flat on both sides of a step; a knocked antenna put right while
@@ -412,7 +433,14 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
     (of a running median over ``lag_s`` at fine sampling, against multipath spikes) when that change is at least
     ``min_abrupt_fraction`` of the step (a step is abrupt, a rain fade's edge slower); else at the edge of the fade
     that leaves the fade on the lower level (rain on top of the shifted level).  Common practice, no outside
-    source.  Returns the new steps, in time order."""
+    source.
+
+    ``still_share`` (off when None) asks more of both windows: they must hold *still* as clear air does
+    (:func:`_still_window`: ``still_share`` of the unfaded samples within ``still_tol_db`` of the window's clear
+    level, and its twelve sub-block medians within ``still_range_db`` of each other).  A storm that has not ended
+    when the record (or the stretch) does sits lower but wanders, as rain does (its rate changes by tens of per cent
+    within minutes); an antenna left knocked after the storm has passed holds its new level as still as before.
+    Returns the new steps, in time order."""
     values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
     index = level_dbm.index
     n = len(values)
@@ -434,6 +462,10 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
         tol = max(1.0, abs(size) / 4.0)
         if min(_level_share(seg[:w], head, tol, fade_trim_db),
                _level_share(seg[-w:], tail, tol, fade_trim_db)) < min_flat_fraction:
+            continue
+        if still_share is not None and not (
+                _still_window(seg[:w], head, still_share, still_tol_db, still_range_db, fade_trim_db)
+                and _still_window(seg[-w:], tail, still_share, still_tol_db, still_range_db, fade_trim_db)):
             continue
         # the level cannot sit clear at the higher of the two levels while it is at the lower one, so: an upward
         # move lies before the first sample clear at the higher (last) level, a downward one after the last sample
