@@ -420,7 +420,8 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
                  window_s: float = 7200.0, fade_trim_db: float = 3.0, min_flat_fraction: float = 0.6,
                  lag_s: float = 60.0, min_abrupt_fraction: float = 0.5,
                  max_step_db: float | None = 40.0, still_share: float | None = None,
-                 still_range_db: float = 1.0, still_tol_db: float = 0.5) -> list[Step]:
+                 still_range_db: float = 1.0, still_tol_db: float = 0.5,
+                 spread_db: np.ndarray | None = None, spread_margin_db: float | None = None) -> list[Step]:
     """Steps of the clear-sky level that happened inside a fade, between the steps already found.
 
     :func:`detect_steps` needs the level clear and flat on both sides of a step; a knocked antenna put right while
@@ -440,8 +441,17 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
     level, and its twelve sub-block medians within ``still_range_db`` of each other).  A storm that has not ended
     when the record (or the stretch) does sits lower but wanders, as rain does (its rate changes by tens of per cent
     within minutes); an antenna left knocked after the storm has passed holds its new level as still as before.
+    ``spread_db`` (interval statistics: each interval's max - min) with ``spread_margin_db``: a still window must
+    also keep the median spread of its intervals within the margin of the record's median spread (clear air);
+    interval averages smooth a light rain plateau's wander away, its spread within the interval does not.
     Returns the new steps, in time order."""
     values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
+    spread = None
+    if spread_db is not None and spread_margin_db is not None:
+        spread = np.asarray(spread_db, dtype=float)
+        clear_spread = float(np.nanmedian(spread)) if np.isfinite(spread).any() else math.nan
+        if not math.isfinite(clear_spread):
+            spread = None
     index = level_dbm.index
     n = len(values)
     w = max(3, int(round(window_s / interval_s)))
@@ -466,6 +476,10 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
         if still_share is not None and not (
                 _still_window(seg[:w], head, still_share, still_tol_db, still_range_db, fade_trim_db)
                 and _still_window(seg[-w:], tail, still_share, still_tol_db, still_range_db, fade_trim_db)):
+            continue
+        if spread is not None and not all(
+                np.isfinite(part).any() and np.nanmedian(part) <= clear_spread + spread_margin_db
+                for part in (spread[a:a + w], spread[b - w:b])):
             continue
         # the level cannot sit clear at the higher of the two levels while it is at the lower one, so: an upward
         # move lies before the first sample clear at the higher (last) level, a downward one after the last sample

@@ -57,11 +57,15 @@ REFERENCE_PERSIST_S = {"sample": 2 * 3600.0, "stats": 6 * 3600.0}
 # unchanged (0.9186, 0.8766), the real links at 1 min wet 93.0 % (-18 of 65275 min), dry unchanged.  In 15-min
 # statistics (ungated, rain ending a record had looked like a shifted level on family B2) the same test reads the
 # eight interval averages of each window: fit seeds min/avg/max and min/max B 0.7875 -> 0.7978 and 0.7592 -> 0.7738,
-# C 0.7897 -> 0.7993 and 0.7485 -> 0.7625; the real links as 15-min min/max unchanged (wet 90.3 %, dry 4.5 %)
+# C 0.7897 -> 0.7993 and 0.7485 -> 0.7625; the real links as 15-min min/max unchanged (wet 90.3 %, dry 4.5 %).
+# Averages also hold a light stratiform plateau still (B2 N102-H3: 3.5 dB for 2.5 h), its spread inside each
+# interval does not: the windows' median spread must stay within HIDDEN_SPREAD_MARGIN_DB of the record's median
+# (fit seeds: B min/avg/max 0.7978 -> 0.8000, the other three unchanged within 0.0001; real unchanged)
 HIDDEN_STEPS: tuple = ("sample", "stats")
 HIDDEN_WINDOW_S = 7200.0
 HIDDEN_STILL_SHARE: float | None = 0.9   # step_detection._still_window; None: the flatness test alone
 HIDDEN_STILL_RANGE_DB = 1.0
+HIDDEN_SPREAD_MARGIN_DB: float | None = 0.5   # 15-min statistics: window spread within this of the record's median
 
 
 def _steps_removed(values: np.ndarray, index: pd.Index, steps: list[Step]) -> np.ndarray:
@@ -267,9 +271,14 @@ def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.nda
     if series.kind == "stats" and steps:
         steps = [step for step in steps if not _fading_not_step(frame, step, high=high)]
     if series.kind in HIDDEN_STEPS and np.isfinite(level).sum() > 10:
+        spread = None
+        if series.kind == "stats" and "rsl_max_dbm" in frame.columns and "rsl_min_dbm" in frame.columns:
+            spread = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
+                      - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
         hidden = hidden_steps(pd.Series(level, index=frame.index), series.interval_s, steps,
                               min_step_db=config.step_min_db, window_s=HIDDEN_WINDOW_S, still_share=HIDDEN_STILL_SHARE,
-                              still_range_db=HIDDEN_STILL_RANGE_DB)
+                              still_range_db=HIDDEN_STILL_RANGE_DB, spread_db=spread,
+                              spread_margin_db=HIDDEN_SPREAD_MARGIN_DB)
         steps = sorted(steps + hidden, key=lambda step: step.time_utc)
     try:
         reported = detect_steps(path_level_dbm(frame), series.interval_s, min_step_db=config.level_change_min_db)

@@ -9,6 +9,7 @@ step better than the fade's own changes allow).
 """
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
 import pytest
 
@@ -120,3 +121,20 @@ def test_still_gate_refuses_a_storm_that_runs_past_the_record(hops, step_s):
     gated = hidden_steps(level, step_s, [], min_step_db=1.5, still_share=0.9)
     assert gated == []
     assert ungated, "the ungated search should take the storm's tail for a step (else this case tests nothing)"
+
+
+def test_spread_gate_tells_a_rain_plateau_from_a_knock_in_interval_statistics():
+    # 15-min statistics: interval averages hold a light rain plateau within a few tenths of a dB, as they hold a
+    # knocked antenna; the spread inside each interval does not (rain wanders within the 15 min, clear air keeps its
+    # noise).  Stated choice (common practice): the windows' median spread within 0.5 dB of the record's median
+    rng = np.random.default_rng(3)
+    index = pd.date_range(START, periods=48, freq="15min")
+    level = pd.Series(np.r_[np.full(16, -40.0), np.full(32, -43.5)] + 0.05 * rng.standard_normal(48), index=index)
+    clear = np.full(48, 1.0)
+    plateau = np.full(48, 1.0)      # the record's median spread stays clear air's ...
+    plateau[-10:] = 2.6             # ... while the tail window wanders inside its intervals
+    kept = hidden_steps(level, 900.0, [], min_step_db=1.5, still_share=0.9, spread_db=clear, spread_margin_db=0.5)
+    assert len(kept) == 1 and kept[0].size_db == pytest.approx(-3.5, abs=0.2)
+    assert hidden_steps(level, 900.0, [], min_step_db=1.5, still_share=0.9, spread_db=plateau,
+                        spread_margin_db=0.5) == []
+    assert len(hidden_steps(level, 900.0, [], min_step_db=1.5, still_share=0.9)) == 1   # averages alone: kept
