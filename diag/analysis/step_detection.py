@@ -396,7 +396,8 @@ def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: 
     return float(np.mean(np.abs(x - level) <= tol_db)) if x.size else 0.0
 
 
-STILL_BLOCKS = 12   # sub-blocks of a window whose medians show a wandering level (10 min each in a 2-h window)
+STILL_BLOCKS = 12   # sub-blocks of a window whose medians show a wandering level (10 min each in a 2-h window;
+                    # a 2-h window of 15-min statistics has eight, one interval each)
 
 
 def _still_window(values: np.ndarray, level: float, share: float, tol_db: float, range_db: float,
@@ -438,7 +439,8 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
 
     ``still_share`` (off when None) asks more of both windows: they must hold *still* as clear air does
     (:func:`_still_window`: ``still_share`` of the unfaded samples within ``still_tol_db`` of the window's clear
-    level, and its twelve sub-block medians within ``still_range_db`` of each other).  A storm that has not ended
+    level, and the medians of its ``STILL_BLOCKS`` sub-blocks, or of each interval when the window holds fewer, within
+    ``still_range_db`` of each other).  A storm that has not ended
     when the record (or the stretch) does sits lower but wanders, as rain does (its rate changes by tens of per cent
     within minutes); an antenna left knocked after the storm has passed holds its new level as still as before.
     ``spread_db`` (interval statistics: each interval's max - min) with ``spread_margin_db``: a still window must
