@@ -8,9 +8,12 @@ simulated (dual-polarised 23 GHz hop with rain, multipath, a level shift and a d
 wide CSV, gzip'd and plain (gzip makes reading slower; the plain CSV is the harder comparison), then read with
 ``diag.read.ingest.read_log`` and analysed; each step is timed ``--repeat`` times (reads and analyses interleaved) and
 the best run is reported, with the ratios analysis / read printed side by side.  ``--stages`` adds the CPU
-time of each analysis stage.  Run::
+time of each analysis stage.  ``--against-rules`` also times, interleaved in the same run, the analysis with the
+older rulebook attribution (``AnalysisConfig(attribution="rules")``, the analysis before issue 14) and with the
+hidden-step search off (``steps.HIDDEN_STEPS = ()``), and prints the default's CPU time over each (issue 14's bar:
+within 1.5x of the rulebook's).  Run::
 
-    .venv/bin/python bench/bench_analysis.py [--repeat 3] [--stages]
+    .venv/bin/python bench/bench_analysis.py [--repeat 3] [--stages] [--against-rules]
 """
 from __future__ import annotations
 
@@ -79,10 +82,39 @@ def stage_cpu(table, link, runs: int) -> dict[str, float]:
     return best
 
 
+def against_rules(table, link, runs: int) -> dict[str, float]:
+    """Best CPU time of one-thread analyses with the default settings, the rulebook attribution and the hidden-step
+    search off, interleaved; then the default's time over each of the others."""
+    from diag.analysis import steps
+    from diag.config import AnalysisConfig
+
+    kinds = {"default (posterior, hidden steps)": (AnalysisConfig(), steps.HIDDEN_STEPS),
+             "rulebook attribution": (AnalysisConfig(attribution="rules"), steps.HIDDEN_STEPS),
+             "hidden-step search off": (AnalysisConfig(), ())}
+    best = {label: float("inf") for label in kinds}
+    saved = steps.HIDDEN_STEPS
+    try:
+        for _ in range(max(1, runs)):
+            for label, (config, hidden) in kinds.items():
+                steps.HIDDEN_STEPS = hidden
+                c0 = time.process_time()
+                analyze_link(table, link, config=config, threads=1)
+                best[label] = min(best[label], time.process_time() - c0)
+    finally:
+        steps.HIDDEN_STEPS = saved
+    default = best["default (posterior, hidden steps)"]
+    out = dict(best)
+    out["ratio default / rulebook (issue 14: <= 1.5)"] = default / best["rulebook attribution"]
+    out["ratio default / hidden-step search off"] = default / best["hidden-step search off"]
+    return out
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeat", type=int, default=3, help="timed runs of each step (best is reported)")
     parser.add_argument("--stages", action="store_true", help="also print the CPU time of each analysis stage")
+    parser.add_argument("--against-rules", action="store_true",
+                        help="also time the rulebook attribution and the hidden-step search off, side by side")
     args = parser.parse_args(argv)
     sim = simulate_link(week_spec(), seed=7)
     with tempfile.TemporaryDirectory() as tmp:
@@ -130,6 +162,10 @@ def main(argv=None) -> int:
     an_wall, an_cpu = min(wall["analyze_link"]), min(cpu["analyze_link"])
     print(f"analysis target < 2 s: {'met' if an_wall < 2.0 else 'not met'} on wall time, "
           f"{'met' if an_cpu < 2.0 else 'not met'} on CPU time ({len(result.events)} events)")
+    if args.against_rules:
+        print("CPU s of analyze_link (threads=1), best of the runs, interleaved:")
+        for label, value in against_rules(table, sim.link, args.repeat).items():
+            print(f"  {label:<44}{value:>8.3f}")
     if args.stages:
         print("CPU s per analysis stage (best of the runs; stages in one thread):")
         for label, value in stage_cpu(table, sim.link, args.repeat).items():
