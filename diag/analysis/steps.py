@@ -208,8 +208,16 @@ FADING_MAX_CHECK = True
 FADING_MAX_MIN_DB = RAYLEIGH_LOG_MEAN_DB + 1.0
 
 
+def _interval_spread(frame: pd.DataFrame) -> pd.Series | None:
+    """Each interval's max - min of 15-min statistics [dB] (transmit changes cancel), None without both columns."""
+    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
+        return None
+    return frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
+
+
 def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_db: float = 6.0,
-                     change_db: float = 4.0, high: pd.Series | None = None) -> bool:
+                     change_db: float = 4.0, high: pd.Series | None = None,
+                     spread: pd.Series | None = None) -> bool:
     """15-min statistics: is this "step" the start or end of a fading episode rather than a level shift?
 
     A misaligned antenna lowers min, average and max alike, so the interval spread (max - min) stays as it was;
@@ -221,10 +229,12 @@ def _fading_not_step(frame: pd.DataFrame, step, *, window_h: float = 6.0, wide_d
     well as fades (P.530 §2.3.3), so the start of a multipath spell leaves the maxima where they were or lifts them
     and sinks the average by at most the Rayleigh log-mean bias; only a change of the clear level itself (an antenna
     knocked as the night's fading began) carries the maxima down with a larger step of the average.
+    ``spread``: :func:`_interval_spread` of the frame when already computed.
     """
-    if "rsl_max_dbm" not in frame.columns or "rsl_min_dbm" not in frame.columns:
+    if spread is None:
+        spread = _interval_spread(frame)
+    if spread is None:
         return False
-    spread = frame["rsl_max_dbm"] - frame["rsl_min_dbm"]
     t = step.time_utc
     window = pd.Timedelta(hours=window_h)
     early = pd.Timedelta(seconds=1)
@@ -268,16 +278,14 @@ def channel_steps(series, config: AnalysisConfig | None = None, *, level: np.nda
         except ValueError as exc:  # too short a record for the windows
             log.info("no step detection on %s: %s", series.channel, exc)
             steps = []
+    spread = _interval_spread(frame) if series.kind == "stats" else None   # computed once for both tests below
     if series.kind == "stats" and steps:
-        steps = [step for step in steps if not _fading_not_step(frame, step, high=high)]
+        steps = [step for step in steps if not _fading_not_step(frame, step, high=high, spread=spread)]
     if series.kind in HIDDEN_STEPS and np.isfinite(level).sum() > 10:
-        spread = None
-        if series.kind == "stats" and "rsl_max_dbm" in frame.columns and "rsl_min_dbm" in frame.columns:
-            spread = (frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
-                      - frame["rsl_min_dbm"].to_numpy(dtype=float, na_value=np.nan))
         hidden = hidden_steps(pd.Series(level, index=frame.index), series.interval_s, steps,
                               min_step_db=config.step_min_db, window_s=HIDDEN_WINDOW_S, still_share=HIDDEN_STILL_SHARE,
-                              still_range_db=HIDDEN_STILL_RANGE_DB, spread_db=spread,
+                              still_range_db=HIDDEN_STILL_RANGE_DB,
+                              spread_db=None if spread is None else spread.to_numpy(dtype=float, na_value=np.nan),
                               spread_margin_db=HIDDEN_SPREAD_MARGIN_DB)
         steps = sorted(steps + hidden, key=lambda step: step.time_utc)
     try:
