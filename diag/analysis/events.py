@@ -449,9 +449,33 @@ def _paint_still_edges(item: ChannelSeries, events: pd.DataFrame, mine: np.ndarr
                 m = _still_run(level, spread, e + step, step)
                 r0, r1 = (e - m, e) if step < 0 else (e + 1, e + 1 + m)
                 if m >= min_n and (r0 > a if step < 0 else r1 < b) and (stats or _varied(level[r0:r1])):
+                    if STILL_EDGE_DOMINANT:
+                        r0, r1 = _step_dominates(level, event_id, row_ids[k], r0, r1, step)
                     own = event_id[r0:r1] == row_ids[k]
                     cause[r0:r1][own] = lookup[S.LEVEL_SHIFT]
                 break
+
+
+# the step found by the still run stays the cause of the event's samples beside it while it is the larger part of
+# the fade (``_step_dominates``)
+STILL_EDGE_DOMINANT = True
+
+
+def _step_dominates(level: np.ndarray, event_id: np.ndarray, row_id, r0: int, r1: int, step: int) -> tuple[int, int]:
+    """Widen the still run ``[r0, r1)`` into its event (walking by ``step``: -1 from ``r0`` backwards, +1 from ``r1``
+    forwards) over the samples where the step is still the larger part of the fade: the level no shallower than the
+    step's plateau P (less ``STILL_EDGE_READOUT_DB``: the step has not been set right) and the fade on top under P
+    (level below 2 P).  A fade on a stepped level is the sum of the two losses in dB; each sample goes to the larger
+    one, as rule 1c does at 1 s (``classify.SPLIT_UNDER_STEP``: the fade on top is named only where it exceeds the
+    step).  Stops at the first sample that fails, or leaves the event."""
+    plateau = float(np.nanmean(level[r0:r1]))
+    i = r0 - 1 if step < 0 else r1
+    while 0 <= i < level.size and event_id[i] == row_id:
+        x = level[i]
+        if not (plateau - STILL_EDGE_READOUT_DB <= x < 2.0 * plateau):
+            break
+        i += step
+    return (i + 1, r1) if step < 0 else (r0, i)
 
 
 LOSS_MIN_S = 10.0       # a lost run this long or longer (multipath dips to the floor last a second or two)

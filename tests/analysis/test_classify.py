@@ -379,3 +379,59 @@ def test_refractive_fade_under_a_multipath_night_in_interval_statistics(hops, mo
     assert split["mm"] >= whole["mm"] - 1e-9, (split, whole)
     if k_min > 0:
         assert split["mm"] >= whole["mm"] + 0.2, (split, whole)
+
+
+def test_step_keeps_the_fade_beside_its_still_level_while_it_is_the_larger_loss(hops, monkeypatch):
+    """A storm knocks an antenna 8 dB out of line and it is set right 4 h later, seen as 15-min statistics.  The
+    still tail meets the clear level through one interval (diag.analysis.events._paint_still_edges); the intervals
+    before it, where the rain's tail adds less than the step, are still the step's (the loss in dB is the sum of the
+    two, and each sample goes to the larger: the convention of rule 1c at 1 s and of the simulators' truth,
+    diag.sim.simulate).  Without the widening (``STILL_EDGE_DOMINANT``) they took the event's rain verdict.
+    Control: a heavy storm on top keeps its core (the intervals averaging more than twice the step) rain; at 15-min
+    resolution a few of its seconds inside an interval of lighter average go to the step, fewer than are gained."""
+    import diag.analysis.events as E
+
+    def both(mmh):
+        spec = LinkSpec(link_id="C-STEP-DOM", frequency_ghz=18.0, length_km=8.0, polarization="V",
+                        threshold_dbm=-75.0, nominal_dbm=-40.0, duration_s=24 * H,
+                        effects=(Effect("level_shift", 6 * H, 4 * H, {"step_db": 8.0}),
+                                 Effect("rain", 5 * H, 2 * H, {"peak_mmh": mmh})))
+        sim = hops.sim(spec, 7)
+        stats = aggregate_statistics(sim.table, interval_s=900.0, floor_dbm=sim.spec.floor_value_dbm)
+        return sim, {"mam": stats, "mm": stats[stats["stat"].astype(str) != "avg"].reset_index(drop=True)}
+
+    def scores(table, sim, dominant, causes=(S.LEVEL_SHIFT, S.RAIN)):
+        with monkeypatch.context() as m:
+            m.setattr(E, "STILL_EDGE_DOMINANT", dominant)
+            result = analyze_link(table, sim.link)
+        return tuple(_agreement(result, sim, c) for c in causes)
+
+    sim, data = both(6.0)
+    for name, table in data.items():
+        (got,), (without,) = (scores(table, sim, dominant, (S.LEVEL_SHIFT,)) for dominant in (True, False))
+        assert got >= 0.95 and got >= without + 0.15, (name, got, without)
+    sim, data = both(40.0)
+    counts = sim.truth_samples["cause"].value_counts()
+    for name, table in data.items():
+        (step_on, rain_on), (step_off, rain_off) = scores(table, sim, True), scores(table, sim, False)
+        assert rain_on >= 0.9 * rain_off, (name, rain_on, rain_off)
+        right_on = step_on * counts[S.LEVEL_SHIFT] + rain_on * counts[S.RAIN]
+        right_off = step_off * counts[S.LEVEL_SHIFT] + rain_off * counts[S.RAIN]
+        assert right_on > right_off, (name, right_on, right_off)
+
+
+def test_step_dominates_stops_where_the_fade_on_top_exceeds_the_step():
+    """diag.analysis.events._step_dominates on a made-up level [dB] (one event): a still run at 8 dB at the end;
+    walking back it takes the samples where rain adds under 8 dB, stops at the first one where it adds more (so the
+    samples before that stay the event's), and at a level shallower than the step less a readout step."""
+    import diag.analysis.events as E
+    level = np.array([3.0, 9.0, 12.0, 20.0, 13.0, 10.0, 8.5, 8.0, 8.1, 7.9, 8.0])
+    ids = np.zeros(level.size, dtype=int)
+    assert E._step_dominates(level, ids, 0, 7, 11, -1) == (4, 11)
+    level[5] = 6.5   # back up above the step: set right there, before the rain
+    assert E._step_dominates(level, ids, 0, 7, 11, -1) == (6, 11)
+    ids[:6] = 1      # another event: the widening stays inside its own
+    level[5] = 10.0
+    assert E._step_dominates(level, ids, 0, 7, 11, -1) == (6, 11)
+    # forwards from a still head
+    assert E._step_dominates(level[::-1].copy(), np.zeros(level.size, dtype=int), 0, 0, 4, 1) == (0, 7)
