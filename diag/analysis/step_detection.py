@@ -396,6 +396,23 @@ def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: 
     return float(np.mean(np.abs(x - level) <= tol_db)) if x.size else 0.0
 
 
+STILL_WHOLE_SAMPLES = True
+
+
+def _share_reached(values: np.ndarray, level: float, share: float, tol_db: float, fade_trim_db: float) -> bool:
+    """At least ``share`` of the values counted by :func:`_level_share` lie within ``tol_db`` of ``level``, the
+    share rounded down to whole samples: a window of eight 15-min intervals holds 7/8 or 8/8 of them, and 90 % of
+    eight is seven (one interval off by one readout step does not make a still level wander)."""
+    x = values[np.isfinite(values)]
+    x = x[x >= level - fade_trim_db]
+    if not x.size:
+        return False
+    within = int(np.count_nonzero(np.abs(x - level) <= tol_db))
+    if not STILL_WHOLE_SAMPLES:
+        return within / x.size >= share
+    return within >= math.floor(share * x.size + 1e-9)
+
+
 STILL_BLOCKS = 12   # sub-blocks of a window whose medians show a wandering level (10 min each in a 2-h window;
                     # a 2-h window of 15-min statistics has eight, one interval each)
 
@@ -405,7 +422,7 @@ def _still_window(values: np.ndarray, level: float, share: float, tol_db: float,
     """True when a window holds still at ``level`` as clear air does: ``share`` or more of its finite values not
     faded more than ``fade_trim_db`` below the level lie within ``tol_db`` of it, and the medians of its
     ``STILL_BLOCKS`` sub-blocks (those at least half valid) span at most ``range_db``."""
-    if _level_share(values, level, tol_db, fade_trim_db) < share:
+    if not _share_reached(values, level, share, tol_db, fade_trim_db):
         return False
     width = max(1, values.size // STILL_BLOCKS)
     blocks = values[: width * (values.size // width)].reshape(-1, width)

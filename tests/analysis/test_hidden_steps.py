@@ -138,3 +138,27 @@ def test_spread_gate_tells_a_rain_plateau_from_a_knock_in_interval_statistics():
     assert hidden_steps(level, 900.0, [], min_step_db=1.5, still_share=0.9, spread_db=plateau,
                         spread_margin_db=0.5) == []
     assert len(hidden_steps(level, 900.0, [], min_step_db=1.5, still_share=0.9)) == 1   # averages alone: kept
+
+
+def test_still_gate_counts_whole_intervals_in_a_window_of_eight(monkeypatch):
+    # 15-min statistics from a radio that reads whole dB: a 2-h window holds eight intervals, and 90 % of eight is
+    # seven.  Clear air before a knock hidden by a night of fading (the minima of a min/max export) reads -38 dB in
+    # seven intervals and -37 dB in one; asking all eight to sit within 0.5 dB (a share of 8/8) refuses the still
+    # level.  Stated choice (common practice): the share is counted in whole samples, rounded down
+    from diag.analysis import step_detection
+
+    rng = np.random.default_rng(5)
+    index = pd.date_range(START, periods=96, freq="15min")
+    head = np.full(16, -38.0)
+    head[6] = -37.0                                   # one reading a readout step above the still level
+    night = np.round(-46.0 - 15.0 * rng.random(56))    # the fading night that hides the knock
+    tail = np.full(24, -46.0)
+    level = pd.Series(np.r_[head, night, tail], index=index)
+    spread = np.r_[np.full(16, 3.0), np.full(56, 25.0), np.full(24, 2.0)]
+    assert step_detection.STILL_WHOLE_SAMPLES
+    found = hidden_steps(level, 900.0, [], min_step_db=2.0, still_share=0.9, spread_db=spread, spread_margin_db=0.5)
+    assert len(found) == 1 and found[0].size_db == pytest.approx(-8.0, abs=0.5)
+    assert START + pd.Timedelta(hours=4) <= found[0].time_utc <= START + pd.Timedelta(hours=18)
+    monkeypatch.setattr(step_detection, "STILL_WHOLE_SAMPLES", False)   # a share of 7/8 read as under 90 %
+    assert hidden_steps(level, 900.0, [], min_step_db=2.0, still_share=0.9, spread_db=spread,
+                        spread_margin_db=0.5) == []
