@@ -397,6 +397,25 @@ def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: 
 
 
 STILL_WHOLE_SAMPLES = True
+# interval statistics (with a spread): a downward move hidden by a fade lies before the first HIDDEN_STILL_RUN
+# intervals in a row that hold still at the new level (within the stillness tolerance) as narrow as clear air: an
+# hour of them.  A fade on the old level spreads its intervals or sits deeper, and light rain holding the same few
+# dB that still for an hour is rare (common practice, no outside source).  Without it the move was searched for up
+# to the end window, and in a min/max export, whose minima swing by tens of dB through every multipath night, it
+# went to the largest swing of a later night (family C fit seed 9, OUT-06).  None: searched to the end window
+HIDDEN_STILL_RUN = 4
+
+
+def _first_still_run(seg: np.ndarray, spread: np.ndarray, lo: int, hi: int, level: float, tol_db: float,
+                     narrow_db: float, run: int) -> int:
+    """Index in [lo, hi] of the first of ``run`` consecutive intervals that hold still at ``level`` (within
+    ``tol_db``) with a spread no wider than ``narrow_db``; ``hi`` when there is none."""
+    ok = np.isfinite(seg[lo:hi]) & (np.abs(seg[lo:hi] - level) <= tol_db) & (spread[lo:hi] <= narrow_db)
+    if ok.size < run:
+        return hi
+    counts = np.convolve(ok.astype(int), np.ones(run, dtype=int), mode="valid")
+    starts = np.flatnonzero(counts == run)
+    return lo + int(starts[0]) if starts.size else hi
 
 
 def _share_reached(values: np.ndarray, level: float, share: float, tol_db: float, fade_trim_db: float) -> bool:
@@ -462,7 +481,9 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
     within minutes); an antenna left knocked after the storm has passed holds its new level as still as before.
     ``spread_db`` (interval statistics: each interval's max - min) with ``spread_margin_db``: a still window must
     also keep the median spread of its intervals within the margin of the record's median spread (clear air);
-    interval averages smooth a light rain plateau's wander away, its spread within the interval does not.
+    interval averages smooth a light rain plateau's wander away, its spread within the interval does not.  With
+    ``spread_db``, a downward move is also looked for only before the first ``HIDDEN_STILL_RUN`` intervals in a row
+    that hold still at the new level as narrow as clear air (:func:`_first_still_run`).
     Returns the new steps, in time order."""
     values = np.asarray(level_dbm.to_numpy(dtype=float, na_value=np.nan), dtype=float)
     spread = None
@@ -520,6 +541,9 @@ def hidden_steps(level_dbm: pd.Series, interval_s: float, steps: list[Step], *, 
                 continue
             lo, hi = int(high[-1]), len(seg) - w
             cut = lo + 1
+            if spread is not None and HIDDEN_STILL_RUN:
+                hi = _first_still_run(seg, spread[a:b], lo + 1, hi, tail, still_tol_db,
+                                      clear_spread + spread_margin_db, HIDDEN_STILL_RUN)
         if hi - lo > 1:
             part = pd.Series(seg[lo:hi + 1])
             if lag > 1:

@@ -162,3 +162,31 @@ def test_still_gate_counts_whole_intervals_in_a_window_of_eight(monkeypatch):
     monkeypatch.setattr(step_detection, "STILL_WHOLE_SAMPLES", False)   # a share of 7/8 read as under 90 %
     assert hidden_steps(level, 900.0, [], min_step_db=2.0, still_share=0.9, spread_db=spread,
                         spread_margin_db=0.5) == []
+
+
+def test_a_knock_hidden_by_fading_is_placed_before_the_level_holds_still_after_it(monkeypatch):
+    # 15-min min/max export: an antenna knocked 8 dB during a night of multipath (the minima swing 10-25 dB below
+    # the level, the intervals' spread is wide), then a clear day at the new level, then a second fading night with
+    # the deepest swing of the record.  The move must lie before the first intervals that hold still at the new
+    # level with clear air's spread (four in a row: an hour), not at the largest swing of the later night.
+    # Stated choice (common practice): an hour of still, narrow intervals at the new level is that level
+    from diag.analysis import step_detection
+
+    rng = np.random.default_rng(11)
+    index = pd.date_range(START, periods=160, freq="15min")
+    head = np.full(16, -38.0)
+    night1 = np.round(-48.0 - 15.0 * rng.random(40))
+    day = np.full(48, -46.0)
+    night2 = np.round(-50.0 - 10.0 * rng.random(40))
+    night2[20], night2[21] = -47.0, -95.0             # the record's largest swing, on the second night
+    tail = np.full(16, -46.0)
+    level = pd.Series(np.r_[head, night1, day, night2, tail], index=index)
+    spread = np.r_[np.full(16, 3.0), np.full(40, 25.0), np.full(48, 2.0), np.full(40, 25.0), np.full(16, 2.0)]
+    day_start = index[56]
+    assert step_detection.HIDDEN_STILL_RUN == 4
+    found = hidden_steps(level, 900.0, [], min_step_db=2.0, still_share=0.9, spread_db=spread, spread_margin_db=0.5)
+    assert len(found) == 1 and found[0].size_db == pytest.approx(-8.0, abs=0.5)
+    assert index[16] <= found[0].time_utc <= day_start, found[0].time_utc
+    monkeypatch.setattr(step_detection, "HIDDEN_STILL_RUN", None)   # the search runs on through the second night
+    late = hidden_steps(level, 900.0, [], min_step_db=2.0, still_share=0.9, spread_db=spread, spread_margin_db=0.5)
+    assert len(late) == 1 and late[0].time_utc > day_start
