@@ -11,8 +11,10 @@ A short chain; the features come from :mod:`diag.analysis.events`:
    before the first floor sample within 6 dB of the reference: the signal vanished abruptly from near clear-sky
    level, which no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last
    seconds).  A level within 2 dB of the channel's lowest reading for 80 % of an event of an hour or more, 20 dB or
-   more below the reference, is the floor too (logs that print a value instead of flagging the loss).  In
-   interval statistics the first form stands aside where P.530 multipath reaches the floor on the hop
+   more below the reference, is the floor too (logs that print a value instead of flagging the loss); in interval
+   statistics that reads the interval maximum, since a multipath hour takes every interval's minimum to the
+   lowest reading while its maximum stays near clear sky (``features.STATS_FLOOR_BY_MAX``).  In interval
+   statistics the first form stands aside where P.530 multipath reaches the floor on the hop
    (:func:`_multipath_floor`).
 3. **rain / multipath / refractive** - the posterior of :mod:`diag.analysis.attribution`: the hop's P.530/P.838
    prior for a fade of that depth (:mod:`diag.analysis.priors`) times bounded likelihood terms (fast fading,

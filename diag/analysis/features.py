@@ -113,6 +113,9 @@ def _inf_as_nan(x: np.ndarray) -> np.ndarray:
 
 
 # ------------------------------------------------------------------------------------------------- per channel
+STATS_FLOOR_BY_MAX = True   # interval statistics: near the floor means the interval maximum is (channel_arrays)
+
+
 @dataclass
 class ChannelArrays:
     """What the features of one channel's events read, prepared once per channel."""
@@ -154,8 +157,14 @@ def channel_arrays(series: ChannelSeries, config: AnalysisConfig, partner: Chann
     stats = series.kind == "stats"
     # the receiver's lowest reading; a level pinned within 2 dB of it is the floor even when the log gives values
     lowest = float(np.nanmin(level_low)) if np.isfinite(level_low).any() else math.nan
+    held = level_low
+    if stats and STATS_FLOOR_BY_MAX and "rsl_max_dbm" in frame.columns:
+        # interval statistics: a level held at the floor holds the whole interval there, its maximum too; a
+        # multipath hour on a long hop takes every interval's minimum to the floor for a second or two while the
+        # maximum stays near the clear level
+        held = frame["rsl_max_dbm"].to_numpy(dtype=float, na_value=np.nan)
     with np.errstate(invalid="ignore"):
-        near_floor = floor | (level_low <= lowest + 2.0)
+        near_floor = floor | (held <= lowest + 2.0)
     p_att = None
     if partner is not None and len(partner.frame) == len(frame):
         p_att = partner.frame["attenuation_peak_db" if stats else "attenuation_db"].to_numpy(
