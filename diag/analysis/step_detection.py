@@ -388,15 +388,21 @@ def detect_steps(level_dbm: pd.Series, interval_s: float, *, min_step_db: float 
     return steps
 
 
-def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: float) -> float:
-    """Share of the finite values within ``tol_db`` of ``level``; values faded more than ``fade_trim_db`` below it
-    are left out (rain on top of the level), and so are none above it."""
+def _level_counts(values: np.ndarray, level: float, tol_db: float, fade_trim_db: float) -> tuple[int, int]:
+    """(values within ``tol_db`` of ``level``, values counted): the finite values, less those faded more than
+    ``fade_trim_db`` below the level (rain on top of the level); none above it is left out."""
     x = values[np.isfinite(values)]
     x = x[x >= level - fade_trim_db]
-    return float(np.mean(np.abs(x - level) <= tol_db)) if x.size else 0.0
+    return int(np.count_nonzero(np.abs(x - level) <= tol_db)), int(x.size)
 
 
-STILL_WHOLE_SAMPLES = True
+def _level_share(values: np.ndarray, level: float, tol_db: float, fade_trim_db: float) -> float:
+    """Share of the values counted by :func:`_level_counts` that lie within ``tol_db`` of ``level`` (0 when none)."""
+    within, n = _level_counts(values, level, tol_db, fade_trim_db)
+    return within / n if n else 0.0
+
+
+STILL_WHOLE_SAMPLES = True   # _share_reached: the still share counted in whole samples, rounded down
 # interval statistics (with a spread): a downward move hidden by a fade lies before the first HIDDEN_STILL_RUN
 # intervals in a row that hold still at the new level (within the stillness tolerance) as narrow as clear air: an
 # hour of them.  A fade on the old level spreads its intervals or sits deeper, and light rain holding the same few
@@ -422,14 +428,12 @@ def _share_reached(values: np.ndarray, level: float, share: float, tol_db: float
     """At least ``share`` of the values counted by :func:`_level_share` lie within ``tol_db`` of ``level``, the
     share rounded down to whole samples: a window of eight 15-min intervals holds 7/8 or 8/8 of them, and 90 % of
     eight is seven (one interval off by one readout step does not make a still level wander)."""
-    x = values[np.isfinite(values)]
-    x = x[x >= level - fade_trim_db]
-    if not x.size:
+    within, n = _level_counts(values, level, tol_db, fade_trim_db)
+    if not n:
         return False
-    within = int(np.count_nonzero(np.abs(x - level) <= tol_db))
     if not STILL_WHOLE_SAMPLES:
-        return within / x.size >= share
-    return within >= math.floor(share * x.size + 1e-9)
+        return within / n >= share
+    return within >= math.floor(share * n + 1e-9)
 
 
 STILL_BLOCKS = 12   # sub-blocks of a window whose medians show a wandering level (10 min each in a 2-h window;

@@ -62,7 +62,7 @@ REFERENCE_PERSIST_S = {"sample": 2 * 3600.0, "stats": 6 * 3600.0}
 # interval does not: the windows' median spread must stay within HIDDEN_SPREAD_MARGIN_DB of the record's median
 # (fit seeds: B min/avg/max 0.7978 -> 0.8000, the other three unchanged within 0.0001; real unchanged)
 # The share is counted in whole samples, rounded down (step_detection.STILL_WHOLE_SAMPLES: seven of a 2-h window's
-# eight intervals; 2026-12-05, eighth sitting's follow-up): fit seeds B 0.8041 -> 0.8049 and 0.7822 -> 0.7907, C
+# eight intervals; 2026-12-05, ninth sitting): fit seeds B 0.8041 -> 0.8049 and 0.7822 -> 0.7907, C
 # 0.7993 -> 0.7992 and 0.7628 -> 0.7684, 1 s and 1 min unchanged; see docs/validation.md for the held-out figures
 HIDDEN_STEPS: tuple = ("sample", "stats")
 HIDDEN_WINDOW_S = 7200.0
