@@ -15,23 +15,15 @@ import pandas as pd
 from diag import schema as S
 from diag.analysis import classify
 from diag.links import Link
-from diag.pipeline import analyze_files
+from tests._minmax_export import analysed_minmax
 
 T0 = pd.Timestamp("2031-06-01T12:00:00Z")
 LOST = 60          # 03:00 UTC on the first night
 
 
 def _causes(tmp_path, link: Link) -> str:
-    lines = ["time_utc,link_id,channel,RSL min 15min (dBm),RSL max 15min (dBm)"]
-    for k in range(192):
-        lo, hi = ("LOS", -48.0) if k == LOST else (-51.0, -49.0)
-        t = T0 + pd.Timedelta(minutes=15 * k)
-        lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},{link.link_id},V,{lo},{hi}")
-    path = tmp_path / f"{link.link_id}.csv"
-    path.write_text("\n".join(lines) + "\n")
-    result = analyze_files([path], links=[link])[0]
-    assert result.error is None
-    frame = next(iter(result.series.values())).frame
+    rows = [("LOS", -48.0) if k == LOST else (-51.0, -49.0) for k in range(192)]
+    frame = analysed_minmax(tmp_path, link, rows, start=T0)
     assert frame["status"].astype(str).iloc[LOST] == S.SIGNAL_LOST
     return str(frame["cause"].astype(str).iloc[LOST])
 

@@ -16,7 +16,7 @@ import pytest
 from diag import schema as S
 from diag.analysis import features
 from diag.links import Link
-from diag.pipeline import analyze_files
+from tests._minmax_export import analysed_minmax
 
 T0 = pd.Timestamp("2031-06-01T12:00:00Z")
 NIGHT = range(56, 68)      # 02:00-05:00 UTC on the first night: three hours
@@ -25,19 +25,14 @@ NIGHT = range(56, 68)      # 02:00-05:00 UTC on the first night: three hours
 def _causes(tmp_path, dead: bool) -> list[str]:
     link = Link(link_id="MOOR-6", frequency_ghz=6.2, length_km=50.0, polarization="V", threshold_dbm=-88.0,
                 nominal_dbm=-50.0)
-    lines = ["time_utc,link_id,channel,RSL min 15min (dBm),RSL max 15min (dBm)"]
+    rows = []
     for k in range(192):
         lo, hi = -51.0, -49.0
         if k in NIGHT:
             # the receiver's lowest reading (-92 dBm) in every interval; the maximum dead too, or enhanced
             lo, hi = (-92.0, -91.0) if dead else (-92.0 + (k % 3), -46.0 - (k % 2))
-        t = T0 + pd.Timedelta(minutes=15 * k)
-        lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},{link.link_id},V,{lo},{hi}")
-    path = tmp_path / f"{link.link_id}.csv"
-    path.write_text("\n".join(lines) + "\n")
-    result = analyze_files([path], links=[link])[0]
-    assert result.error is None
-    frame = next(iter(result.series.values())).frame
+        rows.append((lo, hi))
+    frame = analysed_minmax(tmp_path, link, rows, start=T0)
     return [str(c) for c in frame["cause"].astype(str).iloc[NIGHT.start:NIGHT.stop]]
 
 
