@@ -382,17 +382,17 @@ def _hop_task(link_id: str, link: Link | None, pieces: list, store_refs: list, c
 
 def _first_pass(result: LinkResult, config) -> _HopOutcome:
     """The first-pass outcome of an analysed hop (result and files filled by the caller): its faded minutes, and
-    whether corroboration can change it.  A hop without fade events gets no network term (the network columns of
-    other events are empty whatever the other hops did), so it is re-scored here as :func:`diag.analysis.network.
-    corroborate` would; it is settled when that leaves the causes and the written columns as they are, else
-    pending like a hop with fade events."""
-    from diag.analysis.network import faded_minutes, network_columns, rescore, without_network
+    whether corroboration can change it.  A hop without fade events or level-shift spans gets no network term
+    (the network columns of other events are empty whatever the other hops did), so it is re-scored here as
+    :func:`diag.analysis.network.corroborate` would; it is settled when that leaves the causes and the written
+    columns as they are, else pending like a hop with fade events."""
+    from diag.analysis.network import asked_kinds, faded_minutes, network_columns, rescore, without_network
 
     minutes = faded_minutes(result)
     events = result.events
     if events is None or not len(events):
         return _HopOutcome(result, {}, minutes=minutes)
-    if "event_kind" not in events or (events["event_kind"] == "fade").any():
+    if "event_kind" not in events or events["event_kind"].isin(asked_kinds()).any():
         return _HopOutcome(result, {}, minutes=minutes, pending=True)
     rescored = rescore(result, network_columns(without_network(events), result.link, []), config=config)
     same = rescored[schema.EVENT_COLUMNS].equals(events[schema.EVENT_COLUMNS])

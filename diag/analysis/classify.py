@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.attribution import attribute, local_hour, rows_of, slow_depth
+from diag.analysis.attribution import RAIN_RATE_MAX_MMH, attribute, implied_rate_mmh, local_hour, rows_of, slow_depth
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior
 from diag.analysis.reference import AnalysisConfig
@@ -82,11 +82,15 @@ def _multipath_floor(row, link: Link | None, prior: HopPrior | None = None) -> b
     return float(prior.clear_air_exceed_pct(np.array([depth]))[0]) >= FLOOR_MULTIPATH_PCT
 
 
-def _equipment(row, spare_floor: bool = False) -> tuple[str, float, str] | None:
+def _equipment(row, spare_floor: bool = False, link: Link | None = None) -> tuple[str, float, str] | None:
     """Rules 1, 2 and the no-sample case of 4 (module docstring); None for a propagation event.  ``spare_floor``:
-    rule 2 stands aside (:func:`_multipath_floor` for this row)."""
+    rule 2 stands aside (:func:`_multipath_floor` for this row).  ``link``: the hop, for the network's veto of a
+    level step (:func:`_network_weather`)."""
     if row["event_kind"] == "level_shift":
         size, step = _f(row["peak_fade_db"]), _f(row["step_db"])
+        weather = _network_weather(row, link)
+        if weather is not None:
+            return weather
         return (S.LEVEL_SHIFT, float(min(0.99, max(0.05, 0.6 + 0.06 * size))),
                 f"clear-sky level {size:.1f} dB below its best for {duration_word(_f(row['duration_s']))} "
                 f"after an abrupt persistent step of {step:+.1f} dB at {row['start_utc']:%Y-%m-%d %H:%M} UTC")
@@ -111,12 +115,63 @@ def _equipment(row, spare_floor: bool = False) -> tuple[str, float, str] | None:
                 f"{shape} at the receiver floor: level within 2 dB of its lowest reading for "
                 f"{_f(row['near_floor_fraction']):.0%} of the event, {_f(row['peak_fade_db']):.0f} dB below the "
                 f"reference; a propagation fade does not sit still at the floor")
-    step = _step(row) or _step_under_fade(row) or _stats_step(row)
+    # rule 1d's held level stands aside where the network says weather: the posterior weighs that term itself
+    step = _step(row) or _step_under_fade(row) or (None if _network_weather(row, link) else _stats_step(row))
     if step is not None:
         return step
     if not math.isfinite(_f(row["peak_fade_db_finite"])) and not (floor_frac > 0):
         return S.UNKNOWN, 0.1, f"{shape} event without valid samples"
     return None
+
+
+# a level step the network contradicts (rule 1 and rule 1d stand aside): in the hour after the step, and (a span)
+# in the hour before the level came back, other hops of the network faded beyond chance by at least
+# WEATHER_STEP_EXCESS of their (distance-weighted) share, resting on at least one near hop's worth of weight, and
+# the level came back within WEATHER_STEP_MAX_S.  A knocked or loosened antenna is one hop's own, and one knocked in
+# a storm's wind stays down after the rain until it is repaired; a storm lowers many hops' levels together and
+# hands them back when it has passed (docs/references.md §8, "Neighbouring hops").  Stated choices: a quarter of
+# the network beyond chance (the issue's city storm faded a quarter or more of 75 hops at once); 12 h, beyond which
+# term_duration counts a fade as no rain
+NETWORK_VETO = True
+WEATHER_STEP_EXCESS = 0.25
+WEATHER_STEP_MAX_S = 12 * 3600.0
+WEATHER_STEP_CONFIDENCE = 0.8
+
+
+def _network_excess(row) -> tuple[float, float, float] | None:
+    """(share, chance, near weight beyond chance) of the network columns, or None when absent."""
+    share, hops = _f(row.get("network_share")), _f(row.get("network_hops"))
+    if not (math.isfinite(share) and hops >= 1 and share > 0.0):
+        return None
+    chance = _f(row.get("network_chance"))
+    chance = chance if math.isfinite(chance) else 0.0
+    mass = _f(row.get("network_faded_weight"))
+    near = mass * (share - chance) / share if math.isfinite(mass) else math.nan
+    return share, chance, near
+
+
+def _network_weather(row, link: Link | None) -> tuple[str, float, str] | None:
+    """A level step (rule 1's span, or rule 1d's held level) that the network says was weather: rain, with the
+    numbers; None when the network columns are absent or do not say so (``NETWORK_VETO``)."""
+    if not NETWORK_VETO or link is None:
+        return None
+    got = _network_excess(row)
+    dur = _f(row.get("duration_s"))
+    if got is None or not (dur <= WEATHER_STEP_MAX_S):
+        return None
+    share, chance, near = got
+    if not (share - chance >= WEATHER_STEP_EXCESS and (not math.isfinite(near) or near >= 1.0)):
+        return None
+    if row.get("event_kind") == "level_shift":   # the network still fading in the hour the level came back
+        end_share, end_chance = _f(row.get("step_end_share")), _f(row.get("step_end_chance"))
+        if not (end_share - (end_chance if math.isfinite(end_chance) else 0.0) >= WEATHER_STEP_EXCESS):
+            return None
+    size = _f(row.get("peak_fade_db_finite"))
+    if implied_rate_mmh(size, link, hop_prior(link)) > RAIN_RATE_MAX_MMH:   # rain cannot do it on this hop
+        return None
+    return (S.RAIN, WEATHER_STEP_CONFIDENCE,
+            f"{duration_word(dur)} drop of the level by {size:.1f} dB that came back, while {share:.0%} of the "
+            f"network's other hops faded (chance {chance:.0%}): weather over the network, not a knocked antenna")
 
 
 STEP_ONE_EDGE_S = 1800.0
@@ -322,7 +377,7 @@ def classify_events(events: pd.DataFrame, link: Link, *, config: AnalysisConfig 
     # floors that P.530 multipath reaches on this hop at night (interval statistics): rule 2 and the in-fade
     # drop-out painting below both stand aside for them
     deep_mp = np.array([_multipath_floor(row, link, prior) for row in rows], dtype=bool)
-    verdicts: list = [_equipment(row, bool(spare)) for row, spare in zip(rows, deep_mp)]
+    verdicts: list = [_equipment(row, bool(spare), link) for row, spare in zip(rows, deep_mp)]
     todo = [i for i, v in enumerate(verdicts) if v is None]
     tz = (config or AnalysisConfig()).local_tz
     if tz:   # the hour term's clock where the links table gives no coordinates

@@ -36,7 +36,7 @@ from diag.links import Link
 
 __all__ = ["faded_minutes", "minute_counts", "MinuteCounts", "network_columns", "rescore", "apply_network",
            "with_network", "without_network", "corroborates", "corroborate", "NETWORK_COLUMNS", "FADED_DB",
-           "MARGIN_S", "CORRELATION_KM", "midpoint"]
+           "MARGIN_S", "CORRELATION_KM", "midpoint", "NETWORK_STEPS", "STEP_WINDOW_S", "asked_kinds"]
 
 FADED_DB = 3.0
 # the chance rate of each other hop from its minutes OUTSIDE the event's window (``MinuteCounts.chance_outside``),
@@ -46,7 +46,7 @@ OUTSIDE_MIN_MINUTES = 360
 MARGIN_S = 300.0
 CORRELATION_KM = 20.0
 NETWORK_COLUMNS = ("network_share", "network_hops", "network_faded_weight", "network_chance", "network_weight",
-                   "episode_share", "episode_chance", "episode_hours")
+                   "episode_share", "episode_chance", "episode_hours", "step_end_share", "step_end_chance")
 # fades of one hop less than this apart make one episode (:func:`network_columns`): rain that keeps returning to a
 # path for hours is one spell of weather over the area, and in that time it reaches the near hops (stated choice)
 EPISODE_GAP_S = 1800.0
@@ -55,6 +55,14 @@ EPISODE_GAP_S = 1800.0
 # most often wrong in a storm (rain read as a slow fade on every hop at once), and leaving those out took the
 # storm's own evidence away (family B seed 93: a 5.7-h 44-dB storm fade at 41 GHz called refractive); they count.
 HOP_LOCAL = (S.MULTIPATH, S.LEVEL_SHIFT, S.SIGNAL_LOSS)
+# a level-shift span (a step of the hop's clear-sky level found by the reference stage) is asked about too, over
+# the hour after its step (``STEP_WINDOW_S``, clipped to the span; the usual columns) and the hour before its level
+# came back (``step_end_share``, ``step_end_chance``): a knocked antenna is one hop's own, while a storm that lowers
+# many hops' levels together and hands them back together is weather (classify reads the columns).  A knock in a
+# storm's wind is repaired when the crew comes, not when the rain stops.  Stated choice: a front crosses a city
+# network of 10-20 km at 10-20 m/s within about half an hour
+NETWORK_STEPS = True
+STEP_WINDOW_S = 3600.0
 
 
 def faded_minutes(result) -> pd.Series:
@@ -202,6 +210,11 @@ def _window_counts(lo: np.ndarray, hi: np.ndarray, mine, others) -> tuple[np.nda
     return count, den, num, share, chance
 
 
+def asked_kinds() -> tuple[str, ...]:
+    """The ``event_kind`` values :func:`network_columns` fills: fades, and level-shift spans (``NETWORK_STEPS``)."""
+    return ("fade", "level_shift") if NETWORK_STEPS else ("fade",)
+
+
 def network_columns(events: pd.DataFrame, link: Link,
                     others: Sequence[tuple[Link, pd.Series | MinuteCounts]]) -> pd.DataFrame:
     """``network_share`` and ``network_hops`` for each event of ``events`` (NaN / 0 for non-fade events), and the
@@ -219,32 +232,47 @@ def network_columns(events: pd.DataFrame, link: Link,
     ep_share = np.full(len(events), np.nan)
     ep_chance = np.full(len(events), np.nan)
     ep_hours = np.full(len(events), np.nan)
+    end_share = np.full(len(events), np.nan)
+    end_chance = np.full(len(events), np.nan)
 
     def table() -> pd.DataFrame:
         return pd.DataFrame({"network_share": share, "network_hops": hops, "network_faded_weight": mass,
                              "network_chance": chance, "network_weight": watched, "episode_share": ep_share,
-                             "episode_chance": ep_chance, "episode_hours": ep_hours}, index=events.index)
+                             "episode_chance": ep_chance, "episode_hours": ep_hours, "step_end_share": end_share,
+                             "step_end_chance": end_chance}, index=events.index)
 
     if not len(events) or not others:
         return table()
     start, end = pd.DatetimeIndex(events["start_utc"]), pd.DatetimeIndex(events["end_utc"])
     use = (events["event_kind"] == "fade").to_numpy(dtype=bool, na_value=False) & ~start.isna() & ~end.isna()
-    if not use.any():
-        return table()
-    margin = pd.Timedelta(seconds=MARGIN_S)
-    # a minute counts when its stamp lies in [start - margin, end + margin], ends included
-    lo = (start[use] - margin).as_unit("ns").asi8
-    hi = (end[use] + margin).as_unit("ns").asi8
+    steps = ((events["event_kind"] == "level_shift").to_numpy(dtype=bool, na_value=False) & ~start.isna()
+             & ~end.isna()) if "level_shift" in asked_kinds() else np.zeros(len(events), dtype=bool)
+    margin_ns = int(MARGIN_S * 1e9)
     mine = midpoint(link)
-    count, den, num, share[use], chance[use] = _window_counts(lo, hi, mine, others)
-    hops[use] = count
-    mass[use] = np.where(count > 0, num, 0.0)
-    watched[use] = den
-    # each episode counted once (an episode of one fade is that fade's own window, so the same figures)
-    ids, e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
-    _, _, _, e_share, e_chance = _window_counts(e_lo, e_hi, mine, others)
-    ep_share[use], ep_chance[use] = e_share[ids], e_chance[ids]
-    ep_hours[use] = (e_hi[ids] - e_lo[ids] - 2 * MARGIN_S * 1e9) / 3.6e12
+    if use.any():
+        # a minute counts when its stamp lies in [start - margin, end + margin], ends included
+        lo = start[use].as_unit("ns").asi8 - margin_ns
+        hi = end[use].as_unit("ns").asi8 + margin_ns
+        count, den, num, share[use], chance[use] = _window_counts(lo, hi, mine, others)
+        hops[use] = count
+        mass[use] = np.where(count > 0, num, 0.0)
+        watched[use] = den
+        # each episode counted once (an episode of one fade is that fade's own window, so the same figures)
+        ids, e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
+        _, _, _, e_share, e_chance = _window_counts(e_lo, e_hi, mine, others)
+        ep_share[use], ep_chance[use] = e_share[ids], e_chance[ids]
+        ep_hours[use] = (e_hi[ids] - e_lo[ids] - 2 * MARGIN_S * 1e9) / 3.6e12
+    if steps.any():   # the hour after each level step, and the hour before the level came back (no episode)
+        s0, s1 = start[steps].as_unit("ns").asi8, end[steps].as_unit("ns").asi8
+        window = int(STEP_WINDOW_S * 1e9)
+        count, den, num, share[steps], chance[steps] = _window_counts(s0 - margin_ns,
+                                                                      np.minimum(s1, s0 + window) + margin_ns,
+                                                                      mine, others)
+        hops[steps] = count
+        mass[steps] = np.where(count > 0, num, 0.0)
+        watched[steps] = den
+        _, _, _, end_share[steps], end_chance[steps] = _window_counts(np.maximum(s0, s1 - window) - margin_ns,
+                                                                      s1 + margin_ns, mine, others)
     return table()
 
 

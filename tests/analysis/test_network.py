@@ -67,11 +67,29 @@ def test_distance_weighted_share():
     assert plain["network_share"].iloc[0] == pytest.approx(0.5)
 
 
-def test_only_fade_events_get_columns_and_a_hop_alone_gets_none():
-    got = N.network_columns(_events(kinds=("fade", "level_shift")), _link("X"), [(_link("A"), _minutes([5]))])
-    assert got["network_hops"].tolist() == [1, 0] and math.isnan(got["network_share"].iloc[1])
+def test_a_hop_alone_gets_no_columns():
     alone = N.network_columns(_events(), _link("X"), [])
     assert alone["network_hops"].tolist() == [0] and math.isnan(alone["network_share"].iloc[0])
+
+
+def test_a_level_step_is_asked_about_the_hour_after_it():
+    """A level-shift span of 3 h from T0: the window is [T0 - margin, T0 + STEP_WINDOW_S + margin], not the whole
+    span (a knocked antenna's span runs for days, through any weather); it forms no episode."""
+    span = _events(kinds=("fade", "level_shift"), start_min=0, end_min=180)
+    step_min = N.STEP_WINDOW_S / 60.0
+    within = _minutes([int(step_min) + 2], seen=range(-60, 300))     # 2 min after the hour: inside the margin
+    later = _minutes([int(step_min) + 30], seen=range(-60, 300))     # half an hour later: outside
+    got = N.network_columns(span, _link("X"), [(_link("A"), within)])
+    assert got["network_hops"].tolist() == [1, 1] and got["network_share"].tolist() == [1.0, 1.0]
+    assert math.isnan(got["episode_share"].iloc[1])
+    got = N.network_columns(span, _link("X"), [(_link("A"), later)])
+    assert got["network_share"].tolist() == [1.0, 0.0]     # the fade's own window is the whole 3 h
+
+
+def test_without_the_switch_a_level_step_gets_no_columns(monkeypatch):
+    monkeypatch.setattr(N, "NETWORK_STEPS", False)
+    got = N.network_columns(_events(kinds=("fade", "level_shift")), _link("X"), [(_link("A"), _minutes([5]))])
+    assert got["network_hops"].tolist() == [1, 0] and math.isnan(got["network_share"].iloc[1])
 
 
 def _stats_result(peaks_db: list[float]) -> LinkResult:

@@ -1,0 +1,85 @@
+"""A level step the network contradicts is weather (diag.analysis.classify._network_weather).
+
+A knocked or loosened antenna lowers one hop's clear-sky level; a storm front lowers the levels of many hops of a
+network in the same hour and gives them back when it has passed (rain is weather and fades neighbouring hops
+together: the nearby-link rain detection of Overeem, Leijnse and Uijlenhoet, Atmos. Meas. Tech. 9, 2425-2444, 2016,
+rests on the same fact).  In 15-min statistics a rain fade that holds steady for a few hours looks like a level
+step on its own hop (real OpenRainER links on 18 Aug 2022 were called level shifts that way).  Stated choices of the
+module: other hops fading beyond chance by a quarter of the network, a level back within 12 h.
+
+The min/max exports are written by hand; the network, its place and hop names are invented.
+"""
+from __future__ import annotations
+
+import pandas as pd
+
+from diag import schema as S
+from diag.analysis import classify
+from diag.links import Link
+from diag.pipeline import analyze_files
+
+T0 = pd.Timestamp("2031-07-02T00:00:00Z")
+DAYS = 3
+STORM = range(2 * 96 + 60, 2 * 96 + 72)      # day 3, 15:00-18:00 UTC: three hours
+
+
+def _link(hop: str, k: int) -> Link:
+    lat, lon = 47.10 + 0.01 * k, 8.30 + 0.01 * k      # hops a kilometre or two apart
+    return Link(link_id=hop, frequency_ghz=23.0, length_km=4.0, polarization="V", threshold_dbm=-80.0,
+                nominal_dbm=-45.0, site_a_lat=lat, site_a_lon=lon, site_b_lat=lat + 0.02, site_b_lon=lon + 0.02)
+
+
+def _rows(held: bool, rain: bool) -> list[tuple[float, float]]:
+    rows = []
+    for k in range(DAYS * 96):
+        lo, hi = -46.0, -45.0
+        if k in STORM and held:        # the level held 6 dB down, flat, and back after three hours
+            lo, hi = -52.0, -51.0
+        elif k in STORM and rain:      # a rain fade: deeper in the middle, ragged
+            depth = 4.0 + 8.0 * (1.0 - abs(k - STORM.start - 6) / 6.0) + (k % 3)
+            lo, hi = -45.0 - depth - 2.0, -45.0 - depth + 1.0
+        rows.append((lo, hi))
+    return rows
+
+
+def _write(tmp_path, link: Link, rows) -> object:
+    lines = ["time_utc,link_id,channel,RSL min 15min (dBm),RSL max 15min (dBm)"]
+    for k, (lo, hi) in enumerate(rows):
+        lines.append(f"{T0 + pd.Timedelta(minutes=15 * k):%Y-%m-%dT%H:%M:%SZ},{link.link_id},V,{lo},{hi}")
+    path = tmp_path / f"{link.link_id}.csv"
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def _storm_causes(tmp_path, neighbours_rain: bool, n_neighbours: int = 4) -> list[str]:
+    links = [_link("HOLLOW-1", 0)] + [_link(f"HOLLOW-{k + 2}", k + 1) for k in range(n_neighbours)]
+    paths = [_write(tmp_path, links[0], _rows(held=True, rain=False))]
+    paths += [_write(tmp_path, link, _rows(held=False, rain=neighbours_rain)) for link in links[1:]]
+    results = {r.link.link_id: r for r in analyze_files(paths, links=links)}
+    frame = next(iter(results["HOLLOW-1"].series.values())).frame
+    return [str(c) for c in frame["cause"].astype(str).iloc[STORM.start:STORM.stop]]
+
+
+def test_a_held_drop_alone_on_its_hop_is_a_level_shift(tmp_path):
+    causes = _storm_causes(tmp_path, neighbours_rain=False)
+    assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
+
+
+def test_the_same_drop_while_the_neighbours_fade_is_rain(tmp_path):
+    assert classify.NETWORK_VETO
+    causes = _storm_causes(tmp_path, neighbours_rain=True)
+    assert causes.count(S.RAIN) >= len(causes) - 1, causes
+
+
+def test_without_the_veto_the_network_does_not_move_the_step(tmp_path, monkeypatch):
+    monkeypatch.setattr(classify, "NETWORK_VETO", False)
+    causes = _storm_causes(tmp_path, neighbours_rain=True)
+    assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
+
+
+def test_a_drop_held_longer_than_the_bound_stays_a_level_shift(tmp_path, monkeypatch):
+    """The network vetoes only a level back within WEATHER_STEP_MAX_S (12 h: longer is no rain, term_duration);
+    with the bound lowered to 2 h the 3-h drop stays the hop's own step."""
+    monkeypatch.setattr(classify, "WEATHER_STEP_MAX_S", 2 * 3600.0)
+    causes = _storm_causes(tmp_path, neighbours_rain=True)
+    assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
