@@ -29,11 +29,12 @@ def _link(hop: str, k: int) -> Link:
                 nominal_dbm=-45.0, site_a_lat=lat, site_a_lon=lon, site_b_lat=lat + 0.02, site_b_lon=lon + 0.02)
 
 
-def _rows(held: bool, rain: bool) -> list[tuple[float, float]]:
+def _rows(held: bool, rain: bool, held_after_h: float = 0.0) -> list[tuple[float, float]]:
+    held_until = STORM.stop + int(4 * held_after_h)
     rows = []
     for k in range(DAYS * 96):
         lo, hi = -46.0, -45.0
-        if k in STORM and held:        # the level held 6 dB down, flat, and back after three hours
+        if held and STORM.start <= k < held_until:   # the level held 6 dB down, flat, and back after three hours
             lo, hi = -52.0, -51.0
         elif k in STORM and rain:      # a rain fade: deeper in the middle, ragged
             depth = 4.0 + 8.0 * (1.0 - abs(k - STORM.start - 6) / 6.0) + (k % 3)
@@ -51,9 +52,9 @@ def _write(tmp_path, link: Link, rows) -> object:
     return path
 
 
-def _storm_causes(tmp_path, neighbours_rain: bool, n_neighbours: int = 4) -> list[str]:
+def _storm_causes(tmp_path, neighbours_rain: bool, n_neighbours: int = 4, held_after_h: float = 0.0) -> list[str]:
     links = [_link("HOLLOW-1", 0)] + [_link(f"HOLLOW-{k + 2}", k + 1) for k in range(n_neighbours)]
-    paths = [_write(tmp_path, links[0], _rows(held=True, rain=False))]
+    paths = [_write(tmp_path, links[0], _rows(held=True, rain=False, held_after_h=held_after_h))]
     paths += [_write(tmp_path, link, _rows(held=False, rain=neighbours_rain)) for link in links[1:]]
     results = {r.link.link_id: r for r in analyze_files(paths, links=links)}
     frame = next(iter(results["HOLLOW-1"].series.values())).frame
@@ -82,4 +83,11 @@ def test_a_drop_held_longer_than_the_bound_stays_a_level_shift(tmp_path, monkeyp
     with the bound lowered to 2 h the 3-h drop stays the hop's own step."""
     monkeypatch.setattr(classify, "WEATHER_STEP_MAX_S", 2 * 3600.0)
     causes = _storm_causes(tmp_path, neighbours_rain=True)
+    assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
+
+
+def test_a_knock_in_the_storm_that_stays_down_after_it_is_a_level_shift(tmp_path):
+    """The network faded in the hour after the step, but the level came back four hours after the neighbours
+    cleared (a repair, not the end of the rain): the hop's own step."""
+    causes = _storm_causes(tmp_path, neighbours_rain=True, held_after_h=4.0)
     assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
