@@ -6,7 +6,8 @@ A short chain; the features come from :mod:`diag.analysis.events`:
    the best level, opened by an abrupt persistent step (:func:`diag.analysis.steps.detect_steps`).  Confidence
    grows with the step.  A temporary step (rules 1b-1d): both edges within one sample and flat between; a step
    with a fade on top (1-s samples); in interval statistics, a level held within 0.3 dB for 45 min or more with a
-   clear-air spread.
+   clear-air spread.  A span or held level that the network contradicts (other hops fading beyond chance in the
+   hour after the step and in the hour the level came back: :func:`_network_weather`) is rain instead.
 2. **signal_loss** (equipment) - at least half of the event at the receiver floor, with the level in the 30 s
    before the first floor sample within 6 dB of the reference: the signal vanished abruptly from near clear-sky
    level, which no propagation mechanism does (rain and refractive fades descend gradually; multipath dips last
@@ -133,6 +134,9 @@ def _equipment(row, spare_floor: bool = False, link: Link | None = None) -> tupl
 # the network beyond chance (the city storm faded a quarter or more of 75 hops at once); 12 h, beyond which
 # term_duration counts a fade as no rain
 NETWORK_VETO = True
+# at samples of 10 s or finer a rain fade moves less than this in one sample (rain fade slopes stay near 1 dB/s or
+# below, ITU-R P.1623, from memory; the bound of rule 1c), so a step that abrupt is equipment
+WEATHER_STEP_SAMPLE_DB = 3.0
 WEATHER_STEP_EXCESS = 0.25
 WEATHER_STEP_MAX_S = 12 * 3600.0
 WEATHER_STEP_CONFIDENCE = 0.8
@@ -161,6 +165,10 @@ def _network_weather(row, link: Link | None) -> tuple[str, float, str] | None:
         return None
     share, chance, near = got
     if not (share - chance >= WEATHER_STEP_EXCESS and (not math.isfinite(near) or near >= 1.0)):
+        return None
+    # resolved by the samples: a step that moves WEATHER_STEP_SAMPLE_DB or more within one sample of 10 s or less
+    # (evidence.jump_in_db of a span) is no rain, whatever the network did (rule 1c's bound)
+    if _f(row.get("interval_s")) <= 10.0 and _f(row.get("jump_in_db")) >= WEATHER_STEP_SAMPLE_DB:
         return None
     if row.get("event_kind") == "level_shift":   # the network still fading in the hour the level came back
         end_share, end_chance = _f(row.get("step_end_share")), _f(row.get("step_end_chance"))

@@ -17,7 +17,10 @@ Columns (units in the names):
   median over the hour before: ATPC hides that much of the propagation fade from the RSL (the fade on the path is
   the RSL fade plus this rise).
 
-Level-shift spans and events without samples get NaN.
+Level-shift spans get ``jump_in_db`` only at samples 10 s apart or finer: the largest one-sample move of the path
+level (RSL less logged TSL changes) in the direction of the opening step within ``SPAN_EDGE_SEARCH_S`` of the
+span's start (the reference stage places the step to within a block of samples); everything else NaN, as for
+events without samples.
 """
 from __future__ import annotations
 
@@ -31,6 +34,25 @@ __all__ = ["add_evidence", "EVIDENCE_COLUMNS"]
 
 EVIDENCE_COLUMNS = ["jump_in_db", "jump_out_db", "flat_std_db", "plateau_in_db", "plateau_out_db",
                     "plateau_q10_db", "plateau_s", "tsl_rise_db"]
+SPAN_EDGE_SEARCH_S = 600.0   # stated choice: ten minutes either side of a span's start
+
+
+def _span_edges(out: pd.DataFrame, item: ChannelSeries, rows: np.ndarray, cols: dict) -> None:
+    """``jump_in_db`` of the level-shift spans ``rows`` of one channel sampled 10 s apart or finer (module
+    docstring)."""
+    from diag.analysis.steps import path_level
+
+    level = path_level(item.frame)
+    w = max(1, int(round(SPAN_EDGE_SEARCH_S / max(item.interval_s, 1e-9))))
+    first = out["start_index"].to_numpy(dtype=float)
+    sign = np.sign(out["step_db"].to_numpy(dtype=float))
+    for k in rows:
+        if not (np.isfinite(first[k]) and np.isfinite(sign[k]) and sign[k] != 0):
+            continue
+        a = int(first[k])
+        moves = np.diff(level[max(a - w, 0):min(a + w + 1, level.size)]) * sign[k]
+        if np.isfinite(moves).any():
+            cols["jump_in_db"][k] = float(np.nanmax(moves))
 
 
 def _plateau(att: np.ndarray, interval_s: float, cols: dict, k: int) -> None:
@@ -64,6 +86,9 @@ def add_evidence(events: pd.DataFrame, series: dict[str, ChannelSeries]) -> pd.D
         first = out["start_index"].to_numpy(dtype=float)
         last = out["end_index"].to_numpy(dtype=float)
         for name, item in series.items():
+            spans = np.flatnonzero((channels == str(name)) & (kinds == "level_shift"))
+            if spans.size and item.interval_s <= 10.0:
+                _span_edges(out, item, spans, cols)
             rows = np.flatnonzero((channels == str(name)) & (kinds == "fade"))
             if not rows.size:
                 continue

@@ -11,7 +11,9 @@ The min/max exports are written by hand; the network, its place and hop names ar
 """
 from __future__ import annotations
 
+import numpy as np
 import pandas as pd
+import pytest
 
 from diag import schema as S
 from diag.analysis import classify
@@ -91,3 +93,46 @@ def test_a_knock_in_the_storm_that_stays_down_after_it_is_a_level_shift(tmp_path
     cleared (a repair, not the end of the rain): the hop's own step."""
     causes = _storm_causes(tmp_path, neighbours_rain=True, held_after_h=4.0)
     assert causes.count(S.LEVEL_SHIFT) >= len(causes) - 1, causes
+
+
+# --- the step's own edge at fine samples ----------------------------------------------------------------------
+def _span_row(interval_s: float, jump_db: float) -> dict:
+    """A level-shift span of 3 h, 9 dB, with the network fading in its first and last hour (columns as
+    diag.analysis.network writes them)."""
+    return {"event_kind": "level_shift", "kind": "sample", "interval_s": interval_s, "duration_s": 3 * 3600.0,
+            "peak_fade_db_finite": 9.0, "network_share": 0.9, "network_hops": 4.0, "network_chance": 0.1,
+            "network_faded_weight": 3.6, "step_end_share": 0.8, "step_end_chance": 0.1, "jump_in_db": jump_db}
+
+
+def test_an_abrupt_step_at_one_second_is_no_rain_whatever_the_network_did():
+    """At 1 s a rain fade moves well under 3 dB in a sample (fade slopes near 1 dB/s or below, ITU-R P.1623, from
+    memory): a 9-dB one-second edge is equipment even in a storm."""
+    link = _link("HOLLOW-1", 0)
+    assert classify._network_weather(_span_row(1.0, 9.0), link) is None
+    assert classify._network_weather(_span_row(1.0, 0.6), link)[0] == S.RAIN
+
+
+def test_at_one_minute_a_large_one_sample_edge_can_still_be_rain():
+    """At 1 min a rain cell can move the level by several dB in one sample (real 1-min OpenRainER logs, link 61 on
+    18 Aug 2022, show rain plateaus with one-minute edges; rule 1c of classify leaves 1-min steps under a fade to
+    the posterior for the same reason): the edge bound is for samples of 10 s or finer only."""
+    assert classify._network_weather(_span_row(60.0, 9.0), _link("HOLLOW-1", 0))[0] == S.RAIN
+
+
+def test_the_span_edge_is_read_from_the_path_level_at_fine_samples():
+    """evidence.add_evidence gives a 1-s span the largest one-sample move of the level in its step's direction
+    near its start; at 1 min spans get none."""
+    from diag.analysis.evidence import add_evidence
+    from diag.results import ChannelSeries
+
+    n, at = 3600, 1800
+    index = pd.date_range(T0, periods=n, freq="1s")
+    rsl = np.where(np.arange(n) < at, -45.0, -54.0) + 0.05 * np.sin(np.arange(n))
+    frame = pd.DataFrame({"rsl_dbm": rsl, "status": ["ok"] * n, "attenuation_db": np.zeros(n)}, index=index)
+    series = {"V": ChannelSeries(link_id="HOLLOW-1", channel="V", interval_s=1.0, kind="sample", frame=frame)}
+    events = pd.DataFrame({"event_kind": ["level_shift"], "channel": ["V"], "start_index": [at + 30],
+                           "end_index": [n], "step_db": [-9.0]})
+    got = add_evidence(events, series)["jump_in_db"].iloc[0]
+    assert got == pytest.approx(9.0, abs=0.2)
+    coarse = {"V": ChannelSeries(link_id="HOLLOW-1", channel="V", interval_s=60.0, kind="sample", frame=frame)}
+    assert np.isnan(add_evidence(events, coarse)["jump_in_db"].iloc[0])
