@@ -116,8 +116,11 @@ def _equipment(row, spare_floor: bool = False, link: Link | None = None) -> tupl
                 f"{shape} at the receiver floor: level within 2 dB of its lowest reading for "
                 f"{_f(row['near_floor_fraction']):.0%} of the event, {_f(row['peak_fade_db']):.0f} dB below the "
                 f"reference; a propagation fade does not sit still at the floor")
-    # rule 1d's held level stands aside where the network says weather: the posterior weighs that term itself
-    step = _step(row) or _step_under_fade(row) or (None if _network_weather(row, link) else _stats_step(row))
+    step = _step(row) or _step_under_fade(row)
+    if step is None:
+        held = _stats_step(row)
+        # rule 1d's held level stands aside where the network says weather: the posterior weighs that term itself
+        step = None if held is not None and _network_weather(row, link) is not None else held
     if step is not None:
         return step
     if not math.isfinite(_f(row["peak_fade_db_finite"])) and not (floor_frac > 0):
