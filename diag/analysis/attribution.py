@@ -407,6 +407,20 @@ NETWORK_SILENCE_MAX = 10.0
 NETWORK_SILENCE_NEGLIGIBLE = 0.01
 
 
+def network_excess(row) -> tuple[float, float, float] | None:
+    """(share, chance, weight beyond chance) of an event's network columns (:mod:`diag.analysis.network`): the
+    share of the other hops that faded, the share expected by chance (0 when unknown), and the nearness weight of
+    the hops that faded scaled to the excess over chance (NaN without ``network_faded_weight``).  None when no
+    other hop was seen or none faded."""
+    share, others = _f(row.get("network_share")), _f(row.get("network_hops"))
+    if not (math.isfinite(share) and others >= 1 and share > 0.0):
+        return None
+    chance = _f(row.get("network_chance"))
+    chance = chance if math.isfinite(chance) else 0.0
+    mass = _f(row.get("network_faded_weight"))
+    return share, chance, (mass * (share - chance) / share if math.isfinite(mass) else math.nan)
+
+
 def term_network(row, link: Link, prior: HopPrior):
     """Other hops of the network fading in the same minutes BEYOND CHANCE (columns of
     :mod:`diag.analysis.network`: ``network_share``, the distance-weighted share that faded; ``network_chance``, the
@@ -460,8 +474,7 @@ def term_network(row, link: Link, prior: HopPrior):
     # the evidence rests on the hops that faded beyond chance, weighted by nearness (1 each without coordinates):
     # one faded hop at 0 km, or several further off, give the full term; hops 50 km away fading in a regional
     # storm give little
-    mass = _f(row.get("network_faded_weight"))
-    mass = mass * excess / share if math.isfinite(mass) else math.nan
+    mass = network_excess(row)[2]
     near = min(1.0, mass) if math.isfinite(mass) else 1.0
     # several near hops fading together (a storm over the network) are more than one: +1 per further near hop's
     # worth of weight, up to +2 more (hop-local mechanisms almost never fade three neighbours in the same minutes)

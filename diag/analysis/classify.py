@@ -38,7 +38,15 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
-from diag.analysis.attribution import RAIN_RATE_MAX_MMH, attribute, implied_rate_mmh, local_hour, rows_of, slow_depth
+from diag.analysis.attribution import (
+    RAIN_RATE_MAX_MMH,
+    attribute,
+    implied_rate_mmh,
+    local_hour,
+    network_excess,
+    rows_of,
+    slow_depth,
+)
 from diag.analysis.events import SPLIT_SLOW_DB, STILL_EDGE_FLAT_DB, STILL_EDGE_MIN_S, STILL_EDGE_SPREAD_DB
 from diag.analysis.priors import HopPrior, clear_air_negligible, hop_prior
 from diag.analysis.reference import AnalysisConfig
@@ -149,24 +157,12 @@ WEATHER_STEP_MAX_S = 12 * 3600.0
 WEATHER_STEP_CONFIDENCE = 0.8
 
 
-def _network_excess(row) -> tuple[float, float, float] | None:
-    """(share, chance, near weight beyond chance) of the network columns, or None when absent."""
-    share, hops = _f(row.get("network_share")), _f(row.get("network_hops"))
-    if not (math.isfinite(share) and hops >= 1 and share > 0.0):
-        return None
-    chance = _f(row.get("network_chance"))
-    chance = chance if math.isfinite(chance) else 0.0
-    mass = _f(row.get("network_faded_weight"))
-    near = mass * (share - chance) / share if math.isfinite(mass) else math.nan
-    return share, chance, near
-
-
 def _network_weather(row, link: Link | None) -> tuple[str, float, str] | None:
     """A level step (rule 1's span, or rule 1d's held level) that the network says was weather: rain, with the
     numbers; None when the network columns are absent or do not say so (``NETWORK_VETO``)."""
     if not NETWORK_VETO or link is None:
         return None
-    got = _network_excess(row)
+    got = network_excess(row)
     dur = _f(row.get("duration_s"))
     if got is None or not (dur <= WEATHER_STEP_MAX_S):
         return None

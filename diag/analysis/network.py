@@ -249,14 +249,18 @@ def network_columns(events: pd.DataFrame, link: Link,
              & ~end.isna()) if "level_shift" in asked_kinds() else np.zeros(len(events), dtype=bool)
     margin_ns = int(MARGIN_S * 1e9)
     mine = midpoint(link)
+
+    def fill(rows: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> None:   # the columns of one window per row
+        count, den, num, share[rows], chance[rows] = _window_counts(lo, hi, mine, others)
+        hops[rows] = count
+        mass[rows] = np.where(count > 0, num, 0.0)
+        watched[rows] = den
+
     if use.any():
         # a minute counts when its stamp lies in [start - margin, end + margin], ends included
         lo = start[use].as_unit("ns").asi8 - margin_ns
         hi = end[use].as_unit("ns").asi8 + margin_ns
-        count, den, num, share[use], chance[use] = _window_counts(lo, hi, mine, others)
-        hops[use] = count
-        mass[use] = np.where(count > 0, num, 0.0)
-        watched[use] = den
+        fill(use, lo, hi)
         # each episode counted once (an episode of one fade is that fade's own window, so the same figures)
         ids, e_lo, e_hi = _episodes(lo, hi, int(EPISODE_GAP_S * 1e9))
         _, _, _, e_share, e_chance = _window_counts(e_lo, e_hi, mine, others)
@@ -265,12 +269,7 @@ def network_columns(events: pd.DataFrame, link: Link,
     if steps.any():   # the hour after each level step, and the hour before the level came back (no episode)
         s0, s1 = start[steps].as_unit("ns").asi8, end[steps].as_unit("ns").asi8
         window = int(STEP_WINDOW_S * 1e9)
-        count, den, num, share[steps], chance[steps] = _window_counts(s0 - margin_ns,
-                                                                      np.minimum(s1, s0 + window) + margin_ns,
-                                                                      mine, others)
-        hops[steps] = count
-        mass[steps] = np.where(count > 0, num, 0.0)
-        watched[steps] = den
+        fill(steps, s0 - margin_ns, np.minimum(s1, s0 + window) + margin_ns)
         _, _, _, end_share[steps], end_chance[steps] = _window_counts(np.maximum(s0, s1 - window) - margin_ns,
                                                                       s1 + margin_ns, mine, others)
     return table()
