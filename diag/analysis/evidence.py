@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from diag import schema as S
+from diag.analysis.steps import path_level
 from diag.results import ChannelSeries
 
 __all__ = ["add_evidence", "EVIDENCE_COLUMNS"]
@@ -40,8 +41,6 @@ SPAN_EDGE_SEARCH_S = 600.0   # stated choice: ten minutes either side of a span'
 def _span_edges(out: pd.DataFrame, item: ChannelSeries, rows: np.ndarray, cols: dict) -> None:
     """``jump_in_db`` of the level-shift spans ``rows`` of one channel sampled 10 s apart or finer (module
     docstring)."""
-    from diag.analysis.steps import path_level
-
     level = path_level(item.frame)
     w = max(1, int(round(SPAN_EDGE_SEARCH_S / max(item.interval_s, 1e-9))))
     first = out["start_index"].to_numpy(dtype=float)
