@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.analysis.attribution import RAIN_RATE_MAX_MMH, attribute, implied_rate_mmh
+from diag.analysis.attribution import F, RAIN_RATE_MAX_MMH, attribute, evidence_terms, implied_rate_mmh
 from diag.analysis.priors import clear_air_negligible, hop_prior
 from diag.config import AnalysisConfig
 from diag.links import make_link
@@ -148,6 +148,18 @@ def test_no_verdict_names_a_physically_excluded_cause(f, d):
             assert cause not in (S.MULTIPATH, S.REFRACTIVE), (f, d, depth, text)
         if implied_rate_mmh(depth, link, prior) > RAIN_RATE_MAX_MMH:
             assert cause != S.RAIN, (f, d, depth, text)
+
+
+def test_no_refractive_verdict_for_a_fade_over_within_ten_minutes():
+    # a slow refractive fade follows the refractivity profile of the lowest hundred metres, which changes over tens
+    # of minutes (from memory; attribution.REFRACTIVE_MIN_S): on a long 6.5-GHz hop where refraction can fade 19 dB
+    # (P.526 knife edge plus beam decoupling), smooth 8-dB fades of 2-8 min at 1-min samples are never refractive,
+    # while the same fade lasting an hour may be
+    link = _link(6.5, 37.0)
+    rows = [{**_row(8.0, duration_s=d), "variability_db": 0.3, "upfade_context_db": 0.0} for d in (120, 300, 480, 3600)]
+    _, _, _, allowed = evidence_terms(rows, link)
+    assert not allowed[:3, F].any() and allowed[3, F]
+    assert S.REFRACTIVE not in [cause for cause, _, _ in attribute(rows[:3], link)]
 
 
 def test_prior_orders_of_magnitude():
