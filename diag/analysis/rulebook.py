@@ -1,7 +1,8 @@
-"""The default cause attribution (``AnalysisConfig.attribution = "rules"``): an ordered rulebook, each event's cause
-with a confidence and a one-line evidence string that quotes the numbers.  The physics-based posterior
-(:mod:`diag.analysis.classify`, ``attribution = "posterior"``) is the candidate that is to replace it once it
-meets the real-data bars (docs/validation.md).
+"""The older cause attribution, kept for comparison (``AnalysisConfig.attribution = "rules"``, ``--attribution
+rules``): an ordered rulebook, each event's cause with a confidence and a one-line evidence string that quotes the
+numbers.  The default is the physics-based posterior (:mod:`diag.analysis.classify`, ``attribution =
+"posterior"``), which replaced it on the independent scenario families and the real links (docs/validation.md §3a,
+§6a).
 
 
 Physics-based rules (no trained model).  The features come from :mod:`diag.analysis.events`; the physics behind each
