@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 
 from diag import schema as S
-from diag.analysis.attribution import F, RAIN_RATE_MAX_MMH, attribute, evidence_terms, implied_rate_mmh
+from diag.analysis.attribution import RAIN_RATE_MAX_MMH, F, attribute, evidence_terms, implied_rate_mmh
 from diag.analysis.priors import clear_air_negligible, hop_prior
 from diag.config import AnalysisConfig
 from diag.links import make_link
