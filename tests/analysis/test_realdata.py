@@ -194,9 +194,13 @@ def test_dry_days_and_nights_not_called_rain(table):
 
 def test_gauge_dry_minutes_mostly_not_rain(table):
     # any day, every gauge within 10 km at 0 mm over +-1 h: measured 10 of 104 (2026-12-04 evening), all on link 275 on
-    # 19 Aug (3-4 dB dips analysed with the link alone; no gauge within 10 km but one)
+    # 19 Aug (3-4 dB dips analysed with the link alone; no gauge within 10 km but one); 12 of 106 on 2026-12-05; 16 of
+    # 106 since 2026-12-06, when a fade over within 10 min may no longer be refractive (attribution.REFRACTIVE_MIN_S):
+    # link 275's short night dips then went refractive 41 -> 37 min, multipath 34 -> 38, rain 12 -> 16 (a 7-min
+    # 3.6-dB dip at 20:47 UTC among them).  The bar was 0.15 until then: a regression bar, raised with that reason,
+    # not a claim
     assert table["net_dry_faded_min"].sum() > 100
-    assert _share(table, "net_dry_called_rain", "net_dry_faded_min") <= 0.15
+    assert _share(table, "net_dry_called_rain", "net_dry_faded_min") <= 0.16
     # nearest gauge alone: 61 of 155 (0.39), the showers above and 142 on 18 Aug 20:06-20:46 (24 dB, both
     # sub-links, gauges 8.9 and 9.9 km away wet); a regression bar, not a claim
     assert _share(table, "dry_called_rain", "dry_faded_min") <= 0.45
